@@ -1,0 +1,7 @@
+// Package loadkit holds what the load tools of tests/load share: the layout
+// of a load datagram, a CLOCK_MONOTONIC reading that is cheap enough for the
+// hot path, and the receiver's tally — sequence accounting (received, lost,
+// duplicated, reordered) and latency percentiles.
+//
+// It opens no sockets and reads no flags; the programs beside it do.
+package loadkit
