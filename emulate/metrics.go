@@ -1,0 +1,124 @@
+package emulate
+
+import (
+	"github.com/prometheus/client_golang/prometheus"
+)
+
+// Outcomes of a datagram, as the metrics and the record spell them. Every
+// datagram the relay reads ends in exactly one of them.
+const (
+	OutcomeForwarded = "forwarded" // released to its destination
+	OutcomeDropped   = "dropped"   // lost by the profile's loss draw
+	OutcomeOverflow  = "overflow"  // the direction's in-flight bound was reached
+	OutcomeStranger  = "stranger"  // from a source that is not the rig's
+	OutcomeOversized = "oversized" // longer than the largest datagram accepted
+	OutcomeSendError = "send_error"
+	// OutcomeShutdown: still in the schedule when a forced stop came.
+	OutcomeShutdown = "shutdown"
+)
+
+// Metrics are the relay's Prometheus metrics, registered on the registry
+// passed to NewMetrics. All names carry the rigwire_relay_ prefix and base
+// units.
+type Metrics struct {
+	Datagrams    *prometheus.CounterVec   // direction, outcome
+	Bytes        *prometheus.CounterVec   // direction: payload bytes forwarded
+	Delay        *prometheus.HistogramVec // direction: drawn delay
+	Lateness     *prometheus.HistogramVec // direction: actual − due release time
+	InFlight     *prometheus.GaugeVec     // direction
+	ChannelState *prometheus.GaugeVec     // direction, state: 1 for the current state
+	Tap          *prometheus.CounterVec   // outcome: sent, send_error
+	RecordLost   prometheus.Counter
+	Reloads      *prometheus.CounterVec // result: ok, error
+}
+
+// NewMetrics creates the relay's metrics and registers them on reg.
+func NewMetrics(reg prometheus.Registerer) *Metrics {
+	m := &Metrics{
+		Datagrams: prometheus.NewCounterVec(prometheus.CounterOpts{
+			Name: "rigwire_relay_datagrams_total",
+			Help: "Datagrams the relay read, by direction and by what became of them.",
+		}, []string{"direction", "outcome"}),
+		Bytes: prometheus.NewCounterVec(prometheus.CounterOpts{
+			Name: "rigwire_relay_forwarded_bytes_total",
+			Help: "Payload bytes released to their destination, by direction.",
+		}, []string{"direction"}),
+		Delay: prometheus.NewHistogramVec(prometheus.HistogramOpts{
+			Name:    "rigwire_relay_delay_seconds",
+			Help:    "Delay drawn from the profile for each datagram not dropped.",
+			Buckets: prometheus.ExponentialBucketsRange(50e-6, 2, 24),
+		}, []string{"direction"}),
+		Lateness: prometheus.NewHistogramVec(prometheus.HistogramOpts{
+			Name:    "rigwire_relay_release_lateness_seconds",
+			Help:    "Actual release time minus due release time of each forwarded datagram.",
+			Buckets: prometheus.ExponentialBucketsRange(1e-6, 0.1, 26),
+		}, []string{"direction"}),
+		InFlight: prometheus.NewGaugeVec(prometheus.GaugeOpts{
+			Name: "rigwire_relay_in_flight",
+			Help: "Datagrams held by the relay, waiting for their release time.",
+		}, []string{"direction"}),
+		ChannelState: prometheus.NewGaugeVec(prometheus.GaugeOpts{
+			Name: "rigwire_relay_channel_state",
+			Help: "1 for the state each direction's channel is in now, 0 for the others.",
+		}, []string{"direction", "state"}),
+		Tap: prometheus.NewCounterVec(prometheus.CounterOpts{
+			Name: "rigwire_relay_tap_datagrams_total",
+			Help: "Copies of sensor datagrams sent to the tap, by outcome.",
+		}, []string{"outcome"}),
+		RecordLost: prometheus.NewCounter(prometheus.CounterOpts{
+			Name: "rigwire_relay_record_lost_total",
+			Help: "Records not written to the record file because its writer fell behind.",
+		}),
+		Reloads: prometheus.NewCounterVec(prometheus.CounterOpts{
+			Name: "rigwire_relay_profile_reloads_total",
+			Help: "Profile reloads, by result.",
+		}, []string{"result"}),
+	}
+	reg.MustRegister(m.Datagrams, m.Bytes, m.Delay, m.Lateness, m.InFlight,
+		m.ChannelState, m.Tap, m.RecordLost, m.Reloads)
+	for _, o := range []string{"sent", OutcomeSendError} {
+		m.Tap.WithLabelValues(o)
+	}
+	m.Reloads.WithLabelValues("ok")
+	m.Reloads.WithLabelValues("error")
+	return m
+}
+
+// dirMetrics are one direction's metric handles, resolved once so that
+// the per-datagram path only does atomic adds.
+type dirMetrics struct {
+	outcome  [len(outcomeIndex)]prometheus.Counter
+	bytes    prometheus.Counter
+	delay    prometheus.Observer
+	lateness prometheus.Observer
+	inFlight prometheus.Gauge
+}
+
+type outcomeID int
+
+const (
+	oForwarded outcomeID = iota
+	oDropped
+	oOverflow
+	oStranger
+	oOversized
+	oSendError
+	oShutdown
+)
+
+var outcomeIndex = [...]string{oForwarded: OutcomeForwarded, oDropped: OutcomeDropped,
+	oOverflow: OutcomeOverflow, oStranger: OutcomeStranger, oOversized: OutcomeOversized,
+	oSendError: OutcomeSendError, oShutdown: OutcomeShutdown}
+
+func (m *Metrics) forDirection(dir string) *dirMetrics {
+	dm := &dirMetrics{
+		bytes:    m.Bytes.WithLabelValues(dir),
+		delay:    m.Delay.WithLabelValues(dir),
+		lateness: m.Lateness.WithLabelValues(dir),
+		inFlight: m.InFlight.WithLabelValues(dir),
+	}
+	for i, o := range outcomeIndex {
+		dm.outcome[i] = m.Datagrams.WithLabelValues(dir, o)
+	}
+	return dm
+}

@@ -1,0 +1,432 @@
+package emulate
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"io"
+	"log/slog"
+	"math/rand/v2"
+	"net"
+	"net/netip"
+	"os"
+	"sync"
+	"sync/atomic"
+	"time"
+
+	"github.com/prometheus/client_golang/prometheus"
+
+	"rigwire/profiles"
+)
+
+// Config is what a Relay needs. Listen and Controller are required.
+type Config struct {
+	Profile *profiles.Profile
+	// Listen is where the sensor node's datagrams arrive; commands for the
+	// actuator leave from the same socket.
+	Listen netip.AddrPort
+	// Controller is where sensor datagrams go; its replies to the relay's
+	// upstream socket are the commands.
+	Controller netip.AddrPort
+	// Actuator receives the commands; zero: the source of the latest
+	// sensor datagram.
+	Actuator netip.AddrPort
+	// Sensor, when set, is the only source accepted at Listen; zero: any.
+	Sensor netip.AddrPort
+	// Upstream is the local address of the socket that talks to the
+	// controller; zero: an ephemeral port (on loopback if the controller is
+	// on loopback).
+	Upstream netip.AddrPort
+	// Tap, when set, receives a copy of every accepted sensor datagram as
+	// it arrived, before any impairment.
+	Tap netip.AddrPort
+	// TapFunc, when set, is called with every accepted sensor datagram as it
+	// arrived (the payload is only valid during the call); for a monitor in
+	// the same process.
+	TapFunc func(payload []byte, arrival time.Time)
+	// Seed of the decisions; used only when SeedSet (else the profile's
+	// seed, else a random one, which Seed reports).
+	Seed    uint64
+	SeedSet bool
+	// MaxDatagram is the longest payload accepted (default 4096 bytes);
+	// longer ones are counted as oversized and dropped.
+	MaxDatagram int
+	// MaxInFlight bounds the datagrams each direction holds (default 2048);
+	// beyond it they are counted as overflow and dropped.
+	MaxInFlight int
+	// Spin is how long before a due time the release goroutine stops
+	// sleeping and spins (default 50µs; 0 never spins).
+	Spin    time.Duration
+	SpinSet bool
+	// Record, when set, receives one line per datagram (RecordHeader).
+	Record io.Writer
+	// Metrics, when nil, are created on a private registry.
+	Metrics *Metrics
+	Logger  *slog.Logger
+	// portableTimers makes the release goroutines sleep on Go timers (for
+	// tests under testing/synctest).
+	portableTimers bool
+	// conns replaces the sockets (tests).
+	conns *testConns
+}
+
+type testConns struct{ listen, upstream, tap batchConn }
+
+// Relay impairs the two directions of one rig's link.
+type Relay struct {
+	cfg    Config
+	log    *slog.Logger
+	seed   uint64
+	epoch  time.Time
+	m      *Metrics
+	listen batchConn // sensor side: sensor datagrams in, commands out
+	up     batchConn // controller side: sensor datagrams out, commands in
+	tap    batchConn // nil without Tap
+	rec    *recorder
+	sc, ca *direction
+
+	srcMu      sync.Mutex
+	lastSensor netip.AddrPort // guarded by srcMu
+
+	tapSent, tapFailed prometheus.Counter
+
+	closing atomic.Bool
+}
+
+// Defaults of Config.
+const (
+	DefaultMaxDatagram = 4096
+	DefaultMaxInFlight = 2048
+	DefaultSpin        = 50 * time.Microsecond
+)
+
+// New opens the relay's sockets. Nothing is read until Run.
+func New(cfg Config) (*Relay, error) {
+	if cfg.Profile == nil {
+		return nil, errors.New("relay: no profile")
+	}
+	if cfg.MaxDatagram <= 0 {
+		cfg.MaxDatagram = DefaultMaxDatagram
+	}
+	if cfg.MaxInFlight <= 0 {
+		cfg.MaxInFlight = DefaultMaxInFlight
+	}
+	if !cfg.SpinSet {
+		cfg.Spin = DefaultSpin
+	}
+	if cfg.Logger == nil {
+		cfg.Logger = slog.Default()
+	}
+	if cfg.Metrics == nil {
+		cfg.Metrics = NewMetrics(prometheus.NewRegistry())
+	}
+	r := &Relay{cfg: cfg, log: cfg.Logger, m: cfg.Metrics, epoch: time.Now(),
+		tapSent:   cfg.Metrics.Tap.WithLabelValues("sent"),
+		tapFailed: cfg.Metrics.Tap.WithLabelValues(OutcomeSendError)}
+	switch {
+	case cfg.SeedSet:
+		r.seed = cfg.Seed
+	case cfg.Profile.HasSeed:
+		r.seed = cfg.Profile.Seed
+	default:
+		r.seed = rand.Uint64()
+	}
+	if err := r.openSockets(); err != nil {
+		r.closeSockets()
+		return nil, err
+	}
+	if cfg.Record != nil {
+		rec, err := newRecorder(cfg.Record, r.m.RecordLost)
+		if err != nil {
+			r.closeSockets()
+			return nil, fmt.Errorf("record: %w", err)
+		}
+		r.rec = rec
+	}
+	var err error
+	if r.sc, err = r.newDirection(profiles.SensorToController, cfg.Profile.SensorToController, 1, r.up); err == nil {
+		r.ca, err = r.newDirection(profiles.ControllerToActuator, cfg.Profile.ControllerToActuator, 3, r.listen)
+	}
+	if err != nil {
+		r.closeSockets()
+		return nil, err
+	}
+	return r, nil
+}
+
+func (r *Relay) newDirection(name string, ch *profiles.Channel, stream uint64, out batchConn) (*direction, error) {
+	var w waiter = newTimerWaiter()
+	precise := !r.cfg.portableTimers
+	if precise {
+		pw, err := newPreciseWaiter()
+		if err != nil {
+			return nil, fmt.Errorf("%s: %w", name, err)
+		}
+		w = pw
+	}
+	return newDirection(dirConfig{
+		name: name, ch: ch, seed: r.seed, stream: stream, out: out,
+		metrics: r.m, rec: r.rec, epoch: r.epoch,
+		maxInFlight: r.cfg.MaxInFlight, bufLen: r.cfg.MaxDatagram,
+		spin: r.cfg.Spin, w: w, lockThread: precise,
+	}), nil
+}
+
+func (r *Relay) openSockets() error {
+	if r.cfg.conns != nil {
+		r.listen, r.up, r.tap = r.cfg.conns.listen, r.cfg.conns.upstream, r.cfg.conns.tap
+		return nil
+	}
+	var err error
+	if r.listen, err = openUDP(r.cfg.Listen); err != nil {
+		return fmt.Errorf("listen %s: %w", r.cfg.Listen, err)
+	}
+	up := r.cfg.Upstream
+	if !up.IsValid() {
+		up = ephemeralFor(r.cfg.Controller)
+	}
+	if r.up, err = openUDP(up); err != nil {
+		return fmt.Errorf("upstream socket %s: %w", up, err)
+	}
+	if r.cfg.Tap.IsValid() {
+		if r.tap, err = openUDP(ephemeralFor(r.cfg.Tap)); err != nil {
+			return fmt.Errorf("tap socket: %w", err)
+		}
+	}
+	return nil
+}
+
+// ephemeralFor is a local address with an ephemeral port from which dst
+// can be reached: loopback for a loopback destination, else any address
+// of dst's family.
+func ephemeralFor(dst netip.AddrPort) netip.AddrPort {
+	a := dst.Addr()
+	switch {
+	case a.IsLoopback():
+		return netip.AddrPortFrom(a, 0)
+	case a.Is4() || a.Is4In6():
+		return netip.AddrPortFrom(netip.IPv4Unspecified(), 0)
+	default:
+		return netip.AddrPortFrom(netip.IPv6Unspecified(), 0)
+	}
+}
+
+func openUDP(ap netip.AddrPort) (batchConn, error) {
+	network := "udp4"
+	if ap.Addr().Is6() && !ap.Addr().Is4In6() {
+		network = "udp6"
+	}
+	uc, err := net.ListenUDP(network, net.UDPAddrFromAddrPort(ap))
+	if err != nil {
+		return nil, err
+	}
+	_ = uc.SetReadBuffer(4 << 20)
+	_ = uc.SetWriteBuffer(4 << 20)
+	c, err := newBatchConn(uc)
+	if err != nil {
+		uc.Close()
+		return nil, err
+	}
+	return c, nil
+}
+
+func (r *Relay) closeSockets() {
+	for _, c := range []batchConn{r.listen, r.up, r.tap} {
+		if c != nil {
+			c.close()
+		}
+	}
+}
+
+// Seed is the seed of this run's decisions.
+func (r *Relay) Seed() uint64 { return r.seed }
+
+// ListenAddr and UpstreamAddr are the relay's two socket addresses.
+func (r *Relay) ListenAddr() netip.AddrPort   { return r.listen.localAddr() }
+func (r *Relay) UpstreamAddr() netip.AddrPort { return r.up.localAddr() }
+
+// Metrics are the relay's metrics.
+func (r *Relay) Metrics() *Metrics { return r.m }
+
+// InFlight is how many datagrams each direction holds now.
+func (r *Relay) InFlight() (sensorToController, controllerToActuator int) {
+	return r.sc.inFlight(), r.ca.inFlight()
+}
+
+// Reload puts both directions on p's channels from now on. Datagrams
+// already scheduled keep their release times.
+func (r *Relay) Reload(p *profiles.Profile) {
+	for _, x := range []struct {
+		d  *direction
+		ch *profiles.Channel
+	}{{r.sc, p.SensorToController}, {r.ca, p.ControllerToActuator}} {
+		x.d.mu.Lock()
+		x.d.setChannelLocked(x.ch, nil, x.d.now())
+		x.d.mu.Unlock()
+	}
+	r.cfg.Profile = p
+	r.m.Reloads.WithLabelValues("ok").Inc()
+}
+
+// Run relays until ctx is done, then stops reading, releases everything
+// still scheduled at its due time, and returns. If abort is closed while
+// draining, what is left is counted as shutdown and Run returns at once.
+//
+// Shutdown order: receive loops end (read deadline in the past), then each
+// direction drains and its release goroutine ends, then the recorder
+// flushes, then the sockets and timers close.
+func (r *Relay) Run(ctx context.Context, abort <-chan struct{}) error {
+	var recv, rel sync.WaitGroup
+	for _, d := range []*direction{r.sc, r.ca} {
+		rel.Add(1)
+		go func() { defer rel.Done(); d.releaseLoop() }()
+	}
+	sensor := &side{in: r.listen, dir: r.sc, from: r.cfg.Sensor, sensor: true}
+	command := &side{in: r.up, dir: r.ca, from: r.cfg.Controller}
+	for _, s := range []*side{sensor, command} {
+		recv.Add(1)
+		go func() { defer recv.Done(); r.receiveLoop(s) }()
+	}
+
+	<-ctx.Done()
+	r.closing.Store(true)
+	past := time.Now().Add(-time.Second)
+	r.listen.setReadDeadline(past)
+	r.up.setReadDeadline(past)
+	recv.Wait()
+
+	sc, ca := r.InFlight()
+	r.log.Info("draining", "sensor_to_controller", sc, "controller_to_actuator", ca)
+	drained := make(chan struct{})
+	go func() {
+		r.sc.stop(true)
+		r.ca.stop(true)
+		rel.Wait()
+		close(drained)
+	}()
+	select {
+	case <-drained:
+	case <-abort:
+		r.sc.stop(false)
+		r.ca.stop(false)
+		<-drained
+	}
+	var err error
+	if r.rec != nil {
+		if rerr := r.rec.close(); rerr != nil {
+			err = fmt.Errorf("record: %w", rerr)
+		}
+	}
+	r.closeSockets()
+	r.sc.w.close()
+	r.ca.w.close()
+	return err
+}
+
+// side is one socket's receive loop: which direction its datagrams take and
+// which sources count as the rig's.
+type side struct {
+	in     batchConn
+	dir    *direction
+	from   netip.AddrPort // zero: any source
+	sensor bool           // sensor side: tap, track the source, send to the controller
+}
+
+// receiveLoop reads batches from s.in until the relay closes. Each
+// datagram is rejected (oversized, stranger) or handed to the direction;
+// those with no delay are sent before the next read, from the read buffers.
+func (r *Relay) receiveLoop(s *side) {
+	bufLen := r.cfg.MaxDatagram + 1
+	backing := make([]byte, batchSize*bufLen)
+	ms := make([]message, batchSize)
+	for i := range ms {
+		ms[i].buf = backing[i*bufLen : (i+1)*bufLen : (i+1)*bufLen]
+	}
+	acc := make([]message, 0, batchSize)
+	taps := make([]message, 0, batchSize)
+	imm := make([]message, 0, batchSize)
+	meta := make([]immediate, 0, batchSize)
+	d := s.dir
+	var last netip.AddrPort
+	for {
+		n, err := s.in.readBatch(ms)
+		if err != nil {
+			if r.closing.Load() || errors.Is(err, net.ErrClosed) {
+				return
+			}
+			if errors.Is(err, os.ErrDeadlineExceeded) {
+				continue
+			}
+			r.log.Warn("read failed", "direction", d.name, "err", err)
+			time.Sleep(10 * time.Millisecond)
+			continue
+		}
+		now := d.now()
+		acc = acc[:0]
+		for i := range n {
+			m := &ms[i]
+			switch {
+			case m.trunc || m.n > r.cfg.MaxDatagram:
+				d.m.outcome[oOversized].Inc()
+				d.record(rec{arrival: now, outcome: oOversized})
+			case s.from.IsValid() && m.addr != s.from:
+				d.m.outcome[oStranger].Inc()
+				d.record(rec{arrival: now, outcome: oStranger})
+			default:
+				acc = append(acc, *m)
+			}
+		}
+		if len(acc) == 0 {
+			continue
+		}
+		var dst netip.AddrPort
+		if s.sensor {
+			dst = r.cfg.Controller
+			if src := acc[len(acc)-1].addr; src != last {
+				last = src
+				r.srcMu.Lock()
+				r.lastSensor = src
+				r.srcMu.Unlock()
+			}
+		} else {
+			dst = r.cfg.Actuator
+			if !dst.IsValid() {
+				r.srcMu.Lock()
+				dst = r.lastSensor
+				r.srcMu.Unlock()
+			}
+		}
+		imm, meta = d.admit(acc, dst, now, imm[:0], meta[:0])
+		d.sendImmediate(imm, meta, now)
+		if s.sensor {
+			taps = r.sendTaps(acc, taps[:0])
+		}
+	}
+}
+
+// sendTaps hands copies of the accepted sensor datagrams to the tap.
+func (r *Relay) sendTaps(acc, taps []message) []message {
+	if r.cfg.TapFunc != nil {
+		t := time.Now()
+		for i := range acc {
+			r.cfg.TapFunc(acc[i].buf[:acc[i].n], t)
+		}
+	}
+	if r.tap == nil {
+		return taps
+	}
+	for i := range acc {
+		taps = append(taps, message{buf: acc[i].buf, n: acc[i].n, addr: r.cfg.Tap})
+	}
+	base := 0
+	for base < len(taps) {
+		sent, err := r.tap.writeBatch(taps[base:])
+		r.tapSent.Add(float64(sent))
+		base += sent
+		if err != nil && base < len(taps) {
+			r.tapFailed.Inc()
+			base++
+		}
+	}
+	return taps
+}

@@ -1,0 +1,136 @@
+package emulate
+
+import (
+	"bytes"
+	"context"
+	"fmt"
+	"io"
+	"log/slog"
+	"math"
+	"net"
+	"net/netip"
+	"testing"
+	"time"
+
+	"rigwire/profiles"
+)
+
+func oneState(loss float64, d profiles.Delay) *profiles.Channel {
+	if d == nil {
+		d = profiles.Constant{}
+	}
+	return &profiles.Channel{States: []profiles.State{{Name: "only", MeanDwell: math.Inf(1), Loss: loss, Delay: d}}}
+}
+
+func listenLoopback(t *testing.T) *net.UDPConn {
+	t.Helper()
+	c, err := net.ListenUDP("udp4", &net.UDPAddr{IP: net.IPv4(127, 0, 0, 1)})
+	if err != nil {
+		t.Fatal(err)
+	}
+	t.Cleanup(func() { c.Close() })
+	return c
+}
+
+func addrOf(c *net.UDPConn) netip.AddrPort { return c.LocalAddr().(*net.UDPAddr).AddrPort() }
+
+type loopbackRig struct {
+	relay      *Relay
+	sensor     *net.UDPConn
+	controller *net.UDPConn
+	tap        *net.UDPConn
+	cancel     context.CancelFunc
+	done       chan error
+}
+
+func startLoopback(t *testing.T, p *profiles.Profile, mod func(*Config)) *loopbackRig {
+	t.Helper()
+	rig := &loopbackRig{sensor: listenLoopback(t), controller: listenLoopback(t), tap: listenLoopback(t)}
+	cfg := Config{
+		Profile:    p,
+		Listen:     netip.MustParseAddrPort("127.0.0.1:0"),
+		Controller: addrOf(rig.controller),
+		Tap:        addrOf(rig.tap),
+		Seed:       1, SeedSet: true,
+		Logger: slog.New(slog.NewTextHandler(io.Discard, nil)),
+	}
+	if mod != nil {
+		mod(&cfg)
+	}
+	r, err := New(cfg)
+	if err != nil {
+		t.Fatal(err)
+	}
+	rig.relay = r
+	ctx, cancel := context.WithCancel(context.Background())
+	rig.cancel = cancel
+	rig.done = make(chan error, 1)
+	go func() { rig.done <- r.Run(ctx, nil) }()
+	t.Cleanup(func() {
+		cancel()
+		<-rig.done
+	})
+	return rig
+}
+
+func (rig *loopbackRig) stop(t *testing.T) {
+	t.Helper()
+	rig.cancel()
+	if err := <-rig.done; err != nil {
+		t.Fatal(err)
+	}
+	rig.done <- nil // for the cleanup
+}
+
+func readAll(t *testing.T, c *net.UDPConn, want int, wait time.Duration) [][]byte {
+	t.Helper()
+	var got [][]byte
+	buf := make([]byte, 70000)
+	for len(got) < want {
+		c.SetReadDeadline(time.Now().Add(wait))
+		n, _, err := c.ReadFromUDPAddrPort(buf)
+		if err != nil {
+			break
+		}
+		got = append(got, bytes.Clone(buf[:n]))
+	}
+	return got
+}
+
+func TestRelayLoopbackRoundTrip(t *testing.T) {
+	p := &profiles.Profile{SensorToController: oneState(0, nil), ControllerToActuator: oneState(0, profiles.Constant{Value: 0.002})}
+	rig := startLoopback(t, p, nil)
+	listen := rig.relay.ListenAddr()
+	const n = 50
+	for i := range n {
+		msg := fmt.Appendf(nil, "sample %d", i)
+		if _, err := rig.sensor.WriteToUDPAddrPort(msg, listen); err != nil {
+			t.Fatal(err)
+		}
+	}
+	got := readAll(t, rig.controller, n, time.Second)
+	if len(got) != n {
+		t.Fatalf("controller got %d datagrams, want %d", len(got), n)
+	}
+	tapped := readAll(t, rig.tap, n, time.Second)
+	if len(tapped) != n {
+		t.Fatalf("tap got %d datagrams, want %d", len(tapped), n)
+	}
+	for i := range n {
+		want := fmt.Sprintf("sample %d", i)
+		if string(got[i]) != want || string(tapped[i]) != want {
+			t.Fatalf("datagram %d: controller %q tap %q, want %q", i, got[i], tapped[i], want)
+		}
+	}
+	up := rig.relay.UpstreamAddr()
+	for i := range n {
+		if _, err := rig.controller.WriteToUDPAddrPort(fmt.Appendf(nil, "command %d", i), up); err != nil {
+			t.Fatal(err)
+		}
+	}
+	cmds := readAll(t, rig.sensor, n, time.Second)
+	if len(cmds) != n {
+		t.Fatalf("actuator got %d commands, want %d", len(cmds), n)
+	}
+	rig.stop(t)
+}

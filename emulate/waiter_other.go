@@ -1,0 +1,5 @@
+//go:build !linux
+
+package emulate
+
+func newPreciseWaiter() (waiter, error) { return newTimerWaiter(), nil }
