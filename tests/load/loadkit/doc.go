@@ -1,7 +1,8 @@
 // Package loadkit holds what the load tools of tests/load share: the layout
 // of a load datagram, a CLOCK_MONOTONIC reading that is cheap enough for the
-// hot path, and the receiver's tally — sequence accounting (received, lost,
-// duplicated, reordered) and latency percentiles.
+// hot path, the check that keeps every tool on loopback, and the receiver's
+// tally — sequence accounting (received, lost, duplicated, reordered) and
+// latency percentiles.
 //
 // It opens no sockets and reads no flags; the programs beside it do.
 package loadkit
