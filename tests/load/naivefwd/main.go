@@ -1,0 +1,89 @@
+// Command naivefwd is a baseline for the load script: the plainest UDP
+// forwarder in Go, one ReadFrom and one WriteTo per datagram.
+//
+// Datagrams arriving at -listen are sent on to -to from a second socket,
+// as the relay does with a sensor's datagrams; it forwards one way only
+// (the load has no replies). It stops on SIGTERM or SIGINT and prints its
+// counters as JSON on stderr.
+package main
+
+import (
+	"encoding/json"
+	"errors"
+	"flag"
+	"fmt"
+	"log/slog"
+	"net"
+	"os"
+	"os/signal"
+	"syscall"
+
+	"rigwire/tests/load/loadkit"
+)
+
+type counters struct {
+	Received  uint64 `json:"received"`
+	Forwarded uint64 `json:"forwarded"`
+	Errors    uint64 `json:"send_errors"`
+}
+
+func main() {
+	listen := flag.String("listen", "", "loopback HOST:PORT to receive on (required)")
+	to := flag.String("to", "", "loopback HOST:PORT to forward to (required)")
+	flag.Parse()
+	if err := run(*listen, *to); err != nil {
+		slog.Error("naivefwd", "err", err)
+		os.Exit(1)
+	}
+}
+
+func run(listen, to string) error {
+	in, err := loadkit.ParseLoopback(listen)
+	if err != nil {
+		return fmt.Errorf("-listen: %w", err)
+	}
+	dst, err := loadkit.ParseLoopback(to)
+	if err != nil {
+		return fmt.Errorf("-to: %w", err)
+	}
+	rx, err := net.ListenUDP("udp", net.UDPAddrFromAddrPort(in))
+	if err != nil {
+		return fmt.Errorf("listening on %v: %w", in, err)
+	}
+	tx, err := net.ListenUDP("udp", &net.UDPAddr{IP: net.IP(dst.Addr().AsSlice())})
+	if err != nil {
+		rx.Close()
+		return fmt.Errorf("opening the sending socket: %w", err)
+	}
+
+	// Shutdown order: a signal closes rx, which ends forward; then tx.
+	sigs := make(chan os.Signal, 1)
+	signal.Notify(sigs, syscall.SIGTERM, syscall.SIGINT)
+	go func() { <-sigs; rx.Close() }()
+
+	var c counters
+	err = forward(rx, tx, net.UDPAddrFromAddrPort(dst), &c)
+	tx.Close()
+	json.NewEncoder(os.Stderr).Encode(c)
+	return err
+}
+
+// forward copies datagrams until rx is closed.
+func forward(rx, tx *net.UDPConn, dst *net.UDPAddr, c *counters) error {
+	buf := make([]byte, 65536)
+	for {
+		n, _, err := rx.ReadFrom(buf)
+		if errors.Is(err, net.ErrClosed) {
+			return nil
+		}
+		if err != nil {
+			return fmt.Errorf("reading: %w", err)
+		}
+		c.Received++
+		if _, err := tx.WriteTo(buf[:n], dst); err != nil {
+			c.Errors++
+			continue
+		}
+		c.Forwarded++
+	}
+}
