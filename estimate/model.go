@@ -1,0 +1,199 @@
+package estimate
+
+import (
+	"fmt"
+	"math"
+
+	"gonum.org/v1/gonum/mat"
+
+	"rigwire/profiles"
+)
+
+// Options changes the network of a loop for a what-if prediction.
+type Options struct {
+	// ExtraLoss is the q of MODEL.md §5: every packet of both directions is
+	// also dropped with probability q, independently (ps → ps + (1−ps)q,
+	// likewise pa). 0 leaves the profile as it is.
+	ExtraLoss float64
+	// DelayScale multiplies every network delay (not the compute delay);
+	// 0 means 1.
+	DelayScale float64
+}
+
+// Model is a loop as a Markov jump linear system (MODEL.md §3–§4): the
+// joint network chain θ_k of both directions, and for each joint state
+// the three modes with their probabilities, the delivered-with-delay mode
+// as a quadrature rule over τ.
+type Model struct {
+	Loop *profiles.Loop
+	lm   loopMatrices
+	// Chain
+	P      *mat.Dense // joint transition matrix over one period, P_sc ⊗ P_ca
+	Pi     []float64  // its stationary law
+	States []JointState
+	f0, f1 mode
+	opts   Options
+}
+
+// JointState is one state of the joint chain (sensor direction state,
+// command direction state) and what happens to a period in it.
+type JointState struct {
+	Name             string  // "sc-state/ca-state"; "iid" names a one-state direction
+	LossSC, LossCA   float64 // loss probabilities, extra loss included
+	OnTimeSC         float64 // P(τsc < h)
+	P0, P1, P2       float64 // mode probabilities (MODEL.md §2)
+	MeanDelayM2      float64 // E[τ | m2], seconds; NaN when P2 = 0
+
+	baseSC, baseCA   float64 // the profile's own loss probabilities
+	c2               float64 // (1−ps)(1−pa): the node weights' factor
+	nodes            []tauNode
+	m2               []mode     // one per node, for the node's τ
+	opM2             *mat.Dense // Σ_k w_k F⊗F on symmetric matrices
+	meanF2, sumG2    *mat.Dense // Σ_k w_k F, Σ_k w_k g
+	m2mass, m2tauSum float64
+}
+
+// Build turns a validated loop into its jump linear system. It fails
+// only on a loop the loader would have refused.
+func Build(loop *profiles.Loop, opts Options) (*Model, error) {
+	if opts.DelayScale == 0 {
+		opts.DelayScale = 1
+	}
+	if !(opts.ExtraLoss >= 0 && opts.ExtraLoss <= 1) {
+		return nil, fmt.Errorf("extra loss: want a probability in [0, 1], got %g", opts.ExtraLoss)
+	}
+	if !(opts.DelayScale > 0) || math.IsInf(opts.DelayScale, 0) {
+		return nil, fmt.Errorf("delay scale: want a number > 0, got %g", opts.DelayScale)
+	}
+	n, m, p, nc := loop.Dims()
+	h := loop.Period
+	samp := Discretize(loop.Plant.A, loop.Plant.B, loop.Plant.W, h)
+	xi := mat.NewSymDense(n+p, nil)
+	for i := 0; i < n; i++ {
+		for j := 0; j < n; j++ {
+			xi.SetSym(i, j, samp.Wd.At(i, j))
+		}
+	}
+	for i := 0; i < p; i++ {
+		for j := i; j < p; j++ {
+			if loop.Plant.V != nil {
+				xi.SetSym(n+i, n+j, (loop.Plant.V.At(i, j)+loop.Plant.V.At(j, i))/2)
+			}
+		}
+	}
+	r := mat.NewVecDense(p, nil)
+	for i := 0; i < p && i < len(loop.Setpoint); i++ {
+		r.SetVec(i, loop.Setpoint[i])
+	}
+	md := &Model{Loop: loop, opts: opts}
+	md.lm = loopMatrices{
+		n: n, m: m, p: p, nc: nc, nz: n + m + nc,
+		samp: samp, c: loop.Plant.C,
+		ac: loop.Controller.A, bc: loop.Controller.B, cc: loop.Controller.C, dc: loop.Controller.D,
+		r: r, xi: xi,
+		zeroPolicy: loop.Actuator.OnLoss == profiles.ZeroUnlessFresh,
+	}
+	md.f0 = md.lm.build(0, nil)
+	md.f1 = md.lm.build(1, nil)
+
+	sc, ca := loop.Profile.SensorToController, loop.Profile.ControllerToActuator
+	psc, err := transition(sc, h)
+	if err != nil {
+		return nil, fmt.Errorf("%s: %w", profiles.SensorToController, err)
+	}
+	pca, err := transition(ca, h)
+	if err != nil {
+		return nil, fmt.Errorf("%s: %w", profiles.ControllerToActuator, err)
+	}
+	var P mat.Dense
+	P.Kronecker(psc, pca)
+	md.P = &P
+	md.Pi = stationary(&P)
+
+	deg := chebDegree(samp, loop.ComputeDelay)
+	cache := map[float64]mode{} // m2 at each distinct τ, shared between states
+	for i, s := range sc.States {
+		for j, a := range ca.States {
+			dsc := scaleDelay(s.Delay, opts.DelayScale)
+			dca := scaleDelay(a.Delay, opts.DelayScale)
+			js := JointState{Name: stateName(sc, i) + "/" + stateName(ca, j)}
+			js.baseSC, js.baseCA = s.Loss, a.Loss
+			js.OnTimeSC = probBelow(dsc, h)
+			js.nodes = tauRule(dsc, dca, h, loop.ComputeDelay, deg)
+			for _, nd := range js.nodes {
+				mo, ok := cache[nd.Tau]
+				if !ok {
+					g0, _ := samp.Split(nd.Tau)
+					mo = md.lm.build(2, g0)
+					cache[nd.Tau] = mo
+				}
+				js.m2 = append(js.m2, mo)
+			}
+			md.prepareState(&js)
+			md.States = append(md.States, js)
+		}
+	}
+	md.setLoss(opts.ExtraLoss)
+	return md, nil
+}
+
+// stateName is a channel state's name, "iid" for a one-state channel
+// without one.
+func stateName(ch *profiles.Channel, i int) string {
+	if n := ch.States[i].Name; n != "" {
+		return n
+	}
+	if len(ch.States) == 1 {
+		return "iid"
+	}
+	return fmt.Sprintf("state%d", i)
+}
+
+// prepareState sums what the moment recursions need from the m2 rule:
+// Σ_k w_k F(τ_k) ⊗ F(τ_k) (as an operator on symmetric matrices),
+// Σ_k w_k F(τ_k), Σ_k w_k g(τ_k), the mass and E[τ; m2].
+func (md *Model) prepareState(js *JointState) {
+	nz := md.lm.nz
+	d := nz * (nz + 1) / 2
+	js.opM2 = mat.NewDense(d, d, nil)
+	js.meanF2 = mat.NewDense(nz, nz, nil)
+	js.sumG2 = mat.NewDense(nz, 1, nil)
+	for k, nd := range js.nodes {
+		addSymOp(js.opM2, js.m2[k].F, nd.Weight)
+		js.meanF2.Add(js.meanF2, scaledCopy(js.m2[k].F, nd.Weight))
+		for i := 0; i < nz; i++ {
+			js.sumG2.Set(i, 0, js.sumG2.At(i, 0)+nd.Weight*js.m2[k].G.AtVec(i))
+		}
+		js.m2mass += nd.Weight
+		js.m2tauSum += nd.Weight * nd.Tau
+	}
+}
+
+func scaledCopy(a *mat.Dense, s float64) *mat.Dense {
+	var out mat.Dense
+	out.Scale(s, a)
+	return &out
+}
+
+// setLoss applies the extra loss q to every state's mode probabilities
+// (MODEL.md §2 and §5): with ps' = ps + (1−ps)q and pa' likewise,
+//
+//	P(m0) = 1 − (1−ps') P(τsc < h),
+//	P(m2, dτ) = (1−ps')(1−pa') P(τsc < h, τ ∈ dτ),
+//	P(m1) = 1 − P(m0) − P(m2).
+func (md *Model) setLoss(q float64) {
+	md.opts.ExtraLoss = q
+	for k := range md.States {
+		js := &md.States[k]
+		js.LossSC = js.baseSC + (1-js.baseSC)*q
+		js.LossCA = js.baseCA + (1-js.baseCA)*q
+		js.c2 = (1 - js.LossSC) * (1 - js.LossCA)
+		js.P0 = 1 - (1-js.LossSC)*js.OnTimeSC
+		js.P2 = js.c2 * js.m2mass
+		js.P1 = math.Max(0, 1-js.P0-js.P2)
+		js.MeanDelayM2 = math.NaN()
+		if js.m2mass > 0 {
+			js.MeanDelayM2 = js.m2tauSum / js.m2mass
+		}
+	}
+}

@@ -1,0 +1,91 @@
+package estimate
+
+import (
+	"errors"
+	"math"
+
+	"rigwire/profiles"
+)
+
+// Prediction is what theory says of a loop over its network (MODEL.md
+// §5). An unstable loop is a result: MeanSquareStable false, Error nil.
+type Prediction struct {
+	MeanSquareStable bool
+	// SpectralRadius is ρ of the second-moment operator.
+	SpectralRadius float64
+	// Error holds the steady error moments; nil when not mean-square
+	// stable.
+	Error *ErrorStats
+	// LossMargin is the extra loss at which stability is lost, in [0, 1];
+	// NaN when not computed.
+	LossMargin float64
+	// States describes each joint network state (stationary probability,
+	// losses, mode probabilities).
+	States []StateReport
+	// Moments are the steady state moments; nil when not stable.
+	Moments *Moments
+}
+
+// StateReport describes one joint network state of the prediction.
+type StateReport struct {
+	Name        string  // "sensor-state/command-state"
+	Probability float64 // stationary probability
+	LossSC      float64 // loss probability, sensor direction (extra loss included)
+	LossCA      float64 // loss probability, command direction
+	// Mode probabilities: sample lost or stale, command lost or late,
+	// delivered in time (MODEL.md §1).
+	P0, P1, P2 float64
+	// MeanDelay is E[τ | m2] in seconds (total delay of a delivered
+	// command), NaN when P2 = 0.
+	MeanDelay float64
+}
+
+// PredictOptions selects what Predict computes beyond stability and the
+// steady moments.
+type PredictOptions struct {
+	Options
+	// SkipMargin leaves LossMargin NaN (the margin costs up to about a
+	// hundred stability tests).
+	SkipMargin bool
+}
+
+// Predict computes the prediction of MODEL.md §5 for a validated loop:
+// it builds the jump linear system, decides mean-square stability,
+// computes ρ, the steady error moments when stable, and the loss margin.
+// This is what the monitor calls.
+func Predict(loop *profiles.Loop, opts PredictOptions) (*Prediction, error) {
+	md, err := Build(loop, opts.Options)
+	if err != nil {
+		return nil, err
+	}
+	return md.Predict(!opts.SkipMargin)
+}
+
+// Predict is Predict for a model already built.
+func (md *Model) Predict(margin bool) (*Prediction, error) {
+	pr := &Prediction{LossMargin: math.NaN()}
+	pr.SpectralRadius = md.SpectralRadius()
+	pr.MeanSquareStable = md.MeanSquareStable()
+	for i, js := range md.States {
+		pr.States = append(pr.States, StateReport{
+			Name: js.Name, Probability: md.Pi[i], LossSC: js.LossSC, LossCA: js.LossCA,
+			P0: js.P0, P1: js.P1, P2: js.P2, MeanDelay: js.MeanDelayM2,
+		})
+	}
+	if pr.MeanSquareStable {
+		mo, err := md.Steady()
+		switch {
+		case errors.Is(err, ErrNotStable):
+			pr.MeanSquareStable = false
+		case err != nil:
+			return nil, err
+		default:
+			st := md.Error(mo)
+			pr.Error, pr.Moments = &st, mo
+		}
+	}
+	if margin {
+		pr.LossMargin = md.LossMargin()
+	}
+	return pr, nil
+}

@@ -1,0 +1,97 @@
+package profiles
+
+import (
+	"gonum.org/v1/gonum/mat"
+)
+
+// Loop is a validated loop description (the loop file of the monitor): a
+// continuous-time plant, a discrete-time controller, the sampling period,
+// the network profile the loop runs over and where the plant's outputs sit
+// in the sensor datagrams. LoadLoop and ParseLoop build it; every matrix
+// shape has been checked against the others, so its users may rely on
+//
+//	Plant.A n×n, Plant.B n×m, Plant.C p×n, Plant.W n×n, Plant.V p×p,
+//	Controller.A nc×nc, Controller.B nc×p, Controller.C m×nc, Controller.D m×p,
+//	len(Setpoint) = p, 0 ≤ ComputeDelay < Period.
+//
+// A static controller (u = D e) has nc = 0 and nil A, B, C.
+type Loop struct {
+	// File is the path the loop was read from ("" when parsed from memory).
+	File string
+	// Period is the sampling period h in seconds, > 0.
+	Period     float64
+	Plant      Plant
+	Controller Controller
+	// Setpoint is the constant reference r (p entries; zeros by default).
+	Setpoint []float64
+	// ComputeDelay is the fixed delay c added to every command, seconds.
+	ComputeDelay float64
+	// Profile is the network the loop runs over; never nil.
+	Profile *Profile
+	// ProfileFile is the resolved path of the profile file, "" when the
+	// profile is inline.
+	ProfileFile string
+	// Actuator says what the actuator does between commands.
+	Actuator Actuator
+	// Decode says where the outputs sit in each sensor datagram. Its
+	// Format is "" when the loop file has no decode section (enough for
+	// predict, not for monitor run).
+	Decode Decode
+}
+
+// Plant is the continuous-time plant dx = (A x + B u) dt + dw with
+// E[dw dwᵀ] = W dt, y = C x + v with v ~ N(0, V) at each sample.
+type Plant struct {
+	A, B, C *mat.Dense
+	// W is the process noise intensity (n×n, symmetric positive
+	// semidefinite); V the sensor noise covariance (p×p, likewise).
+	W, V *mat.Dense
+}
+
+// Controller is the discrete-time controller run on each sample used:
+// u = C xc + D e, xc' = A xc + B e, with e = setpoint − y.
+type Controller struct {
+	A, B, C *mat.Dense // nil for a static controller
+	D       *mat.Dense
+}
+
+// ActuatorPolicy is what the actuator applies when no fresh command is in
+// force.
+type ActuatorPolicy int
+
+const (
+	// HoldLast keeps the last command applied until the next one arrives
+	// (zero-order hold; the default, and the model of MODEL.md §1).
+	HoldLast ActuatorPolicy = iota
+	// ZeroUnlessFresh applies each command from its arrival to the end of
+	// its own period only; before a period's command arrives, and through a
+	// period whose command is lost or late, the input is zero (an actuator
+	// that fails safe to zero). With no delay this is the lossy-input
+	// model of Schenato et al. (Proc. IEEE 95(1), 2007).
+	ZeroUnlessFresh
+)
+
+// String is the loop file's spelling of the policy.
+func (p ActuatorPolicy) String() string {
+	if p == ZeroUnlessFresh {
+		return "zero"
+	}
+	return "hold"
+}
+
+// Actuator is the actuator's behaviour (loop file key actuator).
+type Actuator struct {
+	// OnLoss is the policy (key on_loss: hold | zero).
+	OnLoss ActuatorPolicy
+}
+
+// Dims returns the loop's dimensions: plant states n, inputs m, outputs
+// p, controller states nc.
+func (l *Loop) Dims() (n, m, p, nc int) {
+	n, m = l.Plant.B.Dims()
+	p, _ = l.Plant.C.Dims()
+	if l.Controller.A != nil {
+		nc, _ = l.Controller.A.Dims()
+	}
+	return n, m, p, nc
+}

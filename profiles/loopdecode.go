@@ -1,0 +1,54 @@
+package profiles
+
+import "encoding/binary"
+
+// Decode says where a rig's outputs sit in each sensor datagram (loop file
+// key decode), for the monitor's run command.
+type Decode struct {
+	// Format is "text" (fields split by Separator) or "binary" (fixed
+	// offsets); "" when the loop file has no decode section.
+	Format string
+	// Separator splits a text datagram into fields (default ",").
+	Separator string
+	// Outputs locates the plant's p outputs, in order.
+	Outputs []DecodeField
+	// Sequence locates the sample counter; nil when the datagrams carry
+	// none.
+	Sequence *DecodeField
+}
+
+// DecodeField is one value in a datagram: a text field by index, or a
+// binary value by offset, type and byte order.
+type DecodeField struct {
+	// Field is the 0-based index of a text field.
+	Field int
+	// Offset is the byte offset of a binary value.
+	Offset int
+	// Type is the binary value's type: float32, float64, int16, int32,
+	// int64, uint16 or uint32.
+	Type string
+	// Order is the binary value's byte order ("little" or "big").
+	Order string
+}
+
+// Size is the width in bytes of a binary field's type (0 for a text
+// field or an unknown type).
+func (f DecodeField) Size() int {
+	switch f.Type {
+	case "int16", "uint16":
+		return 2
+	case "float32", "int32", "uint32":
+		return 4
+	case "float64", "int64":
+		return 8
+	}
+	return 0
+}
+
+// ByteOrder is the binary field's byte order.
+func (f DecodeField) ByteOrder() binary.ByteOrder {
+	if f.Order == "big" {
+		return binary.BigEndian
+	}
+	return binary.LittleEndian
+}
