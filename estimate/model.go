@@ -38,11 +38,11 @@ type Model struct {
 // JointState is one state of the joint chain (sensor direction state,
 // command direction state) and what happens to a period in it.
 type JointState struct {
-	Name             string  // "sc-state/ca-state"; "iid" names a one-state direction
-	LossSC, LossCA   float64 // loss probabilities, extra loss included
-	OnTimeSC         float64 // P(τsc < h)
-	P0, P1, P2       float64 // mode probabilities (MODEL.md §2)
-	MeanDelayM2      float64 // E[τ | m2], seconds; NaN when P2 = 0
+	Name           string  // "sc-state/ca-state"; "iid" names a one-state direction
+	LossSC, LossCA float64 // loss probabilities, extra loss included
+	OnTimeSC       float64 // P(τsc < h)
+	P0, P1, P2     float64 // mode probabilities (MODEL.md §2)
+	MeanDelayM2    float64 // E[τ | m2], seconds; NaN when P2 = 0
 
 	baseSC, baseCA   float64 // the profile's own loss probabilities
 	c2               float64 // (1−ps)(1−pa): the node weights' factor
