@@ -22,7 +22,7 @@ func oneState(loss float64, d profiles.Delay) *profiles.Channel {
 	return &profiles.Channel{States: []profiles.State{{Name: "only", MeanDwell: math.Inf(1), Loss: loss, Delay: d}}}
 }
 
-func listenLoopback(t *testing.T) *net.UDPConn {
+func listenLoopback(t testing.TB) *net.UDPConn {
 	t.Helper()
 	c, err := net.ListenUDP("udp4", &net.UDPAddr{IP: net.IPv4(127, 0, 0, 1)})
 	if err != nil {
@@ -43,7 +43,7 @@ type loopbackRig struct {
 	done       chan error
 }
 
-func startLoopback(t *testing.T, p *profiles.Profile, mod func(*Config)) *loopbackRig {
+func startLoopback(t testing.TB, p *profiles.Profile, mod func(*Config)) *loopbackRig {
 	t.Helper()
 	rig := &loopbackRig{sensor: listenLoopback(t), controller: listenLoopback(t), tap: listenLoopback(t)}
 	cfg := Config{
