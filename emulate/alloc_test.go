@@ -113,4 +113,3 @@ func BenchmarkRelayLoopback(b *testing.B) {
 		})
 	}
 }
-
