@@ -112,8 +112,7 @@ func tauRule(dsc, dca profiles.Delay, h, c float64, deg int) []tauNode {
 		hasMom = true
 	}
 
-	scLo, scHi := dsc.Support()
-	caLo, caHi := dca.Support()
+	scBreaks, caBreaks := breakpoints(dsc), breakpoints(dca)
 	scDens := hasDensity(dsc)
 	caDens := hasDensity(dca)
 	inner := newIntegrator(N)
@@ -132,7 +131,7 @@ func tauRule(dsc, dca profiles.Delay, h, c float64, deg int) []tauNode {
 				addCheb(tmap(s.At+a+c), dca.Density(a), out)
 			}
 			tmp := make([]float64, N)
-			inner.integrate(f, 0, budget-s.At, []float64{caLo, caHi}, tmp)
+			inner.integrate(f, 0, budget-s.At, caBreaks, tmp)
 			for j := range mom {
 				mom[j] += s.Mass * tmp[j]
 			}
@@ -152,7 +151,7 @@ func tauRule(dsc, dca profiles.Delay, h, c float64, deg int) []tauNode {
 				addCheb(tmap(s+a.At+c), dsc.Density(s), out)
 			}
 			tmp := make([]float64, N)
-			inner.integrate(f, 0, budget-a.At, []float64{scLo, scHi}, tmp)
+			inner.integrate(f, 0, budget-a.At, scBreaks, tmp)
 			for j := range mom {
 				mom[j] += a.Mass * tmp[j]
 			}
@@ -179,12 +178,17 @@ func tauRule(dsc, dca profiles.Delay, h, c float64, deg int) []tauNode {
 				}
 				addCheb(tmap(s+a+c), dca.Density(a), o)
 			}
-			inner.integrate(g, 0, budget-s, []float64{caLo, caHi}, tmp)
+			inner.integrate(g, 0, budget-s, caBreaks, tmp)
 			for j := range out {
 				out[j] = ds * tmp[j]
 			}
 		}
-		outer.integrate(f, 0, budget, []float64{scLo, scHi, budget - caLo, budget - caHi}, mom)
+		// The inner integral kinks where budget − s crosses a break of τca.
+		ob := append([]float64(nil), scBreaks...)
+		for _, b := range caBreaks {
+			ob = append(ob, budget-b)
+		}
+		outer.integrate(f, 0, budget, ob, mom)
 		hasMom = true
 	}
 
@@ -206,6 +210,33 @@ func tauRule(dsc, dca profiles.Delay, h, c float64, deg int) []tauNode {
 		}
 	}
 	return nodes
+}
+
+// breakpoints lists where a law's density may jump or kink: the ends of
+// its support and, for a mixture or a shifted law, those of its parts.
+func breakpoints(d profiles.Delay) []float64 {
+	switch x := d.(type) {
+	case *profiles.Shifted:
+		var out []float64
+		for _, b := range breakpoints(x.Base) {
+			out = append(out, b+x.Shift)
+		}
+		return out
+	case *profiles.Mixture:
+		var out []float64
+		for _, p := range x.Parts {
+			out = append(out, breakpoints(p)...)
+		}
+		return out
+	case scaled:
+		var out []float64
+		for _, b := range breakpoints(x.d) {
+			out = append(out, b*x.s)
+		}
+		return out
+	}
+	lo, hi := d.Support()
+	return []float64{lo, hi}
 }
 
 // hasDensity reports whether a law has an absolutely continuous part:

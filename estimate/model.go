@@ -97,18 +97,16 @@ func Build(loop *profiles.Loop, opts Options) (*Model, error) {
 	md.f1 = md.lm.build(1, nil)
 
 	sc, ca := loop.Profile.SensorToController, loop.Profile.ControllerToActuator
-	psc, err := transition(sc, h)
-	if err != nil {
-		return nil, fmt.Errorf("%s: %w", profiles.SensorToController, err)
-	}
-	pca, err := transition(ca, h)
-	if err != nil {
-		return nil, fmt.Errorf("%s: %w", profiles.ControllerToActuator, err)
-	}
+	// The joint chain of the two independent directions (MODEL.md §2):
+	// P = P_sc ⊗ P_ca, π = π_sc ⊗ π_ca, state (i, j) at index i·N_ca + j.
 	var P mat.Dense
-	P.Kronecker(psc, pca)
+	P.Kronecker(sc.Transition(h), ca.Transition(h))
 	md.P = &P
-	md.Pi = stationary(&P)
+	for _, a := range sc.Stationary() {
+		for _, b := range ca.Stationary() {
+			md.Pi = append(md.Pi, a*b)
+		}
+	}
 
 	deg := chebDegree(samp, loop.ComputeDelay)
 	cache := map[float64]mode{} // m2 at each distinct τ, shared between states

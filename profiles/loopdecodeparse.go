@@ -1,0 +1,120 @@
+package profiles
+
+import "strings"
+
+// parseDecode reads the decode section of a loop file (INTERFACES.md):
+//
+//	decode: {format: text, separator: ",", outputs: [{field: 2}], sequence: {field: 0}}
+//	decode: {format: binary, outputs: [{offset: 8, type: float64, order: little}],
+//	         sequence: {offset: 0, type: uint32, order: big}}
+//
+// outputs must list one field per plant output (p); a binary order
+// defaults to little. The sequence of a binary format must be an integer
+// type.
+func parseDecode(f Field, d *Decode, p int) error {
+	keys, err := f.Mapping("format", "separator", "outputs", "sequence")
+	if err != nil {
+		return err
+	}
+	if keys["format"].IsZero() {
+		return missing(f, "format")
+	}
+	if d.Format, err = keys["format"].Text(); err != nil {
+		return err
+	}
+	if d.Format != "text" && d.Format != "binary" {
+		return keys["format"].Errorf("want text or binary, got %s", keys["format"].Got())
+	}
+	if sep := keys["separator"]; !sep.IsNull() {
+		if d.Format != "text" {
+			return sep.Errorf("only for format text")
+		}
+		if d.Separator, err = sep.Text(); err != nil {
+			return err
+		}
+		if d.Separator == "" {
+			return sep.Errorf("want a non-empty separator")
+		}
+	} else if d.Format == "text" {
+		d.Separator = ","
+	}
+	if keys["outputs"].IsZero() {
+		return missing(f, "outputs")
+	}
+	items, err := keys["outputs"].Seq()
+	if err != nil {
+		return err
+	}
+	if len(items) != p {
+		return keys["outputs"].Errorf("want %d fields (one per output of plant.c), got %d", p, len(items))
+	}
+	for _, it := range items {
+		df, err := parseDecodeField(it, d.Format, false)
+		if err != nil {
+			return err
+		}
+		d.Outputs = append(d.Outputs, df)
+	}
+	if s := keys["sequence"]; !s.IsNull() {
+		df, err := parseDecodeField(s, d.Format, true)
+		if err != nil {
+			return err
+		}
+		d.Sequence = &df
+	}
+	return nil
+}
+
+var binaryTypes = []string{"float32", "float64", "int16", "int32", "int64", "uint16", "uint32"}
+
+func parseDecodeField(f Field, format string, counter bool) (DecodeField, error) {
+	var df DecodeField
+	if format == "text" {
+		keys, err := f.Mapping("field")
+		if err != nil {
+			return df, err
+		}
+		if keys["field"].IsZero() {
+			return df, missing(f, "field")
+		}
+		v, err := keys["field"].Int()
+		if err != nil || v < 0 {
+			return df, keys["field"].Errorf("want a field index ≥ 0, got %s", keys["field"].Got())
+		}
+		df.Field = v
+		return df, nil
+	}
+	keys, err := f.Mapping("offset", "type", "order")
+	if err != nil {
+		return df, err
+	}
+	for _, k := range []string{"offset", "type"} {
+		if keys[k].IsZero() {
+			return df, missing(f, k)
+		}
+	}
+	v, err := keys["offset"].Int()
+	if err != nil || v < 0 {
+		return df, keys["offset"].Errorf("want a byte offset ≥ 0, got %s", keys["offset"].Got())
+	}
+	df.Offset = v
+	if df.Type, err = keys["type"].Text(); err != nil {
+		return df, err
+	}
+	if !contains(binaryTypes, df.Type) {
+		return df, keys["type"].Errorf("want one of %s, got %s", strings.Join(binaryTypes, ", "), keys["type"].Got())
+	}
+	if counter && strings.HasPrefix(df.Type, "float") {
+		return df, keys["type"].Errorf("want an integer type for the sequence counter, got %s", keys["type"].Got())
+	}
+	df.Order = "little"
+	if o := keys["order"]; !o.IsNull() {
+		if df.Order, err = o.Text(); err != nil {
+			return df, err
+		}
+		if df.Order != "little" && df.Order != "big" {
+			return df, o.Errorf("want little or big, got %s", o.Got())
+		}
+	}
+	return df, nil
+}

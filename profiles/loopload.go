@@ -1,0 +1,267 @@
+package profiles
+
+import (
+	"fmt"
+	"math"
+	"os"
+	"path/filepath"
+
+	"gonum.org/v1/gonum/mat"
+	"gopkg.in/yaml.v3"
+)
+
+// LoadLoop reads and validates the loop description at path (the loop
+// file of INTERFACES.md). A profile given as a path is resolved against
+// the loop file's directory. Every error names the file, the line and the
+// key path:
+//
+//	loop.yaml:12: controller.d: want 1×1, got 1×2
+func LoadLoop(path string) (*Loop, error) {
+	data, err := os.ReadFile(path)
+	if err != nil {
+		return nil, fmt.Errorf("reading loop file: %w", err)
+	}
+	l, err := ParseLoop(data, path, filepath.Dir(path))
+	if err != nil {
+		return nil, err
+	}
+	l.File = path
+	return l, nil
+}
+
+// ParseLoop validates a loop description held in memory. file names it in
+// messages; dir is the directory that the profile path is resolved
+// against.
+func ParseLoop(data []byte, file, dir string) (*Loop, error) {
+	root, err := Document(file, data)
+	if err != nil {
+		return nil, err
+	}
+	return parseLoop(root, dir)
+}
+
+// Negative eigenvalues of a noise covariance down to this much of its
+// largest entry are taken for rounding in the file (common practice).
+const psdTolerance = 1e-12
+
+func parseLoop(root Field, dir string) (*Loop, error) {
+	keys, err := root.Mapping("period", "plant", "controller", "setpoint", "compute_delay",
+		"profile", "actuator", "decode")
+	if err != nil {
+		return nil, err
+	}
+	for _, k := range []string{"period", "plant", "controller", "profile"} {
+		if keys[k].IsZero() {
+			return nil, missing(root, k)
+		}
+	}
+	l := &Loop{File: root.File}
+	if l.Period, err = keys["period"].PositiveDuration(); err != nil {
+		return nil, err
+	}
+	if err := parsePlant(keys["plant"], &l.Plant); err != nil {
+		return nil, err
+	}
+	n, m := l.Plant.B.Dims()
+	p, _ := l.Plant.C.Dims()
+	if err := parseController(keys["controller"], &l.Controller, n, m, p); err != nil {
+		return nil, err
+	}
+	l.Setpoint = make([]float64, p)
+	if f := keys["setpoint"]; !f.IsNull() {
+		v, err := f.Vector()
+		if err != nil {
+			return nil, err
+		}
+		if len(v) != p {
+			return nil, f.Errorf("want %d numbers (one per output of plant.c), got %d", p, len(v))
+		}
+		l.Setpoint = v
+	}
+	if f := keys["compute_delay"]; !f.IsNull() {
+		c, err := f.DurationIn(0, math.Inf(1))
+		if err != nil {
+			return nil, err
+		}
+		if c >= l.Period {
+			return nil, f.Errorf("want a duration below the period (%s), got %s", fmtSeconds(l.Period), f.Got())
+		}
+		l.ComputeDelay = c
+	}
+	pf := keys["profile"]
+	switch {
+	case pf.IsNull():
+		return nil, pf.Errorf("want a profile file (a path) or an inline profile (a mapping), got %s", pf.Got())
+	case pf.Node.Kind == yaml.ScalarNode:
+		rel, err := pf.Text()
+		if err != nil {
+			return nil, err
+		}
+		path := rel
+		if !filepath.IsAbs(path) && dir != "" {
+			path = filepath.Join(dir, path)
+		}
+		prof, err := Load(path)
+		if err != nil {
+			return nil, pf.Errorf("%v", err) // keeps err reachable (Errorf sets Err)
+		}
+		l.Profile, l.ProfileFile = prof, path
+	default:
+		prof, err := ParseField(pf, dir)
+		if err != nil {
+			return nil, err
+		}
+		l.Profile = prof
+	}
+	if f := keys["actuator"]; !f.IsZero() {
+		ak, err := f.Mapping("on_loss")
+		if err != nil {
+			return nil, err
+		}
+		if ol := ak["on_loss"]; !ol.IsNull() {
+			s, err := ol.Text()
+			if err != nil {
+				return nil, err
+			}
+			switch s {
+			case "hold":
+				l.Actuator.OnLoss = HoldLast
+			case "zero":
+				l.Actuator.OnLoss = ZeroUnlessFresh
+			default:
+				return nil, ol.Errorf("want hold or zero, got %s", ol.Got())
+			}
+		}
+	}
+	if f := keys["decode"]; !f.IsZero() {
+		if err := parseDecode(f, &l.Decode, p); err != nil {
+			return nil, err
+		}
+	}
+	return l, nil
+}
+
+// missing is the error for a required key that is absent, at the line of
+// the mapping that should hold it.
+func missing(parent Field, key string) *Error {
+	line := parent.Line()
+	return &Error{File: parent.File, Line: line, Key: parent.Key(key), Msg: "missing (required)"}
+}
+
+func shape(m *mat.Dense) string {
+	r, c := m.Dims()
+	return fmt.Sprintf("%d×%d", r, c)
+}
+
+func parsePlant(f Field, pl *Plant) error {
+	keys, err := f.Mapping("a", "b", "c", "process_noise", "sensor_noise")
+	if err != nil {
+		return err
+	}
+	for _, k := range []string{"a", "b", "c"} {
+		if keys[k].IsZero() {
+			return missing(f, k)
+		}
+	}
+	if pl.A, err = keys["a"].Dense(-1, -1); err != nil {
+		return err
+	}
+	n, nn := pl.A.Dims()
+	if n != nn {
+		return keys["a"].Errorf("want a square matrix, got %s", shape(pl.A))
+	}
+	if pl.B, err = keys["b"].Dense(-1, -1); err != nil {
+		return err
+	}
+	if r, _ := pl.B.Dims(); r != n {
+		return keys["b"].Errorf("want %d rows (plant.a is %d×%d), got %s", n, n, n, shape(pl.B))
+	}
+	if pl.C, err = keys["c"].Dense(-1, -1); err != nil {
+		return err
+	}
+	if _, c := pl.C.Dims(); c != n {
+		return keys["c"].Errorf("want %d columns (plant.a is %d×%d), got %s", n, n, n, shape(pl.C))
+	}
+	p, _ := pl.C.Dims()
+	if pl.W, err = covariance(keys["process_noise"], n); err != nil {
+		return err
+	}
+	if pl.V, err = covariance(keys["sensor_noise"], p); err != nil {
+		return err
+	}
+	return nil
+}
+
+// covariance reads an n×n symmetric positive semidefinite matrix; absent
+// means zeros.
+func covariance(f Field, n int) (*mat.Dense, error) {
+	if f.IsNull() {
+		return mat.NewDense(n, n, nil), nil
+	}
+	m, err := f.Dense(n, n)
+	if err != nil {
+		return nil, err
+	}
+	scale := 0.0
+	for i := 0; i < n; i++ {
+		for j := 0; j < n; j++ {
+			scale = math.Max(scale, math.Abs(m.At(i, j)))
+			if i < j && m.At(i, j) != m.At(j, i) {
+				return nil, f.Errorf("want a symmetric matrix, got [%d][%d] = %g but [%d][%d] = %g",
+					i, j, m.At(i, j), j, i, m.At(j, i))
+			}
+		}
+	}
+	for i := 0; i < n; i++ {
+		if m.At(i, i) < 0 {
+			return nil, f.Errorf("want a covariance (positive semidefinite), got a negative variance [%d][%d] = %g", i, i, m.At(i, i))
+		}
+	}
+	var eig mat.EigenSym
+	if !eig.Factorize(mat.NewSymDense(n, m.RawMatrix().Data), false) {
+		return nil, f.Errorf("eigenvalues did not converge")
+	}
+	if v := eig.Values(nil); len(v) > 0 && v[0] < -psdTolerance*scale {
+		return nil, f.Errorf("want a covariance (positive semidefinite), got an eigenvalue %g", v[0])
+	}
+	return m, nil
+}
+
+func parseController(f Field, c *Controller, n, m, p int) error {
+	keys, err := f.Mapping("a", "b", "c", "d")
+	if err != nil {
+		return err
+	}
+	has := func(k string) bool { return !keys[k].IsNull() }
+	dynamic := has("a") || has("b") || has("c")
+	if dynamic {
+		for _, k := range []string{"a", "b", "c"} {
+			if !has(k) {
+				return f.Errorf("want a, b and c together (a dynamic controller), got no %s", k)
+			}
+		}
+		if c.A, err = keys["a"].Dense(-1, -1); err != nil {
+			return err
+		}
+		nc, ncc := c.A.Dims()
+		if nc != ncc {
+			return keys["a"].Errorf("want a square matrix, got %s", shape(c.A))
+		}
+		if c.B, err = keys["b"].Dense(nc, p); err != nil {
+			return err
+		}
+		if c.C, err = keys["c"].Dense(m, nc); err != nil {
+			return err
+		}
+	} else if !has("d") {
+		return f.Errorf("want d (static gain) or a, b, c and d, got neither")
+	}
+	if has("d") {
+		if c.D, err = keys["d"].Dense(m, p); err != nil {
+			return err
+		}
+	} else {
+		c.D = mat.NewDense(m, p, nil)
+	}
+	return nil
+}
