@@ -39,7 +39,21 @@ func (c *Channel) Generator() *mat.Dense {
 // state j a time h ≥ 0 after being in state i (Kolmogorov's forward
 // equation; Norris §2.8), computed with gonum's mat.Exp (Higham's scaling
 // and squaring, Algorithm 10.20).
+//
+// h = +Inf gives the limit, every row π; h must not be negative or NaN.
 func (c *Channel) Transition(h float64) *mat.Dense {
+	if !(h >= 0) {
+		panic("profiles: Transition of a negative or NaN time")
+	}
+	if math.IsInf(h, 1) {
+		n := len(c.States)
+		pi := c.Stationary()
+		p := mat.NewDense(n, n, nil)
+		for i := range n {
+			p.SetRow(i, pi)
+		}
+		return p
+	}
 	g := c.Generator()
 	g.Scale(h, g)
 	var p mat.Dense
@@ -48,39 +62,58 @@ func (c *Channel) Transition(h float64) *mat.Dense {
 }
 
 // Stationary returns the stationary distribution π, the solution of
-// π G = 0 with Σ π_i = 1 (Norris §3.5), found by replacing one equation
-// of Gᵀπ = 0 with the normalisation and solving the linear system. For two
-// states it is π = (d₁, d₂)/(d₁ + d₂), d the mean dwells. The loader
-// rejects chains whose stationary law is not unique.
+// π G = 0 with Σ π_i = 1 (Norris §3.5), by the Grassmann–Taksar–Heyman
+// elimination (W. K. Grassmann, M. I. Taksar, D. P. Heyman, "Regenerative
+// analysis and steady state distributions for Markov chains", Operations
+// Research 33(5), 1985, 1107–1116): states are censored out one by one from
+// the last, using only additions, multiplications and divisions of
+// non-negative numbers, so it stays accurate when dwell times differ by
+// many orders of magnitude. For two states it gives π = (d₁, d₂)/(d₁ + d₂),
+// d the mean dwells. It needs an irreducible chain, which the loader
+// ensures; for one that is not, the unreachable states get π = 0.
 func (c *Channel) Stationary() []float64 {
 	n := len(c.States)
 	if n == 1 {
 		return []float64{1}
 	}
 	g := c.Generator()
-	a := mat.NewDense(n, n, nil)
-	a.CloneFrom(g.T())
-	for j := range n {
-		a.Set(n-1, j, 1)
-	}
-	b := mat.NewVecDense(n, nil)
-	b.SetVec(n-1, 1)
-	var x mat.VecDense
-	if err := x.SolveVec(a, b); err != nil {
-		// Singular or badly conditioned: fall back on the long-run row of
-		// the transition matrix over many mean dwells.
-		longest := 0.0
-		for _, s := range c.States {
-			longest = math.Max(longest, s.MeanDwell)
+	a := make([][]float64, n)
+	for i := range a {
+		a[i] = make([]float64, n)
+		for j := range a[i] {
+			if i != j {
+				a[i][j] = g.At(i, j)
+			}
 		}
-		p := c.Transition(1e3 * longest * float64(n))
-		x.CloneFromVec(p.RowView(0))
+	}
+	for k := n - 1; k > 0; k-- {
+		s := 0.0
+		for j := range k {
+			s += a[k][j]
+		}
+		if s == 0 {
+			continue // k cannot reach the states before it
+		}
+		for i := range k {
+			a[i][k] /= s
+		}
+		for i := range k {
+			if a[i][k] == 0 {
+				continue
+			}
+			for j := range k {
+				a[i][j] += a[i][k] * a[k][j]
+			}
+		}
 	}
 	pi := make([]float64, n)
-	sum := 0.0
-	for i := range pi {
-		pi[i] = math.Max(0, x.AtVec(i))
-		sum += pi[i]
+	pi[0] = 1
+	sum := 1.0
+	for k := 1; k < n; k++ {
+		for i := range k {
+			pi[k] += pi[i] * a[i][k]
+		}
+		sum += pi[k]
 	}
 	for i := range pi {
 		pi[i] /= sum

@@ -1,7 +1,9 @@
 package profiles
 
 import (
+	"errors"
 	"fmt"
+	"io/fs"
 	"math"
 	"os"
 	"path/filepath"
@@ -32,7 +34,7 @@ func init() {
 		"uniform":  {keys: []string{"min", "max"}, required: []string{"min", "max"}, build: buildUniform},
 		"normal":   {keys: []string{"mean", "std"}, required: []string{"mean", "std"}, shift: true, build: buildNormal},
 		"exponential": {keys: []string{"mean"}, required: []string{"mean"}, shift: true, build: func(k map[string]Field, _ string, _ int) (Delay, error) {
-			m, err := k["mean"].PositiveDuration()
+			m, err := k["mean"].PositiveDurationMax(MaxDelay)
 			if err != nil {
 				return nil, err
 			}
@@ -46,11 +48,14 @@ func init() {
 			return NewGamma(a, s, 0)
 		}},
 		"lognormal": {keys: []string{"median", "sigma"}, required: []string{"median", "sigma"}, shift: true, build: func(k map[string]Field, _ string, _ int) (Delay, error) {
-			m, err := k["median"].PositiveDuration()
+			m, err := k["median"].PositiveDurationMax(MaxDelay)
 			if err != nil {
 				return nil, err
 			}
 			s, err := k["sigma"].Positive()
+			if err == nil && s > MaxSigma {
+				err = k["sigma"].Errorf("want a number in (0, %g], got %s", MaxSigma, k["sigma"].Got())
+			}
 			if err != nil {
 				return nil, err
 			}
@@ -101,7 +106,7 @@ func parseDelay(f Field, dir string, depth int) (Delay, error) {
 // extra (a mixture part's weight), returned by name.
 func parseDelayExtra(f Field, dir string, depth int, extra ...string) (Delay, map[string]Field, error) {
 	if f.Node != nil && f.Node.Kind == yaml.ScalarNode && len(extra) == 0 && !f.IsNull() {
-		v, err := f.DurationIn(0, math.Inf(1))
+		v, err := f.DurationIn(0, MaxDelay)
 		if err != nil {
 			return nil, nil, f.Errorf("want a delay law ({kind: …}) or a duration ≥ 0, got %s", f.Got())
 		}
@@ -159,7 +164,7 @@ func parseDelayExtra(f Field, dir string, depth int, extra ...string) (Delay, ma
 		return nil, nil, wrapLawError(f, err)
 	}
 	if g, ok := keys["shift"]; ok {
-		s, err := g.DurationIn(0, math.Inf(1))
+		s, err := g.DurationIn(0, MaxDelay)
 		if err != nil {
 			return nil, nil, err
 		}
@@ -198,17 +203,17 @@ func uniq(s []string) []string {
 }
 
 func shapeScale(k map[string]Field) (shape, scale float64, err error) {
-	if shape, err = k["shape"].Positive(); err != nil {
+	if shape, err = k["shape"].FloatIn(MinShape, MaxShape); err != nil {
 		return 0, 0, err
 	}
-	if scale, err = k["scale"].PositiveDuration(); err != nil {
+	if scale, err = k["scale"].PositiveDurationMax(MaxDelay); err != nil {
 		return 0, 0, err
 	}
 	return shape, scale, nil
 }
 
 func buildConstant(k map[string]Field, _ string, _ int) (Delay, error) {
-	v, err := k["value"].DurationIn(0, math.Inf(1))
+	v, err := k["value"].DurationIn(0, MaxDelay)
 	if err != nil {
 		return nil, err
 	}
@@ -216,11 +221,11 @@ func buildConstant(k map[string]Field, _ string, _ int) (Delay, error) {
 }
 
 func buildUniform(k map[string]Field, _ string, _ int) (Delay, error) {
-	lo, err := k["min"].DurationIn(0, math.Inf(1))
+	lo, err := k["min"].DurationIn(0, MaxDelay)
 	if err != nil {
 		return nil, err
 	}
-	hi, err := k["max"].Duration()
+	hi, err := k["max"].DurationIn(0, MaxDelay)
 	if err != nil {
 		return nil, err
 	}
@@ -231,11 +236,11 @@ func buildUniform(k map[string]Field, _ string, _ int) (Delay, error) {
 }
 
 func buildNormal(k map[string]Field, _ string, _ int) (Delay, error) {
-	m, err := k["mean"].Duration()
+	m, err := k["mean"].DurationIn(-MaxDelay, MaxDelay)
 	if err != nil {
 		return nil, err
 	}
-	s, err := k["std"].PositiveDuration()
+	s, err := k["std"].PositiveDurationMax(MaxDelay)
 	if err != nil {
 		return nil, err
 	}
@@ -261,7 +266,7 @@ func buildEmpirical(k map[string]Field, dir string, _ int) (Delay, error) {
 			return nil, sf.Errorf("want at least one delay, got none")
 		}
 		for _, it := range items {
-			v, err := it.DurationIn(0, math.Inf(1))
+			v, err := it.DurationIn(0, MaxDelay)
 			if err != nil {
 				return nil, err
 			}
@@ -278,7 +283,11 @@ func buildEmpirical(k map[string]Field, dir string, _ int) (Delay, error) {
 		}
 		fh, err := os.Open(path)
 		if err != nil {
-			return nil, ff.Errorf("%v", err)
+			var pe *fs.PathError
+			if errors.As(err, &pe) {
+				err = pe.Err
+			}
+			return nil, ff.Errorf("cannot open %q: %v", name, err)
 		}
 		defer fh.Close()
 		if samples, err = ReadSamples(name, fh); err != nil {

@@ -63,7 +63,7 @@ func (g Gamma) CDF(x float64) float64 {
 	if x <= 0 {
 		return 0
 	}
-	return mathext.GammaIncReg(g.Shape, x/g.Scale)
+	return math.Min(1, math.Max(0, mathext.GammaIncReg(g.Shape, x/g.Scale)))
 }
 
 func (g Gamma) Density(x float64) float64 {

@@ -82,6 +82,19 @@ func parseProfile(root Field, dir string) (*Profile, error) {
 	return p, nil
 }
 
+// Limits of the profile format, beyond the laws' own domains. They keep
+// every accepted profile numerically sound (no draw or matrix exponential
+// overflows) and are far outside what a network does.
+const (
+	MaxStates    = 64     // states of one direction's chain
+	MinMeanDwell = 1e-6   // seconds: 1µs
+	MaxMeanDwell = 864000 // seconds: 10 days
+	MaxDelay     = 3600.0 // seconds: any time parameter of a delay law, 1h
+	MinShape     = 0.1    // gamma, weibull, pareto shapes
+	MaxShape     = 1e4
+	MaxSigma     = 10.0 // lognormal sigma
+)
+
 // Clean is a one-state channel that neither loses nor delays.
 func Clean() *Channel {
 	return &Channel{States: []State{{Name: "clean", MeanDwell: math.Inf(1), Delay: Constant{}}}}
@@ -138,6 +151,9 @@ func parseStates(f Field, dir string) (*Channel, error) {
 	if len(items) == 0 {
 		return nil, f.Errorf("want at least one state, got none")
 	}
+	if len(items) > MaxStates {
+		return nil, f.Errorf("want at most %d states, got %d", MaxStates, len(items))
+	}
 	n := len(items)
 	c := &Channel{States: make([]State, n)}
 	index := make(map[string]int, n)
@@ -166,7 +182,7 @@ func parseStates(f Field, dir string) (*Channel, error) {
 		index[s.Name] = i
 		s.MeanDwell = math.Inf(1)
 		if g, ok := keys["mean_dwell"]; ok {
-			if s.MeanDwell, err = g.PositiveDuration(); err != nil {
+			if s.MeanDwell, err = g.DurationIn(MinMeanDwell, MaxMeanDwell); err != nil {
 				return nil, err
 			}
 		} else if n > 1 {
@@ -223,8 +239,8 @@ func parseStates(f Field, dir string) (*Channel, error) {
 		}
 		c.States[i].Jump = jump
 	}
-	if !uniqueStationary(c) {
-		return nil, f.Errorf("no state can be reached from every other: the chain has no single long-run law")
+	if i, j, ok := unreachable(c); ok {
+		return nil, f.Errorf("state %q cannot be reached from state %q; want every state reachable from every other", c.States[j].Name, c.States[i].Name)
 	}
 	return c, nil
 }
@@ -237,11 +253,11 @@ func stateNames(c *Channel) []string {
 	return out
 }
 
-// uniqueStationary reports whether some state is reachable from every
-// state, which for a finite chain is equivalent to a single closed
-// communicating class and so to a unique stationary law (Norris §3.5,
-// from memory).
-func uniqueStationary(c *Channel) bool {
+// unreachable returns a pair of states (from, to) such that to cannot be
+// reached from from, or ok = false when the chain is irreducible (every
+// state reachable from every other), which gives it a unique stationary
+// law with every state visited (Norris §3.5, from memory).
+func unreachable(c *Channel) (from, to int, ok bool) {
 	n := len(c.States)
 	reach := make([][]bool, n)
 	for i := range reach {
@@ -264,14 +280,12 @@ func uniqueStationary(c *Channel) bool {
 			}
 		}
 	}
-	for j := range n {
-		all := true
-		for i := range n {
-			all = all && reach[i][j]
-		}
-		if all {
-			return true
+	for i := range n {
+		for j := range n {
+			if !reach[i][j] {
+				return i, j, true
+			}
 		}
 	}
-	return false
+	return 0, 0, false
 }

@@ -440,6 +440,16 @@ func (f Field) PositiveDuration() (float64, error) {
 	return v, nil
 }
 
+// PositiveDurationMax returns a duration in (0, hi] seconds:
+// `want a duration > 0 and ≤ 1h0m0s, got "0"`.
+func (f Field) PositiveDurationMax(hi float64) (float64, error) {
+	v, err := f.Duration()
+	if err != nil || v <= 0 || v > hi {
+		return 0, f.Errorf("want a duration > 0 and ≤ %s, got %s", time.Duration(hi*1e9), f.Got())
+	}
+	return v, nil
+}
+
 // Vector returns a list of numbers: [0.5, 1]. A single number is not a
 // vector (write [0.5]).
 func (f Field) Vector() ([]float64, error) {
