@@ -227,11 +227,7 @@ func (d *direction) releaseLoop() {
 			return
 		}
 		now := d.now()
-		k := 0
-		for k < batchSize && d.sched.len() > 0 && d.sched.peek().due <= now {
-			batch[k] = d.sched.pop()
-			k++
-		}
+		k := d.popDueLocked(now, batch[:])
 		if k == 0 {
 			if d.sched.len() == 0 {
 				if d.draining {
@@ -257,25 +253,39 @@ func (d *direction) releaseLoop() {
 			continue
 		}
 		d.mu.Unlock()
-
-		for i := range k {
-			p := batch[i]
-			out[i] = message{buf: p.buf, n: p.n, addr: p.dst}
-		}
-		t := d.now()
-		d.sendAll(out[:k], func(i int, ok bool) {
-			p := batch[i]
-			d.settle(ok, p.n, p.arrival, p.due, p.delay, t, p.state)
-		})
-
-		d.mu.Lock()
-		for i := range k {
-			d.pool.put(batch[i])
-			batch[i] = nil
-		}
-		d.m.inFlight.Set(float64(d.pool.inUse()))
-		d.mu.Unlock()
+		d.sendPopped(batch[:k], out[:k])
 	}
+}
+
+// popDueLocked moves the datagrams due by now, earliest first, from the
+// schedule to batch and returns how many.
+func (d *direction) popDueLocked(now int64, batch []*packet) int {
+	k := 0
+	for k < len(batch) && d.sched.len() > 0 && d.sched.peek().due <= now {
+		batch[k] = d.sched.pop()
+		k++
+	}
+	return k
+}
+
+// sendPopped sends the popped datagrams, accounts for them and gives their
+// buffers back to the pool.
+func (d *direction) sendPopped(batch []*packet, out []message) {
+	for i, p := range batch {
+		out[i] = message{buf: p.buf, n: p.n, addr: p.dst}
+	}
+	t := d.now()
+	d.sendAll(out, func(i int, ok bool) {
+		p := batch[i]
+		d.settle(ok, p.n, p.arrival, p.due, p.delay, t, p.state)
+	})
+	d.mu.Lock()
+	for i := range batch {
+		d.pool.put(batch[i])
+		batch[i] = nil
+	}
+	d.m.inFlight.Set(float64(d.pool.inUse()))
+	d.mu.Unlock()
 }
 
 // abortLocked counts what is still scheduled as lost to shutdown.

@@ -332,24 +332,38 @@ type side struct {
 	sensor bool           // sensor side: tap, track the source, send to the controller
 }
 
-// receiveLoop reads batches from s.in until the relay closes. Each
-// datagram is rejected (oversized, stranger) or handed to the direction;
-// those with no delay are sent before the next read, from the read buffers.
-func (r *Relay) receiveLoop(s *side) {
+// rxBatch is a receive loop's read buffers and per-batch scratch, made
+// once per loop.
+type rxBatch struct {
+	ms   []message
+	acc  []message
+	taps []message
+	imm  []message
+	meta []immediate
+	last netip.AddrPort // latest sensor source this loop published
+}
+
+func (r *Relay) newRxBatch() *rxBatch {
 	bufLen := r.cfg.MaxDatagram + 1
 	backing := make([]byte, batchSize*bufLen)
-	ms := make([]message, batchSize)
-	for i := range ms {
-		ms[i].buf = backing[i*bufLen : (i+1)*bufLen : (i+1)*bufLen]
+	b := &rxBatch{
+		ms:   make([]message, batchSize),
+		acc:  make([]message, 0, batchSize),
+		taps: make([]message, 0, batchSize),
+		imm:  make([]message, 0, batchSize),
+		meta: make([]immediate, 0, batchSize),
 	}
-	acc := make([]message, 0, batchSize)
-	taps := make([]message, 0, batchSize)
-	imm := make([]message, 0, batchSize)
-	meta := make([]immediate, 0, batchSize)
-	d := s.dir
-	var last netip.AddrPort
+	for i := range b.ms {
+		b.ms[i].buf = backing[i*bufLen : (i+1)*bufLen : (i+1)*bufLen]
+	}
+	return b
+}
+
+// receiveLoop reads batches from s.in until the relay closes.
+func (r *Relay) receiveLoop(s *side) {
+	b := r.newRxBatch()
 	for {
-		n, err := s.in.readBatch(ms)
+		n, err := s.in.readBatch(b.ms)
 		if err != nil {
 			if r.closing.Load() || errors.Is(err, net.ErrClosed) {
 				return
@@ -357,50 +371,59 @@ func (r *Relay) receiveLoop(s *side) {
 			if errors.Is(err, os.ErrDeadlineExceeded) {
 				continue
 			}
-			r.log.Warn("read failed", "direction", d.name, "err", err)
+			r.log.Warn("read failed", "direction", s.dir.name, "err", err)
 			time.Sleep(10 * time.Millisecond)
 			continue
 		}
-		now := d.now()
-		acc = acc[:0]
-		for i := range n {
-			m := &ms[i]
-			switch {
-			case m.trunc || m.n > r.cfg.MaxDatagram:
-				d.m.outcome[oOversized].Inc()
-				d.record(rec{arrival: now, outcome: oOversized})
-			case s.from.IsValid() && m.addr != s.from:
-				d.m.outcome[oStranger].Inc()
-				d.record(rec{arrival: now, outcome: oStranger})
-			default:
-				acc = append(acc, *m)
-			}
+		r.handleBatch(s, b, n)
+	}
+}
+
+// handleBatch settles the n datagrams just read into b.ms: each is
+// rejected (oversized, stranger) or handed to the direction; those with no
+// delay are sent at once, from the read buffers, and on the sensor side
+// the tap gets its copies.
+func (r *Relay) handleBatch(s *side, b *rxBatch, n int) {
+	d := s.dir
+	now := d.now()
+	b.acc = b.acc[:0]
+	for i := range n {
+		m := &b.ms[i]
+		switch {
+		case m.trunc || m.n > r.cfg.MaxDatagram:
+			d.m.outcome[oOversized].Inc()
+			d.record(rec{arrival: now, outcome: oOversized})
+		case s.from.IsValid() && m.addr != s.from:
+			d.m.outcome[oStranger].Inc()
+			d.record(rec{arrival: now, outcome: oStranger})
+		default:
+			b.acc = append(b.acc, *m)
 		}
-		if len(acc) == 0 {
-			continue
+	}
+	if len(b.acc) == 0 {
+		return
+	}
+	var dst netip.AddrPort
+	if s.sensor {
+		dst = r.cfg.Controller
+		if src := b.acc[len(b.acc)-1].addr; src != b.last {
+			b.last = src
+			r.srcMu.Lock()
+			r.lastSensor = src
+			r.srcMu.Unlock()
 		}
-		var dst netip.AddrPort
-		if s.sensor {
-			dst = r.cfg.Controller
-			if src := acc[len(acc)-1].addr; src != last {
-				last = src
-				r.srcMu.Lock()
-				r.lastSensor = src
-				r.srcMu.Unlock()
-			}
-		} else {
-			dst = r.cfg.Actuator
-			if !dst.IsValid() {
-				r.srcMu.Lock()
-				dst = r.lastSensor
-				r.srcMu.Unlock()
-			}
+	} else {
+		dst = r.cfg.Actuator
+		if !dst.IsValid() {
+			r.srcMu.Lock()
+			dst = r.lastSensor
+			r.srcMu.Unlock()
 		}
-		imm, meta = d.admit(acc, dst, now, imm[:0], meta[:0])
-		d.sendImmediate(imm, meta, now)
-		if s.sensor {
-			taps = r.sendTaps(acc, taps[:0])
-		}
+	}
+	b.imm, b.meta = d.admit(b.acc, dst, now, b.imm[:0], b.meta[:0])
+	d.sendImmediate(b.imm, b.meta, now)
+	if s.sensor {
+		b.taps = r.sendTaps(b.acc, b.taps[:0])
 	}
 }
 
