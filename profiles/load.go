@@ -57,6 +57,9 @@ func parseProfile(root Field, dir string) (*Profile, error) {
 	if root.IsNull() {
 		return nil, root.Errorf("want a profile (a mapping), got %s", root.Got())
 	}
+	if err := root.CheckSize(MaxNodes); err != nil {
+		return nil, err
+	}
 	keys, err := root.Mapping("name", "seed", SensorToController, ControllerToActuator)
 	if err != nil {
 		return nil, err

@@ -111,7 +111,44 @@ func Document(file string, data []byte) (Field, error) {
 		}
 		return Field{}, &Error{File: file, Line: line, Msg: "want one YAML document, got more"}
 	}
-	return NodeField(file, "", &doc), nil
+	root := NodeField(file, "", &doc)
+	if err := root.CheckSize(MaxNodes); err != nil {
+		return Field{}, err
+	}
+	return root, nil
+}
+
+// MaxNodes bounds the size of a document once its aliases are expanded
+// (see Field.CheckSize).
+const MaxNodes = 100_000
+
+// CheckSize returns an error when the field's tree, counted with every
+// alias expanded, holds more than limit nodes: a small file whose aliases
+// refer to aliases can stand for an enormous tree ("billion laughs"), and
+// decoders that walk it would never finish. The walk stops at the limit.
+func (f Field) CheckSize(limit int) error {
+	count := 0
+	var walk func(n *yaml.Node, depth int) bool
+	walk = func(n *yaml.Node, depth int) bool {
+		n = resolve(n)
+		if n == nil {
+			return true
+		}
+		count++
+		if count > limit || depth > 1000 {
+			return false
+		}
+		for _, c := range n.Content {
+			if !walk(c, depth+1) {
+				return false
+			}
+		}
+		return true
+	}
+	if !walk(f.Node, 0) {
+		return f.Errorf("want at most %d values with aliases expanded, got more", limit)
+	}
+	return nil
 }
 
 var yamlLine = regexp.MustCompile(`^yaml: line (\d+): (.*)$`)

@@ -106,6 +106,18 @@ nested:
 	}
 }
 
+// laughs is a small document whose aliases expand to 10⁹ values.
+const laughs = `a: &a [x, x, x, x, x, x, x, x, x, x]
+b: &b [*a, *a, *a, *a, *a, *a, *a, *a, *a, *a]
+c: &c [*b, *b, *b, *b, *b, *b, *b, *b, *b, *b]
+d: &d [*c, *c, *c, *c, *c, *c, *c, *c, *c, *c]
+e: &e [*d, *d, *d, *d, *d, *d, *d, *d, *d, *d]
+f: &f [*e, *e, *e, *e, *e, *e, *e, *e, *e, *e]
+g: &g [*f, *f, *f, *f, *f, *f, *f, *f, *f, *f]
+h: &h [*g, *g, *g, *g, *g, *g, *g, *g, *g, *g]
+i: &i [*h, *h, *h, *h, *h, *h, *h, *h, *h, *h]
+`
+
 func TestDocumentErrors(t *testing.T) {
 	tests := []struct {
 		name, data, want string
@@ -115,6 +127,7 @@ func TestDocumentErrors(t *testing.T) {
 		{"syntax with line", "a: 1\n\tb: 2\n", "x.yaml:2: found a tab character that violates indentation"},
 		{"two docs", "a: 1\n---\nb: 2\n", "x.yaml:3: want one YAML document, got more"},
 		{"duplicate", "a: 1\na: 2\n", `x.yaml:2: key "a" given twice`},
+		{"alias bomb", laughs, `x.yaml:1: want at most 100000 values with aliases expanded, got more`},
 	}
 	for _, tt := range tests {
 		t.Run(tt.name, func(t *testing.T) {
