@@ -163,7 +163,7 @@ func (m *Mixture) String() string {
 		if i > 0 {
 			b.WriteString(", ")
 		}
-		fmt.Fprintf(&b, "%s%% %s", fmtNum(100*m.Weights[i]), describe(p))
+		fmt.Fprintf(&b, "%s%% %s", fmtNum(100*m.Weights[i]), Describe(p))
 	}
 	return b.String()
 }

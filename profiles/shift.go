@@ -48,7 +48,7 @@ func (s *Shifted) CDF(x float64) float64       { return s.Base.CDF(x - s.Shift) 
 func (s *Shifted) Density(x float64) float64   { return s.Base.Density(x - s.Shift) }
 func (s *Shifted) Mean() float64               { return s.Shift + s.Base.Mean() }
 func (s *Shifted) Variance() float64           { return s.Base.Variance() }
-func (s *Shifted) String() string              { return describe(s.Base) + " + " + fmtSeconds(s.Shift) }
+func (s *Shifted) String() string              { return Describe(s.Base) + " + " + fmtSeconds(s.Shift) }
 
 // Atoms returns Base's atoms moved by Shift; the slice is shared, do not
 // modify it.
@@ -59,8 +59,10 @@ func (s *Shifted) Support() (lo, hi float64) {
 	return lo + s.Shift, hi + s.Shift
 }
 
-// describe is a law's String if it has one, else its kind.
-func describe(d Delay) string {
+// Describe is a one-line description of a law for people ("lognormal
+// median 3ms sigma 0.4 + 1ms"): its String method if it has one, else its
+// kind.
+func Describe(d Delay) string {
 	if s, ok := d.(fmt.Stringer); ok {
 		return s.String()
 	}

@@ -1,0 +1,178 @@
+package main
+
+import (
+	"errors"
+	"flag"
+	"fmt"
+	"io"
+	"math"
+	"strings"
+	"text/tabwriter"
+
+	"rigwire/profiles"
+)
+
+const checkUsage = `usage: impair check [--interval D] PROFILE
+
+Validates a network profile and prints, for each direction and state, the
+loss and the delay's mean, median, p99 and p99.9, and for each direction
+the share of time in each state, the long-run loss, the mean length of a
+run of lost datagrams and the chance that a datagram is lost when the one
+before it was, for datagrams sent every D (default 10ms).
+
+Exit status: 0 for a valid profile, 2 for a bad one or bad flags.
+`
+
+// maxCheckInterval bounds --interval: loss runs of datagrams sent less
+// often than hourly mean nothing for a control loop.
+const maxCheckInterval = 3600.0
+
+// cmdCheck is `impair check`: validate a profile and describe it.
+func cmdCheck(args []string, stdout, stderr io.Writer) int {
+	fs := flag.NewFlagSet("check", flag.ContinueOnError)
+	fs.SetOutput(stderr)
+	fs.Usage = func() { fmt.Fprint(stderr, checkUsage) }
+	interval := 0.01
+	fs.Func("interval", "time between datagrams for loss-run figures (default 10ms)", func(s string) error {
+		v, err := profiles.ParseDuration(s)
+		if err != nil {
+			return err
+		}
+		if v <= 0 || v > maxCheckInterval {
+			return fmt.Errorf("want a duration > 0 and ≤ 1h, got %q", s)
+		}
+		interval = v
+		return nil
+	})
+	// Flags may come before or after the profile.
+	var paths []string
+	for {
+		if err := fs.Parse(args); err != nil {
+			if errors.Is(err, flag.ErrHelp) {
+				return 0
+			}
+			return 2
+		}
+		if fs.NArg() == 0 {
+			break
+		}
+		paths = append(paths, fs.Arg(0))
+		args = fs.Args()[1:]
+	}
+	if len(paths) != 1 {
+		fmt.Fprintf(stderr, "impair check: want one profile, got %d\n%s", len(paths), checkUsage)
+		return 2
+	}
+	p, err := profiles.Load(paths[0])
+	if err != nil {
+		fmt.Fprintln(stderr, err)
+		return 2
+	}
+	writeCheck(stdout, p, interval)
+	return 0
+}
+
+// writeCheck prints the report of a valid profile.
+func writeCheck(w io.Writer, p *profiles.Profile, interval float64) {
+	name := p.Name
+	if name == "" {
+		name = "(unnamed)"
+	}
+	fmt.Fprintf(w, "profile %s  (%s", name, p.File)
+	if p.HasSeed {
+		fmt.Fprintf(w, ", seed %d", p.Seed)
+	}
+	fmt.Fprintf(w, ")\nloss runs for one datagram every %s; late: share of delivered datagrams delayed ≥ %s\n", fmtDur(interval), fmtDur(interval))
+	for _, d := range []struct {
+		name string
+		c    *profiles.Channel
+	}{
+		{profiles.SensorToController, p.SensorToController},
+		{profiles.ControllerToActuator, p.ControllerToActuator},
+	} {
+		fmt.Fprintln(w)
+		writeChannel(w, d.name, d.c, interval)
+	}
+	fmt.Fprintln(w, "\nprofile is valid")
+}
+
+func writeChannel(w io.Writer, name string, c *profiles.Channel, interval float64) {
+	n := len(c.States)
+	if n == 1 {
+		fmt.Fprintf(w, "%s: i.i.d., one state\n", name)
+	} else {
+		fmt.Fprintf(w, "%s: Markov channel, %d states\n", name, n)
+	}
+	pi := c.Stationary()
+	tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', tabwriter.AlignRight)
+	fmt.Fprintf(tw, "  state\tdwell\ttime\tloss\tmean\tmedian\tp99\tp99.9\tlate\t\n")
+	for i, s := range c.States {
+		d := s.Delay
+		late := 1 - d.CDF(math.Nextafter(interval, 0)) // P(delay ≥ interval)
+		fmt.Fprintf(tw, "  %s\t%s\t%s\t%s\t%s\t%s\t%s\t%s\t%s\t\n",
+			s.Name, fmtDur(s.MeanDwell), fmtPct(pi[i]), fmtPct(s.Loss),
+			fmtMS(d.Mean()), fmtMS(profiles.Quantile(d, 0.5)),
+			fmtMS(profiles.Quantile(d, 0.99)), fmtMS(profiles.Quantile(d, 0.999)),
+			fmtPct(late))
+	}
+	tw.Flush()
+	for _, s := range c.States {
+		fmt.Fprintf(w, "  %s delay: %s\n", s.Name, profiles.Describe(s.Delay))
+	}
+	fmt.Fprintf(w, "  long-run loss %s; mean loss burst %s datagrams; P(lost | previous lost) %s\n",
+		fmtPct(c.LongRunLoss()), fmtNum(c.MeanLossBurst(interval)), fmtNum(c.LagOneLoss(interval)))
+	if n > 1 {
+		var b strings.Builder
+		for i, s := range c.States {
+			if i > 0 {
+				b.WriteString(", ")
+			}
+			fmt.Fprintf(&b, "%s %s", s.Name, fmtNum(pi[i]))
+		}
+		fmt.Fprintf(w, "  stationary: %s\n", b.String())
+	}
+}
+
+// fmtMS writes seconds as milliseconds with three significant digits.
+func fmtMS(s float64) string {
+	v := s * 1e3
+	switch {
+	case math.IsInf(v, 1):
+		return "inf"
+	case v < 1:
+		return fmt.Sprintf("%.3f ms", v)
+	case v < 10:
+		return fmt.Sprintf("%.2f ms", v)
+	case v < 100:
+		return fmt.Sprintf("%.1f ms", v)
+	}
+	return fmt.Sprintf("%.0f ms", v)
+}
+
+// fmtDur writes a time in seconds in the unit that suits it.
+func fmtDur(s float64) string {
+	switch {
+	case math.IsInf(s, 1):
+		return "-"
+	case s < 1e-3:
+		return fmt.Sprintf("%.3g us", s*1e6)
+	case s < 1:
+		return fmt.Sprintf("%.3g ms", s*1e3)
+	}
+	return fmt.Sprintf("%.3g s", s)
+}
+
+// fmtPct writes a probability as a percentage.
+func fmtPct(p float64) string {
+	if p == 0 {
+		return "0 %"
+	}
+	return fmt.Sprintf("%.3g %%", 100*p)
+}
+
+func fmtNum(x float64) string {
+	if math.IsInf(x, 1) {
+		return "inf"
+	}
+	return fmt.Sprintf("%.3g", x)
+}
