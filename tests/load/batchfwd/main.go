@@ -35,16 +35,20 @@ func main() {
 	listen := flag.String("listen", "", "loopback HOST:PORT to receive on (required)")
 	to := flag.String("to", "", "loopback HOST:PORT to forward to (required)")
 	batch := flag.Int("batch", 64, "most datagrams per recvmmsg/sendmmsg call")
+	rcvbuf := flag.Int("rcvbuf", 4<<20, "receive buffer to ask for, bytes (0: the system default)")
 	flag.Parse()
-	if err := run(*listen, *to, *batch); err != nil {
+	if err := run(*listen, *to, *batch, *rcvbuf); err != nil {
 		slog.Error("batchfwd", "err", err)
 		os.Exit(1)
 	}
 }
 
-func run(listen, to string, batch int) error {
+func run(listen, to string, batch, rcvbuf int) error {
 	if batch < 1 || batch > 1024 {
 		return fmt.Errorf("-batch: want 1 to 1024, got %d", batch)
+	}
+	if rcvbuf < 0 || rcvbuf > 1<<30 {
+		return fmt.Errorf("-rcvbuf: want 0 to 1 GiB, got %d", rcvbuf)
 	}
 	in, err := loadkit.ParseLoopback(listen)
 	if err != nil {
@@ -57,6 +61,14 @@ func run(listen, to string, batch int) error {
 	rx, err := net.ListenUDP("udp", net.UDPAddrFromAddrPort(in))
 	if err != nil {
 		return fmt.Errorf("listening on %v: %w", in, err)
+	}
+	if rcvbuf > 0 {
+		// As much as the relay asks for on its own sockets, so that the
+		// comparison is of forwarding loops, not of buffer sizes.
+		if err := rx.SetReadBuffer(rcvbuf); err != nil {
+			rx.Close()
+			return fmt.Errorf("setting the receive buffer to %d bytes: %w", rcvbuf, err)
+		}
 	}
 	tx, err := net.DialUDP("udp", nil, net.UDPAddrFromAddrPort(dst))
 	if err != nil {

@@ -30,14 +30,18 @@ type counters struct {
 func main() {
 	listen := flag.String("listen", "", "loopback HOST:PORT to receive on (required)")
 	to := flag.String("to", "", "loopback HOST:PORT to forward to (required)")
+	rcvbuf := flag.Int("rcvbuf", 4<<20, "receive buffer to ask for, bytes (0: the system default)")
 	flag.Parse()
-	if err := run(*listen, *to); err != nil {
+	if err := run(*listen, *to, *rcvbuf); err != nil {
 		slog.Error("naivefwd", "err", err)
 		os.Exit(1)
 	}
 }
 
-func run(listen, to string) error {
+func run(listen, to string, rcvbuf int) error {
+	if rcvbuf < 0 || rcvbuf > 1<<30 {
+		return fmt.Errorf("-rcvbuf: want 0 to 1 GiB, got %d", rcvbuf)
+	}
 	in, err := loadkit.ParseLoopback(listen)
 	if err != nil {
 		return fmt.Errorf("-listen: %w", err)
@@ -49,6 +53,14 @@ func run(listen, to string) error {
 	rx, err := net.ListenUDP("udp", net.UDPAddrFromAddrPort(in))
 	if err != nil {
 		return fmt.Errorf("listening on %v: %w", in, err)
+	}
+	if rcvbuf > 0 {
+		// As much as the relay asks for on its own sockets, so that the
+		// comparison is of forwarding loops, not of buffer sizes.
+		if err := rx.SetReadBuffer(rcvbuf); err != nil {
+			rx.Close()
+			return fmt.Errorf("setting the receive buffer to %d bytes: %w", rcvbuf, err)
+		}
 	}
 	tx, err := net.ListenUDP("udp", &net.UDPAddr{IP: net.IP(dst.Addr().AsSlice())})
 	if err != nil {
