@@ -57,6 +57,7 @@ func run(args []string) error {
 	busy := fs.Float64("busy", 0.3, "repeat a trial during which other processes used more than this many cores")
 	retries := fs.Int("retries", 2, "at most this many repeats of a busy trial")
 	quietBudget := fs.Duration("quiet-wait", 90*time.Second, "wait at most this long in all, between trials, for other processes to go below -busy")
+	nice := fs.Int("nice", -10, "niceness of the generator, sink and forwarders, so that other processes disturb them less (0: unchanged; below 0 needs root, else ignored)")
 	pin := fs.Bool("pin", false, "pin the forwarder to CPU 1 and generator and sink to CPU 0 (taskset)")
 	jsonOut := fs.String("json", "", "write every trial and figure as JSON to `FILE`")
 	verbose := fs.Bool("v", false, "print each trial's errors in full")
@@ -117,7 +118,14 @@ func run(args []string) error {
 		}
 	}
 
-	e := &env{bin: *bin, pin: *pin, hz: clockTicks(), procs: newProcs(),
+	if *nice < -20 || *nice > 19 {
+		return fmt.Errorf("-nice: want -20 to 19, got %d", *nice)
+	}
+	if *nice < 0 && os.Geteuid() != 0 {
+		progress("note: not root; -nice %d ignored\n", *nice)
+		*nice = 0
+	}
+	e := &env{bin: *bin, pin: *pin, nice: *nice, hz: clockTicks(), procs: newProcs(),
 		rng: rand.New(rand.NewPCG(uint64(time.Now().UnixNano()), 0)), verbose: *verbose}
 	for _, tool := range []string{"udpgen", "udpsink", "naivefwd", "batchfwd"} {
 		if _, err := os.Stat(filepath.Join(e.bin, tool)); err != nil {
@@ -183,7 +191,8 @@ func run(args []string) error {
 
 	res := newResults(cfg.reps, cfg.targets)
 	start := time.Now()
-	progress("trials in %s; forwarders: %s; %d repetition(s)\n", e.work, strings.Join(cfg.targets, ", "), cfg.reps)
+	progress("trials in %s; forwarders: %s; %d repetition(s); children at nice %d\n",
+		e.work, strings.Join(cfg.targets, ", "), cfg.reps, e.nice)
 	for rep := range cfg.reps {
 		if cfg.phases["rate"] {
 			e.phaseMaxRate(cfg, res, rep)

@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"io"
 	"math"
+	"strconv"
 	"strings"
 	"text/tabwriter"
 
@@ -12,11 +13,22 @@ import (
 
 // bar is one line of the final table: a figure, its aim and the verdict.
 type bar struct {
-	Figure   string  `json:"figure"`
-	Value    float64 `json:"value"`
-	Measured string  `json:"measured"`
-	Aim      string  `json:"aim"`
-	Met      string  `json:"met"` // yes, NO, n/a
+	Figure   string `json:"figure"`
+	Value    num    `json:"value"`
+	Measured string `json:"measured"`
+	Aim      string `json:"aim"`
+	Met      string `json:"met"` // yes, NO, n/a
+}
+
+// num is a figure that is written as null in JSON when it is NaN.
+type num float64
+
+func (v num) MarshalJSON() ([]byte, error) {
+	f := float64(v)
+	if math.IsNaN(f) || math.IsInf(f, 0) {
+		return []byte("null"), nil
+	}
+	return strconv.AppendFloat(nil, f, 'g', -1, 64), nil
 }
 
 // ratios is a[i]/b[i] for each repetition where both are positive numbers.
@@ -63,6 +75,9 @@ func us(v float64) string {
 	if math.IsNaN(v) {
 		return "—"
 	}
+	if math.Abs(v) >= 1e-3 {
+		return fmt.Sprintf("%.2f ms", v*1e3)
+	}
 	return fmt.Sprintf("%.1f µs", v*1e6)
 }
 
@@ -98,14 +113,14 @@ func bars(cfg config, res *results) []bar {
 		}
 		r := pick(loadkit.Median(ratios(m[tRelay], m[tBatch])))
 		out = append(out, bar{
-			Figure: fmt.Sprintf("max rate %d B, relay ÷ batched forwarder", size), Value: r,
+			Figure: fmt.Sprintf("max rate %d B, relay ÷ batched forwarder", size), Value: num(r),
 			Measured: fmt.Sprintf("%s (%s vs %s /s)", times(r), kRate(pick(loadkit.Median(m[tRelay]))), kRate(loadkit.Median(m[tBatch]))),
 			Aim:      "≥ 0.80×", Met: verdict(r, func(v float64) bool { return v >= 0.8 }),
 		})
 		if size == 64 {
 			v := pick(loadkit.Median(m[tRelay]))
 			out = append(out, bar{
-				Figure: "max rate 64 B, relay", Value: v, Measured: kRate(v) + " /s",
+				Figure: "max rate 64 B, relay", Value: num(v), Measured: kRate(v) + " /s",
 				Aim: "≥ 40k /s", Met: verdict(v, func(v float64) bool { return v >= 40e3 }),
 			})
 		}
@@ -115,7 +130,7 @@ func bars(cfg config, res *results) []bar {
 		addB := diffs(res.LatP50[tBatch], res.LatP50[tDirect])
 		r := pick(loadkit.Median(ratios(addR, addB)))
 		out = append(out, bar{
-			Figure: fmt.Sprintf("added latency p50 at %.0fk/s, relay ÷ batched", cfg.latRate/1000), Value: r,
+			Figure: fmt.Sprintf("added latency p50 at %.0fk/s, relay ÷ batched", cfg.latRate/1000), Value: num(r),
 			Measured: fmt.Sprintf("%s (%s vs %s)", times(r), us(pick(loadkit.Median(addR))), us(loadkit.Median(addB))),
 			Aim:      "≤ 1.50×", Met: verdict(r, func(v float64) bool { return v <= 1.5 }),
 		})
@@ -128,16 +143,16 @@ func bars(cfg config, res *results) []bar {
 		p50, p99, cpu := loadkit.Median(m[kP50]), loadkit.Median(m[kP99]), loadkit.Median(m[kCPU])
 		if rate == 1000 {
 			out = append(out,
-				bar{Figure: "release lateness p50 at 1k/s", Value: p50, Measured: us(p50), Aim: "≤ 50 µs",
+				bar{Figure: "release lateness p50 at 1k/s", Value: num(p50), Measured: us(p50), Aim: "≤ 50 µs",
 					Met: verdict(p50, func(v float64) bool { return v <= 50e-6 })},
-				bar{Figure: "release lateness p99 at 1k/s", Value: p99, Measured: us(p99), Aim: "≤ 500 µs",
+				bar{Figure: "release lateness p99 at 1k/s", Value: num(p99), Measured: us(p99), Aim: "≤ 500 µs",
 					Met: verdict(p99, func(v float64) bool { return v <= 500e-6 })},
-				bar{Figure: "relay CPU at 1k/s (1–5 ms delays)", Value: cpu, Measured: pct(cpu) + " of a core", Aim: "< 20 %",
+				bar{Figure: "relay CPU at 1k/s (1–5 ms delays)", Value: num(cpu), Measured: pct(cpu) + " of a core", Aim: "< 20 %",
 					Met: verdict(cpu, func(v float64) bool { return v < 0.2 })},
 			)
 		}
 		if rate == 20000 {
-			out = append(out, bar{Figure: "release lateness p99 at 20k/s", Value: p99, Measured: us(p99), Aim: "≤ 2 ms",
+			out = append(out, bar{Figure: "release lateness p99 at 20k/s", Value: num(p99), Measured: us(p99), Aim: "≤ 2 ms",
 				Met: verdict(p99, func(v float64) bool { return v <= 2e-3 })})
 		}
 	}

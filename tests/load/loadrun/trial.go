@@ -29,6 +29,7 @@ type env struct {
 	socat   string // path of socat, "" if absent
 	work    string // trial directories go here
 	pin     bool   // forwarder on CPU 1, generator and sink on CPU 0
+	nice    int    // niceness of every child, 0 to leave it
 	hz      float64
 	procs   *procs
 	rng     *rand.Rand
@@ -107,13 +108,22 @@ func (r *trialResult) ok(maxLoss float64) bool {
 		r.Gen.RateAchieved >= 0.97*r.Spec.Rate && r.Unexplained < maxLoss
 }
 
-// pinned prefixes argv with taskset when pinning is on.
+// pinned prefixes argv with nice when a priority is set, and with taskset
+// when pinning is on; both are inherited by every thread the child starts.
 func (e *env) pinned(cpu int, argv []string) []string {
-	if !e.pin {
-		return argv
+	if e.pin {
+		argv = append([]string{"taskset", "-c", strconv.Itoa(cpu)}, argv...)
 	}
-	return append([]string{"taskset", "-c", strconv.Itoa(cpu)}, argv...)
+	if e.nice != 0 {
+		argv = append([]string{"nice", "-n", strconv.Itoa(e.nice)}, argv...)
+	}
+	return argv
 }
+
+// fwdRcvbuf is the receive buffer the baselines ask for: what the relay
+// asks for on its own sockets (emulate sets 4 MiB), so that the comparison
+// is of the forwarding loops, not of buffer sizes.
+const fwdRcvbuf = 4 << 20
 
 // forwarderArgv is the command line of the forwarder of target t.
 func (e *env) forwarderArgv(t string, listen, sink, metrics int, spec trialSpec, record string) ([]string, error) {
@@ -132,15 +142,15 @@ func (e *env) forwarderArgv(t string, listen, sink, metrics int, spec trialSpec,
 		}
 		return argv, nil
 	case tBatch:
-		return []string{filepath.Join(e.bin, "batchfwd"), "-listen", l, "-to", s}, nil
+		return []string{filepath.Join(e.bin, "batchfwd"), "-listen", l, "-to", s, "-rcvbuf", strconv.Itoa(fwdRcvbuf)}, nil
 	case tNaive:
-		return []string{filepath.Join(e.bin, "naivefwd"), "-listen", l, "-to", s}, nil
+		return []string{filepath.Join(e.bin, "naivefwd"), "-listen", l, "-to", s, "-rcvbuf", strconv.Itoa(fwdRcvbuf)}, nil
 	case tSocat:
 		if e.socat == "" {
 			return nil, fmt.Errorf("socat not installed")
 		}
 		return []string{e.socat, "-u", "-b", "65536",
-			fmt.Sprintf("UDP4-RECV:%d,bind=127.0.0.1", listen),
+			fmt.Sprintf("UDP4-RECV:%d,bind=127.0.0.1,rcvbuf=%d", listen, fwdRcvbuf),
 			fmt.Sprintf("UDP4-SENDTO:127.0.0.1:%d", sink)}, nil
 	}
 	return nil, fmt.Errorf("unknown target %q", t)
