@@ -144,10 +144,15 @@ func setBlock(dst *mat.Dense, r0, c0 int, src mat.Matrix, scale float64) {
 }
 
 // chebDegree returns the polynomial degree at which Γ0(τ) is resolved on
-// [c, h] to about 1e-15 of its size: the smallest degree d past which its
+// [c, h] to about 1e-13 of its size (the matrix exponential's own rounding,
+// about 1e-16 of its unit blocks, sets the floor): the smallest degree d past which its
 // Chebyshev coefficients (on 2d points) stay negligible. The rule over τ
 // uses twice that plus a margin, since the moment operators hold products
 // of two Γ0 entries.
+// chebTol is the relative size of Chebyshev coefficients of Γ0 taken as
+// resolved.
+const chebTol = 1e-13
+
 func chebDegree(s *Sampled, c float64) int {
 	h := s.H
 	n, m := s.B.Dims()
@@ -180,7 +185,7 @@ func chebDegree(s *Sampled, c float64) int {
 		last := 0
 		for j := 0; j < N; j++ {
 			for _, v := range coef[j] {
-				if math.Abs(v) > 1e-15*scale {
+				if math.Abs(v) > chebTol*scale {
 					last = j
 				}
 			}
