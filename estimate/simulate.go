@@ -1,0 +1,297 @@
+package estimate
+
+import (
+	"fmt"
+	"math"
+	"math/rand/v2"
+
+	"gonum.org/v1/gonum/mat"
+
+	"rigwire/profiles"
+)
+
+// SimOptions sets up a Monte-Carlo run of a loop.
+type SimOptions struct {
+	Options
+	Periods int    // periods per run, > Warmup
+	Runs    int    // independent runs, ≥ 2 for a standard error
+	Warmup  int    // periods discarded at the start of each run
+	Seed    uint64 // run r draws from PCG(Seed, r)
+	// Paths is the number of runs (the first ones) whose error paths are
+	// kept in the result.
+	Paths int
+	// Progress, if set, is called after each run.
+	Progress func(done, total int)
+}
+
+// PathPoint is one period of a recorded sample path.
+type PathPoint struct {
+	K     int
+	Error []float64 // e_k = r − y_k
+	Mode  int       // 0, 1, 2 as in MODEL.md §1
+	Tau   float64   // total delay of a delivered command (mode 2), else NaN
+	State int       // joint network state index
+}
+
+// SimResult is the Monte-Carlo estimate of the steady E[eᵀe].
+type SimResult struct {
+	// SecondMoment is the mean over runs of each run's time average of
+	// e_kᵀe_k over its periods after the warm-up.
+	SecondMoment float64
+	// StdErr is the standard error of SecondMoment across the independent
+	// runs (sample standard deviation of the run averages / √runs).
+	StdErr float64
+	// RunMeans are the runs' time averages.
+	RunMeans []float64
+	// ModeCounts counts the periods in each mode over all runs.
+	ModeCounts [3]int
+	Paths      [][]PathPoint
+}
+
+// Simulate runs the loop's jump system period by period (MODEL.md §1),
+// written from the rig's timing rather than from the modes' matrices so
+// that it checks them: each period the joint network state moves by
+// P = P_sc ⊗ P_ca, a sample is lost with the sensor state's probability or
+// drawn a delay by the profile's own Sample, a sample at least h late is
+// stale; a used sample advances the controller and sends a command that
+// is lost or drawn a delay in turn, and a command with τ ≥ h is late. The
+// plant moves by its exact sampling over the period with the input switch
+// at τ (Φ, Γ0(τ), Γ1(τ) from one matrix exponential per delivered command)
+// and process noise w ~ N(0, W_d); the sensor noise v ~ N(0, V).
+func Simulate(loop *profiles.Loop, opts SimOptions) (*SimResult, error) {
+	if opts.Periods <= opts.Warmup || opts.Warmup < 0 {
+		return nil, fmt.Errorf("periods: want more than the warm-up (%d), got %d", opts.Warmup, opts.Periods)
+	}
+	if opts.Runs < 1 {
+		return nil, fmt.Errorf("runs: want at least 1, got %d", opts.Runs)
+	}
+	md, err := Build(loop, opts.Options) // for the chain and the scaled delays
+	if err != nil {
+		return nil, err
+	}
+	sim := newSimulator(md)
+	res := &SimResult{}
+	for r := 0; r < opts.Runs; r++ {
+		rng := rand.New(rand.NewPCG(opts.Seed, uint64(r)))
+		var path *[]PathPoint
+		if r < opts.Paths {
+			res.Paths = append(res.Paths, nil)
+			path = &res.Paths[len(res.Paths)-1]
+		}
+		m := sim.run(rng, opts.Periods, opts.Warmup, path, &res.ModeCounts)
+		res.RunMeans = append(res.RunMeans, m)
+		if opts.Progress != nil {
+			opts.Progress(r+1, opts.Runs)
+		}
+	}
+	sum := 0.0
+	for _, m := range res.RunMeans {
+		sum += m
+	}
+	res.SecondMoment = sum / float64(len(res.RunMeans))
+	if len(res.RunMeans) > 1 {
+		ss := 0.0
+		for _, m := range res.RunMeans {
+			ss += (m - res.SecondMoment) * (m - res.SecondMoment)
+		}
+		res.StdErr = math.Sqrt(ss / float64(len(res.RunMeans)-1) / float64(len(res.RunMeans)))
+	} else {
+		res.StdErr = math.NaN()
+	}
+	return res, nil
+}
+
+type simulator struct {
+	md             *Model
+	n, m, p, nc    int
+	h, c           float64
+	zero           bool
+	phi, gam       *mat.Dense
+	cp             *mat.Dense
+	ac, bc, cc, dc *mat.Dense
+	r              []float64
+	wFac, vFac     *mat.Dense // noise factors: L Lᵀ = covariance
+	psc, pca       *mat.Dense
+	pisc, pica     []float64
+	sc, ca         []profiles.State
+	delaySC        []profiles.Delay
+	delayCA        []profiles.Delay
+	lossSC, lossCA []float64   // extra loss included
+	rowsSC, rowsCA [][]float64 // rows of the transition matrices
+	split          map[float64][2]*mat.Dense
+}
+
+func newSimulator(md *Model) *simulator {
+	l := md.Loop
+	n, m, p, nc := l.Dims()
+	s := &simulator{md: md, n: n, m: m, p: p, nc: nc, h: l.Period, c: l.ComputeDelay,
+		zero: l.Actuator.OnLoss == profiles.ZeroUnlessFresh,
+		phi:  md.lm.samp.Phi, gam: md.lm.samp.Gamma, cp: l.Plant.C,
+		ac: l.Controller.A, bc: l.Controller.B, cc: l.Controller.C, dc: l.Controller.D,
+		r: l.Setpoint, split: map[float64][2]*mat.Dense{},
+	}
+	s.wFac = sqrtFactor(md.lm.samp.Wd)
+	s.vFac = sqrtFactor(l.Plant.V)
+	prof := l.Profile
+	s.psc, s.pca = prof.SensorToController.Transition(l.Period), prof.ControllerToActuator.Transition(l.Period)
+	s.pisc, s.pica = prof.SensorToController.Stationary(), prof.ControllerToActuator.Stationary()
+	s.sc, s.ca = prof.SensorToController.States, prof.ControllerToActuator.States
+	q := md.opts.ExtraLoss
+	for i, st := range s.sc {
+		s.delaySC = append(s.delaySC, scaleDelay(st.Delay, md.opts.DelayScale))
+		s.lossSC = append(s.lossSC, st.Loss+(1-st.Loss)*q)
+		s.rowsSC = append(s.rowsSC, mat.Row(nil, i, s.psc))
+	}
+	for i, st := range s.ca {
+		s.delayCA = append(s.delayCA, scaleDelay(st.Delay, md.opts.DelayScale))
+		s.lossCA = append(s.lossCA, st.Loss+(1-st.Loss)*q)
+		s.rowsCA = append(s.rowsCA, mat.Row(nil, i, s.pca))
+	}
+	return s
+}
+
+// sqrtFactor returns L with L Lᵀ = a for a symmetric positive
+// semidefinite a, from its eigendecomposition (negative rounding clipped).
+func sqrtFactor(a *mat.Dense) *mat.Dense {
+	n, _ := a.Dims()
+	sym := mat.NewSymDense(n, nil)
+	for i := 0; i < n; i++ {
+		for j := i; j < n; j++ {
+			sym.SetSym(i, j, (a.At(i, j)+a.At(j, i))/2)
+		}
+	}
+	var eig mat.EigenSym
+	l := mat.NewDense(n, n, nil)
+	if !eig.Factorize(sym, true) {
+		return l
+	}
+	var u mat.Dense
+	eig.VectorsTo(&u)
+	vals := eig.Values(nil)
+	for i := 0; i < n; i++ {
+		for j := 0; j < n; j++ {
+			l.Set(i, j, u.At(i, j)*math.Sqrt(math.Max(0, vals[j])))
+		}
+	}
+	return l
+}
+
+func draw(r *rand.Rand, row []float64) int {
+	u := r.Float64()
+	for j, p := range row {
+		u -= p
+		if u < 0 {
+			return j
+		}
+	}
+	return len(row) - 1
+}
+
+func mulVec(a *mat.Dense, x []float64, out []float64, add bool) {
+	if a == nil {
+		return
+	}
+	r, c := a.Dims()
+	for i := 0; i < r; i++ {
+		s := 0.0
+		for j := 0; j < c; j++ {
+			s += a.At(i, j) * x[j]
+		}
+		if add {
+			out[i] += s
+		} else {
+			out[i] = s
+		}
+	}
+}
+
+func (s *simulator) gammas(tau float64) (g0, g1 *mat.Dense) {
+	if v, ok := s.split[tau]; ok {
+		return v[0], v[1]
+	}
+	g0, g1 = s.md.lm.samp.Split(tau)
+	if len(s.split) < 4096 {
+		s.split[tau] = [2]*mat.Dense{g0, g1}
+	}
+	return g0, g1
+}
+
+// run simulates one run and returns its time average of eᵀe after the
+// warm-up.
+func (s *simulator) run(rng *rand.Rand, periods, warmup int, path *[]PathPoint, counts *[3]int) float64 {
+	n, m, p, nc := s.n, s.m, s.p, s.nc
+	x := make([]float64, n)
+	uHeld := make([]float64, m)
+	xc := make([]float64, nc)
+	e := make([]float64, p)
+	v := make([]float64, p)
+	u := make([]float64, m)
+	xn := make([]float64, n)
+	xcn := make([]float64, nc)
+	std := make([]float64, max(n, p))
+	isc := draw(rng, s.pisc)
+	ica := draw(rng, s.pica)
+	sum := 0.0
+	for k := 0; k < periods; k++ {
+		// Sample: y = C x + v, e = r − y.
+		for i := range std[:p] {
+			std[i] = rng.NormFloat64()
+		}
+		mulVec(s.vFac, std[:p], v, false)
+		mulVec(s.cp, x, e, false)
+		ee := 0.0
+		for i := 0; i < p; i++ {
+			e[i] = s.r[i] - e[i] - v[i]
+			ee += e[i] * e[i]
+		}
+		if k >= warmup {
+			sum += ee
+		}
+		// Network and controller.
+		mode, tau := 0, math.NaN()
+		if rng.Float64() >= s.lossSC[isc] {
+			tsc := s.delaySC[isc].Sample(rng)
+			if tsc < s.h {
+				mode = 1
+				// u_k = Cc xc + Dc e; xc' = Ac xc + Bc e.
+				mulVec(s.dc, e, u, false)
+				mulVec(s.cc, xc, u, true)
+				mulVec(s.ac, xc, xcn, false)
+				mulVec(s.bc, e, xcn, true)
+				copy(xc, xcn)
+				if rng.Float64() >= s.lossCA[ica] {
+					t := tsc + s.delayCA[ica].Sample(rng) + s.c
+					if t < s.h {
+						mode, tau = 2, t
+					}
+				}
+			}
+		}
+		counts[mode]++
+		// Plant over the period.
+		for i := range std[:n] {
+			std[i] = rng.NormFloat64()
+		}
+		mulVec(s.wFac, std[:n], xn, false)
+		mulVec(s.phi, x, xn, true)
+		switch {
+		case mode == 2:
+			g0, g1 := s.gammas(tau)
+			mulVec(g0, u, xn, true)
+			if !s.zero {
+				mulVec(g1, uHeld, xn, true)
+				copy(uHeld, u)
+			}
+		case !s.zero:
+			mulVec(s.gam, uHeld, xn, true)
+		}
+		copy(x, xn)
+		if path != nil {
+			*path = append(*path, PathPoint{K: k, Error: append([]float64(nil), e...), Mode: mode, Tau: tau,
+				State: isc*len(s.ca) + ica})
+		}
+		isc = draw(rng, s.rowsSC[isc])
+		ica = draw(rng, s.rowsCA[ica])
+	}
+	return sum / float64(periods-warmup)
+}
