@@ -1,0 +1,153 @@
+package main
+
+import (
+	"encoding/json"
+	"flag"
+	"fmt"
+	"io"
+	"math"
+	"os"
+	"strconv"
+	"strings"
+	"time"
+
+	"rigwire/estimate"
+	"rigwire/profiles"
+)
+
+func cmdSimulate(args []string, stdout, stderr io.Writer) error {
+	fs := flag.NewFlagSet("simulate", flag.ContinueOnError)
+	fs.SetOutput(stderr)
+	periods := fs.Int("periods", 10000, "periods per run")
+	runs := fs.Int("runs", 20, "independent runs (the standard error is taken across them)")
+	warmup := fs.Int("warmup", -1, "periods discarded at the start of each run (default: a tenth of --periods)")
+	seed := fs.Uint64("seed", 1, "seed of the runs' random sources (run r uses PCG(seed, r))")
+	paths := fs.String("paths", "", "write sample paths as CSV to `FILE` (- for stdout)")
+	pathRuns := fs.Int("path-runs", 1, "number of runs whose paths --paths writes")
+	asJSON := fs.Bool("json", false, "print the result as JSON")
+	fs.Usage = func() {
+		fmt.Fprintln(stderr, "usage: monitor simulate LOOP.yaml --periods N --runs R [--seed S] [--paths FILE]")
+		fs.PrintDefaults()
+	}
+	path, err := parseArgs(fs, args)
+	if err != nil {
+		return err
+	}
+	if *warmup < 0 {
+		*warmup = *periods / 10
+	}
+	switch {
+	case *periods < 1 || *periods > 100_000_000:
+		return usagef("--periods: want a number in [1, 100000000], got %d", *periods)
+	case *runs < 1 || *runs > 1_000_000:
+		return usagef("--runs: want a number in [1, 1000000], got %d", *runs)
+	case *warmup >= *periods:
+		return usagef("--warmup: want fewer than --periods (%d), got %d", *periods, *warmup)
+	case *pathRuns < 0 || *pathRuns > *runs:
+		return usagef("--path-runs: want a number in [0, --runs], got %d", *pathRuns)
+	}
+	loop, err := profiles.LoadLoop(path)
+	if err != nil {
+		return err
+	}
+	keep := 0
+	if *paths != "" {
+		keep = *pathRuns
+	}
+	start := time.Now()
+	last := start
+	res, err := estimate.Simulate(loop, estimate.SimOptions{
+		Periods: *periods, Runs: *runs, Warmup: *warmup, Seed: *seed, Paths: keep,
+		Progress: func(done, total int) {
+			// Long runs show progress on stderr, at most once a second.
+			if now := time.Now(); now.Sub(last) >= time.Second && done < total {
+				last = now
+				fmt.Fprintf(stderr, "simulate: %d/%d runs, %s\n", done, total, now.Sub(start).Round(time.Second))
+			}
+		},
+	})
+	if err != nil {
+		return err
+	}
+	pr, err := estimate.Predict(loop, estimate.PredictOptions{SkipMargin: true})
+	if err != nil {
+		return err
+	}
+	if *paths != "" {
+		if err := writePaths(*paths, loop, res, stdout); err != nil {
+			return err
+		}
+	}
+	if *asJSON {
+		out := map[string]any{
+			"error_second_moment": res.SecondMoment,
+			"standard_error":      finite(res.StdErr),
+			"runs":                *runs,
+			"periods":             *periods,
+			"warmup":              *warmup,
+			"seed":                *seed,
+			"mode_counts":         res.ModeCounts,
+			"predicted_second_moment": func() *float64 {
+				if pr.Error == nil {
+					return nil
+				}
+				return &pr.Error.SecondMoment
+			}(),
+		}
+		enc := json.NewEncoder(stdout)
+		enc.SetIndent("", "  ")
+		return enc.Encode(out)
+	}
+	if *paths == "-" {
+		stdout = stderr // keep the CSV on stdout clean
+	}
+	total := float64(res.ModeCounts[0] + res.ModeCounts[1] + res.ModeCounts[2])
+	fmt.Fprintf(stdout, "simulated  %d runs × %d periods (first %d of each discarded), seed %d\n", *runs, *periods, *warmup, *seed)
+	fmt.Fprintf(stdout, "E[eᵀe]     %.6g ± %.2g (standard error across runs)\n", res.SecondMoment, res.StdErr)
+	if pr.Error != nil {
+		z := (res.SecondMoment - pr.Error.SecondMoment) / res.StdErr
+		fmt.Fprintf(stdout, "predicted  %.6g (difference %.2f standard errors)\n", pr.Error.SecondMoment, z)
+	} else {
+		fmt.Fprintf(stdout, "predicted  not mean-square stable (spectral radius %.6g): a finite-length average means little\n", pr.SpectralRadius)
+	}
+	fmt.Fprintf(stdout, "modes      sample lost/stale %.4f, command lost/late %.4f, in time %.4f\n",
+		float64(res.ModeCounts[0])/total, float64(res.ModeCounts[1])/total, float64(res.ModeCounts[2])/total)
+	return nil
+}
+
+func writePaths(name string, loop *profiles.Loop, res *estimate.SimResult, stdout io.Writer) (err error) {
+	w := stdout
+	if name != "-" {
+		f, err := os.Create(name)
+		if err != nil {
+			return fmt.Errorf("writing paths: %w", err)
+		}
+		defer func() {
+			if cerr := f.Close(); err == nil && cerr != nil {
+				err = fmt.Errorf("writing paths: %w", cerr)
+			}
+		}()
+		w = f
+	}
+	hdr := []string{"run", "k", "time_seconds", "mode", "state", "delay_seconds"}
+	for i := range loop.Setpoint {
+		hdr = append(hdr, fmt.Sprintf("error_%d", i))
+	}
+	fmt.Fprintln(w, strings.Join(hdr, ","))
+	for r, path := range res.Paths {
+		for _, pt := range path {
+			row := []string{strconv.Itoa(r), strconv.Itoa(pt.K), strconv.FormatFloat(float64(pt.K)*loop.Period, 'g', 8, 64),
+				strconv.Itoa(pt.Mode), strconv.Itoa(pt.State), ""}
+			if !math.IsNaN(pt.Tau) {
+				row[5] = strconv.FormatFloat(pt.Tau, 'g', 8, 64)
+			}
+			for _, v := range pt.Error {
+				row = append(row, strconv.FormatFloat(v, 'g', 8, 64))
+			}
+			if _, err := fmt.Fprintln(w, strings.Join(row, ",")); err != nil {
+				return err
+			}
+		}
+	}
+	return nil
+}

@@ -1,0 +1,118 @@
+package estimate
+
+import (
+	"fmt"
+	"math"
+
+	"rigwire/profiles"
+)
+
+// Sweep parameters.
+const (
+	SweepLoss       = "loss"        // the extra loss q of MODEL.md §5
+	SweepDelayScale = "delay_scale" // a factor on every network delay
+)
+
+// SweepPoint is the prediction at one value of a swept parameter.
+type SweepPoint struct {
+	Value            float64
+	MeanSquareStable bool
+	SpectralRadius   float64
+	// SecondMoment is the steady E[eᵀe]; NaN when not stable.
+	SecondMoment float64
+}
+
+// SweepResult is a curve of E[eᵀe] against a parameter.
+type SweepResult struct {
+	Param  string
+	Points []SweepPoint
+	// Boundary is the first value, scanning upwards, at which stability is
+	// lost, refined by bisection between the grid points that bracket it to
+	// 1e-4 (absolute for loss, relative for delay_scale); NaN when the
+	// stability does not change on the grid.
+	Boundary float64
+	// LostFromStart is set when the first grid point is already unstable.
+	LostFromStart bool
+}
+
+// Sweep predicts the loop at each value of the parameter (SweepLoss or
+// SweepDelayScale). For loss one model is built and only its mode
+// probabilities change (they are all the extra loss touches); a delay
+// scale changes the delay laws, so each value is a new model.
+func Sweep(loop *profiles.Loop, param string, values []float64) (*SweepResult, error) {
+	res := &SweepResult{Param: param, Boundary: math.NaN()}
+	var base *Model
+	at := func(v float64) (*Model, error) {
+		switch param {
+		case SweepLoss:
+			if !(v >= 0 && v <= 1) {
+				return nil, fmt.Errorf("loss: want values in [0, 1], got %g", v)
+			}
+			if base == nil {
+				var err error
+				if base, err = Build(loop, Options{}); err != nil {
+					return nil, err
+				}
+			}
+			base.setLoss(v)
+			return base, nil
+		case SweepDelayScale:
+			if !(v > 0) {
+				return nil, fmt.Errorf("delay_scale: want values > 0, got %g", v)
+			}
+			return Build(loop, Options{DelayScale: v})
+		}
+		return nil, fmt.Errorf("unknown parameter %q: want %s or %s", param, SweepLoss, SweepDelayScale)
+	}
+	for _, v := range values {
+		md, err := at(v)
+		if err != nil {
+			return nil, err
+		}
+		pt := SweepPoint{Value: v, SecondMoment: math.NaN(), SpectralRadius: md.SpectralRadius()}
+		if mo, err := md.Steady(); err == nil {
+			pt.MeanSquareStable = true
+			pt.SecondMoment = md.Error(mo).SecondMoment
+		}
+		res.Points = append(res.Points, pt)
+	}
+	for i, pt := range res.Points {
+		if pt.MeanSquareStable {
+			continue
+		}
+		if i == 0 {
+			res.LostFromStart = true
+			break
+		}
+		lo, hi := res.Points[i-1].Value, pt.Value
+		tol := 1e-4
+		if param == SweepDelayScale {
+			tol *= hi
+		}
+		for hi-lo > tol {
+			mid := (lo + hi) / 2
+			md, err := at(mid)
+			if err != nil {
+				return nil, err
+			}
+			if md.MeanSquareStable() {
+				lo = mid
+			} else {
+				hi = mid
+			}
+		}
+		res.Boundary = hi
+		break
+	}
+	return res, nil
+}
+
+// SetExtraLoss changes the model's extra loss q (MODEL.md §5) in place;
+// the modes are kept, only their probabilities change.
+func (md *Model) SetExtraLoss(q float64) error {
+	if !(q >= 0 && q <= 1) {
+		return fmt.Errorf("extra loss: want a probability in [0, 1], got %g", q)
+	}
+	md.setLoss(q)
+	return nil
+}
