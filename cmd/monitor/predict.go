@@ -304,4 +304,3 @@ func predictStep(loop *profiles.Loop, steps int, plotFile string, stdout io.Writ
 	}
 	return nil
 }
-
