@@ -1,0 +1,137 @@
+package estimate
+
+import (
+	"math"
+	"math/cmplx"
+	"testing"
+
+	"gonum.org/v1/gonum/mat"
+
+	"rigwire/profiles"
+)
+
+// Slow, obviously correct references beside the fast paths (the pattern
+// of net/netip's slow_test.go): the steady moments by running the
+// recursion of MODEL.md §4 for many periods instead of solving the
+// fixed-point systems, and the spectral radius from the full Kronecker
+// matrix Σ_i P_ij E_i[F ⊗ F] on all nz×nz matrices instead of the
+// symmetric-vector operator (and by bisection on the Lyapunov test).
+
+func smoothLoops() map[string]*profiles.Loop {
+	ms := 1e-3
+	lg := must(profiles.NewLognormal(2*ms, 0.6, 0.5*ms))
+	un := must(profiles.NewUniform(1*ms, 6*ms))
+	ga := must(profiles.NewGamma(2, 1*ms, 0.5*ms))
+	zero := servo(profile(iidChannel(0.1, lg), iidChannel(0.05, un)), 0.5*ms)
+	zero.Actuator.OnLoss = profiles.ZeroUnlessFresh
+	return map[string]*profiles.Loop{
+		"iid": servo(profile(iidChannel(0.08, lg), iidChannel(0.05, un)), 0.5*ms),
+		"burst": servo(profile(iidChannel(0.02, ga),
+			twoState(0.5, 0.01, profiles.Constant{Value: 1 * ms}, 0.1, 0.6, un)), 0.5*ms),
+		"both bursty": servo(profile(twoState(2, 0.01, lg, 0.2, 0.3, ga),
+			twoState(0.5, 0.01, profiles.Constant{Value: 1 * ms}, 0.1, 0.6, un)), 0.5*ms),
+		"zero policy": zero,
+	}
+}
+
+func TestSteadyAgainstIteration(t *testing.T) {
+	const (
+		iterTol = 1e-9 // relative; the iteration has converged far below it
+		steps   = 6000 // ρ ≈ 0.992: ρ^6000 ≈ 1e-21
+	)
+	for name, l := range smoothLoops() {
+		t.Run(name, func(t *testing.T) {
+			md, err := Build(l, Options{})
+			if err != nil {
+				t.Fatal(err)
+			}
+			mo, err := md.Steady()
+			if err != nil {
+				t.Fatal(err)
+			}
+			fast := md.Error(mo)
+			tr := md.Transient(steps)
+			slow := tr[len(tr)-1].Error
+			if d := math.Abs(fast.SecondMoment - slow.SecondMoment); d > iterTol*slow.SecondMoment {
+				t.Errorf("E[eᵀe]: solve %.15g, iteration %.15g", fast.SecondMoment, slow.SecondMoment)
+			}
+			for j := range fast.Mean {
+				if d := math.Abs(fast.Mean[j] - slow.Mean[j]); d > iterTol*math.Max(1, math.Abs(slow.Mean[j])) {
+					t.Errorf("E[e_%d]: solve %.15g, iteration %.15g", j, fast.Mean[j], slow.Mean[j])
+				}
+			}
+		})
+	}
+}
+
+// kroneckerRadius is ρ of the operator on vec(Q_j) ∈ ℝ^{nz²}, built from
+// F ⊗ F for every mode of every state, with gonum's Kronecker product.
+func kroneckerRadius(md *Model) float64 {
+	N, nz := len(md.States), md.lm.nz
+	d := nz * nz
+	big := mat.NewDense(N*d, N*d, nil)
+	for i := 0; i < N; i++ {
+		ki := mat.NewDense(d, d, nil)
+		for _, wm := range md.modes(i) {
+			var kr mat.Dense
+			kr.Kronecker(wm.F, wm.F)
+			kr.Scale(wm.w, &kr)
+			ki.Add(ki, &kr)
+		}
+		for j := 0; j < N; j++ {
+			blk := big.Slice(j*d, (j+1)*d, i*d, (i+1)*d).(*mat.Dense)
+			blk.Scale(md.P.At(i, j), ki)
+		}
+	}
+	var eig mat.Eigen
+	if !eig.Factorize(big, mat.EigenNone) {
+		panic("eigen")
+	}
+	rho := 0.0
+	for _, v := range eig.Values(nil) {
+		rho = math.Max(rho, cmplx.Abs(v))
+	}
+	return rho
+}
+
+func TestSpectralRadiusAgainstKronecker(t *testing.T) {
+	const rhoTol = 1e-9
+	for name, l := range smoothLoops() {
+		t.Run(name, func(t *testing.T) {
+			md, err := Build(l, Options{})
+			if err != nil {
+				t.Fatal(err)
+			}
+			fast := md.SpectralRadius()
+			slow := kroneckerRadius(md)
+			bis := radiusByBisection(md.SecondMomentOperator(), md.lm.nz, len(md.States))
+			if math.Abs(fast-slow) > rhoTol || math.Abs(bis-slow) > rhoTol {
+				t.Errorf("ρ: svec eigen %.15g, bisection %.15g, Kronecker eigen %.15g", fast, bis, slow)
+			}
+		})
+	}
+}
+
+// TestMarginAgainstScan checks the loss margin's bisection against a
+// plain fine scan of the spectral radius (eigenvalues, not the Lyapunov
+// test) around it.
+func TestMarginAgainstScan(t *testing.T) {
+	for _, name := range []string{"iid", "burst"} {
+		t.Run(name, func(t *testing.T) {
+			md, err := Build(smoothLoops()[name], Options{})
+			if err != nil {
+				t.Fatal(err)
+			}
+			q := md.LossMargin()
+			for _, probe := range []struct {
+				q      float64
+				stable bool
+			}{{q - marginTol, true}, {q + marginTol/10, false}} {
+				md.setLoss(probe.q)
+				if rho := md.SpectralRadius(); (rho < 1) != probe.stable {
+					t.Errorf("margin %.6f: at q = %.6f ρ = %.9f, want stable %v", q, probe.q, rho, probe.stable)
+				}
+			}
+		})
+	}
+}
