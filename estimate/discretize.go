@@ -27,7 +27,7 @@ type Sampled struct {
 // built from −A and Aᵀ). W_d is symmetrised to remove rounding asymmetry.
 // A nil W means no process noise.
 func Discretize(a, b, w *mat.Dense, h float64) *Sampled {
-	n, m := b.Dims()
+	n, _ := b.Dims()
 	phi, gamma := zohPair(a, b, h)
 	wd := mat.NewDense(n, n, nil)
 	if w != nil && !isZero(w) {
@@ -45,7 +45,6 @@ func Discretize(a, b, w *mat.Dense, h float64) *Sampled {
 		wd.Mul(phi, g)
 		symmetrize(wd)
 	}
-	_ = m
 	return &Sampled{H: h, A: a, B: b, Phi: phi, Gamma: gamma, Wd: wd}
 }
 
