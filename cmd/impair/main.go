@@ -1,0 +1,44 @@
+// Command impair is rigwire's relay: it sits between a rig's sensor and
+// actuator node and its controller, and delays and drops their UDP
+// datagrams as a network profile says.
+//
+//	impair run --profile FILE --listen HOST:PORT --controller HOST:PORT [flags]
+//	impair check [--interval D] PROFILE
+package main
+
+import (
+	"fmt"
+	"io"
+	"os"
+)
+
+const usage = `usage: impair <command> [flags]
+
+commands:
+  run     relay a rig's datagrams through a network profile
+  check   validate a profile and print what it will do
+
+Run "impair <command> -h" for a command's flags.
+`
+
+func main() {
+	os.Exit(dispatch(os.Args[1:], os.Stdout, os.Stderr))
+}
+
+func dispatch(args []string, stdout, stderr io.Writer) int {
+	if len(args) == 0 {
+		fmt.Fprint(stderr, usage)
+		return 2
+	}
+	switch args[0] {
+	case "run":
+		return cmdRun(args[1:], stdout, stderr)
+	case "check":
+		return cmdCheck(args[1:], stdout, stderr)
+	case "help", "-h", "--help":
+		fmt.Fprint(stdout, usage)
+		return 0
+	}
+	fmt.Fprintf(stderr, "impair: unknown command %q\n%s", args[0], usage)
+	return 2
+}
