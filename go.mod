@@ -4,6 +4,8 @@ go 1.26.0
 
 require (
 	github.com/prometheus/client_golang v1.25.0
+	github.com/prometheus/client_model v0.6.3
+	github.com/prometheus/common v0.72.0
 	github.com/vishvananda/netlink v1.3.1
 	golang.org/x/net v0.62.0
 	golang.org/x/sys v0.50.0
@@ -23,8 +25,6 @@ require (
 	github.com/golang/freetype v0.0.0-20170609003504-e2365dfdc4a0 // indirect
 	github.com/kylelemons/godebug v1.1.0 // indirect
 	github.com/munnerz/goautoneg v0.0.0-20191010083416-a7dc8b61c822 // indirect
-	github.com/prometheus/client_model v0.6.3 // indirect
-	github.com/prometheus/common v0.72.0 // indirect
 	github.com/prometheus/procfs v0.22.0 // indirect
 	github.com/vishvananda/netns v0.0.5 // indirect
 	golang.org/x/image v0.30.0 // indirect
