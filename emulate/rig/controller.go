@@ -1,0 +1,201 @@
+package rig
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"log/slog"
+	"net"
+	"net/netip"
+	"runtime"
+	"sync"
+
+	"gonum.org/v1/gonum/mat"
+
+	"rigwire/profiles"
+)
+
+// ControllerConfig is what a Controller needs. Loop is required.
+type ControllerConfig struct {
+	Loop *profiles.Loop
+	// Listen is where samples arrive; commands go back to each sample's
+	// source (zero: an ephemeral loopback port).
+	Listen netip.AddrPort
+	// Start.XC is the initial controller state (nil: zeros).
+	Start  Start
+	Logger *slog.Logger
+}
+
+// ControllerStats count what the controller did.
+type ControllerStats struct {
+	Used      uint64 // samples used: a command was sent for each
+	Stale     uint64 // samples arriving h or more after t_k (discarded)
+	Duplicate uint64 // samples not newer than the last one used (discarded)
+	Malformed uint64 // datagrams that do not decode as samples
+	SendError uint64
+}
+
+// Controller is the event-driven controller of MODEL.md §1 step 2. On a
+// sample k that arrives at T with T − t_k < h (else it is stale and
+// discarded, leaving xc as it is) and is newer than the last one used, it
+// computes, with e_k = r − y_k,
+//
+//	u_k = Cc xc + Dc e_k,   xc ← Ac xc + Bc e_k,
+//
+// waits until T + c (the loop's compute_delay, honoured on a timerfd and a
+// short spin rather than folded into the network delays) and sends
+// "k,t_k,u_k" back to the sample's source. Its own stack and compute
+// latency, a few tens of microseconds, add to τ (MODEL.md §6).
+type Controller struct {
+	cfg    ControllerConfig
+	log    *slog.Logger
+	conn   *net.UDPConn
+	layout Layout
+	hNs    int64
+	cNs    int64
+
+	mu    sync.Mutex
+	stats ControllerStats // guarded by mu
+}
+
+// NewController checks the loop and opens the controller's socket.
+func NewController(cfg ControllerConfig) (*Controller, error) {
+	if cfg.Loop == nil {
+		return nil, errors.New("rig controller: no loop")
+	}
+	layout, err := NewLayout(cfg.Loop)
+	if err != nil {
+		return nil, fmt.Errorf("%s: %w", cfg.Loop.File, err)
+	}
+	if cfg.Logger == nil {
+		cfg.Logger = slog.Default()
+	}
+	_, _, _, nc := cfg.Loop.Dims()
+	if cfg.Start.XC == nil {
+		cfg.Start.XC = make([]float64, nc)
+	}
+	if len(cfg.Start.XC) != nc {
+		return nil, fmt.Errorf("rig controller: start: want %d controller states, got %d", nc, len(cfg.Start.XC))
+	}
+	conn, err := listenUDP(cfg.Listen, netip.AddrPort{})
+	if err != nil {
+		return nil, fmt.Errorf("rig controller: %w", err)
+	}
+	return &Controller{cfg: cfg, log: cfg.Logger, conn: conn, layout: layout,
+		hNs: int64(cfg.Loop.Period*1e9 + 0.5), cNs: int64(cfg.Loop.ComputeDelay*1e9 + 0.5)}, nil
+}
+
+// LocalAddr is where the controller listens.
+func (c *Controller) LocalAddr() netip.AddrPort {
+	return c.conn.LocalAddr().(*net.UDPAddr).AddrPort()
+}
+
+// Stats returns the controller's counts so far.
+func (c *Controller) Stats() ControllerStats {
+	c.mu.Lock()
+	defer c.mu.Unlock()
+	return c.stats
+}
+
+// Run serves samples until ctx ends, then closes the socket.
+func (c *Controller) Run(ctx context.Context) error {
+	w, err := newWaiter()
+	if err != nil {
+		c.conn.Close()
+		return fmt.Errorf("rig controller: %w", err)
+	}
+	done := make(chan struct{})
+	go func() {
+		select {
+		case <-ctx.Done():
+		case <-done:
+		}
+		c.conn.Close()
+	}()
+	err = c.serveLoop(w)
+	close(done)
+	w.close()
+	return err
+}
+
+// serveLoop is the controller's one goroutine: read, decide, compute,
+// wait, reply; it ends when the socket closes.
+func (c *Controller) serveLoop(w *waiter) error {
+	runtime.LockOSThread()
+	defer runtime.UnlockOSThread()
+	l := c.cfg.Loop
+	_, m, p, nc := l.Dims()
+	xc := append([]float64(nil), c.cfg.Start.XC...)
+	xcn := make([]float64, nc)
+	y, e, u := make([]float64, p), make([]float64, p), make([]float64, m)
+	buf := make([]byte, 4096)
+	out := make([]byte, 0, 256)
+	last := int64(-1)
+	for {
+		n, src, err := c.conn.ReadFromUDPAddrPort(buf)
+		if err != nil {
+			if errors.Is(err, net.ErrClosed) {
+				return nil
+			}
+			c.log.Warn("rig controller: read", "err", err)
+			continue
+		}
+		arrival := Now()
+		k, tk, perr := c.layout.ParseSample(buf[:n], y)
+		c.mu.Lock()
+		switch {
+		case perr != nil:
+			c.stats.Malformed++
+			c.mu.Unlock()
+			continue
+		case arrival-tk >= c.hNs:
+			c.stats.Stale++
+			c.mu.Unlock()
+			continue
+		case int64(k) <= last:
+			c.stats.Duplicate++
+			c.mu.Unlock()
+			continue
+		}
+		c.mu.Unlock()
+		last = int64(k)
+		for i := range e {
+			e[i] = l.Setpoint[i] - y[i]
+		}
+		mulAdd(u, l.Controller.D, e, false)
+		if nc > 0 {
+			mulAdd(u, l.Controller.C, xc, true)
+			mulAdd(xcn, l.Controller.A, xc, false)
+			mulAdd(xcn, l.Controller.B, e, true)
+			copy(xc, xcn)
+		}
+		out = AppendCommand(out[:0], k, tk, u)
+		if c.cNs > 0 {
+			w.until(arrival + c.cNs)
+		}
+		_, err = c.conn.WriteToUDPAddrPort(out, src)
+		c.mu.Lock()
+		if err != nil {
+			c.stats.SendError++
+		} else {
+			c.stats.Used++
+		}
+		c.mu.Unlock()
+	}
+}
+
+// mulAdd sets (or adds to) out the product a x.
+func mulAdd(out []float64, a *mat.Dense, x []float64, add bool) {
+	r, cols := a.Dims()
+	for i := 0; i < r; i++ {
+		s := 0.0
+		for j := 0; j < cols; j++ {
+			s += a.At(i, j) * x[j]
+		}
+		if add {
+			out[i] += s
+		} else {
+			out[i] = s
+		}
+	}
+}
