@@ -1,0 +1,246 @@
+package profiles
+
+import (
+	"bytes"
+	"math"
+	"strconv"
+	"unsafe"
+)
+
+// DecodeError is why a datagram did not decode. The values are fixed
+// (ErrTooShort, …) so that callers count them by Reason without
+// allocating.
+type DecodeError struct {
+	// Reason is a short label, usable as a metric label value.
+	Reason string
+}
+
+func (e *DecodeError) Error() string { return "datagram " + e.Reason }
+
+// The reasons a datagram does not decode. Oversized datagrams are the
+// reader's to detect (it bounds its buffer); ReasonOversized is listed
+// here so that all reasons have one spelling.
+var (
+	// ErrTooShort: the datagram ends before a binary value, or has fewer
+	// text fields than the decode section names.
+	ErrTooShort = &DecodeError{Reason: "too_short"}
+	// ErrNotNumber: a text output field is not a decimal number.
+	ErrNotNumber = &DecodeError{Reason: "not_a_number"}
+	// ErrNotFinite: an output is NaN or infinite (or out of float64 range).
+	ErrNotFinite = &DecodeError{Reason: "not_finite"}
+	// ErrBadSequence: the sequence field is not a non-negative integer.
+	ErrBadSequence = &DecodeError{Reason: "bad_sequence"}
+	// ErrOversized: longer than the reader accepts.
+	ErrOversized = &DecodeError{Reason: "oversized"}
+)
+
+// DecodeReasons lists every DecodeError, for counters that must exist
+// from the start.
+var DecodeReasons = []*DecodeError{ErrTooShort, ErrNotNumber, ErrNotFinite, ErrBadSequence, ErrOversized}
+
+// Output decodes one sensor datagram: it writes the plant's outputs into
+// y (len(y) must be len(d.Outputs)) and returns the sample counter when
+// the decode section has one. It never allocates and never panics; a
+// datagram that does not decode returns one of the DecodeError values and
+// leaves y partly written.
+//
+// Text: the payload is split at each occurrence of d.Separator; a field
+// is trimmed of ASCII white space (so a trailing newline is fine) and must
+// be a decimal number, [+-]digits[.digits][(e|E)[+-]digits] (at least one
+// digit before the exponent), or, for the sequence, decimal digits only.
+// Binary: each value is read at its offset with its type and byte order;
+// signed sequence values below zero are ErrBadSequence.
+func (d *Decode) Output(payload []byte, y []float64) (seq uint64, hasSeq bool, err error) {
+	if len(y) != len(d.Outputs) {
+		return 0, false, ErrTooShort // a caller error; never a panic
+	}
+	if d.Format == "binary" {
+		for i, f := range d.Outputs {
+			v, ok := binaryValue(payload, f)
+			if !ok {
+				return 0, false, ErrTooShort
+			}
+			if math.IsNaN(v) || math.IsInf(v, 0) {
+				return 0, false, ErrNotFinite
+			}
+			y[i] = v
+		}
+		if d.Sequence == nil {
+			return 0, false, nil
+		}
+		s, ok, neg := binaryCounter(payload, *d.Sequence)
+		switch {
+		case !ok:
+			return 0, false, ErrTooShort
+		case neg:
+			return 0, false, ErrBadSequence
+		}
+		return s, true, nil
+	}
+	sep := []byte(d.Separator)
+	if len(sep) == 0 {
+		sep = comma
+	}
+	for i, f := range d.Outputs {
+		b, ok := textField(payload, sep, f.Field)
+		if !ok {
+			return 0, false, ErrTooShort
+		}
+		if !isDecimal(b) {
+			return 0, false, ErrNotNumber
+		}
+		// The string aliases payload only for the call; the syntax check
+		// above leaves range errors (overflow) as the only failure.
+		v, perr := strconv.ParseFloat(unsafe.String(unsafe.SliceData(b), len(b)), 64)
+		if perr != nil || math.IsInf(v, 0) || math.IsNaN(v) {
+			return 0, false, ErrNotFinite
+		}
+		y[i] = v
+	}
+	if d.Sequence == nil {
+		return 0, false, nil
+	}
+	b, ok := textField(payload, sep, d.Sequence.Field)
+	if !ok {
+		return 0, false, ErrTooShort
+	}
+	s, ok := parseCounter(b)
+	if !ok {
+		return 0, false, ErrBadSequence
+	}
+	return s, true, nil
+}
+
+var comma = []byte(",")
+
+// textField returns field idx of payload split at sep, trimmed of ASCII
+// white space.
+func textField(payload, sep []byte, idx int) ([]byte, bool) {
+	if idx < 0 {
+		return nil, false
+	}
+	rest := payload
+	for i := 0; i < idx; i++ {
+		j := bytes.Index(rest, sep)
+		if j < 0 {
+			return nil, false
+		}
+		rest = rest[j+len(sep):]
+	}
+	if j := bytes.Index(rest, sep); j >= 0 {
+		rest = rest[:j]
+	}
+	return bytes.TrimSpace(rest), true
+}
+
+// isDecimal reports whether b is [+-]digits[.digits][(e|E)[+-]digits]
+// with at least one mantissa digit (".5" and "5." are accepted).
+func isDecimal(b []byte) bool {
+	i := 0
+	if i < len(b) && (b[i] == '+' || b[i] == '-') {
+		i++
+	}
+	digits := 0
+	for i < len(b) && b[i] >= '0' && b[i] <= '9' {
+		i, digits = i+1, digits+1
+	}
+	if i < len(b) && b[i] == '.' {
+		i++
+		for i < len(b) && b[i] >= '0' && b[i] <= '9' {
+			i, digits = i+1, digits+1
+		}
+	}
+	if digits == 0 {
+		return false
+	}
+	if i < len(b) && (b[i] == 'e' || b[i] == 'E') {
+		i++
+		if i < len(b) && (b[i] == '+' || b[i] == '-') {
+			i++
+		}
+		exp := 0
+		for i < len(b) && b[i] >= '0' && b[i] <= '9' {
+			i, exp = i+1, exp+1
+		}
+		if exp == 0 {
+			return false
+		}
+	}
+	return i == len(b)
+}
+
+// parseCounter reads decimal digits into a uint64 (at most 19 digits, so
+// it cannot overflow).
+func parseCounter(b []byte) (uint64, bool) {
+	if len(b) == 0 || len(b) > 19 {
+		return 0, false
+	}
+	var v uint64
+	for _, c := range b {
+		if c < '0' || c > '9' {
+			return 0, false
+		}
+		v = v*10 + uint64(c-'0')
+	}
+	return v, true
+}
+
+// binaryBytes returns the field's bytes within payload.
+func binaryBytes(payload []byte, f DecodeField) ([]byte, bool) {
+	size := f.Size()
+	if size == 0 || f.Offset < 0 || f.Offset > len(payload)-size {
+		return nil, false
+	}
+	return payload[f.Offset : f.Offset+size], true
+}
+
+func binaryValue(payload []byte, f DecodeField) (float64, bool) {
+	b, ok := binaryBytes(payload, f)
+	if !ok {
+		return 0, false
+	}
+	o := f.ByteOrder()
+	switch f.Type {
+	case "float32":
+		return float64(math.Float32frombits(o.Uint32(b))), true
+	case "float64":
+		return math.Float64frombits(o.Uint64(b)), true
+	case "int16":
+		return float64(int16(o.Uint16(b))), true
+	case "uint16":
+		return float64(o.Uint16(b)), true
+	case "int32":
+		return float64(int32(o.Uint32(b))), true
+	case "uint32":
+		return float64(o.Uint32(b)), true
+	case "int64":
+		return float64(int64(o.Uint64(b))), true
+	}
+	return 0, false
+}
+
+// binaryCounter reads an integer sequence field; neg reports a signed
+// value below zero.
+func binaryCounter(payload []byte, f DecodeField) (v uint64, ok, neg bool) {
+	b, ok := binaryBytes(payload, f)
+	if !ok {
+		return 0, false, false
+	}
+	o := f.ByteOrder()
+	switch f.Type {
+	case "int16":
+		s := int16(o.Uint16(b))
+		return uint64(s), true, s < 0
+	case "uint16":
+		return uint64(o.Uint16(b)), true, false
+	case "int32":
+		s := int32(o.Uint32(b))
+		return uint64(s), true, s < 0
+	case "uint32":
+		return uint64(o.Uint32(b)), true, false
+	case "int64":
+		s := int64(o.Uint64(b))
+		return uint64(s), true, s < 0
+	}
+	return 0, false, false // float types are refused by the loader
+}
