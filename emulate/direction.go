@@ -219,6 +219,7 @@ func (d *direction) releaseLoop() {
 	}
 	var batch [batchSize]*packet
 	var out [batchSize]message
+	var sb spinBudget
 	for {
 		d.mu.Lock()
 		if d.abort {
@@ -242,9 +243,18 @@ func (d *direction) releaseLoop() {
 			}
 			due := d.sched.peek().due
 			if due-now <= d.spin {
-				d.mu.Unlock()
-				for d.now() < due {
+				if sb.allow(now) {
+					d.mu.Unlock()
+					for d.now() < due {
+					}
+					sb.spent += d.now() - now
+					continue
 				}
+				// Over the spin budget: sleep all the way to the due time.
+				d.armedFor = due
+				d.w.arm(time.Duration(due - now))
+				d.mu.Unlock()
+				d.w.wait()
 				continue
 			}
 			d.armLocked(due, now)
@@ -317,4 +327,27 @@ func (d *direction) inFlight() int {
 	d.mu.Lock()
 	defer d.mu.Unlock()
 	return d.sched.len()
+}
+
+// spinBudget caps the time the release goroutine spends spinning: at most
+// spinShare of each spinWindow. At a few thousand releases a second every
+// release gets its final spin (and leaves within a microsecond or so of its
+// due time); at tens of thousands the spins would add up to a whole core,
+// so past the budget the goroutine sleeps to the due time on the timer and
+// releases come up to the timer's wake-up latency late (tens of µs with a
+// timerfd) instead.
+type spinBudget struct {
+	start, spent int64 // ns: the current window's start, and the time spun in it
+}
+
+const (
+	spinWindow = int64(100 * time.Millisecond)
+	spinShare  = 0.10
+)
+
+func (b *spinBudget) allow(now int64) bool {
+	if now-b.start >= spinWindow {
+		b.start, b.spent = now, 0
+	}
+	return float64(b.spent) < spinShare*float64(spinWindow)
 }
