@@ -22,6 +22,8 @@ const usage = `usage: monitor COMMAND [arguments]
 commands:
   predict LOOP.yaml    what theory predicts for the loop over its network profile
   simulate LOOP.yaml   Monte-Carlo runs of the same loop model
+  rig node|controller  the simulated rig's two ends, on real UDP sockets
+  demo                 rig, relay and monitor on loopback: predicted vs measured
 
 run "monitor COMMAND -h" for the flags of a command
 `
@@ -44,6 +46,8 @@ func run(args []string, stdout, stderr io.Writer) int {
 		err = cmdPredict(args[1:], stdout, stderr)
 	case "simulate":
 		err = cmdSimulate(args[1:], stdout, stderr)
+	case "rig":
+		err = cmdRig(args[1:], stdout, stderr)
 	case "-h", "-help", "--help", "help":
 		fmt.Fprint(stdout, usage)
 		return 0

@@ -1,0 +1,243 @@
+package main
+
+import (
+	"context"
+	"flag"
+	"fmt"
+	"io"
+	"log/slog"
+	"net"
+	"net/netip"
+	"os"
+	"os/signal"
+	"syscall"
+
+	"rigwire/emulate/rig"
+	"rigwire/profiles"
+)
+
+// rigCaution is printed by the simulated rig's commands before they start.
+const rigCaution = `SAFETY: this is a simulated rig — no hardware moves. Before you point the
+same profile at a real rig:
+  - keep an emergency stop that does not depend on the emulated link, within reach;
+  - make the first runs with the actuator disabled, or at low gains and speeds;
+  - keep guards in place and people out of the machine's reach;
+  - local machine-safety rules and qualified personnel have the last word.
+`
+
+const rigUsage = `usage: monitor rig node --loop LOOP --relay HOST:PORT [--listen HOST:PORT] [--log FILE] [--duration D] [--seed S] [--start steady|rest]
+       monitor rig controller --loop LOOP --listen HOST:PORT [--start steady|rest]
+
+node: the plant, its time-driven sensor and its hold actuator; samples go to
+--relay (a relay's --listen, or the controller itself), commands come back to
+--listen. controller: the loop's controller, replying to each sample's source.
+`
+
+// cmdRig runs one end of the simulated rig.
+func cmdRig(args []string, stdout, stderr io.Writer) error {
+	if len(args) == 0 {
+		fmt.Fprint(stderr, rigUsage)
+		return usagef("want node or controller")
+	}
+	switch args[0] {
+	case "node":
+		return cmdRigNode(args[1:], stderr)
+	case "controller":
+		return cmdRigController(args[1:], stderr)
+	case "-h", "-help", "--help", "help":
+		fmt.Fprint(stdout, rigUsage)
+		return nil
+	}
+	return usagef("unknown rig command %q: want node or controller", args[0])
+}
+
+// apFlag is a HOST:PORT flag resolved to one address.
+type apFlag struct {
+	ap  netip.AddrPort
+	set bool
+}
+
+func (f *apFlag) String() string {
+	if !f.set {
+		return ""
+	}
+	return f.ap.String()
+}
+
+func (f *apFlag) Set(s string) error {
+	ap, err := resolveAddrPort(s)
+	if err != nil {
+		return err
+	}
+	f.ap, f.set = ap, true
+	return nil
+}
+
+// resolveAddrPort reads HOST:PORT, resolving a host name (localhost) to
+// its first UDP address.
+func resolveAddrPort(s string) (netip.AddrPort, error) {
+	if ap, err := netip.ParseAddrPort(s); err == nil {
+		return ap, nil
+	}
+	ua, err := net.ResolveUDPAddr("udp", s)
+	if err != nil {
+		return netip.AddrPort{}, fmt.Errorf("want HOST:PORT, got %q", s)
+	}
+	ap := ua.AddrPort()
+	return netip.AddrPortFrom(ap.Addr().Unmap(), ap.Port()), nil
+}
+
+// durationFlag is a duration flag in the loop files' spelling: a Go
+// duration or a plain number of seconds.
+type durationFlag struct{ s float64 }
+
+func (f *durationFlag) String() string { return fmt.Sprint(f.s) }
+func (f *durationFlag) Set(s string) error {
+	v, err := profiles.ParseDuration(s)
+	if err != nil || v < 0 {
+		return fmt.Errorf("want a duration ≥ 0 (\"90s\", \"2m\" or seconds), got %q", s)
+	}
+	f.s = v
+	return nil
+}
+
+// rigStart reads --start for a loop.
+func rigStart(loop *profiles.Loop, mode string, log *slog.Logger) (rig.Start, error) {
+	switch mode {
+	case "rest":
+		return rig.RestStart(loop), nil
+	case "steady":
+		st, err := rig.SteadyStart(loop)
+		if err == rig.ErrNoSteadyState {
+			log.Warn("starting at rest", "reason", err.Error())
+			return rig.RestStart(loop), nil
+		}
+		return st, err
+	}
+	return rig.Start{}, usagef("--start: want steady or rest, got %q", mode)
+}
+
+// signalContext ends on SIGINT or SIGTERM.
+func signalContext() (context.Context, context.CancelFunc) {
+	return signal.NotifyContext(context.Background(), os.Interrupt, syscall.SIGTERM)
+}
+
+func cmdRigNode(args []string, stderr io.Writer) error {
+	fs := flag.NewFlagSet("monitor rig node", flag.ContinueOnError)
+	fs.SetOutput(stderr)
+	loopPath := fs.String("loop", "", "loop `FILE` (YAML) the rig simulates (required)")
+	var relay, listen apFlag
+	fs.Var(&relay, "relay", "`HOST:PORT` the samples go to: the relay's --listen, or the controller (required)")
+	fs.Var(&listen, "listen", "local `HOST:PORT` of the node's socket, where commands arrive (default: an ephemeral port)")
+	logPath := fs.String("log", "", "write the sample log (CSV: k, t_k, y, held u, command delay) to `FILE`")
+	var dur durationFlag
+	fs.Var(&dur, "duration", "run this long, then stop (default: until SIGINT/SIGTERM)")
+	seed := fs.Uint64("seed", 1, "seed of the process and sensor noise")
+	start := fs.String("start", "steady", "where the loop begins: steady (the predicted mean) or rest")
+	if err := fs.Parse(args); err != nil {
+		return parseErr(err)
+	}
+	switch {
+	case fs.NArg() > 0:
+		return usagef("unexpected argument %q", fs.Arg(0))
+	case *loopPath == "":
+		return usagef("--loop: required")
+	case !relay.set:
+		return usagef("--relay: required")
+	}
+	log := slog.New(slog.NewTextHandler(stderr, nil))
+	loop, err := profiles.LoadLoop(*loopPath)
+	if err != nil {
+		return err
+	}
+	st, err := rigStart(loop, *start, log)
+	if err != nil {
+		return err
+	}
+	cfg := rig.NodeConfig{Loop: loop, Listen: listen.ap, Relay: relay.ap, Seed: *seed, Start: st, Logger: log}
+	if dur.s > 0 {
+		cfg.Periods = max(1, int(dur.s/loop.Period+0.5))
+	}
+	var logFile *os.File
+	if *logPath != "" {
+		if logFile, err = os.Create(*logPath); err != nil {
+			return fmt.Errorf("--log: %w", err)
+		}
+		defer logFile.Close()
+		cfg.Log = logFile
+	}
+	node, err := rig.NewNode(cfg)
+	if err != nil {
+		return err
+	}
+	fmt.Fprint(stderr, rigCaution)
+	log.Info("rig node running", "loop", loop.File, "listen", node.LocalAddr().String(),
+		"relay", relay.ap.String(), "period", loop.Period, "periods", cfg.Periods, "start", *start, "seed", *seed)
+	ctx, cancel := signalContext()
+	defer cancel()
+	if err := node.Run(ctx); err != nil {
+		return err
+	}
+	if logFile != nil {
+		if err := logFile.Close(); err != nil {
+			return fmt.Errorf("--log: %w", err)
+		}
+	}
+	s := node.Stats()
+	log.Info("rig node stopped", "samples", s.Samples, "applied", s.Applied, "late", s.Late,
+		"duplicate", s.Duplicate, "malformed", s.Malformed, "send_errors", s.SendError)
+	return nil
+}
+
+func cmdRigController(args []string, stderr io.Writer) error {
+	fs := flag.NewFlagSet("monitor rig controller", flag.ContinueOnError)
+	fs.SetOutput(stderr)
+	loopPath := fs.String("loop", "", "loop `FILE` (YAML) whose controller to run (required)")
+	var listen apFlag
+	fs.Var(&listen, "listen", "`HOST:PORT` where samples arrive (required)")
+	start := fs.String("start", "steady", "controller state at start: steady (the predicted mean) or rest")
+	if err := fs.Parse(args); err != nil {
+		return parseErr(err)
+	}
+	switch {
+	case fs.NArg() > 0:
+		return usagef("unexpected argument %q", fs.Arg(0))
+	case *loopPath == "":
+		return usagef("--loop: required")
+	case !listen.set:
+		return usagef("--listen: required")
+	}
+	log := slog.New(slog.NewTextHandler(stderr, nil))
+	loop, err := profiles.LoadLoop(*loopPath)
+	if err != nil {
+		return err
+	}
+	st, err := rigStart(loop, *start, log)
+	if err != nil {
+		return err
+	}
+	ctl, err := rig.NewController(rig.ControllerConfig{Loop: loop, Listen: listen.ap, Start: st, Logger: log})
+	if err != nil {
+		return err
+	}
+	fmt.Fprint(stderr, rigCaution)
+	log.Info("rig controller running", "loop", loop.File, "listen", ctl.LocalAddr().String(),
+		"compute_delay", loop.ComputeDelay, "start", *start)
+	ctx, cancel := signalContext()
+	defer cancel()
+	if err := ctl.Run(ctx); err != nil {
+		return err
+	}
+	s := ctl.Stats()
+	log.Info("rig controller stopped", "used", s.Used, "stale", s.Stale, "duplicate", s.Duplicate,
+		"malformed", s.Malformed, "send_errors", s.SendError)
+	return nil
+}
+
+// parseErr turns a flag parse error into a usage error (help is not one).
+func parseErr(err error) error {
+	if err == flag.ErrHelp {
+		return err
+	}
+	return usageError{err.Error()}
+}
