@@ -8,6 +8,7 @@ import (
 	"fmt"
 	"net"
 	"net/netip"
+	"sync"
 	"syscall"
 	"time"
 	"unsafe"
@@ -21,8 +22,9 @@ import (
 // headers, I/O vectors and socket addresses live in arrays owned by the
 // connection; a call fills them in place, so nothing is allocated.
 //
-// A connection has one reader and one writer at a time (the relay gives each
-// socket one receive goroutine; writers take writeMu).
+// A connection has one reader at a time (the relay gives each socket one
+// receive goroutine); writers may be several (a receive goroutine sending
+// zero-delay datagrams and a release goroutine), and take wmu.
 type mmsgConn struct {
 	uc     *net.UDPConn
 	rc     syscall.RawConn
@@ -37,7 +39,8 @@ type mmsgConn struct {
 		err   error
 		fn    func(fd uintptr) bool
 	}
-	w struct { // writer side; guarded by the caller's lock
+	wmu sync.Mutex
+	w   struct { // writer side; guarded by wmu
 		hdrs  [batchSize]unix.Mmsghdr
 		iovs  [batchSize]unix.Iovec
 		names [batchSize]unix.RawSockaddrInet6
@@ -85,20 +88,29 @@ func newBatchConn(uc *net.UDPConn) (batchConn, error) {
 	return c, nil
 }
 
-// recvmmsg is the RawConn.Read callback: false asks the poller to wait.
-func (c *mmsgConn) recvmmsg(fd uintptr) bool {
-	n, _, errno := unix.Syscall6(unix.SYS_RECVMMSG, fd,
-		uintptr(unsafe.Pointer(&c.r.hdrs[0])), uintptr(c.r.want),
-		unix.MSG_DONTWAIT, 0, 0)
-	if errno == unix.EAGAIN || errno == unix.EINTR {
+// mmsg makes one recvmmsg or sendmmsg call without blocking. It reports
+// false when the socket is not ready (the poller is to wait), else the
+// count moved or the error.
+func mmsg(trap, fd uintptr, hdrs *unix.Mmsghdr, want int, n *int, err *error) bool {
+	r, _, errno := unix.Syscall6(trap, fd, uintptr(unsafe.Pointer(hdrs)), uintptr(want), unix.MSG_DONTWAIT, 0, 0)
+	switch errno {
+	case unix.EAGAIN, unix.EINTR:
 		return false
+	case 0:
+		*n, *err = int(r), nil
+	default:
+		*n, *err = 0, errno
 	}
-	if errno != 0 {
-		c.r.n, c.r.err = 0, errno
-		return true
-	}
-	c.r.n, c.r.err = int(n), nil
 	return true
+}
+
+// recvmmsg and sendmmsg are the RawConn callbacks.
+func (c *mmsgConn) recvmmsg(fd uintptr) bool {
+	return mmsg(unix.SYS_RECVMMSG, fd, &c.r.hdrs[0], c.r.want, &c.r.n, &c.r.err)
+}
+
+func (c *mmsgConn) sendmmsg(fd uintptr) bool {
+	return mmsg(unix.SYS_SENDMMSG, fd, &c.w.hdrs[0], c.w.want, &c.w.n, &c.w.err)
 }
 
 func (c *mmsgConn) readBatch(ms []message) (int, error) {
@@ -127,23 +139,9 @@ func (c *mmsgConn) readBatch(ms []message) (int, error) {
 	return c.r.n, nil
 }
 
-// sendmmsg is the RawConn.Write callback.
-func (c *mmsgConn) sendmmsg(fd uintptr) bool {
-	n, _, errno := unix.Syscall6(unix.SYS_SENDMMSG, fd,
-		uintptr(unsafe.Pointer(&c.w.hdrs[0])), uintptr(c.w.want),
-		unix.MSG_DONTWAIT, 0, 0)
-	if errno == unix.EAGAIN || errno == unix.EINTR {
-		return false
-	}
-	if errno != 0 {
-		c.w.n, c.w.err = 0, errno
-		return true
-	}
-	c.w.n, c.w.err = int(n), nil
-	return true
-}
-
 func (c *mmsgConn) writeBatch(ms []message) (int, error) {
+	c.wmu.Lock()
+	defer c.wmu.Unlock()
 	sent := 0
 	for sent < len(ms) {
 		want := min(len(ms)-sent, batchSize)

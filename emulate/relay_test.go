@@ -134,3 +134,24 @@ func TestRelayLoopbackRoundTrip(t *testing.T) {
 	}
 	rig.stop(t)
 }
+
+// Zero-delay datagrams leave from the receive goroutine while delayed ones
+// leave from the release goroutine, through the same socket: run under
+// -race, this checks the socket's writers are serialised.
+func TestRelayMixedDelaysOneSocket(t *testing.T) {
+	half, _ := profiles.NewMixture([]float64{0.5, 0.5}, []profiles.Delay{profiles.Constant{}, profiles.Constant{Value: 0.0005}})
+	p := &profiles.Profile{SensorToController: oneState(0, half), ControllerToActuator: oneState(0, nil)}
+	rig := startLoopback(t, p, nil)
+	const n = 2000
+	got := make(chan int)
+	go func() { got <- len(readAll(t, rig.controller, n, time.Second)) }()
+	for i := range n {
+		rig.sensor.WriteToUDPAddrPort(fmt.Appendf(nil, "%d", i), rig.relay.ListenAddr())
+		if i%20 == 0 {
+			time.Sleep(time.Millisecond)
+		}
+	}
+	if got := <-got; got != n {
+		t.Fatalf("controller got %d of %d", got, n)
+	}
+}
