@@ -1,0 +1,231 @@
+package tests
+
+import (
+	"encoding/json"
+	"math"
+	"os"
+	"os/exec"
+	"path/filepath"
+	"regexp"
+	"strconv"
+	"strings"
+	"syscall"
+	"testing"
+	"time"
+
+	"rigwire/estimate"
+	"rigwire/profiles"
+)
+
+// rigRun is one run of the simulated rig through the relay: the rig
+// controller, impair run and the rig node, each its own process, on
+// loopback UDP sockets.
+type rigRun struct {
+	logPath   string
+	nodeOut   string
+	relayOut  string
+	ctlOut    string
+	summary   string // monitor run's JSON summary, "" without a monitor
+	loop      *profiles.Loop
+	predicted float64
+}
+
+// startRig runs the rig on loopPath for dur through impair run; with
+// monitor set, `monitor run` listens on the relay's tap and writes its
+// summary.
+func startRig(t *testing.T, loopPath string, dur time.Duration, seed string, monitor bool) *rigRun {
+	t.Helper()
+	loop, err := profiles.LoadLoop(loopPath)
+	if err != nil {
+		t.Fatal(err)
+	}
+	pr, err := estimate.Predict(loop, estimate.PredictOptions{SkipMargin: true})
+	if err != nil || pr.Error == nil {
+		t.Fatalf("prediction: %v (stable %v)", err, pr != nil && pr.MeanSquareStable)
+	}
+	mon := buildCmd(t, "monitor")
+	imp := buildCmd(t, "impair")
+	dir := t.TempDir()
+	profPath := filepath.Join(dir, "profile.yaml")
+	writeProfile(t, loop, profPath)
+	ctlAddr := freePort(t, "udp")
+	relayAddr := freePort(t, "udp")
+	r := &rigRun{logPath: filepath.Join(dir, "samples.csv"), loop: loop, predicted: pr.Error.SecondMoment}
+
+	ctl := start(t, mon, "rig", "controller", "--loop", loopPath, "--listen", ctlAddr)
+	relayArgs := []string{"run", "--profile", profPath, "--listen", relayAddr, "--controller", ctlAddr, "--metrics", "off"}
+	var monP *proc
+	if monitor {
+		tapAddr := freePort(t, "udp")
+		r.summary = filepath.Join(dir, "summary.json")
+		monP = start(t, mon, "run", "--loop", loopPath, "--listen", tapAddr, "--metrics", freePort(t, "tcp"),
+			"--summary", r.summary)
+		relayArgs = append(relayArgs, "--tap", tapAddr)
+	}
+	relay := start(t, imp, relayArgs...)
+	time.Sleep(300 * time.Millisecond) // the relay, controller and monitor open their sockets
+	node := start(t, mon, "rig", "node", "--loop", loopPath, "--relay", relayAddr,
+		"--log", r.logPath, "--duration", dur.String(), "--seed", seed)
+	if code := node.wait(t, dur+30*time.Second); code != 0 {
+		t.Fatalf("rig node exited %d:\n%s", code, node.out.String())
+	}
+	time.Sleep(100 * time.Millisecond)
+	for _, p := range []*proc{relay, ctl, monP} {
+		if p != nil {
+			p.signal(t, syscall.SIGTERM)
+		}
+	}
+	for _, p := range []*proc{relay, ctl, monP} {
+		if p != nil {
+			if code := p.wait(t, 20*time.Second); code != 0 {
+				t.Fatalf("exit %d:\n%s", code, p.out.String())
+			}
+		}
+	}
+	r.nodeOut, r.relayOut, r.ctlOut = node.out.String(), relay.out.String(), ctl.out.String()
+	return r
+}
+
+// writeProfile copies the loop's profile file to path.
+func writeProfile(t *testing.T, loop *profiles.Loop, path string) {
+	t.Helper()
+	b, err := os.ReadFile(loop.ProfileFile)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := os.WriteFile(path, b, 0o644); err != nil {
+		t.Fatal(err)
+	}
+}
+
+// sampleLog reads the rig node's sample log: e_k = r − y_k per sample and
+// how many periods had their command applied.
+func sampleLog(t *testing.T, path string, loop *profiles.Loop) (ee []float64, applied int) {
+	t.Helper()
+	lines := readLines(t, path)
+	_, _, p, _ := loop.Dims()
+	for i, l := range lines[1:] {
+		f := strings.Split(l, ",")
+		s := 0.0
+		for j := 0; j < p; j++ {
+			y, err := strconv.ParseFloat(f[2+j], 64)
+			if err != nil {
+				t.Fatalf("%s:%d: %v", path, i+2, err)
+			}
+			e := loop.Setpoint[j] - y
+			s += e * e
+		}
+		ee = append(ee, s)
+		if f[len(f)-1] != "" {
+			applied++
+		}
+	}
+	return ee, applied
+}
+
+// batchMeans returns the mean of x and the half-width of its 95 %
+// confidence interval by non-overlapping batch means with b batches and
+// Student's t with b − 1 degrees of freedom (Law & Kelton, Simulation
+// Modeling and Analysis, 3rd ed., §9.5.3 — from memory).
+func batchMeans(x []float64, b int) (mean, half float64) {
+	size := len(x) / b
+	var means []float64
+	for i := 0; i < b; i++ {
+		s := 0.0
+		for _, v := range x[i*size : (i+1)*size] {
+			s += v
+		}
+		means = append(means, s/float64(size))
+	}
+	for _, m := range means {
+		mean += m
+	}
+	mean /= float64(b)
+	v := 0.0
+	for _, m := range means {
+		v += (m - mean) * (m - mean)
+	}
+	v /= float64(b - 1)
+	// t quantile 0.975 with 19 degrees of freedom: 2.093 (any t table).
+	return mean, 2.093 * math.Sqrt(v/float64(b))
+}
+
+var nodeLate = regexp.MustCompile(`late=(\d+)`)
+
+// TestRigEndToEnd runs the simulated rig through the relay for three loops
+// and checks the rig's measured E[eᵀe] (from its own sample log, 95 %
+// batch-means interval, 20 batches) against `monitor predict`'s value
+// (MODEL.md §4): the interval widened by relTol of the prediction must
+// cover it. relTol holds the loopback stack's own latency, which adds
+// ~0.2–0.4 ms to every τ and biases E[eᵀe] up by a few per cent (MODEL.md
+// §6), and the short runs' correlation (a few dozen independent stretches
+// per run). With a monitor (`monitor run` on the relay's tap), its
+// measured value must also equal the one computed from the log, to
+// monTol relative: both count the same samples.
+func TestRigEndToEnd(t *testing.T) {
+	const (
+		relTol = 0.15
+		monTol = 0.02 // the monitor may miss or skip a few samples at the edges
+	)
+	cases := []struct {
+		name, loop string
+		dur        time.Duration
+		wantLate   bool
+	}{
+		{"markov burst channel", "examples/rig-burst.yaml", 40 * time.Second, false},
+		{"sometimes late", "examples/rig-late.yaml", 25 * time.Second, true},
+		{"pi controller with setpoint", "examples/rig-pi.yaml", 40 * time.Second, false},
+	}
+	monitor := hasMonitorRun(t)
+	for i, tc := range cases {
+		t.Run(tc.name, func(t *testing.T) {
+			r := startRig(t, tc.loop, tc.dur, strconv.Itoa(100+i), monitor)
+			ee, applied := sampleLog(t, r.logPath, r.loop)
+			want := int(tc.dur.Seconds()/r.loop.Period + 0.5)
+			if len(ee) != want {
+				t.Errorf("sample log has %d samples, want %d", len(ee), want)
+			}
+			mean, half := batchMeans(ee, 20)
+			lo, hi := mean-half-relTol*r.predicted, mean+half+relTol*r.predicted
+			t.Logf("measured %.5g ± %.2g (95 %%), predicted %.5g; applied %d of %d", mean, half, r.predicted, applied, len(ee))
+			if r.predicted < lo || r.predicted > hi {
+				t.Errorf("predicted E[eᵀe] = %.5g outside the measured [%.5g, %.5g] widened by %g: [%.5g, %.5g]",
+					r.predicted, mean-half, mean+half, relTol, lo, hi)
+			}
+			m := nodeLate.FindStringSubmatch(r.nodeOut)
+			if m == nil {
+				t.Fatalf("no late count in the node's output:\n%s", r.nodeOut)
+			}
+			if late, _ := strconv.Atoi(m[1]); tc.wantLate && late == 0 {
+				t.Errorf("no command was late; the case should exercise the late rule")
+			}
+			if r.summary != "" {
+				var s struct {
+					Samples  int     `json:"samples"`
+					Measured float64 `json:"error_second_moment"`
+				}
+				b, err := os.ReadFile(r.summary)
+				if err != nil {
+					t.Fatal(err)
+				}
+				if err := json.Unmarshal(b, &s); err != nil {
+					t.Fatalf("summary: %v\n%s", err, b)
+				}
+				direct := 0.0
+				for _, v := range ee {
+					direct += v
+				}
+				direct /= float64(len(ee))
+				if math.Abs(s.Measured-direct) > monTol*direct {
+					t.Errorf("monitor measured %.6g over %d samples, the sample log gives %.6g over %d", s.Measured, s.Samples, direct, len(ee))
+				}
+			}
+		})
+	}
+}
+
+// hasMonitorRun says whether the monitor command has its run subcommand.
+func hasMonitorRun(t *testing.T) bool {
+	out, _ := exec.Command(buildCmd(t, "monitor"), "help").CombinedOutput()
+	return strings.Contains(string(out), "\n  run ")
+}
