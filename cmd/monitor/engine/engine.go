@@ -1,0 +1,173 @@
+package engine
+
+import (
+	"fmt"
+	"math"
+	"sync"
+	"time"
+
+	"rigwire/estimate"
+	"rigwire/profiles"
+)
+
+// Options configures a Monitor. The zero value takes the defaults.
+type Options struct {
+	// Windows are the sliding windows (default 1 min and 10 min),
+	// converted to sample counts by the loop's period.
+	Windows []time.Duration
+	// Warmup is skipped at the start: the first ⌊Warmup/period⌋ decoded
+	// samples are counted but not estimated.
+	Warmup time.Duration
+	// Tolerance widens the confidence interval for the verdict:
+	// agree iff the prediction lies in [lo − tol·|lo|, hi + tol·|hi|].
+	Tolerance float64
+	// MaxDatagram is the longest datagram decoded (default 4096 bytes);
+	// longer ones count as oversized.
+	MaxDatagram int
+	// Level is the confidence level (default 0.95).
+	Level float64
+	// Now is the clock (default time.Now), for tests.
+	Now func() time.Time
+}
+
+// DefaultMaxDatagram is the default longest datagram decoded, bytes.
+const DefaultMaxDatagram = 4096
+
+// DefaultWindows are the default sliding windows.
+var DefaultWindows = []time.Duration{time.Minute, 10 * time.Minute}
+
+// Monitor measures one loop from its sensor datagrams. Feed, Serve,
+// Progress, Summary and the metrics may be used from any goroutines.
+type Monitor struct {
+	loop    *profiles.Loop
+	pred    *estimate.Prediction
+	opts    Options
+	now     func() time.Time
+	started time.Time
+	warmupN int64
+	windows []time.Duration
+
+	mu sync.Mutex // guards the fields below
+	on *estimate.Online
+	y  []float64
+	// seq classifies the sequence numbers (when the decode has them).
+	seq       estimate.SeqTracker
+	datagrams int64
+	decoded   int64     // samples decoded and not duplicates/stale
+	skipped   int64     // of those, skipped as warm-up
+	failures  []int64   // by index in profiles.DecodeReasons
+	first     time.Time // arrival of the first estimated sample
+	last      time.Time // arrival of the latest datagram
+	meanBuf   []float64
+}
+
+// reasonIndex maps each decode failure to its counter.
+var reasonIndex = map[*profiles.DecodeError]int{}
+
+func init() {
+	for i, r := range profiles.DecodeReasons {
+		reasonIndex[r] = i
+	}
+}
+
+// New prepares a monitor for loop, whose decode section must be present.
+// pred is the prediction to compare with; nil computes it
+// (estimate.Predict with the loss margin).
+func New(loop *profiles.Loop, pred *estimate.Prediction, opts Options) (*Monitor, error) {
+	if loop.Decode.Format == "" {
+		return nil, fmt.Errorf("%s: decode: missing (monitor run needs to know where the outputs sit in each datagram)", loop.File)
+	}
+	if opts.Tolerance < 0 || math.IsNaN(opts.Tolerance) || math.IsInf(opts.Tolerance, 0) {
+		return nil, fmt.Errorf("tolerance: want a number ≥ 0, got %g", opts.Tolerance)
+	}
+	if opts.Warmup < 0 {
+		return nil, fmt.Errorf("warm-up: want a duration ≥ 0, got %s", opts.Warmup)
+	}
+	if opts.MaxDatagram == 0 {
+		opts.MaxDatagram = DefaultMaxDatagram
+	}
+	if opts.MaxDatagram < 1 || opts.MaxDatagram > 65535 {
+		return nil, fmt.Errorf("max datagram: want 1…65535 bytes, got %d", opts.MaxDatagram)
+	}
+	if opts.Windows == nil {
+		opts.Windows = DefaultWindows
+	}
+	if opts.Now == nil {
+		opts.Now = time.Now
+	}
+	var counts []int
+	for _, w := range opts.Windows {
+		n := int(math.Round(w.Seconds() / loop.Period))
+		if n < 2 || n > 1<<31 {
+			return nil, fmt.Errorf("window %s: want at least two periods (%s each) and at most 2³¹, got %d samples",
+				w, time.Duration(loop.Period*1e9), n)
+		}
+		counts = append(counts, n)
+	}
+	on, err := estimate.NewOnline(estimate.OnlineOptions{Setpoint: loop.Setpoint, Windows: counts, Level: opts.Level})
+	if err != nil {
+		return nil, err
+	}
+	if pred == nil {
+		if pred, err = estimate.Predict(loop, estimate.PredictOptions{}); err != nil {
+			return nil, fmt.Errorf("%s: prediction: %w", loop.File, err)
+		}
+	}
+	if opts.Level == 0 {
+		opts.Level = 0.95
+	}
+	m := &Monitor{
+		loop: loop, pred: pred, opts: opts, now: opts.Now, windows: opts.Windows,
+		warmupN: int64(opts.Warmup.Seconds() / loop.Period),
+		on:      on, failures: make([]int64, len(profiles.DecodeReasons)), y: make([]float64, len(loop.Setpoint)), meanBuf: make([]float64, len(loop.Setpoint)),
+	}
+	m.started = m.now()
+	return m, nil
+}
+
+// Loop is the loop measured; Prediction what it is compared with.
+func (m *Monitor) Loop() *profiles.Loop { return m.loop }
+
+// Prediction is the prediction the measurements are compared with.
+func (m *Monitor) Prediction() *estimate.Prediction { return m.pred }
+
+// MaxDatagram is the longest datagram the monitor decodes.
+func (m *Monitor) MaxDatagram() int { return m.opts.MaxDatagram }
+
+// Feed takes one sensor datagram that arrived at time at. It decodes the
+// outputs, checks the sequence number and updates the estimators; a
+// datagram that does not decode is counted by its reason. It does not
+// retain payload, does not allocate and is safe from any goroutine (it
+// fits emulate.Config.TapFunc).
+func (m *Monitor) Feed(payload []byte, at time.Time) {
+	m.mu.Lock()
+	defer m.mu.Unlock()
+	m.datagrams++
+	m.last = at
+	if len(payload) > m.opts.MaxDatagram {
+		m.failures[reasonIndex[profiles.ErrOversized]]++
+		return
+	}
+	seq, hasSeq, err := m.loop.Decode.Output(payload, m.y)
+	if err != nil {
+		if de, ok := err.(*profiles.DecodeError); ok {
+			m.failures[reasonIndex[de]]++
+		}
+		return
+	}
+	if hasSeq {
+		switch m.seq.Observe(seq) {
+		case estimate.SeqDuplicate, estimate.SeqStale:
+			return
+		}
+	}
+	m.decoded++
+	if m.decoded <= m.warmupN {
+		m.skipped++
+		return
+	}
+	if m.on.Samples() == 0 {
+		m.first = at
+	}
+	m.on.Add(m.y)
+}
