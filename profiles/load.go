@@ -107,9 +107,12 @@ func parseChannel(f Field, dir string) (*Channel, error) {
 	if f.IsNull() {
 		return Clean(), nil
 	}
-	keys, err := f.Mapping("loss", "delay", "states")
+	keys, err := f.Mapping("loss", "delay", "states", "trace")
 	if err != nil {
 		return nil, err
+	}
+	if tr, ok := keys["trace"]; ok {
+		return parseTraceChannel(tr, keys, dir)
 	}
 	st, hasStates := keys["states"]
 	if !hasStates {

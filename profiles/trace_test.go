@@ -1,0 +1,132 @@
+package profiles
+
+import (
+	"errors"
+	"math"
+	"os"
+	"path/filepath"
+	"strings"
+	"testing"
+)
+
+const goodTrace = `# rigwire probe trace v1
+# interval_s: 0.002
+# clocks_synced: true
+seq,send_s,status,rtt_s,one_way_s,back_s,copies,reordered
+0,0.000010,delivered,0.004,0.003,0.001,1,0
+1,0.002010,lost,,,,0,0
+2,0.004010,delivered,0.005,0.0035,0.0015,2,1
+`
+
+func TestReadTrace(t *testing.T) {
+	tr, err := ReadTrace(strings.NewReader(goodTrace), "wifi.csv")
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(tr.Probes) != 3 || tr.Interval != 0.002 || !tr.ClocksSynced {
+		t.Fatalf("got %d probes, interval %g, synced %v", len(tr.Probes), tr.Interval, tr.ClocksSynced)
+	}
+	d, lost, err := tr.Fates("one_way_s")
+	if err != nil {
+		t.Fatal(err)
+	}
+	want := []float64{0.003, 0, 0.0035}
+	for i := range want {
+		if d[i] != want[i] || lost[i] != (i == 1) {
+			t.Errorf("probe %d: delay %g lost %v", i, d[i], lost[i])
+		}
+	}
+	if p := tr.Probes[2]; p.Copies != 2 || !p.Reordered {
+		t.Errorf("probe 2: copies %d reordered %v", p.Copies, p.Reordered)
+	}
+}
+
+// TestReadTraceErrors: every malformed trace names its line and what was
+// wrong.
+func TestReadTraceErrors(t *testing.T) {
+	const head = "# rigwire probe trace v1\nseq,send_s,status,rtt_s\n"
+	cases := []struct {
+		name, text, want string
+	}{
+		{"empty file", "", "t.csv: empty trace: no probe lines (and no header line)"},
+		{"only comments", "# rigwire probe trace v1\n# nothing\n", "t.csv: empty trace: no probe lines (and no header line)"},
+		{"header only", head, "t.csv: empty trace: no probe lines"},
+		{"truncated line", head + "0,0.1,delivered,0.003\n1,0.2,deliv", "t.csv:4: want 4 fields, got 3 (a truncated line?)"},
+		{"bad number", head + "0,0.1,delivered,abc\n", `t.csv:3: rtt_s: want a delay in [0, 3600] seconds or nothing, got "abc"`},
+		{"negative delay", head + "0,0.1,delivered,-1\n", `t.csv:3: rtt_s: want a delay in [0, 3600] seconds or nothing, got "-1"`},
+		{"bad status", head + "0,0.1,gone,\n", `t.csv:3: status: want delivered or lost, got "gone"`},
+		{"lost with delay", head + "0,0.1,lost,0.01\n", "t.csv:3: status lost but a delay is given"},
+		{"seq not increasing", head + "1,0.1,lost,\n1,0.2,lost,\n", "t.csv:4: seq: want increasing sequence numbers, got 1 after 1"},
+		{"unknown column", "seq,send_s,status,jitter\n", `t.csv:1: unknown column "jitter" in the header; want some of seq,send_s,status,rtt_s,one_way_s,back_s,copies,reordered`},
+		{"missing column", "seq,status\n", `t.csv:1: header: missing column "send_s"`},
+		{"bad interval", "# interval_s: fast\n" + head, `t.csv:1: interval_s: want a time > 0 in seconds, got "fast"`},
+	}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			_, err := ReadTrace(strings.NewReader(c.text), "t.csv")
+			if err == nil || err.Error() != c.want {
+				t.Errorf("got  %v\nwant %s", err, c.want)
+			}
+		})
+	}
+	_, err := ReadTrace(strings.NewReader(""), "t.csv")
+	if !errors.Is(err, ErrEmptyTrace) {
+		t.Errorf("empty trace error %v is not ErrEmptyTrace", err)
+	}
+}
+
+func TestFatesNeedsDelay(t *testing.T) {
+	tr, err := ReadTrace(strings.NewReader("seq,send_s,status,rtt_s,one_way_s\n0,0,delivered,0.01,\n"), "t.csv")
+	if err != nil {
+		t.Fatal(err)
+	}
+	if _, _, err := tr.Fates("one_way_s"); err == nil || err.Error() != "t.csv:2: one_way_s: delivered but no delay given" {
+		t.Errorf("got %v", err)
+	}
+}
+
+// TestTraceProfile: a direction may replay a trace; the loader validates
+// its keys with positions, and the prediction sees its empirical law with
+// i.i.d. loss at the trace's loss rate.
+func TestTraceProfile(t *testing.T) {
+	dir := t.TempDir()
+	if err := os.WriteFile(filepath.Join(dir, "wifi.csv"), []byte(goodTrace), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	if err := os.WriteFile(filepath.Join(dir, "bad.csv"), []byte("seq,send_s,status\n0,0,maybe\n"), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	p, err := Parse([]byte("sensor_to_controller:\n  trace: {file: wifi.csv, at_end: stop}\n"), "p.yaml", dir)
+	if err != nil {
+		t.Fatal(err)
+	}
+	rp := ReplayOf(p.SensorToController)
+	if rp == nil {
+		t.Fatal("no replay")
+	}
+	st := p.SensorToController.States[0]
+	const tol = 1e-12
+	if math.Abs(st.Loss-1.0/3) > tol || rp.AtEnd != AtEndStop || rp.Column != "one_way_s" {
+		t.Errorf("loss %g at_end %s column %s", st.Loss, rp.AtEnd, rp.Column)
+	}
+	if m := st.Delay.Mean(); math.Abs(m-0.00325) > tol {
+		t.Errorf("mean delay %g, want 0.00325 (the delivered one-way delays' mean)", m)
+	}
+	cases := []struct{ name, yaml, want string }{
+		{"unknown key", "sensor_to_controller:\n  trace: {file: wifi.csv, colum: rtt_s}\n", `p.yaml:2: sensor_to_controller.trace: unknown key "colum"`},
+		{"bad at_end", "sensor_to_controller:\n  trace: {file: wifi.csv, at_end: wrap}\n", `p.yaml:2: sensor_to_controller.trace.at_end: want loop, stop or clean, got "wrap"`},
+		{"bad column", "sensor_to_controller:\n  trace: {file: wifi.csv, column: size}\n", `p.yaml:2: sensor_to_controller.trace.column: want one of rtt_s, one_way_s, back_s, got "size"`},
+		{"missing file", "sensor_to_controller:\n  trace: {column: rtt_s}\n", `p.yaml:2: sensor_to_controller.trace: missing file (a probe trace, as written by impair probe)`},
+		{"no such file", "sensor_to_controller:\n  trace: {file: none.csv}\n", `p.yaml:2: sensor_to_controller.trace.file: cannot open "none.csv": no such file or directory`},
+		{"bad trace", "sensor_to_controller:\n  trace:\n    file: bad.csv\n", `p.yaml:3: sensor_to_controller.trace.file: bad.csv:2: status: want delivered or lost, got "maybe"`},
+		{"trace and loss", "sensor_to_controller:\n  loss: 0.1\n  trace: {file: wifi.csv}\n", `p.yaml:2: sensor_to_controller.loss: want either trace or loss, got both`},
+	}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			_, err := Parse([]byte(c.yaml), "p.yaml", dir)
+			if err == nil || err.Error() != c.want {
+				t.Errorf("got  %v\nwant %s", err, c.want)
+			}
+		})
+	}
+}

@@ -1,0 +1,171 @@
+package profiles
+
+import (
+	"errors"
+	"fmt"
+	"io/fs"
+	"math"
+	"math/rand/v2"
+	"os"
+	"path/filepath"
+	"strconv"
+)
+
+// What a replaying direction does once the trace is used up.
+const (
+	AtEndLoop  = "loop"  // start again from the first probe
+	AtEndStop  = "stop"  // lose every datagram from then on
+	AtEndClean = "clean" // forward every datagram from then on, undelayed
+)
+
+// Replay is a direction that replays a recorded trace: the i-th datagram
+// the relay sees in that direction gets the i-th probe's fate, lost or
+// delayed by the delay recorded in Column. The profile writes it as
+//
+//	sensor_to_controller:
+//	  trace: {file: wifi.csv, column: one_way_s, at_end: loop}
+//
+// (column default one_way_s, at_end default loop). A direction with a
+// trace is a one-state Channel whose State has Loss = the trace's loss
+// rate and Delay = this Replay.
+//
+// As a Delay (what the prediction and `impair check` see), a Replay is the
+// empirical law of the trace's delivered delays, the same as kind
+// empirical with those samples; with the State's loss this treats the
+// trace as i.i.d. loss at its loss rate and i.i.d. delays from its
+// empirical law. Only the relay replays it in order (emulate asks for
+// Fates and keeps its own cursor); Sample draws from the empirical law.
+type Replay struct {
+	Delay            // the empirical law of the delivered delays
+	File      string // as written in the profile
+	Column    string
+	AtEnd     string
+	Delays    []float64 // per probe, in order; 0 where lost
+	Lost      []bool
+	LossRate  float64
+	Delivered int
+}
+
+func (r *Replay) Kind() string { return "trace" }
+
+// Sample draws from the empirical law of the delivered delays (not in
+// order: see Replay).
+func (r *Replay) Sample(rng *rand.Rand) float64 { return r.Delay.Sample(rng) }
+
+func (r *Replay) String() string {
+	return fmt.Sprintf("trace %s column %s (%d probes, %d delivered, loss %s), at end %s", r.File, r.Column, len(r.Lost), r.Delivered, strconv.FormatFloat(r.LossRate, 'g', 4, 64), r.AtEnd)
+}
+
+// NewReplay builds a Replay from the fates of a trace's column.
+func NewReplay(file, column, atEnd string, delays []float64, lost []bool) (*Replay, error) {
+	if len(delays) != len(lost) || len(lost) == 0 {
+		return nil, fmt.Errorf("trace replay: want as many delays as fates, at least one")
+	}
+	switch atEnd {
+	case AtEndLoop, AtEndStop, AtEndClean:
+	default:
+		return nil, fmt.Errorf("trace replay: at_end: want loop, stop or clean, got %q", atEnd)
+	}
+	r := &Replay{File: file, Column: column, AtEnd: atEnd, Delays: delays, Lost: lost}
+	var kept []float64
+	for i, l := range lost {
+		if !l {
+			kept = append(kept, delays[i])
+		}
+	}
+	r.Delivered = len(kept)
+	r.LossRate = 1 - float64(len(kept))/float64(len(lost))
+	if len(kept) == 0 {
+		r.Delay = Constant{} // every probe lost: the delay never matters
+		return r, nil
+	}
+	law, err := NewEmpirical(kept, 0)
+	if err != nil {
+		return nil, fmt.Errorf("trace replay: %w", err)
+	}
+	r.Delay = law
+	return r, nil
+}
+
+// ReplayOf returns the Replay of a channel that replays a trace, or nil.
+func ReplayOf(c *Channel) *Replay {
+	if c == nil || len(c.States) != 1 {
+		return nil
+	}
+	r, _ := c.States[0].Delay.(*Replay)
+	return r
+}
+
+// parseTraceChannel reads `trace: {file, column, at_end}` (f is the trace
+// key's value); others are the direction's other keys, which must be
+// absent.
+func parseTraceChannel(f Field, others map[string]Field, dir string) (*Channel, error) {
+	for _, k := range []string{"loss", "delay", "states"} {
+		if g, ok := others[k]; ok {
+			return nil, g.Errorf("want either trace or %s, got both", k)
+		}
+	}
+	keys, err := f.Mapping("file", "column", "at_end")
+	if err != nil {
+		return nil, err
+	}
+	ff, ok := keys["file"]
+	if !ok {
+		return nil, f.Errorf("missing file (a probe trace, as written by impair probe)")
+	}
+	name, err := ff.Text()
+	if err != nil {
+		return nil, err
+	}
+	if name == "" {
+		return nil, ff.Errorf("want a file name, got nothing")
+	}
+	column := "one_way_s"
+	if g, ok := keys["column"]; ok {
+		if column, err = g.Text(); err != nil {
+			return nil, err
+		}
+		valid := false
+		for _, c := range TraceDelayColumns {
+			valid = valid || c == column
+		}
+		if !valid {
+			return nil, g.Errorf("want one of rtt_s, one_way_s, back_s, got %s", g.Got())
+		}
+	}
+	atEnd := AtEndLoop
+	if g, ok := keys["at_end"]; ok {
+		if atEnd, err = g.Text(); err != nil {
+			return nil, err
+		}
+		if atEnd != AtEndLoop && atEnd != AtEndStop && atEnd != AtEndClean {
+			return nil, g.Errorf("want loop, stop or clean, got %s", g.Got())
+		}
+	}
+	path := name
+	if !filepath.IsAbs(path) && dir != "" {
+		path = filepath.Join(dir, path)
+	}
+	fh, err := os.Open(path)
+	if err != nil {
+		var pe *fs.PathError
+		if errors.As(err, &pe) {
+			err = pe.Err
+		}
+		return nil, ff.Errorf("cannot open %q: %v", name, err)
+	}
+	defer fh.Close()
+	tr, err := ReadTrace(fh, name)
+	if err != nil {
+		return nil, ff.Errorf("%v", err)
+	}
+	delays, lost, err := tr.Fates(column)
+	if err != nil {
+		return nil, ff.Errorf("%v", err)
+	}
+	rp, err := NewReplay(name, column, atEnd, delays, lost)
+	if err != nil {
+		return nil, f.Errorf("%v", err)
+	}
+	return &Channel{States: []State{{Name: "trace", MeanDwell: math.Inf(1), Loss: rp.LossRate, Delay: rp}}}, nil
+}
