@@ -17,6 +17,7 @@ const usage = `usage: impair <command> [flags]
 commands:
   run     relay a rig's datagrams through a network profile
   check   validate a profile and print what it will do
+  lab     build or remove the lab's network namespaces (up|down, root)
 
 Run "impair <command> -h" for a command's flags.
 `
@@ -35,6 +36,8 @@ func dispatch(args []string, stdout, stderr io.Writer) int {
 		return cmdRun(args[1:], stdout, stderr)
 	case "check":
 		return cmdCheck(args[1:], stdout, stderr)
+	case "lab":
+		return cmdLab(args[1:], stdout, stderr)
 	case "help", "-h", "--help":
 		fmt.Fprint(stdout, usage)
 		return 0
