@@ -1,8 +1,12 @@
-// Command monitor predicts and (later) measures how a control loop behaves
-// over a lossy, delaying network.
+// Command monitor predicts and measures how a control loop behaves over a
+// lossy, delaying network.
 //
 //	monitor predict LOOP.yaml [--json] [--vary loss=0:0.3:0.01] [--step N] [--plot FILE]
 //	monitor simulate LOOP.yaml --periods N --runs R [--seed S] [--paths FILE]
+//	monitor run --loop LOOP.yaml --listen HOST:PORT [--metrics HOST:PORT] [--duration D] [--summary FILE]
+//
+// run receives the rig's sensor datagrams and estimates E[eᵀe] online
+// beside the prediction (package engine).
 //
 // predict computes what theory says (MODEL.md: mean-square stability, the
 // spectral radius of the second-moment operator, the steady error moments,
@@ -23,6 +27,7 @@ commands:
   predict LOOP.yaml    what theory predicts for the loop over its network profile
   simulate LOOP.yaml   Monte-Carlo runs of the same loop model
   rig node|controller  the simulated rig's two ends, on real UDP sockets
+  run --loop LOOP.yaml measure E[eᵀe] from the rig's sensor datagrams, beside the prediction
   demo                 rig, relay and monitor on loopback: predicted vs measured
 
 run "monitor COMMAND -h" for the flags of a command
@@ -48,6 +53,8 @@ func run(args []string, stdout, stderr io.Writer) int {
 		err = cmdSimulate(args[1:], stdout, stderr)
 	case "rig":
 		err = cmdRig(args[1:], stdout, stderr)
+	case "run":
+		err = cmdRun(args[1:], stdout, stderr)
 	case "-h", "-help", "--help", "help":
 		fmt.Fprint(stdout, usage)
 		return 0
@@ -56,9 +63,15 @@ func run(args []string, stdout, stderr io.Writer) int {
 		return 2
 	}
 	var ue usageError
+	var ee exitError
 	switch {
 	case err == nil:
 		return 0
+	case errors.As(err, &ee):
+		if ee.msg != "" {
+			fmt.Fprintf(stderr, "monitor %s: %s\n", args[0], ee.msg)
+		}
+		return ee.code
 	case errors.Is(err, flag.ErrHelp):
 		return 0
 	case errors.As(err, &ue):
@@ -68,6 +81,20 @@ func run(args []string, stdout, stderr io.Writer) int {
 		fmt.Fprintf(stderr, "monitor %s: %v\n", args[0], err)
 		return 1
 	}
+}
+
+// exitError ends a command with its own exit code (a verdict, say); msg,
+// when set, is printed first.
+type exitError struct {
+	code int
+	msg  string
+}
+
+func (e exitError) Error() string {
+	if e.msg != "" {
+		return e.msg
+	}
+	return fmt.Sprintf("exit status %d", e.code)
 }
 
 // usageError is a bad flag or argument (exit code 2).

@@ -1,0 +1,295 @@
+package main
+
+import (
+	"context"
+	"encoding/json"
+	"errors"
+	"flag"
+	"fmt"
+	"io"
+	"log/slog"
+	"math"
+	"net"
+	"net/http"
+	"os"
+	"path/filepath"
+	"strings"
+	"time"
+
+	"github.com/prometheus/client_golang/prometheus"
+	"github.com/prometheus/client_golang/prometheus/collectors"
+	"github.com/prometheus/client_golang/prometheus/promhttp"
+
+	"rigwire/cmd/monitor/engine"
+	"rigwire/estimate"
+	"rigwire/profiles"
+)
+
+// runCaution is printed when `monitor run` starts (same family as the
+// relay's caution).
+const runCaution = `SAFETY: the monitor only watches; it does not stop the rig.
+  - Keep an emergency stop that does not depend on the network or on this monitor, within reach.
+  - Make the first runs with the actuator disabled, or at low gains and speeds.
+  - Keep guards in place and people out of the machine's reach.
+  - Local machine-safety rules and qualified personnel have the last word.
+`
+
+const runUsage = `usage: monitor run --loop LOOP.yaml --listen HOST:PORT [--metrics HOST:PORT] [--duration D]
+                   [--summary FILE] [--tolerance X] [--warmup D] [--strict]
+
+Receives the rig's sensor datagrams, decodes them with the loop's decode
+section, estimates E[eᵀe] of e = setpoint − y online with a 95 % batch-means
+confidence interval, compares it with the prediction, serves Prometheus
+metrics and, at the end (--duration, SIGINT or SIGTERM), writes a JSON
+summary with a verdict: agree when the predicted E[eᵀe] lies in the
+interval widened by --tolerance ([lo − tol·|lo|, hi + tol·|hi|]), above when
+the measured value is above the prediction, below when below.
+
+Exit status: 0 once the summary is written (whatever the verdict); with
+--strict: 0 agree, 3 above, 4 below, 5 no samples, 6 the prediction is not
+mean-square stable. 1: a runtime error; 2: bad flags or loop file.
+`
+
+func cmdRun(args []string, stdout, stderr io.Writer) error {
+	fs := flag.NewFlagSet("run", flag.ContinueOnError)
+	fs.SetOutput(stderr)
+	var listen apFlag
+	var duration, warmup durationFlag
+	loopPath := fs.String("loop", "", "loop description `FILE` (YAML, with a decode section)")
+	fs.Var(&listen, "listen", "`HOST:PORT` where the sensor datagrams arrive (required)")
+	metricsAddr := fs.String("metrics", "127.0.0.1:9472", "serve Prometheus metrics on `HOST:PORT` (\"off\": none)")
+	fs.Var(&duration, "duration", "stop after `D` (a duration or seconds; default: run until SIGINT/SIGTERM)")
+	summaryPath := fs.String("summary", "", "write the JSON summary to `FILE` (default: stdout)")
+	tolerance := fs.Float64("tolerance", 0.1, "relative widening of the confidence interval for the verdict")
+	fs.Var(&warmup, "warmup", "skip the samples of the first `D` (by count: D / period)")
+	strict := fs.Bool("strict", false, "exit with the verdict's code (3 above, 4 below, 5 no samples, 6 unstable)")
+	windows := fs.String("windows", "1m,10m", "sliding windows, comma-separated durations")
+	maxDatagram := fs.Int("max-datagram", engine.DefaultMaxDatagram, "longest datagram decoded, `bytes` (longer: counted as oversized)")
+	progress := fs.Duration("progress", time.Second, "status line on stderr every `D` (0: none)")
+	noMargin := fs.Bool("no-margin", false, "skip the loss margin in the prediction")
+	rcvBuf := fs.Int("receive-buffer", 4<<20, "socket receive buffer, `bytes`")
+	logLevel := fs.String("log-level", "info", "debug, info, warn or error")
+	fs.Usage = func() {
+		fmt.Fprint(stderr, runUsage)
+		fs.PrintDefaults()
+	}
+	if err := fs.Parse(args); err != nil {
+		if errors.Is(err, flag.ErrHelp) {
+			return err
+		}
+		return usageError{err.Error()}
+	}
+	switch {
+	case fs.NArg() > 0:
+		return usagef("unexpected argument %q", fs.Arg(0))
+	case *loopPath == "":
+		return usagef("--loop: required")
+	case !listen.set:
+		return usagef("--listen: required")
+	case !(*tolerance >= 0) || math.IsInf(*tolerance, 0):
+		return usagef("--tolerance: want a number ≥ 0, got %g", *tolerance)
+	case *maxDatagram < 1 || *maxDatagram > 65535:
+		return usagef("--max-datagram: want 1…65535 bytes, got %d", *maxDatagram)
+	case *progress < 0:
+		return usagef("--progress: want a duration ≥ 0, got %s", *progress)
+	case *rcvBuf < 0 || *rcvBuf > 1<<30:
+		return usagef("--receive-buffer: want 0…1073741824 bytes, got %d", *rcvBuf)
+	}
+	wins, err := parseWindows(*windows)
+	if err != nil {
+		return err
+	}
+	var level slog.Level
+	if err := level.UnmarshalText([]byte(*logLevel)); err != nil {
+		return usagef("--log-level: want debug, info, warn or error, got %q", *logLevel)
+	}
+	log := slog.New(slog.NewTextHandler(stderr, &slog.HandlerOptions{Level: level}))
+
+	loop, err := profiles.LoadLoop(*loopPath)
+	if err != nil {
+		return usageError{err.Error()}
+	}
+	if loop.Decode.Format == "" {
+		return usagef("%s: decode: missing (where the outputs sit in each sensor datagram)", *loopPath)
+	}
+	pred, err := estimate.Predict(loop, estimate.PredictOptions{SkipMargin: *noMargin})
+	if err != nil {
+		return fmt.Errorf("%s: prediction: %w", *loopPath, err)
+	}
+	mon, err := engine.New(loop, pred, engine.Options{
+		Windows: wins, Warmup: time.Duration(warmup.s * 1e9), Tolerance: *tolerance, MaxDatagram: *maxDatagram,
+	})
+	if err != nil {
+		return usageError{err.Error()}
+	}
+
+	conn, err := net.ListenUDP("udp", net.UDPAddrFromAddrPort(listen.ap))
+	if err != nil {
+		return fmt.Errorf("--listen %s: %w", listen.ap, err)
+	}
+	if *rcvBuf > 0 {
+		if err := conn.SetReadBuffer(*rcvBuf); err != nil {
+			log.Warn("receive buffer", "err", err)
+		}
+	}
+	reg := prometheus.NewRegistry()
+	reg.MustRegister(collectors.NewGoCollector(), collectors.NewProcessCollector(collectors.ProcessCollectorOpts{}))
+	if err := mon.RegisterMetrics(reg); err != nil {
+		conn.Close()
+		return err
+	}
+	var srv *http.Server
+	if *metricsAddr != "off" {
+		ln, err := net.Listen("tcp", *metricsAddr)
+		if err != nil {
+			conn.Close()
+			return usagef("--metrics %s: %v", *metricsAddr, err)
+		}
+		mux := http.NewServeMux()
+		mux.Handle("/metrics", promhttp.HandlerFor(reg, promhttp.HandlerOpts{Registry: reg}))
+		srv = &http.Server{Handler: mux, ReadHeaderTimeout: 5 * time.Second}
+		go func() {
+			if err := srv.Serve(ln); err != nil && !errors.Is(err, http.ErrServerClosed) {
+				log.Error("metrics server", "err", err)
+			}
+		}()
+		log.Info("metrics", "url", "http://"+ln.Addr().String()+"/metrics")
+	}
+
+	fmt.Fprint(stderr, runCaution)
+	printPrediction(stderr, pred)
+	log.Info("monitoring", "loop", *loopPath, "listen", conn.LocalAddr().String(),
+		"decode", loop.Decode.Format, "warmup_samples", int64(warmup.s/loop.Period), "tolerance", *tolerance)
+
+	// Shutdown order: the signal or the duration ends ctx; Serve closes the
+	// socket and returns; the progress goroutine ends with ctx; then the
+	// metrics server stops and the summary is written from the final
+	// state.
+	ctx, cancel := signalContext()
+	defer cancel()
+	if duration.s > 0 {
+		var c2 context.CancelFunc
+		ctx, c2 = context.WithTimeout(ctx, time.Duration(duration.s*1e9))
+		defer c2()
+	}
+	progDone := make(chan struct{})
+	go func() {
+		defer close(progDone)
+		showProgress(ctx, mon, *progress, stderr)
+	}()
+	serveErr := mon.Serve(ctx, conn)
+	cancel()
+	<-progDone
+	if srv != nil {
+		shut, done := context.WithTimeout(context.Background(), time.Second)
+		_ = srv.Shutdown(shut)
+		done()
+	}
+	sum := mon.Summary()
+	if err := writeRunSummary(*summaryPath, sum, stdout); err != nil {
+		return err
+	}
+	if serveErr != nil {
+		return fmt.Errorf("receiving: %w", serveErr)
+	}
+	fmt.Fprintln(stderr, verdictLine(sum))
+	if code := sum.ExitCode(*strict); code != 0 {
+		return exitError{code: code}
+	}
+	return nil
+}
+
+// parseWindows reads --windows.
+func parseWindows(s string) ([]time.Duration, error) {
+	if strings.TrimSpace(s) == "" || s == "none" {
+		return []time.Duration{}, nil
+	}
+	var out []time.Duration
+	for _, f := range strings.Split(s, ",") {
+		v, err := profiles.ParseDuration(strings.TrimSpace(f))
+		if err != nil || !(v > 0) {
+			return nil, usagef("--windows: want comma-separated durations > 0 (\"1m,10m\"), got %q", f)
+		}
+		out = append(out, time.Duration(v*1e9))
+	}
+	return out, nil
+}
+
+func printPrediction(w io.Writer, pr *estimate.Prediction) {
+	switch {
+	case !pr.MeanSquareStable:
+		fmt.Fprintf(w, "predicted: NOT mean-square stable (spectral radius %.6g ≥ 1); no predicted E[eᵀe] to compare with\n", pr.SpectralRadius)
+	default:
+		fmt.Fprintf(w, "predicted: E[eᵀe] = %.6g, mean-square stable (spectral radius %.6g)", pr.Error.SecondMoment, pr.SpectralRadius)
+		if !math.IsNaN(pr.LossMargin) {
+			fmt.Fprintf(w, ", loss margin %.4f", pr.LossMargin)
+		}
+		fmt.Fprintln(w)
+	}
+}
+
+// showProgress writes a status line every interval until ctx ends.
+func showProgress(ctx context.Context, mon *engine.Monitor, every time.Duration, w io.Writer) {
+	if every == 0 {
+		<-ctx.Done()
+		return
+	}
+	t := time.NewTicker(every)
+	defer t.Stop()
+	for {
+		select {
+		case <-ctx.Done():
+			return
+		case <-t.C:
+			fmt.Fprintln(w, mon.Progress().String())
+		}
+	}
+}
+
+func verdictLine(s *engine.Summary) string {
+	f := func(p *float64) string {
+		if p == nil {
+			return "-"
+		}
+		return fmt.Sprintf("%.6g", *p)
+	}
+	return fmt.Sprintf("verdict %s: measured E[eᵀe] %s, 95 %% CI [%s, %s] from %d samples; predicted %s; tolerance %g",
+		s.Verdict, f(s.ErrorSecondMoment), f(s.CILow), f(s.CIHigh), s.Samples, f(s.PredictedSecondMoment), s.Tolerance)
+}
+
+// writeRunSummary writes the JSON summary to path (atomically, through a
+// temporary file in the same directory) or to stdout.
+func writeRunSummary(path string, s *engine.Summary, stdout io.Writer) error {
+	data, err := json.MarshalIndent(s, "", "  ")
+	if err != nil {
+		return err
+	}
+	data = append(data, '\n')
+	if path == "" || path == "-" {
+		_, err := stdout.Write(data)
+		return err
+	}
+	tmp, err := os.CreateTemp(filepath.Dir(path), ".summary-*")
+	if err != nil {
+		return fmt.Errorf("--summary: %w", err)
+	}
+	if err := tmp.Chmod(0o644); err != nil {
+		tmp.Close()
+		os.Remove(tmp.Name())
+		return fmt.Errorf("--summary: %w", err)
+	}
+	if _, err := tmp.Write(data); err != nil {
+		tmp.Close()
+		os.Remove(tmp.Name())
+		return fmt.Errorf("--summary: %w", err)
+	}
+	if err := tmp.Close(); err != nil {
+		os.Remove(tmp.Name())
+		return fmt.Errorf("--summary: %w", err)
+	}
+	if err := os.Rename(tmp.Name(), path); err != nil {
+		os.Remove(tmp.Name())
+		return fmt.Errorf("--summary: %w", err)
+	}
+	return nil
+}
