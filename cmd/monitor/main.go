@@ -53,6 +53,8 @@ func run(args []string, stdout, stderr io.Writer) int {
 		err = cmdSimulate(args[1:], stdout, stderr)
 	case "rig":
 		err = cmdRig(args[1:], stdout, stderr)
+	case "demo":
+		err = cmdDemo(args[1:], stdout, stderr)
 	case "run":
 		err = cmdRun(args[1:], stdout, stderr)
 	case "-h", "-help", "--help", "help":
