@@ -305,7 +305,7 @@ func TestMonitorRunFloodAndPromtool(t *testing.T) {
 	const flood = 300_000
 	for i := 0; i < flood; i++ {
 		var d []byte
-		if i%3 == 0 {
+		if i%7 == 0 {
 			d = []byte(strconv.Itoa(2000+i) + ",0,1.21")
 		} else {
 			d = payloads[i%len(payloads)]
