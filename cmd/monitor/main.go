@@ -29,6 +29,7 @@ commands:
   rig node|controller  the simulated rig's two ends, on real UDP sockets
   run --loop LOOP.yaml measure E[eᵀe] from the rig's sensor datagrams, beside the prediction
   demo                 rig, relay and monitor on loopback: predicted vs measured
+  serve --loop LOOP    relay and monitor of one rig in one process
 
 run "monitor COMMAND -h" for the flags of a command
 `
@@ -55,6 +56,8 @@ func run(args []string, stdout, stderr io.Writer) int {
 		err = cmdRig(args[1:], stdout, stderr)
 	case "demo":
 		err = cmdDemo(args[1:], stdout, stderr)
+	case "serve":
+		err = cmdServe(args[1:], stdout, stderr)
 	case "run":
 		err = cmdRun(args[1:], stdout, stderr)
 	case "-h", "-help", "--help", "help":

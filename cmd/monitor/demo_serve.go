@@ -1,0 +1,111 @@
+package main
+
+import (
+	"context"
+	"encoding/json"
+	"flag"
+	"fmt"
+	"io"
+	"log/slog"
+	"os"
+	"time"
+
+	"rigwire/profiles"
+)
+
+// serveCaution is printed before serve relays the rig's datagrams.
+const serveCaution = `SAFETY: the relay will delay and drop the commands that move your rig.
+  - Keep an emergency stop that does not depend on this link, within reach.
+  - Make the first runs with the actuator disabled, or at low gains and speeds.
+  - Keep guards in place and people out of the machine's reach.
+  - Local machine-safety rules and qualified personnel have the last word.
+`
+
+// cmdServe is the relay and the monitor of one rig in one process: the
+// relay engine impairs the rig's link with the profile and hands each
+// sensor datagram, before impairment, to the monitor engine in process (no
+// tap socket); one metrics endpoint serves both. It ends after --duration
+// or on SIGINT/SIGTERM, draining the relay, and writes the monitor's JSON
+// summary.
+func cmdServe(args []string, stdout, stderr io.Writer) error {
+	fs := flag.NewFlagSet("monitor serve", flag.ContinueOnError)
+	fs.SetOutput(stderr)
+	loopPath := fs.String("loop", "", "loop `FILE` (YAML, with a decode section) (required)")
+	profilePath := fs.String("profile", "", "relay profile `FILE` (default: the loop's own profile)")
+	listen := fs.String("listen", "", "`HOST:PORT` where the sensor node's datagrams arrive (required)")
+	controller := fs.String("controller", "", "`HOST:PORT` of the controller (required)")
+	actuator := fs.String("actuator", "", "`HOST:PORT` for commands (default: the source of the latest sensor datagram)")
+	metrics := fs.String("metrics", "127.0.0.1:9472", "serve the relay's and the monitor's metrics on `HOST:PORT` (\"off\": none)")
+	summaryPath := fs.String("summary", "", "write the JSON summary to `FILE` (default: stdout)")
+	tolerance := fs.Float64("tolerance", 0.1, "widen the measured interval by this fraction of its bounds for the verdict")
+	var dur, warmup durationFlag
+	fs.Var(&dur, "duration", "stop after `D` (default: run until SIGINT/SIGTERM)")
+	fs.Var(&warmup, "warmup", "skip the samples of the first `D` in the measurement")
+	seed := fs.Uint64("seed", 0, "seed of the relay's decisions (default: the profile's, else random)")
+	every := fs.Duration("progress", time.Second, "status line on stderr every `D` (0: none)")
+	if err := fs.Parse(args); err != nil {
+		return parseErr(err)
+	}
+	switch {
+	case fs.NArg() > 0:
+		return usagef("unexpected argument %q", fs.Arg(0))
+	case *loopPath == "":
+		return usagef("--loop: required")
+	case *listen == "":
+		return usagef("--listen: required")
+	case *controller == "":
+		return usagef("--controller: required")
+	case *tolerance < 0 || *tolerance > 10:
+		return usagef("--tolerance: want 0…10, got %g", *tolerance)
+	case *every < 0:
+		return usagef("--progress: want ≥ 0, got %s", *every)
+	}
+	seedSet := false
+	fs.Visit(func(f *flag.Flag) { seedSet = seedSet || f.Name == "seed" })
+	log := slog.New(slog.NewTextHandler(stderr, nil))
+	loop, err := profiles.LoadLoop(*loopPath)
+	if err != nil {
+		return err
+	}
+	var prof *profiles.Profile
+	if *profilePath != "" {
+		if prof, err = profiles.Load(*profilePath); err != nil {
+			return err
+		}
+		l := *loop // predict for the network the relay applies
+		l.Profile, l.ProfileFile = prof, prof.File
+		loop = &l
+	}
+	b, err := openBench(benchConfig{loop: loop, profile: prof, listen: *listen, controller: *controller,
+		actuator: *actuator, metrics: *metrics, tolerance: *tolerance,
+		warmup: time.Duration(warmup.s * float64(time.Second)), seed: *seed, seedSet: seedSet, log: log})
+	if err != nil {
+		return err
+	}
+	fmt.Fprint(stderr, serveCaution)
+	log.Info("relaying and monitoring", "loop", loop.File, "listen", b.relay.ListenAddr().String(),
+		"controller", *controller, "metrics", b.url, "seed", b.relay.Seed())
+	ctx, cancel := signalContext()
+	defer cancel()
+	if dur.s > 0 {
+		var stop context.CancelFunc
+		ctx, stop = context.WithTimeout(ctx, time.Duration(dur.s*float64(time.Second)))
+		defer stop()
+	}
+	if err := b.run(ctx, stderr, *every); err != nil {
+		return err
+	}
+	out, err := json.MarshalIndent(b.mon.Summary(), "", "  ")
+	if err != nil {
+		return err
+	}
+	out = append(out, '\n')
+	if *summaryPath == "" {
+		_, err = stdout.Write(out)
+		return err
+	}
+	if err := os.WriteFile(*summaryPath, out, 0o644); err != nil {
+		return fmt.Errorf("--summary: %w", err)
+	}
+	return nil
+}
