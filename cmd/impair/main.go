@@ -4,6 +4,9 @@
 //
 //	impair run --profile FILE --listen HOST:PORT --controller HOST:PORT [flags]
 //	impair check [--interval D] PROFILE
+//	impair echo --listen HOST:PORT
+//	impair probe --target HOST:PORT --rate R --size B --duration D --out TRACE.csv
+//	impair fit TRACE (--one-way | --halve-rtt | --round-trip) [--out PROFILE.yaml] [--loop LOOP.yaml]
 package main
 
 import (
@@ -17,6 +20,9 @@ const usage = `usage: impair <command> [flags]
 commands:
   run     relay a rig's datagrams through a network profile
   check   validate a profile and print what it will do
+  echo    answer probes: send each one back, stamped
+  probe   send timestamped probes to an echo and record their fates in a trace
+  fit     fit a profile to a probe trace
   lab     build or remove the lab's network namespaces (up|down, root)
 
 Run "impair <command> -h" for a command's flags.
@@ -36,6 +42,12 @@ func dispatch(args []string, stdout, stderr io.Writer) int {
 		return cmdRun(args[1:], stdout, stderr)
 	case "check":
 		return cmdCheck(args[1:], stdout, stderr)
+	case "echo":
+		return cmdEcho(args[1:], stdout, stderr)
+	case "probe":
+		return cmdProbe(args[1:], stdout, stderr)
+	case "fit":
+		return cmdFit(args[1:], stdout, stderr)
 	case "lab":
 		return cmdLab(args[1:], stdout, stderr)
 	case "help", "-h", "--help":

@@ -1,0 +1,313 @@
+package main
+
+import (
+	"errors"
+	"flag"
+	"fmt"
+	"io"
+	"math"
+	"os"
+	"path/filepath"
+	"strconv"
+	"strings"
+	"text/tabwriter"
+
+	"rigwire/estimate"
+	"rigwire/profiles"
+)
+
+const fitUsage = `usage: impair fit TRACE (--one-way | --halve-rtt | --round-trip)
+                  [--direction sensor_to_controller|controller_to_actuator|both]
+                  [--out PROFILE.yaml] [--name NAME] [--loop LOOP.yaml]
+
+Fits a network profile to a probe trace (as written by impair probe) and
+prints the fit.
+
+Delays: each of exponential, gamma, lognormal, weibull (with a shift) and
+normal is fitted by maximum likelihood (the shift by profile likelihood,
+just below the smallest delay at most); the kind with the smallest AIC is
+chosen. Each candidate is shown with its Kolmogorov–Smirnov statistic and
+p-value; the parameters were estimated from the same sample, so these
+p-values are conservative (too large: the Lilliefors effect). Standard
+errors come from the observed Fisher information.
+
+Losses: i.i.d. loss against the simplified Gilbert channel (a good state
+that delivers, a bad state that loses; p = P(lost | previous delivered),
+r = P(delivered | previous lost), from the transition counts), chosen by
+AIC, with the likelihood-ratio test, the mean burst length and the long-run
+loss. A burst channel becomes a two-state states: profile whose mean dwells
+reproduce p and r exactly at the trace's probe interval.
+
+Which delay is fitted must be said: --one-way uses one_way_s (the probe
+and the echo had synchronised clocks), --halve-rtt uses half of each round
+trip (assumes symmetric paths), --round-trip the whole round trip as one
+direction's delay. The fitted channel goes to --direction (default
+sensor_to_controller; the other direction is left clean; both puts it on
+both). Losses are those of the whole round trip unless --one-way.
+
+--out writes the profile (default: print it). --loop also prints the
+prediction (monitor predict's figures) of that loop under the fitted
+profile, beside the one under the loop's own profile.
+
+Exit status: 0 when fitted, 1 when it could not be, 2 for bad input.
+`
+
+type fitFlags struct {
+	oneWay, halve, roundTrip bool
+	direction                string
+	out, name, loop          string
+}
+
+// cmdFit is `impair fit`.
+func cmdFit(args []string, stdout, stderr io.Writer) int {
+	fs := flag.NewFlagSet("fit", flag.ContinueOnError)
+	fs.SetOutput(stderr)
+	fs.Usage = func() { fmt.Fprint(stderr, fitUsage) }
+	var f fitFlags
+	fs.BoolVar(&f.oneWay, "one-way", false, "fit the one-way delays (one_way_s)")
+	fs.BoolVar(&f.halve, "halve-rtt", false, "fit half of each round trip")
+	fs.BoolVar(&f.roundTrip, "round-trip", false, "fit the whole round trip as one direction's delay")
+	fs.StringVar(&f.direction, "direction", profiles.SensorToController, "direction the fitted channel goes to")
+	fs.StringVar(&f.out, "out", "", "write the profile here")
+	fs.StringVar(&f.name, "name", "", "the profile's name (default: fitted-<trace>)")
+	fs.StringVar(&f.loop, "loop", "", "also predict this loop under the fitted profile")
+	var paths []string
+	for {
+		if err := fs.Parse(args); err != nil {
+			if errors.Is(err, flag.ErrHelp) {
+				return 0
+			}
+			return 2
+		}
+		if fs.NArg() == 0 {
+			break
+		}
+		paths = append(paths, fs.Arg(0))
+		args = fs.Args()[1:]
+	}
+	if len(paths) != 1 {
+		fmt.Fprintf(stderr, "impair fit: want one trace file, got %d\n%s", len(paths), fitUsage)
+		return 2
+	}
+	n := 0
+	for _, b := range []bool{f.oneWay, f.halve, f.roundTrip} {
+		if b {
+			n++
+		}
+	}
+	if n != 1 {
+		fmt.Fprintf(stderr, "impair fit: want exactly one of --one-way, --halve-rtt, --round-trip (a round trip is halved only when you say so), got %d\n", n)
+		return 2
+	}
+	switch f.direction {
+	case profiles.SensorToController, profiles.ControllerToActuator, "both":
+	default:
+		fmt.Fprintf(stderr, "impair fit: --direction: want sensor_to_controller, controller_to_actuator or both, got %q\n", f.direction)
+		return 2
+	}
+	tr, err := profiles.LoadTrace(paths[0])
+	if err != nil {
+		fmt.Fprintf(stderr, "impair fit: %v\n", err)
+		return 2
+	}
+	res, err := fitTrace(tr, f)
+	if err != nil {
+		fmt.Fprintf(stderr, "impair fit: %v\n", err)
+		return 1
+	}
+	printFit(stdout, res)
+	if f.out != "" {
+		if err := os.WriteFile(f.out, []byte(res.yaml), 0o644); err != nil {
+			fmt.Fprintf(stderr, "impair fit: writing profile: %v\n", err)
+			return 1
+		}
+		fmt.Fprintf(stdout, "\nprofile written to %s\n", f.out)
+	} else {
+		fmt.Fprintf(stdout, "\n%s", res.yaml)
+	}
+	if f.loop != "" {
+		if err := printLoopPrediction(stdout, f.loop, res.profile); err != nil {
+			fmt.Fprintf(stderr, "impair fit: %v\n", err)
+			return 2
+		}
+	}
+	return 0
+}
+
+// fitResult is what fitTrace found.
+type fitResult struct {
+	trace    *profiles.Trace
+	column   string
+	what     string // what the delays are
+	interval float64
+	delays   []estimate.DelayFit
+	loss     estimate.LossFit
+	dwellOK  bool
+	good     float64 // mean dwells of the burst channel, seconds
+	bad      float64
+	yaml     string
+	profile  *profiles.Profile
+}
+
+func fitTrace(tr *profiles.Trace, f fitFlags) (*fitResult, error) {
+	r := &fitResult{trace: tr}
+	scale := 1.0
+	switch {
+	case f.oneWay:
+		r.column, r.what = "one_way_s", "one-way delay"
+		if !tr.ClocksSynced {
+			return nil, fmt.Errorf("%s: --one-way: the trace does not declare synchronised clocks (clocks_synced: true); use --halve-rtt or --round-trip", tr.File)
+		}
+	case f.halve:
+		r.column, r.what, scale = "rtt_s", "half the round trip", 0.5
+	default:
+		r.column, r.what = "rtt_s", "round trip"
+	}
+	delays, lost, err := tr.Fates(r.column)
+	if err != nil {
+		return nil, err
+	}
+	var kept []float64
+	for i, l := range lost {
+		if !l {
+			kept = append(kept, scale*delays[i])
+		}
+	}
+	if len(kept) < estimate.MinFitSamples {
+		return nil, fmt.Errorf("%s: %d delivered probes, want at least %d to fit delays", tr.File, len(kept), estimate.MinFitSamples)
+	}
+	if r.delays, err = estimate.FitDelays(kept); err != nil {
+		return nil, fmt.Errorf("%s: %w", tr.File, err)
+	}
+	if r.loss, err = estimate.FitLoss(lost); err != nil {
+		return nil, fmt.Errorf("%s: %w", tr.File, err)
+	}
+	r.interval = tr.ProbeInterval()
+	if r.loss.Burst && r.interval > 0 {
+		if r.good, r.bad, err = r.loss.Dwell(r.interval); err == nil {
+			r.dwellOK = true
+		}
+	}
+	name := f.name
+	if name == "" {
+		name = "fitted-" + strings.TrimSuffix(filepath.Base(tr.File), filepath.Ext(tr.File))
+	}
+	r.yaml = r.profileYAML(name, f.direction)
+	r.profile, err = profiles.Parse([]byte(r.yaml), "fitted profile", "")
+	if err != nil {
+		return nil, fmt.Errorf("the fitted profile does not load (a bug): %w", err)
+	}
+	return r, nil
+}
+
+// num writes a number with 6 significant digits.
+func num(x float64) string { return strconv.FormatFloat(x, 'g', 6, 64) }
+
+// delayYAML is a fitted law as a profile delay mapping (times in
+// seconds).
+func delayYAML(d estimate.DelayFit) string {
+	var b strings.Builder
+	fmt.Fprintf(&b, "{kind: %s", d.Kind)
+	for i, n := range d.Names {
+		fmt.Fprintf(&b, ", %s: %s", n, num(d.Params[i]))
+	}
+	b.WriteString("}")
+	return b.String()
+}
+
+func (r *fitResult) profileYAML(name, direction string) string {
+	var b strings.Builder
+	best := r.delays[0]
+	fmt.Fprintf(&b, "# fitted by impair fit from %s: %d probes, %s, probe interval %s s\n", filepath.Base(r.trace.File), r.loss.N, r.what, num(r.interval))
+	fmt.Fprintf(&b, "# delay: %s chosen by AIC; KS D = %.4f, p = %.3g (conservative: parameters estimated)\n", best.Kind, best.KS, best.KSP)
+	if r.dwellOK {
+		fmt.Fprintf(&b, "# loss: simplified Gilbert channel, p = %.4g, r = %.4g per probe; long-run loss %.4g, mean burst %.3g probes\n", r.loss.P, r.loss.R, r.loss.LongRunLoss, r.loss.MeanBurst)
+	} else {
+		fmt.Fprintf(&b, "# loss: i.i.d., %.4g\n", r.loss.Loss)
+	}
+	b.WriteString("# times in seconds\n")
+	fmt.Fprintf(&b, "name: %s\n", strconv.Quote(name))
+	var ch strings.Builder
+	if r.dwellOK {
+		ch.WriteString("  states:\n")
+		fmt.Fprintf(&ch, "    - {name: good, mean_dwell: %s, loss: 0, delay: %s}\n", num(r.good), delayYAML(best))
+		fmt.Fprintf(&ch, "    - {name: burst, mean_dwell: %s, loss: 1, delay: %s}\n", num(r.bad), delayYAML(best))
+	} else {
+		fmt.Fprintf(&ch, "  loss: %s\n  delay: %s\n", num(r.loss.Loss), delayYAML(best))
+	}
+	for _, dir := range []string{profiles.SensorToController, profiles.ControllerToActuator} {
+		if direction == dir || direction == "both" {
+			fmt.Fprintf(&b, "%s:\n%s", dir, ch.String())
+		}
+	}
+	return b.String()
+}
+
+func printFit(w io.Writer, r *fitResult) {
+	fmt.Fprintf(w, "trace %s: %d probes, %d lost, probe interval %s s\n", r.trace.File, r.loss.N, r.loss.Lost, num(r.interval))
+	fmt.Fprintf(w, "\ndelays: %s (%s), %d samples; maximum likelihood, chosen by AIC = 2k − 2 ln L\n", r.what, r.column, r.loss.N-r.loss.Lost)
+	tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', 0)
+	fmt.Fprintln(tw, "kind\tparameters (± standard error)\tln L\tAIC\tΔAIC\tKS D\tKS p")
+	for _, d := range r.delays {
+		var ps []string
+		for i, n := range d.Names {
+			s := n + " " + num(d.Params[i])
+			if !math.IsNaN(d.StdErr[i]) {
+				s += " ± " + strconv.FormatFloat(d.StdErr[i], 'g', 2, 64)
+			} else if n == "shift" {
+				s += " (at its bound)"
+			}
+			ps = append(ps, s)
+		}
+		fmt.Fprintf(tw, "%s\t%s\t%.1f\t%.1f\t%.1f\t%.4f\t%.3g\n", d.Kind, strings.Join(ps, ", "), d.LogLik, d.AIC, d.AIC-r.delays[0].AIC, d.KS, d.KSP)
+	}
+	tw.Flush()
+	fmt.Fprintln(w, "(KS p-values are conservative: the parameters were estimated from the same sample — Lilliefors)")
+	l := r.loss
+	fmt.Fprintf(w, "\nlosses: %d of %d probes in %d runs\n", l.Lost, l.N, l.Runs)
+	fmt.Fprintf(w, "  i.i.d.:                 loss %.4g ± %.2g                          AIC %.1f\n", l.Loss, l.LossSE, l.AICIID)
+	fmt.Fprintf(w, "  simplified Gilbert:     p %.4g ± %.2g, r %.4g ± %.2g   AIC %.1f\n", l.P, l.PSE, l.R, l.RSE, l.AICBurst)
+	fmt.Fprintf(w, "  likelihood ratio %.2f, p-value %.3g (χ², 1 degree of freedom)\n", l.LR, l.LRP)
+	if l.Burst {
+		fmt.Fprintf(w, "  chosen: burst channel; long-run loss %.4g, mean burst %.3g probes", l.LongRunLoss, l.MeanBurst)
+		if r.dwellOK {
+			fmt.Fprintf(w, "; mean dwell good %s s, burst %s s", num(r.good), num(r.bad))
+		}
+		fmt.Fprintln(w)
+	} else {
+		fmt.Fprintf(w, "  chosen: i.i.d.; long-run loss %.4g, mean burst %.3g probes\n", l.LongRunLoss, l.MeanBurst)
+	}
+}
+
+// printLoopPrediction prints the loop's prediction under its own profile
+// and under the fitted one.
+func printLoopPrediction(w io.Writer, path string, fitted *profiles.Profile) error {
+	loop, err := profiles.LoadLoop(path)
+	if err != nil {
+		return err
+	}
+	own, err := estimate.Predict(loop, estimate.PredictOptions{SkipMargin: true})
+	if err != nil {
+		return fmt.Errorf("%s: predicting: %w", path, err)
+	}
+	fl := *loop
+	fl.Profile = fitted
+	fit, err := estimate.Predict(&fl, estimate.PredictOptions{SkipMargin: true})
+	if err != nil {
+		return fmt.Errorf("%s: predicting under the fitted profile: %w", path, err)
+	}
+	fmt.Fprintf(w, "\nprediction for %s\n", path)
+	tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', 0)
+	fmt.Fprintln(tw, "profile\tmean-square stable\tspectral radius\tE[eᵀe]")
+	for _, x := range []struct {
+		name string
+		p    *estimate.Prediction
+	}{{"the loop's own", own}, {"fitted", fit}} {
+		m := "—"
+		if x.p.Error != nil {
+			m = num(x.p.Error.SecondMoment)
+		}
+		fmt.Fprintf(tw, "%s\t%v\t%.6f\t%s\n", x.name, x.p.MeanSquareStable, x.p.SpectralRadius, m)
+	}
+	return tw.Flush()
+}
