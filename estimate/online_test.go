@@ -149,7 +149,8 @@ func TestOnlineAgainstDirectComputation(t *testing.T) {
 
 // The t quantiles behind the intervals, against the printed table of
 // Student's t (Abramowitz & Stegun, Handbook of Mathematical Functions,
-// Table 26.10, two-sided 5 %; values to three decimals).
+// Table 26.10, two-sided 5 %; values to three decimals, table number
+// from memory).
 func TestOnlineStudentQuantiles(t *testing.T) {
 	on, _ := NewOnline(OnlineOptions{Setpoint: []float64{0}})
 	for _, c := range []struct {
