@@ -29,7 +29,8 @@ type direction struct {
 
 	mu       sync.Mutex
 	chain    *chain
-	rng      *rand.Rand // per-datagram draws
+	replay   *replayCursor // non-nil: the channel replays a trace (trace.go)
+	rng      *rand.Rand    // per-datagram draws
 	sched    schedule
 	pool     *pool
 	armedFor int64 // due time the waiter is armed for; math.MaxInt64 when disarmed
@@ -89,6 +90,7 @@ func (d *direction) setChannelLocked(ch *profiles.Channel, chainRng *rand.Rand, 
 		chainRng = d.chain.rng
 	}
 	d.chain = newChain(ch, chainRng, t)
+	d.replay = newReplayCursor(ch)
 	d.gauges = make([]prometheus.Gauge, len(ch.States))
 	for i, st := range ch.States {
 		d.gauges[i] = d.gaugeVec.WithLabelValues(d.name, st.Name)
@@ -122,12 +124,12 @@ func (d *direction) admit(acc []message, dst netip.AddrPort, now int64, imm []me
 	stateName := st.Name
 	for i := range acc {
 		m := &acc[i]
-		if st.Loss > 0 && d.rng.Float64() < st.Loss {
+		lost, delay := d.fateLocked(st)
+		if lost {
 			d.m.outcome[oDropped].Inc()
 			d.record(rec{arrival: now, outcome: oDropped, state: stateName})
 			continue
 		}
-		delay := st.Delay.Sample(d.rng)
 		d.m.delay.Observe(delay)
 		due := now + int64(delay*1e9)
 		if due <= now {
