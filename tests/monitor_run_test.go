@@ -203,7 +203,8 @@ func TestMonitorRunMeasuresWhatWasSent(t *testing.T) {
 	}
 	for name, want := range map[string]int{
 		"rigwire_monitor_samples_total":                len(kept),
-		"rigwire_monitor_sample_gaps_total":            gaps,
+		"rigwire_monitor_sample_gaps_total":            gaps + lates, // each swap skips one number first
+		"rigwire_monitor_missing_samples":              gaps,
 		"rigwire_monitor_late_samples_total":           lates,
 		"rigwire_monitor_duplicate_samples_total":      dups,
 		"rigwire_monitor_warmup_skipped_samples_total": warmupSamples,

@@ -65,7 +65,8 @@ func cmdRun(args []string, stdout, stderr io.Writer) error {
 	strict := fs.Bool("strict", false, "exit with the verdict's code (3 above, 4 below, 5 no samples, 6 unstable)")
 	windows := fs.String("windows", "1m,10m", "sliding windows, comma-separated durations")
 	maxDatagram := fs.Int("max-datagram", engine.DefaultMaxDatagram, "longest datagram decoded, `bytes` (longer: counted as oversized)")
-	progress := fs.Duration("progress", time.Second, "status line on stderr every `D` (0: none)")
+	progress := durationFlag{s: 1}
+	fs.Var(&progress, "progress", "status line on stderr every `D` (a duration or seconds; 0: none)")
 	noMargin := fs.Bool("no-margin", false, "skip the loss margin in the prediction")
 	rcvBuf := fs.Int("receive-buffer", 4<<20, "socket receive buffer, `bytes`")
 	logLevel := fs.String("log-level", "info", "debug, info, warn or error")
@@ -90,8 +91,6 @@ func cmdRun(args []string, stdout, stderr io.Writer) error {
 		return usagef("--tolerance: want a number ≥ 0, got %g", *tolerance)
 	case *maxDatagram < 1 || *maxDatagram > 65535:
 		return usagef("--max-datagram: want 1…65535 bytes, got %d", *maxDatagram)
-	case *progress < 0:
-		return usagef("--progress: want a duration ≥ 0, got %s", *progress)
 	case *rcvBuf < 0 || *rcvBuf > 1<<30:
 		return usagef("--receive-buffer: want 0…1073741824 bytes, got %d", *rcvBuf)
 	}
@@ -159,7 +158,7 @@ func cmdRun(args []string, stdout, stderr io.Writer) error {
 	fmt.Fprint(stderr, runCaution)
 	printPrediction(stderr, pred)
 	log.Info("monitoring", "loop", *loopPath, "listen", conn.LocalAddr().String(),
-		"decode", loop.Decode.Format, "warmup_samples", int64(warmup.s/loop.Period), "tolerance", *tolerance)
+		"decode", loop.Decode.Format, "warmup_samples", mon.WarmupSamples(), "tolerance", *tolerance)
 
 	// Shutdown order: the signal or the duration ends ctx; Serve closes the
 	// socket and returns; the progress goroutine ends with ctx; then the
@@ -175,7 +174,7 @@ func cmdRun(args []string, stdout, stderr io.Writer) error {
 	progDone := make(chan struct{})
 	go func() {
 		defer close(progDone)
-		showProgress(ctx, mon, *progress, stderr)
+		showProgress(ctx, mon, time.Duration(progress.s*1e9), stderr)
 	}()
 	serveErr := mon.Serve(ctx, conn)
 	cancel()

@@ -22,4 +22,37 @@
 //	code := s.ExitCode(strict)          // 0 unless strict: see ExitCode
 //
 // pred may be nil: New then computes estimate.Predict itself.
+//
+// # Metrics
+//
+// Read from the estimators at each scrape (Feed touches none). window is
+// "run" (the whole run) or a window's length in seconds ("60", "600").
+//
+//	rigwire_monitor_error_second_moment{window}          measured E[eᵀe]
+//	rigwire_monitor_error_second_moment_ci_low{window}   95 % batch-means interval
+//	rigwire_monitor_error_second_moment_ci_high{window}
+//	rigwire_monitor_error_mean{window,output}            measured E[e] per output
+//	rigwire_monitor_error_std{window}                    √(E[eᵀe] − |E[e]|²)
+//	rigwire_monitor_effective_samples{window}            n·s²/(b·S_B²)
+//	rigwire_monitor_window_samples{window}               samples behind each estimate
+//	rigwire_monitor_measured_to_predicted_ratio{window}
+//	rigwire_monitor_predicted_error_second_moment        NaN when not mean-square stable
+//	rigwire_monitor_predicted_mean_square_stable         0 or 1
+//	rigwire_monitor_predicted_spectral_radius
+//	rigwire_monitor_predicted_loss_margin                NaN with --no-margin
+//	rigwire_monitor_tolerance_ratio
+//	rigwire_monitor_missing_samples                      gauge: never seen (gaps − late)
+//	rigwire_monitor_samples_total                        estimated (after warm-up)
+//	rigwire_monitor_datagrams_total                      received
+//	rigwire_monitor_sample_gaps_total                    sequence numbers skipped
+//	rigwire_monitor_late_samples_total                   reordered, used
+//	rigwire_monitor_duplicate_samples_total              not used
+//	rigwire_monitor_stale_samples_total                  older than the reorder window, not used
+//	rigwire_monitor_sequence_restarts_total
+//	rigwire_monitor_warmup_skipped_samples_total
+//	rigwire_monitor_decode_failures_total{reason}        too_short, not_a_number, not_finite,
+//	                                                     bad_sequence, oversized
+//
+// Every datagram read is exactly one of: a sample, a warm-up skip, a
+// duplicate or stale sample, a decode failure.
 package engine

@@ -118,7 +118,7 @@ func New(loop *profiles.Loop, pred *estimate.Prediction, opts Options) (*Monitor
 	}
 	m := &Monitor{
 		loop: loop, pred: pred, opts: opts, now: opts.Now, windows: opts.Windows,
-		warmupN: int64(opts.Warmup.Seconds() / loop.Period),
+		warmupN: int64(math.Floor(opts.Warmup.Seconds()/loop.Period + 1e-9)), // 1e-9: 0.2 s / 20 ms is 10, not 9.999…
 		on:      on, failures: make([]int64, len(profiles.DecodeReasons)), y: make([]float64, len(loop.Setpoint)), meanBuf: make([]float64, len(loop.Setpoint)),
 	}
 	m.started = m.now()
@@ -171,3 +171,6 @@ func (m *Monitor) Feed(payload []byte, at time.Time) {
 	}
 	m.on.Add(m.y)
 }
+
+// WarmupSamples is the number of decoded samples skipped at the start.
+func (m *Monitor) WarmupSamples() int64 { return m.warmupN }

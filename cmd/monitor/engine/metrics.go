@@ -26,6 +26,7 @@ type descs struct {
 	second, ciLow, ciHigh, mean, std, effective, windowSamples, ratio *prometheus.Desc
 	predicted, stable, radius, margin, tolerance                      *prometheus.Desc
 	samples, datagrams, gaps, late, duplicates, stale, restarts       *prometheus.Desc
+	missing                                                           *prometheus.Desc
 	failures, skipped                                                 *prometheus.Desc
 }
 
@@ -49,7 +50,8 @@ func newDescs() *descs {
 		tolerance:     d("tolerance_ratio", "Relative widening of the interval used for the verdict."),
 		samples:       d("samples_total", "Samples estimated (decoded, not duplicates, after the warm-up)."),
 		datagrams:     d("datagrams_total", "Datagrams received."),
-		gaps:          d("sample_gaps_total", "Samples never seen, from the sequence numbers (late arrivals taken back)."),
+		gaps:          d("sample_gaps_total", "Sequence numbers skipped when a higher one arrived (some may arrive late: see late_samples_total)."),
+		missing:       d("missing_samples", "Samples never seen so far: sample gaps minus late arrivals."),
 		late:          d("late_samples_total", "Samples that arrived after a later one (reordered), used."),
 		duplicates:    d("duplicate_samples_total", "Samples whose sequence number was seen before, not used."),
 		stale:         d("stale_samples_total", "Samples older than the reordering window, not used."),
@@ -112,7 +114,10 @@ func (c *collector) Collect(ch chan<- prometheus.Metric) {
 	gauge(d.tolerance, m.opts.Tolerance)
 	counter(d.samples, st.Samples)
 	counter(d.datagrams, m.datagrams)
-	counter(d.gaps, max(0, m.seq.Counts.Gaps))
+	// Gaps goes down when a late sample arrives; the counter counts every
+	// skip (Gaps + Late never decreases) and the gauge the net.
+	counter(d.gaps, m.seq.Counts.Gaps+m.seq.Counts.Late)
+	gauge(d.missing, float64(m.seq.Counts.Gaps))
 	counter(d.late, m.seq.Counts.Late)
 	counter(d.duplicates, m.seq.Counts.Duplicates)
 	counter(d.stale, m.seq.Counts.Stale)
