@@ -130,3 +130,34 @@ func TestTraceProfile(t *testing.T) {
 		})
 	}
 }
+
+// FuzzReadTrace: whatever the bytes, the reader either returns a trace
+// whose probes are valid or a positioned error; it never panics.
+func FuzzReadTrace(f *testing.F) {
+	f.Add([]byte(goodTrace))
+	f.Add([]byte("seq,send_s,status\n0,0,lost\n"))
+	f.Add([]byte("# interval_s: 1e-3\nseq,send_s,status,rtt_s\n0,0,delivered,1e-3\n1,1e-3,deliv"))
+	f.Fuzz(func(t *testing.T, data []byte) {
+		tr, err := ReadTrace(strings.NewReader(string(data)), "fuzz.csv")
+		if err != nil {
+			if !strings.HasPrefix(err.Error(), "fuzz.csv") {
+				t.Fatalf("error does not name the file: %v", err)
+			}
+			return
+		}
+		if len(tr.Probes) == 0 {
+			t.Fatal("a trace without probes was accepted")
+		}
+		for _, c := range TraceDelayColumns {
+			d, lost, err := tr.Fates(c)
+			if err != nil {
+				continue
+			}
+			for i := range d {
+				if !(d[i] >= 0) || (lost[i] && d[i] != 0) {
+					t.Fatalf("%s: probe %d: delay %v lost %v", c, i, d[i], lost[i])
+				}
+			}
+		}
+	})
+}
