@@ -166,7 +166,7 @@ func cmdDemo(args []string, stdout, stderr io.Writer) error {
 	s := b.mon.Summary()
 	b.report(stdout, s)
 	ns, cs := node.Stats(), ctl.Stats()
-	fmt.Fprintf(stdout, "rig:\n  %-24s samples %d, commands applied %d, late %d\n", "node", ns.Samples, ns.Applied, ns.Late)
+	fmt.Fprintf(stdout, "rig:\n  %-24s samples %d, commands applied %d, late %d, sent late by the host (overruns) %d\n", "node", ns.Samples, ns.Applied, ns.Late, ns.Overruns)
 	fmt.Fprintf(stdout, "  %-24s samples used %d, stale %d\n", "controller", cs.Used, cs.Stale)
 	if s.ExitCode(true) != 0 {
 		return fmt.Errorf("verdict %s: the measured E[eᵀe] and the prediction part", s.Verdict)

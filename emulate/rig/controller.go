@@ -9,6 +9,7 @@ import (
 	"net/netip"
 	"runtime"
 	"sync"
+	"time"
 
 	"gonum.org/v1/gonum/mat"
 
@@ -50,6 +51,7 @@ type Controller struct {
 	cfg    ControllerConfig
 	log    *slog.Logger
 	conn   *net.UDPConn
+	rx     receiver
 	layout Layout
 	hNs    int64
 	cNs    int64
@@ -81,7 +83,7 @@ func NewController(cfg ControllerConfig) (*Controller, error) {
 	if err != nil {
 		return nil, fmt.Errorf("rig controller: %w", err)
 	}
-	return &Controller{cfg: cfg, log: cfg.Logger, conn: conn, layout: layout,
+	return &Controller{cfg: cfg, log: cfg.Logger, conn: conn, rx: newReceiver(conn), layout: layout,
 		hNs: int64(cfg.Loop.Period*1e9 + 0.5), cNs: int64(cfg.Loop.ComputeDelay*1e9 + 0.5)}, nil
 }
 
@@ -98,9 +100,13 @@ func (c *Controller) Stats() ControllerStats {
 }
 
 // Run serves samples until ctx ends, then closes the socket.
+//
+// Shutdown order: ctx ends, the receiver is halted, the serve loop ends
+// within pollEvery, the timer and the socket close.
 func (c *Controller) Run(ctx context.Context) error {
 	w, err := newWaiter()
 	if err != nil {
+		c.rx.close()
 		c.conn.Close()
 		return fmt.Errorf("rig controller: %w", err)
 	}
@@ -110,16 +116,18 @@ func (c *Controller) Run(ctx context.Context) error {
 		case <-ctx.Done():
 		case <-done:
 		}
-		c.conn.Close()
+		c.rx.halt()
 	}()
 	err = c.serveLoop(w)
 	close(done)
 	w.close()
+	c.rx.close()
+	c.conn.Close()
 	return err
 }
 
 // serveLoop is the controller's one goroutine: read, decide, compute,
-// wait, reply; it ends when the socket closes.
+// wait, reply; it ends when the receiver is halted.
 func (c *Controller) serveLoop(w *waiter) error {
 	runtime.LockOSThread()
 	defer runtime.UnlockOSThread()
@@ -132,16 +140,22 @@ func (c *Controller) serveLoop(w *waiter) error {
 	out := make([]byte, 0, 256)
 	last := int64(-1)
 	for {
-		n, src, err := c.conn.ReadFromUDPAddrPort(buf)
+		n, src, err := c.rx.recv(buf)
 		if err != nil {
-			if errors.Is(err, net.ErrClosed) {
+			if errors.Is(err, errStopped) {
 				return nil
 			}
 			c.log.Warn("rig controller: read", "err", err)
+			time.Sleep(10 * time.Millisecond)
 			continue
 		}
 		arrival := Now()
-		k, tk, perr := c.layout.ParseSample(buf[:n], y)
+		var k uint64
+		var tk int64
+		perr := errTruncated
+		if n <= len(buf) {
+			k, tk, perr = c.layout.ParseSample(buf[:n], y)
+		}
 		c.mu.Lock()
 		switch {
 		case perr != nil:

@@ -13,6 +13,7 @@ import (
 	"runtime"
 	"strconv"
 	"sync"
+	"time"
 
 	"rigwire/profiles"
 )
@@ -45,6 +46,10 @@ type NodeStats struct {
 	Late      uint64 // commands arriving h or more after their sample (discarded)
 	Duplicate uint64 // a second command for a period already served (discarded)
 	Malformed uint64 // datagrams that are not commands, or for samples never taken
+	// Overruns are samples sent a quarter period or more after t_k: the
+	// host stalled the node (a loaded machine), and the loop saw extra
+	// delay the profile does not hold.
+	Overruns uint64
 }
 
 // Node is the rig's field side: the plant, its time-driven sensor and its
@@ -66,6 +71,7 @@ type Node struct {
 	cfg    NodeConfig
 	log    *slog.Logger
 	conn   *net.UDPConn
+	rx     receiver
 	layout Layout
 	hNs    int64
 	zero   bool
@@ -120,6 +126,7 @@ func NewNode(cfg NodeConfig) (*Node, error) {
 		y:     make([]float64, p),
 		buf:   make([]byte, 0, 512),
 	}
+	nd.rx = newReceiver(conn)
 	nd.plant.SetState(cfg.Start.X)
 	nd.row = logRow{y: make([]float64, p), u: make([]float64, m), k: -1}
 	if cfg.Log != nil {
@@ -174,10 +181,12 @@ func (nd *Node) Samples() int {
 // period, flushes the sample log and closes the socket.
 //
 // Shutdown order: the ticker stops (after closing the last period), the
-// socket closes, the receive loop ends on net.ErrClosed, the log flushes.
+// receive loop is halted and ends within pollEvery, the socket closes,
+// the log flushes.
 func (nd *Node) Run(ctx context.Context) error {
 	w, err := newWaiter()
 	if err != nil {
+		nd.rx.close()
 		nd.conn.Close()
 		return fmt.Errorf("rig node: %w", err)
 	}
@@ -190,8 +199,10 @@ func (nd *Node) Run(ctx context.Context) error {
 	recv.Add(1)
 	go func() { defer recv.Done(); nd.receiveLoop() }()
 	nd.tickLoop(ctx, w)
-	nd.conn.Close()
+	nd.rx.halt()
 	recv.Wait()
+	nd.rx.close()
+	nd.conn.Close()
 	if nd.slog != nil {
 		if err := nd.slog.flush(); err != nil {
 			return fmt.Errorf("sample log: %w", err)
@@ -243,6 +254,9 @@ func (nd *Node) catchUpLocked(now int64) {
 			clear(nd.u)
 		}
 		nd.plant.Sample(nd.y)
+		if now-tk >= nd.hNs/4 {
+			nd.stats.Overruns++
+		}
 		nd.buf = nd.layout.AppendSample(nd.buf[:0], uint64(k), tk, nd.y)
 		if _, err := nd.conn.WriteToUDPAddrPort(nd.buf, nd.cfg.Relay); err != nil {
 			nd.stats.SendError++
@@ -267,21 +281,28 @@ func (nd *Node) closeRowLocked() {
 	nd.row.k = -1
 }
 
-// receiveLoop reads commands until the socket closes.
+// receiveLoop reads commands until the receiver is halted.
 func (nd *Node) receiveLoop() {
+	runtime.LockOSThread()
+	defer runtime.UnlockOSThread()
 	buf := make([]byte, 2048)
 	_, m, _, _ := nd.cfg.Loop.Dims()
 	u := make([]float64, m)
 	for {
-		n, _, err := nd.conn.ReadFromUDPAddrPort(buf)
+		n, _, err := nd.rx.recv(buf)
 		if err != nil {
-			if errors.Is(err, net.ErrClosed) {
+			if errors.Is(err, errStopped) {
 				return
 			}
 			nd.log.Warn("rig node: read", "err", err)
+			time.Sleep(10 * time.Millisecond)
 			continue
 		}
-		k, _, perr := ParseCommand(buf[:n], u)
+		var k uint64
+		perr := errTruncated
+		if n <= len(buf) {
+			k, _, perr = ParseCommand(buf[:n], u)
+		}
 		nd.mu.Lock()
 		now := max(Now(), nd.xt)
 		nd.catchUpLocked(now)

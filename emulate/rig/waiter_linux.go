@@ -18,7 +18,7 @@ type waiter struct {
 	buf [8]byte
 }
 
-const spinNs = 60_000
+const spinNs = 100_000
 
 func newWaiter() (*waiter, error) {
 	fd, err := unix.TimerfdCreate(unix.CLOCK_MONOTONIC, unix.TFD_CLOEXEC)
