@@ -1,0 +1,58 @@
+package main
+
+import (
+	"strings"
+	"testing"
+
+	"rigwire/cmd/monitor/engine"
+)
+
+// Bad flags and loop files end `monitor run` with exit 2 and a message
+// naming the flag or the file and what was expected.
+func TestRunBadInput(t *testing.T) {
+	cases := []struct {
+		name string
+		args []string
+		want string
+	}{
+		{"no loop", []string{"--listen", "127.0.0.1:0"}, "--loop: required"},
+		{"no listen", []string{"--loop", "examples/conveyor.yaml"}, "--listen: required"},
+		{"negative tolerance", []string{"--loop", "x.yaml", "--listen", "127.0.0.1:0", "--tolerance", "-0.1"}, "--tolerance: want a number ≥ 0"},
+		{"bad duration", []string{"--loop", "x.yaml", "--listen", "127.0.0.1:0", "--duration", "soon"}, `want a duration ≥ 0`},
+		{"bad window", []string{"--loop", "x.yaml", "--listen", "127.0.0.1:0", "--windows", "1m,-3s"}, `--windows: want comma-separated durations > 0`},
+		{"max datagram", []string{"--loop", "x.yaml", "--listen", "127.0.0.1:0", "--max-datagram", "70000"}, "--max-datagram: want 1…65535 bytes, got 70000"},
+		{"missing file", []string{"--loop", "testdata/none.yaml", "--listen", "127.0.0.1:0"}, "testdata/none.yaml"},
+		{"no decode section", []string{"--loop", "examples/conveyor.yaml", "--listen", "127.0.0.1:0", "--metrics", "off"},
+			"examples/conveyor.yaml: decode: missing"},
+		{"window shorter than two periods", []string{"--loop", "../../tests/examples/monitor-text.yaml", "--listen", "127.0.0.1:0",
+			"--metrics", "off", "--windows", "25ms", "--no-margin"}, "window 25ms: want at least two periods"},
+		{"stray argument", []string{"loop.yaml"}, `unexpected argument "loop.yaml"`},
+	}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			code, _, errOut := runMonitor(append([]string{"run"}, c.args...)...)
+			if code != 2 {
+				t.Errorf("exit %d, want 2: %s", code, errOut)
+			}
+			if !strings.Contains(errOut, c.want) {
+				t.Errorf("stderr %q lacks %q", errOut, c.want)
+			}
+		})
+	}
+}
+
+// The exit codes of --strict, as runUsage documents them.
+func TestRunExitCodes(t *testing.T) {
+	for verdict, want := range map[string]int{
+		engine.VerdictAgree: 0, engine.VerdictAbove: 3, engine.VerdictBelow: 4,
+		engine.VerdictNoSamples: 5, engine.VerdictUnstable: 6,
+	} {
+		s := &engine.Summary{Verdict: verdict}
+		if got := s.ExitCode(true); got != want {
+			t.Errorf("%s: strict exit %d, want %d", verdict, got, want)
+		}
+		if got := s.ExitCode(false); got != 0 {
+			t.Errorf("%s: exit %d without --strict, want 0", verdict, got)
+		}
+	}
+}
