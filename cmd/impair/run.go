@@ -185,4 +185,3 @@ func orDefault(a addrFlag, def string) string {
 	}
 	return def
 }
-
