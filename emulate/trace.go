@@ -4,7 +4,9 @@ import "rigwire/profiles"
 
 // replayCursor walks a recorded trace's fates in order, one per datagram:
 // the relay's side of a direction that replays a trace
-// (profiles.Replay). It is guarded by its direction's mutex.
+// (profiles.Replay). It is guarded by its direction's mutex. A profile
+// reload (SIGHUP) sets a new channel and so starts the trace again from
+// its first probe.
 type replayCursor struct {
 	r *profiles.Replay
 	i int // next fate
