@@ -23,12 +23,7 @@ import (
 )
 
 // safetyCaution is printed before any datagram is relayed.
-const safetyCaution = `SAFETY: the relay will delay and drop the commands that move your rig.
-  - Keep an emergency stop that does not depend on this link, within reach.
-  - Make the first runs with the actuator disabled, or at low gains and speeds.
-  - Keep guards in place and people out of the machine's reach.
-  - Local machine-safety rules and qualified personnel have the last word.
-`
+const safetyCaution = "SAFETY: the relay will delay and drop the commands that move your rig.\n" + emulate.SafetyCautions
 
 func cmdRun(args []string, stdout, stderr io.Writer) int {
 	fs := flag.NewFlagSet("impair run", flag.ContinueOnError)

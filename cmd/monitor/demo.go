@@ -12,6 +12,7 @@ import (
 	"sync"
 	"time"
 
+	"rigwire/emulate"
 	"rigwire/emulate/rig"
 	"rigwire/profiles"
 )
@@ -23,13 +24,7 @@ import (
 var demoFiles embed.FS
 
 // demoCaution is printed before the demo starts.
-const demoCaution = `SAFETY: the demo is a simulation — nothing moves. Before you put a real rig
-behind the relay:
-  - keep an emergency stop that does not depend on the emulated link, within reach;
-  - make the first runs with the actuator disabled, or at low gains and speeds;
-  - keep guards in place and people out of the machine's reach;
-  - local machine-safety rules and qualified personnel have the last word.
-`
+const demoCaution = "SAFETY: the demo is a simulation — nothing moves. Before you put a real rig\nbehind the relay:\n" + emulate.SafetyCautions
 
 // cmdDemo runs the simulated rig node, the relay (emulate engine, in
 // process), the rig controller and the monitor (engine, fed in process by

@@ -10,16 +10,12 @@ import (
 	"os"
 	"time"
 
+	"rigwire/emulate"
 	"rigwire/profiles"
 )
 
 // serveCaution is printed before serve relays the rig's datagrams.
-const serveCaution = `SAFETY: the relay will delay and drop the commands that move your rig.
-  - Keep an emergency stop that does not depend on this link, within reach.
-  - Make the first runs with the actuator disabled, or at low gains and speeds.
-  - Keep guards in place and people out of the machine's reach.
-  - Local machine-safety rules and qualified personnel have the last word.
-`
+const serveCaution = "SAFETY: the relay will delay and drop the commands that move your rig.\n" + emulate.SafetyCautions
 
 // cmdServe is the relay and the monitor of one rig in one process: the
 // relay engine impairs the rig's link with the profile and hands each

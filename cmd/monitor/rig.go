@@ -12,18 +12,13 @@ import (
 	"os/signal"
 	"syscall"
 
+	"rigwire/emulate"
 	"rigwire/emulate/rig"
 	"rigwire/profiles"
 )
 
 // rigCaution is printed by the simulated rig's commands before they start.
-const rigCaution = `SAFETY: this is a simulated rig — no hardware moves. Before you point the
-same profile at a real rig:
-  - keep an emergency stop that does not depend on the emulated link, within reach;
-  - make the first runs with the actuator disabled, or at low gains and speeds;
-  - keep guards in place and people out of the machine's reach;
-  - local machine-safety rules and qualified personnel have the last word.
-`
+const rigCaution = "SAFETY: this is a simulated rig — no hardware moves. Before you point the\nsame profile at a real rig:\n" + emulate.SafetyCautions
 
 const rigUsage = `usage: monitor rig node --loop LOOP --relay HOST:PORT [--listen HOST:PORT] [--log FILE] [--duration D] [--seed S] [--start steady|rest]
        monitor rig controller --loop LOOP --listen HOST:PORT [--start steady|rest]

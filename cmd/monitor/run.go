@@ -21,18 +21,14 @@ import (
 	"github.com/prometheus/client_golang/prometheus/promhttp"
 
 	"rigwire/cmd/monitor/engine"
+	"rigwire/emulate"
 	"rigwire/estimate"
 	"rigwire/profiles"
 )
 
 // runCaution is printed when `monitor run` starts (same family as the
 // relay's caution).
-const runCaution = `SAFETY: the monitor only watches; it does not stop the rig.
-  - Keep an emergency stop that does not depend on the network or on this monitor, within reach.
-  - Make the first runs with the actuator disabled, or at low gains and speeds.
-  - Keep guards in place and people out of the machine's reach.
-  - Local machine-safety rules and qualified personnel have the last word.
-`
+const runCaution = "SAFETY: the monitor only watches; it does not stop the rig.\n" + emulate.SafetyCautions
 
 const runUsage = `usage: monitor run --loop LOOP.yaml --listen HOST:PORT [--metrics HOST:PORT] [--duration D]
                    [--summary FILE] [--tolerance X] [--warmup D] [--strict]
