@@ -2,13 +2,10 @@ package main
 
 import (
 	"context"
-	"errors"
 	"flag"
 	"fmt"
 	"io"
 	"log/slog"
-	"net"
-	"net/http"
 	"os"
 	"os/signal"
 	"syscall"
@@ -16,8 +13,8 @@ import (
 
 	"github.com/prometheus/client_golang/prometheus"
 	"github.com/prometheus/client_golang/prometheus/collectors"
-	"github.com/prometheus/client_golang/prometheus/promhttp"
 
+	"rigwire/cmd/internal/metricsrv"
 	"rigwire/emulate"
 	"rigwire/profiles"
 )
@@ -108,22 +105,11 @@ func cmdRun(args []string, stdout, stderr io.Writer) int {
 		return 1
 	}
 
-	var srv *http.Server
-	if *metricsAddr != "off" {
-		ln, err := net.Listen("tcp", *metricsAddr)
-		if err != nil {
-			return fail("--metrics %s: %v", *metricsAddr, err)
-		}
-		mux := http.NewServeMux()
-		mux.Handle("/metrics", promhttp.HandlerFor(reg, promhttp.HandlerOpts{Registry: reg}))
-		srv = &http.Server{Handler: mux, ReadHeaderTimeout: 5 * time.Second}
-		go func() {
-			if err := srv.Serve(ln); err != nil && !errors.Is(err, http.ErrServerClosed) {
-				log.Error("metrics server", "err", err)
-			}
-		}()
-		log.Info("metrics", "url", "http://"+ln.Addr().String()+"/metrics")
+	srv, err := metricsrv.Start(*metricsAddr, reg, log)
+	if err != nil {
+		return fail("--metrics %s: %v", *metricsAddr, err)
 	}
+	defer srv.Close()
 
 	fmt.Fprint(stderr, safetyCaution)
 	log.Info("relaying",
@@ -161,11 +147,7 @@ func cmdRun(args []string, stdout, stderr io.Writer) int {
 		}
 	}()
 	runErr := relay.Run(ctx, abort)
-	if srv != nil {
-		shutCtx, done := context.WithTimeout(context.Background(), time.Second)
-		_ = srv.Shutdown(shutCtx)
-		done()
-	}
+	srv.Close()
 	if runErr != nil {
 		log.Error("relay", "err", runErr)
 		return 1

@@ -10,7 +10,6 @@ import (
 	"log/slog"
 	"math"
 	"net"
-	"net/http"
 	"os"
 	"path/filepath"
 	"strings"
@@ -18,8 +17,8 @@ import (
 
 	"github.com/prometheus/client_golang/prometheus"
 	"github.com/prometheus/client_golang/prometheus/collectors"
-	"github.com/prometheus/client_golang/prometheus/promhttp"
 
+	"rigwire/cmd/internal/metricsrv"
 	"rigwire/cmd/monitor/engine"
 	"rigwire/emulate"
 	"rigwire/estimate"
@@ -133,23 +132,12 @@ func cmdRun(args []string, stdout, stderr io.Writer) error {
 		conn.Close()
 		return err
 	}
-	var srv *http.Server
-	if *metricsAddr != "off" {
-		ln, err := net.Listen("tcp", *metricsAddr)
-		if err != nil {
-			conn.Close()
-			return usagef("--metrics %s: %v", *metricsAddr, err)
-		}
-		mux := http.NewServeMux()
-		mux.Handle("/metrics", promhttp.HandlerFor(reg, promhttp.HandlerOpts{Registry: reg}))
-		srv = &http.Server{Handler: mux, ReadHeaderTimeout: 5 * time.Second}
-		go func() {
-			if err := srv.Serve(ln); err != nil && !errors.Is(err, http.ErrServerClosed) {
-				log.Error("metrics server", "err", err)
-			}
-		}()
-		log.Info("metrics", "url", "http://"+ln.Addr().String()+"/metrics")
+	srv, err := metricsrv.Start(*metricsAddr, reg, log)
+	if err != nil {
+		conn.Close()
+		return usagef("--metrics %s: %v", *metricsAddr, err)
 	}
+	defer srv.Close()
 
 	fmt.Fprint(stderr, runCaution)
 	printPrediction(stderr, pred)
@@ -175,11 +163,7 @@ func cmdRun(args []string, stdout, stderr io.Writer) error {
 	serveErr := mon.Serve(ctx, conn)
 	cancel()
 	<-progDone
-	if srv != nil {
-		shut, done := context.WithTimeout(context.Background(), time.Second)
-		_ = srv.Shutdown(shut)
-		done()
-	}
+	srv.Close()
 	sum := mon.Summary()
 	if err := writeRunSummary(*summaryPath, sum, stdout); err != nil {
 		return err
