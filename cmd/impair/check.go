@@ -45,19 +45,12 @@ func cmdCheck(args []string, stdout, stderr io.Writer) int {
 		return nil
 	})
 	// Flags may come before or after the profile.
-	var paths []string
-	for {
-		if err := fs.Parse(args); err != nil {
-			if errors.Is(err, flag.ErrHelp) {
-				return 0
-			}
-			return 2
+	paths, err := parseInterspersed(fs, args)
+	if err != nil {
+		if errors.Is(err, flag.ErrHelp) {
+			return 0
 		}
-		if fs.NArg() == 0 {
-			break
-		}
-		paths = append(paths, fs.Arg(0))
-		args = fs.Args()[1:]
+		return 2
 	}
 	if len(paths) != 1 {
 		fmt.Fprintf(stderr, "impair check: want one profile, got %d\n%s", len(paths), checkUsage)

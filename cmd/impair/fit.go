@@ -71,19 +71,12 @@ func cmdFit(args []string, stdout, stderr io.Writer) int {
 	fs.StringVar(&f.out, "out", "", "write the profile here")
 	fs.StringVar(&f.name, "name", "", "the profile's name (default: fitted-<trace>)")
 	fs.StringVar(&f.loop, "loop", "", "also predict this loop under the fitted profile")
-	var paths []string
-	for {
-		if err := fs.Parse(args); err != nil {
-			if errors.Is(err, flag.ErrHelp) {
-				return 0
-			}
-			return 2
+	paths, err := parseInterspersed(fs, args)
+	if err != nil {
+		if errors.Is(err, flag.ErrHelp) {
+			return 0
 		}
-		if fs.NArg() == 0 {
-			break
-		}
-		paths = append(paths, fs.Arg(0))
-		args = fs.Args()[1:]
+		return 2
 	}
 	if len(paths) != 1 {
 		fmt.Fprintf(stderr, "impair fit: want one trace file, got %d\n%s", len(paths), fitUsage)

@@ -1,0 +1,19 @@
+package main
+
+import "flag"
+
+// parseInterspersed parses args with fs, allowing flags before and after
+// the positional arguments, which it returns in order.
+func parseInterspersed(fs *flag.FlagSet, args []string) ([]string, error) {
+	var paths []string
+	for {
+		if err := fs.Parse(args); err != nil {
+			return nil, err
+		}
+		if fs.NArg() == 0 {
+			return paths, nil
+		}
+		paths = append(paths, fs.Arg(0))
+		args = fs.Args()[1:]
+	}
+}
