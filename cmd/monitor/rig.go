@@ -129,23 +129,7 @@ func cmdRigNode(args []string, stderr io.Writer) error {
 	fs.Var(&dur, "duration", "run this long, then stop (default: until SIGINT/SIGTERM)")
 	seed := fs.Uint64("seed", 1, "seed of the process and sensor noise")
 	start := fs.String("start", "steady", "where the loop begins: steady (the predicted mean) or rest")
-	if err := fs.Parse(args); err != nil {
-		return parseErr(err)
-	}
-	switch {
-	case fs.NArg() > 0:
-		return usagef("unexpected argument %q", fs.Arg(0))
-	case *loopPath == "":
-		return usagef("--loop: required")
-	case !relay.set:
-		return usagef("--relay: required")
-	}
-	log := slog.New(slog.NewTextHandler(stderr, nil))
-	loop, err := profiles.LoadLoop(*loopPath)
-	if err != nil {
-		return err
-	}
-	st, err := rigStart(loop, *start, log)
+	loop, st, log, err := rigSetup(fs, args, loopPath, start, "relay", &relay, stderr)
 	if err != nil {
 		return err
 	}
@@ -191,23 +175,7 @@ func cmdRigController(args []string, stderr io.Writer) error {
 	var listen apFlag
 	fs.Var(&listen, "listen", "`HOST:PORT` where samples arrive (required)")
 	start := fs.String("start", "steady", "controller state at start: steady (the predicted mean) or rest")
-	if err := fs.Parse(args); err != nil {
-		return parseErr(err)
-	}
-	switch {
-	case fs.NArg() > 0:
-		return usagef("unexpected argument %q", fs.Arg(0))
-	case *loopPath == "":
-		return usagef("--loop: required")
-	case !listen.set:
-		return usagef("--listen: required")
-	}
-	log := slog.New(slog.NewTextHandler(stderr, nil))
-	loop, err := profiles.LoadLoop(*loopPath)
-	if err != nil {
-		return err
-	}
-	st, err := rigStart(loop, *start, log)
+	loop, st, log, err := rigSetup(fs, args, loopPath, start, "listen", &listen, stderr)
 	if err != nil {
 		return err
 	}
@@ -227,6 +195,31 @@ func cmdRigController(args []string, stderr io.Writer) error {
 	log.Info("rig controller stopped", "used", s.Used, "stale", s.Stale, "duplicate", s.Duplicate,
 		"malformed", s.Malformed, "send_errors", s.SendError)
 	return nil
+}
+
+// rigSetup parses a rig command's flags, checks the ones every rig command
+// needs (--loop and the command's required address, named addrName), and
+// loads the loop and its start point.
+func rigSetup(fs *flag.FlagSet, args []string, loopPath, start *string, addrName string, addr *apFlag, stderr io.Writer) (*profiles.Loop, rig.Start, *slog.Logger, error) {
+	var st rig.Start
+	if err := fs.Parse(args); err != nil {
+		return nil, st, nil, parseErr(err)
+	}
+	switch {
+	case fs.NArg() > 0:
+		return nil, st, nil, usagef("unexpected argument %q", fs.Arg(0))
+	case *loopPath == "":
+		return nil, st, nil, usagef("--loop: required")
+	case !addr.set:
+		return nil, st, nil, usagef("--%s: required", addrName)
+	}
+	log := slog.New(slog.NewTextHandler(stderr, nil))
+	loop, err := profiles.LoadLoop(*loopPath)
+	if err != nil {
+		return nil, st, nil, err
+	}
+	st, err = rigStart(loop, *start, log)
+	return loop, st, log, err
 }
 
 // parseErr turns a flag parse error into a usage error (help is not one).
