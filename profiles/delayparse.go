@@ -277,17 +277,9 @@ func buildEmpirical(k map[string]Field, dir string, _ int) (Delay, error) {
 		if err != nil {
 			return nil, err
 		}
-		path := name
-		if !filepath.IsAbs(path) && dir != "" {
-			path = filepath.Join(dir, path)
-		}
-		fh, err := os.Open(path)
+		fh, err := openRelative(ff, name, dir)
 		if err != nil {
-			var pe *fs.PathError
-			if errors.As(err, &pe) {
-				err = pe.Err
-			}
-			return nil, ff.Errorf("cannot open %q: %v", name, err)
+			return nil, err
 		}
 		defer fh.Close()
 		if samples, err = ReadSamples(name, fh); err != nil {
@@ -333,4 +325,22 @@ func buildMixture(k map[string]Field, dir string, depth int) (Delay, error) {
 		return nil, pf.Errorf("want weights ≥ 0, not all 0")
 	}
 	return NewMixture(weights, parts)
+}
+
+// openRelative opens the file a profile key names, its path relative to
+// the profile's directory dir; an error is positioned at the key.
+func openRelative(ff Field, name, dir string) (*os.File, error) {
+	path := name
+	if !filepath.IsAbs(path) && dir != "" {
+		path = filepath.Join(dir, path)
+	}
+	fh, err := os.Open(path)
+	if err != nil {
+		var pe *fs.PathError
+		if errors.As(err, &pe) {
+			err = pe.Err
+		}
+		return nil, ff.Errorf("cannot open %q: %v", name, err)
+	}
+	return fh, nil
 }

@@ -1,13 +1,9 @@
 package profiles
 
 import (
-	"errors"
 	"fmt"
-	"io/fs"
 	"math"
 	"math/rand/v2"
-	"os"
-	"path/filepath"
 	"strconv"
 )
 
@@ -142,17 +138,9 @@ func parseTraceChannel(f Field, others map[string]Field, dir string) (*Channel, 
 			return nil, g.Errorf("want loop, stop or clean, got %s", g.Got())
 		}
 	}
-	path := name
-	if !filepath.IsAbs(path) && dir != "" {
-		path = filepath.Join(dir, path)
-	}
-	fh, err := os.Open(path)
+	fh, err := openRelative(ff, name, dir)
 	if err != nil {
-		var pe *fs.PathError
-		if errors.As(err, &pe) {
-			err = pe.Err
-		}
-		return nil, ff.Errorf("cannot open %q: %v", name, err)
+		return nil, err
 	}
 	defer fh.Close()
 	tr, err := ReadTrace(fh, name)
