@@ -1,0 +1,110 @@
+package profiles
+
+import "time"
+
+// Scenario is a validated scenario file: a base profile and a sequence of
+// phases the relay applies one after the other (LoadScenario builds it).
+type Scenario struct {
+	// File is the path the scenario was read from.
+	File string
+	Name string
+	// Base is the profile phases without their own profile start from.
+	Base *Profile
+	// Settle is the default time after each phase change that the monitor
+	// does not judge (key settle; default 0).
+	Settle time.Duration
+	// RampStep is how often a ramp's value is re-applied (key ramp_step;
+	// default 1s).
+	RampStep time.Duration
+	Phases   []Phase
+}
+
+// Phase is one phase of a scenario.
+type Phase struct {
+	Index    int // 0-based position in Scenario.Phases
+	Name     string
+	Line     int // line of the phase in the scenario file
+	Duration time.Duration
+	// Settle is this phase's settling time (the scenario's unless set).
+	Settle time.Duration
+	// Ramps change numeric profile parameters linearly from From (at the
+	// phase start) to To (at its end).
+	Ramps []Ramp
+	Check Check
+	// HasPredictWith is true when the phase predicts with a profile other
+	// than the one the relay applies (key predict_with).
+	HasPredictWith bool
+}
+
+// Ramp is one linearly ramped parameter: Key is its dotted path in the
+// profile ("sensor_to_controller.loss",
+// "controller_to_actuator.states.fading.mean_dwell",
+// "sensor_to_controller.delay.median"); values are seconds for durations.
+type Ramp struct {
+	Key      string
+	From, To float64
+	Line     int
+}
+
+// Check is a phase's pass criterion. With Tolerance set the phase passes
+// when the prediction lies in the measured interval widened by Tolerance
+// of its bounds (the monitor's verdict "agree"); with MaxSecondMoment set
+// it passes when the measured E[eᵀe] is at most that bound; with both,
+// both must hold. MinSamples (default 20) judged samples are needed.
+type Check struct {
+	Tolerance       *float64
+	MaxSecondMoment *float64
+	MinSamples      int
+}
+
+// ScenarioStep is one change the relay makes while playing a scenario:
+// at At after the scenario's start it applies Profile; the monitor
+// predicts with Predict (Profile unless the phase says predict_with).
+// Steps are in time order; each phase starts with a step with Frac 0, and
+// a ramp adds one step every RampStep with Frac the fraction of the phase
+// elapsed. The last step of the list is followed by the end of the
+// scenario at Scenario.Total().
+type ScenarioStep struct {
+	At      time.Duration
+	Phase   int
+	Frac    float64
+	Profile *Profile
+	Predict *Profile
+}
+
+// TripAction is what the relay does when the safety trip fires.
+type TripAction int
+
+const (
+	// TripClean: both directions forward at once, without loss or delay.
+	TripClean TripAction = iota
+	// TripStopCommands: commands (controller → actuator) are no longer
+	// forwarded, including those in flight; sensor datagrams pass clean.
+	TripStopCommands
+)
+
+// String is the loop file's spelling of the action (clean,
+// stop_commands).
+func (a TripAction) String() string {
+	if a == TripStopCommands {
+		return "stop_commands"
+	}
+	return "clean"
+}
+
+// Trip is the loop's safety trip (loop file key trip). A bound that is
+// zero is not set. Enabled is true when at least one bound is set.
+type Trip struct {
+	Enabled bool
+	// MaxAbsError: trip when any |e_i| of one sample exceeds it.
+	MaxAbsError float64
+	// MaxSecondMoment: trip when the mean of eᵀe over the last Window
+	// exceeds it (only once Window is full).
+	MaxSecondMoment float64
+	// MaxRatio: trip when that windowed mean over the predicted E[eᵀe]
+	// exceeds it (only when the prediction is mean-square stable).
+	MaxRatio float64
+	// Window for MaxSecondMoment and MaxRatio (default 1s), seconds.
+	Window float64
+	Action TripAction
+}
