@@ -37,6 +37,9 @@ type Loop struct {
 	// Format is "" when the loop file has no decode section (enough for
 	// predict, not for monitor run).
 	Decode Decode
+	// Trip is the safety trip the monitor judges on every sample (key
+	// trip); Trip.Enabled is false when the loop file has none.
+	Trip Trip
 }
 
 // Plant is the continuous-time plant dx = (A x + B u) dt + dw with

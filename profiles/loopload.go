@@ -46,7 +46,7 @@ const psdTolerance = 1e-12
 
 func parseLoop(root Field, dir string) (*Loop, error) {
 	keys, err := root.Mapping("period", "plant", "controller", "setpoint", "compute_delay",
-		"profile", "actuator", "decode")
+		"profile", "actuator", "decode", "trip")
 	if err != nil {
 		return nil, err
 	}
@@ -135,6 +135,11 @@ func parseLoop(root Field, dir string) (*Loop, error) {
 	}
 	if f := keys["decode"]; !f.IsZero() {
 		if err := parseDecode(f, &l.Decode, p); err != nil {
+			return nil, err
+		}
+	}
+	if f := keys["trip"]; !f.IsNull() {
+		if err := parseTrip(f, &l.Trip, l.Period); err != nil {
 			return nil, err
 		}
 	}
