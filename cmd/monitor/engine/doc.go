@@ -21,6 +21,33 @@
 //	s := m.Summary()                    // Summary: the JSON summary of `monitor run` (json tags), with Verdict
 //	code := s.ExitCode(strict)          // 0 unless strict: see ExitCode
 //
+// Soaks, the safety trip and the history:
+//
+//	m.StartPhase(i, name, pred, settle, check) // closes the running phase, starts phase i (fresh estimate;
+//	                                           // samples arriving before now+settle are not judged)
+//	m.UpdatePrediction(pred)            // a ramp's step: later samples compare with pred
+//	m.EndPhases()                       // closes the running phase at the end of the soak
+//	ps := m.Phases()                    // []PhaseResult, judged (the running one: verdict "running")
+//	err = m.SetTrip(loop.Trip, fire)    // fire(TripEvent) once, from Feed, outside the monitor's lock
+//	ev := m.Tripped()                   // *TripEvent, nil until it fires
+//	h := m.History()                    // []Point, at most 4096, every Options.HistoryEvery (doubling)
+//	code = s.SoakExitCode()             // or s.TripExitCode()
+//
+// A phase's predicted value is the mean of the predicted E[eᵀe] in force
+// at each of its judged samples: a quasi-static approximation for ramps
+// slow against the loop's settling time. The run's own estimate and
+// verdict always compare with the monitor's prediction; the prediction in
+// force (StartPhase, UpdatePrediction) is what the phases, the trip's
+// ratio and the history use.
+//
+// # Exit codes
+//
+// ExitCode(strict): 0 without strict; with strict 0 agree, 3 above,
+// 4 below, 5 no samples, 6 unstable prediction. SoakExitCode: 8 when the
+// safety trip fired, else 7 when a phase failed its check, else 0.
+// TripExitCode: 8 when the trip fired, else 0. 1 and 2 stay the
+// commands' error and usage codes.
+//
 // pred may be nil: New then computes estimate.Predict itself.
 //
 // # Metrics
@@ -52,6 +79,12 @@
 //	rigwire_monitor_warmup_skipped_samples_total
 //	rigwire_monitor_decode_failures_total{reason}        too_short, not_a_number, not_finite,
 //	                                                     bad_sequence, oversized
+//	rigwire_monitor_phase{index,phase}                   1 for the running soak phase, 0 for the others
+//	rigwire_monitor_phase_error_second_moment{phase}     measured over the phase's judged samples
+//	rigwire_monitor_phase_predicted_error_second_moment{phase}  mean prediction in force (NaN unstable)
+//	rigwire_monitor_phase_passed{phase}                  1 pass, 0 fail; absent while running
+//	rigwire_monitor_trip_active                          0, or 1 once the safety trip fired (latched)
+//	rigwire_monitor_trips_total{reason}                  abs_error, second_moment, ratio (0 or 1)
 //
 // Every datagram read is exactly one of: a sample, a warm-up skip, a
 // duplicate or stale sample, a decode failure.

@@ -28,6 +28,10 @@ type Options struct {
 	Level float64
 	// Now is the clock (default time.Now), for tests.
 	Now func() time.Time
+	// HistoryEvery is the spacing of the history points (default 1 s),
+	// converted to ⌈HistoryEvery/period⌉ estimated samples; it doubles
+	// each time the history fills (see History).
+	HistoryEvery time.Duration
 }
 
 // DefaultMaxDatagram is the default longest datagram decoded, bytes.
@@ -59,6 +63,17 @@ type Monitor struct {
 	first     time.Time // arrival of the first estimated sample
 	last      time.Time // arrival of the latest datagram
 	meanBuf   []float64
+	e         []float64 // e = setpoint − y of the latest sample
+
+	// cur is the prediction in force (UpdatePrediction); curPr its
+	// E[eᵀe], NaN when not mean-square stable.
+	cur   *estimate.Prediction
+	curPr float64
+	// phases are the phases started so far; phase the running one.
+	phases []*phase
+	phase  *phase
+	trip   tripState
+	hist   history
 }
 
 // reasonIndex maps each decode failure to its counter.
@@ -95,6 +110,12 @@ func New(loop *profiles.Loop, pred *estimate.Prediction, opts Options) (*Monitor
 	if opts.Now == nil {
 		opts.Now = time.Now
 	}
+	if opts.HistoryEvery < 0 {
+		return nil, fmt.Errorf("history spacing: want a duration ≥ 0, got %s", opts.HistoryEvery)
+	}
+	if opts.HistoryEvery == 0 {
+		opts.HistoryEvery = DefaultHistoryEvery
+	}
 	var counts []int
 	for _, w := range opts.Windows {
 		n := int(math.Round(w.Seconds() / loop.Period))
@@ -120,7 +141,10 @@ func New(loop *profiles.Loop, pred *estimate.Prediction, opts Options) (*Monitor
 		loop: loop, pred: pred, opts: opts, now: opts.Now, windows: opts.Windows,
 		warmupN: int64(math.Floor(opts.Warmup.Seconds()/loop.Period + 1e-9)), // 1e-9: 0.2 s / 20 ms is 10, not 9.999…
 		on:      on, failures: make([]int64, len(profiles.DecodeReasons)), y: make([]float64, len(loop.Setpoint)), meanBuf: make([]float64, len(loop.Setpoint)),
+		e: make([]float64, len(loop.Setpoint)),
 	}
+	m.cur, m.curPr = pred, predictedOf(pred)
+	m.hist.init(int64(math.Ceil(opts.HistoryEvery.Seconds()/loop.Period - 1e-9)))
 	m.started = m.now()
 	return m, nil
 }
@@ -137,39 +161,63 @@ func (m *Monitor) MaxDatagram() int { return m.opts.MaxDatagram }
 // Feed takes one sensor datagram that arrived at time at. It decodes the
 // outputs, checks the sequence number and updates the estimators; a
 // datagram that does not decode is counted by its reason. It does not
-// retain payload, does not allocate and is safe from any goroutine (it
-// fits emulate.Config.TapFunc).
+// retain payload, does not allocate (unless the safety trip fires) and is
+// safe from any goroutine (it fits emulate.Config.TapFunc). When the trip
+// fires, Feed calls its fire function after releasing the monitor's lock.
 func (m *Monitor) Feed(payload []byte, at time.Time) {
+	if ev, fire := m.feed(payload, at); ev != nil && fire != nil {
+		fire(*ev)
+	}
+}
+
+// feed is Feed under the lock; it returns the trip event when this sample
+// fired the trip.
+func (m *Monitor) feed(payload []byte, at time.Time) (*TripEvent, func(TripEvent)) {
 	m.mu.Lock()
 	defer m.mu.Unlock()
 	m.datagrams++
 	m.last = at
 	if len(payload) > m.opts.MaxDatagram {
 		m.failures[reasonIndex[profiles.ErrOversized]]++
-		return
+		return nil, nil
 	}
 	seq, hasSeq, err := m.loop.Decode.Output(payload, m.y)
 	if err != nil {
 		if de, ok := err.(*profiles.DecodeError); ok {
 			m.failures[reasonIndex[de]]++
 		}
-		return
+		return nil, nil
 	}
 	if hasSeq {
 		switch m.seq.Observe(seq) {
 		case estimate.SeqDuplicate, estimate.SeqStale:
-			return
+			return nil, nil
 		}
 	}
 	m.decoded++
+	x := 0.0
+	for i, r := range m.loop.Setpoint {
+		m.e[i] = r - m.y[i]
+		x += m.e[i] * m.e[i]
+	}
+	// Safety does not wait for the warm-up or a phase's settling.
+	var ev *TripEvent
+	if m.trip.armed && m.trip.event == nil {
+		ev = m.checkTrip(x, seq, hasSeq, at)
+	}
 	if m.decoded <= m.warmupN {
 		m.skipped++
-		return
+		return ev, m.trip.fire
 	}
 	if m.on.Samples() == 0 {
 		m.first = at
 	}
-	m.on.Add(m.y)
+	m.on.AddError(m.e)
+	if p := m.phase; p != nil {
+		p.add(m.e, at, m.curPr)
+	}
+	m.hist.tick(m, at)
+	return ev, m.trip.fire
 }
 
 // WarmupSamples is the number of decoded samples skipped at the start.

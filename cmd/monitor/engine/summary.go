@@ -43,6 +43,36 @@ func (s *Summary) ExitCode(strict bool) int {
 	return exitCodes[s.Verdict]
 }
 
+// Exit codes of the safety trip and of a soak's phases.
+const (
+	// ExitPhaseFailed: a soak phase's check failed.
+	ExitPhaseFailed = 7
+	// ExitTripped: the safety trip fired.
+	ExitTripped = 8
+)
+
+// TripExitCode is 8 when the safety trip fired, else 0.
+func (s *Summary) TripExitCode() int {
+	if s.Trip != nil {
+		return ExitTripped
+	}
+	return 0
+}
+
+// SoakExitCode is the exit status of a soak: 8 when the safety trip
+// fired, else 7 when any phase failed its check, else 0.
+func (s *Summary) SoakExitCode() int {
+	if s.Trip != nil {
+		return ExitTripped
+	}
+	for _, p := range s.Phases {
+		if p.Verdict == PhaseFail {
+			return ExitPhaseFailed
+		}
+	}
+	return 0
+}
+
 // Summary is the JSON summary of `monitor run` (INTERFACES.md keys
 // first). Values that do not exist (no samples yet, unstable prediction)
 // are null.
@@ -80,6 +110,10 @@ type Summary struct {
 	SampledSeconds float64  `json:"sampled_seconds"`
 	Period         float64  `json:"period_seconds"`
 	Windows        []Window `json:"windows"`
+	// Phases are the soak's phases (StartPhase), in order.
+	Phases []PhaseResult `json:"phases,omitempty"`
+	// Trip is the safety trip's event when it fired.
+	Trip *TripEvent `json:"trip,omitempty"`
 }
 
 // Predicted is the prediction in the summary (MODEL.md §5).
@@ -120,11 +154,14 @@ func finites(vs []float64) []*float64 {
 }
 
 // predicted is the predicted E[eᵀe], NaN when not stable.
-func (m *Monitor) predicted() float64 {
-	if m.pred == nil || !m.pred.MeanSquareStable || m.pred.Error == nil {
+func (m *Monitor) predicted() float64 { return predictedOf(m.pred) }
+
+// predictedOf is pred's E[eᵀe], NaN when not mean-square stable.
+func predictedOf(pred *estimate.Prediction) float64 {
+	if pred == nil || !pred.MeanSquareStable || pred.Error == nil {
 		return math.NaN()
 	}
-	return m.pred.Error.SecondMoment
+	return pred.Error.SecondMoment
 }
 
 // verdict places the prediction pr against [lo, hi] widened by tol.
@@ -178,6 +215,11 @@ func (m *Monitor) Summary() *Summary {
 		s.Windows = append(s.Windows, Window{Seconds: w.Seconds(), Samples: ws.Samples,
 			ErrorSecondMoment: finite(ws.SecondMoment), CILow: finite(ws.CILow), CIHigh: finite(ws.CIHigh),
 			Effective: finite(ws.EffectiveSamples)})
+	}
+	s.Phases = m.phaseResults()
+	if ev := m.trip.event; ev != nil {
+		c := *ev
+		s.Trip = &c
 	}
 	return s
 }
