@@ -1,0 +1,247 @@
+// Package report writes a soak run's report as one self-contained HTML file
+// (plots embedded as data: URIs, CSS inline, no scripts, no outside assets)
+// plus the same plots as PNG files to attach to an e-mail.
+//
+// The caller converts its run results into Data; Write does the rest.
+package report
+
+import (
+	"bytes"
+	"encoding/base64"
+	"fmt"
+	"math"
+	"os"
+	"path/filepath"
+	"sort"
+	"strings"
+	"time"
+)
+
+// Data is everything one soak report shows.
+type Data struct {
+	Title    string // e.g. "Soak: conveyor-qualification"
+	Loop     string // loop file path
+	Scenario string // scenario file path
+	Started  time.Time
+	Duration time.Duration
+	Verdict  string // "pass", "fail", "tripped"
+	ExitCode int
+	Notes    []string // free lines (seed, time scale, relay counts…)
+	Phases   []Phase
+	History  []Point
+	Delays   map[string]Histogram // by direction: drawn delays, seconds
+	LossRuns map[string]Histogram // by direction: lengths of runs of consecutive losses
+	Trip     *Trip                // nil when no trip
+}
+
+// Phase is one phase's outcome. Nil pointers mean "no value".
+type Phase struct {
+	Index      int
+	Name       string
+	Start, End float64 // seconds from start
+	Samples    int64
+	Measured   *float64
+	CILow      *float64
+	CIHigh     *float64
+	Predicted  *float64
+	Verdict    string // pass | fail | running
+	Reason     string
+}
+
+// Point is one sample of the online estimate. Nil pointers mean "no value".
+type Point struct {
+	Elapsed   float64 // seconds from start
+	Measured  *float64
+	CILow     *float64
+	CIHigh    *float64
+	Predicted *float64
+	Phase     int // Phase.Index the point belongs to
+}
+
+// Histogram holds bucket upper bounds (increasing; the last may be +Inf) and
+// the NON-cumulative count of each bucket. The first bucket's lower bound is
+// taken as 0 when its upper bound is positive.
+type Histogram struct {
+	Upper  []float64
+	Counts []float64
+}
+
+// Trip describes the loop's safety trip that ended the run.
+type Trip struct {
+	Reason  string
+	Value   float64
+	Bound   float64
+	Elapsed float64 // seconds from start
+	Phase   string
+	Action  string
+}
+
+// File names Write uses inside dir.
+const (
+	HTMLName         = "report.html"
+	SecondMomentName = "second-moment.png"
+	RatioName        = "ratio.png"
+	PhasesName       = "phases.png"
+	LossRunsName     = "loss-runs.png"
+)
+
+// DelayName is the PNG file name of a direction's delay histogram; characters
+// other than letters, digits, '-' and '_' become '_'.
+func DelayName(direction string) string {
+	var b strings.Builder
+	for _, r := range direction {
+		switch {
+		case r >= 'a' && r <= 'z', r >= 'A' && r <= 'Z', r >= '0' && r <= '9', r == '-', r == '_':
+			b.WriteRune(r)
+		default:
+			b.WriteByte('_')
+		}
+	}
+	if b.Len() == 0 {
+		b.WriteString("unnamed")
+	}
+	return "delay-" + b.String() + ".png"
+}
+
+// figure is one plot of the report: either a PNG or the reason it is missing.
+type figure struct {
+	File    string // base name of the PNG; empty: HTML-only
+	Title   string
+	Caption string
+	png     []byte
+	NoData  string // non-empty: why the plot was skipped
+}
+
+// Write creates dir if needed and writes dir/report.html and one PNG per plot
+// that has data. It returns the paths written, report.html first. A plot
+// without data is skipped (the HTML says "no data" and why) and a stale PNG
+// of the same fixed name left by an earlier report is removed so that the
+// directory never mixes runs.
+func Write(dir string, d *Data) ([]string, error) {
+	if d == nil {
+		return nil, fmt.Errorf("report: no data to write")
+	}
+	if err := os.MkdirAll(dir, 0o755); err != nil {
+		return nil, fmt.Errorf("report: creating %s: %w", dir, err)
+	}
+	figs := buildFigures(d)
+	var written []string
+	for _, f := range figs {
+		if f.File == "" { // HTML-only placeholder
+			continue
+		}
+		path := filepath.Join(dir, f.File)
+		if f.png == nil {
+			if err := os.Remove(path); err != nil && !os.IsNotExist(err) {
+				return written, fmt.Errorf("report: removing stale %s: %w", path, err)
+			}
+			continue
+		}
+		if err := writeFile(path, f.png); err != nil {
+			return written, err
+		}
+		written = append(written, path)
+	}
+	page, err := renderHTML(d, figs)
+	if err != nil {
+		return written, err
+	}
+	htmlPath := filepath.Join(dir, HTMLName)
+	if err := writeFile(htmlPath, page); err != nil {
+		return written, err
+	}
+	return append([]string{htmlPath}, written...), nil
+}
+
+// writeFile writes through a temporary file and renames it, so a reader
+// never sees half a report.
+func writeFile(path string, b []byte) error {
+	tmp, err := os.CreateTemp(filepath.Dir(path), "."+filepath.Base(path)+".*")
+	if err != nil {
+		return fmt.Errorf("report: writing %s: %w", path, err)
+	}
+	_, werr := tmp.Write(b)
+	cerr := tmp.Close()
+	if werr == nil {
+		werr = cerr
+	}
+	if werr == nil {
+		werr = os.Chmod(tmp.Name(), 0o644)
+	}
+	if werr == nil {
+		werr = os.Rename(tmp.Name(), path)
+	}
+	if werr != nil {
+		os.Remove(tmp.Name())
+		return fmt.Errorf("report: writing %s: %w", path, werr)
+	}
+	return nil
+}
+
+func buildFigures(d *Data) []*figure {
+	figs := []*figure{
+		secondMomentFigure(d),
+		ratioFigure(d),
+		phasesFigure(d),
+	}
+	for _, dir := range sortedKeys(d.Delays) {
+		figs = append(figs, delayFigure(dir, d.Delays[dir]))
+	}
+	if len(d.Delays) == 0 {
+		figs = append(figs, &figure{Title: "Drawn delays", NoData: "no delay histogram was recorded"})
+	}
+	return append(figs, lossRunsFigure(d))
+}
+
+func sortedKeys(m map[string]Histogram) []string {
+	keys := make([]string, 0, len(m))
+	for k := range m {
+		keys = append(keys, k)
+	}
+	sort.Strings(keys)
+	return keys
+}
+
+// val returns *p when it is a finite number.
+func val(p *float64) (float64, bool) {
+	if p == nil || math.IsNaN(*p) || math.IsInf(*p, 0) {
+		return 0, false
+	}
+	return *p, true
+}
+
+func fmtNum(p *float64) string {
+	v, ok := val(p)
+	if !ok {
+		return "—"
+	}
+	return fmt.Sprintf("%.4g", v)
+}
+
+func fmtSeconds(s float64) string {
+	if math.IsNaN(s) || math.IsInf(s, 0) {
+		return "—"
+	}
+	return fmt.Sprintf("%.1f s", s)
+}
+
+// ratio returns measured/predicted when both are finite and predicted ≠ 0.
+func ratio(m, p *float64) (float64, bool) {
+	mv, ok1 := val(m)
+	pv, ok2 := val(p)
+	if !ok1 || !ok2 || pv == 0 {
+		return 0, false
+	}
+	r := mv / pv
+	if math.IsNaN(r) || math.IsInf(r, 0) {
+		return 0, false
+	}
+	return r, true
+}
+
+func dataURI(png []byte) string {
+	var b bytes.Buffer
+	b.WriteString("data:image/png;base64,")
+	b.WriteString(base64.StdEncoding.EncodeToString(png))
+	return b.String()
+}
