@@ -57,9 +57,9 @@ func verdictClass(v string) string {
 func verdictText(v string) string {
 	switch strings.ToLower(v) {
 	case "pass":
-		return "PASS — every phase met its bound"
+		return "PASS"
 	case "fail":
-		return "FAIL — at least one phase missed its bound"
+		return "FAIL — see the phases below"
 	case "tripped":
 		return "TRIPPED — the safety guard ended the run"
 	case "":

@@ -6,6 +6,7 @@ import (
 	"image/color"
 	"math"
 	"sort"
+	"strconv"
 	"strings"
 
 	"gonum.org/v1/plot"
@@ -69,8 +70,50 @@ func newPlot(title, x, y string) *plot.Plot {
 	p.Title.Text = title
 	p.X.Label.Text = x
 	p.Y.Label.Text = y
+	p.X.Tick.Marker = niceTicks{}
+	p.Y.Tick.Marker = niceTicks{}
 	p.Add(plotter.NewGrid())
 	return p
+}
+
+// niceTicks puts about six labelled ticks on steps of 1, 2 or 5 times a
+// power of ten, labelled without trailing zeros.
+type niceTicks struct{}
+
+func (niceTicks) Ticks(lo, hi float64) []plot.Tick {
+	if !(hi > lo) || math.IsInf(hi-lo, 0) {
+		return plot.DefaultTicks{}.Ticks(lo, hi)
+	}
+	raw := (hi - lo) / 6
+	mag := math.Pow(10, math.Floor(math.Log10(raw)))
+	step, minors := 10*mag, 5
+	for _, m := range []struct {
+		f float64
+		n int
+	}{{1, 5}, {2, 4}, {5, 5}} {
+		if m.f*mag >= raw {
+			step, minors = m.f*mag, m.n
+			break
+		}
+	}
+	minor := step / float64(minors)
+	var ticks []plot.Tick
+	first := math.Ceil(lo/minor - 1e-9)
+	for k := first; k*minor <= hi+minor*1e-9; k++ {
+		v := k * minor
+		t := plot.Tick{Value: v}
+		if int64(k)%int64(minors) == 0 {
+			if math.Abs(v) < step*1e-9 {
+				v = 0
+			}
+			t.Label = strconv.FormatFloat(v, 'g', 6, 64)
+		}
+		ticks = append(ticks, t)
+		if len(ticks) > 200 { // cannot happen with finite bounds; stay safe
+			break
+		}
+	}
+	return ticks
 }
 
 // sortedHistory returns the points with a finite time, in time order.
@@ -327,14 +370,14 @@ func secondMomentFigure(d *Data) *figure {
 	if ylo > 0 {
 		ylo = 0 // a second moment: show it from zero
 	}
-	yhi += 0.12 * (yhi - ylo) // room for the phase names
+	yhi += 0.3 * (yhi - ylo) // room for the phase names and the legend
 	if err := addBoundaries(p, boundaries(d, hist, xlo, xhi), ylo, yhi); err != nil {
 		f.NoData = "drawing failed: " + err.Error()
 		return f
 	}
 	p.X.Min, p.X.Max, p.Y.Min, p.Y.Max = xlo, xhi, ylo, yhi
 	p.Legend.Top, p.Legend.Left = true, true
-	p.Legend.YOffs = -vg.Points(12)
+	p.Legend.YOffs = -vg.Points(14)
 	return finish(f, p)
 }
 
@@ -343,7 +386,7 @@ func ratioFigure(d *Data) *figure {
 		File:  RatioName,
 		Title: "Measured over predicted",
 		Caption: "Measured E[eᵀe] divided by the predicted value over the run; " +
-			"1 (grey) means the measurement matches the prediction.",
+			"1 (grey, dotted) means the measurement matches the prediction.",
 	}
 	hist := sortedHistory(d.History)
 	var seg segmenter
@@ -368,14 +411,15 @@ func ratioFigure(d *Data) *figure {
 	if ylo > 0 {
 		ylo = 0
 	}
-	yhi += 0.12 * (yhi - ylo)
+	yhi += 0.3 * (yhi - ylo)
 	ref, err := plotter.NewLine(plotter.XYs{{X: xlo, Y: 1}, {X: xhi, Y: 1}})
 	if err != nil {
 		f.NoData = "drawing failed: " + err.Error()
 		return f
 	}
 	ref.Color = boundaryColor
-	ref.Width = vg.Points(1)
+	ref.Width = vg.Points(1.2)
+	ref.Dashes = []vg.Length{vg.Points(2), vg.Points(2)}
 	p.Add(ref)
 	p.Legend.Add("1 (as predicted)", ref)
 	if th, err := addSegments(p, seg.done(), measuredColor, nil); err != nil {
@@ -390,7 +434,7 @@ func ratioFigure(d *Data) *figure {
 	}
 	p.X.Min, p.X.Max, p.Y.Min, p.Y.Max = xlo, xhi, ylo, yhi
 	p.Legend.Top, p.Legend.Left = true, true
-	p.Legend.YOffs = -vg.Points(12)
+	p.Legend.YOffs = -vg.Points(14)
 	return finish(f, p)
 }
 
@@ -608,17 +652,30 @@ func delayFigure(direction string, h Histogram) *figure {
 		f.NoData = reason
 		return f
 	}
-	f.Caption = fmt.Sprintf("%sHistogram of the %.0f delays drawn for %s, in milliseconds "+
-		"(the recorded values are seconds); each bar is one bucket's count, buckets may differ in width.",
-		note, total, direction)
-	p := newPlot(f.Title, "delay (ms)", "draws")
+	f.Caption = fmt.Sprintf("%sHow many of the %.0f delays drawn for %s fell in each bucket; "+
+		"buckets are labelled in milliseconds (the run records seconds) and drawn equally wide "+
+		"whatever their width.", note, total, direction)
+	p := newPlot(f.Title, "delay bucket (ms)", "draws")
 	in, over := newRects(measuredColor), newRects(overflowColor)
-	for _, b := range bs {
+	labels := make([]string, len(bs))
+	every := (len(bs) + 9) / 10 // at most about ten labels
+	for i, b := range bs {
+		x := float64(i)
 		if b.overflow {
-			over.add(b.lo, b.hi, 0, b.count)
+			over.add(x-0.4, x+0.4, 0, b.count)
+			labels[i] = "> " + fmtMs(b.lo)
 			continue
 		}
-		in.add(b.lo, b.hi, 0, b.count)
+		in.add(x-0.4, x+0.4, 0, b.count)
+		switch {
+		case i == 0 && b.lo == 0:
+			labels[i] = "≤ " + fmtMs(b.hi)
+		default:
+			labels[i] = fmtMs(b.lo) + "–" + fmtMs(b.hi)
+		}
+		if i%every != 0 && i != len(bs)-1 {
+			labels[i] = ""
+		}
 	}
 	if len(in.r) > 0 {
 		p.Add(in)
@@ -626,12 +683,28 @@ func delayFigure(direction string, h Histogram) *figure {
 	if len(over.r) > 0 {
 		p.Add(over)
 		last := bs[len(bs)-1]
-		p.Legend.Add(fmt.Sprintf("above %.4g ms (width not to scale)", last.lo), over)
-		f.Caption += fmt.Sprintf(" The grey bar counts the %.0f delays above %.4g ms.", last.count, last.lo)
+		p.Legend.Add("above the last bound", over)
+		f.Caption += fmt.Sprintf(" The grey bar counts the %.0f delays above %s ms.", last.count, fmtMs(last.lo))
 	}
+	p.NominalX(labels...)
+	p.X.Min, p.X.Max = -0.6, float64(len(bs))-0.4
 	p.Y.Min = 0
+	p.Y.Max = 1.15 * maxCount(bs)
 	p.Legend.Top = true
 	return finish(f, p)
+}
+
+func fmtMs(v float64) string { return strconv.FormatFloat(v, 'g', 4, 64) }
+
+func maxCount(bs []bucket) float64 {
+	m := 0.0
+	for _, b := range bs {
+		m = math.Max(m, b.count)
+	}
+	if m == 0 {
+		return 1
+	}
+	return m
 }
 
 func lossRunsFigure(d *Data) *figure {
@@ -718,6 +791,11 @@ func lossRunsFigure(d *Data) *figure {
 	p.NominalX(labels...)
 	p.X.Min, p.X.Max = -0.6, float64(len(ups))-0.4
 	p.Y.Min = 0
+	ymax := 1.0
+	for _, s := range ss {
+		ymax = math.Max(ymax, maxCount(s.bs))
+	}
+	p.Y.Max = 1.15 * ymax
 	p.Legend.Top = true
 	f.Caption = "Number of runs of consecutive lost datagrams by run length, one colour per direction; " +
 		"each bar is a bucket labelled by the run lengths it holds."
