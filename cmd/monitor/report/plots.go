@@ -287,9 +287,13 @@ func secondMomentFigure(d *Data) *figure {
 	var bandSegs [][2]plotter.XYs
 	var lo, hi plotter.XYs
 	xs, ys := newSpan(), newSpan()
+	lone := &whiskers{line: draw.LineStyle{Color: measuredColor, Width: vg.Points(1)}}
 	flushBand := func() {
-		if len(lo) > 1 {
+		switch {
+		case len(lo) > 1:
 			bandSegs = append(bandSegs, [2]plotter.XYs{lo, hi})
+		case len(lo) == 1: // an interval with no neighbour: a whisker
+			lone.w = append(lone.w, [3]float64{lo[0].X, lo[0].Y, hi[0].Y})
 		}
 		lo, hi = nil, nil
 	}
@@ -351,6 +355,12 @@ func secondMomentFigure(d *Data) *figure {
 		p.Add(pg)
 		if i == 0 {
 			p.Legend.Add("confidence interval", pg)
+		}
+	}
+	if len(lone.w) > 0 {
+		p.Add(lone)
+		if len(bandSegs) == 0 {
+			p.Legend.Add("confidence interval", lone)
 		}
 	}
 	if th, err := addSegments(p, meas.done(), measuredColor, nil); err != nil {
@@ -725,6 +735,8 @@ func lossRunsFigure(d *Data) *figure {
 	var ss []series
 	var notes []string
 	bounds := map[float64]bool{}
+	same := true
+	var firstBounds []float64
 	for _, dir := range dirs {
 		bs, _, note, reason := buckets(d.LossRuns[dir], 1)
 		if note != "" {
@@ -740,6 +752,12 @@ func lossRunsFigure(d *Data) *figure {
 			} else {
 				bounds[d.LossRuns[dir].Upper[i]] = true
 			}
+		}
+		ub := d.LossRuns[dir].Upper[:len(bs)]
+		if len(ss) == 0 {
+			firstBounds = ub
+		} else if !equalFloats(ub, firstBounds) {
+			same = false
 		}
 		ss = append(ss, series{dir, bs})
 	}
@@ -760,6 +778,10 @@ func lossRunsFigure(d *Data) *figure {
 	for i, u := range ups {
 		index[u] = i
 		switch {
+		case !same && math.IsInf(u, 1) && i > 0:
+			labels[i] = fmt.Sprintf("> %g", ups[i-1])
+		case !same:
+			labels[i] = fmt.Sprintf("≤ %g", u)
 		case math.IsInf(u, 1) && i > 0:
 			labels[i] = fmt.Sprintf("> %g", ups[i-1])
 		case math.IsInf(u, 1):
@@ -799,8 +821,23 @@ func lossRunsFigure(d *Data) *figure {
 	p.Legend.Top = true
 	f.Caption = "Number of runs of consecutive lost datagrams by run length, one colour per direction; " +
 		"each bar is a bucket labelled by the run lengths it holds."
+	if !same {
+		f.Caption += " The directions use different bucket bounds, so each bar sits at its bucket's upper bound."
+	}
 	if len(notes) > 0 {
 		f.Caption += " " + strings.Join(notes, " ")
 	}
 	return finish(f, p)
+}
+
+func equalFloats(a, b []float64) bool {
+	if len(a) != len(b) {
+		return false
+	}
+	for i := range a {
+		if a[i] != b[i] {
+			return false
+		}
+	}
+	return true
 }

@@ -204,7 +204,7 @@ func TestWritePumpSoak(t *testing.T) {
 	}
 	for _, s := range []string{"nominal", "degrading", "outage", "FAIL", "Soak: pump-qualification",
 		"testdata/pump.loop.yaml", "testdata/pump.soak.yaml", "seed 42", "2026-12-02 09:00:00 UTC", "5m0s",
-		"measured/predicted 1.6 above the allowed 1.25", "exit code 1"} {
+		"measured/predicted 1.6 above the allowed 1.25", "exit code 1", "30 delays above 50 ms", "0.02024 [0.01882, 0.02166]"} {
 		if !strings.Contains(c.text, s) {
 			t.Errorf("report text lacks %q", s)
 		}
@@ -318,6 +318,25 @@ func TestEdgeCases(t *testing.T) {
 				t.Errorf("%d plots drawn but the report never says no data", len(c.pngs))
 			}
 		})
+	}
+}
+
+func TestLossRunBoundsDiffer(t *testing.T) {
+	inf := math.Inf(1)
+	d := &Data{LossRuns: map[string]Histogram{
+		"sensor_to_controller":   {Upper: []float64{1, 4, inf}, Counts: []float64{5, 1, 1}},
+		"controller_to_actuator": {Upper: []float64{2, 3}, Counts: []float64{2, 1, 9}},
+	}}
+	dir := t.TempDir()
+	paths, err := Write(dir, d)
+	if err != nil {
+		t.Fatal(err)
+	}
+	c := checkReport(t, dir, paths)
+	for _, s := range []string{"different bucket bounds", "2 bucket bounds but 3 counts"} {
+		if !strings.Contains(c.text, s) {
+			t.Errorf("loss-run caption lacks %q", s)
+		}
 	}
 }
 
