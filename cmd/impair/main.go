@@ -3,6 +3,9 @@
 // datagrams as a network profile says.
 //
 //	impair run --profile FILE --listen HOST:PORT --controller HOST:PORT [flags]
+//	impair run --scenario FILE [--time-scale F] [--exit-after-scenario] --listen HOST:PORT --controller HOST:PORT [flags]
+//	impair run --links FILE [flags]
+//	  trip wire: [--trip-listen HOST:PORT [--trip-from HOST] [--on-trip clean|stop_commands]]
 //	impair check [--interval D] PROFILE
 //	impair echo --listen HOST:PORT
 //	impair probe --target HOST:PORT --rate R --size B --duration D --out TRACE.csv
@@ -18,7 +21,12 @@ import (
 const usage = `usage: impair <command> [flags]
 
 commands:
-  run     relay a rig's datagrams through a network profile
+  run     relay a rig's datagrams through a network profile or a scenario
+          (--profile FILE | --scenario FILE [--time-scale F] [--exit-after-scenario]),
+          or several rigs' links at once (--links FILE); with --trip-listen
+          HOST:PORT a safety trip request ("rigwire-trip 1 <reason>") from
+          --trip-from (default: loopback) makes the link clean or stops its
+          commands (--on-trip clean|stop_commands)
   check   validate a profile and print what it will do
   echo    answer probes: send each one back, stamped
   probe   send timestamped probes to an echo and record their fates in a trace

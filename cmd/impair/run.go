@@ -1,38 +1,52 @@
 package main
 
 import (
-	"context"
+	"errors"
 	"flag"
 	"fmt"
 	"io"
 	"log/slog"
-	"os"
-	"os/signal"
-	"syscall"
+	"net/netip"
 	"time"
 
-	"github.com/prometheus/client_golang/prometheus"
-	"github.com/prometheus/client_golang/prometheus/collectors"
-
-	"rigwire/cmd/internal/metricsrv"
 	"rigwire/emulate"
-	"rigwire/profiles"
 )
 
 // safetyCaution is printed before any datagram is relayed.
 const safetyCaution = "SAFETY: the relay will delay and drop the commands that move your rig.\n" + emulate.SafetyCautions
 
+// runOpts are the settings of `impair run` shared by all its links.
+type runOpts struct {
+	metricsAddr       string
+	maxDatagram       int
+	maxInFlight       int
+	spin              time.Duration
+	timeScale         float64
+	exitAfterScenario bool
+	singleLink        bool // flags, not a links file: metrics without a link label
+}
+
+// MaxTimeScale bounds --time-scale.
+const maxTimeScale = 100
+
 func cmdRun(args []string, stdout, stderr io.Writer) int {
 	fs := flag.NewFlagSet("impair run", flag.ContinueOnError)
 	fs.SetOutput(stderr)
-	var listen, controller, actuator, sensor, upstream, tap addrFlag
+	var listen, controller, actuator, sensor, upstream, tap, tripListen addrFlag
 	profilePath := fs.String("profile", "", "network profile `FILE` (YAML)")
+	scenarioPath := fs.String("scenario", "", "play the scenario `FILE` (YAML) instead of one profile")
+	linksPath := fs.String("links", "", "relay several rigs' links described in `FILE` (YAML) instead of one from flags")
+	timeScale := fs.Float64("time-scale", 1, "multiply every duration of the scenario by `F` (0 < F ≤ 100)")
+	exitAfter := fs.Bool("exit-after-scenario", false, "drain and exit 0 when the scenario ends (default: keep relaying on its last phase's profile)")
 	fs.Var(&listen, "listen", "`HOST:PORT` where the sensor node's datagrams arrive (required)")
 	fs.Var(&controller, "controller", "`HOST:PORT` of the controller (required)")
 	fs.Var(&actuator, "actuator", "`HOST:PORT` for commands (default: the source of the latest sensor datagram)")
 	fs.Var(&sensor, "sensor", "accept sensor datagrams only from `HOST:PORT` (default: any source)")
 	fs.Var(&upstream, "upstream", "local `HOST:PORT` of the socket that talks to the controller (default: an ephemeral port)")
 	fs.Var(&tap, "tap", "send a copy of every sensor datagram, before impairment, to `HOST:PORT`")
+	fs.Var(&tripListen, "trip-listen", "accept safety trip requests (\"rigwire-trip 1 <reason>\") on UDP `HOST:PORT`")
+	tripFrom := fs.String("trip-from", "", "accept trip requests only from `HOST` (default: loopback addresses only)")
+	onTrip := fs.String("on-trip", "clean", "what a trip does: clean (forward everything, no loss or delay) or stop_commands")
 	metricsAddr := fs.String("metrics", "127.0.0.1:9471", "serve Prometheus metrics on `HOST:PORT` (\"off\": none)")
 	recordPath := fs.String("record", "", "write one line per datagram to `FILE`")
 	seed := fs.Uint64("seed", 0, "seed of the decisions (default: the profile's, else random)")
@@ -50,115 +64,117 @@ func cmdRun(args []string, stdout, stderr io.Writer) int {
 	if fs.NArg() > 0 {
 		return fail("unexpected argument %q", fs.Arg(0))
 	}
+	set := map[string]bool{}
+	fs.Visit(func(f *flag.Flag) { set[f.Name] = true })
+	sources := 0
+	for _, s := range []string{*profilePath, *scenarioPath, *linksPath} {
+		if s != "" {
+			sources++
+		}
+	}
 	switch {
-	case *profilePath == "":
-		return fail("--profile: required")
-	case !listen.set:
-		return fail("--listen: required")
-	case !controller.set:
-		return fail("--controller: required")
+	case sources == 0:
+		return fail("--profile, --scenario or --links: one of them is required")
+	case sources > 1:
+		return fail("--profile, --scenario and --links: want exactly one of them")
 	case *maxDatagram < 1 || *maxDatagram > 65535:
 		return fail("--max-datagram: want 1…65535 bytes, got %d", *maxDatagram)
 	case *maxInFlight < 1 || *maxInFlight > 1<<20:
 		return fail("--max-in-flight: want 1…1048576, got %d", *maxInFlight)
 	case *spin < 0 || *spin > 10*time.Millisecond:
 		return fail("--spin: want 0…10ms, got %s", *spin)
+	case !(*timeScale > 0 && *timeScale <= maxTimeScale):
+		return fail("--time-scale: want a factor > 0 and ≤ %d, got %g", maxTimeScale, *timeScale)
 	}
 	var level slog.Level
 	if err := level.UnmarshalText([]byte(*logLevel)); err != nil {
 		return fail("--log-level: want debug, info, warn or error, got %q", *logLevel)
 	}
-	log := slog.New(slog.NewTextHandler(stderr, &slog.HandlerOptions{Level: level}))
+	opts := runOpts{metricsAddr: *metricsAddr, maxDatagram: *maxDatagram, maxInFlight: *maxInFlight,
+		spin: *spin, timeScale: *timeScale, exitAfterScenario: *exitAfter}
 
-	prof, err := profiles.Load(*profilePath)
-	if err != nil {
-		fmt.Fprintf(stderr, "impair run: %v\n", err)
-		return 2
-	}
-	seedSet := false
-	fs.Visit(func(f *flag.Flag) { seedSet = seedSet || f.Name == "seed" })
-
-	reg := prometheus.NewRegistry()
-	reg.MustRegister(collectors.NewGoCollector(), collectors.NewProcessCollector(collectors.ProcessCollectorOpts{}))
-	metrics := emulate.NewMetrics(reg)
-
-	var record *os.File
-	if *recordPath != "" {
-		if record, err = os.Create(*recordPath); err != nil {
-			return fail("--record: %v", err)
-		}
-		defer record.Close()
-	}
-	cfg := emulate.Config{
-		Profile: prof, Listen: listen.ap, Controller: controller.ap,
-		Actuator: actuator.ap, Sensor: sensor.ap, Upstream: upstream.ap, Tap: tap.ap,
-		Seed: *seed, SeedSet: seedSet,
-		MaxDatagram: *maxDatagram, MaxInFlight: *maxInFlight, Spin: *spin, SpinSet: true,
-		Metrics: metrics, Logger: log,
-	}
-	if record != nil {
-		cfg.Record = record
-	}
-	relay, err := emulate.New(cfg)
-	if err != nil {
-		fmt.Fprintf(stderr, "impair run: %v\n", err)
-		return 1
-	}
-
-	srv, err := metricsrv.Start(*metricsAddr, reg, log)
-	if err != nil {
-		return fail("--metrics %s: %v", *metricsAddr, err)
-	}
-	defer srv.Close()
-
-	fmt.Fprint(stderr, safetyCaution)
-	log.Info("relaying",
-		"profile", prof.File, "listen", relay.ListenAddr().String(),
-		"upstream", relay.UpstreamAddr().String(), "controller", controller.ap.String(),
-		"actuator", orDefault(actuator, "latest sensor source"), "tap", orDefault(tap, "none"),
-		"seed", relay.Seed())
-
-	ctx, cancel := context.WithCancel(context.Background())
-	abort := make(chan struct{})
-	sigs := make(chan os.Signal, 4)
-	signal.Notify(sigs, syscall.SIGINT, syscall.SIGTERM, syscall.SIGHUP)
-	defer signal.Stop(sigs)
-	go func() {
-		stopping := false
-		for s := range sigs {
-			switch {
-			case s == syscall.SIGHUP:
-				p, err := profiles.Load(*profilePath)
-				if err != nil {
-					metrics.Reloads.WithLabelValues("error").Inc()
-					log.Error("reload refused, keeping the running profile", "err", err)
-					continue
-				}
-				relay.Reload(p)
-				log.Info("profile reloaded", "profile", p.File, "name", p.Name)
-			case !stopping:
-				stopping = true
-				log.Info("stopping: releasing what is in flight on time (signal again to abandon it)", "signal", s.String())
-				cancel()
-			default:
-				close(abort)
-				return
+	var specs []linkSpec
+	if *linksPath != "" {
+		for _, name := range []string{"listen", "controller", "actuator", "sensor", "upstream", "tap",
+			"trip-listen", "trip-from", "on-trip", "record", "seed"} {
+			if set[name] {
+				return fail("--%s: not with --links (give it per link in %s)", name, *linksPath)
 			}
 		}
-	}()
-	runErr := relay.Run(ctx, abort)
-	srv.Close()
-	if runErr != nil {
-		log.Error("relay", "err", runErr)
-		return 1
+		lf, err := loadLinks(*linksPath)
+		if err != nil {
+			return fail("%v", err)
+		}
+		if lf.Metrics != "" && !set["metrics"] {
+			opts.metricsAddr = lf.Metrics
+		}
+		specs = lf.Links
+	} else {
+		switch {
+		case !listen.set:
+			return fail("--listen: required")
+		case !controller.set:
+			return fail("--controller: required")
+		}
+		s := linkSpec{
+			Listen: listen.ap, Controller: controller.ap, Actuator: actuator.ap, Sensor: sensor.ap,
+			Upstream: upstream.ap, Tap: tap.ap, ProfilePath: *profilePath, ScenarioPath: *scenarioPath,
+			Seed: *seed, SeedSet: set["seed"], RecordPath: *recordPath,
+		}
+		if tripListen.set {
+			s.TripListen = tripListen.ap
+			a, ok := parseTripAction(*onTrip)
+			if !ok {
+				return fail("--on-trip: want clean or stop_commands, got %q", *onTrip)
+			}
+			s.OnTrip = a
+			if *tripFrom != "" {
+				from, err := resolveHost(*tripFrom)
+				if err != nil {
+					return fail("--trip-from: %v", err)
+				}
+				s.TripFrom = from
+			}
+		} else {
+			for _, name := range []string{"trip-from", "on-trip"} {
+				if set[name] {
+					return fail("--%s: only with --trip-listen", name)
+				}
+			}
+		}
+		specs = []linkSpec{s}
+		opts.singleLink = true
 	}
-	log.Info("stopped")
-	return 0
+	if set["time-scale"] || *exitAfter {
+		hasScenario := false
+		for _, s := range specs {
+			hasScenario = hasScenario || s.ScenarioPath != ""
+		}
+		if !hasScenario {
+			name := "--exit-after-scenario"
+			if set["time-scale"] {
+				name = "--time-scale"
+			}
+			return fail("%s: only with a scenario (--scenario, or scenario in the links file)", name)
+		}
+	}
+	log := slog.New(slog.NewTextHandler(stderr, &slog.HandlerOptions{Level: level}))
+	return runLinks(specs, opts, stderr, log)
 }
 
-func orDefault(a addrFlag, def string) string {
-	if a.set {
-		return a.ap.String()
+// addrOr is an address for the log, or def when it is not set.
+func addrOr(a netip.AddrPort, def string) string {
+	if a.IsValid() {
+		return a.String()
 	}
 	return def
+}
+
+// errUsage marks an error of the input (exit status 2) rather than of the
+// run (1).
+type errUsage struct{ error }
+
+func isUsage(err error) bool {
+	var u errUsage
+	return errors.As(err, &u)
 }

@@ -1,0 +1,285 @@
+package main
+
+// The links file of `impair run --links FILE`: several rigs' links relayed
+// by one process, with one metrics endpoint where every link's relay
+// metrics carry the constant label link="NAME".
+//
+//	metrics: 127.0.0.1:9471          # optional; the --metrics flag overrides it
+//	links:
+//	  - name: conveyor               # required, unique, [a-z0-9_-]+
+//	    listen: 127.0.0.1:7001       # required
+//	    controller: 127.0.0.1:7101   # required
+//	    actuator: 127.0.0.1:7201     # optional, like the flags: sensor, upstream, tap
+//	    profile: conveyor.yaml       # exactly one of profile and scenario
+//	    scenario: conveyor-soak.yaml #   (paths relative to this file)
+//	    seed: 11                     # optional
+//	    record: conveyor.csv         # optional
+//	    trip_listen: 127.0.0.1:7401  # optional, with on_trip (clean|stop_commands)
+//	    trip_from: 127.0.0.1         #   and trip_from (default: loopback only)
+//
+// Names and the local ports the process binds (listen, upstream,
+// trip_listen) must be unique across the file.
+
+import (
+	"fmt"
+	"net"
+	"net/netip"
+	"os"
+	"path/filepath"
+	"regexp"
+
+	"rigwire/profiles"
+)
+
+// linkSpec is one rig's link as the relay process runs it: from the flags
+// of `impair run` (Name "") or from one entry of a links file.
+type linkSpec struct {
+	Name string // "" in single-link mode: metrics without a link label
+	Line int    // line of the entry in the links file (0: flags)
+
+	Listen, Controller, Actuator, Sensor, Upstream, Tap netip.AddrPort
+
+	// Exactly one of ProfilePath and ScenarioPath is set.
+	ProfilePath, ScenarioPath string
+
+	Seed    uint64
+	SeedSet bool
+
+	RecordPath string
+
+	// TripListen, when valid, is where trip requests are accepted;
+	// TripFrom is the only source address accepted (invalid: loopback
+	// addresses only).
+	TripListen netip.AddrPort
+	TripFrom   netip.Addr
+	OnTrip     profiles.TripAction
+}
+
+// linksFile is a parsed links file.
+type linksFile struct {
+	File    string
+	Metrics string // "" when not given
+	Links   []linkSpec
+}
+
+var linkName = regexp.MustCompile(`^[a-z0-9_-]+$`)
+
+// maxLinks bounds the links of one file (each holds sockets and goroutines).
+const maxLinks = 256
+
+// loadLinks reads and validates a links file. Paths inside it are relative
+// to its directory. Errors read "file:line: key: what was expected".
+func loadLinks(path string) (*linksFile, error) {
+	data, err := os.ReadFile(path)
+	if err != nil {
+		return nil, fmt.Errorf("reading links file: %w", err)
+	}
+	return parseLinks(data, path, filepath.Dir(path))
+}
+
+func parseLinks(data []byte, file, dir string) (*linksFile, error) {
+	root, err := profiles.Document(file, data)
+	if err != nil {
+		return nil, err
+	}
+	keys, err := root.Mapping("metrics", "links")
+	if err != nil {
+		return nil, err
+	}
+	lf := &linksFile{File: file}
+	if f, ok := keys["metrics"]; ok {
+		s, err := f.Text()
+		if err != nil {
+			return nil, f.Errorf("want HOST:PORT or \"off\", got %s", f.Got())
+		}
+		if s != "off" {
+			if _, _, err := net.SplitHostPort(s); err != nil {
+				return nil, f.Errorf("want HOST:PORT or \"off\", got %s", f.Got())
+			}
+		}
+		lf.Metrics = s
+	}
+	lk, ok := keys["links"]
+	if !ok {
+		return nil, root.Errorf("links: missing (a list of links, each with name, listen, controller and a profile or scenario)")
+	}
+	items, err := lk.Seq()
+	if err != nil {
+		return nil, err
+	}
+	if len(items) == 0 {
+		return nil, lk.Errorf("want at least one link, got an empty list")
+	}
+	if len(items) > maxLinks {
+		return nil, lk.Errorf("want at most %d links, got %d", maxLinks, len(items))
+	}
+	names := map[string]int{}
+	// Local sockets the process binds: listen, upstream, trip_listen.
+	bound := map[netip.AddrPort]string{}
+	for _, it := range items {
+		l, err := parseLink(it, dir)
+		if err != nil {
+			return nil, err
+		}
+		if prev, dup := names[l.Name]; dup {
+			return nil, it.Errorf("name: %q already names the link at line %d", l.Name, prev)
+		}
+		names[l.Name] = l.Line
+		for _, b := range []struct {
+			key string
+			ap  netip.AddrPort
+		}{{"listen", l.Listen}, {"upstream", l.Upstream}, {"trip_listen", l.TripListen}} {
+			if !b.ap.IsValid() || b.ap.Port() == 0 {
+				continue
+			}
+			if prev, dup := bound[b.ap]; dup {
+				return nil, it.Errorf("%s: %s is already used by %s", b.key, b.ap, prev)
+			}
+			bound[b.ap] = fmt.Sprintf("%s of link %q", b.key, l.Name)
+		}
+		lf.Links = append(lf.Links, l)
+	}
+	return lf, nil
+}
+
+func parseLink(it profiles.Field, dir string) (linkSpec, error) {
+	keys, err := it.Mapping("name", "listen", "controller", "actuator", "sensor", "upstream", "tap",
+		"profile", "scenario", "seed", "record", "trip_listen", "trip_from", "on_trip")
+	if err != nil {
+		return linkSpec{}, err
+	}
+	l := linkSpec{Line: it.Line()}
+	f, ok := keys["name"]
+	if !ok {
+		return l, it.Errorf("name: missing (a unique name of a-z, 0-9, _ and -)")
+	}
+	if l.Name, err = f.Text(); err != nil || !linkName.MatchString(l.Name) || len(l.Name) > 64 {
+		return l, f.Errorf("want a name of a-z, 0-9, _ and - (at most 64), got %s", f.Got())
+	}
+	addr := func(key string, required bool, dst *netip.AddrPort) error {
+		f, ok := keys[key]
+		if !ok {
+			if required {
+				return it.Errorf("%s: missing (HOST:PORT)", key)
+			}
+			return nil
+		}
+		s, err := f.Text()
+		if err != nil {
+			return f.Errorf("want HOST:PORT, got %s", f.Got())
+		}
+		ap, err := resolveAddr(s)
+		if err != nil {
+			return f.Errorf("%v", err)
+		}
+		*dst = ap
+		return nil
+	}
+	for _, a := range []struct {
+		key string
+		req bool
+		dst *netip.AddrPort
+	}{
+		{"listen", true, &l.Listen}, {"controller", true, &l.Controller},
+		{"actuator", false, &l.Actuator}, {"sensor", false, &l.Sensor},
+		{"upstream", false, &l.Upstream}, {"tap", false, &l.Tap},
+		{"trip_listen", false, &l.TripListen},
+	} {
+		if err := addr(a.key, a.req, a.dst); err != nil {
+			return l, err
+		}
+	}
+	if l.Controller.Port() == 0 {
+		return l, keys["controller"].Errorf("want a port > 0, got %s", keys["controller"].Got())
+	}
+	path := func(key string) (string, error) {
+		f, ok := keys[key]
+		if !ok {
+			return "", nil
+		}
+		s, err := f.Text()
+		if err != nil || s == "" {
+			return "", f.Errorf("want a file path, got %s", f.Got())
+		}
+		if !filepath.IsAbs(s) {
+			s = filepath.Join(dir, s)
+		}
+		return s, nil
+	}
+	if l.ProfilePath, err = path("profile"); err != nil {
+		return l, err
+	}
+	if l.ScenarioPath, err = path("scenario"); err != nil {
+		return l, err
+	}
+	switch {
+	case l.ProfilePath == "" && l.ScenarioPath == "":
+		return l, it.Errorf("want exactly one of profile and scenario, got neither")
+	case l.ProfilePath != "" && l.ScenarioPath != "":
+		return l, keys["scenario"].Errorf("want exactly one of profile and scenario, got both")
+	}
+	if l.RecordPath, err = path("record"); err != nil {
+		return l, err
+	}
+	if f, ok := keys["seed"]; ok {
+		if l.Seed, err = f.Uint64(); err != nil {
+			return l, err
+		}
+		l.SeedSet = true
+	}
+	if f, ok := keys["on_trip"]; ok {
+		s, _ := f.Text()
+		a, ok := parseTripAction(s)
+		if !ok {
+			return l, f.Errorf("want clean or stop_commands, got %s", f.Got())
+		}
+		l.OnTrip = a
+	}
+	if f, ok := keys["trip_from"]; ok {
+		s, err := f.Text()
+		if err == nil {
+			l.TripFrom, err = resolveHost(s)
+		}
+		if err != nil {
+			return l, f.Errorf("want a host (an address or a name), got %s", f.Got())
+		}
+	}
+	if !l.TripListen.IsValid() {
+		for _, k := range []string{"on_trip", "trip_from"} {
+			if f, ok := keys[k]; ok {
+				return l, f.Errorf("only with trip_listen (where trip requests arrive)")
+			}
+		}
+	}
+	return l, nil
+}
+
+// parseTripAction reads clean or stop_commands.
+func parseTripAction(s string) (profiles.TripAction, bool) {
+	switch s {
+	case profiles.TripClean.String():
+		return profiles.TripClean, true
+	case profiles.TripStopCommands.String():
+		return profiles.TripStopCommands, true
+	}
+	return 0, false
+}
+
+// resolveHost turns a host (an address or a name) into one address.
+func resolveHost(s string) (netip.Addr, error) {
+	if a, err := netip.ParseAddr(s); err == nil {
+		return a.Unmap(), nil
+	}
+	if s == "" {
+		return netip.Addr{}, fmt.Errorf("want a host, got nothing")
+	}
+	ia, err := net.ResolveIPAddr("ip", s)
+	if err != nil {
+		return netip.Addr{}, fmt.Errorf("want a host: %w", err)
+	}
+	a, ok := netip.AddrFromSlice(ia.IP)
+	if !ok {
+		return netip.Addr{}, fmt.Errorf("want a host, got %q", s)
+	}
+	return a.Unmap(), nil
+}

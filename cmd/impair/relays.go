@@ -1,0 +1,291 @@
+package main
+
+import (
+	"context"
+	"fmt"
+	"io"
+	"log/slog"
+	"os"
+	"os/signal"
+	"sync"
+	"syscall"
+
+	"github.com/prometheus/client_golang/prometheus"
+	"github.com/prometheus/client_golang/prometheus/collectors"
+
+	"rigwire/cmd/internal/metricsrv"
+	"rigwire/emulate"
+	"rigwire/profiles"
+)
+
+// link is one running link of `impair run`: its relay and what plays on it.
+type link struct {
+	spec    linkSpec
+	log     *slog.Logger
+	metrics *emulate.Metrics
+	relay   *emulate.Relay
+	record  *os.File
+	prof    *profiles.Profile // the profile (nil with a scenario)
+	scen    *playingScenario  // nil with a profile
+	trip    *tripListener     // nil without a trip socket
+}
+
+// openLink loads a link's profile or scenario and opens its relay and its
+// trip socket. reg is where its metrics go (already wrapped with the link
+// label in links mode).
+func openLink(spec linkSpec, opts runOpts, reg prometheus.Registerer, log *slog.Logger) (*link, error) {
+	l := &link{spec: spec, log: log}
+	var first *profiles.Profile
+	if spec.ScenarioPath != "" {
+		sc, err := loadPlayingScenario(spec.ScenarioPath, opts.timeScale)
+		if err != nil {
+			return nil, errUsage{err}
+		}
+		l.scen = sc
+		first = sc.steps[0].Profile
+	} else {
+		p, err := profiles.Load(spec.ProfilePath)
+		if err != nil {
+			return nil, errUsage{err}
+		}
+		l.prof, first = p, p
+	}
+	l.metrics = emulate.NewMetrics(reg)
+	var tripCount *prometheus.CounterVec
+	if spec.TripListen.IsValid() {
+		tripCount = newTripMetrics(reg)
+	}
+	if spec.RecordPath != "" {
+		f, err := os.Create(spec.RecordPath)
+		if err != nil {
+			return nil, errUsage{fmt.Errorf("record: %w", err)}
+		}
+		l.record = f
+	}
+	cfg := emulate.Config{
+		Profile: first, Listen: spec.Listen, Controller: spec.Controller,
+		Actuator: spec.Actuator, Sensor: spec.Sensor, Upstream: spec.Upstream, Tap: spec.Tap,
+		Seed: spec.Seed, SeedSet: spec.SeedSet,
+		MaxDatagram: opts.maxDatagram, MaxInFlight: opts.maxInFlight, Spin: opts.spin, SpinSet: true,
+		Metrics: l.metrics, Logger: log,
+	}
+	if l.record != nil {
+		cfg.Record = l.record
+	}
+	relay, err := emulate.New(cfg)
+	if err != nil {
+		l.close()
+		return nil, err
+	}
+	l.relay = relay
+	if spec.TripListen.IsValid() {
+		t, err := openTripListener(spec.TripListen, spec.TripFrom, spec.OnTrip, tripCount, log)
+		if err != nil {
+			l.close()
+			return nil, err
+		}
+		t.relay = relay
+		l.trip = t
+	}
+	return l, nil
+}
+
+func (l *link) close() {
+	if l.trip != nil {
+		l.trip.Close()
+	}
+	if l.record != nil {
+		l.record.Close()
+	}
+}
+
+// describe logs what the link does and prints its scenario's phases.
+func (l *link) describe(w io.Writer) {
+	what, file := "profile", l.spec.ProfilePath
+	if l.scen != nil {
+		what, file = "scenario", l.spec.ScenarioPath
+	}
+	trip := "none"
+	if l.trip != nil {
+		from := "loopback"
+		if l.spec.TripFrom.IsValid() {
+			from = l.spec.TripFrom.String()
+		}
+		trip = fmt.Sprintf("%s from %s, %s", l.trip.Addr(), from, l.spec.OnTrip)
+	}
+	l.log.Info("relaying",
+		what, file, "listen", l.relay.ListenAddr().String(),
+		"upstream", l.relay.UpstreamAddr().String(), "controller", l.spec.Controller.String(),
+		"actuator", addrOr(l.spec.Actuator, "latest sensor source"), "tap", addrOr(l.spec.Tap, "none"),
+		"trip", trip, "seed", l.relay.Seed())
+	if l.scen != nil {
+		prefix := ""
+		if l.spec.Name != "" {
+			prefix = "link " + l.spec.Name + ": "
+		}
+		l.scen.print(w, prefix)
+	}
+}
+
+// runLinks opens every link, serves the metrics, and relays until SIGINT
+// or SIGTERM (a second one abandons what is in flight), or until every
+// scenario has ended with --exit-after-scenario.
+func runLinks(specs []linkSpec, opts runOpts, stderr io.Writer, log *slog.Logger) int {
+	reg := prometheus.NewRegistry()
+	reg.MustRegister(collectors.NewGoCollector(), collectors.NewProcessCollector(collectors.ProcessCollectorOpts{}))
+	var links []*link
+	closeAll := func() {
+		for _, l := range links {
+			l.close()
+		}
+	}
+	for _, s := range specs {
+		lreg, llog := prometheus.Registerer(reg), log
+		if !opts.singleLink {
+			lreg = prometheus.WrapRegistererWith(prometheus.Labels{"link": s.Name}, reg)
+			llog = log.With("link", s.Name)
+		}
+		l, err := openLink(s, opts, lreg, llog)
+		if err != nil {
+			closeAll()
+			where := ""
+			if !opts.singleLink {
+				where = fmt.Sprintf("link %q: ", s.Name)
+			}
+			fmt.Fprintf(stderr, "impair run: %s%v\n", where, err)
+			if isUsage(err) {
+				return 2
+			}
+			return 1
+		}
+		links = append(links, l)
+	}
+	srv, err := metricsrv.Start(opts.metricsAddr, reg, log)
+	if err != nil {
+		closeAll()
+		fmt.Fprintf(stderr, "impair run: --metrics %s: %v\n", opts.metricsAddr, err)
+		return 2
+	}
+	defer srv.Close()
+
+	fmt.Fprint(stderr, safetyCaution)
+	for _, l := range links {
+		l.describe(stderr)
+	}
+
+	ctx, cancel := context.WithCancel(context.Background())
+	defer cancel()
+	abort := make(chan struct{})
+	sigs := make(chan os.Signal, 4)
+	signal.Notify(sigs, syscall.SIGINT, syscall.SIGTERM, syscall.SIGHUP)
+	defer signal.Stop(sigs)
+	go func() {
+		stopping := false
+		done := ctx.Done()
+		for {
+			var s os.Signal
+			select {
+			case s = <-sigs:
+			case <-done:
+				// Stopped (a signal, or the scenarios ended): a signal
+				// now abandons the drain.
+				done, stopping = nil, true
+				continue
+			}
+			switch {
+			case s == syscall.SIGHUP:
+				for _, l := range links {
+					l.reload()
+				}
+			case !stopping:
+				stopping = true
+				log.Info("stopping: releasing what is in flight on time (signal again to abandon it)", "signal", s.String())
+				cancel()
+			default:
+				close(abort)
+				return
+			}
+		}
+	}()
+
+	var wg sync.WaitGroup
+	errs := make([]error, len(links))
+	playErrs := make([]error, len(links))
+	var scenarios sync.WaitGroup
+	nScenarios := 0
+	for i, l := range links {
+		if l.trip != nil {
+			go l.trip.serve()
+		}
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			errs[i] = l.relay.Run(ctx, abort)
+			if l.trip != nil {
+				l.trip.Close()
+			}
+		}()
+		if l.scen != nil {
+			nScenarios++
+			scenarios.Add(1)
+			go func() {
+				defer scenarios.Done()
+				err := l.scen.play(ctx, l.relay, l.log)
+				if err != nil && ctx.Err() == nil {
+					playErrs[i] = err
+					l.log.Error("scenario", "err", err)
+					cancel()
+					return
+				}
+				if err == nil && !opts.exitAfterScenario {
+					l.log.Info("scenario ended: relaying on its last phase's profile until SIGTERM", "scenario", l.scen.name)
+				}
+			}()
+		}
+	}
+	if opts.exitAfterScenario && nScenarios > 0 {
+		go func() {
+			scenarios.Wait()
+			if ctx.Err() == nil {
+				log.Info("stopping: the scenario ended (--exit-after-scenario)")
+				cancel()
+			}
+		}()
+	}
+	wg.Wait()
+	scenarios.Wait()
+	srv.Close()
+	code := 0
+	for i, l := range links {
+		if l.record != nil {
+			l.record.Close()
+		}
+		for _, err := range []error{errs[i], playErrs[i]} {
+			if err != nil {
+				l.log.Error("relay", "err", err)
+				code = 1
+			}
+		}
+	}
+	if code == 0 {
+		log.Info("stopped")
+	}
+	return code
+}
+
+// reload re-reads the link's profile file (SIGHUP); a link playing a
+// scenario ignores it.
+func (l *link) reload() {
+	if l.scen != nil {
+		l.log.Info("SIGHUP ignored: the link plays a scenario, which reloads nothing", "scenario", l.spec.ScenarioPath)
+		return
+	}
+	p, err := profiles.Load(l.spec.ProfilePath)
+	if err != nil {
+		l.metrics.Reloads.WithLabelValues("error").Inc()
+		l.log.Error("reload refused, keeping the running profile", "err", err)
+		return
+	}
+	l.relay.Reload(p)
+	l.log.Info("profile reloaded", "profile", p.File, "name", p.Name)
+}

@@ -1,0 +1,90 @@
+package main
+
+import (
+	"net/netip"
+	"testing"
+
+	"github.com/prometheus/client_golang/prometheus"
+	"github.com/prometheus/client_golang/prometheus/testutil"
+
+	"rigwire/cmd/internal/tripwire"
+	"rigwire/profiles"
+)
+
+type fakeTripper struct {
+	calls  int
+	action profiles.TripAction
+	reason string
+}
+
+func (f *fakeTripper) Trip(a profiles.TripAction, reason string) bool {
+	f.calls++
+	if f.calls > 1 {
+		return false
+	}
+	f.action, f.reason = a, reason
+	return true
+}
+
+func TestTripListenerSources(t *testing.T) {
+	loop := &tripListener{}
+	for s, want := range map[string]bool{"127.0.0.1": true, "127.3.0.9": true, "::1": true, "::ffff:127.0.0.1": true, "10.0.0.1": false, "fe80::1": false} {
+		if got := loop.accepts(netip.MustParseAddr(s)); got != want {
+			t.Errorf("default source %s: %v, want %v", s, got, want)
+		}
+	}
+	only := &tripListener{from: netip.MustParseAddr("10.0.0.7")}
+	for s, want := range map[string]bool{"10.0.0.7": true, "::ffff:10.0.0.7": true, "127.0.0.1": false, "10.0.0.8": false} {
+		if got := only.accepts(netip.MustParseAddr(s)); got != want {
+			t.Errorf("--trip-from 10.0.0.7, source %s: %v, want %v", s, got, want)
+		}
+	}
+}
+
+func TestTripListenerHandle(t *testing.T) {
+	reg := prometheus.NewRegistry()
+	count := newTripMetrics(reg)
+	ft := &fakeTripper{}
+	tl := &tripListener{relay: ft, action: profiles.TripStopCommands, count: count, log: discardLogger()}
+	src := netip.MustParseAddrPort("127.0.0.1:5000")
+	tl.handle([]byte("rigwire-trip 1"), src)
+	tl.handle(make([]byte, tripwire.MaxLen+1), src)
+	tl.handle(tripwire.Encode("x"), netip.MustParseAddrPort("192.0.2.1:5000"))
+	if ft.calls != 0 {
+		t.Fatalf("tripped by an invalid request")
+	}
+	tl.handle(tripwire.Encode("max_second_moment"), src)
+	tl.handle(tripwire.Encode("max_second_moment"), src)
+	if ft.calls != 2 || ft.action != profiles.TripStopCommands || ft.reason != "max_second_moment" {
+		t.Errorf("trip calls %+v", ft)
+	}
+	for r, want := range map[string]float64{tripMalformed: 2, tripStranger: 1, tripAccepted: 1, tripRepeated: 1} {
+		if got := testutil.ToFloat64(count.WithLabelValues(r)); got != want {
+			t.Errorf("%s: %v, want %v", r, got, want)
+		}
+	}
+}
+
+// FuzzTripHandle: any datagram from any source is counted exactly once and
+// never panics.
+func FuzzTripHandle(f *testing.F) {
+	f.Add([]byte("rigwire-trip 1 max_ratio"), true)
+	f.Add([]byte{0, 1, 2}, false)
+	f.Fuzz(func(t *testing.T, p []byte, loopback bool) {
+		reg := prometheus.NewRegistry()
+		count := newTripMetrics(reg)
+		tl := &tripListener{relay: &fakeTripper{}, count: count, log: discardLogger()}
+		src := netip.MustParseAddrPort("192.0.2.1:9")
+		if loopback {
+			src = netip.MustParseAddrPort("127.0.0.1:9")
+		}
+		tl.handle(p, src)
+		total := 0.0
+		for _, r := range []string{tripAccepted, tripRepeated, tripMalformed, tripStranger} {
+			total += testutil.ToFloat64(count.WithLabelValues(r))
+		}
+		if total != 1 {
+			t.Fatalf("counted %v times", total)
+		}
+	})
+}
