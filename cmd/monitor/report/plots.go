@@ -25,6 +25,7 @@ var (
 	predictedColor = color.RGBA{R: 0xc0, G: 0x60, B: 0x10, A: 0xff}
 	boundaryColor  = color.RGBA{R: 0x60, G: 0x60, B: 0x60, A: 0xff}
 	overflowColor  = color.RGBA{R: 0xa0, G: 0xa0, B: 0xa0, A: 0xff}
+	tripColor      = color.RGBA{R: 0xb0, G: 0x10, B: 0x10, A: 0xff}
 )
 
 func directionColor(i int) color.Color {
@@ -267,6 +268,23 @@ func addBoundaries(p *plot.Plot, bs []boundary, ylo, yhi float64) error {
 	return nil
 }
 
+// addTrip draws a solid red vertical line where the safety trip fired, when
+// that time lies within [xlo, xhi].
+func addTrip(p *plot.Plot, t *Trip, xlo, xhi, ylo, yhi float64) error {
+	if t == nil || math.IsNaN(t.Elapsed) || t.Elapsed < xlo || t.Elapsed > xhi {
+		return nil
+	}
+	l, err := plotter.NewLine(plotter.XYs{{X: t.Elapsed, Y: ylo}, {X: t.Elapsed, Y: yhi}})
+	if err != nil {
+		return err
+	}
+	l.Color = tripColor
+	l.Width = vg.Points(1.5)
+	p.Add(l)
+	p.Legend.Add(fmt.Sprintf("safety trip at %.1f s", t.Elapsed), l)
+	return nil
+}
+
 func shorten(s string, n int) string {
 	r := []rune(s)
 	if len(r) <= n {
@@ -280,7 +298,8 @@ func secondMomentFigure(d *Data) *figure {
 		File:  SecondMomentName,
 		Title: "Tracking error second moment E[eᵀe]",
 		Caption: "Measured E[eᵀe] (blue, shaded: its confidence interval) against the prediction " +
-			"(orange, dashed) over the run; dashed grey lines mark where each phase starts.",
+			"(orange, dashed) over the run; dashed grey lines mark where each phase starts, a solid red " +
+			"line where the safety trip fired, if it did.",
 	}
 	hist := sortedHistory(d.History)
 	var meas, pred segmenter
@@ -385,6 +404,10 @@ func secondMomentFigure(d *Data) *figure {
 		f.NoData = "drawing failed: " + err.Error()
 		return f
 	}
+	if err := addTrip(p, d.Trip, xlo, xhi, ylo, yhi); err != nil {
+		f.NoData = "drawing failed: " + err.Error()
+		return f
+	}
 	p.X.Min, p.X.Max, p.Y.Min, p.Y.Max = xlo, xhi, ylo, yhi
 	p.Legend.Top, p.Legend.Left = true, true
 	p.Legend.YOffs = -vg.Points(14)
@@ -439,6 +462,10 @@ func ratioFigure(d *Data) *figure {
 		p.Legend.Add("measured / predicted", th)
 	}
 	if err := addBoundaries(p, boundaries(d, hist, xlo, xhi), ylo, yhi); err != nil {
+		f.NoData = "drawing failed: " + err.Error()
+		return f
+	}
+	if err := addTrip(p, d.Trip, xlo, xhi, ylo, yhi); err != nil {
 		f.NoData = "drawing failed: " + err.Error()
 		return f
 	}
@@ -576,6 +603,11 @@ func phasesFigure(d *Data) *figure {
 	p.Legend.Add("confidence interval", wh)
 	p.Legend.Add("predicted", pred)
 	p.NominalX(names...)
+	if len(d.Phases) > 6 { // slant the names so they do not run into each other
+		p.X.Tick.Label.Rotation = math.Pi / 6
+		p.X.Tick.Label.XAlign = draw.XRight
+		p.X.Tick.Label.YAlign = draw.YTop
+	}
 	p.X.Min, p.X.Max = -0.6, float64(len(d.Phases))-0.4
 	ylo, yhi := ys.widened()
 	p.Y.Min, p.Y.Max = ylo, yhi+0.25*(yhi-ylo)
