@@ -39,6 +39,12 @@ type direction struct {
 	gaugeVec *prometheus.GaugeVec
 	draining bool // finish what is scheduled, then end the release goroutine
 	abort    bool // end now; what is scheduled is counted as shutdown
+	// tripped: the safety trip fired; the channel no longer changes.
+	tripped bool
+	// stopNew: every new datagram is dropped as tripped (TripStopCommands).
+	stopNew bool
+	// lossRun counts the consecutive datagrams the profile dropped so far.
+	lossRun int
 }
 
 type dirConfig struct {
@@ -124,11 +130,21 @@ func (d *direction) admit(acc []message, dst netip.AddrPort, now int64, imm []me
 	stateName := st.Name
 	for i := range acc {
 		m := &acc[i]
+		if d.stopNew {
+			d.m.outcome[oTripped].Inc()
+			d.record(rec{arrival: now, outcome: oTripped, state: stateName})
+			continue
+		}
 		lost, delay := d.fateLocked(st)
 		if lost {
+			d.lossRun++
 			d.m.outcome[oDropped].Inc()
 			d.record(rec{arrival: now, outcome: oDropped, state: stateName})
 			continue
+		}
+		if d.lossRun > 0 {
+			d.m.lossRuns.Observe(float64(d.lossRun))
+			d.lossRun = 0
 		}
 		d.m.delay.Observe(delay)
 		due := now + int64(delay*1e9)
@@ -309,6 +325,48 @@ func (d *direction) abortLocked() {
 		d.pool.put(p)
 	}
 	d.m.inFlight.Set(0)
+}
+
+// tripStateName is the state of the clean channel a trip puts a direction on.
+const tripStateName = "clean"
+
+// trip puts the direction on a clean channel (no loss, no delay) for good;
+// with stop it also drops every new datagram and what it holds now, all
+// counted as tripped. Datagrams already held otherwise keep their release
+// times. Later setChannel calls are refused (changeChannel).
+func (d *direction) trip(stop bool) {
+	d.mu.Lock()
+	defer d.mu.Unlock()
+	d.setChannelLocked(cleanChannel, nil, d.now())
+	d.tripped = true
+	if !stop {
+		return
+	}
+	d.stopNew = true
+	for d.sched.len() > 0 {
+		p := d.sched.pop()
+		d.m.outcome[oTripped].Inc()
+		d.record(rec{arrival: p.arrival, due: p.due, delay: p.delay, drawn: true, outcome: oTripped, state: p.state})
+		d.pool.put(p)
+	}
+	d.m.inFlight.Set(float64(d.pool.inUse()))
+}
+
+// cleanChannel forwards everything at once.
+var cleanChannel = &profiles.Channel{States: []profiles.State{
+	{Name: tripStateName, MeanDwell: math.Inf(1), Delay: profiles.Constant{}},
+}}
+
+// changeChannel puts the direction on ch from now on, unless the trip has
+// fired; it reports whether it did.
+func (d *direction) changeChannel(ch *profiles.Channel) bool {
+	d.mu.Lock()
+	defer d.mu.Unlock()
+	if d.tripped {
+		return false
+	}
+	d.setChannelLocked(ch, nil, d.now())
+	return true
 }
 
 // stop asks the release goroutine to finish: drain releases everything

@@ -15,6 +15,9 @@ const (
 	OutcomeSendError = "send_error"
 	// OutcomeShutdown: still in the schedule when a forced stop came.
 	OutcomeShutdown = "shutdown"
+	// OutcomeTripped: a command dropped, on arrival or while held, because
+	// the safety trip stopped commands (TripStopCommands).
+	OutcomeTripped = "tripped"
 )
 
 // Metrics are the relay's Prometheus metrics, registered on the registry
@@ -29,8 +32,20 @@ type Metrics struct {
 	ChannelState *prometheus.GaugeVec     // direction, state: 1 for the current state
 	Tap          *prometheus.CounterVec   // outcome: sent, send_error
 	RecordLost   prometheus.Counter
-	Reloads      *prometheus.CounterVec // result: ok, error
+	Reloads      *prometheus.CounterVec // result: ok, error, ignored (after a trip)
+	// LossRuns: lengths of the runs of consecutive datagrams the profile
+	// dropped, observed when a datagram the profile kept ends a run.
+	LossRuns *prometheus.HistogramVec // direction
+	Tripped  prometheus.Gauge         // 1 once the safety trip fired
+	// ScenarioPhase: 1 for the phase being played, 0 for those played before.
+	ScenarioPhase   *prometheus.GaugeVec // index, phase
+	ScenarioSteps   prometheus.Counter
+	ScenarioElapsed prometheus.Gauge // seconds since the scenario started, at its latest step
 }
+
+// LossRunBuckets are the upper bounds of the loss-run histogram (counts of
+// datagrams).
+var LossRunBuckets = []float64{1, 2, 3, 4, 6, 8, 12, 16, 24, 32, 64, 128}
 
 // NewMetrics creates the relay's metrics and registers them on reg.
 func NewMetrics(reg prometheus.Registerer) *Metrics {
@@ -73,14 +88,37 @@ func NewMetrics(reg prometheus.Registerer) *Metrics {
 			Name: "rigwire_relay_profile_reloads_total",
 			Help: "Profile reloads, by result.",
 		}, []string{"result"}),
+		LossRuns: prometheus.NewHistogramVec(prometheus.HistogramOpts{
+			Name:    "rigwire_relay_loss_run_length",
+			Help:    "Lengths (datagrams) of the runs of consecutive datagrams dropped by the profile, by direction.",
+			Buckets: LossRunBuckets,
+		}, []string{"direction"}),
+		Tripped: prometheus.NewGauge(prometheus.GaugeOpts{
+			Name: "rigwire_relay_tripped",
+			Help: "1 once the safety trip fired, else 0.",
+		}),
+		ScenarioPhase: prometheus.NewGaugeVec(prometheus.GaugeOpts{
+			Name: "rigwire_relay_scenario_phase",
+			Help: "1 for the scenario phase being played, 0 for the phases played before.",
+		}, []string{"index", "phase"}),
+		ScenarioSteps: prometheus.NewCounter(prometheus.CounterOpts{
+			Name: "rigwire_relay_scenario_steps_total",
+			Help: "Scenario steps applied.",
+		}),
+		ScenarioElapsed: prometheus.NewGauge(prometheus.GaugeOpts{
+			Name: "rigwire_relay_scenario_elapsed_seconds",
+			Help: "Time since the scenario started, at its latest step.",
+		}),
 	}
 	reg.MustRegister(m.Datagrams, m.Bytes, m.Delay, m.Lateness, m.InFlight,
-		m.ChannelState, m.Tap, m.RecordLost, m.Reloads)
+		m.ChannelState, m.Tap, m.RecordLost, m.Reloads, m.LossRuns, m.Tripped,
+		m.ScenarioPhase, m.ScenarioSteps, m.ScenarioElapsed)
 	for _, o := range []string{"sent", OutcomeSendError} {
 		m.Tap.WithLabelValues(o)
 	}
 	m.Reloads.WithLabelValues("ok")
 	m.Reloads.WithLabelValues("error")
+	m.Reloads.WithLabelValues("ignored")
 	return m
 }
 
@@ -92,6 +130,7 @@ type dirMetrics struct {
 	delay    prometheus.Observer
 	lateness prometheus.Observer
 	inFlight prometheus.Gauge
+	lossRuns prometheus.Observer
 }
 
 type outcomeID int
@@ -104,11 +143,12 @@ const (
 	oOversized
 	oSendError
 	oShutdown
+	oTripped
 )
 
 var outcomeIndex = [...]string{oForwarded: OutcomeForwarded, oDropped: OutcomeDropped,
 	oOverflow: OutcomeOverflow, oStranger: OutcomeStranger, oOversized: OutcomeOversized,
-	oSendError: OutcomeSendError, oShutdown: OutcomeShutdown}
+	oSendError: OutcomeSendError, oShutdown: OutcomeShutdown, oTripped: OutcomeTripped}
 
 func (m *Metrics) forDirection(dir string) *dirMetrics {
 	dm := &dirMetrics{
@@ -116,6 +156,7 @@ func (m *Metrics) forDirection(dir string) *dirMetrics {
 		delay:    m.Delay.WithLabelValues(dir),
 		lateness: m.Lateness.WithLabelValues(dir),
 		inFlight: m.InFlight.WithLabelValues(dir),
+		lossRuns: m.LossRuns.WithLabelValues(dir),
 	}
 	for i, o := range outcomeIndex {
 		dm.outcome[i] = m.Datagrams.WithLabelValues(dir, o)

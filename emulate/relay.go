@@ -91,6 +91,10 @@ type Relay struct {
 	tapSent, tapFailed prometheus.Counter
 
 	closing atomic.Bool
+
+	// ctlMu serialises the changes of channel: Reload, Play's steps, Trip.
+	ctlMu   sync.Mutex
+	tripped atomic.Bool
 }
 
 // Defaults of Config.
@@ -254,18 +258,33 @@ func (r *Relay) InFlight() (sensorToController, controllerToActuator int) {
 }
 
 // Reload puts both directions on p's channels from now on. Datagrams
-// already scheduled keep their release times.
+// already scheduled keep their release times. After the safety trip it
+// changes nothing (logged, and counted with result "ignored").
 func (r *Relay) Reload(p *profiles.Profile) {
-	for _, x := range []struct {
-		d  *direction
-		ch *profiles.Channel
-	}{{r.sc, p.SensorToController}, {r.ca, p.ControllerToActuator}} {
-		x.d.mu.Lock()
-		x.d.setChannelLocked(x.ch, nil, x.d.now())
-		x.d.mu.Unlock()
+	if r.apply(p, "reload") {
+		r.m.Reloads.WithLabelValues("ok").Inc()
+	} else {
+		r.m.Reloads.WithLabelValues("ignored").Inc()
+	}
+}
+
+// apply puts both directions on p's channels unless the trip has fired;
+// it reports whether it did. why names the caller in the log.
+func (r *Relay) apply(p *profiles.Profile, why string) bool {
+	r.ctlMu.Lock()
+	defer r.ctlMu.Unlock()
+	if r.tripped.Load() {
+		r.log.Warn("profile change ignored: the safety trip has fired", "by", why)
+		return false
+	}
+	okSC := r.sc.changeChannel(p.SensorToController)
+	okCA := r.ca.changeChannel(p.ControllerToActuator)
+	if !okSC || !okCA { // a trip came in between (it holds ctlMu too, so it cannot)
+		r.log.Warn("profile change ignored: the safety trip has fired", "by", why)
+		return false
 	}
 	r.cfg.Profile = p
-	r.m.Reloads.WithLabelValues("ok").Inc()
+	return true
 }
 
 // Run relays until ctx is done, then stops reading, releases everything
