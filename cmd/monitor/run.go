@@ -19,6 +19,7 @@ import (
 	"github.com/prometheus/client_golang/prometheus/collectors"
 
 	"rigwire/cmd/internal/metricsrv"
+	"rigwire/cmd/internal/tripwire"
 	"rigwire/cmd/monitor/engine"
 	"rigwire/emulate"
 	"rigwire/estimate"
@@ -31,6 +32,7 @@ const runCaution = "SAFETY: the monitor only watches; it does not stop the rig.\
 
 const runUsage = `usage: monitor run --loop LOOP.yaml --listen HOST:PORT [--metrics HOST:PORT] [--duration D]
                    [--summary FILE] [--tolerance X] [--warmup D] [--strict]
+                   [--trip-to HOST:PORT]
 
 Receives the rig's sensor datagrams, decodes them with the loop's decode
 section, estimates E[eᵀe] of e = setpoint − y online with a 95 % batch-means
@@ -42,7 +44,14 @@ the measured value is above the prediction, below when below.
 
 Exit status: 0 once the summary is written (whatever the verdict); with
 --strict: 0 agree, 3 above, 4 below, 5 no samples, 6 the prediction is not
-mean-square stable. 1: a runtime error; 2: bad flags or loop file.
+mean-square stable; 8 (before any of these) when the loop's safety trip
+fired. 1: a runtime error; 2: bad flags or loop file.
+
+With a trip section in the loop file the monitor checks every sample
+against its bounds; when one is crossed it logs a warning and, with
+--trip-to, sends the trip request "rigwire-trip 1 <reason>" (three copies,
+UDP) to the relay's trip socket (impair run --trip-listen). The trip is no
+emergency stop: keep one that does not depend on the link or on rigwire.
 `
 
 func cmdRun(args []string, stdout, stderr io.Writer) error {
@@ -64,6 +73,8 @@ func cmdRun(args []string, stdout, stderr io.Writer) error {
 	fs.Var(&progress, "progress", "status line on stderr every `D` (a duration or seconds; 0: none)")
 	noMargin := fs.Bool("no-margin", false, "skip the loss margin in the prediction")
 	rcvBuf := fs.Int("receive-buffer", 4<<20, "socket receive buffer, `bytes`")
+	var tripTo apFlag
+	fs.Var(&tripTo, "trip-to", "send the safety trip request to the relay's trip socket at `HOST:PORT` (needs a trip section in the loop)")
 	logLevel := fs.String("log-level", "info", "debug, info, warn or error")
 	fs.Usage = func() {
 		fmt.Fprint(stderr, runUsage)
@@ -115,6 +126,22 @@ func cmdRun(args []string, stdout, stderr io.Writer) error {
 	})
 	if err != nil {
 		return usageError{err.Error()}
+	}
+	if tripTo.set && !loop.Trip.Enabled {
+		return usagef("--trip-to: %s has no trip section (the bounds that fire the trip)", *loopPath)
+	}
+	if loop.Trip.Enabled {
+		var tripConn *net.UDPConn
+		if tripTo.set {
+			// Dialled before the run so that the request leaves at once.
+			if tripConn, err = net.DialUDP("udp", nil, net.UDPAddrFromAddrPort(tripTo.ap)); err != nil {
+				return fmt.Errorf("--trip-to %s: %w", tripTo.ap, err)
+			}
+			defer tripConn.Close()
+		}
+		if err := mon.SetTrip(loop.Trip, func(ev engine.TripEvent) { sendTrip(tripConn, ev, log) }); err != nil {
+			return usageError{fmt.Sprintf("%s: %v", *loopPath, err)}
+		}
 	}
 
 	conn, err := net.ListenUDP("udp", net.UDPAddrFromAddrPort(listen.ap))
@@ -172,10 +199,37 @@ func cmdRun(args []string, stdout, stderr io.Writer) error {
 		return fmt.Errorf("receiving: %w", serveErr)
 	}
 	fmt.Fprintln(stderr, verdictLine(sum))
+	if code := sum.TripExitCode(); code != 0 {
+		return exitError{code: code}
+	}
 	if code := sum.ExitCode(*strict); code != 0 {
 		return exitError{code: code}
 	}
 	return nil
+}
+
+// tripCopies is how many copies of a trip request go out: the control
+// path may lose datagrams, and the relay counts the extra ones as repeated
+// (common practice for a one-shot command over UDP).
+const tripCopies = 3
+
+// sendTrip logs the trip and, when conn is not nil, sends the trip request.
+func sendTrip(conn *net.UDPConn, ev engine.TripEvent, log *slog.Logger) {
+	to := "nowhere (no --trip-to)"
+	sent := 0
+	if conn != nil {
+		to = conn.RemoteAddr().String()
+		msg := tripwire.Encode(ev.Reason)
+		for range tripCopies {
+			if _, err := conn.Write(msg); err != nil {
+				log.Error("trip request not sent", "to", to, "err", err)
+				continue
+			}
+			sent++
+		}
+	}
+	log.Warn("SAFETY TRIP fired", "reason", ev.Reason, "value", ev.Value, "bound", ev.Bound,
+		"phase", ev.Phase, "action", ev.Action, "request_to", to, "copies_sent", sent)
 }
 
 // parseWindows reads --windows.
