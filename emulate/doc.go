@@ -7,7 +7,8 @@
 // the Markov channel in continuous time, schedule.go orders pending
 // releases, waiter*.go sleeps until the next one, direction.go ties one
 // direction together, relay.go wires two directions, a tap and a recorder
-// to the sockets, metrics.go and record.go say what happened to every
+// to the sockets, trip.go is the latched safety trip, play.go plays a
+// scenario's steps, metrics.go and record.go say what happened to every
 // datagram.
 //
 // Nothing on the per-datagram path allocates: buffers come from a pool
