@@ -77,7 +77,7 @@ func TestLossRunsGeometric(t *testing.T) {
 	}
 	// P(L = 1) = 1 − p.
 	ones := float64(h.Bucket[0].GetCumulativeCount()) / runs
-	if se1 := math.Sqrt(p*(1-p)/runs); math.Abs(ones-(1-p)) > 5*se1 {
+	if se1 := math.Sqrt(p * (1 - p) / runs); math.Abs(ones-(1-p)) > 5*se1 {
 		t.Errorf("share of runs of length 1: %.4f, want %.4f ± %.4f", ones, 1-p, 5*se1)
 	}
 	// Expected number of runs: n·p·(1−p) (each kept datagram after a loss ends one).
@@ -85,4 +85,3 @@ func TestLossRunsGeometric(t *testing.T) {
 		t.Errorf("%v runs, want about %v", runs, wr)
 	}
 }
-
