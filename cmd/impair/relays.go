@@ -160,6 +160,11 @@ func runLinks(specs []linkSpec, opts runOpts, stderr io.Writer, log *slog.Logger
 		}
 		links = append(links, l)
 	}
+	// Signals are caught before anything is announced, so that a signal
+	// right after the metrics endpoint is up finds the handler.
+	sigs := make(chan os.Signal, 4)
+	signal.Notify(sigs, syscall.SIGINT, syscall.SIGTERM, syscall.SIGHUP)
+	defer signal.Stop(sigs)
 	srv, err := metricsrv.Start(opts.metricsAddr, reg, log)
 	if err != nil {
 		closeAll()
@@ -176,9 +181,6 @@ func runLinks(specs []linkSpec, opts runOpts, stderr io.Writer, log *slog.Logger
 	ctx, cancel := context.WithCancel(context.Background())
 	defer cancel()
 	abort := make(chan struct{})
-	sigs := make(chan os.Signal, 4)
-	signal.Notify(sigs, syscall.SIGINT, syscall.SIGTERM, syscall.SIGHUP)
-	defer signal.Stop(sigs)
 	go func() {
 		stopping := false
 		done := ctx.Done()

@@ -400,6 +400,7 @@ phases:
 	p := startImpair(t, "run", "--scenario", scen, "--time-scale", "0.5", "--exit-after-scenario",
 		"--listen", listen, "--controller", ctl.LocalAddr().String(), "--metrics", "127.0.0.1:0")
 	url := p.metricsURL()
+	p.cmd.Process.Signal(syscall.SIGHUP) // ignored during a scenario
 	sensor := udp(t, "127.0.0.1")
 	// Send until the open phase forwards one (tolerant bound).
 	deadline := time.Now().Add(15 * time.Second)
@@ -436,6 +437,7 @@ phases:
 		"phase 2/2 open: 2s",
 		"scenario conveyor-gate: phase 2/2 open, 4s of 4s (ended)",
 		"the scenario ended (--exit-after-scenario)",
+		"SIGHUP ignored: the link plays a scenario",
 	} {
 		if !strings.Contains(out, want) {
 			t.Errorf("output lacks %q", want)
@@ -467,5 +469,61 @@ func TestRunBadFlags(t *testing.T) {
 		if code != 2 || !strings.Contains(stderr.String(), tc.want) {
 			t.Errorf("impair run %q: status %d, stderr %q; want 2 and %q", tc.args, code, stderr.String(), tc.want)
 		}
+	}
+}
+
+// In a links file, a link's trip socket trips only that link; with
+// stop_commands its commands stop and its sensor datagrams still pass, and
+// the trip counter carries the link label.
+func TestRunLinksTripStopCommands(t *testing.T) {
+	dir := t.TempDir()
+	writeFile(t, dir, "pass.yaml", passProfile)
+	ctlA, ctlB := udp(t, "127.0.0.1"), udp(t, "127.0.0.1")
+	listenA, listenB, tripA := freePort(t), freePort(t), freePort(t)
+	links := writeFile(t, dir, "rigs.yaml", fmt.Sprintf(`links:
+  - {name: diverter, listen: %s, controller: %s, profile: pass.yaml, trip_listen: %s, on_trip: stop_commands}
+  - {name: pick-arm, listen: %s, controller: %s, profile: pass.yaml}
+`, listenA, ctlA.LocalAddr(), tripA, listenB, ctlB.LocalAddr()))
+	p := startImpair(t, "run", "--links", links, "--metrics", "127.0.0.1:0")
+	url := p.metricsURL()
+	actA, actB := udp(t, "127.0.0.1"), udp(t, "127.0.0.1") // sensor nodes, which also take the commands
+
+	// roundTrip: the node sends a sample, the controller answers it with a
+	// command to the relay's upstream socket; it returns whether the
+	// command reached the node.
+	roundTrip := func(node, ctl *net.UDPConn, listen string) bool {
+		t.Helper()
+		sendTo(t, node, listen, []byte("sample"))
+		buf := make([]byte, 64)
+		ctl.SetReadDeadline(time.Now().Add(3 * time.Second))
+		_, up, err := ctl.ReadFromUDP(buf)
+		if err != nil {
+			t.Fatalf("sample not forwarded: %v", err)
+		}
+		if _, err := ctl.WriteToUDP([]byte("command"), up); err != nil {
+			t.Fatal(err)
+		}
+		return countReceived(node, 1, 500*time.Millisecond) == 1
+	}
+	if !roundTrip(actA, ctlA, listenA) || !roundTrip(actB, ctlB, listenB) {
+		t.Fatal("commands not forwarded before the trip")
+	}
+	sendTo(t, udp(t, "127.0.0.1"), tripA, tripwire.Encode("max_abs_error"))
+	waitMetric(t, url, "rigwire_relay_trip_requests_total", 1, `link="diverter"`, `result="accepted"`)
+	if roundTrip(actA, ctlA, listenA) {
+		t.Error("diverter: a command passed after stop_commands")
+	}
+	if !roundTrip(actB, ctlB, listenB) {
+		t.Error("pick-arm: its commands stopped too")
+	}
+	m := scrape(t, url)
+	if v, ok := sample(m, "rigwire_relay_datagrams_total", `link="diverter"`, `direction="controller_to_actuator"`, `outcome="tripped"`); !ok || v != 1 {
+		t.Errorf("diverter tripped commands: %v %v, want 1", v, ok)
+	}
+	if _, ok := sample(m, "rigwire_relay_trip_requests_total", `link="pick-arm"`); ok {
+		t.Error("pick-arm has a trip counter without a trip socket")
+	}
+	if code := p.stop(); code != 0 {
+		t.Errorf("exit status %d", code)
 	}
 }
