@@ -29,6 +29,10 @@ func (a *addrFlag) Set(s string) error {
 	return nil
 }
 
+// lookupNames lets host names be resolved; the fuzz tests turn it off so
+// that no input makes a DNS query.
+var lookupNames = true
+
 // resolveAddr turns HOST:PORT (HOST a name or an address) into one address.
 func resolveAddr(s string) (netip.AddrPort, error) {
 	if ap, err := netip.ParseAddrPort(s); err == nil {
@@ -40,6 +44,9 @@ func resolveAddr(s string) (netip.AddrPort, error) {
 	}
 	if host == "" {
 		return netip.AddrPort{}, fmt.Errorf("want HOST:PORT with a host, got %q", s)
+	}
+	if !lookupNames {
+		return netip.AddrPort{}, fmt.Errorf("want HOST:PORT with an address, got %q", s)
 	}
 	ua, err := net.ResolveUDPAddr("udp", s)
 	if err != nil {

@@ -273,6 +273,9 @@ func resolveHost(s string) (netip.Addr, error) {
 	if s == "" {
 		return netip.Addr{}, fmt.Errorf("want a host, got nothing")
 	}
+	if !lookupNames {
+		return netip.Addr{}, fmt.Errorf("want a host address, got %q", s)
+	}
 	ia, err := net.ResolveIPAddr("ip", s)
 	if err != nil {
 		return netip.Addr{}, fmt.Errorf("want a host: %w", err)

@@ -85,3 +85,26 @@ links:
 		t.Errorf("second link: %+v", b)
 	}
 }
+
+// FuzzParseLinks: any file is accepted or rejected with a positioned
+// error, never a panic.
+func FuzzParseLinks(f *testing.F) {
+	for _, s := range []string{
+		"links:\n  - {name: a, listen: 127.0.0.1:7001, controller: 127.0.0.1:7101, profile: p.yaml}\n",
+		"links: [{name: a, listen: 127.0.0.1:7001, controller: 127.0.0.1:7101, scenario: s.yaml, trip_listen: 127.0.0.1:7401, on_trip: clean, trip_from: 127.0.0.1}]\n",
+		"metrics: off\nlinks: &x [*x]\n",
+	} {
+		f.Add([]byte(s))
+	}
+	lookupNames = false
+	f.Cleanup(func() { lookupNames = true })
+	f.Fuzz(func(t *testing.T, data []byte) {
+		lf, err := parseLinks(data, "fuzz.yaml", "/nowhere")
+		if err == nil && len(lf.Links) == 0 {
+			t.Fatal("accepted a file without links")
+		}
+		if err != nil && !strings.HasPrefix(err.Error(), "fuzz.yaml") {
+			t.Fatalf("error without the file name: %v", err)
+		}
+	})
+}
