@@ -27,9 +27,9 @@ const DefaultMinSamples = 20
 type PhaseResult struct {
 	Index int    `json:"index"`
 	Name  string `json:"name"`
-	// Start and End are seconds since the monitor started.
-	Start float64  `json:"start_seconds"`
-	End   *float64 `json:"end_seconds"`
+	// StartSeconds and EndSeconds are seconds since the monitor started.
+	StartSeconds float64  `json:"start_seconds"`
+	EndSeconds   *float64 `json:"end_seconds"`
 	// Samples were judged (added to the phase's estimate);
 	// SettleSamples arrived within the settling time and were not.
 	Samples               int64    `json:"samples"`
@@ -175,7 +175,7 @@ func (m *Monitor) result(p *phase) PhaseResult {
 	if !p.unstable && p.predN > 0 {
 		pr = p.predSum / float64(p.predN)
 	}
-	r := PhaseResult{Index: p.index, Name: p.name, Start: p.start.Sub(m.started).Seconds(),
+	r := PhaseResult{Index: p.index, Name: p.name, StartSeconds: p.start.Sub(m.started).Seconds(),
 		Samples: st.Samples, SettleSamples: p.settleN,
 		ErrorSecondMoment: finite(st.SecondMoment), CILow: finite(st.CILow), CIHigh: finite(st.CIHigh),
 		PredictedSecondMoment: finite(pr), Ratio: finite(st.SecondMoment / pr),
@@ -198,7 +198,7 @@ func (m *Monitor) result(p *phase) PhaseResult {
 	}
 	if p.ended {
 		end := p.end.Sub(m.started).Seconds()
-		r.End = &end
+		r.EndSeconds = &end
 	} else {
 		r.Reason = "so far " + r.Verdict + ": " + reason
 		r.Verdict = PhaseRunning
