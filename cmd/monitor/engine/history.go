@@ -59,14 +59,17 @@ func (h *history) tick(m *Monitor, at time.Time) {
 	if h.since < h.every {
 		return
 	}
-	h.since = 0
 	if len(h.points) == MaxHistory {
 		for i := 0; i < MaxHistory/2; i++ {
 			h.points[i] = h.points[2*i+1]
 		}
 		h.points = h.points[:MaxHistory/2]
 		h.every *= 2
+		if h.since < h.every {
+			return // the next point comes at the doubled spacing
+		}
 	}
+	h.since = 0
 	var st struct{ x, lo, hi float64 }
 	if len(m.windows) > 0 {
 		ws := m.on.Window(m.shortest(), m.meanBuf)
