@@ -167,6 +167,13 @@ func TestTripAndPhaseMetrics(t *testing.T) {
 			t.Errorf("%s: %d series (%v), want %d", name, n, err, want)
 		}
 	}
+	problems, err := testutil.GatherAndLint(reg)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, p := range problems {
+		t.Errorf("promlint: %s: %s", p.Metric, p.Text)
+	}
 	if v := testutil.ToFloat64(gatherOne(t, reg, "rigwire_monitor_trip_active")); v != 1 {
 		t.Errorf("trip_active %v", v)
 	}
