@@ -17,6 +17,8 @@ type Scenario struct {
 	// default 1s).
 	RampStep time.Duration
 	Phases   []Phase
+
+	src []phaseSource // per phase: its profile's tree and overrides
 }
 
 // Phase is one phase of a scenario.
