@@ -93,8 +93,15 @@ func (p *playingScenario) progress(elapsed time.Duration) string {
 		elapsed = p.total
 	}
 	i := p.phaseAt(elapsed)
+	unit := time.Second // tenths for a short (scaled) scenario
+	if p.total < time.Minute {
+		unit = 100 * time.Millisecond
+	}
+	if elapsed != p.total {
+		elapsed = elapsed.Round(unit)
+	}
 	return fmt.Sprintf("scenario %s: phase %d/%d %s, %s of %s",
-		p.name, i+1, len(p.names), p.names[i], elapsed.Round(time.Second), p.total)
+		p.name, i+1, len(p.names), p.names[i], elapsed, p.total)
 }
 
 // play plays the scenario on relay (emulate logs each phase change and

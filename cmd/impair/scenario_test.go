@@ -32,4 +32,12 @@ func TestScenarioProgressLine(t *testing.T) {
 			t.Errorf("at %v: %q\nwant %q", tc.at, got, tc.want)
 		}
 	}
+	short := &playingScenario{name: "pump-rehearsal", names: []string{"calm"},
+		sc: &profiles.Scenario{Phases: []profiles.Phase{{Name: "calm", Duration: 10200 * time.Millisecond}}}, total: 10200 * time.Millisecond}
+	if got, want := short.progress(short.total), "scenario pump-rehearsal: phase 1/1 calm, 10.2s of 10.2s"; got != want {
+		t.Errorf("short scenario's end: %q, want %q", got, want)
+	}
+	if got, want := short.progress(4*time.Second+140*time.Millisecond), "scenario pump-rehearsal: phase 1/1 calm, 4.1s of 10.2s"; got != want {
+		t.Errorf("short scenario: %q, want %q", got, want)
+	}
 }
