@@ -527,3 +527,44 @@ func TestRunLinksTripStopCommands(t *testing.T) {
 		t.Errorf("exit status %d", code)
 	}
 }
+
+// A scenario link in a links file: its phase metric carries the link
+// label, and with --exit-after-scenario the whole process (the profile
+// link too) drains and exits 0 when it ends.
+func TestRunLinksScenario(t *testing.T) {
+	dir := t.TempDir()
+	writeFile(t, dir, "block.yaml", blockProfile)
+	writeFile(t, dir, "pass.yaml", passProfile)
+	writeFile(t, dir, "gate.yaml", `name: pump-gate
+profile: block.yaml
+phases:
+  - {name: blocked, duration: 4s}
+  - {name: open, duration: 8s, set: {sensor_to_controller.loss: 0}}
+`)
+	ctlA, ctlB := udp(t, "127.0.0.1"), udp(t, "127.0.0.1")
+	listenA, listenB := freePort(t), freePort(t)
+	links := writeFile(t, dir, "rigs.yaml", fmt.Sprintf(`metrics: 127.0.0.1:0
+links:
+  - {name: pump, listen: %s, controller: %s, scenario: gate.yaml}
+  - {name: conveyor, listen: %s, controller: %s, profile: pass.yaml}
+`, listenA, ctlA.LocalAddr(), listenB, ctlB.LocalAddr()))
+	p := startImpair(t, "run", "--links", links, "--time-scale", "0.25", "--exit-after-scenario")
+	url := p.metricsURL()
+	waitMetric(t, url, "rigwire_relay_scenario_phase", 1, `link="pump"`, `phase="open"`)
+	m := scrape(t, url)
+	if _, ok := sample(m, "rigwire_relay_scenario_phase", `link="conveyor"`, `phase="open"`); ok {
+		t.Error("the profile link has the scenario's phase")
+	}
+	sensor := udp(t, "127.0.0.1")
+	sendTo(t, sensor, listenA, []byte("a"))
+	sendTo(t, sensor, listenB, []byte("b"))
+	if countReceived(ctlA, 1, 3*time.Second) != 1 || countReceived(ctlB, 1, 3*time.Second) != 1 {
+		t.Error("open phase / profile link did not forward")
+	}
+	if code := p.wait(); code != 0 {
+		t.Errorf("exit status %d", code)
+	}
+	if out := p.output(); !strings.Contains(out, "link pump: scenario pump-gate") || !strings.Contains(out, "link=pump") {
+		t.Error("scenario phases not printed with the link's name")
+	}
+}
