@@ -30,6 +30,9 @@ commands:
   run --loop LOOP.yaml measure E[eᵀe] from the rig's sensor datagrams, beside the prediction
   demo                 rig, relay and monitor on loopback: predicted vs measured
   serve --loop LOOP    relay and monitor of one rig in one process
+  soak --loop LOOP --scenario FILE
+                       play a scenario's phases on the relay and judge each phase (exit 0 pass,
+                       7 a phase failed, 8 safety trip); --report DIR writes HTML and PNG plots
 
 run "monitor COMMAND -h" for the flags of a command
 `
@@ -58,6 +61,8 @@ func run(args []string, stdout, stderr io.Writer) int {
 		err = cmdDemo(args[1:], stdout, stderr)
 	case "serve":
 		err = cmdServe(args[1:], stdout, stderr)
+	case "soak":
+		err = cmdSoak(args[1:], stdout, stderr)
 	case "run":
 		err = cmdRun(args[1:], stdout, stderr)
 	case "-h", "-help", "--help", "help":

@@ -1,0 +1,287 @@
+package main
+
+import (
+	"context"
+	"encoding/json"
+	"flag"
+	"fmt"
+	"io"
+	"log/slog"
+	"math"
+	"os"
+	"path/filepath"
+	"strings"
+	"sync"
+	"time"
+
+	"rigwire/cmd/monitor/engine"
+	"rigwire/emulate"
+	"rigwire/estimate"
+	"rigwire/profiles"
+)
+
+// soakCaution is printed before a soak relays the rig's datagrams.
+const soakCaution = "SAFETY: the relay will delay and drop the commands that move your rig, following the\n" +
+	"scenario's phases (outages included). The loop file's trip section is a software guard only.\n" +
+	emulate.SafetyCautions
+
+// Exit statuses of `monitor soak` (1 and 2 stay error and usage).
+const (
+	soakExitFailed  = 7 // a phase failed its check
+	soakExitTripped = 8 // the safety trip fired
+)
+
+// cmdSoak plays a scenario on the relay (in process, like serve) while the
+// monitor engine judges each phase against its own prediction, shows the
+// progress, and ends with a per-phase verdict, a JSON summary, an exit
+// status for lab scripts and, with --report, an HTML report and its plots
+// as PNG files.
+func cmdSoak(args []string, stdout, stderr io.Writer) error {
+	fs := flag.NewFlagSet("monitor soak", flag.ContinueOnError)
+	fs.SetOutput(stderr)
+	loopPath := fs.String("loop", "", "loop `FILE` (YAML, with a decode section; its trip section arms the safety trip) (required)")
+	scenarioPath := fs.String("scenario", "", "scenario `FILE`: the phases the relay applies (required)")
+	listen := fs.String("listen", "", "`HOST:PORT` where the sensor node's datagrams arrive (required)")
+	controller := fs.String("controller", "", "`HOST:PORT` of the controller (required)")
+	actuator := fs.String("actuator", "", "`HOST:PORT` for commands (default: the source of the latest sensor datagram)")
+	metrics := fs.String("metrics", "127.0.0.1:9475", "serve the relay's and the monitor's metrics on `HOST:PORT` (\"off\": none)")
+	summaryPath := fs.String("summary", "", "write the JSON summary to `FILE` (default: stdout)")
+	reportDir := fs.String("report", "", "write report.html and the plots as PNG into `DIR`")
+	timeScale := fs.Float64("time-scale", 1, "multiply every phase duration and settling time by `F` (0 < F ≤ 100)")
+	afterTrip := fs.Duration("after-trip", 5*time.Second, "keep relaying (as the trip action says) this long after a trip before ending")
+	seed := fs.Uint64("seed", 0, "seed of the relay's decisions (default: the profile's, else random)")
+	every := fs.Duration("progress", 5*time.Second, "status line on stderr every `D` (0: none)")
+	if err := fs.Parse(args); err != nil {
+		return parseErr(err)
+	}
+	switch {
+	case fs.NArg() > 0:
+		return usagef("unexpected argument %q", fs.Arg(0))
+	case *loopPath == "":
+		return usagef("--loop: required")
+	case *scenarioPath == "":
+		return usagef("--scenario: required")
+	case *listen == "":
+		return usagef("--listen: required")
+	case *controller == "":
+		return usagef("--controller: required")
+	case !(*timeScale > 0 && *timeScale <= 100):
+		return usagef("--time-scale: want 0 < F ≤ 100, got %g", *timeScale)
+	case *afterTrip < 0 || *afterTrip > time.Hour:
+		return usagef("--after-trip: want 0…1h, got %s", *afterTrip)
+	case *every < 0:
+		return usagef("--progress: want ≥ 0, got %s", *every)
+	}
+	seedSet := false
+	fs.Visit(func(f *flag.Flag) { seedSet = seedSet || f.Name == "seed" })
+	log := slog.New(slog.NewTextHandler(stderr, nil))
+
+	loop, err := profiles.LoadLoop(*loopPath)
+	if err != nil {
+		return err
+	}
+	sc, err := profiles.LoadScenario(*scenarioPath)
+	if err != nil {
+		return err
+	}
+	if *timeScale != 1 {
+		sc = sc.Scale(*timeScale)
+	}
+	steps, err := sc.Steps()
+	if err != nil {
+		return fmt.Errorf("%s: %w", sc.File, err)
+	}
+	preds, err := predictSteps(loop, steps, stderr)
+	if err != nil {
+		return err
+	}
+	first := *loop
+	first.Profile, first.ProfileFile = steps[0].Profile, ""
+	b, err := openBench(benchConfig{loop: &first, profile: steps[0].Profile, listen: *listen, controller: *controller,
+		actuator: *actuator, metrics: *metrics, seed: *seed, seedSet: seedSet, log: log, metricsNote: stderr})
+	if err != nil {
+		return err
+	}
+	fmt.Fprint(stderr, soakCaution)
+	names := make([]string, len(sc.Phases))
+	for i, p := range sc.Phases {
+		names[i] = p.Name
+	}
+	log.Info("soak", "scenario", sc.File, "phases", strings.Join(names, ","), "duration", sc.Total().String(),
+		"loop", loop.File, "listen", b.relay.ListenAddr().String(), "controller", *controller, "metrics", b.url,
+		"seed", b.relay.Seed())
+
+	ctx, cancel := signalContext()
+	defer cancel()
+	relayCtx, stopRelay := context.WithCancel(ctx)
+	defer stopRelay()
+	var tripOnce sync.Once
+	tripped := make(chan struct{})
+	if loop.Trip.Enabled {
+		err := b.mon.SetTrip(loop.Trip, func(ev engine.TripEvent) {
+			b.relay.Trip(loop.Trip.Action, ev.Reason)
+			log.Warn("safety trip", "reason", ev.Reason, "value", ev.Value, "bound", ev.Bound,
+				"phase", ev.Phase, "action", loop.Trip.Action.String())
+			tripOnce.Do(func() { close(tripped) })
+		})
+		if err != nil {
+			return fmt.Errorf("%s: trip: %w", loop.File, err)
+		}
+	}
+	benchDone := make(chan error, 1)
+	go func() { benchDone <- b.run(relayCtx, stderr, 0) }()
+
+	onStep := func(st profiles.ScenarioStep) {
+		ph := sc.Phases[st.Phase]
+		if st.Frac == 0 {
+			b.mon.StartPhase(st.Phase, ph.Name, preds[st.Predict], ph.Settle, ph.Check)
+			log.Info("phase", "index", st.Phase+1, "of", len(sc.Phases), "name", ph.Name, "duration", ph.Duration.String())
+			return
+		}
+		b.mon.UpdatePrediction(preds[st.Predict])
+	}
+	playDone := make(chan error, 1)
+	started := time.Now()
+	go func() { playDone <- b.relay.Play(ctx, names, steps, sc.Total(), onStep) }()
+
+	var tick <-chan time.Time
+	if *every > 0 {
+		t := time.NewTicker(*every)
+		defer t.Stop()
+		tick = t.C
+	}
+	var playErr error
+	var afterTripC <-chan time.Time
+wait:
+	for {
+		select {
+		case playErr = <-playDone:
+			break wait
+		case <-tripped:
+			tripped = nil
+			afterTripC = time.After(*afterTrip)
+		case <-afterTripC:
+			break wait
+		case <-tick:
+			fmt.Fprintln(stderr, soakProgress(sc, b.mon, time.Since(started)))
+		}
+	}
+	stopRelay()
+	if err := <-benchDone; err != nil {
+		return err
+	}
+	b.mon.EndPhases()
+	s := b.mon.Summary()
+	code := s.SoakExitCode()
+	if playErr != nil && code == 0 {
+		// Interrupted before the end: the phases not played were not judged.
+		log.Warn("soak interrupted before the scenario's end", "elapsed", time.Since(started).Round(time.Millisecond).String())
+	}
+	out, err := json.MarshalIndent(s, "", "  ")
+	if err != nil {
+		return err
+	}
+	out = append(out, '\n')
+	if *summaryPath == "" {
+		if _, err := stdout.Write(out); err != nil {
+			return err
+		}
+	} else if err := os.WriteFile(*summaryPath, out, 0o644); err != nil {
+		return fmt.Errorf("--summary: %w", err)
+	}
+	soakTable(stderr, s)
+	if *reportDir != "" {
+		files, err := writeSoakReport(*reportDir, b, sc, loop, s, started, code)
+		if err != nil {
+			return fmt.Errorf("--report: %w", err)
+		}
+		fmt.Fprintf(stderr, "report: %s\n", filepath.Join(*reportDir, "report.html"))
+		log.Debug("report files", "files", files)
+	}
+	switch {
+	case s.Trip != nil:
+		return exitError{code: soakExitTripped, msg: fmt.Sprintf("safety trip in phase %q: %s %.5g above the bound %.5g",
+			s.Trip.Phase, s.Trip.Reason, s.Trip.Value, s.Trip.Bound)}
+	case code == soakExitFailed:
+		var failed []string
+		for _, p := range s.Phases {
+			if p.Verdict == "fail" {
+				failed = append(failed, fmt.Sprintf("%q (%s)", p.Name, p.Reason))
+			}
+		}
+		return exitError{code: soakExitFailed, msg: "failed phase " + strings.Join(failed, ", ")}
+	case code != 0:
+		return exitError{code: code}
+	case playErr != nil:
+		return exitError{code: soakExitFailed, msg: "interrupted before the scenario's end: " + playErr.Error()}
+	}
+	return nil
+}
+
+// predictSteps computes the prediction for each distinct profile the steps
+// predict with, showing how far it is.
+func predictSteps(loop *profiles.Loop, steps []profiles.ScenarioStep, progress io.Writer) (map[*profiles.Profile]*estimate.Prediction, error) {
+	preds := map[*profiles.Profile]*estimate.Prediction{}
+	var todo []*profiles.Profile
+	for _, st := range steps {
+		if _, ok := preds[st.Predict]; !ok {
+			preds[st.Predict] = nil
+			todo = append(todo, st.Predict)
+		}
+	}
+	last := time.Now()
+	for i, p := range todo {
+		l := *loop
+		l.Profile, l.ProfileFile = p, ""
+		pr, err := estimate.Predict(&l, estimate.PredictOptions{SkipMargin: true})
+		if err != nil {
+			return nil, fmt.Errorf("%s: prediction for step %d of the scenario: %w", loop.File, i+1, err)
+		}
+		preds[p] = pr
+		if time.Since(last) > time.Second || i+1 == len(todo) && len(todo) > 20 {
+			fmt.Fprintf(progress, "predicting: %d of %d scenario steps\n", i+1, len(todo))
+			last = time.Now()
+		}
+	}
+	return preds, nil
+}
+
+// soakProgress is the status line: phase, scenario time and the measurement.
+func soakProgress(sc *profiles.Scenario, mon *engine.Monitor, elapsed time.Duration) string {
+	phases := mon.Phases()
+	cur := "-"
+	if n := len(phases); n > 0 {
+		p := phases[n-1]
+		cur = fmt.Sprintf("phase %d/%d %s", p.Index+1, len(sc.Phases), p.Name)
+		if p.ErrorSecondMoment != nil && p.PredictedSecondMoment != nil {
+			cur += fmt.Sprintf(" (phase E[eᵀe] %.4g, predicted %.4g)", *p.ErrorSecondMoment, *p.PredictedSecondMoment)
+		}
+	}
+	total := sc.Total()
+	pct := 100 * math.Min(1, elapsed.Seconds()/total.Seconds())
+	return fmt.Sprintf("soak %s: %s of %s (%.0f %%), %s | %s", sc.Name, elapsed.Round(time.Second), total, pct, cur,
+		strings.TrimSpace(mon.Progress().String()))
+}
+
+// soakTable prints one line per phase: verdict, measured, predicted, why.
+func soakTable(w io.Writer, s *engine.Summary) {
+	val := func(p *float64) string {
+		if p == nil {
+			return "-"
+		}
+		return fmt.Sprintf("%.4g", *p)
+	}
+	fmt.Fprintf(w, "\n%-16s %-8s %8s %-12s %-22s %-12s %s\n", "phase", "verdict", "samples", "E[eᵀe]", "95 % CI", "predicted", "reason")
+	for _, p := range s.Phases {
+		ci := "-"
+		if p.CILow != nil && p.CIHigh != nil {
+			ci = fmt.Sprintf("[%.4g, %.4g]", *p.CILow, *p.CIHigh)
+		}
+		fmt.Fprintf(w, "%-16s %-8s %8d %-12s %-22s %-12s %s\n", p.Name, p.Verdict, p.Samples,
+			val(p.ErrorSecondMoment), ci, val(p.PredictedSecondMoment), p.Reason)
+	}
+	if s.Trip != nil {
+		fmt.Fprintf(w, "\nsafety trip: %s %.5g above %.5g in phase %q after %.3fs; relay action %s\n",
+			s.Trip.Reason, s.Trip.Value, s.Trip.Bound, s.Trip.Phase, s.Trip.Elapsed, s.Trip.Action)
+	}
+}

@@ -1,0 +1,143 @@
+package tests
+
+import (
+	"encoding/json"
+	"image/png"
+	"os"
+	"path/filepath"
+	"strings"
+	"testing"
+	"time"
+)
+
+// soakResult is the part of `monitor soak`'s summary the tests read.
+type soakResult struct {
+	Samples int64 `json:"samples"`
+	Phases  []struct {
+		Name      string   `json:"name"`
+		Verdict   string   `json:"verdict"`
+		Reason    string   `json:"reason"`
+		Samples   int64    `json:"samples"`
+		Measured  *float64 `json:"error_second_moment"`
+		Predicted *float64 `json:"predicted_second_moment"`
+	} `json:"phases"`
+	Trip *struct {
+		Reason   string  `json:"reason"`
+		Sequence *uint64 `json:"sequence"`
+		Action   string  `json:"action"`
+	} `json:"trip"`
+}
+
+// runSoak plays scenario on the simulated rig (rig controller and rig node
+// as their own processes, `monitor soak` relaying between them) at the
+// given time scale and returns the exit status, the output and the summary.
+func runSoak(t *testing.T, scenario string, scale string, wall time.Duration, reportDir string) (int, string, *soakResult) {
+	t.Helper()
+	mon := buildCmd(t, "monitor")
+	loop := filepath.Join("examples", "soak-diverter.loop.yaml")
+	dir := t.TempDir()
+	ctlAddr, relayAddr := freePort(t, "udp"), freePort(t, "udp")
+	summary := filepath.Join(dir, "summary.json")
+	ctl := start(t, mon, "rig", "controller", "--loop", loop, "--listen", ctlAddr)
+	args := []string{"soak", "--loop", loop, "--scenario", scenario, "--time-scale", scale,
+		"--listen", relayAddr, "--controller", ctlAddr, "--metrics", freePort(t, "tcp"),
+		"--summary", summary, "--progress", "5s"}
+	if reportDir != "" {
+		args = append(args, "--report", reportDir)
+	}
+	soak := start(t, mon, args...)
+	time.Sleep(300 * time.Millisecond)
+	node := start(t, mon, "rig", "node", "--loop", loop, "--relay", relayAddr, "--seed", "11")
+	code := soak.wait(t, wall+90*time.Second) // predicting the ramp's steps comes first
+	node.signal(t, 15)
+	ctl.signal(t, 15)
+	node.wait(t, 10*time.Second)
+	ctl.wait(t, 10*time.Second)
+	out := soak.out.String()
+	b, err := os.ReadFile(summary)
+	if err != nil {
+		t.Fatalf("no summary (exit %d): %v\n%s", code, err, out)
+	}
+	var s soakResult
+	if err := json.Unmarshal(b, &s); err != nil {
+		t.Fatalf("summary: %v\n%s", err, b)
+	}
+	return code, out, &s
+}
+
+// TestSoakPasses plays ten minutes of scenario time (three phases: nominal,
+// a ramp of the command path's delay, recovery) at a tenth of the time on
+// the simulated diverter: every phase's measured E[eᵀe] must agree with
+// its own prediction (MODEL.md §4; quasi-static mean over the ramp) within
+// the scenario's tolerance, the soak exits 0, and the report is written.
+func TestSoakPasses(t *testing.T) {
+	if testing.Short() {
+		t.Skip("a one-minute soak")
+	}
+	t.Parallel()
+	rep := t.TempDir()
+	code, out, s := runSoak(t, filepath.Join("examples", "soak-diverter.yaml"), "0.1", time.Minute, rep)
+	if code != 0 {
+		t.Fatalf("monitor soak exited %d, want 0:\n%s", code, out)
+	}
+	want := []string{"nominal", "degrading", "recovery"}
+	if len(s.Phases) != len(want) {
+		t.Fatalf("phases %+v, want %v", s.Phases, want)
+	}
+	for i, p := range s.Phases {
+		if p.Name != want[i] || p.Verdict != "pass" || p.Samples < 500 {
+			t.Errorf("phase %d: %+v, want %s passed with ≥ 500 samples", i, p, want[i])
+		}
+	}
+	// The ramp raises the prediction (1.5 ms → 5 ms median command delay).
+	if a, b := s.Phases[0].Predicted, s.Phases[1].Predicted; a == nil || b == nil || !(*b > *a*1.05) {
+		t.Errorf("degrading predicted %v, nominal %v: want the ramp to raise it", b, a)
+	}
+	for _, w := range []string{"phase 2/3 degrading", "report:"} {
+		if !strings.Contains(out, w) {
+			t.Errorf("soak output lacks %q:\n%s", w, out)
+		}
+	}
+	for _, f := range []string{"report.html", "second-moment.png", "phases.png", "ratio.png"} {
+		path := filepath.Join(rep, f)
+		b, err := os.ReadFile(path)
+		if err != nil {
+			t.Errorf("report: %v", err)
+			continue
+		}
+		if strings.HasSuffix(f, ".png") {
+			if _, err := png.Decode(strings.NewReader(string(b))); err != nil {
+				t.Errorf("%s: %v", f, err)
+			}
+		} else if !strings.Contains(string(b), "degrading") || !strings.Contains(string(b), "data:image/png;base64,") {
+			t.Errorf("report.html lacks the phase names or its embedded plots")
+		}
+	}
+}
+
+// TestSoakWrongPredictionFails plays the same ten minutes but judges the
+// recovery phase against a wrong belief about the command path (8 ms median
+// delay instead of 1.5 ms): the soak exits 7 and names recovery, and only
+// recovery, as failed.
+func TestSoakWrongPredictionFails(t *testing.T) {
+	if testing.Short() {
+		t.Skip("a one-minute soak")
+	}
+	t.Parallel()
+	code, out, s := runSoak(t, filepath.Join("examples", "soak-diverter-wrong.yaml"), "0.1", time.Minute, "")
+	if code != 7 {
+		t.Fatalf("monitor soak exited %d, want 7 (a phase failed):\n%s", code, out)
+	}
+	if !strings.Contains(out, `failed phase "recovery"`) {
+		t.Errorf("the soak does not name the failed phase:\n%s", out)
+	}
+	for _, p := range s.Phases {
+		want := "pass"
+		if p.Name == "recovery" {
+			want = "fail"
+		}
+		if p.Verdict != want {
+			t.Errorf("phase %s: verdict %s (%s), want %s", p.Name, p.Verdict, p.Reason, want)
+		}
+	}
+}

@@ -1,0 +1,205 @@
+package tests
+
+import (
+	"encoding/json"
+	"fmt"
+	"net"
+	"os"
+	"path/filepath"
+	"strconv"
+	"strings"
+	"sync"
+	"testing"
+	"time"
+)
+
+// tripLoop is a first-order pump-pressure loop (invented) whose samples
+// the test writes itself, with a safety trip on |e| > 0.5. The network
+// loses half of everything and holds the rest 50 ms, five periods, so a
+// datagram forwarded clean is told apart from an impaired one by its
+// latency alone.
+const tripLoop = `period: 10ms
+plant: {a: [[-1]], b: [[1]], c: [[1]]}
+controller: {d: [[0.5]]}
+setpoint: [0]
+profile:
+  seed: 5
+  sensor_to_controller: {loss: 0.5, delay: {kind: constant, value: 50ms}}
+  controller_to_actuator: {loss: 0.5, delay: {kind: constant, value: 50ms}}
+decode:
+  format: text
+  sequence: {field: 0}
+  outputs: [{field: 2}]
+trip:
+  max_abs_error: 0.5
+  action: %s
+`
+
+const tripScenario = `name: pump-trip
+profile:
+  seed: 5
+  sensor_to_controller: {loss: 0.5, delay: {kind: constant, value: 50ms}}
+  controller_to_actuator: {loss: 0.5, delay: {kind: constant, value: 50ms}}
+phases:
+  - {name: impaired, duration: 30s}
+`
+
+// TestTripWithinOnePeriod drives `monitor soak` with samples the test
+// writes as the sensor node (every 10 ms, |e| = 0.01 except sample 100,
+// |e| = 1) and answers as the controller. Sample 100 crosses the bound;
+// sample 101, sent one period later, must already pass the relay as the
+// trip action says: clean (no loss, no delay, for samples and commands) or
+// stop_commands (samples clean, no command reaches the actuator any more).
+// The soak then ends with exit status 8 and names the sample that tripped.
+func TestTripWithinOnePeriod(t *testing.T) {
+	for _, action := range []string{"clean", "stop_commands"} {
+		t.Run(action, func(t *testing.T) {
+			t.Parallel()
+			tripRun(t, action)
+		})
+	}
+}
+
+func tripRun(t *testing.T, action string) {
+	mon := buildCmd(t, "monitor")
+	dir := t.TempDir()
+	loop, scen := filepath.Join(dir, "loop.yaml"), filepath.Join(dir, "scenario.yaml")
+	if err := os.WriteFile(loop, fmt.Appendf(nil, tripLoop, action), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	if err := os.WriteFile(scen, []byte(tripScenario), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	ctl, err := net.ListenUDP("udp4", &net.UDPAddr{IP: net.IPv4(127, 0, 0, 1)})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer ctl.Close()
+	node, err := net.ListenUDP("udp4", &net.UDPAddr{IP: net.IPv4(127, 0, 0, 1)})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer node.Close()
+	relayAddr := freePort(t, "udp")
+	summary := filepath.Join(dir, "summary.json")
+	soak := start(t, mon, "soak", "--loop", loop, "--scenario", scen, "--listen", relayAddr,
+		"--controller", ctl.LocalAddr().String(), "--metrics", "off", "--summary", summary,
+		"--after-trip", "1s", "--progress", "0")
+	time.Sleep(500 * time.Millisecond)
+
+	var mu sync.Mutex
+	sent := map[int]time.Time{}
+	atCtl := map[int]time.Time{}  // sample k reached the controller
+	atNode := map[int]time.Time{} // command k reached the actuator
+	go func() {
+		buf := make([]byte, 256)
+		for {
+			n, from, err := ctl.ReadFromUDP(buf)
+			if err != nil {
+				return
+			}
+			k, _ := strconv.Atoi(strings.SplitN(string(buf[:n]), ",", 2)[0])
+			mu.Lock()
+			atCtl[k] = time.Now()
+			mu.Unlock()
+			ctl.WriteToUDP([]byte(strconv.Itoa(k)), from) // the command for sample k
+		}
+	}()
+	go func() {
+		buf := make([]byte, 256)
+		for {
+			n, _, err := node.ReadFromUDP(buf)
+			if err != nil {
+				return
+			}
+			k, _ := strconv.Atoi(string(buf[:n]))
+			mu.Lock()
+			atNode[k] = time.Now()
+			mu.Unlock()
+		}
+	}()
+	ra, err := net.ResolveUDPAddr("udp4", relayAddr)
+	if err != nil {
+		t.Fatal(err)
+	}
+	const crossing, last = 100, 160
+	tick := time.NewTicker(10 * time.Millisecond)
+	for k := 0; k <= last; k++ {
+		<-tick.C
+		y := 0.01
+		if k == crossing {
+			y = 1
+		}
+		mu.Lock()
+		sent[k] = time.Now()
+		mu.Unlock()
+		if _, err := node.WriteToUDP(fmt.Appendf(nil, "%d,%.3f,%g", k, float64(k)*0.01, y), ra); err != nil {
+			t.Fatal(err)
+		}
+	}
+	tick.Stop()
+	code := soak.wait(t, 20*time.Second)
+	time.Sleep(100 * time.Millisecond)
+	if code != 8 {
+		t.Fatalf("monitor soak exited %d, want 8 (safety trip):\n%s", code, soak.out.String())
+	}
+
+	mu.Lock()
+	defer mu.Unlock()
+	// Before the crossing the profile held: about half lost, the rest 50 ms late.
+	before := 0
+	for k := 0; k < crossing; k++ {
+		if at, ok := atCtl[k]; ok {
+			before++
+			if d := at.Sub(sent[k]); d < 45*time.Millisecond {
+				t.Errorf("sample %d before the trip passed in %s, want the profile's 50 ms", k, d)
+			}
+		}
+	}
+	if before < 25 || before > 75 {
+		t.Errorf("%d of %d samples before the trip reached the controller, want about half", before, crossing)
+	}
+	// From the next sample on (one period after the crossing) all pass at once.
+	for k := crossing + 1; k <= last; k++ {
+		at, ok := atCtl[k]
+		if !ok {
+			t.Errorf("sample %d, after the trip, did not reach the controller", k)
+			continue
+		}
+		if d := at.Sub(sent[k]); d > 25*time.Millisecond {
+			t.Errorf("sample %d after the trip took %s, want clean forwarding (the profile's delay is 50 ms)", k, d)
+		}
+	}
+	cmds := 0
+	for k := crossing + 1; k <= last; k++ {
+		if _, ok := atNode[k]; ok {
+			cmds++
+		}
+	}
+	switch action {
+	case "clean":
+		if cmds != last-crossing {
+			t.Errorf("%d of %d commands after the trip reached the actuator, want all (clean forwarding)", cmds, last-crossing)
+		}
+	case "stop_commands":
+		for k, at := range atNode {
+			if at.After(sent[crossing+1]) {
+				t.Errorf("command %d reached the actuator at %s, after the trip (stop_commands)", k, at.Sub(sent[crossing+1]))
+			}
+		}
+	}
+	b, err := os.ReadFile(summary)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var s soakResult
+	if err := json.Unmarshal(b, &s); err != nil {
+		t.Fatal(err)
+	}
+	if s.Trip == nil || s.Trip.Reason != "abs_error" || s.Trip.Sequence == nil || *s.Trip.Sequence != crossing || s.Trip.Action != action {
+		t.Errorf("summary trip %+v, want abs_error at sequence %d with action %s", s.Trip, crossing, action)
+	}
+	if !strings.Contains(soak.out.String(), "safety trip") {
+		t.Errorf("the soak's output does not say it tripped:\n%s", soak.out.String())
+	}
+}
