@@ -119,7 +119,7 @@ func exampleLoops(pat string) []string {
 	files, _ := filepath.Glob(pat)
 	var loops []string
 	for _, f := range files {
-		if !strings.HasSuffix(f, ".profile.yaml") {
+		if !strings.HasSuffix(f, ".profile.yaml") && !strings.HasSuffix(f, ".scenario.yaml") {
 			loops = append(loops, f)
 		}
 	}

@@ -76,7 +76,7 @@ func TestSoakPasses(t *testing.T) {
 	}
 	t.Parallel()
 	rep := t.TempDir()
-	code, out, s := runSoak(t, filepath.Join("examples", "soak-diverter.yaml"), "0.1", time.Minute, rep)
+	code, out, s := runSoak(t, filepath.Join("examples", "soak-diverter.scenario.yaml"), "0.1", time.Minute, rep)
 	if code != 0 {
 		t.Fatalf("monitor soak exited %d, want 0:\n%s", code, out)
 	}
@@ -124,7 +124,7 @@ func TestSoakWrongPredictionFails(t *testing.T) {
 		t.Skip("a one-minute soak")
 	}
 	t.Parallel()
-	code, out, s := runSoak(t, filepath.Join("examples", "soak-diverter-wrong.yaml"), "0.1", time.Minute, "")
+	code, out, s := runSoak(t, filepath.Join("examples", "soak-diverter-wrong.scenario.yaml"), "0.1", time.Minute, "")
 	if code != 7 {
 		t.Fatalf("monitor soak exited %d, want 7 (a phase failed):\n%s", code, out)
 	}
