@@ -400,6 +400,12 @@ func secondMomentFigure(d *Data) *figure {
 		ylo = 0 // a second moment: show it from zero
 	}
 	yhi += 0.3 * (yhi - ylo) // room for the phase names and the legend
+	return finishTimePlot(f, p, d, hist, xlo, xhi, ylo, yhi)
+}
+
+// finishTimePlot adds the phase boundaries and the trip to a plot over
+// time, fixes its axes and legend and renders it.
+func finishTimePlot(f *figure, p *plot.Plot, d *Data, hist []Point, xlo, xhi, ylo, yhi float64) *figure {
 	if err := addBoundaries(p, boundaries(d, hist, xlo, xhi), ylo, yhi); err != nil {
 		f.NoData = "drawing failed: " + err.Error()
 		return f
@@ -461,18 +467,7 @@ func ratioFigure(d *Data) *figure {
 	} else if th != nil {
 		p.Legend.Add("measured / predicted", th)
 	}
-	if err := addBoundaries(p, boundaries(d, hist, xlo, xhi), ylo, yhi); err != nil {
-		f.NoData = "drawing failed: " + err.Error()
-		return f
-	}
-	if err := addTrip(p, d.Trip, xlo, xhi, ylo, yhi); err != nil {
-		f.NoData = "drawing failed: " + err.Error()
-		return f
-	}
-	p.X.Min, p.X.Max, p.Y.Min, p.Y.Max = xlo, xhi, ylo, yhi
-	p.Legend.Top, p.Legend.Left = true, true
-	p.Legend.YOffs = -vg.Points(14)
-	return finish(f, p)
+	return finishTimePlot(f, p, d, hist, xlo, xhi, ylo, yhi)
 }
 
 // rects is a plotter of filled rectangles in data coordinates.
