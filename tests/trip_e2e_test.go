@@ -50,17 +50,23 @@ phases:
 // sample 101, sent one period later, must already pass the relay as the
 // trip action says: clean (no loss, no delay, for samples and commands) or
 // stop_commands (samples clean, no command reaches the actuator any more).
-// The soak then ends with exit status 8 and names the sample that tripped.
+// The soak then ends with exit status 8 and names the sample that tripped;
+// `monitor serve` does the same with the loop's own profile.
 func TestTripWithinOnePeriod(t *testing.T) {
 	for _, action := range []string{"clean", "stop_commands"} {
 		t.Run(action, func(t *testing.T) {
 			t.Parallel()
-			tripRun(t, action)
+			tripRun(t, action, "soak")
 		})
 	}
+	// monitor serve (relay and monitor, no scenario) arms the same trip.
+	t.Run("serve/clean", func(t *testing.T) {
+		t.Parallel()
+		tripRun(t, "clean", "serve")
+	})
 }
 
-func tripRun(t *testing.T, action string) {
+func tripRun(t *testing.T, action, command string) {
 	mon := buildCmd(t, "monitor")
 	dir := t.TempDir()
 	loop, scen := filepath.Join(dir, "loop.yaml"), filepath.Join(dir, "scenario.yaml")
@@ -82,9 +88,14 @@ func tripRun(t *testing.T, action string) {
 	defer node.Close()
 	relayAddr := freePort(t, "udp")
 	summary := filepath.Join(dir, "summary.json")
-	soak := start(t, mon, "soak", "--loop", loop, "--scenario", scen, "--listen", relayAddr,
-		"--controller", ctl.LocalAddr().String(), "--metrics", "off", "--summary", summary,
-		"--after-trip", "1s", "--progress", "0")
+	args := []string{command, "--loop", loop, "--listen", relayAddr,
+		"--controller", ctl.LocalAddr().String(), "--metrics", "off", "--summary", summary, "--progress", "0"}
+	if command == "soak" {
+		args = append(args, "--scenario", scen, "--after-trip", "1s")
+	} else {
+		args = append(args, "--duration", "3s")
+	}
+	soak := start(t, mon, args...)
 	time.Sleep(500 * time.Millisecond)
 
 	var mu sync.Mutex
@@ -141,7 +152,7 @@ func tripRun(t *testing.T, action string) {
 	code := soak.wait(t, 20*time.Second)
 	time.Sleep(100 * time.Millisecond)
 	if code != 8 {
-		t.Fatalf("monitor soak exited %d, want 8 (safety trip):\n%s", code, soak.out.String())
+		t.Fatalf("monitor %s exited %d, want 8 (safety trip):\n%s", command, code, soak.out.String())
 	}
 
 	mu.Lock()

@@ -11,6 +11,7 @@ import (
 	"net/http"
 	"sort"
 	"strings"
+	"sync"
 	"time"
 
 	"github.com/prometheus/client_golang/prometheus"
@@ -109,6 +110,28 @@ func openBench(cfg benchConfig) (*bench, error) {
 		}()
 	}
 	return b, nil
+}
+
+// armTrip arms the loop's safety trip, when it has one: on the first
+// crossing the relay takes the trip's action at once (before its next
+// datagram), the trip is logged, and the returned channel closes. Without
+// a trip section the channel never closes.
+func (b *bench) armTrip(trip profiles.Trip) (<-chan struct{}, error) {
+	tripped := make(chan struct{})
+	if !trip.Enabled {
+		return tripped, nil
+	}
+	var once sync.Once
+	err := b.mon.SetTrip(trip, func(ev engine.TripEvent) {
+		b.relay.Trip(trip.Action, ev.Reason)
+		b.log.Warn("safety trip", "reason", ev.Reason, "value", ev.Value, "bound", ev.Bound,
+			"phase", ev.Phase, "action", trip.Action.String())
+		once.Do(func() { close(tripped) })
+	})
+	if err != nil {
+		return nil, fmt.Errorf("%s: trip: %w", b.loop.File, err)
+	}
+	return tripped, nil
 }
 
 // run relays until ctx ends, printing the monitor's progress line to out

@@ -22,7 +22,8 @@ const serveCaution = "SAFETY: the relay will delay and drop the commands that mo
 // sensor datagram, before impairment, to the monitor engine in process (no
 // tap socket); one metrics endpoint serves both. It ends after --duration
 // or on SIGINT/SIGTERM, draining the relay, and writes the monitor's JSON
-// summary.
+// summary. A loop with a trip section arms the safety trip; the run then
+// exits 8 when it fired.
 func cmdServe(args []string, stdout, stderr io.Writer) error {
 	fs := flag.NewFlagSet("monitor serve", flag.ContinueOnError)
 	fs.SetOutput(stderr)
@@ -78,6 +79,9 @@ func cmdServe(args []string, stdout, stderr io.Writer) error {
 	if err != nil {
 		return err
 	}
+	if _, err := b.armTrip(loop.Trip); err != nil {
+		return err
+	}
 	fmt.Fprint(stderr, serveCaution)
 	log.Info("relaying and monitoring", "loop", loop.File, "listen", b.relay.ListenAddr().String(),
 		"controller", *controller, "metrics", b.url, "seed", b.relay.Seed())
@@ -91,17 +95,22 @@ func cmdServe(args []string, stdout, stderr io.Writer) error {
 	if err := b.run(ctx, stderr, *every); err != nil {
 		return err
 	}
-	out, err := json.MarshalIndent(b.mon.Summary(), "", "  ")
+	s := b.mon.Summary()
+	out, err := json.MarshalIndent(s, "", "  ")
 	if err != nil {
 		return err
 	}
 	out = append(out, '\n')
 	if *summaryPath == "" {
-		_, err = stdout.Write(out)
-		return err
-	}
-	if err := os.WriteFile(*summaryPath, out, 0o644); err != nil {
+		if _, err := stdout.Write(out); err != nil {
+			return err
+		}
+	} else if err := os.WriteFile(*summaryPath, out, 0o644); err != nil {
 		return fmt.Errorf("--summary: %w", err)
+	}
+	if s.Trip != nil {
+		return exitError{code: s.TripExitCode(), msg: fmt.Sprintf("safety trip: %s %.5g above the bound %.5g; relay action %s",
+			s.Trip.Reason, s.Trip.Value, s.Trip.Bound, s.Trip.Action)}
 	}
 	return nil
 }

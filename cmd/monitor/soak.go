@@ -11,7 +11,6 @@ import (
 	"os"
 	"path/filepath"
 	"strings"
-	"sync"
 	"time"
 
 	"rigwire/cmd/monitor/engine"
@@ -115,18 +114,9 @@ func cmdSoak(args []string, stdout, stderr io.Writer) error {
 	defer cancel()
 	relayCtx, stopRelay := context.WithCancel(ctx)
 	defer stopRelay()
-	var tripOnce sync.Once
-	tripped := make(chan struct{})
-	if loop.Trip.Enabled {
-		err := b.mon.SetTrip(loop.Trip, func(ev engine.TripEvent) {
-			b.relay.Trip(loop.Trip.Action, ev.Reason)
-			log.Warn("safety trip", "reason", ev.Reason, "value", ev.Value, "bound", ev.Bound,
-				"phase", ev.Phase, "action", loop.Trip.Action.String())
-			tripOnce.Do(func() { close(tripped) })
-		})
-		if err != nil {
-			return fmt.Errorf("%s: trip: %w", loop.File, err)
-		}
+	tripped, err := b.armTrip(loop.Trip)
+	if err != nil {
+		return err
 	}
 	benchDone := make(chan error, 1)
 	go func() { benchDone <- b.run(relayCtx, stderr, 0) }()
