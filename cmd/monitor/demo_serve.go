@@ -27,40 +27,24 @@ const serveCaution = "SAFETY: the relay will delay and drop the commands that mo
 func cmdServe(args []string, stdout, stderr io.Writer) error {
 	fs := flag.NewFlagSet("monitor serve", flag.ContinueOnError)
 	fs.SetOutput(stderr)
-	loopPath := fs.String("loop", "", "loop `FILE` (YAML, with a decode section) (required)")
+	bf := addBenchFlags(fs, "loop `FILE` (YAML, with a decode section; its trip section arms the safety trip) (required)",
+		"127.0.0.1:9472", time.Second)
 	profilePath := fs.String("profile", "", "relay profile `FILE` (default: the loop's own profile)")
-	listen := fs.String("listen", "", "`HOST:PORT` where the sensor node's datagrams arrive (required)")
-	controller := fs.String("controller", "", "`HOST:PORT` of the controller (required)")
-	actuator := fs.String("actuator", "", "`HOST:PORT` for commands (default: the source of the latest sensor datagram)")
-	metrics := fs.String("metrics", "127.0.0.1:9472", "serve the relay's and the monitor's metrics on `HOST:PORT` (\"off\": none)")
-	summaryPath := fs.String("summary", "", "write the JSON summary to `FILE` (default: stdout)")
 	tolerance := fs.Float64("tolerance", 0.1, "widen the measured interval by this fraction of its bounds for the verdict")
 	var dur, warmup durationFlag
 	fs.Var(&dur, "duration", "stop after `D` (default: run until SIGINT/SIGTERM)")
 	fs.Var(&warmup, "warmup", "skip the samples of the first `D` in the measurement")
-	seed := fs.Uint64("seed", 0, "seed of the relay's decisions (default: the profile's, else random)")
-	every := fs.Duration("progress", time.Second, "status line on stderr every `D` (0: none)")
 	if err := fs.Parse(args); err != nil {
 		return parseErr(err)
 	}
-	switch {
-	case fs.NArg() > 0:
-		return usagef("unexpected argument %q", fs.Arg(0))
-	case *loopPath == "":
-		return usagef("--loop: required")
-	case *listen == "":
-		return usagef("--listen: required")
-	case *controller == "":
-		return usagef("--controller: required")
-	case *tolerance < 0 || *tolerance > 10:
-		return usagef("--tolerance: want 0…10, got %g", *tolerance)
-	case *every < 0:
-		return usagef("--progress: want ≥ 0, got %s", *every)
+	if err := bf.check(fs); err != nil {
+		return err
 	}
-	seedSet := false
-	fs.Visit(func(f *flag.Flag) { seedSet = seedSet || f.Name == "seed" })
+	if *tolerance < 0 || *tolerance > 10 {
+		return usagef("--tolerance: want 0…10, got %g", *tolerance)
+	}
 	log := slog.New(slog.NewTextHandler(stderr, nil))
-	loop, err := profiles.LoadLoop(*loopPath)
+	loop, err := profiles.LoadLoop(*bf.loop)
 	if err != nil {
 		return err
 	}
@@ -73,9 +57,9 @@ func cmdServe(args []string, stdout, stderr io.Writer) error {
 		l.Profile, l.ProfileFile = prof, prof.File
 		loop = &l
 	}
-	b, err := openBench(benchConfig{loop: loop, profile: prof, listen: *listen, controller: *controller,
-		actuator: *actuator, metrics: *metrics, tolerance: *tolerance,
-		warmup: time.Duration(warmup.s * float64(time.Second)), seed: *seed, seedSet: seedSet, log: log})
+	b, err := openBench(benchConfig{loop: loop, profile: prof, listen: *bf.listen, controller: *bf.controller,
+		actuator: *bf.actuator, metrics: *bf.metrics, tolerance: *tolerance,
+		warmup: time.Duration(warmup.s * float64(time.Second)), seed: *bf.seed, seedSet: bf.seedSet(fs), log: log})
 	if err != nil {
 		return err
 	}
@@ -84,7 +68,7 @@ func cmdServe(args []string, stdout, stderr io.Writer) error {
 	}
 	fmt.Fprint(stderr, serveCaution)
 	log.Info("relaying and monitoring", "loop", loop.File, "listen", b.relay.ListenAddr().String(),
-		"controller", *controller, "metrics", b.url, "seed", b.relay.Seed())
+		"controller", *bf.controller, "metrics", b.url, "seed", b.relay.Seed())
 	ctx, cancel := signalContext()
 	defer cancel()
 	if dur.s > 0 {
@@ -92,7 +76,7 @@ func cmdServe(args []string, stdout, stderr io.Writer) error {
 		ctx, stop = context.WithTimeout(ctx, time.Duration(dur.s*float64(time.Second)))
 		defer stop()
 	}
-	if err := b.run(ctx, stderr, *every); err != nil {
+	if err := b.run(ctx, stderr, *bf.every); err != nil {
 		return err
 	}
 	s := b.mon.Summary()
@@ -101,11 +85,11 @@ func cmdServe(args []string, stdout, stderr io.Writer) error {
 		return err
 	}
 	out = append(out, '\n')
-	if *summaryPath == "" {
+	if *bf.summary == "" {
 		if _, err := stdout.Write(out); err != nil {
 			return err
 		}
-	} else if err := os.WriteFile(*summaryPath, out, 0o644); err != nil {
+	} else if err := os.WriteFile(*bf.summary, out, 0o644); err != nil {
 		return fmt.Errorf("--summary: %w", err)
 	}
 	if s.Trip != nil {

@@ -38,44 +38,29 @@ const (
 func cmdSoak(args []string, stdout, stderr io.Writer) error {
 	fs := flag.NewFlagSet("monitor soak", flag.ContinueOnError)
 	fs.SetOutput(stderr)
-	loopPath := fs.String("loop", "", "loop `FILE` (YAML, with a decode section; its trip section arms the safety trip) (required)")
+	bf := addBenchFlags(fs, "loop `FILE` (YAML, with a decode section; its trip section arms the safety trip) (required)",
+		"127.0.0.1:9475", 5*time.Second)
 	scenarioPath := fs.String("scenario", "", "scenario `FILE`: the phases the relay applies (required)")
-	listen := fs.String("listen", "", "`HOST:PORT` where the sensor node's datagrams arrive (required)")
-	controller := fs.String("controller", "", "`HOST:PORT` of the controller (required)")
-	actuator := fs.String("actuator", "", "`HOST:PORT` for commands (default: the source of the latest sensor datagram)")
-	metrics := fs.String("metrics", "127.0.0.1:9475", "serve the relay's and the monitor's metrics on `HOST:PORT` (\"off\": none)")
-	summaryPath := fs.String("summary", "", "write the JSON summary to `FILE` (default: stdout)")
 	reportDir := fs.String("report", "", "write report.html and the plots as PNG into `DIR`")
 	timeScale := fs.Float64("time-scale", 1, "multiply every phase duration and settling time by `F` (0 < F ≤ 100)")
 	afterTrip := fs.Duration("after-trip", 5*time.Second, "keep relaying (as the trip action says) this long after a trip before ending")
-	seed := fs.Uint64("seed", 0, "seed of the relay's decisions (default: the profile's, else random)")
-	every := fs.Duration("progress", 5*time.Second, "status line on stderr every `D` (0: none)")
 	if err := fs.Parse(args); err != nil {
 		return parseErr(err)
 	}
+	if err := bf.check(fs); err != nil {
+		return err
+	}
 	switch {
-	case fs.NArg() > 0:
-		return usagef("unexpected argument %q", fs.Arg(0))
-	case *loopPath == "":
-		return usagef("--loop: required")
 	case *scenarioPath == "":
 		return usagef("--scenario: required")
-	case *listen == "":
-		return usagef("--listen: required")
-	case *controller == "":
-		return usagef("--controller: required")
 	case !(*timeScale > 0 && *timeScale <= 100):
 		return usagef("--time-scale: want 0 < F ≤ 100, got %g", *timeScale)
 	case *afterTrip < 0 || *afterTrip > time.Hour:
 		return usagef("--after-trip: want 0…1h, got %s", *afterTrip)
-	case *every < 0:
-		return usagef("--progress: want ≥ 0, got %s", *every)
 	}
-	seedSet := false
-	fs.Visit(func(f *flag.Flag) { seedSet = seedSet || f.Name == "seed" })
 	log := slog.New(slog.NewTextHandler(stderr, nil))
 
-	loop, err := profiles.LoadLoop(*loopPath)
+	loop, err := profiles.LoadLoop(*bf.loop)
 	if err != nil {
 		return err
 	}
@@ -96,8 +81,8 @@ func cmdSoak(args []string, stdout, stderr io.Writer) error {
 	}
 	first := *loop
 	first.Profile, first.ProfileFile = steps[0].Profile, ""
-	b, err := openBench(benchConfig{loop: &first, profile: steps[0].Profile, listen: *listen, controller: *controller,
-		actuator: *actuator, metrics: *metrics, seed: *seed, seedSet: seedSet, log: log, metricsNote: stderr})
+	b, err := openBench(benchConfig{loop: &first, profile: steps[0].Profile, listen: *bf.listen, controller: *bf.controller,
+		actuator: *bf.actuator, metrics: *bf.metrics, seed: *bf.seed, seedSet: bf.seedSet(fs), log: log, metricsNote: stderr})
 	if err != nil {
 		return err
 	}
@@ -107,7 +92,7 @@ func cmdSoak(args []string, stdout, stderr io.Writer) error {
 		names[i] = p.Name
 	}
 	log.Info("soak", "scenario", sc.File, "phases", strings.Join(names, ","), "duration", sc.Total().String(),
-		"loop", loop.File, "listen", b.relay.ListenAddr().String(), "controller", *controller, "metrics", b.url,
+		"loop", loop.File, "listen", b.relay.ListenAddr().String(), "controller", *bf.controller, "metrics", b.url,
 		"seed", b.relay.Seed())
 
 	ctx, cancel := signalContext()
@@ -135,8 +120,8 @@ func cmdSoak(args []string, stdout, stderr io.Writer) error {
 	go func() { playDone <- b.relay.Play(ctx, names, steps, sc.Total(), onStep) }()
 
 	var tick <-chan time.Time
-	if *every > 0 {
-		t := time.NewTicker(*every)
+	if *bf.every > 0 {
+		t := time.NewTicker(*bf.every)
 		defer t.Stop()
 		tick = t.C
 	}
@@ -172,11 +157,11 @@ wait:
 		return err
 	}
 	out = append(out, '\n')
-	if *summaryPath == "" {
+	if *bf.summary == "" {
 		if _, err := stdout.Write(out); err != nil {
 			return err
 		}
-	} else if err := os.WriteFile(*summaryPath, out, 0o644); err != nil {
+	} else if err := os.WriteFile(*bf.summary, out, 0o644); err != nil {
 		return fmt.Errorf("--summary: %w", err)
 	}
 	soakTable(stderr, s)

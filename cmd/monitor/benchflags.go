@@ -1,0 +1,53 @@
+package main
+
+import (
+	"flag"
+	"time"
+)
+
+// benchFlags are the flags of the commands that relay and monitor one rig
+// in one process (serve, soak): the loop, the relay's addresses, the
+// metrics endpoint, the summary, the seed and the progress interval.
+type benchFlags struct {
+	loop, listen, controller, actuator, metrics, summary *string
+	seed                                                 *uint64
+	every                                                *time.Duration
+}
+
+// addBenchFlags registers them on fs with the command's defaults.
+func addBenchFlags(fs *flag.FlagSet, loopHelp, metrics string, every time.Duration) *benchFlags {
+	return &benchFlags{
+		loop:       fs.String("loop", "", loopHelp),
+		listen:     fs.String("listen", "", "`HOST:PORT` where the sensor node's datagrams arrive (required)"),
+		controller: fs.String("controller", "", "`HOST:PORT` of the controller (required)"),
+		actuator:   fs.String("actuator", "", "`HOST:PORT` for commands (default: the source of the latest sensor datagram)"),
+		metrics:    fs.String("metrics", metrics, "serve the relay's and the monitor's metrics on `HOST:PORT` (\"off\": none)"),
+		summary:    fs.String("summary", "", "write the JSON summary to `FILE` (default: stdout)"),
+		seed:       fs.Uint64("seed", 0, "seed of the relay's decisions (default: the profile's, else random)"),
+		every:      fs.Duration("progress", every, "status line on stderr every `D` (0: none)"),
+	}
+}
+
+// check is the checks common to both commands, after fs.Parse.
+func (f *benchFlags) check(fs *flag.FlagSet) error {
+	switch {
+	case fs.NArg() > 0:
+		return usagef("unexpected argument %q", fs.Arg(0))
+	case *f.loop == "":
+		return usagef("--loop: required")
+	case *f.listen == "":
+		return usagef("--listen: required")
+	case *f.controller == "":
+		return usagef("--controller: required")
+	case *f.every < 0:
+		return usagef("--progress: want ≥ 0, got %s", *f.every)
+	}
+	return nil
+}
+
+// seedSet tells whether --seed was given.
+func (f *benchFlags) seedSet(fs *flag.FlagSet) bool {
+	set := false
+	fs.Visit(func(fl *flag.Flag) { set = set || fl.Name == "seed" })
+	return set
+}
