@@ -66,17 +66,17 @@ func runSoak(t *testing.T, scenario string, scale string, wall time.Duration, re
 }
 
 // TestSoakPasses plays ten minutes of scenario time (three phases: nominal,
-// a ramp of the command path's delay, recovery) at a tenth of the time on
+// a ramp of the command path's delay, recovery) at a fifth of the time on
 // the simulated diverter: every phase's measured E[eᵀe] must agree with
 // its own prediction (MODEL.md §4; quasi-static mean over the ramp) within
 // the scenario's tolerance, the soak exits 0, and the report is written.
 func TestSoakPasses(t *testing.T) {
 	if testing.Short() {
-		t.Skip("a one-minute soak")
+		t.Skip("a two-minute soak")
 	}
 	t.Parallel()
 	rep := t.TempDir()
-	code, out, s := runSoak(t, filepath.Join("examples", "soak-diverter.scenario.yaml"), "0.1", time.Minute, rep)
+	code, out, s := runSoak(t, filepath.Join("examples", "soak-diverter.scenario.yaml"), "0.2", 2*time.Minute, rep)
 	if code != 0 {
 		t.Fatalf("monitor soak exited %d, want 0:\n%s", code, out)
 	}
@@ -121,10 +121,10 @@ func TestSoakPasses(t *testing.T) {
 // recovery, as failed.
 func TestSoakWrongPredictionFails(t *testing.T) {
 	if testing.Short() {
-		t.Skip("a one-minute soak")
+		t.Skip("a two-minute soak")
 	}
 	t.Parallel()
-	code, out, s := runSoak(t, filepath.Join("examples", "soak-diverter-wrong.scenario.yaml"), "0.1", time.Minute, "")
+	code, out, s := runSoak(t, filepath.Join("examples", "soak-diverter-wrong.scenario.yaml"), "0.2", 2*time.Minute, "")
 	if code != 7 {
 		t.Fatalf("monitor soak exited %d, want 7 (a phase failed):\n%s", code, out)
 	}
