@@ -10,9 +10,17 @@ import (
 // Prediction is what theory says of a loop over its network (MODEL.md
 // §5). An unstable loop is a result: MeanSquareStable false, Error nil.
 type Prediction struct {
+	// MeanSquareStable is Stability == StabilityStable: the loop is
+	// certified mean-square stable.
 	MeanSquareStable bool
-	// SpectralRadius is ρ of the second-moment operator.
+	// Stability is the verdict: StabilityStable, StabilityMarginal (ρ is
+	// within its numerical error of 1: the computation cannot tell) or
+	// StabilityUnstable.
+	Stability string
+	// SpectralRadius is ρ of the second-moment operator; the true value
+	// lies within SpectralRadius ± RadiusError.
 	SpectralRadius float64
+	RadiusError    float64
 	// Error holds the steady error moments; nil when not mean-square
 	// stable.
 	Error *ErrorStats
@@ -40,6 +48,18 @@ type StateReport struct {
 	MeanDelay float64
 }
 
+// Stability verdicts.
+const (
+	// StabilityStable: ρ < 1, certified (a positive definite solution of
+	// the Lyapunov-type equation at 1 was found and checked).
+	StabilityStable = "stable"
+	// StabilityMarginal: ρ is within its numerical error of 1; the loop
+	// is not called stable.
+	StabilityMarginal = "marginal"
+	// StabilityUnstable: ρ ≥ 1.
+	StabilityUnstable = "unstable"
+)
+
 // PredictOptions selects what Predict computes beyond stability and the
 // steady moments.
 type PredictOptions struct {
@@ -66,6 +86,10 @@ func (md *Model) Predict(margin bool) (*Prediction, error) {
 	pr := &Prediction{LossMargin: math.NaN()}
 	pr.SpectralRadius = md.SpectralRadius()
 	pr.MeanSquareStable = md.MeanSquareStable()
+	pr.Stability = StabilityUnstable
+	if pr.MeanSquareStable {
+		pr.Stability = StabilityStable
+	}
 	for i, js := range md.States {
 		pr.States = append(pr.States, StateReport{
 			Name: js.Name, Probability: md.Pi[i], LossSC: js.LossSC, LossCA: js.LossCA,
@@ -76,7 +100,7 @@ func (md *Model) Predict(margin bool) (*Prediction, error) {
 		mo, err := md.Steady()
 		switch {
 		case errors.Is(err, ErrNotStable):
-			pr.MeanSquareStable = false
+			pr.MeanSquareStable, pr.Stability = false, StabilityMarginal
 		case err != nil:
 			return nil, err
 		default:
