@@ -3,7 +3,31 @@ package main
 import (
 	"flag"
 	"time"
+
+	"rigwire/cmd/internal/exitcode"
 )
+
+const serveHead = `usage: monitor serve --loop LOOP --listen HOST:PORT --controller HOST:PORT [--profile FILE]
+                    [--actuator HOST:PORT] [--metrics HOST:PORT] [--duration D] [--summary FILE]
+
+The relay and the monitor of one rig in one process: the relay impairs the
+rig's link with the profile (the loop's own, or --profile), the monitor
+measures E[eᵀe] from each sensor datagram before impairment, one endpoint
+serves both's metrics. Ends after --duration or on SIGINT/SIGTERM and
+writes the JSON summary. A trip section in the loop file arms the safety
+trip. The trip is no emergency stop: keep one that does not depend on the
+link or on rigwire.
+`
+
+// serveExits are the statuses of monitor serve.
+var serveExits = exitcode.Help(
+	[]int{exitcode.OK, exitcode.Failure, exitcode.BadInput, exitcode.Tripped},
+	map[int]string{
+		exitcode.OK:       "the summary was written (whatever the verdict)",
+		exitcode.Failure:  "error while running (a socket, the summary file)",
+		exitcode.BadInput: "bad usage, or a loop or profile file that does not load or validate (the message names file, line and key)",
+		exitcode.Tripped:  "the loop's safety trip fired",
+	})
 
 // benchFlags are the flags of the commands that relay and monitor one rig
 // in one process (serve, soak): the loop, the relay's addresses, the
@@ -15,7 +39,7 @@ type benchFlags struct {
 }
 
 // addBenchFlags registers them on fs with the command's defaults.
-func addBenchFlags(fs *flag.FlagSet, loopHelp, metrics string, every time.Duration) *benchFlags {
+func addBenchFlags(fs *flags, loopHelp, metrics string, every time.Duration) *benchFlags {
 	return &benchFlags{
 		loop:       fs.String("loop", "", loopHelp),
 		listen:     fs.String("listen", "", "`HOST:PORT` where the sensor node's datagrams arrive (required)"),
@@ -29,7 +53,7 @@ func addBenchFlags(fs *flag.FlagSet, loopHelp, metrics string, every time.Durati
 }
 
 // check is the checks common to both commands, after fs.Parse.
-func (f *benchFlags) check(fs *flag.FlagSet) error {
+func (f *benchFlags) check(fs *flags) error {
 	switch {
 	case fs.NArg() > 0:
 		return usagef("unexpected argument %q", fs.Arg(0))
@@ -41,12 +65,14 @@ func (f *benchFlags) check(fs *flag.FlagSet) error {
 		return usagef("--controller: required")
 	case *f.every < 0:
 		return usagef("--progress: want ≥ 0, got %s", *f.every)
+	case checkMetricsAddr(*f.metrics) != nil:
+		return checkMetricsAddr(*f.metrics)
 	}
 	return nil
 }
 
 // seedSet tells whether --seed was given.
-func (f *benchFlags) seedSet(fs *flag.FlagSet) bool {
+func (f *benchFlags) seedSet(fs *flags) bool {
 	set := false
 	fs.Visit(func(fl *flag.Flag) { set = set || fl.Name == "seed" })
 	return set

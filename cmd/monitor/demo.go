@@ -3,7 +3,6 @@ package main
 import (
 	"context"
 	"embed"
-	"flag"
 	"fmt"
 	"io"
 	"log/slog"
@@ -12,6 +11,7 @@ import (
 	"sync"
 	"time"
 
+	"rigwire/cmd/internal/exitcode"
 	"rigwire/emulate"
 	"rigwire/emulate/rig"
 	"rigwire/profiles"
@@ -26,13 +26,35 @@ var demoFiles embed.FS
 // demoCaution is printed before the demo starts.
 const demoCaution = "SAFETY: the demo is a simulation — nothing moves. Before you put a real rig\nbehind the relay:\n" + emulate.SafetyCautions
 
+const demoHead = `usage: monitor demo [--duration 60s] [--loop LOOP --profile FILE] [--metrics HOST:PORT]
+                   [--tolerance X] [--seed S] [--warmup D] [--progress D]
+
+Runs the simulated rig node, the relay, the rig controller and the monitor
+on loopback UDP sockets (no hardware, no root), shows the progress, serves
+the metrics and ends with the measured E[eᵀe] beside the prediction. The
+built-in loop is a parcel diverter over a warehouse Wi-Fi profile; --loop
+runs another (it needs a decode section).
+`
+
+// demoExits are the statuses of monitor demo: the verdict's, as run
+// --strict gives them.
+var demoExits = exitcode.Help(
+	[]int{exitcode.OK, exitcode.Failure, exitcode.BadInput, exitcode.Above, exitcode.Below,
+		exitcode.Inconclusive, exitcode.NotStable},
+	map[int]string{
+		exitcode.OK:           "the measured E[eᵀe] agrees with the prediction",
+		exitcode.Failure:      "error while running (a socket)",
+		exitcode.BadInput:     "bad usage, or a loop or profile file that does not load or validate (the message names file, line and key)",
+		exitcode.Inconclusive: "the data cannot tell (no samples, or too few to judge)",
+		exitcode.NotStable:    "the prediction is not mean-square stable (or marginal), so there is nothing to compare with",
+	})
+
 // cmdDemo runs the simulated rig node, the relay (emulate engine, in
 // process), the rig controller and the monitor (engine, fed in process by
 // the relay's tap) on loopback UDP sockets, shows the progress once a
 // second, serves the metrics and ends with predicted against measured.
 func cmdDemo(args []string, stdout, stderr io.Writer) error {
-	fs := flag.NewFlagSet("monitor demo", flag.ContinueOnError)
-	fs.SetOutput(stderr)
+	fs := newFlags("monitor demo", demoHead, demoExits)
 	var dur durationFlag
 	dur.s = 60
 	fs.Var(&dur, "duration", "how long the rig runs (default 60s)")
@@ -56,6 +78,8 @@ func cmdDemo(args []string, stdout, stderr io.Writer) error {
 		return usagef("--tolerance: want 0…10, got %g", *tolerance)
 	case *every < 0:
 		return usagef("--progress: want ≥ 0, got %s", *every)
+	case checkMetricsAddr(*metrics) != nil:
+		return checkMetricsAddr(*metrics)
 	}
 	log := slog.New(slog.NewTextHandler(stderr, &slog.HandlerOptions{Level: slog.LevelWarn}))
 
@@ -76,12 +100,12 @@ func cmdDemo(args []string, stdout, stderr io.Writer) error {
 	}
 	loop, err := profiles.LoadLoop(path)
 	if err != nil {
-		return err
+		return badInput(err)
 	}
 	var prof *profiles.Profile
 	if *profilePath != "" {
 		if prof, err = profiles.Load(*profilePath); err != nil {
-			return err
+			return badInput(err)
 		}
 	}
 	if prof == nil {
@@ -163,8 +187,8 @@ func cmdDemo(args []string, stdout, stderr io.Writer) error {
 	ns, cs := node.Stats(), ctl.Stats()
 	fmt.Fprintf(stdout, "rig:\n  %-24s samples %d, commands applied %d, late %d, sent late by the host (overruns) %d\n", "node", ns.Samples, ns.Applied, ns.Late, ns.Overruns)
 	fmt.Fprintf(stdout, "  %-24s samples used %d, stale %d\n", "controller", cs.Used, cs.Stale)
-	if s.ExitCode(true) != 0 {
-		return fmt.Errorf("verdict %s: the measured E[eᵀe] and the prediction part", s.Verdict)
+	if code := s.ExitCode(true); code != 0 {
+		return exitError{code: code, msg: fmt.Sprintf("verdict %s: the measured E[eᵀe] and the prediction part", s.Verdict)}
 	}
 	return nil
 }

@@ -60,11 +60,11 @@ func openBench(cfg benchConfig) (*bench, error) {
 	b := &bench{loop: cfg.loop, log: cfg.log, reg: prometheus.NewRegistry()}
 	var err error
 	if b.pred, err = estimate.Predict(cfg.loop, estimate.PredictOptions{}); err != nil {
-		return nil, fmt.Errorf("%s: prediction: %w", cfg.loop.File, err)
+		return nil, badInput(fmt.Errorf("%s: prediction: %w", cfg.loop.File, err))
 	}
 	b.mon, err = engine.New(cfg.loop, b.pred, engine.Options{Tolerance: cfg.tolerance, Warmup: cfg.warmup})
 	if err != nil {
-		return nil, err
+		return nil, badInput(fmt.Errorf("%s: %w", cfg.loop.File, err))
 	}
 	b.reg.MustRegister(collectors.NewGoCollector(), collectors.NewProcessCollector(collectors.ProcessCollectorOpts{}))
 	if err := b.mon.RegisterMetrics(b.reg); err != nil {
@@ -129,7 +129,7 @@ func (b *bench) armTrip(trip profiles.Trip) (<-chan struct{}, error) {
 		once.Do(func() { close(tripped) })
 	})
 	if err != nil {
-		return nil, fmt.Errorf("%s: trip: %w", b.loop.File, err)
+		return nil, badInput(fmt.Errorf("%s: trip: %w", b.loop.File, err))
 	}
 	return tripped, nil
 }

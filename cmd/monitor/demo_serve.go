@@ -3,7 +3,6 @@ package main
 import (
 	"context"
 	"encoding/json"
-	"flag"
 	"fmt"
 	"io"
 	"log/slog"
@@ -25,8 +24,7 @@ const serveCaution = "SAFETY: the relay will delay and drop the commands that mo
 // summary. A loop with a trip section arms the safety trip; the run then
 // exits 8 when it fired.
 func cmdServe(args []string, stdout, stderr io.Writer) error {
-	fs := flag.NewFlagSet("monitor serve", flag.ContinueOnError)
-	fs.SetOutput(stderr)
+	fs := newFlags("monitor serve", serveHead, serveExits)
 	bf := addBenchFlags(fs, "loop `FILE` (YAML, with a decode section; its trip section arms the safety trip) (required)",
 		"127.0.0.1:9472", time.Second)
 	profilePath := fs.String("profile", "", "relay profile `FILE` (default: the loop's own profile)")
@@ -46,12 +44,12 @@ func cmdServe(args []string, stdout, stderr io.Writer) error {
 	log := slog.New(slog.NewTextHandler(stderr, nil))
 	loop, err := profiles.LoadLoop(*bf.loop)
 	if err != nil {
-		return err
+		return badInput(err)
 	}
 	var prof *profiles.Profile
 	if *profilePath != "" {
 		if prof, err = profiles.Load(*profilePath); err != nil {
-			return err
+			return badInput(err)
 		}
 		l := *loop // predict for the network the relay applies
 		l.Profile, l.ProfileFile = prof, prof.File

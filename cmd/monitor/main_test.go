@@ -15,9 +15,9 @@ func runMonitor(args ...string) (code int, stdout, stderr string) {
 	return code, o.String(), e.String()
 }
 
-// TestPredictJSONKeys checks the fixed interface of INTERFACES.md and
-// MODEL.md §5: the keys, and nulls when the loop is not stable; exit 0
-// either way.
+// TestPredictJSONKeys checks the keys of predict --json that scripts
+// rely on, and nulls when the loop is not stable; exit 0 either way
+// (without --strict).
 func TestPredictJSONKeys(t *testing.T) {
 	cases := []struct {
 		name   string
@@ -29,7 +29,7 @@ func TestPredictJSONKeys(t *testing.T) {
 		{"pick arm example", "examples/pick-arm.yaml", true},
 		{"unstable loop", "testdata/unstable.yaml", false},
 	}
-	keys := []string{"mean_square_stable", "spectral_radius", "error_mean", "error_second_moment", "error_std", "loss_margin"}
+	keys := []string{"mean_square_stable", "stability", "spectral_radius", "spectral_radius_error", "error_mean", "error_second_moment", "error_std", "loss_margin"}
 	for _, tc := range cases {
 		t.Run(tc.name, func(t *testing.T) {
 			code, out, errOut := runMonitor("predict", tc.file, "--json")
@@ -47,6 +47,9 @@ func TestPredictJSONKeys(t *testing.T) {
 			}
 			if m["mean_square_stable"] != tc.stable {
 				t.Errorf("mean_square_stable = %v, want %v", m["mean_square_stable"], tc.stable)
+			}
+			if want := map[bool]string{true: "stable", false: "unstable"}[tc.stable]; m["stability"] != want {
+				t.Errorf("stability = %v, want %q", m["stability"], want)
 			}
 			if !tc.stable {
 				for _, k := range []string{"error_mean", "error_second_moment", "error_std"} {
@@ -69,9 +72,10 @@ func TestPredictBadInput(t *testing.T) {
 		code int
 		want string // substring of stderr
 	}{
-		{"bad loop file", []string{"predict", "../../profiles/testdata/loops/shape-d.bad.yaml"}, 1,
+		{"bad loop file", []string{"predict", "../../profiles/testdata/loops/shape-d.bad.yaml"}, 2,
 			"shape-d.bad.yaml:10: controller.d: want 1×1, got 1×2"},
-		{"missing file", []string{"predict", "testdata/none.yaml"}, 1, "reading loop file: open testdata/none.yaml"},
+		{"missing file", []string{"predict", "testdata/none.yaml"}, 2, "reading loop file: open testdata/none.yaml"},
+		{"strict with vary", []string{"predict", "examples/conveyor.yaml", "--strict", "--vary", "loss=0:0.1:0.1"}, 2, "--strict: only with the single prediction"},
 		{"no file", []string{"predict", "--json"}, 2, "want one loop file, got 0 arguments"},
 		{"bad vary", []string{"predict", "examples/conveyor.yaml", "--vary", "jitter=0:1:0.1"}, 2, `unknown parameter "jitter"`},
 		{"vary step", []string{"predict", "examples/conveyor.yaml", "--vary", "loss=0:1:0"}, 2, "step must be > 0"},
@@ -101,8 +105,14 @@ func TestPredictVaryAndStep(t *testing.T) {
 		t.Fatalf("exit %d: %s", code, errOut)
 	}
 	lines := strings.Split(strings.TrimSpace(out), "\n")
-	if lines[0] != "loss,error_second_moment,spectral_radius,mean_square_stable" || len(lines) != 11 {
+	if lines[0] != "loss,error_second_moment,spectral_radius,mean_square_stable,stability" || len(lines) != 11 {
 		t.Errorf("CSV header %q, %d lines", lines[0], len(lines))
+	}
+	for _, row := range lines[1:] {
+		f := strings.Split(row, ",")
+		if len(f) != 5 || (f[3] == "true") != (f[4] == "stable") {
+			t.Errorf("row %q: the stability column disagrees with mean_square_stable", row)
+		}
 	}
 	if !strings.Contains(errOut, "stability is lost at loss =") {
 		t.Errorf("no boundary reported: %q", errOut)

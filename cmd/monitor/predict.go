@@ -2,7 +2,6 @@ package main
 
 import (
 	"encoding/json"
-	"flag"
 	"fmt"
 	"io"
 	"math"
@@ -10,29 +9,58 @@ import (
 	"strings"
 	"text/tabwriter"
 
+	"rigwire/cmd/internal/exitcode"
+	"rigwire/cmd/internal/stability"
 	"rigwire/estimate"
 	"rigwire/profiles"
 )
 
+const predictHead = `usage: monitor predict LOOP.yaml [--json] [--strict] [--no-margin]
+       monitor predict LOOP.yaml --vary loss=START:STOP:STEP | delay_scale=START:STOP:STEP [--plot FILE]
+       monitor predict LOOP.yaml --step N [--step-to R1,R2,…] [--plot FILE]
+
+Predicts what theory says of the loop over its network profile: whether it
+is mean-square stable (the spectral radius of the second-moment operator,
+with its numerical error, against 1), the steady mean and second moment of
+the tracking error e = setpoint − y, the extra loss at which stability is
+lost, and each joint network state's share and mode probabilities. A
+spectral radius that cannot be told apart from 1 at the accuracy of the
+computation is reported as marginal and treated as not stable.
+
+--vary prints a CSV of the prediction over a grid of one parameter;
+--step the expected error and its std for N periods after a setpoint step
+from rest. Without --strict the command exits 0 whatever the verdict.
+`
+
+// predictExits are the statuses predict returns.
+var predictExits = exitcode.Help(
+	[]int{exitcode.OK, exitcode.Failure, exitcode.BadInput, exitcode.Inconclusive, exitcode.NotStable},
+	map[int]string{
+		exitcode.OK:           "the prediction was printed (with --strict: and the loop is mean-square stable)",
+		exitcode.Failure:      "error while running (a plot that could not be written)",
+		exitcode.BadInput:     "bad usage, a loop or profile file that does not load or validate (the message names file, line and key), or a loop the prediction cannot use",
+		exitcode.Inconclusive: "with --strict: marginal, the spectral radius cannot be told apart from 1",
+		exitcode.NotStable:    "with --strict: the loop is not mean-square stable",
+	})
+
 func cmdPredict(args []string, stdout, stderr io.Writer) error {
-	fs := flag.NewFlagSet("predict", flag.ContinueOnError)
-	fs.SetOutput(stderr)
-	asJSON := fs.Bool("json", false, "print one JSON object (keys of MODEL.md §5, and more)")
+	fs := newFlags("monitor predict", predictHead, predictExits)
+	asJSON := fs.Bool("json", false, "print one JSON object: mean_square_stable, stability, spectral_radius, spectral_radius_error, error_mean, error_second_moment, error_std, loss_margin, then the period, the actuator's policy and the network states")
+	strict := fs.Bool("strict", false, "exit 6 when the loop is not mean-square stable, 5 when the computation cannot tell (marginal)")
 	vary := fs.String("vary", "", "sweep a parameter and print CSV: loss=START:STOP:STEP or delay_scale=START:STOP:STEP")
 	step := fs.Int("step", 0, "print the expected error and its std for the first `N` periods after a setpoint step from rest (CSV)")
 	stepTo := fs.String("step-to", "", "setpoint of the step, comma-separated (default: the loop's setpoint)")
 	plotFile := fs.String("plot", "", "with --vary or --step: also write a plot to `FILE` (.svg, .png or .pdf)")
 	noMargin := fs.Bool("no-margin", false, "skip the loss margin (up to ~100 stability tests)")
-	fs.Usage = func() {
-		fmt.Fprintln(stderr, "usage: monitor predict LOOP.yaml [--json] [--vary P=A:B:S | --step N] [--plot FILE]")
-		fs.PrintDefaults()
-	}
 	path, err := parseArgs(fs, args)
 	if err != nil {
 		return err
 	}
 	if *vary != "" && *step != 0 {
 		return usagef("--vary and --step: want one of them, got both")
+	}
+	if *strict && (*vary != "" || *step != 0) {
+		return usagef("--strict: only with the single prediction, not with --vary or --step")
 	}
 	if *step < 0 || *step > 1_000_000 {
 		return usagef("--step: want a number of periods in [1, 1000000], got %d", *step)
@@ -54,7 +82,7 @@ func cmdPredict(args []string, stdout, stderr io.Writer) error {
 	}
 	loop, err := profiles.LoadLoop(path)
 	if err != nil {
-		return err
+		return badInput(err)
 	}
 	switch {
 	case *vary != "":
@@ -71,13 +99,31 @@ func cmdPredict(args []string, stdout, stderr io.Writer) error {
 	}
 	pr, err := estimate.Predict(loop, estimate.PredictOptions{SkipMargin: *noMargin})
 	if err != nil {
-		return fmt.Errorf("%s: %w", path, err)
+		return badInput(fmt.Errorf("%s: %w", path, err))
 	}
 	if *asJSON {
-		return writeJSON(stdout, loop, pr)
+		if err := writeJSON(stdout, loop, pr); err != nil {
+			return err
+		}
+	} else {
+		writeSummary(stdout, path, loop, pr)
 	}
-	writeSummary(stdout, path, loop, pr)
+	if *strict {
+		return strictStatus(pr)
+	}
 	return nil
+}
+
+// strictStatus is the --strict verdict: nil when the loop is certified
+// mean-square stable, else an exitError (6 not stable, 5 marginal).
+func strictStatus(pr *estimate.Prediction) error {
+	switch stability.Of(pr) {
+	case estimate.StabilityStable:
+		return nil
+	case estimate.StabilityMarginal:
+		return exitError{code: exitcode.Inconclusive, msg: "--strict: " + stability.Describe(pr)}
+	}
+	return exitError{code: exitcode.NotStable, msg: "--strict: " + stability.Describe(pr)}
 }
 
 func parseFloats(s string) ([]float64, error) {
@@ -137,10 +183,13 @@ func parseVary(s string) (string, []float64, error) {
 	return name, values, nil
 }
 
-// jsonPrediction is the --json output: the keys of MODEL.md §5 first.
+// jsonPrediction is the --json output: the verdict, ρ with its error, the
+// error moments and the loss margin first, then the details.
 type jsonPrediction struct {
 	MeanSquareStable  bool        `json:"mean_square_stable"`
+	Stability         string      `json:"stability"`
 	SpectralRadius    float64     `json:"spectral_radius"`
+	RadiusError       *float64    `json:"spectral_radius_error"`
 	ErrorMean         []float64   `json:"error_mean"`
 	ErrorSecondMoment *float64    `json:"error_second_moment"`
 	ErrorStd          *float64    `json:"error_std"`
@@ -171,7 +220,9 @@ func finite(v float64) *float64 {
 func writeJSON(w io.Writer, loop *profiles.Loop, pr *estimate.Prediction) error {
 	out := jsonPrediction{
 		MeanSquareStable: pr.MeanSquareStable,
+		Stability:        stability.Of(pr),
 		SpectralRadius:   pr.SpectralRadius,
+		RadiusError:      finite(pr.RadiusError),
 		LossMargin:       finite(pr.LossMargin),
 		Period:           loop.Period,
 		Actuator:         loop.Actuator.OnLoss.String(),
@@ -216,17 +267,17 @@ func writeSummary(w io.Writer, path string, loop *profiles.Loop, pr *estimate.Pr
 		name = "(unnamed)"
 	}
 	fmt.Fprintf(w, "network   %s, %d joint states; actuator %s on loss\n", name, len(pr.States), loop.Actuator.OnLoss)
-	if pr.MeanSquareStable {
-		fmt.Fprintf(w, "verdict   mean-square stable (spectral radius %.6g < 1)\n", pr.SpectralRadius)
-	} else {
-		fmt.Fprintf(w, "verdict   NOT mean-square stable (spectral radius %.6g ≥ 1): the error's second moment grows without bound\n", pr.SpectralRadius)
+	verdict := stability.Describe(pr)
+	if stability.Of(pr) == estimate.StabilityUnstable {
+		verdict += ": the error's second moment grows without bound"
 	}
+	fmt.Fprintf(w, "verdict   %s\n", verdict)
 	switch {
 	case math.IsNaN(pr.LossMargin):
 	case pr.LossMargin >= 1:
 		fmt.Fprintf(w, "margin    stays stable for any extra loss below 1\n")
 	case pr.LossMargin == 0:
-		fmt.Fprintf(w, "margin    0: unstable already\n")
+		fmt.Fprintf(w, "margin    0: not stable already\n")
 	default:
 		fmt.Fprintf(w, "margin    stability is lost at an extra loss of %.4f on every packet of both directions\n", pr.LossMargin)
 	}
@@ -249,16 +300,16 @@ func writeSummary(w io.Writer, path string, loop *profiles.Loop, pr *estimate.Pr
 func predictSweep(loop *profiles.Loop, param string, values []float64, plotFile string, stdout, stderr io.Writer) error {
 	res, err := estimate.Sweep(loop, param, values)
 	if err != nil {
-		return err
+		return badInput(fmt.Errorf("%s: %w", loop.File, err))
 	}
-	fmt.Fprintf(stdout, "%s,error_second_moment,spectral_radius,mean_square_stable\n", param)
+	fmt.Fprintf(stdout, "%s,error_second_moment,spectral_radius,mean_square_stable,stability\n", param)
 	for _, p := range res.Points {
 		sm := ""
 		if p.MeanSquareStable {
 			sm = strconv.FormatFloat(p.SecondMoment, 'g', 8, 64)
 		}
-		fmt.Fprintf(stdout, "%s,%s,%s,%v\n", strconv.FormatFloat(p.Value, 'g', 8, 64), sm,
-			strconv.FormatFloat(p.SpectralRadius, 'g', 8, 64), p.MeanSquareStable)
+		fmt.Fprintf(stdout, "%s,%s,%s,%v,%s\n", strconv.FormatFloat(p.Value, 'g', 8, 64), sm,
+			stability.Value(p.SpectralRadius, 8), p.MeanSquareStable, pointStability(p))
 	}
 	switch {
 	case res.LostFromStart:
@@ -275,7 +326,7 @@ func predictSweep(loop *profiles.Loop, param string, values []float64, plotFile 
 func predictStep(loop *profiles.Loop, steps int, plotFile string, stdout io.Writer) error {
 	md, err := estimate.Build(loop, estimate.Options{})
 	if err != nil {
-		return err
+		return badInput(fmt.Errorf("%s: %w", loop.File, err))
 	}
 	tr := md.Transient(steps)
 	p := len(loop.Setpoint)
@@ -303,4 +354,14 @@ func predictStep(loop *profiles.Loop, steps int, plotFile string, stdout io.Writ
 		return plotStep(tr, plotFile)
 	}
 	return nil
+}
+
+// pointStability is the verdict of one point of a sweep. A sweep point
+// carries no marginal verdict: it is stable when certified, else
+// unstable.
+func pointStability(p estimate.SweepPoint) string {
+	if p.MeanSquareStable {
+		return estimate.StabilityStable
+	}
+	return estimate.StabilityUnstable
 }

@@ -2,6 +2,7 @@ package main
 
 import (
 	"context"
+	"errors"
 	"flag"
 	"fmt"
 	"io"
@@ -12,6 +13,7 @@ import (
 	"os/signal"
 	"syscall"
 
+	"rigwire/cmd/internal/exitcode"
 	"rigwire/emulate"
 	"rigwire/emulate/rig"
 	"rigwire/profiles"
@@ -26,7 +28,31 @@ const rigUsage = `usage: monitor rig node --loop LOOP --relay HOST:PORT [--liste
 node: the plant, its time-driven sensor and its hold actuator; samples go to
 --relay (a relay's --listen, or the controller itself), commands come back to
 --listen. controller: the loop's controller, replying to each sample's source.
+Run "monitor rig node -h" or "monitor rig controller -h" for the flags.
 `
+
+const rigNodeHead = `usage: monitor rig node --loop LOOP --relay HOST:PORT [--listen HOST:PORT] [--log FILE]
+                        [--duration D] [--seed S] [--start steady|rest]
+
+The simulated rig's node: the plant (integrated exactly between input
+changes), its time-driven sensor sending each sample to --relay, and its
+hold actuator applying the commands that come back to --listen. Runs for
+--duration, or until SIGINT or SIGTERM.
+`
+
+const rigControllerHead = `usage: monitor rig controller --loop LOOP --listen HOST:PORT [--start steady|rest]
+
+The simulated rig's controller: the loop's controller, answering each
+sample that arrives at --listen with a command to the sample's source.
+Runs until SIGINT or SIGTERM.
+`
+
+// rigExits are the statuses of both rig commands.
+var rigExits = exitcode.Help(plainStatuses, map[int]string{
+	exitcode.OK:       "stopped after --duration or on SIGINT/SIGTERM",
+	exitcode.Failure:  "error while running (a socket, the sample log)",
+	exitcode.BadInput: "bad usage, or a loop file that does not load or validate (the message names file, line and key)",
+})
 
 // cmdRig runs one end of the simulated rig.
 func cmdRig(args []string, stdout, stderr io.Writer) error {
@@ -40,7 +66,7 @@ func cmdRig(args []string, stdout, stderr io.Writer) error {
 	case "controller":
 		return cmdRigController(args[1:], stderr)
 	case "-h", "-help", "--help", "help":
-		fmt.Fprint(stdout, rigUsage)
+		fmt.Fprint(stdout, rigUsage+"\n"+rigExits)
 		return nil
 	}
 	return usagef("unknown rig command %q: want node or controller", args[0])
@@ -107,7 +133,11 @@ func rigStart(loop *profiles.Loop, mode string, log *slog.Logger) (rig.Start, er
 			log.Warn("starting at rest", "reason", err.Error())
 			return rig.RestStart(loop), nil
 		}
-		return st, err
+		if err != nil {
+			// The steady state is the prediction's: a loop it cannot use.
+			return st, badInput(fmt.Errorf("%s: %w", loop.File, err))
+		}
+		return st, nil
 	}
 	return rig.Start{}, usagef("--start: want steady or rest, got %q", mode)
 }
@@ -118,8 +148,7 @@ func signalContext() (context.Context, context.CancelFunc) {
 }
 
 func cmdRigNode(args []string, stderr io.Writer) error {
-	fs := flag.NewFlagSet("monitor rig node", flag.ContinueOnError)
-	fs.SetOutput(stderr)
+	fs := newFlags("monitor rig node", rigNodeHead, rigExits)
 	loopPath := fs.String("loop", "", "loop `FILE` (YAML) the rig simulates (required)")
 	var relay, listen apFlag
 	fs.Var(&relay, "relay", "`HOST:PORT` the samples go to: the relay's --listen, or the controller (required)")
@@ -169,8 +198,7 @@ func cmdRigNode(args []string, stderr io.Writer) error {
 }
 
 func cmdRigController(args []string, stderr io.Writer) error {
-	fs := flag.NewFlagSet("monitor rig controller", flag.ContinueOnError)
-	fs.SetOutput(stderr)
+	fs := newFlags("monitor rig controller", rigControllerHead, rigExits)
 	loopPath := fs.String("loop", "", "loop `FILE` (YAML) whose controller to run (required)")
 	var listen apFlag
 	fs.Var(&listen, "listen", "`HOST:PORT` where samples arrive (required)")
@@ -200,7 +228,7 @@ func cmdRigController(args []string, stderr io.Writer) error {
 // rigSetup parses a rig command's flags, checks the ones every rig command
 // needs (--loop and the command's required address, named addrName), and
 // loads the loop and its start point.
-func rigSetup(fs *flag.FlagSet, args []string, loopPath, start *string, addrName string, addr *apFlag, stderr io.Writer) (*profiles.Loop, rig.Start, *slog.Logger, error) {
+func rigSetup(fs *flags, args []string, loopPath, start *string, addrName string, addr *apFlag, stderr io.Writer) (*profiles.Loop, rig.Start, *slog.Logger, error) {
 	var st rig.Start
 	if err := fs.Parse(args); err != nil {
 		return nil, st, nil, parseErr(err)
@@ -216,15 +244,23 @@ func rigSetup(fs *flag.FlagSet, args []string, loopPath, start *string, addrName
 	log := slog.New(slog.NewTextHandler(stderr, nil))
 	loop, err := profiles.LoadLoop(*loopPath)
 	if err != nil {
-		return nil, st, nil, err
+		return nil, st, nil, badInput(err)
+	}
+	// The datagram layout comes from the loop's decode section: checked
+	// here, so that NewNode and NewController fail only on their sockets.
+	if _, err := rig.NewLayout(loop); err != nil {
+		return nil, st, nil, badInput(fmt.Errorf("%s: %w", loop.File, err))
 	}
 	st, err = rigStart(loop, *start, log)
 	return loop, st, log, err
 }
 
-// parseErr turns a flag parse error into a usage error (help is not one).
+// parseErr turns a flag parse error into a usage error; a help request
+// and an error flags.Parse has already classified pass as they are.
 func parseErr(err error) error {
-	if err == flag.ErrHelp {
+	var he helpError
+	var ue usageError
+	if err == nil || errors.As(err, &he) || errors.As(err, &ue) || errors.Is(err, flag.ErrHelp) {
 		return err
 	}
 	return usageError{err.Error()}

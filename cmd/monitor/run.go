@@ -3,8 +3,6 @@ package main
 import (
 	"context"
 	"encoding/json"
-	"errors"
-	"flag"
 	"fmt"
 	"io"
 	"log/slog"
@@ -18,6 +16,7 @@ import (
 	"github.com/prometheus/client_golang/prometheus"
 	"github.com/prometheus/client_golang/prometheus/collectors"
 
+	"rigwire/cmd/internal/exitcode"
 	"rigwire/cmd/internal/metricsrv"
 	"rigwire/cmd/internal/tripwire"
 	"rigwire/cmd/monitor/engine"
@@ -40,12 +39,9 @@ confidence interval, compares it with the prediction, serves Prometheus
 metrics and, at the end (--duration, SIGINT or SIGTERM), writes a JSON
 summary with a verdict: agree when the predicted E[eᵀe] lies in the
 interval widened by --tolerance ([lo − tol·|lo|, hi + tol·|hi|]), above when
-the measured value is above the prediction, below when below.
-
-Exit status: 0 once the summary is written (whatever the verdict); with
---strict: 0 agree, 3 above, 4 below, 5 no samples, 6 the prediction is not
-mean-square stable; 8 (before any of these) when the loop's safety trip
-fired. 1: a runtime error; 2: bad flags or loop file.
+the measured value is above the prediction, below when below. Without
+--strict the status is 0 once the summary is written, whatever the
+verdict; a safety trip gives 8 either way.
 
 With a trip section in the loop file the monitor checks every sample
 against its bounds; when one is crossed it logs a warning and, with
@@ -54,9 +50,24 @@ UDP) to the relay's trip socket (impair run --trip-listen). The trip is no
 emergency stop: keep one that does not depend on the link or on rigwire.
 `
 
+// runExits are the statuses of monitor run, in their order of precedence
+// after 1 and 2: the trip first, then the --strict verdict.
+var runExits = exitcode.Help(
+	[]int{exitcode.OK, exitcode.Failure, exitcode.BadInput, exitcode.Tripped, exitcode.Above, exitcode.Below,
+		exitcode.Inconclusive, exitcode.NotStable},
+	map[int]string{
+		exitcode.OK:           "the summary was written (with --strict: and the verdict is agree)",
+		exitcode.Failure:      "error while running (a socket, the summary file)",
+		exitcode.BadInput:     "bad usage, or a loop or profile file that does not load or validate (the message names file, line and key)",
+		exitcode.Tripped:      "the loop's safety trip fired (before any verdict code)",
+		exitcode.Above:        "with --strict: the measured E[eᵀe] lies above the prediction",
+		exitcode.Below:        "with --strict: the measured E[eᵀe] lies below the prediction",
+		exitcode.Inconclusive: "with --strict: the data cannot tell (no samples, or too few to judge)",
+		exitcode.NotStable:    "with --strict: the prediction is not mean-square stable (or marginal), so there is nothing to compare with",
+	})
+
 func cmdRun(args []string, stdout, stderr io.Writer) error {
-	fs := flag.NewFlagSet("run", flag.ContinueOnError)
-	fs.SetOutput(stderr)
+	fs := newFlags("monitor run", runUsage, runExits)
 	var listen apFlag
 	var duration, warmup durationFlag
 	loopPath := fs.String("loop", "", "loop description `FILE` (YAML, with a decode section)")
@@ -66,7 +77,7 @@ func cmdRun(args []string, stdout, stderr io.Writer) error {
 	summaryPath := fs.String("summary", "", "write the JSON summary to `FILE` (default: stdout)")
 	tolerance := fs.Float64("tolerance", 0.1, "relative widening of the confidence interval for the verdict")
 	fs.Var(&warmup, "warmup", "skip the samples of the first `D` (by count: D / period)")
-	strict := fs.Bool("strict", false, "exit with the verdict's code (3 above, 4 below, 5 no samples, 6 unstable)")
+	strict := fs.Bool("strict", false, "exit with the verdict's status (3 above, 4 below, 5 inconclusive, 6 not stable)")
 	windows := fs.String("windows", "1m,10m", "sliding windows, comma-separated durations")
 	maxDatagram := fs.Int("max-datagram", engine.DefaultMaxDatagram, "longest datagram decoded, `bytes` (longer: counted as oversized)")
 	progress := durationFlag{s: 1}
@@ -76,15 +87,8 @@ func cmdRun(args []string, stdout, stderr io.Writer) error {
 	var tripTo apFlag
 	fs.Var(&tripTo, "trip-to", "send the safety trip request to the relay's trip socket at `HOST:PORT` (needs a trip section in the loop)")
 	logLevel := fs.String("log-level", "info", "debug, info, warn or error")
-	fs.Usage = func() {
-		fmt.Fprint(stderr, runUsage)
-		fs.PrintDefaults()
-	}
 	if err := fs.Parse(args); err != nil {
-		if errors.Is(err, flag.ErrHelp) {
-			return err
-		}
-		return usageError{err.Error()}
+		return err
 	}
 	switch {
 	case fs.NArg() > 0:
@@ -99,6 +103,8 @@ func cmdRun(args []string, stdout, stderr io.Writer) error {
 		return usagef("--max-datagram: want 1…65535 bytes, got %d", *maxDatagram)
 	case *rcvBuf < 0 || *rcvBuf > 1<<30:
 		return usagef("--receive-buffer: want 0…1073741824 bytes, got %d", *rcvBuf)
+	case checkMetricsAddr(*metricsAddr) != nil:
+		return checkMetricsAddr(*metricsAddr)
 	}
 	wins, err := parseWindows(*windows)
 	if err != nil {
@@ -112,20 +118,20 @@ func cmdRun(args []string, stdout, stderr io.Writer) error {
 
 	loop, err := profiles.LoadLoop(*loopPath)
 	if err != nil {
-		return usageError{err.Error()}
+		return badInput(err)
 	}
 	if loop.Decode.Format == "" {
-		return usagef("%s: decode: missing (where the outputs sit in each sensor datagram)", *loopPath)
+		return badInput(fmt.Errorf("%s: decode: missing (where the outputs sit in each sensor datagram)", *loopPath))
 	}
 	pred, err := estimate.Predict(loop, estimate.PredictOptions{SkipMargin: *noMargin})
 	if err != nil {
-		return fmt.Errorf("%s: prediction: %w", *loopPath, err)
+		return badInput(fmt.Errorf("%s: prediction: %w", *loopPath, err))
 	}
 	mon, err := engine.New(loop, pred, engine.Options{
 		Windows: wins, Warmup: time.Duration(warmup.s * 1e9), Tolerance: *tolerance, MaxDatagram: *maxDatagram,
 	})
 	if err != nil {
-		return usageError{err.Error()}
+		return badInput(fmt.Errorf("%s: %w", *loopPath, err))
 	}
 	if tripTo.set && !loop.Trip.Enabled {
 		return usagef("--trip-to: %s has no trip section (the bounds that fire the trip)", *loopPath)
@@ -140,7 +146,7 @@ func cmdRun(args []string, stdout, stderr io.Writer) error {
 			defer tripConn.Close()
 		}
 		if err := mon.SetTrip(loop.Trip, func(ev engine.TripEvent) { sendTrip(tripConn, ev, log) }); err != nil {
-			return usageError{fmt.Sprintf("%s: %v", *loopPath, err)}
+			return badInput(fmt.Errorf("%s: %w", *loopPath, err))
 		}
 	}
 
@@ -162,7 +168,7 @@ func cmdRun(args []string, stdout, stderr io.Writer) error {
 	srv, err := metricsrv.Start(*metricsAddr, reg, log)
 	if err != nil {
 		conn.Close()
-		return usagef("--metrics %s: %v", *metricsAddr, err)
+		return fmt.Errorf("--metrics %s: %w", *metricsAddr, err)
 	}
 	defer srv.Close()
 

@@ -2,7 +2,6 @@ package main
 
 import (
 	"encoding/json"
-	"flag"
 	"fmt"
 	"io"
 	"math"
@@ -11,13 +10,26 @@ import (
 	"strings"
 	"time"
 
+	"rigwire/cmd/internal/exitcode"
+	"rigwire/cmd/internal/stability"
 	"rigwire/estimate"
 	"rigwire/profiles"
 )
 
+const simulateHead = `usage: monitor simulate LOOP.yaml --periods N --runs R [--seed S] [--warmup N]
+                        [--paths FILE] [--path-runs K] [--json]
+
+Runs the loop's jump system by Monte Carlo: R independent runs of N
+periods, each drawing the network's fates from the profile, and prints the
+measured E[eᵀe] with its standard error across runs beside the prediction.
+`
+
 func cmdSimulate(args []string, stdout, stderr io.Writer) error {
-	fs := flag.NewFlagSet("simulate", flag.ContinueOnError)
-	fs.SetOutput(stderr)
+	fs := newFlags("monitor simulate", simulateHead, exitcode.Help(plainStatuses, map[int]string{
+		exitcode.OK:       "the runs were made and printed (whatever the loop's stability)",
+		exitcode.Failure:  "error while running (the paths file could not be written)",
+		exitcode.BadInput: "bad usage, or a loop or profile file that does not load or validate (the message names file, line and key)",
+	}))
 	periods := fs.Int("periods", 10000, "periods per run")
 	runs := fs.Int("runs", 20, "independent runs (the standard error is taken across them)")
 	warmup := fs.Int("warmup", -1, "periods discarded at the start of each run (default: a tenth of --periods)")
@@ -25,10 +37,6 @@ func cmdSimulate(args []string, stdout, stderr io.Writer) error {
 	paths := fs.String("paths", "", "write sample paths as CSV to `FILE` (- for stdout)")
 	pathRuns := fs.Int("path-runs", 1, "number of runs whose paths --paths writes")
 	asJSON := fs.Bool("json", false, "print the result as JSON")
-	fs.Usage = func() {
-		fmt.Fprintln(stderr, "usage: monitor simulate LOOP.yaml --periods N --runs R [--seed S] [--paths FILE]")
-		fs.PrintDefaults()
-	}
 	path, err := parseArgs(fs, args)
 	if err != nil {
 		return err
@@ -48,7 +56,7 @@ func cmdSimulate(args []string, stdout, stderr io.Writer) error {
 	}
 	loop, err := profiles.LoadLoop(path)
 	if err != nil {
-		return err
+		return badInput(err)
 	}
 	keep := 0
 	if *paths != "" {
@@ -67,11 +75,11 @@ func cmdSimulate(args []string, stdout, stderr io.Writer) error {
 		},
 	})
 	if err != nil {
-		return err
+		return badInput(fmt.Errorf("%s: %w", path, err))
 	}
 	pr, err := estimate.Predict(loop, estimate.PredictOptions{SkipMargin: true})
 	if err != nil {
-		return err
+		return badInput(fmt.Errorf("%s: prediction: %w", path, err))
 	}
 	if *paths != "" {
 		if err := writePaths(*paths, loop, res, stdout); err != nil {
@@ -87,6 +95,7 @@ func cmdSimulate(args []string, stdout, stderr io.Writer) error {
 			"warmup":              *warmup,
 			"seed":                *seed,
 			"mode_counts":         res.ModeCounts,
+			"stability":           stability.Of(pr),
 			"predicted_second_moment": func() *float64 {
 				if pr.Error == nil {
 					return nil
@@ -108,7 +117,7 @@ func cmdSimulate(args []string, stdout, stderr io.Writer) error {
 		z := (res.SecondMoment - pr.Error.SecondMoment) / res.StdErr
 		fmt.Fprintf(stdout, "predicted  %.6g (difference %.2f standard errors)\n", pr.Error.SecondMoment, z)
 	} else {
-		fmt.Fprintf(stdout, "predicted  not mean-square stable (spectral radius %.6g): a finite-length average means little\n", pr.SpectralRadius)
+		fmt.Fprintf(stdout, "predicted  %s: a finite-length average means little\n", stability.Describe(pr))
 	}
 	fmt.Fprintf(stdout, "modes      sample lost/stale %.4f, command lost/late %.4f, in time %.4f\n",
 		float64(res.ModeCounts[0])/total, float64(res.ModeCounts[1])/total, float64(res.ModeCounts[2])/total)

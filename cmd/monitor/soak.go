@@ -3,7 +3,6 @@ package main
 import (
 	"context"
 	"encoding/json"
-	"flag"
 	"fmt"
 	"io"
 	"log/slog"
@@ -13,6 +12,7 @@ import (
 	"strings"
 	"time"
 
+	"rigwire/cmd/internal/exitcode"
 	"rigwire/cmd/monitor/engine"
 	"rigwire/emulate"
 	"rigwire/estimate"
@@ -24,11 +24,36 @@ const soakCaution = "SAFETY: the relay will delay and drop the commands that mov
 	"scenario's phases (outages included). The loop file's trip section is a software guard only.\n" +
 	emulate.SafetyCautions
 
-// Exit statuses of `monitor soak` (1 and 2 stay error and usage).
+// Exit statuses of `monitor soak` beyond 0, 1 and 2.
 const (
-	soakExitFailed  = 7 // a phase failed its check
-	soakExitTripped = 8 // the safety trip fired
+	soakExitFailed  = exitcode.PhaseFailed // a phase failed its check
+	soakExitTripped = exitcode.Tripped     // the safety trip fired
 )
+
+const soakHead = `usage: monitor soak --loop LOOP --scenario FILE --listen HOST:PORT --controller HOST:PORT
+                   [--time-scale F] [--report DIR] [--summary FILE] [--after-trip D]
+
+Plays a scenario's phases on the relay (in process, with the monitor),
+predicts every phase (and every ramp step) before it starts, judges each
+phase against its own prediction after its settling time, prints progress
+and a per-phase table, and writes a JSON summary; --report DIR writes
+report.html and the plots as PNG files. A trip section in the loop file
+arms the safety trip: the run then ends --after-trip later. The trip is no
+emergency stop: keep one that does not depend on the link or on rigwire.
+`
+
+// soakExits are the statuses of monitor soak, in their order of
+// precedence after 1 and 2.
+var soakExits = exitcode.Help(
+	[]int{exitcode.OK, exitcode.Failure, exitcode.BadInput, exitcode.Tripped, exitcode.PhaseFailed, exitcode.Inconclusive},
+	map[int]string{
+		exitcode.OK:           "every phase passed",
+		exitcode.Failure:      "error while running (a socket, the summary or the report)",
+		exitcode.BadInput:     "bad usage, or a loop, profile or scenario file that does not load or validate (the message names file, line and key)",
+		exitcode.Tripped:      "the safety trip fired (before any phase verdict)",
+		exitcode.PhaseFailed:  "a phase failed its check, or the scenario was cut short (the message names them)",
+		exitcode.Inconclusive: "no phase failed but one could not be judged (the data could not tell)",
+	})
 
 // cmdSoak plays a scenario on the relay (in process, like serve) while the
 // monitor engine judges each phase against its own prediction, shows the
@@ -36,8 +61,7 @@ const (
 // status for lab scripts and, with --report, an HTML report and its plots
 // as PNG files.
 func cmdSoak(args []string, stdout, stderr io.Writer) error {
-	fs := flag.NewFlagSet("monitor soak", flag.ContinueOnError)
-	fs.SetOutput(stderr)
+	fs := newFlags("monitor soak", soakHead, soakExits)
 	bf := addBenchFlags(fs, "loop `FILE` (YAML, with a decode section; its trip section arms the safety trip) (required)",
 		"127.0.0.1:9475", 5*time.Second)
 	scenarioPath := fs.String("scenario", "", "scenario `FILE`: the phases the relay applies (required)")
@@ -62,22 +86,22 @@ func cmdSoak(args []string, stdout, stderr io.Writer) error {
 
 	loop, err := profiles.LoadLoop(*bf.loop)
 	if err != nil {
-		return err
+		return badInput(err)
 	}
 	sc, err := profiles.LoadScenario(*scenarioPath)
 	if err != nil {
-		return err
+		return badInput(err)
 	}
 	if *timeScale != 1 {
 		sc = sc.Scale(*timeScale)
 	}
 	steps, err := sc.Steps()
 	if err != nil {
-		return fmt.Errorf("%s: %w", sc.File, err)
+		return badInput(fmt.Errorf("%s: %w", sc.File, err))
 	}
 	preds, err := predictSteps(loop, steps, stderr)
 	if err != nil {
-		return err
+		return badInput(err)
 	}
 	first := *loop
 	first.Profile, first.ProfileFile = steps[0].Profile, ""

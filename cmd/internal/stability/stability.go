@@ -61,6 +61,18 @@ func Radius(rho, rhoErr float64, verdict string) string {
 	return s
 }
 
+// Value writes ρ with at least digits significant digits, and more when
+// needed to show on which side of 1 it lies (for tables and CSV, where no
+// error is printed beside it).
+func Value(rho float64, digits int) string {
+	s := strconv.FormatFloat(rho, 'g', digits, 64)
+	for digits < 17 && !sameSide(s, rho) {
+		digits++
+		s = strconv.FormatFloat(rho, 'g', digits, 64)
+	}
+	return s
+}
+
 // sameSide tells whether the printed value s compares with 1 as rho does.
 func sameSide(s string, rho float64) bool {
 	v, err := strconv.ParseFloat(s, 64)

@@ -69,6 +69,27 @@ func TestRadiusSide(t *testing.T) {
 	}
 }
 
+func TestValue(t *testing.T) {
+	cases := []struct {
+		name   string
+		rho    float64
+		digits int
+		want   string
+	}{
+		{"enough digits", 0.998988123, 8, "0.99898812"},
+		{"more digits next to 1", 0.9999999999, 8, "0.9999999999"},
+		{"above 1", 1.0000000000000027, 8, "1.000000000000003"},
+		{"exactly 1", 1, 8, "1"},
+	}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			if got := Value(c.rho, c.digits); got != c.want {
+				t.Errorf("Value(%v, %d) = %q, want %q", c.rho, c.digits, got, c.want)
+			}
+		})
+	}
+}
+
 func TestDescribe(t *testing.T) {
 	cases := []struct {
 		name string
