@@ -1,10 +1,8 @@
 package main
 
-import "flag"
-
 // parseInterspersed parses args with fs, allowing flags before and after
 // the positional arguments, which it returns in order.
-func parseInterspersed(fs *flag.FlagSet, args []string) ([]string, error) {
+func parseInterspersed(fs *flags, args []string) ([]string, error) {
 	var paths []string
 	for {
 		if err := fs.Parse(args); err != nil {

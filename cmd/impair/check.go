@@ -1,14 +1,13 @@
 package main
 
 import (
-	"errors"
-	"flag"
 	"fmt"
 	"io"
 	"math"
 	"strings"
 	"text/tabwriter"
 
+	"rigwire/cmd/internal/exitcode"
 	"rigwire/profiles"
 )
 
@@ -19,19 +18,20 @@ loss and the delay's mean, median, p99 and p99.9, and for each direction
 the share of time in each state, the long-run loss, the mean length of a
 run of lost datagrams and the chance that a datagram is lost when the one
 before it was, for datagrams sent every D (default 10ms).
-
-Exit status: 0 for a valid profile, 2 for a bad one or bad flags.
 `
+
+var checkExits = exitcode.Help([]int{exitcode.OK, exitcode.BadInput}, map[int]string{
+	exitcode.OK:       "the profile is valid (its report was printed)",
+	exitcode.BadInput: "bad usage, or a profile that does not load or validate (the message names file, line and key)",
+})
 
 // maxCheckInterval bounds --interval: loss runs of datagrams sent less
 // often than hourly mean nothing for a control loop.
 const maxCheckInterval = 3600.0
 
 // cmdCheck is `impair check`: validate a profile and describe it.
-func cmdCheck(args []string, stdout, stderr io.Writer) int {
-	fs := flag.NewFlagSet("check", flag.ContinueOnError)
-	fs.SetOutput(stderr)
-	fs.Usage = func() { fmt.Fprint(stderr, checkUsage) }
+func cmdCheck(args []string, stdout, stderr io.Writer) error {
+	fs := newFlags("impair check", checkUsage, checkExits)
 	interval := 0.01
 	fs.Func("interval", "time between datagrams for loss-run figures (default 10ms)", func(s string) error {
 		v, err := profiles.ParseDuration(s)
@@ -47,22 +47,17 @@ func cmdCheck(args []string, stdout, stderr io.Writer) int {
 	// Flags may come before or after the profile.
 	paths, err := parseInterspersed(fs, args)
 	if err != nil {
-		if errors.Is(err, flag.ErrHelp) {
-			return 0
-		}
-		return 2
+		return err
 	}
 	if len(paths) != 1 {
-		fmt.Fprintf(stderr, "impair check: want one profile, got %d\n%s", len(paths), checkUsage)
-		return 2
+		return usagef("want one profile, got %d", len(paths))
 	}
 	p, err := profiles.Load(paths[0])
 	if err != nil {
-		fmt.Fprintln(stderr, err)
-		return 2
+		return badInput(err)
 	}
 	writeCheck(stdout, p, interval)
-	return 0
+	return nil
 }
 
 // writeCheck prints the report of a valid profile.

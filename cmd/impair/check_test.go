@@ -19,7 +19,7 @@ var update = flag.Bool("update", false, "rewrite the golden files in testdata")
 // 0.9375·0.002 + 0.0625·0.25 = 0.0175.
 func TestCheckShipped(t *testing.T) {
 	var out, errOut bytes.Buffer
-	code := cmdCheck([]string{"--interval", "10ms", "../../profiles/warehouse-wifi.yaml"}, &out, &errOut)
+	code := dispatch([]string{"check", "--interval", "10ms", "../../profiles/warehouse-wifi.yaml"}, &out, &errOut)
 	if code != 0 {
 		t.Fatalf("exit %d, stderr %q", code, errOut.String())
 	}
@@ -60,19 +60,19 @@ func TestCheckErrors(t *testing.T) {
 		want string // first line of stderr
 	}{
 		{"bad profile", []string{"../../profiles/testdata/unknown-key.bad.yaml"},
-			`../../profiles/testdata/unknown-key.bad.yaml:4: sensor_to_controller: unknown key "lossy"`},
-		{"missing file", []string{"no-such.yaml"}, "reading profile: open no-such.yaml: no such file or directory"},
+			`impair check: ../../profiles/testdata/unknown-key.bad.yaml:4: sensor_to_controller: unknown key "lossy"`},
+		{"missing file", []string{"no-such.yaml"}, "impair check: reading profile: open no-such.yaml: no such file or directory"},
 		{"no profile", nil, "impair check: want one profile, got 0"},
 		{"two profiles", []string{"a.yaml", "b.yaml"}, "impair check: want one profile, got 2"},
 		{"bad interval", []string{"--interval", "0", "../../profiles/switched-cell.yaml"},
-			`invalid value "0" for flag -interval: want a duration > 0 and ≤ 1h, got "0"`},
+			`impair check: invalid value "0" for flag -interval: want a duration > 0 and ≤ 1h, got "0"`},
 		{"interval not a duration", []string{"../../profiles/switched-cell.yaml", "--interval", "soon"},
-			`invalid value "soon" for flag -interval: want a duration ("3ms") or seconds, got "soon"`},
+			`impair check: invalid value "soon" for flag -interval: want a duration ("3ms") or seconds, got "soon"`},
 	}
 	for _, tt := range tests {
 		t.Run(tt.name, func(t *testing.T) {
 			var out, errOut bytes.Buffer
-			if code := cmdCheck(tt.args, &out, &errOut); code != 2 {
+			if code := dispatch(append([]string{"check"}, tt.args...), &out, &errOut); code != 2 {
 				t.Errorf("exit %d, want 2", code)
 			}
 			first, _, _ := strings.Cut(errOut.String(), "\n")
@@ -89,7 +89,7 @@ func TestCheckErrors(t *testing.T) {
 // TestCheckFlagAfterProfile checks that flags may follow the profile.
 func TestCheckFlagAfterProfile(t *testing.T) {
 	var out, errOut bytes.Buffer
-	if code := cmdCheck([]string{"../../profiles/switched-cell.yaml", "--interval", "1ms"}, &out, &errOut); code != 0 {
+	if code := dispatch([]string{"check", "../../profiles/switched-cell.yaml", "--interval", "1ms"}, &out, &errOut); code != 0 {
 		t.Fatalf("exit %d: %s", code, errOut.String())
 	}
 	if !strings.Contains(out.String(), "one datagram every 1 ms") {

@@ -3,7 +3,6 @@ package main
 import (
 	"context"
 	"errors"
-	"flag"
 	"fmt"
 	"io"
 	"log/slog"
@@ -11,6 +10,8 @@ import (
 	"os/signal"
 	"syscall"
 	"time"
+
+	"rigwire/cmd/internal/exitcode"
 )
 
 const echoUsage = `usage: impair echo --listen HOST:PORT
@@ -19,35 +20,33 @@ Answers probes from impair probe: each probe datagram is sent back to its
 source at once, stamped with the times (wall clock) it was received and
 sent back, so that a prober whose clock is synchronised with this one can
 split the round trip into its two one-way delays. Datagrams that are not
-probes are counted and ignored. Runs until SIGINT or SIGTERM, then exits 0.
+probes are counted and ignored. Runs until SIGINT or SIGTERM.
 `
 
+var echoExits = exitcode.Help(plainStatuses, map[int]string{
+	exitcode.OK:       "stopped on SIGINT or SIGTERM",
+	exitcode.Failure:  "error while running (the socket)",
+	exitcode.BadInput: "bad usage",
+})
+
 // cmdEcho is `impair echo`.
-func cmdEcho(args []string, stdout, stderr io.Writer) int {
-	fs := flag.NewFlagSet("echo", flag.ContinueOnError)
-	fs.SetOutput(stderr)
-	fs.Usage = func() { fmt.Fprint(stderr, echoUsage) }
+func cmdEcho(args []string, stdout, stderr io.Writer) error {
+	fs := newFlags("impair echo", echoUsage, echoExits)
 	var listen addrFlag
-	fs.Var(&listen, "listen", "HOST:PORT to answer probes on (required)")
+	fs.Var(&listen, "listen", "`HOST:PORT` to answer probes on (required)")
 	if err := fs.Parse(args); err != nil {
-		if errors.Is(err, flag.ErrHelp) {
-			return 0
-		}
-		return 2
+		return err
 	}
 	if fs.NArg() > 0 {
-		fmt.Fprintf(stderr, "impair echo: unexpected argument %q\n", fs.Arg(0))
-		return 2
+		return usagef("unexpected argument %q", fs.Arg(0))
 	}
 	if !listen.set {
-		fmt.Fprintf(stderr, "impair echo: --listen: required\n")
-		return 2
+		return usagef("--listen: required")
 	}
 	log := slog.New(slog.NewTextHandler(stderr, nil))
 	conn, err := net.ListenUDP("udp", net.UDPAddrFromAddrPort(listen.ap))
 	if err != nil {
-		fmt.Fprintf(stderr, "impair echo: --listen %s: %v\n", listen.ap, err)
-		return 1
+		return fmt.Errorf("--listen %s: %w", listen.ap, err)
 	}
 	ctx, stop := signal.NotifyContext(context.Background(), syscall.SIGINT, syscall.SIGTERM)
 	defer stop()
@@ -58,11 +57,7 @@ func cmdEcho(args []string, stdout, stderr io.Writer) int {
 	log.Info("echoing probes", "listen", conn.LocalAddr().String())
 	answered, ignored, err := echoLoop(conn)
 	log.Info("echo stopped", "answered", answered, "ignored", ignored)
-	if err != nil {
-		fmt.Fprintf(stderr, "impair echo: %v\n", err)
-		return 1
-	}
-	return 0
+	return err
 }
 
 // echoLoop answers probes on conn until it is closed.

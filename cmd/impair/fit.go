@@ -1,8 +1,6 @@
 package main
 
 import (
-	"errors"
-	"flag"
 	"fmt"
 	"io"
 	"math"
@@ -12,6 +10,8 @@ import (
 	"strings"
 	"text/tabwriter"
 
+	"rigwire/cmd/internal/exitcode"
+	"rigwire/cmd/internal/stability"
 	"rigwire/estimate"
 	"rigwire/profiles"
 )
@@ -48,9 +48,13 @@ both). Losses are those of the whole round trip unless --one-way.
 --out writes the profile (default: print it). --loop also prints the
 prediction (monitor predict's figures) of that loop under the fitted
 profile, beside the one under the loop's own profile.
-
-Exit status: 0 when fitted, 1 when it could not be, 2 for bad input.
 `
+
+var fitExits = exitcode.Help(plainStatuses, map[int]string{
+	exitcode.OK:       "fitted (the profile was printed or written)",
+	exitcode.Failure:  "error while running (the profile file could not be written)",
+	exitcode.BadInput: "bad usage, a trace or loop file that does not load or validate (the message names file, line and key), or a trace that cannot be fitted (too few delivered probes)",
+})
 
 type fitFlags struct {
 	oneWay, halve, roundTrip bool
@@ -59,28 +63,22 @@ type fitFlags struct {
 }
 
 // cmdFit is `impair fit`.
-func cmdFit(args []string, stdout, stderr io.Writer) int {
-	fs := flag.NewFlagSet("fit", flag.ContinueOnError)
-	fs.SetOutput(stderr)
-	fs.Usage = func() { fmt.Fprint(stderr, fitUsage) }
+func cmdFit(args []string, stdout, stderr io.Writer) error {
+	fs := newFlags("impair fit", fitUsage, fitExits)
 	var f fitFlags
 	fs.BoolVar(&f.oneWay, "one-way", false, "fit the one-way delays (one_way_s)")
 	fs.BoolVar(&f.halve, "halve-rtt", false, "fit half of each round trip")
 	fs.BoolVar(&f.roundTrip, "round-trip", false, "fit the whole round trip as one direction's delay")
 	fs.StringVar(&f.direction, "direction", profiles.SensorToController, "direction the fitted channel goes to")
-	fs.StringVar(&f.out, "out", "", "write the profile here")
+	fs.StringVar(&f.out, "out", "", "write the profile to `FILE`")
 	fs.StringVar(&f.name, "name", "", "the profile's name (default: fitted-<trace>)")
-	fs.StringVar(&f.loop, "loop", "", "also predict this loop under the fitted profile")
+	fs.StringVar(&f.loop, "loop", "", "also predict the loop `FILE` under the fitted profile")
 	paths, err := parseInterspersed(fs, args)
 	if err != nil {
-		if errors.Is(err, flag.ErrHelp) {
-			return 0
-		}
-		return 2
+		return err
 	}
 	if len(paths) != 1 {
-		fmt.Fprintf(stderr, "impair fit: want one trace file, got %d\n%s", len(paths), fitUsage)
-		return 2
+		return usagef("want one trace file, got %d", len(paths))
 	}
 	n := 0
 	for _, b := range []bool{f.oneWay, f.halve, f.roundTrip} {
@@ -89,42 +87,34 @@ func cmdFit(args []string, stdout, stderr io.Writer) int {
 		}
 	}
 	if n != 1 {
-		fmt.Fprintf(stderr, "impair fit: want exactly one of --one-way, --halve-rtt, --round-trip (a round trip is halved only when you say so), got %d\n", n)
-		return 2
+		return usagef("want exactly one of --one-way, --halve-rtt, --round-trip (a round trip is halved only when you say so), got %d", n)
 	}
 	switch f.direction {
 	case profiles.SensorToController, profiles.ControllerToActuator, "both":
 	default:
-		fmt.Fprintf(stderr, "impair fit: --direction: want sensor_to_controller, controller_to_actuator or both, got %q\n", f.direction)
-		return 2
+		return usagef("--direction: want sensor_to_controller, controller_to_actuator or both, got %q", f.direction)
 	}
 	tr, err := profiles.LoadTrace(paths[0])
 	if err != nil {
-		fmt.Fprintf(stderr, "impair fit: %v\n", err)
-		return 2
+		return badInput(err)
 	}
 	res, err := fitTrace(tr, f)
 	if err != nil {
-		fmt.Fprintf(stderr, "impair fit: %v\n", err)
-		return 1
+		return err
 	}
 	printFit(stdout, res)
 	if f.out != "" {
 		if err := os.WriteFile(f.out, []byte(res.yaml), 0o644); err != nil {
-			fmt.Fprintf(stderr, "impair fit: writing profile: %v\n", err)
-			return 1
+			return fmt.Errorf("writing profile: %w", err)
 		}
 		fmt.Fprintf(stdout, "\nprofile written to %s\n", f.out)
 	} else {
 		fmt.Fprintf(stdout, "\n%s", res.yaml)
 	}
 	if f.loop != "" {
-		if err := printLoopPrediction(stdout, f.loop, res.profile); err != nil {
-			fmt.Fprintf(stderr, "impair fit: %v\n", err)
-			return 2
-		}
+		return printLoopPrediction(stdout, f.loop, res.profile)
 	}
-	return 0
+	return nil
 }
 
 // fitResult is what fitTrace found.
@@ -142,6 +132,9 @@ type fitResult struct {
 	profile  *profiles.Profile
 }
 
+// fitTrace fits the trace; an error is of the input (usageError,
+// inputError: a trace that cannot be fitted) unless the fitted profile
+// does not load, which is a bug.
 func fitTrace(tr *profiles.Trace, f fitFlags) (*fitResult, error) {
 	r := &fitResult{trace: tr}
 	scale := 1.0
@@ -149,7 +142,7 @@ func fitTrace(tr *profiles.Trace, f fitFlags) (*fitResult, error) {
 	case f.oneWay:
 		r.column, r.what = "one_way_s", "one-way delay"
 		if !tr.ClocksSynced {
-			return nil, fmt.Errorf("%s: --one-way: the trace does not declare synchronised clocks (clocks_synced: true); use --halve-rtt or --round-trip", tr.File)
+			return nil, usagef("%s: --one-way: the trace does not declare synchronised clocks (clocks_synced: true); use --halve-rtt or --round-trip", tr.File)
 		}
 	case f.halve:
 		r.column, r.what, scale = "rtt_s", "half the round trip", 0.5
@@ -158,7 +151,7 @@ func fitTrace(tr *profiles.Trace, f fitFlags) (*fitResult, error) {
 	}
 	delays, lost, err := tr.Fates(r.column)
 	if err != nil {
-		return nil, err
+		return nil, badInput(err)
 	}
 	var kept []float64
 	for i, l := range lost {
@@ -167,13 +160,13 @@ func fitTrace(tr *profiles.Trace, f fitFlags) (*fitResult, error) {
 		}
 	}
 	if len(kept) < estimate.MinFitSamples {
-		return nil, fmt.Errorf("%s: %d delivered probes, want at least %d to fit delays", tr.File, len(kept), estimate.MinFitSamples)
+		return nil, badInput(fmt.Errorf("%s: %d delivered probes, want at least %d to fit delays", tr.File, len(kept), estimate.MinFitSamples))
 	}
 	if r.delays, err = estimate.FitDelays(kept); err != nil {
-		return nil, fmt.Errorf("%s: %w", tr.File, err)
+		return nil, badInput(fmt.Errorf("%s: %w", tr.File, err))
 	}
 	if r.loss, err = estimate.FitLoss(lost); err != nil {
-		return nil, fmt.Errorf("%s: %w", tr.File, err)
+		return nil, badInput(fmt.Errorf("%s: %w", tr.File, err))
 	}
 	r.interval = tr.ProbeInterval()
 	if r.loss.Burst && r.interval > 0 {
@@ -273,25 +266,26 @@ func printFit(w io.Writer, r *fitResult) {
 }
 
 // printLoopPrediction prints the loop's prediction under its own profile
-// and under the fitted one.
+// and under the fitted one. The loop file and the predictions are input:
+// their errors are inputErrors.
 func printLoopPrediction(w io.Writer, path string, fitted *profiles.Profile) error {
 	loop, err := profiles.LoadLoop(path)
 	if err != nil {
-		return err
+		return badInput(err)
 	}
 	own, err := estimate.Predict(loop, estimate.PredictOptions{SkipMargin: true})
 	if err != nil {
-		return fmt.Errorf("%s: predicting: %w", path, err)
+		return badInput(fmt.Errorf("%s: predicting: %w", path, err))
 	}
 	fl := *loop
 	fl.Profile = fitted
 	fit, err := estimate.Predict(&fl, estimate.PredictOptions{SkipMargin: true})
 	if err != nil {
-		return fmt.Errorf("%s: predicting under the fitted profile: %w", path, err)
+		return badInput(fmt.Errorf("%s: predicting under the fitted profile: %w", path, err))
 	}
 	fmt.Fprintf(w, "\nprediction for %s\n", path)
 	tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', 0)
-	fmt.Fprintln(tw, "profile\tmean-square stable\tspectral radius\tE[eᵀe]")
+	fmt.Fprintln(tw, "profile\tmean-square stability\tspectral radius\tE[eᵀe]")
 	for _, x := range []struct {
 		name string
 		p    *estimate.Prediction
@@ -300,7 +294,8 @@ func printLoopPrediction(w io.Writer, path string, fitted *profiles.Profile) err
 		if x.p.Error != nil {
 			m = num(x.p.Error.SecondMoment)
 		}
-		fmt.Fprintf(tw, "%s\t%v\t%.6f\t%s\n", x.name, x.p.MeanSquareStable, x.p.SpectralRadius, m)
+		v := stability.Of(x.p)
+		fmt.Fprintf(tw, "%s\t%s\t%s\t%s\n", x.name, v, stability.Radius(x.p.SpectralRadius, x.p.RadiusError, v), m)
 	}
 	return tw.Flush()
 }

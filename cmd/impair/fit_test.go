@@ -152,8 +152,8 @@ func TestFitBadInput(t *testing.T) {
 		{"truncated", []string{truncated, "--halve-rtt"}, 2, truncated + ":4: want 4 fields, got 3 (a truncated line?)"},
 		{"no mode", []string{unsynced}, 2, "want exactly one of --one-way, --halve-rtt, --round-trip (a round trip is halved only when you say so), got 0"},
 		{"two modes", []string{unsynced, "--one-way", "--halve-rtt"}, 2, "got 2"},
-		{"one-way unsynced", []string{unsynced, "--one-way"}, 1, unsynced + ": --one-way: the trace does not declare synchronised clocks (clocks_synced: true); use --halve-rtt or --round-trip"},
-		{"too few", []string{few, "--round-trip"}, 1, few + ": 1 delivered probes, want at least 10 to fit delays"},
+		{"one-way unsynced", []string{unsynced, "--one-way"}, 2, unsynced + ": --one-way: the trace does not declare synchronised clocks (clocks_synced: true); use --halve-rtt or --round-trip"},
+		{"too few", []string{few, "--round-trip"}, 2, few + ": 1 delivered probes, want at least 10 to fit delays"},
 		{"bad direction", []string{unsynced, "--round-trip", "--direction", "up"}, 2, `--direction: want sensor_to_controller, controller_to_actuator or both, got "up"`},
 		{"no file", []string{filepath.Join(dir, "none.csv"), "--round-trip"}, 2, "reading trace: open " + filepath.Join(dir, "none.csv") + ": no such file or directory"},
 	}

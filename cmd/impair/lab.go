@@ -1,10 +1,9 @@
 package main
 
 import (
-	"flag"
-	"fmt"
 	"io"
 
+	"rigwire/cmd/internal/exitcode"
 	"rigwire/deploy/lab"
 )
 
@@ -18,45 +17,38 @@ namespaces in a chain: rw-rig (10.213.1.1) – (10.213.1.2) rw-relay
 Run a program inside one with: ip netns exec rw-relay impair run ...
 `
 
+var labExits = exitcode.Help(plainStatuses, map[int]string{
+	exitcode.OK:       "the topology is up (or removed)",
+	exitcode.Failure:  "error while running (an ip command failed; not root?)",
+	exitcode.BadInput: "bad usage, or a topology file that does not load or validate (the message names file, line and key)",
+})
+
 // cmdLab runs `impair lab up|down`.
-func cmdLab(args []string, stdout, stderr io.Writer) int {
+func cmdLab(args []string, stdout, stderr io.Writer) error {
 	if len(args) == 0 || (args[0] != "up" && args[0] != "down") {
-		if len(args) > 0 && (args[0] == "-h" || args[0] == "--help" || args[0] == "help") {
-			fmt.Fprint(stdout, labUsage)
-			return 0
+		if len(args) > 0 && (args[0] == "-h" || args[0] == "-help" || args[0] == "--help" || args[0] == "help") {
+			return helpError{labUsage + "\n" + labExits}
 		}
-		fmt.Fprint(stderr, labUsage)
-		return 2
+		return usagef("want up or down")
 	}
 	verb := args[0]
-	fs := flag.NewFlagSet("impair lab "+verb, flag.ContinueOnError)
-	fs.SetOutput(stderr)
-	fs.Usage = func() { fmt.Fprint(stderr, labUsage); fs.PrintDefaults() }
+	fs := newFlags("impair lab "+verb, labUsage, labExits)
 	config := fs.String("config", "", "topology `FILE` (YAML; default: the three-namespace chain)")
 	if err := fs.Parse(args[1:]); err != nil {
-		return 2
+		return err
 	}
 	if fs.NArg() > 0 {
-		fmt.Fprintf(stderr, "impair lab %s: unexpected argument %q\n", verb, fs.Arg(0))
-		return 2
+		return usagef("unexpected argument %q", fs.Arg(0))
 	}
 	cfg := lab.Default()
 	if *config != "" {
 		var err error
 		if cfg, err = lab.Load(*config); err != nil {
-			fmt.Fprintf(stderr, "impair lab %s: %v\n", verb, err)
-			return 1
+			return badInput(err)
 		}
 	}
-	var err error
 	if verb == "up" {
-		err = lab.Up(cfg, stdout)
-	} else {
-		err = lab.Down(cfg, stdout)
+		return lab.Up(cfg, stdout)
 	}
-	if err != nil {
-		fmt.Fprintf(stderr, "impair: %v\n", err)
-		return 1
-	}
-	return 0
+	return lab.Down(cfg, stdout)
 }

@@ -10,15 +10,21 @@
 //	impair echo --listen HOST:PORT
 //	impair probe --target HOST:PORT --rate R --size B --duration D --out TRACE.csv
 //	impair fit TRACE (--one-way | --halve-rtt | --round-trip) [--out PROFILE.yaml] [--loop LOOP.yaml]
+//	impair lab up|down [--config FILE]
+//
+// Every command exits with a status of the one table in
+// cmd/internal/exitcode (see exit.go).
 package main
 
 import (
 	"fmt"
 	"io"
 	"os"
+
+	"rigwire/cmd/internal/exitcode"
 )
 
-const usage = `usage: impair <command> [flags]
+var usage = `usage: impair <command> [flags]
 
 commands:
   run     relay a rig's datagrams through a network profile or a scenario
@@ -33,35 +39,54 @@ commands:
   fit     fit a profile to a probe trace
   lab     build or remove the lab's network namespaces (up|down, root)
 
-Run "impair <command> -h" for a command's flags.
+Run "impair <command> -h" for a command's flags and the statuses it returns.
+
+` + exitcode.Help([]int{exitcode.OK, exitcode.Failure, exitcode.BadInput, exitcode.Above, exitcode.Below,
+	exitcode.Inconclusive, exitcode.NotStable, exitcode.PhaseFailed, exitcode.Tripped},
+	map[int]string{
+		exitcode.Above:        "(monitor) measured E[eᵀe] above the prediction",
+		exitcode.Below:        "(monitor) measured E[eᵀe] below the prediction",
+		exitcode.Inconclusive: "(monitor) inconclusive: the data or the computation cannot tell",
+		exitcode.NotStable:    "(monitor) prediction: not mean-square stable",
+		exitcode.PhaseFailed:  "(monitor) a soak phase failed its check",
+		exitcode.Tripped:      "(monitor) the safety trip fired",
+	}) + `(3 to 8 are the monitor's verdicts; impair's own commands return 0, 1 or 2.)
 `
 
 func main() {
 	os.Exit(dispatch(os.Args[1:], os.Stdout, os.Stderr))
 }
 
+// dispatch runs a command and returns its exit status (exitStatus).
 func dispatch(args []string, stdout, stderr io.Writer) int {
 	if len(args) == 0 {
 		fmt.Fprint(stderr, usage)
-		return 2
+		return exitcode.BadInput
 	}
+	var err error
 	switch args[0] {
 	case "run":
-		return cmdRun(args[1:], stdout, stderr)
+		err = cmdRun(args[1:], stdout, stderr)
 	case "check":
-		return cmdCheck(args[1:], stdout, stderr)
+		err = cmdCheck(args[1:], stdout, stderr)
 	case "echo":
-		return cmdEcho(args[1:], stdout, stderr)
+		err = cmdEcho(args[1:], stdout, stderr)
 	case "probe":
-		return cmdProbe(args[1:], stdout, stderr)
+		err = cmdProbe(args[1:], stdout, stderr)
 	case "fit":
-		return cmdFit(args[1:], stdout, stderr)
+		err = cmdFit(args[1:], stdout, stderr)
 	case "lab":
-		return cmdLab(args[1:], stdout, stderr)
-	case "help", "-h", "--help":
+		err = cmdLab(args[1:], stdout, stderr)
+	case "help", "-h", "-help", "--help":
 		fmt.Fprint(stdout, usage)
-		return 0
+		return exitcode.OK
+	default:
+		fmt.Fprintf(stderr, "impair: unknown command %q\n%s", args[0], usage)
+		return exitcode.BadInput
 	}
-	fmt.Fprintf(stderr, "impair: unknown command %q\n%s", args[0], usage)
-	return 2
+	name := "impair " + args[0]
+	if args[0] == "lab" && len(args) > 1 && (args[1] == "up" || args[1] == "down") {
+		name += " " + args[1]
+	}
+	return exitStatus(err, name, stdout, stderr)
 }

@@ -4,7 +4,6 @@ import (
 	"bufio"
 	"context"
 	"errors"
-	"flag"
 	"fmt"
 	"io"
 	"log/slog"
@@ -17,6 +16,7 @@ import (
 	"syscall"
 	"time"
 
+	"rigwire/cmd/internal/exitcode"
 	"rigwire/profiles"
 )
 
@@ -54,6 +54,12 @@ const traceDoc = `  # rigwire probe trace v1
   reordered  1 when the first reply came after a later probe's first reply
 `
 
+var probeExits = exitcode.Help(plainStatuses, map[int]string{
+	exitcode.OK:       "the trace was written (also after SIGINT/SIGTERM)",
+	exitcode.Failure:  "error while running (the socket, the trace file)",
+	exitcode.BadInput: "bad usage",
+})
+
 // Bounds of the probe flags.
 const (
 	maxProbeRate  = 100000.0
@@ -73,28 +79,20 @@ type probeRec struct {
 }
 
 // cmdProbe is `impair probe`.
-func cmdProbe(args []string, stdout, stderr io.Writer) int {
-	fs := flag.NewFlagSet("probe", flag.ContinueOnError)
-	fs.SetOutput(stderr)
-	fs.Usage = func() { fmt.Fprint(stderr, probeUsage) }
+func cmdProbe(args []string, stdout, stderr io.Writer) error {
+	fs := newFlags("impair probe", probeUsage, probeExits)
 	var target addrFlag
-	fs.Var(&target, "target", "HOST:PORT of the echo, or of a relay in front of it (required)")
+	fs.Var(&target, "target", "`HOST:PORT` of the echo, or of a relay in front of it (required)")
 	rate := fs.Float64("rate", 100, "probes per second")
 	size := fs.Int("size", 64, "probe size in bytes (≥ 36)")
 	duration := fs.Duration("duration", 10*time.Second, "how long to send")
 	wait := fs.Duration("wait", time.Second, "how long to wait for replies after the last probe")
 	synced := fs.Bool("clocks-synced", false, "the prober's and the echo's clocks are synchronised: record one-way delays")
-	out := fs.String("out", "", "trace file to write (required)")
+	out := fs.String("out", "", "trace `FILE` to write (required)")
 	if err := fs.Parse(args); err != nil {
-		if errors.Is(err, flag.ErrHelp) {
-			return 0
-		}
-		return 2
+		return err
 	}
-	fail := func(format string, a ...any) int {
-		fmt.Fprintf(stderr, "impair probe: "+format+"\n", a...)
-		return 2
-	}
+	fail := usagef
 	switch {
 	case fs.NArg() > 0:
 		return fail("unexpected argument %q", fs.Arg(0))
@@ -118,13 +116,12 @@ func cmdProbe(args []string, stdout, stderr io.Writer) int {
 	log := slog.New(slog.NewTextHandler(stderr, nil))
 	conn, err := net.DialUDP("udp", nil, net.UDPAddrFromAddrPort(target.ap))
 	if err != nil {
-		fmt.Fprintf(stderr, "impair probe: --target %s: %v\n", target.ap, err)
-		return 1
+		return fmt.Errorf("--target %s: %w", target.ap, err)
 	}
 	defer conn.Close()
 	fh, err := os.Create(*out)
 	if err != nil {
-		return fail("--out: %v", err)
+		return fmt.Errorf("--out: %w", err)
 	}
 	defer fh.Close()
 
@@ -150,12 +147,10 @@ func cmdProbe(args []string, stdout, stderr io.Writer) int {
 	w := bufio.NewWriter(fh)
 	writeTrace(w, p.recs[:sent], *rate, *size, *synced, target.ap.String())
 	if err := w.Flush(); err != nil {
-		fmt.Fprintf(stderr, "impair probe: writing %s: %v\n", *out, err)
-		return 1
+		return fmt.Errorf("writing %s: %w", *out, err)
 	}
 	if err := fh.Close(); err != nil {
-		fmt.Fprintf(stderr, "impair probe: writing %s: %v\n", *out, err)
-		return 1
+		return fmt.Errorf("writing %s: %w", *out, err)
 	}
 	lost := 0
 	for _, r := range p.recs[:sent] {
@@ -164,7 +159,7 @@ func cmdProbe(args []string, stdout, stderr io.Writer) int {
 		}
 	}
 	log.Info("trace written", "file", *out, "probes", sent, "lost", lost)
-	return 0
+	return nil
 }
 
 // prober sends probes and matches their replies. Its goroutines:

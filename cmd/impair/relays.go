@@ -39,14 +39,14 @@ func openLink(spec linkSpec, opts runOpts, reg prometheus.Registerer, log *slog.
 	if spec.ScenarioPath != "" {
 		sc, err := loadPlayingScenario(spec.ScenarioPath, opts.timeScale)
 		if err != nil {
-			return nil, errUsage{err}
+			return nil, badInput(err)
 		}
 		l.scen = sc
 		first = sc.steps[0].Profile
 	} else {
 		p, err := profiles.Load(spec.ProfilePath)
 		if err != nil {
-			return nil, errUsage{err}
+			return nil, badInput(err)
 		}
 		l.prof, first = p, p
 	}
@@ -58,7 +58,7 @@ func openLink(spec linkSpec, opts runOpts, reg prometheus.Registerer, log *slog.
 	if spec.RecordPath != "" {
 		f, err := os.Create(spec.RecordPath)
 		if err != nil {
-			return nil, errUsage{fmt.Errorf("record: %w", err)}
+			return nil, fmt.Errorf("record: %w", err)
 		}
 		l.record = f
 	}
@@ -129,8 +129,10 @@ func (l *link) describe(w io.Writer) {
 
 // runLinks opens every link, serves the metrics, and relays until SIGINT
 // or SIGTERM (a second one abandons what is in flight), or until every
-// scenario has ended with --exit-after-scenario.
-func runLinks(specs []linkSpec, opts runOpts, stderr io.Writer, log *slog.Logger) int {
+// scenario has ended with --exit-after-scenario. A link whose files do not
+// load is an inputError; a relay that fails while running is logged and
+// ends the command with status 1.
+func runLinks(specs []linkSpec, opts runOpts, stderr io.Writer, log *slog.Logger) error {
 	reg := prometheus.NewRegistry()
 	reg.MustRegister(collectors.NewGoCollector(), collectors.NewProcessCollector(collectors.ProcessCollectorOpts{}))
 	var links []*link
@@ -148,15 +150,10 @@ func runLinks(specs []linkSpec, opts runOpts, stderr io.Writer, log *slog.Logger
 		l, err := openLink(s, opts, lreg, llog)
 		if err != nil {
 			closeAll()
-			where := ""
 			if !opts.singleLink {
-				where = fmt.Sprintf("link %q: ", s.Name)
+				err = fmt.Errorf("link %q: %w", s.Name, err) // an inputError stays one
 			}
-			fmt.Fprintf(stderr, "impair run: %s%v\n", where, err)
-			if isUsage(err) {
-				return 2
-			}
-			return 1
+			return err
 		}
 		links = append(links, l)
 	}
@@ -168,8 +165,7 @@ func runLinks(specs []linkSpec, opts runOpts, stderr io.Writer, log *slog.Logger
 	srv, err := metricsrv.Start(opts.metricsAddr, reg, log)
 	if err != nil {
 		closeAll()
-		fmt.Fprintf(stderr, "impair run: --metrics %s: %v\n", opts.metricsAddr, err)
-		return 2
+		return fmt.Errorf("--metrics %s: %w", opts.metricsAddr, err)
 	}
 	defer srv.Close()
 
@@ -269,10 +265,11 @@ func runLinks(specs []linkSpec, opts runOpts, stderr io.Writer, log *slog.Logger
 			}
 		}
 	}
-	if code == 0 {
-		log.Info("stopped")
+	if code != 0 {
+		return exitError{code: code} // the reasons are logged above
 	}
-	return code
+	log.Info("stopped")
+	return nil
 }
 
 // reload re-reads the link's profile file (SIGHUP); a link playing a

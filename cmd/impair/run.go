@@ -1,14 +1,15 @@
 package main
 
 import (
-	"errors"
 	"flag"
-	"fmt"
 	"io"
 	"log/slog"
+	"net"
 	"net/netip"
+	"strconv"
 	"time"
 
+	"rigwire/cmd/internal/exitcode"
 	"rigwire/emulate"
 )
 
@@ -29,9 +30,33 @@ type runOpts struct {
 // MaxTimeScale bounds --time-scale.
 const maxTimeScale = 100
 
-func cmdRun(args []string, stdout, stderr io.Writer) int {
-	fs := flag.NewFlagSet("impair run", flag.ContinueOnError)
-	fs.SetOutput(stderr)
+const runUsage = `usage: impair run --profile FILE --listen HOST:PORT --controller HOST:PORT [flags]
+       impair run --scenario FILE [--time-scale F] [--exit-after-scenario] --listen HOST:PORT --controller HOST:PORT [flags]
+       impair run --links FILE [flags]
+       trip socket: [--trip-listen HOST:PORT [--trip-from HOST] [--on-trip clean|stop_commands]]
+
+Relays a rig's UDP datagrams: those of the sensor node arriving at --listen
+go on to --controller, the controller's replies go back to the actuator
+(by default the source of the latest sensor datagram), each delayed and
+dropped as the profile's direction says (sensor_to_controller,
+controller_to_actuator), or as the scenario's phases say in turn. --links
+relays several rigs' links from one process. SIGHUP re-reads a profile
+(a bad one is refused and the running one kept); SIGINT or SIGTERM stops
+reading, releases what is in flight on time and exits; a second signal
+abandons what is left. With --trip-listen a safety trip request
+("rigwire-trip 1 <reason>") from --trip-from (default: loopback) makes the
+link clean or stops its commands (--on-trip). The trip is no emergency
+stop: keep one that does not depend on the link or on rigwire.
+`
+
+var runExits = exitcode.Help(plainStatuses, map[int]string{
+	exitcode.OK:       "stopped on SIGINT/SIGTERM, or the scenario ended (--exit-after-scenario)",
+	exitcode.Failure:  "error while running (a socket, the record file, a relay that failed)",
+	exitcode.BadInput: "bad usage, or a profile, scenario or links file that does not load or validate (the message names file, line and key)",
+})
+
+func cmdRun(args []string, stdout, stderr io.Writer) error {
+	fs := newFlags("impair run", runUsage, runExits)
 	var listen, controller, actuator, sensor, upstream, tap, tripListen addrFlag
 	profilePath := fs.String("profile", "", "network profile `FILE` (YAML)")
 	scenarioPath := fs.String("scenario", "", "play the scenario `FILE` (YAML) instead of one profile")
@@ -55,12 +80,9 @@ func cmdRun(args []string, stdout, stderr io.Writer) int {
 	spin := fs.Duration("spin", emulate.DefaultSpin, "spin this long before each release instead of sleeping (0: never)")
 	logLevel := fs.String("log-level", "info", "debug, info, warn or error")
 	if err := fs.Parse(args); err != nil {
-		return 2
+		return err
 	}
-	fail := func(format string, a ...any) int {
-		fmt.Fprintf(stderr, "impair run: "+format+"\n", a...)
-		return 2
-	}
+	fail := usagef
 	if fs.NArg() > 0 {
 		return fail("unexpected argument %q", fs.Arg(0))
 	}
@@ -85,6 +107,8 @@ func cmdRun(args []string, stdout, stderr io.Writer) int {
 		return fail("--spin: want 0…10ms, got %s", *spin)
 	case !(*timeScale > 0 && *timeScale <= maxTimeScale):
 		return fail("--time-scale: want a factor > 0 and ≤ %d, got %g", maxTimeScale, *timeScale)
+	case checkMetricsAddr(*metricsAddr) != nil:
+		return checkMetricsAddr(*metricsAddr)
 	}
 	var level slog.Level
 	if err := level.UnmarshalText([]byte(*logLevel)); err != nil {
@@ -103,7 +127,7 @@ func cmdRun(args []string, stdout, stderr io.Writer) int {
 		}
 		lf, err := loadLinks(*linksPath)
 		if err != nil {
-			return fail("%v", err)
+			return badInput(err)
 		}
 		if lf.Metrics != "" && !set["metrics"] {
 			opts.metricsAddr = lf.Metrics
@@ -170,11 +194,18 @@ func addrOr(a netip.AddrPort, def string) string {
 	return def
 }
 
-// errUsage marks an error of the input (exit status 2) rather than of the
-// run (1).
-type errUsage struct{ error }
-
-func isUsage(err error) bool {
-	var u errUsage
-	return errors.As(err, &u)
+// checkMetricsAddr checks a --metrics value: "off" or HOST:PORT with a
+// port number (whether it can be bound is found out when it is bound).
+func checkMetricsAddr(s string) error {
+	if s == "off" {
+		return nil
+	}
+	_, port, err := net.SplitHostPort(s)
+	if err == nil {
+		_, err = strconv.ParseUint(port, 10, 16)
+	}
+	if err != nil {
+		return usagef("--metrics: want HOST:PORT or \"off\", got %q", s)
+	}
+	return nil
 }
