@@ -11,8 +11,8 @@ import (
 
 // Bad-input fixtures shared with the profiles package's own tests.
 const (
-	badLoop     = "../../profiles/testdata/loops/shape-d.bad.yaml"       // controller.d of the wrong shape
-	badProfile  = "../../profiles/testdata/unknown-key.bad.yaml"         // an unknown key in a direction
+	badLoop     = "../../profiles/testdata/loops/shape-d.bad.yaml" // controller.d of the wrong shape
+	badProfile  = "../../profiles/testdata/unknown-key.bad.yaml"   // an unknown key in a direction
 	badScenario = "../../profiles/testdata/bad-scenarios/unknown-key.bad.yaml"
 	badInline   = "../../profiles/testdata/loops/profile-inline-bad.bad.yaml" // a loop whose inline profile is bad
 	goodLoop    = "examples/conveyor.yaml"

@@ -175,7 +175,7 @@ func badInput(err error) error {
 // helpError is a help request (-h): its text goes to stdout, exit 0.
 type helpError struct{ text string }
 
-func (e helpError) Error() string { return "help requested" }
+func (e helpError) Error() string        { return "help requested" }
 func (e helpError) Is(target error) bool { return target == flag.ErrHelp }
 
 // flags is a command's flag set with its help. Parse turns -h into a
