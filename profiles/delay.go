@@ -40,10 +40,84 @@ type Atom struct {
 	Mass float64 // probability
 }
 
-// Quantile returns the smallest x with CDF(x) ≥ p, for 0 < p < 1, found by
-// bisection on the CDF (so it is exact at atoms). It is meant for reports,
-// not for the hot path.
+// Quantiler is a law without atoms that knows its own quantile function
+// F⁻¹(p) for 0 < p < 1. The prediction integrates over a law through it
+// (E[g(X)] = ∫₀¹ g(F⁻¹(u)) du), which stays well behaved where the density
+// is singular, very narrow or heavy-tailed.
+type Quantiler interface {
+	Quantile(p float64) float64
+}
+
+// Quantile returns the smallest x with CDF(x) ≥ p, for 0 < p < 1: the
+// law's own quantile function where it has one (a shifted law adds its
+// shift), else bisection on the CDF (exact at atoms).
 func Quantile(d Delay, p float64) float64 {
+	if s, ok := d.(*Shifted); ok {
+		return s.Shift + Quantile(s.Base, p)
+	}
+	if q, ok := d.(Quantiler); ok && p > 0 && p < 1 {
+		return q.Quantile(p)
+	}
+	return quantileBisect(d, p)
+}
+
+// ProbBelow is P(X < x): the CDF at x less any atom sitting exactly at x.
+// "Stale" and "late" mean a delay at or above the limit, so the prediction
+// and `impair check` both count in-time datagrams with it.
+func ProbBelow(d Delay, x float64) float64 {
+	p := d.CDF(x)
+	for _, a := range d.Atoms() {
+		if a.At == x {
+			p -= a.Mass
+		}
+	}
+	return math.Max(0, math.Min(1, p))
+}
+
+// quantileNewton refines x0, an approximate p-quantile of a law with a
+// density, by Newton steps on CDF(x) − p kept inside a bracket that
+// bisection narrows whenever a step would leave it (safeguarded Newton,
+// common practice). A NaN or infinite x0 starts from bisection alone.
+func quantileNewton(d Delay, p, x0 float64) float64 {
+	lo, hi := d.Support()
+	if math.IsInf(hi, 1) {
+		hi = math.Max(lo, 1e-6)
+		for d.CDF(hi) < p {
+			hi = lo + 2*(hi-lo) + 1e-6
+			if hi > 1e12 {
+				return math.Inf(1)
+			}
+		}
+	}
+	x := x0
+	if !(x > lo && x < hi) {
+		x = lo + (hi-lo)/2
+	}
+	for range 100 {
+		f := d.CDF(x) - p
+		if f == 0 {
+			return x
+		}
+		if f > 0 {
+			hi = x
+		} else {
+			lo = x
+		}
+		next := x - f/d.Density(x)
+		if !(next > lo && next < hi) {
+			next = lo + (hi-lo)/2
+		}
+		if next == x || math.Abs(next-x) <= 1e-15*math.Abs(x) || next <= lo || next >= hi {
+			return next
+		}
+		x = next
+	}
+	return x
+}
+
+// quantileBisect is the smallest x with CDF(x) ≥ p, by bisection on the
+// CDF.
+func quantileBisect(d Delay, p float64) float64 {
 	lo, hi := d.Support()
 	if p <= 0 {
 		return lo

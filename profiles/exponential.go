@@ -45,4 +45,8 @@ func (e Exponential) Atoms() []Atom             { return nil }
 func (e Exponential) Mean() float64             { return e.Scale }
 func (e Exponential) Variance() float64         { return e.Scale * e.Scale }
 func (e Exponential) Support() (lo, hi float64) { return 0, math.Inf(1) }
-func (e Exponential) String() string            { return "exponential mean " + fmtSeconds(e.Scale) }
+
+// Quantile is −scale·ln(1 − p), by math.Log1p so that small p keep
+// their digits.
+func (e Exponential) Quantile(p float64) float64 { return -e.Scale * math.Log1p(-p) }
+func (e Exponential) String() string             { return "exponential mean " + fmtSeconds(e.Scale) }

@@ -4,6 +4,8 @@ import (
 	"fmt"
 	"math"
 	"math/rand/v2"
+
+	"gonum.org/v1/gonum/mathext"
 )
 
 // Lognormal is exp(N(Mu, Sigma²)), Mu = ln median:
@@ -46,6 +48,12 @@ func (l Lognormal) Density(x float64) float64 {
 func (l Lognormal) Atoms() []Atom             { return nil }
 func (l Lognormal) Mean() float64             { return math.Exp(l.Mu + l.Sigma*l.Sigma/2) }
 func (l Lognormal) Support() (lo, hi float64) { return 0, math.Inf(1) }
+
+// Quantile is exp(μ + σ Φ⁻¹(p)), Φ⁻¹ the standard normal quantile
+// (gonum mathext.NormalQuantile).
+func (l Lognormal) Quantile(p float64) float64 {
+	return math.Exp(l.Mu + l.Sigma*mathext.NormalQuantile(p))
+}
 
 func (l Lognormal) Variance() float64 {
 	s2 := l.Sigma * l.Sigma

@@ -4,6 +4,8 @@ import (
 	"fmt"
 	"math"
 	"math/rand/v2"
+
+	"gonum.org/v1/gonum/mathext"
 )
 
 // Normal is the normal law N(Mu, Sigma²) truncated to [0, ∞): the profile
@@ -26,6 +28,7 @@ type Normal struct {
 	alpha     float64 // −Mu/Sigma
 	kept      float64 // Z = 1 − Φ(α)
 	lambda    float64 // φ(α)/Z
+	below     float64 // Φ(α), the mass redrawn
 	robert    float64 // optimal rate of Robert's proposal, for α > 0
 }
 
@@ -44,7 +47,7 @@ func NewNormal(mean, std, shift float64) (Delay, error) {
 	if alpha > maxNormalAlpha {
 		return nil, fmt.Errorf("normal delay: want mean ≥ −%d·std (almost all of the law would be redrawn), got mean %g, std %g", maxNormalAlpha, mean, std)
 	}
-	n := &Normal{Mu: mean, Sigma: std, alpha: alpha, kept: stdNormalSurvival(alpha)}
+	n := &Normal{Mu: mean, Sigma: std, alpha: alpha, kept: stdNormalSurvival(alpha), below: stdNormalCDF(alpha)}
 	n.lambda = stdNormalDensity(alpha) / n.kept
 	n.robert = (alpha + math.Sqrt(alpha*alpha+4)) / 2
 	return Shift(n, shift)
@@ -109,6 +112,21 @@ func (n *Normal) Density(x float64) float64 {
 func (n *Normal) Atoms() []Atom             { return nil }
 func (n *Normal) Mean() float64             { return n.Mu + n.Sigma*n.lambda }
 func (n *Normal) Support() (lo, hi float64) { return 0, math.Inf(1) }
+
+// Quantile inverts the CDF of the normal law redrawn while negative: with
+// Z = 1 − Φ(α) the mass kept, x = μ + σz where Φ(z) = Φ(α) + pZ. The
+// lower form is used while Φ(α) + pZ ≤ ½ and the upper one,
+// 1 − Φ(z) = (1 − p)Z, beyond, so that neither tail loses its digits
+// (Φ⁻¹: gonum mathext.NormalQuantile).
+func (n *Normal) Quantile(p float64) float64 {
+	var z float64
+	if n.alpha < 0 && n.below+p*n.kept <= 0.5 {
+		z = mathext.NormalQuantile(n.below + p*n.kept)
+	} else {
+		z = -mathext.NormalQuantile((1 - p) * n.kept)
+	}
+	return math.Max(0, n.Mu+n.Sigma*z)
+}
 
 func (n *Normal) Variance() float64 {
 	return n.Sigma * n.Sigma * (1 + n.alpha*n.lambda - n.lambda*n.lambda)

@@ -49,6 +49,11 @@ func (p Pareto) Density(x float64) float64 {
 func (p Pareto) Atoms() []Atom             { return nil }
 func (p Pareto) Support() (lo, hi float64) { return p.Scale, math.Inf(1) }
 
+// Quantile is scale·(1 − q)^{−1/shape}.
+func (p Pareto) Quantile(q float64) float64 {
+	return p.Scale * math.Exp(-math.Log1p(-q)/p.Shape)
+}
+
 func (p Pareto) Mean() float64 {
 	if p.Shape <= 1 {
 		return math.Inf(1)

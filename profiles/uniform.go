@@ -52,6 +52,9 @@ func (u Uniform) Atoms() []Atom             { return nil }
 func (u Uniform) Mean() float64             { return (u.Min + u.Max) / 2 }
 func (u Uniform) Support() (lo, hi float64) { return u.Min, u.Max }
 
+// Quantile is min + p·(max − min).
+func (u Uniform) Quantile(p float64) float64 { return u.Min + p*(u.Max-u.Min) }
+
 // Variance is (Max−Min)²/12.
 func (u Uniform) Variance() float64 { w := u.Max - u.Min; return w * w / 12 }
 

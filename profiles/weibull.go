@@ -58,6 +58,11 @@ func (w Weibull) Atoms() []Atom             { return nil }
 func (w Weibull) Mean() float64             { return w.Scale * math.Gamma(1+1/w.Shape) }
 func (w Weibull) Support() (lo, hi float64) { return 0, math.Inf(1) }
 
+// Quantile is scale·(−ln(1 − p))^{1/shape}.
+func (w Weibull) Quantile(p float64) float64 {
+	return w.Scale * math.Pow(-math.Log1p(-p), 1/w.Shape)
+}
+
 func (w Weibull) Variance() float64 {
 	g1 := math.Gamma(1 + 1/w.Shape)
 	return w.Scale * w.Scale * (math.Gamma(1+2/w.Shape) - g1*g1)
