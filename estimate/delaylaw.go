@@ -1,24 +1,13 @@
 package estimate
 
 import (
+	"fmt"
 	"math"
 	"math/rand/v2"
 	"sort"
 
 	"rigwire/profiles"
 )
-
-// probBelow is P(X < x) for a delay law: its CDF at x less any atom sitting
-// exactly at x ("stale" and "late" mean a delay ≥ h, MODEL.md §6).
-func probBelow(d profiles.Delay, x float64) float64 {
-	p := d.CDF(x)
-	for _, a := range d.Atoms() {
-		if a.At == x {
-			p -= a.Mass
-		}
-	}
-	return math.Max(0, math.Min(1, p))
-}
 
 // tauNode is one point of the quadrature over the delivered-with-delay
 // mode: the total delay τ and its weight, the mass that the rule gives to
@@ -33,39 +22,95 @@ type tauNode struct {
 // join the Chebyshev moments like the densities do.
 const maxDirectAtoms = 64
 
+// Accuracy of the τ-expectations.
+const (
+	// tauRelTol is the relative accuracy asked of every adaptive integral
+	// of the Chebyshev moments.
+	tauRelTol = 1e-12
+	// tauAbsTol is the absolute accuracy below which a moment's integral
+	// is not refined further (probabilities far below any that matters).
+	tauAbsTol = 1e-18
+	// massRelTol and massAbsTol bound the disagreement allowed between
+	// the mass that the rule integrates, P(τsc + τca + c < h), and the
+	// same probability computed the other way round from the laws' own
+	// CDFs; beyond it the prediction refuses the laws.
+	massRelTol = 1e-9
+	massAbsTol = 1e-14
+)
+
 // tauRule returns a quadrature rule for the defective law of the total
-// delay τ = τsc + τca + c on the event {τsc < h, τ < h} (MODEL.md §2,
-// mode m2): nodes τ_k in [c, h] and weights w_k with
+// delay τ = τsc + τca + c on the event {τsc < h, τ < h} (mode m2): nodes
+// τ_k in [c, h] and weights w_k with
 //
 //	Σ_k w_k f(τ_k) ≈ E[f(τ); τsc < h, τ < h]
 //
 // for every smooth f. deg is the degree of polynomial that the
-// Chebyshev part of the rule integrates exactly (see chebDegree).
+// Chebyshev part of the rule integrates exactly (see chebDegree). The
+// delays are non-negative, so τ < h implies τsc < h.
 //
-// Method. The two delays are independent, each the sum of atoms and a
-// density. Atoms × atoms give point masses at s_i + a_j + c (kept as
-// nodes of their own when there are few, so they are integrated exactly).
-// Every other part of the law enters through its Chebyshev moments
-// μ_j = E[T_j(t(τ)); …], t mapping [c, h] onto [−1, 1], computed by
-// adaptive Gauss–Kronrod quadrature of the convolution (atoms × density,
-// density × atoms, density × density as an iterated integral over the
-// triangle s + a < h − c, split at the support ends). The weights are
-// then those of product integration against the interpolant of f at the
-// Chebyshev points of the first kind (J. C. Mason, D. C. Handscomb,
+// Method. Each delay law is split into atoms and continuous pieces given
+// by their quantile functions (lawparts.go). Atoms × atoms give point
+// masses at s_i + a_j + c (kept as nodes of their own when there are few,
+// so they are integrated exactly). Every other pair enters through its
+// Chebyshev moments μ_j = E[T_j(t(τ)); τ < h], t mapping [c, h] onto
+// [−1, 1], computed in the probability scale of each piece: with b = h − c
+// and Q, R the quantile functions of a sensor and a command piece,
+//
+//	atom s × piece R:   ∫₀^{F_R(b−s)} T_j(t(s + R(v) + c)) dv
+//	piece Q × atom a:   ∫₀^{F_Q(b−a)} T_j(t(Q(u) + a + c)) du
+//	piece Q × piece R:  ∫₀^{F_Q(b−r₀)} ∫₀^{F_R(b−Q(u))} T_j(t(Q(u) + R(v) + c)) dv du
+//
+// (r₀ the start of R's support), by adaptive Gauss–Kronrod quadrature
+// (quad.go), the outer integral split where b − Q(u) meets the ends of
+// R's support. The integrands are bounded and smooth whatever the shape of
+// the densities, so a singular start, a peak a thousand times narrower
+// than the period or a heavy tail costs no more than a smooth law. The
+// weights are those of product integration against the interpolant of f
+// at the Chebyshev points of the first kind (J. C. Mason, D. C. Handscomb,
 // Chebyshev Polynomials, Chapman & Hall 2003, §6.2–§6.3: interpolation
 // p = Σ'_j a_j T_j with a_j = (2/N) Σ_k f(t_k) T_j(t_k)), so that
 // w_k = (2/N) Σ'_j μ_j T_j(t_k). The error is the interpolation error of
 // f, which is analytic in τ, times the mass, plus the quadrature error of
-// the moments (tolerance 1e-13 relative).
-func tauRule(dsc, dca profiles.Delay, h, c float64, deg int) []tauNode {
+// the moments (tauRelTol relative).
+//
+// Checks. The parts of each law must rebuild its own CDF at b and h, and
+// the mass the rule integrates, μ₀ = P(τsc + τca < b), must agree with the
+// same probability computed the other way round, Σ over the command law's
+// parts of P(τsc < b − τca) from the sensor law's own CDF (massCheck),
+// within massRelTol. A law that fails either is refused with an error
+// naming it, rather than answered wrongly.
+func tauRule(dsc, dca profiles.Delay, h, c float64, deg int) ([]tauNode, error) {
 	budget := h - c // τsc + τca must stay below it
-	var nodes []tauNode
 	if budget <= 0 {
-		return nil
+		return nil, nil
 	}
+	sc, err := splitLaw(dsc)
+	if err != nil {
+		return nil, fmt.Errorf("sensor_to_controller delay %w", err)
+	}
+	ca, err := splitLaw(dca)
+	if err != nil {
+		return nil, fmt.Errorf("controller_to_actuator delay %w", err)
+	}
+	for _, x := range []float64{budget, h} {
+		if e := math.Abs(sc.cdf(x) - dsc.CDF(x)); !(e <= 1e-9) {
+			return nil, fmt.Errorf("sensor_to_controller delay %s: its parts give P(delay ≤ %gs) = %.12g, its CDF %.12g",
+				profiles.Describe(dsc), x, sc.cdf(x), dsc.CDF(x))
+		}
+		if e := math.Abs(ca.cdf(x) - dca.CDF(x)); !(e <= 1e-9) {
+			return nil, fmt.Errorf("controller_to_actuator delay %s: its parts give P(delay ≤ %gs) = %.12g, its CDF %.12g",
+				profiles.Describe(dca), x, ca.cdf(x), dca.CDF(x))
+		}
+	}
+	var nodes []tauNode
 	N := deg + 1
 	lo, span := c, h-c
-	tmap := func(tau float64) float64 { return (2*(tau-lo) - span) / span }
+	tmap := func(tau float64) float64 {
+		t := (2*(tau-lo) - span) / span
+		// Rounding in a quantile near the end of a range may put τ a
+		// hair past h: T_j grows fast outside [−1, 1], so clamp.
+		return math.Max(-1, math.Min(1, t))
+	}
 	mom := make([]float64, N)
 	addCheb := func(t, w float64, out []float64) {
 		// out[j] += w T_j(t), by the three-term recurrence.
@@ -80,14 +125,14 @@ func tauRule(dsc, dca profiles.Delay, h, c float64, deg int) []tauNode {
 		}
 	}
 	hasMom := false
+	direct := 0.0 // mass of the atom sums kept as nodes
 
 	// Atoms × atoms.
-	asc, aca := dsc.Atoms(), dca.Atoms()
 	type pt struct{ at, mass float64 }
 	var pairs []pt
-	for _, s := range asc {
-		for _, a := range aca {
-			if s.At+a.At < budget && s.At < h {
+	for _, s := range sc.atoms {
+		for _, a := range ca.atoms {
+			if s.At+a.At < budget {
 				pairs = append(pairs, pt{s.At + a.At + c, s.Mass * a.Mass})
 			}
 		}
@@ -104,6 +149,7 @@ func tauRule(dsc, dca profiles.Delay, h, c float64, deg int) []tauNode {
 	if len(merged) <= maxDirectAtoms {
 		for _, p := range merged {
 			nodes = append(nodes, tauNode{Tau: p.at, Weight: p.mass})
+			direct += p.mass
 		}
 	} else {
 		for _, p := range merged {
@@ -112,84 +158,89 @@ func tauRule(dsc, dca profiles.Delay, h, c float64, deg int) []tauNode {
 		hasMom = true
 	}
 
-	scBreaks, caBreaks := breakpoints(dsc), breakpoints(dca)
-	scDens := hasDensity(dsc)
-	caDens := hasDensity(dca)
-	inner := newIntegrator(N)
-	outer := newIntegrator(N)
+	inner := newTauIntegrator(N)
+	outer := newTauIntegrator(N)
+	tmp := make([]float64, N)
 
-	// Atoms of τsc × density of τca.
-	if caDens {
-		for _, s := range asc {
-			if s.At >= budget {
+	// Atoms of τsc × pieces of τca.
+	for _, s := range sc.atoms {
+		for _, r := range ca.pieces {
+			top := r.cdf(budget - s.At)
+			if !(top > 0) {
 				continue
 			}
-			f := func(a float64, out []float64) {
-				for j := range out {
-					out[j] = 0
-				}
-				addCheb(tmap(s.At+a+c), dca.Density(a), out)
-			}
-			tmp := make([]float64, N)
-			inner.integrate(f, 0, budget-s.At, caBreaks, tmp)
+			clear(tmp)
+			inner.integrateU(func(v float64, out []float64) {
+				clear(out)
+				addCheb(tmap(s.At+r.quantile(v)+c), 1, out)
+			}, top, nil, tmp)
 			for j := range mom {
-				mom[j] += s.Mass * tmp[j]
+				mom[j] += s.Mass * r.w * tmp[j]
 			}
 			hasMom = true
 		}
 	}
-	// Density of τsc × atoms of τca.
-	if scDens {
-		for _, a := range aca {
-			if a.At >= budget {
+	// Pieces of τsc × atoms of τca.
+	for _, q := range sc.pieces {
+		for _, a := range ca.atoms {
+			top := q.cdf(budget - a.At)
+			if !(top > 0) {
 				continue
 			}
-			f := func(s float64, out []float64) {
-				for j := range out {
-					out[j] = 0
-				}
-				addCheb(tmap(s+a.At+c), dsc.Density(s), out)
-			}
-			tmp := make([]float64, N)
-			inner.integrate(f, 0, budget-a.At, scBreaks, tmp)
+			clear(tmp)
+			inner.integrateU(func(u float64, out []float64) {
+				clear(out)
+				addCheb(tmap(q.quantile(u)+a.At+c), 1, out)
+			}, top, nil, tmp)
 			for j := range mom {
-				mom[j] += a.Mass * tmp[j]
+				mom[j] += q.w * a.Mass * tmp[j]
 			}
 			hasMom = true
 		}
 	}
-	// Density × density: ∫ fsc(s) ∫_0^{budget−s} T(s+a+c) fca(a) da ds.
-	if scDens && caDens {
-		tmp := make([]float64, N)
-		f := func(s float64, out []float64) {
-			for j := range out {
-				out[j] = 0
+	// Pieces × pieces, the inner integral over the command piece.
+	for _, q := range sc.pieces {
+		for _, r := range ca.pieces {
+			rlo, rhi := r.support()
+			top := q.cdf(budget - rlo)
+			if !(top > 0) {
+				continue
 			}
-			ds := dsc.Density(s)
-			if ds == 0 {
-				return
+			var breaks []float64
+			if !math.IsInf(rhi, 1) {
+				breaks = append(breaks, q.cdf(budget-rhi))
 			}
-			for j := range tmp {
-				tmp[j] = 0
-			}
-			g := func(a float64, o []float64) {
-				for j := range o {
-					o[j] = 0
+			in := make([]float64, N)
+			clear(tmp)
+			outer.integrateU(func(u float64, out []float64) {
+				clear(out)
+				s := q.quantile(u)
+				vt := r.cdf(budget - s)
+				if !(vt > 0) {
+					return
 				}
-				addCheb(tmap(s+a+c), dca.Density(a), o)
+				clear(in)
+				inner.integrateU(func(v float64, o []float64) {
+					clear(o)
+					addCheb(tmap(s+r.quantile(v)+c), 1, o)
+				}, vt, nil, in)
+				copy(out, in)
+			}, top, breaks, tmp)
+			for j := range mom {
+				mom[j] += q.w * r.w * tmp[j]
 			}
-			inner.integrate(g, 0, budget-s, caBreaks, tmp)
-			for j := range out {
-				out[j] = ds * tmp[j]
-			}
+			hasMom = true
 		}
-		// The inner integral kinks where budget − s crosses a break of τca.
-		ob := append([]float64(nil), scBreaks...)
-		for _, b := range caBreaks {
-			ob = append(ob, budget-b)
+	}
+	for _, v := range mom {
+		if math.IsNaN(v) || math.IsInf(v, 0) {
+			return nil, fmt.Errorf("delays %s (sensor_to_controller) and %s (controller_to_actuator): the expectation over the total delay is not finite",
+				profiles.Describe(dsc), profiles.Describe(dca))
 		}
-		outer.integrate(f, 0, budget, ob, mom)
-		hasMom = true
+	}
+	if want := massCheck(sc, ca, budget); math.Abs(direct+mom[0]-want) > massRelTol*want+massAbsTol {
+		return nil, fmt.Errorf("delays %s (sensor_to_controller) and %s (controller_to_actuator): the rule integrates P(in time) = %.12g, the laws' CDFs give %.12g",
+			profiles.Describe(dsc), profiles.Describe(dca), direct+mom[0], want)
 	}
 
 	if hasMom {
@@ -209,44 +260,58 @@ func tauRule(dsc, dca profiles.Delay, h, c float64, deg int) []tauNode {
 			nodes = append(nodes, tauNode{Tau: lo + (tk+1)*span/2, Weight: w})
 		}
 	}
-	return nodes
+	return nodes, nil
 }
 
-// breakpoints lists where a law's density may jump or kink: the ends of
-// its support and, for a mixture or a shifted law, those of its parts.
-func breakpoints(d profiles.Delay) []float64 {
-	switch x := d.(type) {
-	case *profiles.Shifted:
-		var out []float64
-		for _, b := range breakpoints(x.Base) {
-			out = append(out, b+x.Shift)
-		}
-		return out
-	case *profiles.Mixture:
-		var out []float64
-		for _, p := range x.Parts {
-			out = append(out, breakpoints(p)...)
-		}
-		return out
-	case scaled:
-		var out []float64
-		for _, b := range breakpoints(x.d) {
-			out = append(out, b*x.s)
-		}
-		return out
-	}
-	lo, hi := d.Support()
-	return []float64{lo, hi}
+// newTauIntegrator is the integrator with the τ-expectations'
+// tolerances.
+func newTauIntegrator(dim int) *tanhSinh {
+	return newTanhSinh(dim, tauAbsTol, tauRelTol)
 }
 
-// hasDensity reports whether a law has an absolutely continuous part:
-// its atoms do not carry all the mass.
-func hasDensity(d profiles.Delay) bool {
-	m := 0.0
-	for _, a := range d.Atoms() {
-		m += a.Mass
+// integrateU adds ∫₀^top f(u) du to out, split at breaks, by tanh–sinh
+// quadrature (tanhsinh.go), which is indifferent to the singular
+// behaviour of quantile functions at the ends of [0, 1].
+func (q *tanhSinh) integrateU(f vecFunc, top float64, breaks []float64, out []float64) {
+	q.integrate(f, 0, top, breaks, out)
+}
+
+// massCheck is P(τsc + τca < budget) computed with the roles of the two
+// laws swapped against tauRule: over the command law's parts, with the
+// sensor law's CDF inside (its parts, which tauRule has checked against
+// the law's own CDF),
+//
+//	Σ_atoms a  m_a P(τsc + a < b) + Σ_pieces R  w_R ∫₀^{F_R(b)} P(τsc + R(v) < b) dv,
+//
+// the integral split where b − R(v) meets an atom or a support end of
+// τsc, where the integrand jumps or kinks. The sensor law enters through
+// its CDF and the command law through its quantile function, the other
+// way round from tauRule, so the two computations share no integrand.
+func massCheck(sc, ca lawParts, budget float64) float64 {
+	total := 0.0
+	for _, a := range ca.atoms {
+		total += a.Mass * sc.probSumBelow(a.At, budget)
 	}
-	return m < 1-1e-12
+	feat := sc.features()
+	q := newTauIntegrator(1)
+	for _, r := range ca.pieces {
+		top := r.cdf(budget)
+		if !(top > 0) {
+			continue
+		}
+		var breaks []float64
+		for _, x := range feat {
+			if x < budget {
+				breaks = append(breaks, r.cdf(budget-x))
+			}
+		}
+		out := []float64{0}
+		q.integrateU(func(v float64, o []float64) {
+			o[0] = sc.probSumBelow(r.quantile(v), budget)
+		}, top, breaks, out)
+		total += r.w * out[0]
+	}
+	return total
 }
 
 // scaled is a delay law with every delay multiplied by S > 0 (the

@@ -104,7 +104,10 @@ func TestTauRuleClosedForms(t *testing.T) {
 			l := servo(profile(iidChannel(0, tc.sc), iidChannel(0, tc.ca)), tc.c)
 			l.Period = tc.h
 			s := Discretize(l.Plant.A, l.Plant.B, l.Plant.W, tc.h)
-			nodes := tauRule(tc.sc, tc.ca, tc.h, tc.c, chebDegree(s, tc.c))
+			nodes, err := tauRule(tc.sc, tc.ca, tc.h, tc.c, chebDegree(s, tc.c))
+			if err != nil {
+				t.Fatal(err)
+			}
 			budget := tc.h - tc.c - tc.sumShift
 			for k := 0; k <= 2; k++ {
 				// E[(τ − c − shift)ᵏ] from the rule: expand τᵏ of the rule.
@@ -150,7 +153,10 @@ func TestTauRuleSciPy(t *testing.T) {
 	const h, c = 8 * ms, 1 * ms
 	l := servo(nil, c)
 	s := Discretize(l.Plant.A, l.Plant.B, nil, h)
-	nodes := tauRule(dsc, dca, h, c, chebDegree(s, c))
+	nodes, err := tauRule(dsc, dca, h, c, chebDegree(s, c))
+	if err != nil {
+		t.Fatal(err)
+	}
 	for k := 0; k <= 2; k++ {
 		got := 0.0
 		for _, n := range nodes {
@@ -180,7 +186,10 @@ func TestTauRuleManyAtoms(t *testing.T) {
 	const h, c = 10 * ms, 0.5 * ms
 	l := servo(nil, c)
 	s := Discretize(l.Plant.A, l.Plant.B, nil, h)
-	nodes := tauRule(dsc, dca, h, c, chebDegree(s, c))
+	nodes, err := tauRule(dsc, dca, h, c, chebDegree(s, c))
+	if err != nil {
+		t.Fatal(err)
+	}
 	f := func(tau float64) float64 { g0, _ := s.Split(tau); return g0.At(1, 0) * g0.At(0, 0) }
 	got := 0.0
 	for _, n := range nodes {

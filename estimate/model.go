@@ -67,7 +67,13 @@ func Build(loop *profiles.Loop, opts Options) (*Model, error) {
 	}
 	n, m, p, nc := loop.Dims()
 	h := loop.Period
+	if err := checkSize(loop); err != nil {
+		return nil, err
+	}
 	samp := Discretize(loop.Plant.A, loop.Plant.B, loop.Plant.W, h)
+	if err := samp.checkFinite(); err != nil {
+		return nil, err
+	}
 	xi := mat.NewSymDense(n+p, nil)
 	for i := 0; i < n; i++ {
 		for j := 0; j < n; j++ {
@@ -95,6 +101,12 @@ func Build(loop *profiles.Loop, opts Options) (*Model, error) {
 	}
 	md.f0 = md.lm.build(0, nil)
 	md.f1 = md.lm.build(1, nil)
+	if err := md.f0.checkFinite(); err != nil {
+		return nil, err
+	}
+	if err := md.f1.checkFinite(); err != nil {
+		return nil, err
+	}
 
 	sc, ca := loop.Profile.SensorToController, loop.Profile.ControllerToActuator
 	// The joint chain of the two independent directions (MODEL.md §2):
@@ -116,18 +128,28 @@ func Build(loop *profiles.Loop, opts Options) (*Model, error) {
 			dca := scaleDelay(a.Delay, opts.DelayScale)
 			js := JointState{Name: stateName(sc, i) + "/" + stateName(ca, j)}
 			js.baseSC, js.baseCA = s.Loss, a.Loss
-			js.OnTimeSC = probBelow(dsc, h)
-			js.nodes = tauRule(dsc, dca, h, loop.ComputeDelay, deg)
+			js.OnTimeSC = profiles.ProbBelow(dsc, h)
+			var err error
+			if js.nodes, err = tauRule(dsc, dca, h, loop.ComputeDelay, deg); err != nil {
+				return nil, fmt.Errorf("network state %s: %w", js.Name, err)
+			}
 			for _, nd := range js.nodes {
 				mo, ok := cache[nd.Tau]
 				if !ok {
 					g0, _ := samp.Split(nd.Tau)
 					mo = md.lm.build(2, g0)
+					if err := mo.checkFinite(); err != nil {
+						return nil, err
+					}
 					cache[nd.Tau] = mo
 				}
 				js.m2 = append(js.m2, mo)
 			}
 			md.prepareState(&js)
+			if !allFinite(js.opM2) || !allFinite(js.meanF2) || !allFinite(js.sumG2) {
+				return nil, fmt.Errorf("network state %s: the second-moment operator overflows (entries beyond %.3g): the plant or the controller gains are too large for a %s period",
+					js.Name, math.MaxFloat64, fmtSec(h))
+			}
 			md.States = append(md.States, js)
 		}
 	}
