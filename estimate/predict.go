@@ -84,12 +84,9 @@ func Predict(loop *profiles.Loop, opts PredictOptions) (*Prediction, error) {
 // Predict is Predict for a model already built.
 func (md *Model) Predict(margin bool) (*Prediction, error) {
 	pr := &Prediction{LossMargin: math.NaN()}
-	pr.SpectralRadius = md.SpectralRadius()
-	pr.MeanSquareStable = md.MeanSquareStable()
-	pr.Stability = StabilityUnstable
-	if pr.MeanSquareStable {
-		pr.Stability = StabilityStable
-	}
+	rad := md.Radius()
+	pr.SpectralRadius, pr.RadiusError, pr.Stability = rad.Value, rad.Error, rad.Stability
+	pr.MeanSquareStable = rad.Stability == StabilityStable
 	for i, js := range md.States {
 		pr.States = append(pr.States, StateReport{
 			Name: js.Name, Probability: md.Pi[i], LossSC: js.LossSC, LossCA: js.LossCA,
@@ -100,6 +97,8 @@ func (md *Model) Predict(margin bool) (*Prediction, error) {
 		mo, err := md.Steady()
 		switch {
 		case errors.Is(err, ErrNotStable):
+			// The radius said stable, the test at 1 on its own could not
+			// confirm it: call it marginal rather than contradict.
 			pr.MeanSquareStable, pr.Stability = false, StabilityMarginal
 		case err != nil:
 			return nil, err
