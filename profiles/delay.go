@@ -75,25 +75,20 @@ func ProbBelow(d Delay, x float64) float64 {
 }
 
 // quantileNewton refines x0, an approximate p-quantile of a law with a
-// density, by Newton steps on CDF(x) − p kept inside a bracket that
-// bisection narrows whenever a step would leave it (safeguarded Newton,
-// common practice). A NaN or infinite x0 starts from bisection alone.
+// density, by Newton steps on CDF(x) − p kept inside a bracket that every
+// evaluation narrows: a step that would leave the bracket bisects it (or,
+// while the bracket is open above, doubles x). Safeguarded Newton, common
+// practice. A NaN or infinite x0 starts from the support.
 func quantileNewton(d Delay, p, x0 float64) float64 {
 	lo, hi := d.Support()
-	if math.IsInf(hi, 1) {
-		hi = math.Max(lo, 1e-6)
-		for d.CDF(hi) < p {
-			hi = lo + 2*(hi-lo) + 1e-6
-			if hi > 1e12 {
-				return math.Inf(1)
-			}
-		}
-	}
 	x := x0
 	if !(x > lo && x < hi) {
-		x = lo + (hi-lo)/2
+		x = lo + 1e-6
+		if !math.IsInf(hi, 1) {
+			x = lo + (hi-lo)/2
+		}
 	}
-	for range 100 {
+	for range 200 {
 		f := d.CDF(x) - p
 		if f == 0 {
 			return x
@@ -105,9 +100,13 @@ func quantileNewton(d Delay, p, x0 float64) float64 {
 		}
 		next := x - f/d.Density(x)
 		if !(next > lo && next < hi) {
-			next = lo + (hi-lo)/2
+			if math.IsInf(hi, 1) {
+				next = 2*x + 1e-12
+			} else {
+				next = lo + (hi-lo)/2
+			}
 		}
-		if next == x || math.Abs(next-x) <= 1e-15*math.Abs(x) || next <= lo || next >= hi {
+		if next == x || math.Abs(next-x) <= 2e-16*math.Abs(x) || next <= lo || next >= hi {
 			return next
 		}
 		x = next

@@ -90,22 +90,24 @@ func (g Gamma) Variance() float64         { return g.Shape * g.Scale * g.Scale }
 func (g Gamma) Support() (lo, hi float64) { return 0, math.Inf(1) }
 
 // Quantile is scale·P⁻¹(k, p), P⁻¹ the inverse of the regularised lower
-// incomplete gamma function (gonum mathext.GammaIncRegInv), refined by
-// safeguarded Newton steps on the CDF (quantileNewton) where that inverse
-// is inexact (very large or small shapes) or fails.
-//
-// Far in the lower tail it starts from the leading term of the series,
-// P(k, y) ≈ y^k / Γ(k+1) for small y (Abramowitz & Stegun 6.5.29, from
-// memory), which the inverse misses there.
+// incomplete gamma function, by safeguarded Newton steps on the CDF
+// (quantileNewton) from the better of two starts: the leading term of the
+// series P(k, y) ≈ y^k / Γ(k+1) for small y (Abramowitz & Stegun 6.5.29)
+// and the Wilson–Hilferty approximation y ≈ k (1 − 1/(9k) + z/(3√k))³,
+// z = Φ⁻¹(p) (Abramowitz & Stegun 26.4.17) — both from memory. About five
+// CDF evaluations, an order of magnitude faster than a general inverse,
+// which matters: the prediction calls it thousands of times.
 func (g Gamma) Quantile(p float64) float64 {
-	x := g.Scale * mathext.GammaIncRegInv(g.Shape, p)
-	if p < 1e-6 {
-		lg, _ := math.Lgamma(g.Shape + 1)
-		if xs := g.Scale * math.Exp((math.Log(p)+lg)/g.Shape); !(math.Abs(g.CDF(x)-p) <= math.Abs(g.CDF(xs)-p)) {
-			x = xs
+	k := g.Shape
+	lg, _ := math.Lgamma(k + 1)
+	best := g.Scale * math.Exp((math.Log(p)+lg)/k)
+	if z := mathext.NormalQuantile(p); k > 0.1 {
+		c := 1 - 1/(9*k) + z/(3*math.Sqrt(k))
+		if wh := g.Scale * k * c * c * c; c > 0 && !(math.Abs(g.CDF(best)-p) <= math.Abs(g.CDF(wh)-p)) {
+			best = wh
 		}
 	}
-	return quantileNewton(g, p, x)
+	return quantileNewton(g, p, best)
 }
 func (g Gamma) String() string {
 	return fmt.Sprintf("gamma shape %s scale %s", fmtNum(g.Shape), fmtSeconds(g.Scale))
