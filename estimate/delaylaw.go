@@ -198,9 +198,15 @@ func tauRule(dsc, dca profiles.Delay, h, c float64, deg int) ([]tauNode, error) 
 			hasMom = true
 		}
 	}
-	// Pieces × pieces, the inner integral over the command piece.
+	// Pieces × pieces. τ is symmetric in the two delays, so the piece
+	// whose quantile function is the dearer goes outside (evaluated once
+	// per outer node) and the cheaper inside (once per inner node).
 	for _, q := range sc.pieces {
 		for _, r := range ca.pieces {
+			q, r := q, r
+			if quantileCost(q) < quantileCost(r) {
+				q, r = r, q
+			}
 			rlo, rhi := r.support()
 			top := q.cdf(budget - rlo)
 			if !(top > 0) {
@@ -261,6 +267,21 @@ func tauRule(dsc, dca profiles.Delay, h, c float64, deg int) ([]tauNode, error) 
 		}
 	}
 	return nodes, nil
+}
+
+// quantileCost ranks the cost of a piece's quantile function: closed
+// forms 0, a normal quantile 1, the gamma's Newton iteration 2, bisection
+// on the CDF 3.
+func quantileCost(p piece) int {
+	switch p.base.(type) {
+	case profiles.Uniform, profiles.Exponential, profiles.Weibull, profiles.Pareto:
+		return 0
+	case profiles.Lognormal, *profiles.Normal:
+		return 1
+	case profiles.Gamma:
+		return 2
+	}
+	return 3
 }
 
 // newTauIntegrator is the integrator with the τ-expectations'

@@ -18,13 +18,19 @@ import (
 // sit at the ends of the pieces the caller splits the range into.
 //
 // Levels halve the step h from 1; each level adds the nodes at odd
-// multiples of h, so earlier values are reused. The integral is accepted
-// when two successive levels agree within max(absTol, relTol·|I|∞) in the
-// max norm over components (the error of the finer level is then far
-// smaller, the convergence being exponential; common practice).
+// multiples of h, so earlier values are reused. The convergence is
+// exponential in 1/h: once it has set in, each halving roughly squares
+// the error, so the difference d between two successive levels bounds
+// the error of the coarser one and d²/|I| estimates that of the finer
+// (implementations commonly estimate the error from the square of the
+// last difference — common practice, from memory). The integral is
+// accepted when d ≤ max(absTol, √relTol·|I|∞/tsSafety) in the max norm
+// over components: the finer level then has an estimated error of
+// relTol/tsSafety² relative, with margin should the squaring not yet hold.
 const (
 	tsTMax     = 3.5 // |t| beyond which the weights fall below about 1e-21·r
 	tsMaxLevel = 12  // h = 2⁻¹², 28 673 nodes: the cap on the work per piece
+	tsSafety   = 1e3 // margin on the squared-difference error estimate
 )
 
 // tanhSinh integrates vector-valued functions of dimension dim.
@@ -106,7 +112,7 @@ func (q *tanhSinh) piece(f vecFunc, a, b float64, out []float64) {
 			diff = math.Max(diff, math.Abs(h*sum[j]-2*h*prev[j]))
 			scale = math.Max(scale, math.Abs(h*sum[j]))
 		}
-		if level >= 3 && diff <= math.Max(q.absTol, q.relTol*scale) {
+		if level >= 3 && diff <= math.Max(q.absTol, math.Sqrt(q.relTol)*scale/tsSafety) {
 			break
 		}
 	}
