@@ -1,9 +1,10 @@
 // Package estimate computes what theory predicts for a control loop
 // closed over a lossy, delaying network: mean-square stability, the
-// steady moments of the tracking error and the loss margin (MODEL.md).
-// It is pure numerics: it takes a validated [profiles.Loop] and returns
-// numbers. It also holds the goodness-of-fit statistics used to fit and
-// check profiles (ks.go).
+// steady moments of the tracking error and the loss margin. It is pure
+// numerics: it takes a validated [profiles.Loop] and returns numbers or
+// an error that says why it cannot. It also holds the online estimators
+// of the monitor and the goodness-of-fit statistics used to fit and check
+// profiles (ks.go).
 //
 // # The model
 //
@@ -19,20 +20,47 @@
 // joint chain P = P_sc ⊗ P_ca carries the modes' probabilities, so the
 // loop is a Markov jump linear system.
 //
-// # What is computed
+// # The expectation over the delays
 //
-// The expectation over m2 integrates the distribution of τ exactly up to
-// quadrature: atoms of the delay laws at their own points, densities
-// through the Chebyshev moments of their convolution (delaylaw.go). The
-// first and second moments follow the recursions of Costa, Fragoso and
-// Marques (moments.go); the second-moment operator acts on symmetric
-// matrices (symop.go), its spectral radius decides mean-square stability
-// and a Lyapunov solve decides it cheaply (stability.go); the steady
-// moments solve two linear systems. The loss margin scans an extra loss
-// on every packet and bisects the first loss of stability. [Simulate] runs
-// the same loop by Monte Carlo from the profile's own samplers.
+// The delivered-in-time mode is integrated over the law of τ exactly up
+// to quadrature, whatever the shape of the delay laws against the period
+// (delaylaw.go, lawparts.go). Each law is split into its atoms and
+// continuous pieces, and every piece is integrated in its own probability
+// scale u = F(x) through its quantile function, by tanh–sinh quadrature
+// (tanhsinh.go): a density singular at its start, a peak a thousand times
+// narrower than the period or a heavy tail all become bounded, smooth
+// integrands. Atoms stay at their own points. What is integrated is
+// checked: the pieces must rebuild each law's own CDF, and the mass of
+// the in-time mode must agree with the same probability computed the
+// other way round from the CDFs; a law that fails either is refused with
+// an error naming the direction, the network state and the law.
 //
-// Entry points: [Predict] for the numbers of MODEL.md §5, [Build] for the
-// model itself ([Model.Transient] for a step response), [Sweep] for a
-// curve against extra loss or a delay scale, [Simulate].
+// # Stability and moments
+//
+// The first and second moments follow the recursions of Costa, Fragoso
+// and Marques (moments.go); the second-moment operator ℒ acts on
+// symmetric matrices (symop.go). Its spectral radius ρ decides
+// mean-square stability (stability.go): tests of s against ρ solve
+// X − ℒ(X)/s = I with refined accuracy and read the answer from the
+// smallest eigenvalue of X (≥ 1 above ρ, ≤ 0 at or below it), saying
+// "undecided" when the arithmetic cannot tell; ρ is bracketed by such
+// tests and estimated by inverse iteration, and reported with its error.
+// A loop is stable only when certified, unstable when ρ ≥ 1 is certified,
+// and marginal when ρ lies within its error of 1. The steady moments
+// solve two linear systems. The loss margin scans an extra loss on every
+// packet and bisects the first loss of stability. [Simulate] runs the
+// same loop by Monte Carlo from the profile's own samplers.
+//
+// # Limits
+//
+// Every number the prediction returns is finite. A plant whose sampling
+// over one period overflows float64, gains that make the operator
+// overflow, and loops whose second-moment operator would be larger than
+// [MaxOperatorSide] (N·nz(nz+1)/2 for nz loop states and N joint network
+// states) are refused up front with an error that names the sizes.
+//
+// Entry points: [Predict] for the prediction (stability verdict, ρ and its
+// error, the error's steady moments, the loss margin), [Build] for the
+// model itself ([Model.Transient] for a step response, [Model.Radius]),
+// [Sweep] for a curve against extra loss or a delay scale, [Simulate].
 package estimate
