@@ -16,8 +16,13 @@ const (
 // SweepPoint is the prediction at one value of a swept parameter.
 type SweepPoint struct {
 	Value            float64
-	MeanSquareStable bool
-	SpectralRadius   float64
+	MeanSquareStable bool // Stability == StabilityStable
+	// Stability is the verdict at this value (StabilityStable,
+	// StabilityMarginal, StabilityUnstable); ρ lies within
+	// SpectralRadius ± RadiusError.
+	Stability      string
+	SpectralRadius float64
+	RadiusError    float64
 	// SecondMoment is the steady E[eᵀe]; NaN when not stable.
 	SecondMoment float64
 }
@@ -69,10 +74,16 @@ func Sweep(loop *profiles.Loop, param string, values []float64) (*SweepResult, e
 		if err != nil {
 			return nil, err
 		}
-		pt := SweepPoint{Value: v, SecondMoment: math.NaN(), SpectralRadius: md.SpectralRadius()}
-		if mo, err := md.Steady(); err == nil {
-			pt.MeanSquareStable = true
-			pt.SecondMoment = md.Error(mo).SecondMoment
+		rad := md.Radius()
+		pt := SweepPoint{Value: v, SecondMoment: math.NaN(), SpectralRadius: rad.Value,
+			RadiusError: rad.Error, Stability: rad.Stability}
+		if rad.Stability == StabilityStable {
+			if mo, err := md.Steady(); err == nil {
+				pt.MeanSquareStable = true
+				pt.SecondMoment = md.Error(mo).SecondMoment
+			} else {
+				pt.Stability = StabilityMarginal
+			}
 		}
 		res.Points = append(res.Points, pt)
 	}
