@@ -356,10 +356,11 @@ func predictStep(loop *profiles.Loop, steps int, plotFile string, stdout io.Writ
 	return nil
 }
 
-// pointStability is the verdict of one point of a sweep. A sweep point
-// carries no marginal verdict: it is stable when certified, else
-// unstable.
+// pointStability is the verdict of one point of a sweep.
 func pointStability(p estimate.SweepPoint) string {
+	if p.Stability != "" {
+		return p.Stability
+	}
 	if p.MeanSquareStable {
 		return estimate.StabilityStable
 	}
