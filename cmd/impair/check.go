@@ -96,7 +96,7 @@ func writeChannel(w io.Writer, name string, c *profiles.Channel, interval float6
 	fmt.Fprintf(tw, "  state\tdwell\ttime\tloss\tmean\tmedian\tp99\tp99.9\tlate\t\n")
 	for i, s := range c.States {
 		d := s.Delay
-		late := 1 - d.CDF(math.Nextafter(interval, 0)) // P(delay ≥ interval)
+		late := lateShare(d, interval)
 		fmt.Fprintf(tw, "  %s\t%s\t%s\t%s\t%s\t%s\t%s\t%s\t%s\t\n",
 			s.Name, fmtDur(s.MeanDwell), fmtPct(pi[i]), fmtPct(s.Loss),
 			fmtMS(d.Mean()), fmtMS(profiles.Quantile(d, 0.5)),
@@ -119,6 +119,13 @@ func writeChannel(w io.Writer, name string, c *profiles.Channel, interval float6
 		}
 		fmt.Fprintf(w, "  stationary: %s\n", b.String())
 	}
+}
+
+// lateShare is P(delay ≥ interval), a datagram late for the next one:
+// the complement of profiles.ProbBelow, the same function the prediction
+// uses for a stale sample, so the two agree on every law.
+func lateShare(d profiles.Delay, interval float64) float64 {
+	return 1 - profiles.ProbBelow(d, interval)
 }
 
 // fmtMS writes seconds as milliseconds with three significant digits.
