@@ -16,10 +16,11 @@ import (
 // # Point estimates
 //
 // Mean error ē = (1/n) Σ e_k (a p-vector), second moment x̄ = (1/n) Σ x_k
-// (the estimate of E[eᵀe], MODEL.md §4), and std = √(x̄ − |ē|²), the
-// sample counterpart of MODEL.md §5's error_std.
+// (the estimate of the steady E[eᵀe] the prediction gives), and
+// std = √(x̄ − |ē|²), the sample counterpart of the predicted error
+// standard deviation.
 //
-// # Confidence interval: non-overlapping batch means
+// # Batch means
 //
 // The x_k of a closed loop are autocorrelated, so the i.i.d. interval
 // x̄ ± t·s/√n is too narrow. The method of non-overlapping batch means
@@ -27,21 +28,68 @@ import (
 // 2000, §9.5.3; B. Schmeiser, "Batch size effects in the analysis of
 // simulation output", Oper. Res. 30(3), 1982) splits the run into k
 // consecutive batches of b samples with means B_1…B_k; when b is long
-// against the correlation time the B_j are nearly independent and normal,
-// and
+// against the correlation time the B_j are nearly independent and
+// normal, and S_B/√k, S_B² = (1/(k−1)) Σ (B_j − B̄)², estimates the
+// standard error of x̄. Schmeiser (1982) finds 10 to 30 batches enough;
+// here the whole run keeps between MinBatches (20) and 2·MinBatches−1
+// (39) complete batches: the batch size starts at one sample and
+// doubles, by merging adjacent pairs, whenever 2·MinBatches batches are
+// complete (a common practice for runs of unknown length; memory stays at
+// 2·MinBatches sums). The interval is centred on x̄ over all n samples,
+// including those of the batch being filled; its width uses the complete
+// batches only. Until two batches are complete the bounds are NaN.
 //
-//	x̄ ± t_{k−1, 1−α/2} · S_B/√k,   S_B² = (1/(k−1)) Σ (B_j − B̄)²
+// # Confidence interval: on the log scale
 //
-// is an asymptotically valid 1−α interval (t: Student's t quantile,
-// gonum distuv.StudentsT). Schmeiser (1982) finds 10 to 30 batches
-// enough; here the whole run keeps between MinBatches (20) and
-// 2·MinBatches−1 (39) complete batches: the batch size starts at one
-// sample and doubles, by merging adjacent pairs, whenever 2·MinBatches
-// batches are complete (a common practice for runs of unknown length;
-// memory stays at 2·MinBatches sums). The interval is centred on x̄ over
-// all n samples, including those of the batch being filled; its
-// half-width uses the complete batches only. Until two batches are
-// complete the bounds are NaN.
+// E[eᵀe] is positive and x̄ is skewed to the right when the batches are
+// few or short (each x_k is a sum of squares), so the symmetric interval
+// x̄ ± t·S_B/√k can reach below zero and then holds every prediction. The
+// interval is built for log E[eᵀe] instead and mapped back:
+//
+//	[x̄·exp(−w), x̄·exp(+w)],   w = t_{k−1, 1−α/2} · S_B / (√k · x̄)
+//
+// by the delta method (Var log x̄ ≈ Var x̄ / x̄²; G. Casella, R. L. Berger,
+// Statistical Inference, 2nd ed., 2002, §5.5.4, section number from
+// memory), with Student's t on k−1 degrees of freedom for the few batches
+// (gonum distuv.StudentsT). The same half-width on the log scale is the
+// common practice for positive quantities (rates, variances); its lower
+// bound is positive whenever x̄ is, its upper bound lies farther from x̄
+// than the lower one, as the skew of x̄ asks, and for a narrow interval it
+// is the symmetric one to first order. When every batch mean is equal the
+// interval is [x̄, x̄]. TestOnlineLogIntervalCoverage checks the coverage
+// on a process whose E[eᵀe] is known in closed form.
+//
+// # Are the batches long enough?
+//
+// The interval needs batch means that are nearly independent. The test
+// of their serial order is von Neumann's ratio of the mean square successive
+// difference to the variance (J. von Neumann, "Distribution of the ratio
+// of the mean square successive difference to the variance", Ann. Math.
+// Statist. 12, 1941, 367–395), written as the lag-1 serial correlation
+//
+//	C = 1 − Σ_{j<k} (D_{j+1} − D_j)² / (2 Σ_j (D_j − D̄)²)
+//
+// (L. C. Young, "On randomness in ordered sequences", Ann. Math. Statist.
+// 12, 1941, 293–300). For k independent normal D_j, C has mean 0 and
+// variance (k−2)/(k²−1) and is close to normal for k ≥ 8 (Young 1941, from
+// memory; TestOnlineBatchCorrelationNullLaw checks both by Monte Carlo);
+// Z = C / √((k−2)/(k²−1)) is reported and a caller rejects independence
+// when Z is large (positively correlated batch means: batches short against
+// the correlation time). Fishman uses the same test to choose the batch
+// size (G. S. Fishman, "Grouping observations in digital simulation",
+// Management Sci. 24(5), 1978, 510–521). D_j is B_j minus the batch's
+// mean reference value (AddErrorRef: the prediction in force at each
+// sample), so that a trend the caller expects, such as a ramp of the
+// network, is not taken for correlation; with AddError the reference is 0
+// and D_j = B_j.
+//
+// When Z over the whole run's batches exceeds BatchCorrelationZMax (the
+// one-sided 1 % point), Run merges them in pairs once, if at least
+// MinMergedBatches remain, and reports the interval, the effective sample
+// size and the test of the merged batches (Merged): the step of Fishman's
+// procedure that doubles the batch size when the test rejects, done once
+// and at query time so that memory stays fixed. Whether the batches are
+// then long enough is for the caller to decide from Z.
 //
 // The effective sample size is n_eff = s_x² · k / S_B² = n·s_x²/(b·S_B²)
 // (s_x² the sample variance of the x_k, by Welford's update), the number
@@ -51,11 +99,11 @@ import (
 // # Windows
 //
 // A window of W samples is a ring of K = ⌊W/b⌋ batches of b = ⌈W/30⌉
-// samples (per batch: Σe, Σx, Σx²; K ≤ 30) and the batch being filled;
-// its estimates cover the partial batch and the most recent complete ones
-// that fit in W with it (between W − b and W samples once full), its
-// interval is the batch-means interval over those K' complete batches
-// with t_{K'−1}, so it needs b ≫ the correlation time.
+// samples (per batch: Σe, Σx, Σx², Σref; K ≤ 30) and the batch being
+// filled; its estimates cover the partial batch and the most recent
+// complete ones that fit in W with it (between W − b and W samples once
+// full), its interval is the log-scale batch-means interval over those K'
+// complete batches with t_{K'−1}, so it needs b ≫ the correlation time.
 type Online struct {
 	r     []float64
 	e     []float64
@@ -70,10 +118,15 @@ type Online struct {
 	minBatches int
 	batchSize  int64
 	batches    []float64 // sums of x over complete batches; cap 2·minBatches
+	refs       []float64 // sums of the reference over the same batches
 	curSum     float64
+	curRef     float64
 	curN       int64
 	windows    []window
 	tq         map[int]float64 // t quantiles by degrees of freedom
+	// Scratch, so that Run and Window do not allocate: batch means less
+	// reference, and merged (or window) batch sums and reference sums.
+	diffs, msum, mref []float64
 }
 
 // OnlineOptions configures an Online estimator.
@@ -97,8 +150,10 @@ type OnlineStats struct {
 	Mean []float64
 	// SecondMoment is x̄, the estimate of E[eᵀe]; Std = √(x̄ − |ē|²).
 	SecondMoment, Std float64
-	// CILow, CIHigh bound E[eᵀe] at the configured level (batch means);
-	// NaN with fewer than two complete batches.
+	// CILow, CIHigh bound E[eᵀe] at the configured level (batch means on
+	// the log scale: CILow > 0 whenever SecondMoment is; both equal
+	// SecondMoment when every batch mean is equal); NaN with fewer than
+	// two complete batches. CIHigh may be +Inf for a very wide interval.
 	CILow, CIHigh float64
 	// EffectiveSamples is n·s_x²/(b·S_B²); NaN with fewer than two
 	// complete batches or when every sample is equal, +Inf when only the
@@ -108,7 +163,31 @@ type OnlineStats struct {
 	// and their length in samples.
 	Batches   int
 	BatchSize int64
+	// BatchCorrelation is von Neumann's lag-1 serial correlation C of the
+	// complete batch means (less their mean reference), and
+	// BatchCorrelationZ = C/√((k−2)/(k²−1)), about standard normal when
+	// the batch means are independent; both NaN with fewer than three
+	// complete batches or when the batch means are all equal.
+	BatchCorrelation, BatchCorrelationZ float64
+	// Merged is set when the whole-run batches were correlated
+	// (BatchCorrelationZ above BatchCorrelationZMax) and at least
+	// 2·MinMergedBatches of them were merged in pairs: Batches, BatchSize,
+	// the interval and the correlation are then those of the merged
+	// batches.
+	Merged bool
 }
+
+// BatchCorrelationZMax is the one-sided 1 % point of the standard normal
+// law, Φ⁻¹(0.99): a batch-correlation z-score above it rejects
+// independent batch means at the 1 % level (see Online).
+const BatchCorrelationZMax = 2.3263478740408408
+
+// MinMergedBatches is the least number of batches the whole-run interval
+// merges down to when its batches are correlated: Schmeiser (1982) finds
+// 10 to 30 batches enough, and below 10 both the t quantile (2.26 at 9
+// degrees of freedom, 2.09 at 19) and the weak power of the correlation
+// test make fewer, longer batches a poor trade (common practice).
+const MinMergedBatches = 10
 
 // window is one sliding window: a ring of batch sums.
 type window struct {
@@ -118,11 +197,13 @@ type window struct {
 	sumE   []float64
 	sumX   []float64
 	sumXX  []float64
+	sumRef []float64
 	filled int // complete batches in the ring
 	head   int // next slot to write
 	curE   []float64
 	curX   float64
 	curXX  float64
+	curRef float64
 	curN   int64
 }
 
@@ -150,7 +231,9 @@ func NewOnline(opts OnlineOptions) (*Online, error) {
 	o := &Online{
 		r: append([]float64(nil), opts.Setpoint...), e: make([]float64, p), level: opts.Level,
 		sumE: make([]float64, p), minBatches: opts.MinBatches, batchSize: 1,
-		batches: make([]float64, 0, 2*opts.MinBatches), tq: map[int]float64{},
+		batches: make([]float64, 0, 2*opts.MinBatches), refs: make([]float64, 0, 2*opts.MinBatches),
+		tq: map[int]float64{}, diffs: make([]float64, 0, max(2*opts.MinBatches, windowBatches)),
+		msum: make([]float64, 0, max(opts.MinBatches, windowBatches)), mref: make([]float64, 0, max(opts.MinBatches, windowBatches)),
 	}
 	for _, w := range opts.Windows {
 		if w < 2 {
@@ -160,7 +243,7 @@ func NewOnline(opts OnlineOptions) (*Online, error) {
 		k := int(int64(w) / b)
 		o.windows = append(o.windows, window{length: w, b: b, k: k,
 			sumE: make([]float64, k*p), sumX: make([]float64, k), sumXX: make([]float64, k),
-			curE: make([]float64, p)})
+			sumRef: make([]float64, k), curE: make([]float64, p)})
 	}
 	// Every quantile the intervals can ask for, so that Add and the
 	// stats never allocate.
@@ -187,11 +270,18 @@ func (o *Online) Add(y []float64) {
 	for i := range o.e {
 		o.e[i] = o.r[i] - y[i]
 	}
-	o.AddError(o.e)
+	o.AddErrorRef(o.e, 0)
 }
 
 // AddError takes one error sample e directly.
-func (o *Online) AddError(e []float64) {
+func (o *Online) AddError(e []float64) { o.AddErrorRef(e, 0) }
+
+// AddErrorRef takes one error sample e with a reference value ref for
+// its eᵀe (the predicted E[eᵀe] in force): the batch-correlation test
+// runs on the batch means less the mean of ref over each batch, so that a
+// trend the reference follows is not counted as correlation. ref must be
+// finite; it changes no estimate or interval.
+func (o *Online) AddErrorRef(e []float64, ref float64) {
 	x := 0.0
 	for i, v := range e {
 		x += v * v
@@ -204,42 +294,47 @@ func (o *Online) AddError(e []float64) {
 	o.wM2 += d * (x - o.wMean)
 
 	o.curSum += x
+	o.curRef += ref
 	o.curN++
 	if o.curN == o.batchSize {
 		o.batches = append(o.batches, o.curSum)
-		o.curSum, o.curN = 0, 0
+		o.refs = append(o.refs, o.curRef)
+		o.curSum, o.curRef, o.curN = 0, 0, 0
 		if len(o.batches) == 2*o.minBatches {
 			for j := 0; j < o.minBatches; j++ {
 				o.batches[j] = o.batches[2*j] + o.batches[2*j+1]
+				o.refs[j] = o.refs[2*j] + o.refs[2*j+1]
 			}
 			o.batches = o.batches[:o.minBatches]
+			o.refs = o.refs[:o.minBatches]
 			o.batchSize *= 2
 		}
 	}
 	for i := range o.windows {
-		o.windows[i].add(e, x)
+		o.windows[i].add(e, x, ref)
 	}
 }
 
-func (w *window) add(e []float64, x float64) {
+func (w *window) add(e []float64, x, ref float64) {
 	for i, v := range e {
 		w.curE[i] += v
 	}
 	w.curX += x
 	w.curXX += x * x
+	w.curRef += ref
 	w.curN++
 	if w.curN < w.b {
 		return
 	}
 	p := len(e)
 	copy(w.sumE[w.head*p:(w.head+1)*p], w.curE)
-	w.sumX[w.head], w.sumXX[w.head] = w.curX, w.curXX
+	w.sumX[w.head], w.sumXX[w.head], w.sumRef[w.head] = w.curX, w.curXX, w.curRef
 	w.head = (w.head + 1) % w.k
 	if w.filled < w.k {
 		w.filled++
 	}
 	clear(w.curE)
-	w.curX, w.curXX, w.curN = 0, 0, 0
+	w.curX, w.curXX, w.curRef, w.curN = 0, 0, 0, 0
 }
 
 // slot is the ring index of the i-th most recent complete batch.
@@ -255,12 +350,58 @@ func (o *Online) quantile(df int) float64 {
 	return distuv.StudentsT{Mu: 0, Sigma: 1, Nu: float64(df)}.Quantile(1 - (1-o.level)/2)
 }
 
+// LogInterval is the log-scale interval [x̄·e^{−w}, x̄·e^{+w}],
+// w = t·se/x̄, of a positive mean x̄ with standard error se and Student
+// quantile t (see Online): [x̄, x̄] when se is 0, NaN bounds when x̄ is
+// not positive and se is, or when an input is NaN.
+func LogInterval(mean, se, t float64) (lo, hi float64) {
+	switch {
+	case math.IsNaN(mean) || math.IsNaN(se) || math.IsNaN(t) || se < 0:
+		return math.NaN(), math.NaN()
+	case se == 0:
+		return mean, mean
+	case !(mean > 0):
+		return math.NaN(), math.NaN()
+	}
+	w := t * se / mean
+	return mean * math.Exp(-w), mean * math.Exp(w)
+}
+
+// serialCorrelation is von Neumann's lag-1 serial correlation C of d (in
+// order) and its z-score C/√((k−2)/(k²−1)); NaN for k < 3 or equal
+// values.
+func serialCorrelation(d []float64) (c, z float64) {
+	k := len(d)
+	if k < 3 {
+		return math.NaN(), math.NaN()
+	}
+	m := 0.0
+	for _, v := range d {
+		m += v
+	}
+	m /= float64(k)
+	ss, sd := 0.0, 0.0
+	for j, v := range d {
+		ss += (v - m) * (v - m)
+		if j > 0 {
+			sd += (v - d[j-1]) * (v - d[j-1])
+		}
+	}
+	if !(ss > 0) {
+		return math.NaN(), math.NaN()
+	}
+	c = 1 - sd/(2*ss)
+	fk := float64(k)
+	return c, c / math.Sqrt((fk-2)/(fk*fk-1))
+}
+
 // Run returns the estimates over the whole run. The mean is written into
 // mean when it has p entries (no allocation), else into a new slice.
 func (o *Online) Run(mean []float64) OnlineStats {
 	st := OnlineStats{Samples: o.n, Mean: o.meanSlice(mean), BatchSize: o.batchSize, Batches: len(o.batches)}
 	nan := math.NaN()
 	st.CILow, st.CIHigh, st.EffectiveSamples = nan, nan, nan
+	st.BatchCorrelation, st.BatchCorrelationZ = nan, nan
 	if o.n == 0 {
 		st.SecondMoment, st.Std = nan, nan
 		for i := range st.Mean {
@@ -280,23 +421,46 @@ func (o *Online) Run(mean []float64) OnlineStats {
 	if k < 2 {
 		return st
 	}
-	b := float64(o.batchSize)
+	varX := o.wM2 / (n - 1)
+	o.batchStats(&st, o.batches, o.refs, float64(o.batchSize), varX)
+	if st.BatchCorrelationZ > BatchCorrelationZMax && k/2 >= MinMergedBatches {
+		// Batches short against the correlation time: pairs of them, twice
+		// as long, once (an odd newest batch stays out of the width but in
+		// x̄).
+		o.msum, o.mref = o.msum[:0], o.mref[:0]
+		for j := 0; j+1 < k; j += 2 {
+			o.msum = append(o.msum, o.batches[j]+o.batches[j+1])
+			o.mref = append(o.mref, o.refs[j]+o.refs[j+1])
+		}
+		st.Batches, st.BatchSize, st.Merged = len(o.msum), 2*o.batchSize, true
+		o.batchStats(&st, o.msum, o.mref, float64(st.BatchSize), varX)
+	}
+	return st
+}
+
+// batchStats sets st's interval, effective samples and batch correlation
+// from complete batches of b samples with x sums sums and reference sums
+// refs (oldest first), and varX, the sample variance of x.
+func (o *Online) batchStats(st *OnlineStats, sums, refs []float64, b, varX float64) {
+	k := len(sums)
 	mb := 0.0
-	for _, s := range o.batches {
+	for _, s := range sums {
 		mb += s / b
 	}
 	mb /= float64(k)
 	ss := 0.0
-	for _, s := range o.batches {
+	for _, s := range sums {
 		d := s/b - mb
 		ss += d * d
 	}
 	sb2 := ss / float64(k-1)
-	half := o.quantile(k-1) * math.Sqrt(sb2/float64(k))
-	st.CILow, st.CIHigh = st.SecondMoment-half, st.SecondMoment+half
-	varX := o.wM2 / (n - 1)
+	st.CILow, st.CIHigh = LogInterval(st.SecondMoment, math.Sqrt(sb2/float64(k)), o.quantile(k-1))
 	st.EffectiveSamples = effective(varX, sb2, float64(k))
-	return st
+	o.diffs = o.diffs[:0]
+	for j, s := range sums {
+		o.diffs = append(o.diffs, (s-refs[j])/b)
+	}
+	st.BatchCorrelation, st.BatchCorrelationZ = serialCorrelation(o.diffs)
 }
 
 // effective is n_eff = s_x²·k/S_B² (Law & Kelton §9.5.3, common practice).
@@ -325,6 +489,7 @@ func (o *Online) Window(i int, mean []float64) OnlineStats {
 	st := OnlineStats{Mean: o.meanSlice(mean), BatchSize: w.b, Batches: w.filled}
 	nan := math.NaN()
 	st.CILow, st.CIHigh, st.EffectiveSamples = nan, nan, nan
+	st.BatchCorrelation, st.BatchCorrelationZ = nan, nan
 	// The most recent complete batches that, with the partial one, fit
 	// in the window.
 	use := w.filled
@@ -364,25 +529,18 @@ func (o *Online) Window(i int, mean []float64) OnlineStats {
 		return st
 	}
 	b := float64(w.b)
-	mb, cx, cxx := 0.0, 0.0, 0.0
-	for i := 0; i < k; i++ {
+	cx, cxx := 0.0, 0.0
+	o.msum, o.mref = o.msum[:0], o.mref[:0]
+	for i := k - 1; i >= 0; i-- { // oldest first
 		s := w.slot(i)
-		mb += w.sumX[s] / b
 		cx += w.sumX[s]
 		cxx += w.sumXX[s]
+		o.msum = append(o.msum, w.sumX[s])
+		o.mref = append(o.mref, w.sumRef[s])
 	}
-	mb /= float64(k)
-	ss := 0.0
-	for i := 0; i < k; i++ {
-		d := w.sumX[w.slot(i)]/b - mb
-		ss += d * d
-	}
-	sb2 := ss / float64(k-1)
-	half := o.quantile(k-1) * math.Sqrt(sb2/float64(k))
-	st.CILow, st.CIHigh = st.SecondMoment-half, st.SecondMoment+half
 	// Sample variance of x over the complete batches, from its sums.
 	nb := float64(k) * b
 	varX := math.Max(0, (cxx-cx*cx/nb)/(nb-1))
-	st.EffectiveSamples = effective(varX, sb2, float64(k))
+	o.batchStats(&st, o.msum, o.mref, b, varX)
 	return st
 }
