@@ -18,7 +18,13 @@ const (
 // the loop is marginal counts as lost.
 // The extra loss only rescales the mode probabilities, so the modes are
 // reused. The model's own extra loss is restored on return.
-func (md *Model) LossMargin() float64 {
+func (md *Model) LossMargin() float64 { return md.LossMarginProgress(nil) }
+
+// LossMarginProgress is LossMargin calling progress (when not nil) with
+// the extra loss reached by the scan, in [0, 1], before each grid point:
+// the scan costs one factorisation of the second-moment operator per
+// point, seconds for large loops.
+func (md *Model) LossMarginProgress(progress func(q float64)) float64 {
 	saved := md.opts.ExtraLoss
 	defer md.setLoss(saved)
 	base := saved
@@ -34,6 +40,9 @@ func (md *Model) LossMargin() float64 {
 	steps := int(math.Round(1 / marginScanStep))
 	for k := 1; k <= steps; k++ {
 		q := float64(k) * marginScanStep
+		if progress != nil {
+			progress(q)
+		}
 		if k == steps {
 			q = 1 - marginTolerance/2 // q = 1 itself never converges (MODEL.md §6)
 		}

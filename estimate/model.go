@@ -33,6 +33,8 @@ type Model struct {
 	States []JointState
 	f0, f1 mode
 	opts   Options
+	// marginProgress is PredictOptions.MarginProgress.
+	marginProgress func(q float64)
 }
 
 // JointState is one state of the joint chain (sensor direction state,

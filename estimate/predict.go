@@ -67,6 +67,9 @@ type PredictOptions struct {
 	// SkipMargin leaves LossMargin NaN (the margin costs up to about a
 	// hundred stability tests).
 	SkipMargin bool
+	// MarginProgress, when set, is called as the loss margin's scan
+	// advances (see Model.LossMarginProgress).
+	MarginProgress func(q float64)
 }
 
 // Predict computes the prediction of MODEL.md §5 for a validated loop:
@@ -78,6 +81,7 @@ func Predict(loop *profiles.Loop, opts PredictOptions) (*Prediction, error) {
 	if err != nil {
 		return nil, err
 	}
+	md.marginProgress = opts.MarginProgress
 	return md.Predict(!opts.SkipMargin)
 }
 
@@ -108,7 +112,7 @@ func (md *Model) Predict(margin bool) (*Prediction, error) {
 		}
 	}
 	if margin {
-		pr.LossMargin = md.LossMargin()
+		pr.LossMargin = md.LossMarginProgress(md.marginProgress)
 	}
 	return pr, nil
 }

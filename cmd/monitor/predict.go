@@ -8,6 +8,7 @@ import (
 	"strconv"
 	"strings"
 	"text/tabwriter"
+	"time"
 
 	"rigwire/cmd/internal/exitcode"
 	"rigwire/cmd/internal/stability"
@@ -97,7 +98,8 @@ func cmdPredict(args []string, stdout, stderr io.Writer) error {
 		}
 		return predictStep(loop, *step, *plotFile, stdout)
 	}
-	pr, err := estimate.Predict(loop, estimate.PredictOptions{SkipMargin: *noMargin})
+	pr, err := estimate.Predict(loop, estimate.PredictOptions{SkipMargin: *noMargin,
+		MarginProgress: marginProgress(stderr, time.Now())})
 	if err != nil {
 		return badInput(fmt.Errorf("%s: %w", path, err))
 	}
@@ -112,6 +114,28 @@ func cmdPredict(args []string, stdout, stderr io.Writer) error {
 		return strictStatus(pr)
 	}
 	return nil
+}
+
+// Progress of a slow loss margin.
+const (
+	progressAfter = 2 * time.Second // quiet for predictions faster than this
+	progressEvery = 2 * time.Second
+)
+
+// marginProgress returns the loss margin's progress callback: a line on
+// stderr every progressEvery once the prediction has run progressAfter
+// (a large loop's scan factorises its operator a hundred times).
+func marginProgress(stderr io.Writer, start time.Time) func(q float64) {
+	last := start
+	return func(q float64) {
+		now := time.Now()
+		if now.Sub(start) < progressAfter || now.Sub(last) < progressEvery {
+			return
+		}
+		last = now
+		fmt.Fprintf(stderr, "monitor predict: loss margin: extra loss %.2f scanned of 1 (%.0f %%), %s so far\n",
+			q, 100*q, now.Sub(start).Round(time.Second))
+	}
 }
 
 // strictStatus is the --strict verdict: nil when the loop is certified
