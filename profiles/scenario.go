@@ -26,8 +26,13 @@ const (
 	MaxScenarioSteps = 10000
 	// MaxPhaseDuration bounds one phase's duration, seconds (7 days).
 	MaxPhaseDuration = 7 * 86400.0
-	// DefaultMinSamples is a check's min_samples when not given.
-	DefaultMinSamples = 20
+	// DefaultMinSamples is a check's min_samples when not given: 20
+	// batches of 20 samples, the least the monitor's batch-means interval
+	// can be judged on (20 batches is the fewest its estimator keeps;
+	// batch means of 20 samples are nearly independent for an error
+	// whose correlation time is up to about ten periods). A phase with
+	// fewer judged samples is inconclusive, not passed.
+	DefaultMinSamples = 400
 )
 
 // DefaultRampStep is a scenario's ramp_step when not given.

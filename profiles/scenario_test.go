@@ -64,7 +64,7 @@ func TestScenarioGood(t *testing.T) {
 	}
 	ph := s.Phases
 	if ph[0].Name != "nominal" || ph[0].Index != 0 || ph[0].Line != 6 || ph[0].Duration != 3*time.Second || ph[0].Settle != 2*time.Second ||
-		ph[0].Check.Tolerance != nil || ph[0].Check.MaxSecondMoment != nil || ph[0].Check.MinSamples != 20 {
+		ph[0].Check.Tolerance != nil || ph[0].Check.MaxSecondMoment != nil || ph[0].Check.MinSamples != DefaultMinSamples {
 		t.Errorf("phase 0 %+v", ph[0])
 	}
 	wantRamps := []Ramp{

@@ -48,11 +48,19 @@ type Ramp struct {
 	Line     int
 }
 
-// Check is a phase's pass criterion. With Tolerance set the phase passes
+// Check is a phase's criterion, judged by the monitor on the phase's
+// samples after its settling time. With Tolerance set the phase passes
 // when the prediction lies in the measured interval widened by Tolerance
-// of its bounds (the monitor's verdict "agree"); with MaxSecondMoment set
-// it passes when the measured E[eᵀe] is at most that bound; with both,
-// both must hold. MinSamples (default 20) judged samples are needed.
+// of its bounds (the monitor's verdict "agree") and fails when it lies
+// outside; with MaxSecondMoment set it passes when the whole measured
+// interval of E[eᵀe] lies at or below the bound and fails when the whole
+// interval lies above it; with both, both must pass. Whenever the data
+// cannot tell — fewer than MinSamples judged samples (default
+// DefaultMinSamples, 400), batch means still correlated, an interval too
+// wide to confirm agreement or straddling the bound — the phase is
+// inconclusive rather than passed. A phase with neither criterion is not
+// judged (it passes). A bound met while the prediction lies outside the
+// measured interval passes with a warning.
 type Check struct {
 	Tolerance       *float64
 	MaxSecondMoment *float64
