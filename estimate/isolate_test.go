@@ -30,9 +30,12 @@ const (
 )
 
 // isolatedCase is one case of a suite: Run is called in the child.
+// Timeout and MaxRSSKB, when set, replace the suite's bounds for it.
 type isolatedCase struct {
-	Name string
-	Run  func() childResult
+	Name     string
+	Run      func() childResult
+	Timeout  time.Duration
+	MaxRSSKB int64
 }
 
 // childResult is what the child reports of one case. Numbers travel as
@@ -132,24 +135,41 @@ func TestIsolatedChild(t *testing.T) {
 }
 
 // runIsolated runs every case of suite in child processes and returns
-// one outcome per case. A case gets timeout; the child is killed when its
-// resident size passes maxRSSKB.
-func runIsolated(t *testing.T, suite string, n int, timeout time.Duration, maxRSSKB int64) []isolatedOutcome {
+// the cases and one outcome per case. A case gets timeout unless it sets
+// its own; the child is killed when its resident size passes maxRSSKB (or
+// the case's own bound).
+func runIsolated(t *testing.T, suite string, timeout time.Duration, maxRSSKB int64) ([]isolatedCase, []isolatedOutcome) {
 	t.Helper()
+	cases, err := isolatedSuites[suite]()
+	if err != nil {
+		t.Fatalf("isolated suite %s: %v", suite, err)
+	}
+	n := len(cases)
+	tmo := make([]time.Duration, n)
+	rss := make([]int64, n)
+	for i, c := range cases {
+		tmo[i], rss[i] = timeout, maxRSSKB
+		if c.Timeout > 0 {
+			tmo[i] = c.Timeout
+		}
+		if c.MaxRSSKB > 0 {
+			rss[i] = c.MaxRSSKB
+		}
+	}
 	out := make([]isolatedOutcome, n)
 	for from := 0; from < n; {
-		next, err := runChild(suite, from, n, timeout, maxRSSKB, out)
+		next, err := runChild(suite, from, n, tmo, rss, out)
 		if err != nil {
 			t.Fatalf("isolated suite %s: %v", suite, err)
 		}
 		from = next
 	}
-	return out
+	return cases, out
 }
 
 // runChild starts one child at case from and collects outcomes until the
 // child ends; it returns the index to start the next child at.
-func runChild(suite string, from, n int, timeout time.Duration, maxRSSKB int64, out []isolatedOutcome) (int, error) {
+func runChild(suite string, from, n int, timeout []time.Duration, maxRSSKB []int64, out []isolatedOutcome) (int, error) {
 	cmd := exec.Command(os.Args[0], "-test.run=^TestIsolatedChild$", "-test.count=1", "-test.v=false")
 	cmd.Env = append(os.Environ(), isolatedSuiteEnv+"="+suite, isolatedFromEnv+"="+strconv.Itoa(from))
 	stdout, err := cmd.StdoutPipe()
@@ -198,7 +218,7 @@ func runChild(suite string, from, n int, timeout time.Duration, maxRSSKB int64, 
 			switch f[0] {
 			case "isolated-start":
 				cur, _ = strconv.Atoi(f[1])
-				deadline = time.After(timeout)
+				deadline = time.After(timeout[cur])
 			case "isolated-result":
 				i, _ := strconv.Atoi(f[1])
 				var r childResult
@@ -213,7 +233,7 @@ func runChild(suite string, from, n int, timeout time.Duration, maxRSSKB int64, 
 			}
 		case <-deadline:
 			kill()
-			out[cur].Failure = fmt.Sprintf("no answer within %v (child killed)", timeout)
+			out[cur].Failure = fmt.Sprintf("no answer within %v (child killed)", timeout[cur])
 			return cur + 1, nil
 		case <-tick.C:
 			if cur < 0 {
@@ -223,9 +243,9 @@ func runChild(suite string, from, n int, timeout time.Duration, maxRSSKB int64, 
 			if rss > out[cur].PeakRSSKB {
 				out[cur].PeakRSSKB = rss
 			}
-			if maxRSSKB > 0 && rss > maxRSSKB {
+			if maxRSSKB[cur] > 0 && rss > maxRSSKB[cur] {
 				kill()
-				out[cur].Failure = fmt.Sprintf("resident size %d MB passed the bound of %d MB (child killed)", rss>>10, maxRSSKB>>10)
+				out[cur].Failure = fmt.Sprintf("resident size %d MB passed the bound of %d MB (child killed)", rss>>10, maxRSSKB[cur]>>10)
 				return cur + 1, nil
 			}
 		}

@@ -1,0 +1,156 @@
+"""Reference values for loops whose plant is a chain of lightly damped modes,
+from SciPy (Debian python3-scipy) and NumPy, independent of the Go code: the
+spectral radius of the second-moment operator and, for the stable loops, the
+steady E[e'e].
+
+The plant (an invented scenario of our own: a row of carriages on a
+conveyor track coupled by springs, the first one driven): K unit masses in a
+row, the first tied to a wall by a spring k and each to the next by a spring
+k, the last free; a force u on mass 1, its position measured (y = x_1 + v).
+Damping is Rayleigh's, D = alpha I + beta S (S the stiffness matrix), so that
+mode j, of frequency w_j, has the damping ratio alpha/(2 w_j) + beta w_j / 2
+(Lord Rayleigh, The Theory of Sound, 1877, sec. 97; the formula for the
+ratio is common practice in structural dynamics), between about 0.02 and 0.05
+here. The state is [positions; velocities] (n = 2K); the process noise is a
+force on each mass, W = diag(0, ..., 0, q, ..., q). A static controller
+u = d e, e = r - y with r = 0, closes the loop over the network.
+
+The network: period h = 10 ms, compute delay c = 0.5 ms; sensor loss 0.05,
+delay 1 ms; command loss 0.1, delay 2 ms (weight 0.7), 5 ms (0.2) or 9.5 ms
+(0.1, always late). Every delay is an atom, so the expectation over the
+delivered mode is a finite sum.
+
+The model, from its description: z = [x; u] (u the input held from the last
+period). Mode m0 (sample lost or stale) and m1 (command lost or late) are the
+same map for a static controller: x' = Phi x + Gam u + w, u' = u. Mode
+m2(tau): u_k = d (r - C x - v), x' = Phi x + Gam1(tau) u + Gam0(tau) u_k + w,
+u' = u_k, with Gam0(tau) = int_0^(h - tau) e^(As) ds B and Gam1 = Gam -
+Gam0. Phi, Gam and Gam0 come from scipy.linalg.expm of the block matrix
+[[A, B], [0, 0]] over h and h - tau; W_d = int_0^h e^(As) W e^(A's) ds by
+scipy.integrate.quad_vec. The second-moment operator on vec(Q) is
+K = sum over modes of P(mode) kron(F, F), rho = max |eig(K)| (numpy.linalg.eigvals);
+the steady second moment solves (I - K) vec(Q) = vec(sum P(mode) H Xi H'),
+and E[e'e] = C Q_xx C' + V (the mean is 0 with r = 0).
+
+Run from this directory (about a minute):
+    /usr/bin/python3 chains.py > chains.out
+Output: one line per loop, "name K k alpha beta d rho e2" (e2 = nan when
+rho >= 1), after '#' lines with the versions and the damping ranges.
+"""
+import sys
+
+import numpy as np
+import scipy
+from scipy import integrate, linalg
+
+H, C_DELAY = 0.01, 0.0005
+PS, PA = 0.05, 0.1
+SC_ATOMS = [(0.001, 1.0)]
+CA_ATOMS = [(0.002, 0.7), (0.005, 0.2), (0.0095, 0.1)]
+Q_FORCE, V_SENSOR = 1e-4, 1e-8
+
+# name, K, k, alpha, beta, d
+LOOPS = [
+    ("chain10_stable", 5, 400.0, 0.53, 0.0012, 50.0),
+    ("chain10_unstable", 5, 400.0, 0.53, 0.0012, 1000.0),
+    ("chain16_stable_near_1", 8, 185.0, 0.078, 0.0036, 10.0),
+    ("chain16_unstable", 8, 185.0, 0.078, 0.0036, 800.0),
+    ("chain24_stable", 12, 900.0, 0.36, 0.0012, 300.0),
+    ("chain24_unstable", 12, 900.0, 0.36, 0.0012, 2000.0),
+    ("chain40_stable", 20, 3600.0, 0.44, 0.0008, 200.0),
+    ("chain40_unstable", 20, 3600.0, 0.44, 0.0008, 6000.0),
+]
+
+
+def plant(K, k, alpha, beta):
+    S = np.zeros((K, K))
+    for i in range(K):
+        S[i, i] = 2 * k if i < K - 1 else k
+        if i > 0:
+            S[i, i - 1] = S[i - 1, i] = -k
+    n = 2 * K
+    A = np.zeros((n, n))
+    A[:K, K:] = np.eye(K)
+    A[K:, :K] = -S
+    A[K:, K:] = -(alpha * np.eye(K) + beta * S)
+    B = np.zeros((n, 1))
+    B[K, 0] = 1.0
+    C = np.zeros((1, n))
+    C[0, 0] = 1.0
+    W = np.zeros((n, n))
+    W[K:, K:] = Q_FORCE * np.eye(K)
+    w = np.sqrt(np.linalg.eigvalsh(S))
+    return A, B, C, W, w, alpha / (2 * w) + beta * w / 2
+
+
+def zoh(A, B, t):
+    n, m = B.shape
+    M = np.zeros((n + m, n + m))
+    M[:n, :n] = A
+    M[:n, n:] = B
+    E = linalg.expm(M * t)
+    return E[:n, :n], E[:n, n:]
+
+
+def solve(K, k, alpha, beta, d):
+    A, B, C, W, w, zeta = plant(K, k, alpha, beta)
+    n = A.shape[0]
+    nz = n + 1
+    Phi, Gam = zoh(A, B, H)
+    Wd, _ = integrate.quad_vec(lambda s: linalg.expm(A * s) @ W @ linalg.expm(A.T * s), 0, H,
+                               epsabs=1e-20, epsrel=1e-13)
+    Wd = (Wd + Wd.T) / 2
+    Xi = np.zeros((n + 1, n + 1))
+    Xi[:n, :n] = Wd
+    Xi[n, n] = V_SENSOR
+    D = np.array([[d]])
+    modes = []  # (probability, F, H)
+    F01 = np.zeros((nz, nz))
+    F01[:n, :n] = Phi
+    F01[:n, n:] = Gam
+    F01[n:, n:] = np.eye(1)
+    H01 = np.zeros((nz, n + 1))
+    H01[:n, :n] = np.eye(n)
+    m2 = 0.0
+    for s, ws in SC_ATOMS:
+        for a, wa in CA_ATOMS:
+            if s < H and s + a < H - C_DELAY:
+                tau = s + a + C_DELAY
+                _, G0 = zoh(A, B, H - tau)
+                G1 = Gam - G0
+                F = np.zeros((nz, nz))
+                F[:n, :n] = Phi - G0 @ D @ C
+                F[:n, n:] = G1
+                F[n:, :n] = -D @ C
+                Hm = np.zeros((nz, n + 1))
+                Hm[:n, :n] = np.eye(n)
+                Hm[:n, n:] = -G0 @ D
+                Hm[n:, n:] = -D
+                p = (1 - PS) * (1 - PA) * ws * wa
+                m2 += p
+                modes.append((p, F, Hm))
+    modes.append((1 - m2, F01, H01))
+    Kop = sum(p * np.kron(F, F) for p, F, _ in modes)
+    rho = max(abs(np.linalg.eigvals(Kop)))
+    e2 = float("nan")
+    if rho < 1:
+        Cc = sum(p * Hm @ Xi @ Hm.T for p, _, Hm in modes)
+        x = np.linalg.solve(np.eye(nz * nz) - Kop, Cc.reshape(-1, order="F"))
+        Q = x.reshape(nz, nz, order="F")
+        e2 = float(C @ Q[:n, :n] @ C.T + V_SENSOR)
+    return rho, e2, w, zeta
+
+
+def main():
+    print("# Chains of lightly damped modes over a lossy, delaying network (tests/reference/chains.py).")
+    print("# scipy %s, numpy %s, python %s" % (scipy.__version__, np.__version__, sys.version.split()[0]))
+    print("# name K k alpha beta d rho e2")
+    for name, K, k, alpha, beta, d in LOOPS:
+        rho, e2, w, zeta = solve(K, k, alpha, beta, d)
+        print("# %s: %d states, modes %.3g..%.3g rad/s, damping ratios %.3f..%.3f"
+              % (name, 2 * K, w[0], w[-1], zeta.min(), zeta.max()))
+        print("%s %d %r %r %r %r %.17g %.17g" % (name, K, k, alpha, beta, d, rho, e2))
+
+
+if __name__ == "__main__":
+    main()
