@@ -16,9 +16,12 @@ import (
 )
 
 // Verdicts at the edges of the second-moment operator: loops whose plant
-// is a chain of lightly damped modes (10, 16, 24 and 40 states, one of them
-// stable with ρ ≈ 0.999), a marginal loop, huge but valid entries, and
-// loops too large to predict. The predictions run in a child process
+// is a chain of lightly damped modes (10, 16, 24 and 40 states, stable and
+// unstable; two 16-state ones stable at ρ ≈ 0.999, and two whose modes
+// cluster so that most of the operator's eigenvalues sit near 1 together
+// and its determinant underflows — a determinant test then calls a stable
+// loop unstable), marginal loops, huge but valid entries, and loops too
+// large to predict. The predictions run in a child process
 // (isolate_test.go), so that a hang or a runaway allocation is caught,
 // measured and reported instead of stopping the test binary.
 
@@ -52,12 +55,14 @@ const (
 )
 
 // chainLoop is a row of K unit masses joined by springs k (the first tied
-// to a wall, the last free), Rayleigh damping αI + βS, a force on mass 1
-// and its position measured: the plant of tests/reference/chains.py, built
-// the same way so that the matrices agree to the last bit. The controller
-// is u = d e; the network loses and delays (atoms only, so the Monte Carlo
-// reuses its input splits).
-func chainLoop(K int, k, alpha, beta, d float64) string {
+// to a wall, the last free), each on a mount of stiffness k0, Rayleigh
+// damping αI + βS, a force on mass 1 and its position measured: the plant
+// of tests/reference/chains.py, built the same way so that the matrices
+// agree to the last bit. The controller is u = d e; the network loses and
+// delays (atoms only, so the Monte Carlo reuses its input splits), its
+// command direction i.i.d. or a two-state bursty channel.
+func chainLoop(c chainRef) string {
+	K, k, k0, alpha, beta, d := c.K, c.k, c.k0, c.alpha, c.beta, c.d
 	n := 2 * K
 	S := make([][]float64, K)
 	for i := range S {
@@ -66,6 +71,7 @@ func chainLoop(K int, k, alpha, beta, d float64) string {
 		if i == K-1 {
 			S[i][i] = k
 		}
+		S[i][i] += k0
 		if i > 0 {
 			S[i][i-1], S[i-1][i] = -k, -k
 		}
@@ -95,6 +101,13 @@ func chainLoop(K int, k, alpha, beta, d float64) string {
 	B[K][0] = 1
 	C := [][]float64{make([]float64, n)}
 	C[0][0] = 1
+	delays := `{kind: mixture, parts: [{weight: 0.7, kind: constant, value: 0.002},
+      {weight: 0.2, kind: constant, value: 0.005}, {weight: 0.1, kind: constant, value: 0.0095}]}`
+	command := "\n    loss: 0.1\n    delay: " + delays
+	if c.channel == "bursty" {
+		command = "\n    states:\n      - {name: good, mean_dwell: 2s, loss: 0.02, delay: " + delays + "}" +
+			"\n      - {name: bad, mean_dwell: 0.2s, loss: 0.5, delay: 6ms}"
+	}
 	return fmt.Sprintf(`# A row of %d carriages coupled by springs on a conveyor track (invented, for tests).
 period: 10ms
 plant:
@@ -108,11 +121,8 @@ compute_delay: 0.0005
 profile:
   name: carriage-track
   sensor_to_controller: {loss: 0.05, delay: 0.001}
-  controller_to_actuator:
-    loss: 0.1
-    delay: {kind: mixture, parts: [{weight: 0.7, kind: constant, value: 0.002},
-      {weight: 0.2, kind: constant, value: 0.005}, {weight: 0.1, kind: constant, value: 0.0095}]}
-`, K, yamlMatrix(A), yamlMatrix(B), yamlMatrix(C), yamlMatrix(W), fmtFloat(d))
+  controller_to_actuator:%s
+`, K, yamlMatrix(A), yamlMatrix(B), yamlMatrix(C), yamlMatrix(W), fmtFloat(d), command)
 }
 
 func yamlMatrix(m [][]float64) string {
@@ -137,10 +147,11 @@ func yamlMatrix(m [][]float64) string {
 
 // chainRef is one line of chains.out.
 type chainRef struct {
-	name                string
-	K                   int
-	k, alpha, beta, d   float64
-	rho, secondMomentE2 float64
+	name                  string
+	K                     int
+	k, k0, alpha, beta, d float64
+	channel               string
+	rho, secondMomentE2   float64
 }
 
 func readChains() ([]chainRef, error) {
@@ -159,23 +170,24 @@ func readChains() ([]chainRef, error) {
 		if len(fs) == 0 || strings.HasPrefix(fs[0], "#") {
 			continue
 		}
-		if len(fs) != 8 {
-			return nil, fmt.Errorf("%s:%d: want 8 fields, got %d", path, line, len(fs))
+		// name K k k0 alpha beta d channel rho e2
+		if len(fs) != 10 {
+			return nil, fmt.Errorf("%s:%d: want 10 fields, got %d", path, line, len(fs))
 		}
 		var c chainRef
-		var nums [6]float64
-		c.name = fs[0]
+		c.name, c.channel = fs[0], fs[7]
 		K, err := strconv.Atoi(fs[1])
 		if err != nil {
 			return nil, fmt.Errorf("%s:%d: K: %v", path, line, err)
 		}
 		c.K = K
-		for i := range nums {
-			if nums[i], err = strconv.ParseFloat(fs[2+i], 64); err != nil {
-				return nil, fmt.Errorf("%s:%d: field %d: %v", path, line, 3+i, err)
+		var nums [7]float64
+		for i, f := range append(fs[2:7:7], fs[8:]...) {
+			if nums[i], err = strconv.ParseFloat(f, 64); err != nil {
+				return nil, fmt.Errorf("%s:%d: %q: %v", path, line, f, err)
 			}
 		}
-		c.k, c.alpha, c.beta, c.d, c.rho, c.secondMomentE2 = nums[0], nums[1], nums[2], nums[3], nums[4], nums[5]
+		c.k, c.k0, c.alpha, c.beta, c.d, c.rho, c.secondMomentE2 = nums[0], nums[1], nums[2], nums[3], nums[4], nums[5], nums[6]
 		out = append(out, c)
 	}
 	return out, sc.Err()
@@ -224,7 +236,7 @@ func init() {
 		}
 		var out []isolatedCase
 		for _, c := range refs {
-			y := chainLoop(c.K, c.k, c.alpha, c.beta, c.d)
+			y := chainLoop(c)
 			out = append(out, isolatedCase{Name: c.name, Run: func() childResult { return predictCase(y) }})
 		}
 		return out, nil
@@ -269,7 +281,7 @@ func TestChainVerdictsAgreeWithMonteCarlo(t *testing.T) {
 			if (r.Num("stable") == 1) != stableRef {
 				t.Errorf("MeanSquareStable %v, want %v", r.Num("stable") == 1, stableRef)
 			}
-			loop, err := profiles.ParseLoop([]byte(chainLoop(c.K, c.k, c.alpha, c.beta, c.d)), c.name+".yaml", "")
+			loop, err := profiles.ParseLoop([]byte(chainLoop(c)), c.name+".yaml", "")
 			if err != nil {
 				t.Fatal(err)
 			}
