@@ -365,6 +365,16 @@ plant: {a: [[0, 1], [-39.47841760435743, 0]], b: [[0], [1]], c: [[1, 0]], proces
 controller: {d: [[0]]}
 profile: {}
 `},
+	{"undamped_1rad_s_zero_controller_clean", `period: 10ms
+plant: {a: [[0, 1], [-1, 0]], b: [[0], [1]], c: [[1, 0]], process_noise: [[0, 0], [0, 1e-4]]}
+controller: {d: [[0]]}
+profile: {}
+`},
+	{"undamped_1rad_s_zero_controller_sensor_loss", `period: 10ms
+plant: {a: [[0, 1], [-1, 0]], b: [[0], [1]], c: [[1, 0]], process_noise: [[1e-3, 0], [0, 1e-3]]}
+controller: {d: [[0]]}
+profile: {sensor_to_controller: {loss: 0.1, delay: 1ms}}
+`},
 	{"integrator_zero_controller", `period: 20ms
 plant: {a: [[0]], b: [[1]], c: [[1]], process_noise: [[1e-3]]}
 controller: {d: [[0]]}
