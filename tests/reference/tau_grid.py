@@ -52,15 +52,21 @@ of components:
                          (and of s f_S(s) F_T(...), f_S(s) (1 - F_T(...)) for
                          the late mass), and t f_T(t) F_S(h - c - t) over t for
                          E[T; ...].
-scipy.integrate.quad (QUADPACK) runs with epsabs 0 and epsrel 1e-12 on pieces
-split at each component's support ends and at its quantiles 1e-12, 1e-9,
-1e-6, 1e-4, 0.01, 0.1, 0.25, 0.5, 0.75, 0.9, 0.99 and the symmetric upper
-ones, and at (h - c) minus those of the other law, so that a peak of any
-width anywhere in [0, h) is split out and resolved. A gamma or Weibull
-component of shape k < 1 has a density singular at its start like
+scipy.integrate.quad (QUADPACK) runs with epsrel 1e-12 and epsabs 1e-20 (far
+below any value compared) on pieces split at each component's support ends
+and at its quantiles 1e-30, 1e-24, 1e-18, 1e-15, 1e-12, 1e-9, 1e-6, 1e-4,
+0.01, 0.1, 0.25, 0.5 and the symmetric upper ones, and at (h - c) minus those
+of the other law, so that a peak of any width anywhere in [0, h) is split out
+and resolved and no tail mass above 1e-30 hides in a long piece (points
+closer than 1e-13 relative to a neighbour are merged into it). A gamma or
+Weibull component of shape k < 1 has a density singular at its start like
 (s - shift)^(k - 1); it is integrated in y = (s - shift)^k, where
 f(s) ds = reg(s) dy / k with reg the density's regular part (written out for
-each), so that quad sees a smooth integrand.
+each), so that quad sees a smooth integrand. Read backwards, the same law's
+CDF F(h - c - s) has a derivative singular at s = h - c - shift; pieces that
+end there are integrated in u = (h - c - shift - s)^k, with the CDF of the
+unshifted law evaluated at the distance itself (no cancellation). Any
+QUADPACK warning stops the script.
 
 Self-checks, asserted before anything is printed: M computed both ways
 (over s and over t) agrees to 1e-11 relative; M + L = P(S < h) and
@@ -71,7 +77,7 @@ Output: a header of '#' lines, then one JSON object per case with its name,
 family, the period h, compute delay c, losses ps and pa, the two laws as
 the profile format's delay mappings (times in seconds) and the values.
 
-Run from this directory (about a minute):
+Run from this directory (about a minute and a half):
     /usr/bin/python3 tau_grid.py > tau_grid.out
 """
 import json
