@@ -83,18 +83,39 @@ import (
 // network, is not taken for correlation; with AddError the reference is 0
 // and D_j = B_j.
 //
-// When Z over the whole run's batches exceeds BatchCorrelationZMax (the
-// one-sided 1 % point), Run merges them in pairs once, if at least
-// MinMergedBatches remain, and reports the interval, the effective sample
-// size and the test of the merged batches (Merged): the step of Fishman's
-// procedure that doubles the batch size when the test rejects, done once
-// and at query time so that memory stays fixed. Whether the batches are
-// then long enough is for the caller to decide from Z.
+// The test sees only correlation between neighbouring batches, and with
+// 10 to 39 of them it sees it only when strong. The second check is on
+// the correlation time itself: the effective sample size
 //
-// The effective sample size is n_eff = s_x² · k / S_B² = n·s_x²/(b·S_B²)
-// (s_x² the sample variance of the x_k, by Welford's update), the number
+//	n_eff = s_x² · k / S_B² = n·s_x²/(b·S_B²)
+//
+// (s_x² the sample variance of the x_k, by Welford's update) is the number
 // of independent samples that would give the same variance of x̄ (Law &
-// Kelton §9.5.3 ratio of variances, common practice).
+// Kelton §9.5.3 ratio of variances, common practice), so b·n_eff/n =
+// n_eff/k estimates how many correlation times one batch spans. Batches
+// are long enough when they span at least MinEffectivePerBatch (3) of
+// them: for an x whose autocorrelation decays as r^h with r near 1, the
+// lag-1 correlation of means of b samples is about τ/(4b), τ = (1+r)/(1−r),
+// so 0.08 at b = 3τ (from the autocovariance of AR(1) batch sums, common
+// practice; batches many times the integrated autocorrelation time are the
+// usual requirement, e.g. A. D. Sokal, "Monte Carlo methods in statistical
+// mechanics", Cargèse lectures 1996, §3, from memory). When the batches
+// are far shorter than the correlation time, n_eff itself comes out near
+// k (each batch looks like one sample), so the check fails as it should.
+//
+// ShortBatches reports either failure. When the whole run's batches are
+// short, Run merges them in pairs once, if at least MinMergedBatches
+// remain, and reports the interval, n_eff and the test of the merged
+// batches (Merged): the step of Fishman's procedure that doubles the batch
+// size when the test rejects, done once and at query time so that memory
+// stays fixed. Whether the batches are then long enough is for the caller
+// to decide (ShortBatches again).
+//
+// Whatever the correlation, the mean of a stationary sequence varies no
+// more than one of its values: Var x̄ ≤ Var x_k (Cauchy–Schwarz on the
+// covariances, common practice). XStd, the standard deviation of the x_k,
+// is reported so that a caller whose batches are short can still judge
+// against that worst case.
 //
 // # Windows
 //
@@ -155,10 +176,17 @@ type OnlineStats struct {
 	// SecondMoment when every batch mean is equal); NaN with fewer than
 	// two complete batches. CIHigh may be +Inf for a very wide interval.
 	CILow, CIHigh float64
+	// T is the Student t quantile behind the interval (t_{k−1} at the
+	// level); NaN without an interval.
+	T float64
 	// EffectiveSamples is n·s_x²/(b·S_B²); NaN with fewer than two
 	// complete batches or when every sample is equal, +Inf when only the
 	// batch means are.
 	EffectiveSamples float64
+	// XStd is the sample standard deviation of the x_k = e_kᵀe_k (over
+	// the run, or over a window's complete batches); NaN with fewer than
+	// two samples.
+	XStd float64
 	// Batches and BatchSize are the complete batches behind the interval
 	// and their length in samples.
 	Batches   int
@@ -167,15 +195,29 @@ type OnlineStats struct {
 	// complete batch means (less their mean reference), and
 	// BatchCorrelationZ = C/√((k−2)/(k²−1)), about standard normal when
 	// the batch means are independent; both NaN with fewer than three
-	// complete batches or when the batch means are all equal.
+	// complete batches or when the batch means are equal to within
+	// rounding.
 	BatchCorrelation, BatchCorrelationZ float64
-	// Merged is set when the whole-run batches were correlated
-	// (BatchCorrelationZ above BatchCorrelationZMax) and at least
-	// 2·MinMergedBatches of them were merged in pairs: Batches, BatchSize,
-	// the interval and the correlation are then those of the merged
-	// batches.
+	// Merged is set when the whole-run batches were short
+	// (ShortBatches) and at least 2·MinMergedBatches of them were merged
+	// in pairs: Batches, BatchSize, the interval, n_eff and the
+	// correlation are then those of the merged batches.
 	Merged bool
 }
+
+// ShortBatches reports whether the batches behind st's interval are
+// short against the correlation time: their means correlated
+// (BatchCorrelationZ above BatchCorrelationZMax) or spanning fewer than
+// MinEffectivePerBatch correlation times (EffectiveSamples below
+// MinEffectivePerBatch·Batches). NaN values (too few batches, equal
+// values) fail neither check.
+func (st OnlineStats) ShortBatches() bool {
+	return st.BatchCorrelationZ > BatchCorrelationZMax || st.EffectiveSamples < MinEffectivePerBatch*float64(st.Batches)
+}
+
+// MinEffectivePerBatch is the least number of correlation times a batch
+// must span: n_eff/k ≥ 3 (see Online).
+const MinEffectivePerBatch = 3.0
 
 // BatchCorrelationZMax is the one-sided 1 % point of the standard normal
 // law, Φ⁻¹(0.99): a batch-correlation z-score above it rejects
@@ -206,6 +248,11 @@ type window struct {
 	curRef float64
 	curN   int64
 }
+
+// equalWithinRounding is the relative spread under which batch means are
+// taken as equal (sums of up to 2³¹ terms in float64 round to about
+// 1e-16·√n relative; common practice).
+const equalWithinRounding = 1e-12
 
 // windowBatches is K, the number of batches a window is cut into.
 const windowBatches = 30
@@ -368,9 +415,11 @@ func LogInterval(mean, se, t float64) (lo, hi float64) {
 }
 
 // serialCorrelation is von Neumann's lag-1 serial correlation C of d (in
-// order) and its z-score C/√((k−2)/(k²−1)); NaN for k < 3 or equal
-// values.
-func serialCorrelation(d []float64) (c, z float64) {
+// order) and its z-score C/√((k−2)/(k²−1)); NaN for k < 3 or values
+// equal to within rounding: their spread at most equalWithinRounding of
+// scale, the size of the values d was computed from (its pattern is then
+// that of the rounding, not of the loop).
+func serialCorrelation(d []float64, scale float64) (c, z float64) {
 	k := len(d)
 	if k < 3 {
 		return math.NaN(), math.NaN()
@@ -387,7 +436,7 @@ func serialCorrelation(d []float64) (c, z float64) {
 			sd += (v - d[j-1]) * (v - d[j-1])
 		}
 	}
-	if !(ss > 0) {
+	if !(ss > 0) || math.Sqrt(ss/float64(k)) <= equalWithinRounding*math.Abs(scale) {
 		return math.NaN(), math.NaN()
 	}
 	c = 1 - sd/(2*ss)
@@ -400,7 +449,7 @@ func serialCorrelation(d []float64) (c, z float64) {
 func (o *Online) Run(mean []float64) OnlineStats {
 	st := OnlineStats{Samples: o.n, Mean: o.meanSlice(mean), BatchSize: o.batchSize, Batches: len(o.batches)}
 	nan := math.NaN()
-	st.CILow, st.CIHigh, st.EffectiveSamples = nan, nan, nan
+	st.CILow, st.CIHigh, st.EffectiveSamples, st.XStd, st.T = nan, nan, nan, nan, nan
 	st.BatchCorrelation, st.BatchCorrelationZ = nan, nan
 	if o.n == 0 {
 		st.SecondMoment, st.Std = nan, nan
@@ -417,13 +466,16 @@ func (o *Online) Run(mean []float64) OnlineStats {
 	}
 	st.SecondMoment = o.sumX / n
 	st.Std = math.Sqrt(math.Max(0, st.SecondMoment-ee))
+	varX := o.wM2 / (n - 1)
+	if o.n > 1 {
+		st.XStd = math.Sqrt(varX)
+	}
 	k := len(o.batches)
 	if k < 2 {
 		return st
 	}
-	varX := o.wM2 / (n - 1)
 	o.batchStats(&st, o.batches, o.refs, float64(o.batchSize), varX)
-	if st.BatchCorrelationZ > BatchCorrelationZMax && k/2 >= MinMergedBatches {
+	if st.ShortBatches() && k/2 >= MinMergedBatches {
 		// Batches short against the correlation time: pairs of them, twice
 		// as long, once (an odd newest batch stays out of the width but in
 		// x̄).
@@ -454,13 +506,21 @@ func (o *Online) batchStats(st *OnlineStats, sums, refs []float64, b, varX float
 		ss += d * d
 	}
 	sb2 := ss / float64(k-1)
-	st.CILow, st.CIHigh = LogInterval(st.SecondMoment, math.Sqrt(sb2/float64(k)), o.quantile(k-1))
+	// Spreads within rounding of the values are no spread.
+	if math.Sqrt(sb2) <= equalWithinRounding*math.Abs(mb) {
+		sb2 = 0
+	}
+	if math.Sqrt(varX) <= equalWithinRounding*math.Abs(mb) {
+		varX = 0
+	}
+	st.T = o.quantile(k - 1)
+	st.CILow, st.CIHigh = LogInterval(st.SecondMoment, math.Sqrt(sb2/float64(k)), st.T)
 	st.EffectiveSamples = effective(varX, sb2, float64(k))
 	o.diffs = o.diffs[:0]
 	for j, s := range sums {
 		o.diffs = append(o.diffs, (s-refs[j])/b)
 	}
-	st.BatchCorrelation, st.BatchCorrelationZ = serialCorrelation(o.diffs)
+	st.BatchCorrelation, st.BatchCorrelationZ = serialCorrelation(o.diffs, mb)
 }
 
 // effective is n_eff = s_x²·k/S_B² (Law & Kelton §9.5.3, common practice).
@@ -488,7 +548,7 @@ func (o *Online) Window(i int, mean []float64) OnlineStats {
 	p := len(o.r)
 	st := OnlineStats{Mean: o.meanSlice(mean), BatchSize: w.b, Batches: w.filled}
 	nan := math.NaN()
-	st.CILow, st.CIHigh, st.EffectiveSamples = nan, nan, nan
+	st.CILow, st.CIHigh, st.EffectiveSamples, st.XStd, st.T = nan, nan, nan, nan, nan
 	st.BatchCorrelation, st.BatchCorrelationZ = nan, nan
 	// The most recent complete batches that, with the partial one, fit
 	// in the window.
@@ -541,6 +601,7 @@ func (o *Online) Window(i int, mean []float64) OnlineStats {
 	// Sample variance of x over the complete batches, from its sums.
 	nb := float64(k) * b
 	varX := math.Max(0, (cxx-cx*cx/nb)/(nb-1))
+	st.XStd = math.Sqrt(varX)
 	o.batchStats(&st, o.msum, o.mref, b, varX)
 	return st
 }

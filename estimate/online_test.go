@@ -49,11 +49,13 @@ func direct(es [][]float64) (mean []float64, second, std float64) {
 
 // batchCI is the log-scale batch-means interval of Online's doc
 // comment, computed directly from the samples: k batches of b samples
-// from the start (merged in pairs once when their von Neumann z-score
-// exceeds Φ⁻¹(0.99) and k/2 ≥ 10, as Run does when whole is set), centred
-// on the mean of all samples given; it returns the bounds, the batches
-// used and the lag-1 serial correlation of their means.
-func batchCI(es [][]float64, k, b int, centre, level float64, whole bool) (lo, hi float64, kk, bb int, c float64) {
+// from the start (when whole, merged in pairs once when they are short —
+// von Neumann z-score above Φ⁻¹(0.99) or fewer than 3 effective samples
+// per batch, with varX the run's sample variance of x — and k/2 ≥ 10, as
+// Run does), centred on the mean of all samples given; it returns the
+// bounds, the batches used and the lag-1 serial correlation of their
+// means.
+func batchCI(es [][]float64, k, b int, centre, level float64, whole bool, varX float64) (lo, hi float64, kk, bb int, c float64) {
 	means := func(k, b int) []float64 {
 		m := make([]float64, k)
 		for j := 0; j < k; j++ {
@@ -66,25 +68,46 @@ func batchCI(es [][]float64, k, b int, centre, level float64, whole bool) (lo, h
 		}
 		return m
 	}
+	spread := func(bm []float64) float64 {
+		m := 0.0
+		for _, v := range bm {
+			m += v
+		}
+		m /= float64(len(bm))
+		ss := 0.0
+		for _, v := range bm {
+			ss += (v - m) * (v - m)
+		}
+		return ss / float64(len(bm)-1)
+	}
 	bm := means(k, b)
 	c, z := vonNeumann(bm)
-	if whole && z > 2.3263478740408408 && k/2 >= 10 {
+	if whole && (z > 2.3263478740408408 || varX*float64(k)/spread(bm) < 3*float64(k)) && k/2 >= 10 {
 		k, b = k/2, 2*b
 		bm = means(k, b)
 		c, _ = vonNeumann(bm)
 	}
-	m := 0.0
-	for _, v := range bm {
-		m += v
-	}
-	m /= float64(k)
-	ss := 0.0
-	for _, v := range bm {
-		ss += (v - m) * (v - m)
-	}
 	t := distuv.StudentsT{Mu: 0, Sigma: 1, Nu: float64(k - 1)}.Quantile(1 - (1-level)/2)
-	w := t * math.Sqrt(ss/float64(k-1)/float64(k)) / centre
+	w := t * math.Sqrt(spread(bm)/float64(k)) / centre
 	return centre / math.Exp(w), centre * math.Exp(w), k, b, c
+}
+
+// sampleVariance is the sample variance of x = eᵀe over es.
+func sampleVariance(es [][]float64) float64 {
+	xs := make([]float64, len(es))
+	m := 0.0
+	for i, e := range es {
+		for _, v := range e {
+			xs[i] += v * v
+		}
+		m += xs[i]
+	}
+	m /= float64(len(xs))
+	ss := 0.0
+	for _, x := range xs {
+		ss += (x - m) * (x - m)
+	}
+	return ss / float64(len(xs)-1)
 }
 
 // vonNeumann is von Neumann's ratio of the mean square successive
@@ -171,7 +194,7 @@ func TestOnlineAgainstDirectComputation(t *testing.T) {
 				if st.Merged != c.merged {
 					t.Errorf("merged %v, want %v (batch correlation z %.3g)", st.Merged, c.merged, st.BatchCorrelationZ)
 				}
-				lo, hi, kk, bb, corr := batchCI(es, k, b, second, 0.95, true)
+				lo, hi, kk, bb, corr := batchCI(es, k, b, second, 0.95, true, sampleVariance(es))
 				if !near(st.CILow, lo, 1e-9) || !near(st.CIHigh, hi, 1e-9) || kk != st.Batches || int64(bb) != st.BatchSize {
 					t.Errorf("run CI [%v, %v] from %d×%d, direct [%v, %v] from %d×%d",
 						st.CILow, st.CIHigh, st.Batches, st.BatchSize, lo, hi, kk, bb)
@@ -196,7 +219,7 @@ func TestOnlineAgainstDirectComputation(t *testing.T) {
 				}
 				if ws.Batches >= 2 {
 					full := es[c.n-int(ws.Samples) : c.n-int(ws.Samples)+ws.Batches*int(ws.BatchSize)] // oldest first
-					lo, hi, _, _, corr := batchCI(full, ws.Batches, int(ws.BatchSize), ws.SecondMoment, 0.95, false)
+					lo, hi, _, _, corr := batchCI(full, ws.Batches, int(ws.BatchSize), ws.SecondMoment, 0.95, false, 0)
 					if !near(ws.CILow, lo, 1e-9) || !near(ws.CIHigh, hi, 1e-9) {
 						t.Errorf("window %d CI [%v, %v], direct [%v, %v]", w, ws.CILow, ws.CIHigh, lo, hi)
 					}
@@ -494,7 +517,7 @@ func TestOnlineBatchCorrelationNullLaw(t *testing.T) {
 			for j := range d {
 				d[j] = 3 + 0.1*rng.NormFloat64()
 			}
-			c, z := serialCorrelation(d)
+			c, z := serialCorrelation(d, 3)
 			sum += c
 			sum2 += c * c
 			if z > BatchCorrelationZMax {
@@ -519,7 +542,7 @@ func TestOnlineBatchCorrelationNullLaw(t *testing.T) {
 	reject := 0
 	for range 1000 {
 		stationaryAR1(rng, d, 0.7, 1)
-		if _, z := serialCorrelation(d); z > BatchCorrelationZMax {
+		if _, z := serialCorrelation(d, 1); z > BatchCorrelationZMax {
 			reject++
 		}
 	}
