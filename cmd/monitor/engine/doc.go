@@ -11,6 +11,7 @@
 //		Windows:     []time.Duration{time.Minute, 10 * time.Minute}, // default
 //		Warmup:      0,     // samples in the first Warmup (by count: Warmup/period) are skipped
 //		Tolerance:   0.1,   // relative widening of the CI for the verdict
+//		MinSamples:  0,     // samples the run's verdict needs (0: DefaultMinSamples, 400)
 //		MaxDatagram: 4096,  // longer datagrams count as oversized
 //	})
 //	m.RegisterMetrics(reg)              // rigwire_monitor_* on a prometheus.Registerer
@@ -18,16 +19,18 @@
 //	                                    // safe from any goroutine, payload not retained
 //	err = m.Serve(ctx, conn)            // or: read datagrams from a net.PacketConn until ctx ends
 //	p := m.Progress()                   // Progress{Elapsed, Samples, Measured, CILow, CIHigh, Predicted}; p.String() for a status line
-//	s := m.Summary()                    // Summary: the JSON summary of `monitor run` (json tags), with Verdict
+//	s := m.Summary()                    // Summary: the JSON summary of `monitor run` (json tags), with Verdict,
+//	                                    // VerdictReason and VerdictRule
 //	code := s.ExitCode(strict)          // 0 unless strict: see ExitCode
 //
 // Soaks, the safety trip and the history:
 //
+//	m.PlanPhases(names)                 // the scenario's phases, so that those never started are listed as not run
 //	m.StartPhase(i, name, pred, settle, check) // closes the running phase, starts phase i (fresh estimate;
 //	                                           // samples arriving before now+settle are not judged)
 //	m.UpdatePrediction(pred)            // a ramp's step: later samples compare with pred
-//	m.EndPhases()                       // closes the running phase at the end of the soak
-//	ps := m.Phases()                    // []PhaseResult, judged (the running one: verdict "running")
+//	m.EndPhases(interrupted)            // closes the running phase at the end of the soak (cut short when interrupted)
+//	ps := m.Phases()                    // []PhaseResult, judged: pass, fail, inconclusive, not_run; the running one "running"
 //	err = m.SetTrip(loop.Trip, fire)    // fire(TripEvent) once, from Feed, outside the monitor's lock
 //	ev := m.Tripped()                   // *TripEvent, nil until it fires
 //	h := m.History()                    // []Point, at most 4096, every Options.HistoryEvery (doubling)
@@ -40,13 +43,28 @@
 // force (StartPhase, UpdatePrediction) is what the phases, the trip's
 // ratio and the history use.
 //
+// # Verdicts
+//
+// The run's verdict and each phase's tolerance check follow one rule
+// (judgeInterval; VerdictRule states it in the summary): agree, above,
+// below, inconclusive (too few samples or batches, batches short for the
+// loop's correlation time, or an interval too wide to have disagreed) or
+// unstable (the prediction is not certified stable). The interval is the
+// online estimator's log-scale batch-means interval (estimate.Online;
+// CIMethod). A phase passes, fails, is inconclusive, or is not run; its
+// bound check (max_second_moment) uses the same interval; see judgePhase.
+// After the safety trip fires no sample is estimated (the run's, the
+// windows' or the phases'): they are counted in after_trip_samples, and
+// the phase the trip cut is judged on the samples before it.
+//
 // # Exit codes
 //
-// ExitCode(strict): 0 without strict; with strict 0 agree, 3 above,
-// 4 below, 5 no samples, 6 unstable prediction. SoakExitCode: 8 when the
-// safety trip fired, else 7 when a phase failed its check, else 0.
-// TripExitCode: 8 when the trip fired, else 0. 1 and 2 stay the
-// commands' error and usage codes.
+// From cmd/internal/exitcode. ExitCode(strict): 0 without strict; with
+// strict 0 agree, 3 above, 4 below, 5 inconclusive, 6 a prediction not
+// certified stable (unstable or marginal). SoakExitCode: 8 when the
+// safety trip fired, else 7 when a phase failed its check, else 5 when a
+// phase was inconclusive or not run, else 0. TripExitCode: 8 when the
+// trip fired, else 0. 1 and 2 stay the commands' error and usage codes.
 //
 // pred may be nil: New then computes estimate.Predict itself.
 //
@@ -56,7 +74,7 @@
 // "run" (the whole run) or a window's length in seconds ("60", "600").
 //
 //	rigwire_monitor_error_second_moment{window}          measured E[eᵀe]
-//	rigwire_monitor_error_second_moment_ci_low{window}   95 % batch-means interval
+//	rigwire_monitor_error_second_moment_ci_low{window}   95 % batch-means interval (log scale)
 //	rigwire_monitor_error_second_moment_ci_high{window}
 //	rigwire_monitor_error_mean{window,output}            measured E[e] per output
 //	rigwire_monitor_error_std{window}                    √(E[eᵀe] − |E[e]|²)
@@ -77,15 +95,17 @@
 //	rigwire_monitor_stale_samples_total                  older than the reorder window, not used
 //	rigwire_monitor_sequence_restarts_total
 //	rigwire_monitor_warmup_skipped_samples_total
+//	rigwire_monitor_after_trip_samples_total             decoded after the trip, estimated nowhere
 //	rigwire_monitor_decode_failures_total{reason}        too_short, not_a_number, not_finite,
 //	                                                     bad_sequence, oversized
 //	rigwire_monitor_phase{index,phase}                   1 for the running soak phase, 0 for the others
 //	rigwire_monitor_phase_error_second_moment{phase}     measured over the phase's judged samples
 //	rigwire_monitor_phase_predicted_error_second_moment{phase}  mean prediction in force (NaN unstable)
-//	rigwire_monitor_phase_passed{phase}                  1 pass, 0 fail; absent while running
+//	rigwire_monitor_phase_passed{phase}                  1 pass, 0 fail; absent while running, inconclusive, not run
+//	rigwire_monitor_phase_inconclusive{phase}            1 inconclusive or not run, 0 pass or fail; absent while running
 //	rigwire_monitor_trip_active                          0, or 1 once the safety trip fired (latched)
 //	rigwire_monitor_trips_total{reason}                  abs_error, second_moment, ratio (0 or 1)
 //
 // Every datagram read is exactly one of: a sample, a warm-up skip, a
-// duplicate or stale sample, a decode failure.
+// sample after the trip, a duplicate or stale sample, a decode failure.
 package engine

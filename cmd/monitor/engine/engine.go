@@ -18,9 +18,13 @@ type Options struct {
 	// Warmup is skipped at the start: the first ⌊Warmup/period⌋ decoded
 	// samples are counted but not estimated.
 	Warmup time.Duration
-	// Tolerance widens the confidence interval for the verdict:
-	// agree iff the prediction lies in [lo − tol·|lo|, hi + tol·|hi|].
+	// Tolerance widens the confidence interval for the verdict: the
+	// prediction agrees when it lies in [lo·(1 − tol), hi·(1 + tol)] and
+	// that interval is narrow enough to have disagreed (judgeInterval).
 	Tolerance float64
+	// MinSamples is the least number of estimated samples of the run's
+	// verdict (default DefaultMinSamples); fewer give "inconclusive".
+	MinSamples int
 	// MaxDatagram is the longest datagram decoded (default 4096 bytes);
 	// longer ones count as oversized.
 	MaxDatagram int
@@ -66,14 +70,23 @@ type Monitor struct {
 	e         []float64 // e = setpoint − y of the latest sample
 
 	// cur is the prediction in force (UpdatePrediction); curPr its
-	// E[eᵀe], NaN when not mean-square stable.
-	cur   *estimate.Prediction
-	curPr float64
-	// phases are the phases started so far; phase the running one.
-	phases []*phase
-	phase  *phase
-	trip   tripState
-	hist   history
+	// E[eᵀe], NaN when not certified mean-square stable, and curStab
+	// then its stability ("" when stable).
+	cur     *estimate.Prediction
+	curPr   float64
+	curStab string
+	// phases are the phases started so far; phase the running one;
+	// planned the names of all the soak's phases (PlanPhases);
+	// phasesEnded is set by EndPhases.
+	phases      []*phase
+	phase       *phase
+	planned     []string
+	phasesEnded bool
+	trip        tripState
+	// afterTrip counts the decoded samples after the trip fired: they
+	// are estimated nowhere.
+	afterTrip int64
+	hist      history
 }
 
 // reasonIndex maps each decode failure to its counter.
@@ -137,13 +150,19 @@ func New(loop *profiles.Loop, pred *estimate.Prediction, opts Options) (*Monitor
 	if opts.Level == 0 {
 		opts.Level = 0.95
 	}
+	if opts.MinSamples < 0 {
+		return nil, fmt.Errorf("min samples: want a number ≥ 0, got %d", opts.MinSamples)
+	}
+	if opts.MinSamples == 0 {
+		opts.MinSamples = DefaultMinSamples
+	}
 	m := &Monitor{
 		loop: loop, pred: pred, opts: opts, now: opts.Now, windows: opts.Windows,
 		warmupN: int64(math.Floor(opts.Warmup.Seconds()/loop.Period + 1e-9)), // 1e-9: 0.2 s / 20 ms is 10, not 9.999…
 		on:      on, failures: make([]int64, len(profiles.DecodeReasons)), y: make([]float64, len(loop.Setpoint)), meanBuf: make([]float64, len(loop.Setpoint)),
 		e: make([]float64, len(loop.Setpoint)),
 	}
-	m.cur, m.curPr = pred, predictedOf(pred)
+	m.cur, m.curPr, m.curStab = pred, predictedOf(pred), stabilityOf(pred)
 	m.hist.init(int64(math.Ceil(opts.HistoryEvery.Seconds()/loop.Period - 1e-9)))
 	m.started = m.now()
 	return m, nil
@@ -202,19 +221,29 @@ func (m *Monitor) feed(payload []byte, at time.Time) (*TripEvent, func(TripEvent
 	}
 	// Safety does not wait for the warm-up or a phase's settling.
 	var ev *TripEvent
-	if m.trip.armed && m.trip.event == nil {
+	tripped := m.trip.event != nil // before this sample
+	if m.trip.armed && !tripped {
 		ev = m.checkTrip(x, seq, hasSeq, at)
 	}
 	if m.decoded <= m.warmupN {
 		m.skipped++
 		return ev, m.trip.fire
 	}
+	if tripped {
+		// After the trip the link is no longer the one under test: the
+		// sample is counted, not estimated (the one that fired it is).
+		m.afterTrip++
+		if p := m.phase; p != nil {
+			p.afterTripN++
+		}
+		return nil, nil
+	}
 	if m.on.Samples() == 0 {
 		m.first = at
 	}
 	m.on.AddError(m.e)
 	if p := m.phase; p != nil {
-		p.add(m.e, at, m.curPr)
+		p.add(m.e, at, m.curPr, m.curStab)
 	}
 	m.hist.tick(m, at)
 	return ev, m.trip.fire

@@ -29,6 +29,7 @@ type descs struct {
 	missing                                                            *prometheus.Desc
 	failures, skipped                                                  *prometheus.Desc
 	phase, phaseSecond, phasePredicted, phasePassed, tripActive, trips *prometheus.Desc
+	phaseInconclusive, afterTrip                                       *prometheus.Desc
 }
 
 func newDescs() *descs {
@@ -36,35 +37,37 @@ func newDescs() *descs {
 		return prometheus.NewDesc(namePrefix+name, help, labels, nil)
 	}
 	return &descs{
-		second:         d("error_second_moment", "Measured E[eᵀe] of the tracking error e = setpoint − y, by window (run: the whole run).", "window"),
-		ciLow:          d("error_second_moment_ci_low", "Lower bound of the confidence interval of the measured E[eᵀe] (batch means), by window.", "window"),
-		ciHigh:         d("error_second_moment_ci_high", "Upper bound of the confidence interval of the measured E[eᵀe] (batch means), by window.", "window"),
-		mean:           d("error_mean", "Measured mean tracking error, by window and output index.", "window", "output"),
-		std:            d("error_std", "Measured sqrt(E[eᵀe] − |E[e]|²), by window.", "window"),
-		effective:      d("effective_samples", "Effective number of independent samples behind the interval, by window.", "window"),
-		windowSamples:  d("window_samples", "Samples the estimate of each window covers.", "window"),
-		ratio:          d("measured_to_predicted_ratio", "Measured over predicted E[eᵀe], by window.", "window"),
-		predicted:      d("predicted_error_second_moment", "Predicted steady E[eᵀe] (NaN when not mean-square stable)."),
-		stable:         d("predicted_mean_square_stable", "1 when the prediction says the loop is mean-square stable, else 0."),
-		radius:         d("predicted_spectral_radius", "Spectral radius of the second-moment operator (stable below 1)."),
-		margin:         d("predicted_loss_margin", "Extra loss on every packet at which mean-square stability is lost (1: none)."),
-		tolerance:      d("tolerance_ratio", "Relative widening of the interval used for the verdict."),
-		samples:        d("samples_total", "Samples estimated (decoded, not duplicates, after the warm-up)."),
-		datagrams:      d("datagrams_total", "Datagrams received."),
-		gaps:           d("sample_gaps_total", "Sequence numbers skipped when a higher one arrived (some may arrive late: see late_samples_total)."),
-		missing:        d("missing_samples", "Samples never seen so far: sample gaps minus late arrivals."),
-		late:           d("late_samples_total", "Samples that arrived after a later one (reordered), used."),
-		duplicates:     d("duplicate_samples_total", "Samples whose sequence number was seen before, not used."),
-		stale:          d("stale_samples_total", "Samples older than the reordering window, not used."),
-		restarts:       d("sequence_restarts_total", "Jumps of the sensor's sequence counter taken as restarts."),
-		failures:       d("decode_failures_total", "Datagrams that did not decode, by reason.", "reason"),
-		skipped:        d("warmup_skipped_samples_total", "Samples skipped as warm-up."),
-		phase:          d("phase", "1 for the running soak phase, 0 for the others.", "index", "phase"),
-		phaseSecond:    d("phase_error_second_moment", "Measured E[eᵀe] over the judged samples of each soak phase.", "phase"),
-		phasePredicted: d("phase_predicted_error_second_moment", "Predicted E[eᵀe] of each soak phase (mean over its judged samples; NaN when unstable).", "phase"),
-		phasePassed:    d("phase_passed", "1 when a closed soak phase passed its check, 0 when it failed.", "phase"),
-		tripActive:     d("trip_active", "1 once the safety trip has fired (latched), else 0."),
-		trips:          d("trips_total", "Safety trips fired, by reason (0 or 1: the trip is latched).", "reason"),
+		second:            d("error_second_moment", "Measured E[eᵀe] of the tracking error e = setpoint − y, by window (run: the whole run).", "window"),
+		ciLow:             d("error_second_moment_ci_low", "Lower bound of the confidence interval of the measured E[eᵀe] (batch means), by window.", "window"),
+		ciHigh:            d("error_second_moment_ci_high", "Upper bound of the confidence interval of the measured E[eᵀe] (batch means), by window.", "window"),
+		mean:              d("error_mean", "Measured mean tracking error, by window and output index.", "window", "output"),
+		std:               d("error_std", "Measured sqrt(E[eᵀe] − |E[e]|²), by window.", "window"),
+		effective:         d("effective_samples", "Effective number of independent samples behind the interval, by window.", "window"),
+		windowSamples:     d("window_samples", "Samples the estimate of each window covers.", "window"),
+		ratio:             d("measured_to_predicted_ratio", "Measured over predicted E[eᵀe], by window.", "window"),
+		predicted:         d("predicted_error_second_moment", "Predicted steady E[eᵀe] (NaN when not mean-square stable)."),
+		stable:            d("predicted_mean_square_stable", "1 when the prediction says the loop is mean-square stable, else 0."),
+		radius:            d("predicted_spectral_radius", "Spectral radius of the second-moment operator (stable below 1)."),
+		margin:            d("predicted_loss_margin", "Extra loss on every packet at which mean-square stability is lost (1: none)."),
+		tolerance:         d("tolerance_ratio", "Relative widening of the interval used for the verdict."),
+		samples:           d("samples_total", "Samples estimated (decoded, not duplicates, after the warm-up)."),
+		datagrams:         d("datagrams_total", "Datagrams received."),
+		gaps:              d("sample_gaps_total", "Sequence numbers skipped when a higher one arrived (some may arrive late: see late_samples_total)."),
+		missing:           d("missing_samples", "Samples never seen so far: sample gaps minus late arrivals."),
+		late:              d("late_samples_total", "Samples that arrived after a later one (reordered), used."),
+		duplicates:        d("duplicate_samples_total", "Samples whose sequence number was seen before, not used."),
+		stale:             d("stale_samples_total", "Samples older than the reordering window, not used."),
+		restarts:          d("sequence_restarts_total", "Jumps of the sensor's sequence counter taken as restarts."),
+		failures:          d("decode_failures_total", "Datagrams that did not decode, by reason.", "reason"),
+		skipped:           d("warmup_skipped_samples_total", "Samples skipped as warm-up."),
+		phase:             d("phase", "1 for the running soak phase, 0 for the others.", "index", "phase"),
+		phaseSecond:       d("phase_error_second_moment", "Measured E[eᵀe] over the judged samples of each soak phase.", "phase"),
+		phasePredicted:    d("phase_predicted_error_second_moment", "Predicted E[eᵀe] of each soak phase (mean over its judged samples; NaN when unstable).", "phase"),
+		phasePassed:       d("phase_passed", "1 when a closed soak phase passed its check, 0 when it failed (absent while running, inconclusive or not run).", "phase"),
+		phaseInconclusive: d("phase_inconclusive", "1 when a closed soak phase could not be judged (inconclusive, or not run), 0 when it passed or failed (absent while running).", "phase"),
+		afterTrip:         d("after_trip_samples_total", "Samples decoded after the safety trip fired: counted, estimated nowhere."),
+		tripActive:        d("trip_active", "1 once the safety trip has fired (latched), else 0."),
+		trips:             d("trips_total", "Safety trips fired, by reason (0 or 1: the trip is latched).", "reason"),
 	}
 }
 
@@ -130,6 +133,7 @@ func (c *collector) Collect(ch chan<- prometheus.Metric) {
 	counter(d.stale, m.seq.Counts.Stale)
 	counter(d.restarts, m.seq.Counts.Restarts)
 	counter(d.skipped, m.skipped)
+	counter(d.afterTrip, m.afterTrip)
 	for i, r := range profiles.DecodeReasons {
 		counter(d.failures, m.failures[i], r.Reason)
 	}
@@ -145,7 +149,7 @@ func (c *collector) Collect(ch chan<- prometheus.Metric) {
 			continue
 		}
 		cur := 0.0
-		if m.phase != nil && m.phases[i] == m.phase {
+		if r.Verdict == PhaseRunning {
 			cur = 1
 		}
 		gauge(d.phase, cur, strconv.Itoa(r.Index), r.Name)
@@ -154,8 +158,12 @@ func (c *collector) Collect(ch chan<- prometheus.Metric) {
 		switch r.Verdict {
 		case PhasePass:
 			gauge(d.phasePassed, 1, r.Name)
+			gauge(d.phaseInconclusive, 0, r.Name)
 		case PhaseFail:
 			gauge(d.phasePassed, 0, r.Name)
+			gauge(d.phaseInconclusive, 0, r.Name)
+		case PhaseInconclusive, PhaseNotRun:
+			gauge(d.phaseInconclusive, 1, r.Name)
 		}
 	}
 	active := 0.0

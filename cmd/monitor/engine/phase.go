@@ -3,6 +3,7 @@ package engine
 import (
 	"fmt"
 	"math"
+	"sort"
 	"strings"
 	"time"
 
@@ -12,40 +13,68 @@ import (
 
 // Verdicts of a phase.
 const (
-	PhasePass    = "pass"
-	PhaseFail    = "fail"
+	PhasePass = "pass"
+	PhaseFail = "fail"
+	// PhaseInconclusive: the data could not tell (see the check's rule in
+	// judgePhase); the reason says why.
+	PhaseInconclusive = "inconclusive"
+	// PhaseRunning: the phase has not ended; its reason gives the
+	// judgement so far.
 	PhaseRunning = "running"
+	// PhaseNotRun: a planned phase (PlanPhases) that never started
+	// before the soak ended, or that started only after the safety trip.
+	PhaseNotRun = "not_run"
 )
 
-// DefaultMinSamples is the least number of judged samples of a phase when
-// its check leaves MinSamples 0.
-const DefaultMinSamples = 20
+// How a phase was cut short.
+const (
+	CutByTrip    = "trip"
+	CutInterrupt = "interrupted"
+)
 
 // PhaseResult is one soak phase in the summary. Values that do not exist
-// (no samples, unstable prediction, the end of the running phase) are
-// null.
+// (no samples, unstable prediction, the end of the running phase, the
+// start of a phase not run) are null.
 type PhaseResult struct {
 	Index int    `json:"index"`
 	Name  string `json:"name"`
 	// StartSeconds and EndSeconds are seconds since the monitor started.
-	StartSeconds float64  `json:"start_seconds"`
+	StartSeconds *float64 `json:"start_seconds"`
 	EndSeconds   *float64 `json:"end_seconds"`
 	// Samples were judged (added to the phase's estimate);
-	// SettleSamples arrived within the settling time and were not.
+	// SettleSamples arrived within the settling time and were not;
+	// AfterTripSamples arrived after the safety trip fired and were not.
 	Samples               int64    `json:"samples"`
 	SettleSamples         int64    `json:"settle_samples"`
+	AfterTripSamples      int64    `json:"after_trip_samples"`
 	ErrorSecondMoment     *float64 `json:"error_second_moment"`
 	CILow                 *float64 `json:"ci_low"`
 	CIHigh                *float64 `json:"ci_high"`
 	PredictedSecondMoment *float64 `json:"predicted_second_moment"`
 	Ratio                 *float64 `json:"measured_to_predicted"`
-	// Verdict is "pass", "fail" or, for the running phase, "running"
-	// (Reason then gives the provisional judgement).
-	Verdict         string   `json:"verdict"`
-	Reason          string   `json:"reason"`
-	Tolerance       *float64 `json:"tolerance"`
-	MaxSecondMoment *float64 `json:"max_second_moment"`
-	MinSamples      int      `json:"min_samples"`
+	// Batches, BatchSize and BatchCorrelationZ describe the interval's
+	// batches (see Summary).
+	Batches           int      `json:"batches"`
+	BatchSize         int64    `json:"batch_size"`
+	BatchCorrelationZ *float64 `json:"batch_correlation_z"`
+	// Verdict is "pass", "fail", "inconclusive", "not_run" or, for the
+	// running phase, "running" (Reason then gives the provisional
+	// judgement).
+	Verdict string `json:"verdict"`
+	Reason  string `json:"reason"`
+	// CutShort is "trip" when the safety trip fired during the phase (it
+	// is judged on its samples before the trip), "interrupted" when the
+	// soak ended during it (EndPhases), else "".
+	CutShort string `json:"cut_short"`
+	// PredictionOutside is set when the phase's prediction lies outside
+	// its measured interval although the verdict does not follow from
+	// that comparison (a check with only max_second_moment); Warning
+	// then says so.
+	PredictionOutside bool     `json:"prediction_outside"`
+	Warning           string   `json:"warning"`
+	Tolerance         *float64 `json:"tolerance"`
+	MaxSecondMoment   *float64 `json:"max_second_moment"`
+	MinSamples        int      `json:"min_samples"`
 }
 
 // phase is one phase's state.
@@ -59,28 +88,47 @@ type phase struct {
 	check     profiles.Check
 	on        *estimate.Online
 	settleN   int64
+	// afterTripN counts the samples after the safety trip;
+	// startedAfterTrip is set when the trip had fired before the phase
+	// started, cut how the phase was cut short.
+	afterTripN       int64
+	startedAfterTrip bool
+	cut              string
 	// predSum and predN average the predicted E[eᵀe] in force at each
-	// judged sample; unstable is set when one of them was not
-	// mean-square stable.
-	predSum  float64
-	predN    int64
-	unstable bool
+	// judged sample; notStable is the worst stability of those
+	// predictions that were not certified stable ("unstable" over
+	// "marginal"), "" when all were.
+	predSum   float64
+	predN     int64
+	notStable string
 }
 
 // add takes one estimated sample e that arrived at at, with pr the
-// predicted E[eᵀe] then in force (NaN when not stable).
-func (p *phase) add(e []float64, at time.Time, pr float64) {
+// predicted E[eᵀe] then in force (NaN when not stable) and notStable its
+// stability when not certified stable.
+func (p *phase) add(e []float64, at time.Time, pr float64, notStable string) {
 	if at.Before(p.judgeFrom) {
 		p.settleN++
 		return
 	}
-	p.on.AddError(e)
 	if math.IsNaN(pr) {
-		p.unstable = true
-	} else {
-		p.predSum += pr
-		p.predN++
+		if p.notStable != estimate.StabilityUnstable {
+			p.notStable = notStable
+		}
+		p.on.AddErrorRef(e, 0)
+		return
 	}
+	p.on.AddErrorRef(e, pr)
+	p.predSum += pr
+	p.predN++
+}
+
+// PlanPhases names the phases a soak is to play, in order, so that those
+// that never start are listed as not run once EndPhases is called.
+func (m *Monitor) PlanPhases(names []string) {
+	m.mu.Lock()
+	defer m.mu.Unlock()
+	m.planned = append([]string(nil), names...)
 }
 
 // StartPhase closes the running phase (if any; it ends now) and starts
@@ -107,10 +155,11 @@ func (m *Monitor) StartPhase(index int, name string, pred *estimate.Prediction, 
 	defer m.mu.Unlock()
 	now := m.now()
 	m.closePhase(now)
-	p := &phase{index: index, name: name, start: now, judgeFrom: now.Add(settle), check: check, on: on}
+	p := &phase{index: index, name: name, start: now, judgeFrom: now.Add(settle), check: check, on: on,
+		startedAfterTrip: m.trip.event != nil}
 	m.phases = append(m.phases, p)
 	m.phase = p
-	m.cur, m.curPr = pred, predictedOf(pred)
+	m.cur, m.curPr, m.curStab = pred, predictedOf(pred), stabilityOf(pred)
 }
 
 // UpdatePrediction replaces the prediction in force (a ramp's step):
@@ -124,7 +173,7 @@ func (m *Monitor) StartPhase(index int, name string, pred *estimate.Prediction, 
 func (m *Monitor) UpdatePrediction(pred *estimate.Prediction) {
 	m.mu.Lock()
 	defer m.mu.Unlock()
-	m.cur, m.curPr = pred, predictedOf(pred)
+	m.cur, m.curPr, m.curStab = pred, predictedOf(pred), stabilityOf(pred)
 }
 
 // CurrentPrediction is the prediction in force (StartPhase,
@@ -135,11 +184,18 @@ func (m *Monitor) CurrentPrediction() *estimate.Prediction {
 	return m.cur
 }
 
-// EndPhases closes the running phase, if any (at the end of a soak).
-func (m *Monitor) EndPhases() {
+// EndPhases closes the running phase, if any, at the end of a soak, and
+// from then on lists the planned phases that never started as not run.
+// interrupted says the soak ended before its scenario did: the running
+// phase is then marked as cut short (unless the trip already cut it).
+func (m *Monitor) EndPhases(interrupted bool) {
 	m.mu.Lock()
 	defer m.mu.Unlock()
+	if interrupted && m.phase != nil && m.phase.cut == "" {
+		m.phase.cut = CutInterrupt
+	}
 	m.closePhase(m.now())
+	m.phasesEnded = true
 }
 
 func (m *Monitor) closePhase(now time.Time) {
@@ -149,8 +205,10 @@ func (m *Monitor) closePhase(now time.Time) {
 	}
 }
 
-// Phases returns the phases so far, judged; the running one has verdict
-// "running" and its provisional judgement in Reason.
+// Phases returns the phases so far, judged, in the order of their index;
+// the running one has verdict "running" and its provisional judgement in
+// Reason; after EndPhases, planned phases that never started are listed
+// as not run.
 func (m *Monitor) Phases() []PhaseResult {
 	m.mu.Lock()
 	defer m.mu.Unlock()
@@ -159,27 +217,47 @@ func (m *Monitor) Phases() []PhaseResult {
 
 // phaseResults is Phases under the lock.
 func (m *Monitor) phaseResults() []PhaseResult {
-	if len(m.phases) == 0 {
+	out := make([]PhaseResult, 0, max(len(m.phases), len(m.planned)))
+	started := map[int]bool{}
+	for _, p := range m.phases {
+		out = append(out, m.result(p))
+		started[p.index] = true
+	}
+	if m.phasesEnded {
+		why := "not run: the soak ended before it"
+		if ev := m.trip.event; ev != nil {
+			why = fmt.Sprintf("not run: the safety trip (%s) ended the soak", ev.Reason)
+			if ev.Phase != "" {
+				why += fmt.Sprintf(" in phase %q", ev.Phase)
+			}
+		}
+		for i, name := range m.planned {
+			if !started[i] {
+				out = append(out, PhaseResult{Index: i, Name: name, Verdict: PhaseNotRun, Reason: why,
+					MinSamples: DefaultMinSamples})
+			}
+		}
+	}
+	if len(out) == 0 {
 		return nil
 	}
-	out := make([]PhaseResult, len(m.phases))
-	for i, p := range m.phases {
-		out[i] = m.result(p)
-	}
+	sort.SliceStable(out, func(i, j int) bool { return out[i].Index < out[j].Index })
 	return out
 }
 
 func (m *Monitor) result(p *phase) PhaseResult {
 	st := p.on.Run(nil)
 	pr := math.NaN()
-	if !p.unstable && p.predN > 0 {
+	if p.notStable == "" && p.predN > 0 {
 		pr = p.predSum / float64(p.predN)
 	}
-	r := PhaseResult{Index: p.index, Name: p.name, StartSeconds: p.start.Sub(m.started).Seconds(),
-		Samples: st.Samples, SettleSamples: p.settleN,
+	start := p.start.Sub(m.started).Seconds()
+	r := PhaseResult{Index: p.index, Name: p.name, StartSeconds: &start,
+		Samples: st.Samples, SettleSamples: p.settleN, AfterTripSamples: p.afterTripN,
 		ErrorSecondMoment: finite(st.SecondMoment), CILow: finite(st.CILow), CIHigh: finite(st.CIHigh),
 		PredictedSecondMoment: finite(pr), Ratio: finite(st.SecondMoment / pr),
-		MinSamples: p.check.MinSamples}
+		Batches: st.Batches, BatchSize: st.BatchSize, BatchCorrelationZ: finite(st.BatchCorrelationZ),
+		MinSamples: p.check.MinSamples, CutShort: p.cut}
 	if r.MinSamples <= 0 {
 		r.MinSamples = DefaultMinSamples
 	}
@@ -191,65 +269,123 @@ func (m *Monitor) result(p *phase) PhaseResult {
 		v := *p.check.MaxSecondMoment
 		r.MaxSecondMoment = &v
 	}
-	pass, reason := judge(st, pr, p.unstable, r.MinSamples, p.check)
-	r.Verdict, r.Reason = PhaseFail, reason
-	if pass {
-		r.Verdict = PhasePass
+	r.Verdict, r.Reason, r.Warning = judgePhase(st, pr, p.notStable, r.MinSamples, p.check)
+	r.PredictionOutside = r.Warning != ""
+	switch {
+	case p.startedAfterTrip:
+		r.Verdict = PhaseNotRun
+		r.Reason = fmt.Sprintf("not run: started after the safety trip (its %d samples, on the tripped link, are not judged)", p.afterTripN)
+		r.Warning, r.PredictionOutside = "", false
+	case p.cut == CutByTrip:
+		r.Reason += fmt.Sprintf("; cut short by the safety trip: judged on its %d samples before the trip, %d after it not judged",
+			st.Samples, p.afterTripN)
+	case p.cut == CutInterrupt:
+		r.Reason += "; cut short: the soak was interrupted"
 	}
 	if p.ended {
 		end := p.end.Sub(m.started).Seconds()
 		r.EndSeconds = &end
-	} else {
-		r.Reason = "so far " + r.Verdict + ": " + reason
+	} else if r.Verdict != PhaseNotRun {
+		r.Reason = "so far " + r.Verdict + ": " + r.Reason
 		r.Verdict = PhaseRunning
 	}
 	return r
 }
 
-// judge applies a phase's check to its estimate st and predicted E[eᵀe]
-// pr (NaN when none or unstable): fail with fewer than minSamples judged
-// samples; with a tolerance, pass iff the run's verdict rule says "agree"
-// (the prediction lies in [lo − tol·|lo|, hi + tol·|hi|]), fail when the
-// prediction is unstable; with a bound, pass iff the measured E[eᵀe] is
-// at most the bound; with both, both must hold; with neither, pass.
-func judge(st estimate.OnlineStats, pr float64, unstable bool, minSamples int, c profiles.Check) (bool, string) {
-	if st.Samples < int64(minSamples) {
-		return false, fmt.Sprintf("only %d judged samples, want ≥ %d", st.Samples, minSamples)
+// judgePhase applies a phase's check c to its estimate st and predicted
+// E[eᵀe] pr (NaN when none or not certified stable; notStable then says
+// which) and returns the verdict, the reason and a warning:
+//
+//   - neither tolerance nor bound: pass, not judged;
+//   - tolerance: judgeInterval's rule with the check's tolerance and
+//     minSamples: agree passes, above and below fail, inconclusive stays
+//     inconclusive, a prediction not certified stable fails;
+//   - max_second_moment: with enough samples and batches (as for the
+//     tolerance), pass when the measured interval lies at or below the
+//     bound, fail when it lies above it, inconclusive when it straddles
+//     it (the worst-case interval when the batches are short, as in
+//     judgeInterval). When the prediction lies outside that
+//     interval, the warning says so (the phase still passes or fails on
+//     its bound: the check asked for the bound only);
+//   - both: fail when either fails, else inconclusive when either is,
+//     else pass.
+func judgePhase(st estimate.OnlineStats, pr float64, notStable string, minSamples int, c profiles.Check) (verdict, reason, warning string) {
+	if c.Tolerance == nil && c.MaxSecondMoment == nil {
+		return PhasePass, fmt.Sprintf("no criterion: not judged (%d samples)", st.Samples), ""
 	}
-	pass := true
-	var reasons []string
+	var verdicts, reasons []string
 	if c.Tolerance != nil {
-		tol := *c.Tolerance
-		switch v := verdict(st, pr, tol, !math.IsNaN(pr)); {
-		case v == VerdictUnstable && unstable:
-			pass = false
-			reasons = append(reasons, "prediction unstable: no value to compare")
-		case v == VerdictUnstable:
-			pass = false
-			reasons = append(reasons, "no prediction: no value to compare")
-		case v == VerdictNoSamples:
-			pass = false
-			reasons = append(reasons, fmt.Sprintf("no measured interval yet (%d samples)", st.Samples))
-		case v == VerdictAgree:
-			reasons = append(reasons, fmt.Sprintf("prediction %.4g inside the measured interval [%.4g, %.4g] widened by %g",
-				pr, st.CILow, st.CIHigh, tol))
+		v, why := judgeInterval(st, pr, *c.Tolerance, notStable, minSamples)
+		switch v {
+		case VerdictAgree:
+			verdicts = append(verdicts, PhasePass)
+		case VerdictInconclusive:
+			verdicts = append(verdicts, PhaseInconclusive)
 		default:
-			pass = false
-			reasons = append(reasons, fmt.Sprintf("prediction %.4g outside the measured interval [%.4g, %.4g] widened by %g",
-				pr, st.CILow, st.CIHigh, tol))
+			verdicts = append(verdicts, PhaseFail)
 		}
+		reasons = append(reasons, why)
 	}
 	if c.MaxSecondMoment != nil {
-		bound := *c.MaxSecondMoment
-		if st.SecondMoment <= bound {
-			reasons = append(reasons, fmt.Sprintf("measured %.4g within the bound %.4g", st.SecondMoment, bound))
-		} else {
-			pass = false
-			reasons = append(reasons, fmt.Sprintf("measured %.4g above the bound %.4g", st.SecondMoment, bound))
+		v, why := judgeBound(st, *c.MaxSecondMoment, minSamples)
+		verdicts = append(verdicts, v)
+		reasons = append(reasons, why)
+		if c.Tolerance == nil {
+			warning = outsideWarning(st, pr, minSamples)
 		}
 	}
-	if len(reasons) == 0 {
-		return true, fmt.Sprintf("no criterion; %d judged samples", st.Samples)
+	verdict = PhasePass
+	for _, v := range verdicts {
+		switch {
+		case v == PhaseFail:
+			verdict = PhaseFail
+		case v == PhaseInconclusive && verdict == PhasePass:
+			verdict = PhaseInconclusive
+		}
 	}
-	return pass, strings.Join(reasons, "; ")
+	reason = strings.Join(reasons, "; ")
+	if warning != "" {
+		reason += "; warning: " + warning
+	}
+	return verdict, reason, warning
+}
+
+// judgeBound is the verdict of a bound on E[eᵀe] (see judgePhase).
+func judgeBound(st estimate.OnlineStats, bound float64, minSamples int) (string, string) {
+	if ok, why := enough(st, minSamples); !ok {
+		return PhaseInconclusive, why
+	}
+	lo, hi, short := interval(st)
+	note := ""
+	if short {
+		note = " (worst case: " + shortWhy(st) + ")"
+	}
+	switch {
+	case hi <= bound:
+		return PhasePass, fmt.Sprintf("measured %.4g [%.4g, %.4g]%s within the bound %.4g", st.SecondMoment, lo, hi, note, bound)
+	case lo > bound:
+		return PhaseFail, fmt.Sprintf("measured %.4g [%.4g, %.4g]%s above the bound %.4g", st.SecondMoment, lo, hi, note, bound)
+	}
+	return PhaseInconclusive, fmt.Sprintf("measured %.4g [%.4g, %.4g]%s straddles the bound %.4g", st.SecondMoment, lo, hi, note, bound)
+}
+
+// outsideWarning is the warning of a bound-only check whose prediction pr
+// lies outside the measured interval (not widened: the check has no
+// tolerance), "" when it lies inside, is missing, or the data are too few
+// to say.
+func outsideWarning(st estimate.OnlineStats, pr float64, minSamples int) string {
+	if math.IsNaN(pr) {
+		return ""
+	}
+	if ok, _ := enough(st, minSamples); !ok {
+		return ""
+	}
+	lo, hi, _ := interval(st)
+	switch {
+	case pr < lo:
+		return fmt.Sprintf("prediction %.4g outside the measured interval [%.4g, %.4g] (measured above it, ×%.3g)", pr, lo, hi, st.SecondMoment/pr)
+	case pr > hi:
+		return fmt.Sprintf("prediction %.4g outside the measured interval [%.4g, %.4g] (measured below it, ×%.3g)", pr, lo, hi, st.SecondMoment/pr)
+	}
+	return ""
 }

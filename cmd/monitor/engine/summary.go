@@ -6,76 +6,63 @@ import (
 	"strings"
 	"time"
 
+	"rigwire/cmd/internal/exitcode"
+	"rigwire/cmd/internal/stability"
 	"rigwire/estimate"
 	"rigwire/profiles"
 )
 
-// Verdicts of a run: where the prediction lies against the measured
-// interval widened by the tolerance.
-const (
-	// VerdictAgree: the prediction lies inside the widened interval.
-	VerdictAgree = "agree"
-	// VerdictAbove: the measured E[eᵀe] is above the prediction (the
-	// prediction lies below the widened interval).
-	VerdictAbove = "above"
-	// VerdictBelow: the measured E[eᵀe] is below the prediction.
-	VerdictBelow = "below"
-	// VerdictNoSamples: fewer than two samples estimated, so no interval.
-	VerdictNoSamples = "no_samples"
-	// VerdictUnstable: the prediction says the loop is not mean-square
-	// stable, so there is no predicted value to agree with.
-	VerdictUnstable = "unstable"
-)
-
-// Exit codes of `monitor run --strict`, by verdict (0 without --strict;
-// 1 and 2 stay the monitor's error and usage codes).
-var exitCodes = map[string]int{
-	VerdictAgree: 0, VerdictAbove: 3, VerdictBelow: 4, VerdictNoSamples: 5, VerdictUnstable: 6,
-}
-
 // ExitCode is the process exit status for the verdict: 0 unless strict;
-// with strict 0 agree, 3 above, 4 below, 5 no samples, 6 unstable
-// prediction.
+// with strict 0 agree, 3 above, 4 below, 5 inconclusive, 6 a prediction
+// not certified stable (exitcode.Above, Below, Inconclusive, NotStable).
 func (s *Summary) ExitCode(strict bool) int {
 	if !strict {
-		return 0
+		return exitcode.OK
 	}
-	return exitCodes[s.Verdict]
+	switch s.Verdict {
+	case VerdictAgree:
+		return exitcode.OK
+	case VerdictAbove:
+		return exitcode.Above
+	case VerdictBelow:
+		return exitcode.Below
+	case VerdictUnstable:
+		return exitcode.NotStable
+	}
+	return exitcode.Inconclusive
 }
 
-// Exit codes of the safety trip and of a soak's phases.
-const (
-	// ExitPhaseFailed: a soak phase's check failed.
-	ExitPhaseFailed = 7
-	// ExitTripped: the safety trip fired.
-	ExitTripped = 8
-)
-
-// TripExitCode is 8 when the safety trip fired, else 0.
+// TripExitCode is exitcode.Tripped (8) when the safety trip fired, else 0.
 func (s *Summary) TripExitCode() int {
 	if s.Trip != nil {
-		return ExitTripped
+		return exitcode.Tripped
 	}
-	return 0
+	return exitcode.OK
 }
 
-// SoakExitCode is the exit status of a soak: 8 when the safety trip
-// fired, else 7 when any phase failed its check, else 0.
+// SoakExitCode is the exit status of a soak, the first that applies:
+// exitcode.Tripped (8) when the safety trip fired, exitcode.PhaseFailed
+// (7) when a phase failed its check, exitcode.Inconclusive (5) when a
+// phase was inconclusive or not run, else 0.
 func (s *Summary) SoakExitCode() int {
 	if s.Trip != nil {
-		return ExitTripped
+		return exitcode.Tripped
 	}
+	code := exitcode.OK
 	for _, p := range s.Phases {
-		if p.Verdict == PhaseFail {
-			return ExitPhaseFailed
+		switch p.Verdict {
+		case PhaseFail:
+			return exitcode.PhaseFailed
+		case PhaseInconclusive, PhaseNotRun:
+			code = exitcode.Inconclusive
 		}
 	}
-	return 0
+	return code
 }
 
-// Summary is the JSON summary of `monitor run` (INTERFACES.md keys
-// first). Values that do not exist (no samples yet, unstable prediction)
-// are null.
+// Summary is the JSON summary of `monitor run` (the keys a lab script
+// reads first). Values that do not exist (no samples yet, unstable
+// prediction) are null.
 type Summary struct {
 	Samples               int64    `json:"samples"`
 	ErrorSecondMoment     *float64 `json:"error_second_moment"`
@@ -83,7 +70,13 @@ type Summary struct {
 	CIHigh                *float64 `json:"ci_high"`
 	PredictedSecondMoment *float64 `json:"predicted_second_moment"`
 
-	Verdict    string     `json:"verdict"`
+	// Verdict is agree, above, below, inconclusive or unstable
+	// (VerdictRule); VerdictReason says why.
+	Verdict       string `json:"verdict"`
+	VerdictReason string `json:"verdict_reason"`
+	VerdictRule   string `json:"verdict_rule"`
+	// MinSamples is the least number of samples the verdict needs.
+	MinSamples int        `json:"min_samples"`
 	Tolerance  float64    `json:"tolerance"`
 	Level      float64    `json:"confidence_level"`
 	Ratio      *float64   `json:"measured_to_predicted"`
@@ -92,19 +85,30 @@ type Summary struct {
 	Effective  *float64   `json:"effective_samples"`
 	Batches    int        `json:"batches"`
 	BatchSize  int64      `json:"batch_size"`
-	CIMethod   string     `json:"ci_method"`
-	Predicted  Predicted  `json:"predicted"`
-	Datagrams  int64      `json:"datagrams"`
-	Gaps       int64      `json:"gaps"`
-	Late       int64      `json:"late_samples"`
-	Duplicates int64      `json:"duplicate_samples"`
-	Stale      int64      `json:"stale_samples"`
-	Restarts   int64      `json:"sequence_restarts"`
+	// BatchesMerged: the batches were correlated and were merged in
+	// pairs for the interval (Batches, BatchSize are the merged ones).
+	BatchesMerged bool `json:"batches_merged"`
+	// BatchCorrelation is von Neumann's lag-1 correlation of the batch
+	// means, BatchCorrelationZ its z-score (null with fewer than three
+	// batches).
+	BatchCorrelation  *float64  `json:"batch_correlation"`
+	BatchCorrelationZ *float64  `json:"batch_correlation_z"`
+	CIMethod          string    `json:"ci_method"`
+	Predicted         Predicted `json:"predicted"`
+	Datagrams         int64     `json:"datagrams"`
+	Gaps              int64     `json:"gaps"`
+	Late              int64     `json:"late_samples"`
+	Duplicates        int64     `json:"duplicate_samples"`
+	Stale             int64     `json:"stale_samples"`
+	Restarts          int64     `json:"sequence_restarts"`
 	// DecodeFailures counts the datagrams that did not decode, by reason.
 	DecodeFailures map[string]int64 `json:"decode_failures"`
 	SkippedWarmup  int64            `json:"skipped_warmup_samples"`
-	WarmupSeconds  float64          `json:"skipped_warmup_seconds"`
-	Elapsed        float64          `json:"elapsed_seconds"`
+	// AfterTripSamples were decoded after the safety trip fired: they are
+	// in no estimate (the run's, a window's or a phase's).
+	AfterTripSamples int64   `json:"after_trip_samples"`
+	WarmupSeconds    float64 `json:"skipped_warmup_seconds"`
+	Elapsed          float64 `json:"elapsed_seconds"`
 	// SampledSeconds is the span between the first and the latest
 	// estimated sample's arrival.
 	SampledSeconds float64  `json:"sampled_seconds"`
@@ -116,13 +120,19 @@ type Summary struct {
 	Trip *TripEvent `json:"trip,omitempty"`
 }
 
-// Predicted is the prediction in the summary (MODEL.md §5).
+// Predicted is the prediction in the summary.
 type Predicted struct {
-	MeanSquareStable bool       `json:"mean_square_stable"`
-	SpectralRadius   float64    `json:"spectral_radius"`
-	ErrorMean        []*float64 `json:"error_mean"`
-	ErrorStd         *float64   `json:"error_std"`
-	LossMargin       *float64   `json:"loss_margin"`
+	// MeanSquareStable is true only when Stability is "stable".
+	MeanSquareStable bool `json:"mean_square_stable"`
+	// Stability is "stable", "marginal" (ρ within its error of 1: not
+	// called stable) or "unstable".
+	Stability      string  `json:"stability"`
+	SpectralRadius float64 `json:"spectral_radius"`
+	// SpectralRadiusError bounds |ρ − SpectralRadius|; null when unknown.
+	SpectralRadiusError *float64   `json:"spectral_radius_error"`
+	ErrorMean           []*float64 `json:"error_mean"`
+	ErrorStd            *float64   `json:"error_std"`
+	LossMargin          *float64   `json:"loss_margin"`
 }
 
 // Window is one sliding window's estimate in the summary.
@@ -134,9 +144,6 @@ type Window struct {
 	CIHigh            *float64 `json:"ci_high"`
 	Effective         *float64 `json:"effective_samples"`
 }
-
-// CIMethod names the interval's method in the summary.
-const CIMethod = "non-overlapping batch means, 20-39 batches, Student t (Law & Kelton 2000 §9.5.3; Schmeiser 1982)"
 
 func finite(v float64) *float64 {
 	if math.IsNaN(v) || math.IsInf(v, 0) {
@@ -164,19 +171,9 @@ func predictedOf(pred *estimate.Prediction) float64 {
 	return pred.Error.SecondMoment
 }
 
-// verdict places the prediction pr against [lo, hi] widened by tol.
-func verdict(st estimate.OnlineStats, pr, tol float64, stable bool) string {
-	switch {
-	case !stable:
-		return VerdictUnstable
-	case math.IsNaN(st.CILow) || math.IsNaN(st.CIHigh):
-		return VerdictNoSamples
-	case pr < st.CILow-tol*math.Abs(st.CILow):
-		return VerdictAbove
-	case pr > st.CIHigh+tol*math.Abs(st.CIHigh):
-		return VerdictBelow
-	}
-	return VerdictAgree
+// runVerdict is the run's verdict on st (under the lock).
+func (m *Monitor) runVerdict(st estimate.OnlineStats) (string, string) {
+	return judgeInterval(st, m.predicted(), m.opts.Tolerance, stabilityOf(m.pred), m.opts.MinSamples)
 }
 
 // Summary returns the run's summary so far.
@@ -185,12 +182,16 @@ func (m *Monitor) Summary() *Summary {
 	defer m.mu.Unlock()
 	st := m.on.Run(nil)
 	pr := m.predicted()
+	v, why := m.runVerdict(st)
 	s := &Summary{
 		Samples: st.Samples, ErrorSecondMoment: finite(st.SecondMoment),
 		CILow: finite(st.CILow), CIHigh: finite(st.CIHigh), PredictedSecondMoment: finite(pr),
-		Verdict: verdict(st, pr, m.opts.Tolerance, !math.IsNaN(pr)), Tolerance: m.opts.Tolerance, Level: m.opts.Level,
+		Verdict: v, VerdictReason: why, VerdictRule: VerdictRule, MinSamples: m.opts.MinSamples,
+		Tolerance: m.opts.Tolerance, Level: m.opts.Level,
 		Ratio: finite(st.SecondMoment / pr), ErrorMean: finites(st.Mean), ErrorStd: finite(st.Std),
-		Effective: finite(st.EffectiveSamples), Batches: st.Batches, BatchSize: st.BatchSize, CIMethod: CIMethod,
+		Effective: finite(st.EffectiveSamples), Batches: st.Batches, BatchSize: st.BatchSize,
+		BatchesMerged: st.Merged, BatchCorrelation: finite(st.BatchCorrelation), BatchCorrelationZ: finite(st.BatchCorrelationZ),
+		CIMethod: CIMethod, AfterTripSamples: m.afterTrip,
 		Datagrams: m.datagrams, Gaps: m.seq.Counts.Gaps, Late: m.seq.Counts.Late,
 		Duplicates: m.seq.Counts.Duplicates, Stale: m.seq.Counts.Stale, Restarts: m.seq.Counts.Restarts,
 		DecodeFailures: map[string]int64{}, SkippedWarmup: m.skipped,
@@ -201,8 +202,8 @@ func (m *Monitor) Summary() *Summary {
 		s.SampledSeconds = m.last.Sub(m.first).Seconds()
 	}
 	if p := m.pred; p != nil {
-		s.Predicted = Predicted{MeanSquareStable: p.MeanSquareStable, SpectralRadius: p.SpectralRadius,
-			LossMargin: finite(p.LossMargin)}
+		s.Predicted = Predicted{MeanSquareStable: p.MeanSquareStable, Stability: stability.Of(p), SpectralRadius: p.SpectralRadius,
+			SpectralRadiusError: finite(p.RadiusError), LossMargin: finite(p.LossMargin)}
 		if p.Error != nil {
 			s.Predicted.ErrorMean, s.Predicted.ErrorStd = finites(p.Error.Mean), finite(p.Error.Std)
 		}
@@ -235,6 +236,7 @@ type Progress struct {
 	Rejected      int64 // datagrams that did not decode
 	SkippedWarmup int64
 	Verdict       string // as it stands, with the tolerance
+	Reason        string // why
 }
 
 // Progress returns the current status.
@@ -244,15 +246,16 @@ func (m *Monitor) Progress() Progress {
 	st := m.on.Run(m.meanBuf)
 	pr := m.predicted()
 	p := Progress{Elapsed: m.now().Sub(m.started), Samples: st.Samples, Measured: st.SecondMoment,
-		CILow: st.CILow, CIHigh: st.CIHigh, Predicted: pr, Gaps: m.seq.Counts.Gaps, SkippedWarmup: m.skipped,
-		Verdict: verdict(st, pr, m.opts.Tolerance, !math.IsNaN(pr))}
+		CILow: st.CILow, CIHigh: st.CIHigh, Predicted: pr, Gaps: m.seq.Counts.Gaps, SkippedWarmup: m.skipped}
+	p.Verdict, p.Reason = m.runVerdict(st)
 	for _, f := range m.failures {
 		p.Rejected += f
 	}
 	return p
 }
 
-// String is a one-line status: elapsed, samples, measured ± CI, predicted.
+// String is a one-line status: elapsed, samples, measured [CI], predicted,
+// the verdict as it stands.
 func (p Progress) String() string {
 	var b strings.Builder
 	fmt.Fprintf(&b, "%8s  samples %d", p.Elapsed.Round(time.Second), p.Samples)
@@ -262,7 +265,7 @@ func (p Progress) String() string {
 	case math.IsNaN(p.CILow):
 		fmt.Fprintf(&b, "  E[eᵀe] %.5g", p.Measured)
 	default:
-		fmt.Fprintf(&b, "  E[eᵀe] %.5g ± %.2g [%.5g, %.5g]", p.Measured, (p.CIHigh-p.CILow)/2, p.CILow, p.CIHigh)
+		fmt.Fprintf(&b, "  E[eᵀe] %.5g [%.5g, %.5g]", p.Measured, p.CILow, p.CIHigh)
 	}
 	if math.IsNaN(p.Predicted) {
 		b.WriteString("  predicted: not mean-square stable")

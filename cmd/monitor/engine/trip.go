@@ -162,6 +162,7 @@ func (m *Monitor) tripFired(reason string, v, bound float64, seq uint64, hasSeq 
 	}
 	if m.phase != nil {
 		ev.Phase = m.phase.name
+		m.phase.cut = CutByTrip
 	}
 	m.trip.event = ev
 	return ev

@@ -10,6 +10,7 @@ import (
 	"github.com/prometheus/client_golang/prometheus"
 	"github.com/prometheus/client_golang/prometheus/testutil"
 
+	"rigwire/cmd/internal/exitcode"
 	"rigwire/profiles"
 )
 
@@ -37,7 +38,7 @@ func TestTripAbsError(t *testing.T) {
 		math.Abs(got[0].Value-0.6) > 1e-12 || got[0].Bound != 0.5 || got[0].Action != "stop_commands" {
 		t.Fatalf("events %+v", got)
 	}
-	if inFire == nil || inFire.Trip == nil || inFire.TripExitCode() != ExitTripped || inFire.SoakExitCode() != ExitTripped {
+	if inFire == nil || inFire.Trip == nil || inFire.TripExitCode() != exitcode.Tripped || inFire.SoakExitCode() != exitcode.Tripped {
 		t.Errorf("summary from fire: %+v", inFire)
 	}
 	if m.Tripped() == nil || m.Tripped().Reason != TripAbsError {
@@ -161,7 +162,8 @@ func TestTripAndPhaseMetrics(t *testing.T) {
 	for name, want := range map[string]int{
 		"rigwire_monitor_trip_active": 1, "rigwire_monitor_trips_total": 3, "rigwire_monitor_phase": 2,
 		"rigwire_monitor_phase_error_second_moment": 2, "rigwire_monitor_phase_predicted_error_second_moment": 2,
-		"rigwire_monitor_phase_passed": 1, // the running phase has none
+		"rigwire_monitor_phase_passed":       1, // the running phase has none
+		"rigwire_monitor_phase_inconclusive": 1, "rigwire_monitor_after_trip_samples_total": 1,
 	} {
 		if n, err := testutil.GatherAndCount(reg, name); err != nil || n != want {
 			t.Errorf("%s: %d series (%v), want %d", name, n, err, want)
