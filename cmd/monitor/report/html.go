@@ -22,7 +22,7 @@ type pageFigure struct {
 }
 
 type pageRow struct {
-	Name, Span, Samples, Measured, Predicted, Ratio, Verdict, Class, Reason string
+	Name, Span, Samples, Measured, Predicted, Ratio, Verdict, Class, Note, Reason string
 }
 
 type page struct {
@@ -50,6 +50,10 @@ func verdictClass(v string) string {
 		return "tripped"
 	case "running":
 		return "running"
+	case "inconclusive":
+		return "inconclusive"
+	case "not_run", "not run":
+		return "notrun"
 	}
 	return "unknown"
 }
@@ -60,12 +64,22 @@ func verdictText(v string) string {
 		return "PASS"
 	case "fail":
 		return "FAIL — see the phases below"
+	case "inconclusive":
+		return "INCONCLUSIVE — no phase failed, but the data could not judge every one (see the phases below)"
 	case "tripped":
 		return "TRIPPED — the safety guard ended the run"
 	case "":
 		return "NO VERDICT"
 	}
-	return strings.ToUpper(v)
+	return strings.ToUpper(phaseVerdict(v))
+}
+
+// phaseVerdict is a verdict as a reader reads it: "not run" for not_run.
+func phaseVerdict(v string) string {
+	if v == "not_run" {
+		return "not run"
+	}
+	return v
 }
 
 func fmtFloat(v float64) string {
@@ -131,8 +145,9 @@ func buildPage(d *Data, figs []*figure) page {
 			Measured:  meas,
 			Predicted: fmtNum(ph.Predicted),
 			Ratio:     r,
-			Verdict:   orDash(ph.Verdict),
+			Verdict:   orDash(phaseVerdict(ph.Verdict)),
 			Class:     verdictClass(ph.Verdict),
+			Note:      ph.Note,
 			Reason:    ph.Reason,
 		})
 	}
@@ -177,7 +192,8 @@ h2 { font-size: 1.2em; border-bottom: 1px solid #999; padding-bottom: 0.15em; ma
 .verdict.pass { color: #145a14; border-color: #145a14; background: #eaf5ea; }
 .verdict.fail { color: #8b1010; border-color: #8b1010; background: #fbeaea; }
 .verdict.tripped { color: #7a4100; border-color: #7a4100; background: #fdf1e0; }
-.verdict.unknown, .verdict.running { color: #444; border-color: #444; background: #f2f2f2; }
+.verdict.inconclusive { color: #5a4a00; border-color: #5a4a00; background: #fbf6dc; }
+.verdict.unknown, .verdict.running, .verdict.notrun { color: #444; border-color: #444; background: #f2f2f2; }
 dl.facts { display: grid; grid-template-columns: max-content auto; gap: 0.15em 1em; margin: 0.6em 0; }
 dl.facts dt { font-weight: bold; }
 dl.facts dd { margin: 0; font-family: "DejaVu Sans Mono", Consolas, monospace; word-break: break-all; }
@@ -191,7 +207,8 @@ th { background: #eee; }
 td.num { text-align: right; font-variant-numeric: tabular-nums; white-space: nowrap; }
 td.pass { color: #145a14; font-weight: bold; }
 td.fail { color: #8b1010; font-weight: bold; }
-td.running, td.unknown, td.tripped { color: #444; font-weight: bold; }
+td.inconclusive { color: #5a4a00; font-weight: bold; }
+td.running, td.unknown, td.tripped, td.notrun { color: #444; font-weight: bold; }
 figure { margin: 1.2em 0; page-break-inside: avoid; break-inside: avoid; }
 figure img { max-width: 100%; height: auto; border: 1px solid #ddd; }
 figcaption { font-size: 0.9em; color: #333; margin-top: 0.3em; }
@@ -230,9 +247,9 @@ footer { margin-top: 2em; font-size: 0.8em; color: #666; }
 <section>
 <h2>Phases</h2>
 {{if .Rows}}<table>
-<thead><tr><th>Phase</th><th>Start – end</th><th>Samples</th><th>Measured E[eᵀe] [CI]</th><th>Predicted</th><th>Ratio</th><th>Verdict</th><th>Reason</th></tr></thead>
+<thead><tr><th>Phase</th><th>Start – end</th><th>Samples</th><th>Measured E[eᵀe] [CI]</th><th>Predicted</th><th>Ratio</th><th>Verdict</th><th>Note</th><th>Reason</th></tr></thead>
 <tbody>{{range .Rows}}
-<tr><td>{{.Name}}</td><td class="num">{{.Span}}</td><td class="num">{{.Samples}}</td><td class="num">{{.Measured}}</td><td class="num">{{.Predicted}}</td><td class="num">{{.Ratio}}</td><td class="{{.Class}}">{{.Verdict}}</td><td>{{.Reason}}</td></tr>{{end}}
+<tr><td>{{.Name}}</td><td class="num">{{.Span}}</td><td class="num">{{.Samples}}</td><td class="num">{{.Measured}}</td><td class="num">{{.Predicted}}</td><td class="num">{{.Ratio}}</td><td class="{{.Class}}">{{.Verdict}}</td><td>{{.Note}}</td><td>{{.Reason}}</td></tr>{{end}}
 </tbody>
 </table>{{else}}<p class="nodata">No phases were recorded.</p>{{end}}
 </section>

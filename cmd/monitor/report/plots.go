@@ -564,7 +564,7 @@ func phasesFigure(d *Data) *figure {
 		if name == "" {
 			name = fmt.Sprintf("phase %d", ph.Index)
 		}
-		v := strings.ToUpper(ph.Verdict)
+		v := strings.ToUpper(phaseVerdict(ph.Verdict))
 		if v == "" {
 			v = "NO VERDICT"
 		}

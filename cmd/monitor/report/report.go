@@ -24,7 +24,7 @@ type Data struct {
 	Scenario string // scenario file path
 	Started  time.Time
 	Duration time.Duration
-	Verdict  string // "pass", "fail", "tripped"
+	Verdict  string // "pass", "fail", "inconclusive", "tripped"
 	ExitCode int
 	Notes    []string // free lines (seed, time scale, relay counts…)
 	Phases   []Phase
@@ -38,14 +38,17 @@ type Data struct {
 type Phase struct {
 	Index      int
 	Name       string
-	Start, End float64 // seconds from start
+	Start, End float64 // seconds from start; NaN when the phase did not start or end
 	Samples    int64
 	Measured   *float64
 	CILow      *float64
 	CIHigh     *float64
 	Predicted  *float64
-	Verdict    string // pass | fail | running
+	Verdict    string // pass | fail | inconclusive | running | not_run
 	Reason     string
+	// Note is said beside the verdict: cut short by the trip, a
+	// prediction outside the measured interval of a bound-only check.
+	Note string
 }
 
 // Point is one sample of the online estimate. Nil pointers mean "no value".

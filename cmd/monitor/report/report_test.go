@@ -411,3 +411,37 @@ func BenchmarkWrite4096(b *testing.B) {
 		}
 	}
 }
+
+// A soak that could not judge every phase: the header says INCONCLUSIVE,
+// the phase that never ran has no span and reads "not run", and each
+// row's note (cut short by the trip, a prediction outside the interval)
+// is shown.
+func TestInconclusiveAndNotRun(t *testing.T) {
+	d := pumpSoak(120)
+	d.Verdict, d.ExitCode = "inconclusive", 5
+	d.Phases[1].Verdict, d.Phases[1].Reason = "inconclusive", "only 300 judged samples, want ≥ 400"
+	d.Phases[1].Note = "cut by trip (12 after it)"
+	d.Phases[2] = Phase{Index: 2, Name: "outage", Start: math.NaN(), End: math.NaN(), Verdict: "not_run",
+		Reason: "not run: the soak ended before it"}
+	d.Phases = append(d.Phases, Phase{Index: 3, Name: "bounded", Start: 300, End: 360, Samples: 6000,
+		Measured: f64(0.0007), CILow: f64(0.0006), CIHigh: f64(0.0008), Predicted: f64(0.09), Verdict: "pass",
+		Reason: "within the bound 0.5; warning: prediction 0.09 outside the measured interval", Note: "prediction outside interval"})
+	dir := t.TempDir()
+	paths, err := Write(dir, d)
+	if err != nil {
+		t.Fatal(err)
+	}
+	c := checkReport(t, dir, paths)
+	for _, s := range []string{"INCONCLUSIVE", "exit code 5", "only 300 judged samples, want ≥ 400", "cut by trip (12 after it)",
+		"not run", "not run: the soak ended before it", "— – —", "prediction outside interval"} {
+		if !strings.Contains(c.text, s) {
+			t.Errorf("report text lacks %q", s)
+		}
+	}
+	if strings.Contains(c.text, "not_run") {
+		t.Errorf("the report shows the JSON spelling not_run")
+	}
+	if !strings.Contains(c.html, `class="inconclusive"`) || !strings.Contains(c.html, `class="notrun"`) {
+		t.Errorf("rows lack their verdict classes")
+	}
+}
