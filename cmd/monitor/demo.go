@@ -12,6 +12,7 @@ import (
 	"time"
 
 	"rigwire/cmd/internal/exitcode"
+	"rigwire/cmd/monitor/engine"
 	"rigwire/emulate"
 	"rigwire/emulate/rig"
 	"rigwire/profiles"
@@ -45,7 +46,7 @@ var demoExits = exitcode.Help(
 		exitcode.OK:           "the measured E[eᵀe] agrees with the prediction",
 		exitcode.Failure:      "error while running (a socket)",
 		exitcode.BadInput:     "bad usage, or a loop or profile file that does not load or validate (the message names file, line and key)",
-		exitcode.Inconclusive: "the data cannot tell (no samples, or too few to judge)",
+		exitcode.Inconclusive: "the data cannot tell (too few samples, batches short for the loop's correlation time, or an interval too wide to confirm); a longer --duration helps",
 		exitcode.NotStable:    "the prediction is not mean-square stable (or marginal), so there is nothing to compare with",
 	})
 
@@ -187,10 +188,15 @@ func cmdDemo(args []string, stdout, stderr io.Writer) error {
 	ns, cs := node.Stats(), ctl.Stats()
 	fmt.Fprintf(stdout, "rig:\n  %-24s samples %d, commands applied %d, late %d, sent late by the host (overruns) %d\n", "node", ns.Samples, ns.Applied, ns.Late, ns.Overruns)
 	fmt.Fprintf(stdout, "  %-24s samples used %d, stale %d\n", "controller", cs.Used, cs.Stale)
-	if code := s.ExitCode(true); code != 0 {
-		return exitError{code: code, msg: fmt.Sprintf("verdict %s: the measured E[eᵀe] and the prediction part", s.Verdict)}
+	switch code := s.ExitCode(true); s.Verdict {
+	case engine.VerdictAgree:
+		return nil
+	case engine.VerdictInconclusive:
+		return exitError{code: code, msg: "verdict inconclusive: " + s.VerdictReason +
+			" (a longer --duration gives the estimate more to go on)"}
+	default:
+		return exitError{code: code, msg: fmt.Sprintf("verdict %s: %s", s.Verdict, s.VerdictReason)}
 	}
-	return nil
 }
 
 // canceled is a context that has ended (to close what was opened).

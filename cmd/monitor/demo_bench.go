@@ -217,7 +217,8 @@ func (b *bench) report(w io.Writer, s *engine.Summary) {
 		fmt.Fprintf(w, "%-26s %-14s %.0f (%d batches of %d)\n", "effective samples", "", *s.Effective, s.Batches, s.BatchSize)
 	}
 	fmt.Fprintf(w, "%-26s %-14s %s\n", "measured / predicted", "", val(s.Ratio))
-	fmt.Fprintf(w, "\nverdict: %s (prediction against the measured interval widened by %g of its bounds)\n", s.Verdict, s.Tolerance)
+	fmt.Fprintf(w, "\nverdict: %s (prediction against the measured interval widened by %g of its bounds): %s\n",
+		s.Verdict, s.Tolerance, s.VerdictReason)
 	counts := b.relayCounts()
 	dirs := make([]string, 0, len(counts))
 	for d := range counts {

@@ -90,6 +90,7 @@ func cmdServe(args []string, stdout, stderr io.Writer) error {
 	} else if err := os.WriteFile(*bf.summary, out, 0o644); err != nil {
 		return fmt.Errorf("--summary: %w", err)
 	}
+	fmt.Fprintln(stderr, verdictLine(s))
 	if s.Trip != nil {
 		return exitError{code: s.TripExitCode(), msg: fmt.Sprintf("safety trip: %s %.5g above the bound %.5g; relay action %s",
 			s.Trip.Reason, s.Trip.Value, s.Trip.Bound, s.Trip.Action)}

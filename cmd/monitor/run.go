@@ -18,6 +18,7 @@ import (
 
 	"rigwire/cmd/internal/exitcode"
 	"rigwire/cmd/internal/metricsrv"
+	"rigwire/cmd/internal/stability"
 	"rigwire/cmd/internal/tripwire"
 	"rigwire/cmd/monitor/engine"
 	"rigwire/emulate"
@@ -35,11 +36,16 @@ const runUsage = `usage: monitor run --loop LOOP.yaml --listen HOST:PORT [--metr
 
 Receives the rig's sensor datagrams, decodes them with the loop's decode
 section, estimates E[eᵀe] of e = setpoint − y online with a 95 % batch-means
-confidence interval, compares it with the prediction, serves Prometheus
-metrics and, at the end (--duration, SIGINT or SIGTERM), writes a JSON
-summary with a verdict: agree when the predicted E[eᵀe] lies in the
-interval widened by --tolerance ([lo − tol·|lo|, hi + tol·|hi|]), above when
-the measured value is above the prediction, below when below. Without
+confidence interval (on the log scale, so never below zero), compares it
+with the prediction, serves Prometheus metrics and, at the end (--duration,
+SIGINT or SIGTERM), writes a JSON summary with a verdict: above when the
+predicted E[eᵀe] lies below the interval widened by --tolerance
+([lo·(1 − tol), hi·(1 + tol)]), below when it lies above it, agree when it
+lies inside and that interval is narrow enough to have shown a prediction
+off by a factor of 2, inconclusive when the data cannot tell (fewer than
+400 samples, batches short for the loop's correlation time, or an
+interval too wide to confirm; the summary's verdict_reason says which),
+unstable when the prediction is not mean-square stable. Without
 --strict the status is 0 once the summary is written, whatever the
 verdict; a safety trip gives 8 either way.
 
@@ -62,7 +68,7 @@ var runExits = exitcode.Help(
 		exitcode.Tripped:      "the loop's safety trip fired (before any verdict code)",
 		exitcode.Above:        "with --strict: the measured E[eᵀe] lies above the prediction",
 		exitcode.Below:        "with --strict: the measured E[eᵀe] lies below the prediction",
-		exitcode.Inconclusive: "with --strict: the data cannot tell (no samples, or too few to judge)",
+		exitcode.Inconclusive: "with --strict: the data cannot tell (too few samples, batches short for the loop's correlation time, or an interval too wide to confirm)",
 		exitcode.NotStable:    "with --strict: the prediction is not mean-square stable (or marginal), so there is nothing to compare with",
 	})
 
@@ -255,16 +261,15 @@ func parseWindows(s string) ([]time.Duration, error) {
 }
 
 func printPrediction(w io.Writer, pr *estimate.Prediction) {
-	switch {
-	case !pr.MeanSquareStable:
-		fmt.Fprintf(w, "predicted: NOT mean-square stable (spectral radius %.6g ≥ 1); no predicted E[eᵀe] to compare with\n", pr.SpectralRadius)
-	default:
-		fmt.Fprintf(w, "predicted: E[eᵀe] = %.6g, mean-square stable (spectral radius %.6g)", pr.Error.SecondMoment, pr.SpectralRadius)
-		if !math.IsNaN(pr.LossMargin) {
-			fmt.Fprintf(w, ", loss margin %.4f", pr.LossMargin)
-		}
-		fmt.Fprintln(w)
+	if !pr.MeanSquareStable || pr.Error == nil {
+		fmt.Fprintf(w, "predicted: %s; no predicted E[eᵀe] to compare with\n", stability.Describe(pr))
+		return
 	}
+	fmt.Fprintf(w, "predicted: E[eᵀe] = %.6g, %s", pr.Error.SecondMoment, stability.Describe(pr))
+	if !math.IsNaN(pr.LossMargin) {
+		fmt.Fprintf(w, ", loss margin %.4f", pr.LossMargin)
+	}
+	fmt.Fprintln(w)
 }
 
 // showProgress writes a status line every interval until ctx ends.
@@ -285,6 +290,7 @@ func showProgress(ctx context.Context, mon *engine.Monitor, every time.Duration,
 	}
 }
 
+// verdictLine is the run's verdict with the numbers behind it and why.
 func verdictLine(s *engine.Summary) string {
 	f := func(p *float64) string {
 		if p == nil {
@@ -292,8 +298,9 @@ func verdictLine(s *engine.Summary) string {
 		}
 		return fmt.Sprintf("%.6g", *p)
 	}
-	return fmt.Sprintf("verdict %s: measured E[eᵀe] %s, 95 %% CI [%s, %s] from %d samples; predicted %s; tolerance %g",
-		s.Verdict, f(s.ErrorSecondMoment), f(s.CILow), f(s.CIHigh), s.Samples, f(s.PredictedSecondMoment), s.Tolerance)
+	return fmt.Sprintf("verdict %s: measured E[eᵀe] %s, %g %% CI [%s, %s] from %d samples; predicted %s; tolerance %g — %s",
+		s.Verdict, f(s.ErrorSecondMoment), 100*s.Level, f(s.CILow), f(s.CIHigh), s.Samples, f(s.PredictedSecondMoment), s.Tolerance,
+		s.VerdictReason)
 }
 
 // writeRunSummary writes the JSON summary to path (atomically, through a

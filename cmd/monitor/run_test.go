@@ -4,6 +4,7 @@ import (
 	"strings"
 	"testing"
 
+	"rigwire/cmd/internal/exitcode"
 	"rigwire/cmd/monitor/engine"
 )
 
@@ -41,11 +42,11 @@ func TestRunBadInput(t *testing.T) {
 	}
 }
 
-// The exit codes of --strict, as runUsage documents them.
+// The exit codes of --strict, from the one table of exit statuses.
 func TestRunExitCodes(t *testing.T) {
 	for verdict, want := range map[string]int{
-		engine.VerdictAgree: 0, engine.VerdictAbove: 3, engine.VerdictBelow: 4,
-		engine.VerdictNoSamples: 5, engine.VerdictUnstable: 6,
+		engine.VerdictAgree: exitcode.OK, engine.VerdictAbove: exitcode.Above, engine.VerdictBelow: exitcode.Below,
+		engine.VerdictInconclusive: exitcode.Inconclusive, engine.VerdictUnstable: exitcode.NotStable,
 	} {
 		s := &engine.Summary{Verdict: verdict}
 		if got := s.ExitCode(true); got != want {
@@ -54,5 +55,9 @@ func TestRunExitCodes(t *testing.T) {
 		if got := s.ExitCode(false); got != 0 {
 			t.Errorf("%s: exit %d without --strict, want 0", verdict, got)
 		}
+	}
+	// The numbers the help and the README give.
+	if exitcode.Above != 3 || exitcode.Below != 4 || exitcode.Inconclusive != 5 || exitcode.NotStable != 6 {
+		t.Errorf("the --strict statuses are no longer 3, 4, 5, 6")
 	}
 }

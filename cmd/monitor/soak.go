@@ -11,6 +11,7 @@ import (
 	"path/filepath"
 	"strings"
 	"time"
+	"unicode/utf8"
 
 	"rigwire/cmd/internal/exitcode"
 	"rigwire/cmd/monitor/engine"
@@ -51,8 +52,8 @@ var soakExits = exitcode.Help(
 		exitcode.Failure:      "error while running (a socket, the summary or the report)",
 		exitcode.BadInput:     "bad usage, or a loop, profile or scenario file that does not load or validate (the message names file, line and key)",
 		exitcode.Tripped:      "the safety trip fired (before any phase verdict)",
-		exitcode.PhaseFailed:  "a phase failed its check, or the scenario was cut short (the message names them)",
-		exitcode.Inconclusive: "no phase failed but one could not be judged (the data could not tell)",
+		exitcode.PhaseFailed:  "a phase failed its check (the message names it)",
+		exitcode.Inconclusive: "no phase failed, but one could not be judged (the data could not tell) or did not run (the soak was interrupted)",
 	})
 
 // cmdSoak plays a scenario on the relay (in process, like serve) while the
@@ -115,6 +116,7 @@ func cmdSoak(args []string, stdout, stderr io.Writer) error {
 	for i, p := range sc.Phases {
 		names[i] = p.Name
 	}
+	b.mon.PlanPhases(names)
 	log.Info("soak", "scenario", sc.File, "phases", strings.Join(names, ","), "duration", sc.Total().String(),
 		"loop", loop.File, "listen", b.relay.ListenAddr().String(), "controller", *bf.controller, "metrics", b.url,
 		"seed", b.relay.Seed())
@@ -151,10 +153,12 @@ func cmdSoak(args []string, stdout, stderr io.Writer) error {
 	}
 	var playErr error
 	var afterTripC <-chan time.Time
+	finished := false // the scenario played to its end
 wait:
 	for {
 		select {
 		case playErr = <-playDone:
+			finished = playErr == nil
 			break wait
 		case <-tripped:
 			tripped = nil
@@ -169,12 +173,15 @@ wait:
 	if err := <-benchDone; err != nil {
 		return err
 	}
-	b.mon.EndPhases()
+	b.mon.EndPhases(!finished)
 	s := b.mon.Summary()
 	code := s.SoakExitCode()
-	if playErr != nil && code == 0 {
-		// Interrupted before the end: the phases not played were not judged.
+	if !finished && s.Trip == nil {
+		// Interrupted before the end: the phases not played are not run.
 		log.Warn("soak interrupted before the scenario's end", "elapsed", time.Since(started).Round(time.Millisecond).String())
+		if code == exitcode.OK {
+			code = exitcode.Inconclusive
+		}
 	}
 	out, err := json.MarshalIndent(s, "", "  ")
 	if err != nil {
@@ -197,24 +204,46 @@ wait:
 		fmt.Fprintf(stderr, "report: %s\n", filepath.Join(*reportDir, "report.html"))
 		log.Debug("report files", "files", files)
 	}
-	switch {
-	case s.Trip != nil:
-		return exitError{code: soakExitTripped, msg: fmt.Sprintf("safety trip in phase %q: %s %.5g above the bound %.5g",
-			s.Trip.Phase, s.Trip.Reason, s.Trip.Value, s.Trip.Bound)}
-	case code == soakExitFailed:
-		var failed []string
+	return soakExit(s, code, playErr)
+}
+
+// soakExit is the soak's exit: nil for 0, else the status with a message
+// naming the trip, the failed phases, or the phases that could not be
+// judged.
+func soakExit(s *engine.Summary, code int, playErr error) error {
+	list := func(verdicts ...string) string {
+		var out []string
 		for _, p := range s.Phases {
-			if p.Verdict == "fail" {
-				failed = append(failed, fmt.Sprintf("%q (%s)", p.Name, p.Reason))
+			for _, v := range verdicts {
+				if p.Verdict == v {
+					out = append(out, fmt.Sprintf("%q (%s)", p.Name, p.Reason))
+				}
 			}
 		}
-		return exitError{code: soakExitFailed, msg: "failed phase " + strings.Join(failed, ", ")}
-	case code != 0:
-		return exitError{code: code}
-	case playErr != nil:
-		return exitError{code: soakExitFailed, msg: "interrupted before the scenario's end: " + playErr.Error()}
+		return strings.Join(out, ", ")
 	}
-	return nil
+	switch code {
+	case exitcode.OK:
+		return nil
+	case soakExitTripped:
+		return exitError{code: code, msg: fmt.Sprintf("safety trip in phase %q: %s %.5g above the bound %.5g",
+			s.Trip.Phase, s.Trip.Reason, s.Trip.Value, s.Trip.Bound)}
+	case soakExitFailed:
+		return exitError{code: code, msg: "failed phase " + list(engine.PhaseFail)}
+	case exitcode.Inconclusive:
+		msg := ""
+		if l := list(engine.PhaseInconclusive, engine.PhaseNotRun); l != "" {
+			msg = "no phase failed, but these could not be judged: " + l
+		}
+		if playErr != nil {
+			if msg != "" {
+				msg += "; "
+			}
+			msg += "interrupted before the scenario's end: " + playErr.Error()
+		}
+		return exitError{code: code, msg: msg}
+	}
+	return exitError{code: code}
 }
 
 // predictSteps computes the prediction for each distinct profile the steps
@@ -262,7 +291,10 @@ func soakProgress(sc *profiles.Scenario, mon *engine.Monitor, elapsed time.Durat
 		strings.TrimSpace(mon.Progress().String()))
 }
 
-// soakTable prints one line per phase: verdict, measured, predicted, why.
+// soakTable prints one line per phase: verdict, samples, measured with
+// its interval, predicted, a note (cut short by the trip, the prediction
+// outside the interval of a bound-only check) and the reason; then the
+// trip and what "inconclusive" means.
 func soakTable(w io.Writer, s *engine.Summary) {
 	val := func(p *float64) string {
 		if p == nil {
@@ -270,17 +302,55 @@ func soakTable(w io.Writer, s *engine.Summary) {
 		}
 		return fmt.Sprintf("%.4g", *p)
 	}
-	fmt.Fprintf(w, "\n%-16s %-8s %8s %-12s %-22s %-12s %s\n", "phase", "verdict", "samples", "E[eᵀe]", "95 % CI", "predicted", "reason")
+	noteWidth := len("note")
+	for _, p := range s.Phases {
+		noteWidth = max(noteWidth, utf8.RuneCountInString(phaseNote(p)))
+	}
+	fmt.Fprintf(w, "\n%-16s %-12s %8s %-12s %-22s %-12s %-*s %s\n", "phase", "verdict", "samples", "E[eᵀe]",
+		fmt.Sprintf("%g %% CI", 100*s.Level), "predicted", noteWidth, "note", "reason")
+	inconclusive := false
 	for _, p := range s.Phases {
 		ci := "-"
 		if p.CILow != nil && p.CIHigh != nil {
 			ci = fmt.Sprintf("[%.4g, %.4g]", *p.CILow, *p.CIHigh)
 		}
-		fmt.Fprintf(w, "%-16s %-8s %8d %-12s %-22s %-12s %s\n", p.Name, p.Verdict, p.Samples,
-			val(p.ErrorSecondMoment), ci, val(p.PredictedSecondMoment), p.Reason)
+		fmt.Fprintf(w, "%-16s %-12s %8d %-12s %-22s %-12s %-*s %s\n", p.Name, phaseVerdictText(p.Verdict), p.Samples,
+			val(p.ErrorSecondMoment), ci, val(p.PredictedSecondMoment), noteWidth, phaseNote(p), p.Reason)
+		inconclusive = inconclusive || p.Verdict == engine.PhaseInconclusive
 	}
 	if s.Trip != nil {
-		fmt.Fprintf(w, "\nsafety trip: %s %.5g above %.5g in phase %q after %.3fs; relay action %s\n",
-			s.Trip.Reason, s.Trip.Value, s.Trip.Bound, s.Trip.Phase, s.Trip.Elapsed, s.Trip.Action)
+		fmt.Fprintf(w, "\nsafety trip: %s %.5g above %.5g in phase %q after %.3fs; relay action %s; %d later samples not judged\n",
+			s.Trip.Reason, s.Trip.Value, s.Trip.Bound, s.Trip.Phase, s.Trip.Elapsed, s.Trip.Action, s.AfterTripSamples)
 	}
+	if inconclusive {
+		fmt.Fprintf(w, "\ninconclusive: the data could not tell agreement from disagreement; the rule: %s\n", engine.VerdictRule)
+	}
+}
+
+// phaseVerdictText is a phase's verdict as the table and the report show
+// it ("not run" for not_run).
+func phaseVerdictText(v string) string {
+	if v == engine.PhaseNotRun {
+		return "not run"
+	}
+	return v
+}
+
+// phaseNote is the table's note for a phase: how it was cut short, and a
+// prediction outside the measured interval of a check on the bound only.
+func phaseNote(p engine.PhaseResult) string {
+	var notes []string
+	switch p.CutShort {
+	case engine.CutByTrip:
+		notes = append(notes, fmt.Sprintf("cut by trip (%d after it)", p.AfterTripSamples))
+	case engine.CutInterrupt:
+		notes = append(notes, "cut short (interrupted)")
+	}
+	if p.PredictionOutside {
+		notes = append(notes, "prediction outside interval")
+	}
+	if len(notes) == 0 {
+		return "-"
+	}
+	return strings.Join(notes, "; ")
 }

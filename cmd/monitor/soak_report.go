@@ -6,6 +6,7 @@ import (
 	"sort"
 	"time"
 
+	"rigwire/cmd/internal/exitcode"
 	"rigwire/cmd/monitor/engine"
 	"rigwire/cmd/monitor/report"
 	"rigwire/profiles"
@@ -19,8 +20,10 @@ func writeSoakReport(dir string, b *bench, sc *profiles.Scenario, loop *profiles
 	switch {
 	case s.Trip != nil:
 		verdict = "tripped"
-	case code != 0:
+	case code == exitcode.PhaseFailed:
 		verdict = "fail"
+	case code != exitcode.OK:
+		verdict = "inconclusive"
 	}
 	d := &report.Data{
 		Title:    "Soak: " + sc.Name,
@@ -33,20 +36,17 @@ func writeSoakReport(dir string, b *bench, sc *profiles.Scenario, loop *profiles
 		Notes: []string{
 			fmt.Sprintf("relay seed %d", b.relay.Seed()),
 			fmt.Sprintf("%d samples estimated over the run, %d datagrams received, %d sample gaps", s.Samples, s.Datagrams, s.Gaps),
-			"predictions per phase are steady-state values (MODEL.md); during a ramp the phase's prediction is the mean of the predictions in force at each judged sample",
+			"predictions per phase are steady-state values; during a ramp the phase's prediction is the mean of the predictions in force at each judged sample",
+			"interval: " + engine.CIMethod,
+			"verdict rule: " + engine.VerdictRule,
 		},
 		Delays:   b.relayHistogram("rigwire_relay_delay_seconds"),
 		LossRuns: b.relayHistogram("rigwire_relay_loss_run_length"),
 	}
-	for _, p := range s.Phases {
-		rp := report.Phase{Index: p.Index, Name: p.Name, Start: p.StartSeconds, Samples: p.Samples,
-			Measured: p.ErrorSecondMoment, CILow: p.CILow, CIHigh: p.CIHigh, Predicted: p.PredictedSecondMoment,
-			Verdict: p.Verdict, Reason: p.Reason}
-		if p.EndSeconds != nil {
-			rp.End = *p.EndSeconds
-		}
-		d.Phases = append(d.Phases, rp)
+	if s.AfterTripSamples > 0 {
+		d.Notes = append(d.Notes, fmt.Sprintf("%d samples arrived after the safety trip; they are in no estimate", s.AfterTripSamples))
 	}
+	d.Phases = reportPhases(s.Phases)
 	for _, pt := range b.mon.History() {
 		d.History = append(d.History, report.Point{Elapsed: pt.Elapsed, Measured: pt.Measured, CILow: pt.CILow,
 			CIHigh: pt.CIHigh, Predicted: pt.Predicted, Phase: pt.Phase})
@@ -55,6 +55,28 @@ func writeSoakReport(dir string, b *bench, sc *profiles.Scenario, loop *profiles
 		d.Trip = &report.Trip{Reason: t.Reason, Value: t.Value, Bound: t.Bound, Elapsed: t.Elapsed, Phase: t.Phase, Action: t.Action}
 	}
 	return report.Write(dir, d)
+}
+
+// reportPhases converts the summary's phases for the report; a phase not
+// run has no start or end (NaN).
+func reportPhases(ps []engine.PhaseResult) []report.Phase {
+	var out []report.Phase
+	for _, p := range ps {
+		rp := report.Phase{Index: p.Index, Name: p.Name, Start: math.NaN(), End: math.NaN(), Samples: p.Samples,
+			Measured: p.ErrorSecondMoment, CILow: p.CILow, CIHigh: p.CIHigh, Predicted: p.PredictedSecondMoment,
+			Verdict: p.Verdict, Reason: p.Reason}
+		if p.StartSeconds != nil {
+			rp.Start = *p.StartSeconds
+		}
+		if p.EndSeconds != nil {
+			rp.End = *p.EndSeconds
+		}
+		if n := phaseNote(p); n != "-" {
+			rp.Note = n
+		}
+		out = append(out, rp)
+	}
+	return out
 }
 
 // relayHistogram reads a relay histogram by direction from the registry,
