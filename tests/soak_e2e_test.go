@@ -14,13 +14,17 @@ import (
 type soakResult struct {
 	Samples int64 `json:"samples"`
 	Phases  []struct {
-		Name      string   `json:"name"`
-		Verdict   string   `json:"verdict"`
-		Reason    string   `json:"reason"`
-		Samples   int64    `json:"samples"`
-		Measured  *float64 `json:"error_second_moment"`
-		Predicted *float64 `json:"predicted_second_moment"`
+		Name             string   `json:"name"`
+		Verdict          string   `json:"verdict"`
+		Reason           string   `json:"reason"`
+		Samples          int64    `json:"samples"`
+		AfterTripSamples int64    `json:"after_trip_samples"`
+		CutShort         string   `json:"cut_short"`
+		Measured         *float64 `json:"error_second_moment"`
+		Predicted        *float64 `json:"predicted_second_moment"`
+		StartSeconds     *float64 `json:"start_seconds"`
 	} `json:"phases"`
+	AfterTripSamples int64 `json:"after_trip_samples"`
 	Trip *struct {
 		Reason   string  `json:"reason"`
 		Sequence *uint64 `json:"sequence"`
@@ -68,8 +72,14 @@ func runSoak(t *testing.T, scenario string, scale string, wall time.Duration, re
 // TestSoakPasses plays ten minutes of scenario time (three phases: nominal,
 // a ramp of the command path's delay, recovery) at a fifth of the time on
 // the simulated diverter: every phase's measured E[eᵀe] must agree with
-// its own prediction (MODEL.md §4; quasi-static mean over the ramp) within
-// the scenario's tolerance, the soak exits 0, and the report is written.
+// its own prediction (the steady moments of the jump system; quasi-static
+// mean over the ramp) within the scenario's tolerance, with an interval
+// narrow enough to confirm it, the soak exits 0, and the report is
+// written. The loop forgets its past within a few periods, so a 32 s
+// judged phase (about 3200 samples) is plenty: over 60 simulated runs of
+// that length (estimate.Simulate, the verdict rule of the monitor
+// engine) the verdict was agree in all 60, and a prediction 7.4 times too
+// high was below in all 60.
 func TestSoakPasses(t *testing.T) {
 	if testing.Short() {
 		t.Skip("a two-minute soak")
@@ -85,11 +95,11 @@ func TestSoakPasses(t *testing.T) {
 		t.Fatalf("phases %+v, want %v", s.Phases, want)
 	}
 	for i, p := range s.Phases {
-		if p.Name != want[i] || p.Verdict != "pass" || p.Samples < 500 {
-			t.Errorf("phase %d: %+v, want %s passed with ≥ 500 samples", i, p, want[i])
+		if p.Name != want[i] || p.Verdict != "pass" || p.Samples < 2000 {
+			t.Errorf("phase %d: %s %s with %d samples (%s), want %s passed with ≥ 2000 samples", i, p.Name, p.Verdict, p.Samples, p.Reason, want[i])
 		}
 	}
-	// The ramp raises the prediction (1.5 ms → 5 ms median command delay).
+	// The ramp raises the prediction (1.5 ms → 4 ms median command delay).
 	if a, b := s.Phases[0].Predicted, s.Phases[1].Predicted; a == nil || b == nil || !(*b > *a*1.05) {
 		t.Errorf("degrading predicted %v, nominal %v: want the ramp to raise it", b, a)
 	}
@@ -116,9 +126,10 @@ func TestSoakPasses(t *testing.T) {
 }
 
 // TestSoakWrongPredictionFails plays the same ten minutes but judges the
-// recovery phase against a wrong belief about the command path (8 ms median
-// delay instead of 1.5 ms): the soak exits 7 and names recovery, and only
-// recovery, as failed.
+// recovery phase against a wrong belief about the command path (6 ms median
+// delay instead of 1.5 ms, predicting about 7 times the second moment):
+// the soak exits 7 and names recovery, and only recovery, as failed (the
+// prediction above the measured interval: measured below).
 func TestSoakWrongPredictionFails(t *testing.T) {
 	if testing.Short() {
 		t.Skip("a two-minute soak")
@@ -138,6 +149,9 @@ func TestSoakWrongPredictionFails(t *testing.T) {
 		}
 		if p.Verdict != want {
 			t.Errorf("phase %s: verdict %s (%s), want %s", p.Name, p.Verdict, p.Reason, want)
+		}
+		if p.Name == "recovery" && !strings.Contains(p.Reason, "measured below") {
+			t.Errorf("recovery: %s, want the measured value below the prediction", p.Reason)
 		}
 	}
 }

@@ -6,6 +6,7 @@ import (
 	"net"
 	"os"
 	"path/filepath"
+	"regexp"
 	"strconv"
 	"strings"
 	"sync"
@@ -42,6 +43,7 @@ profile:
   controller_to_actuator: {loss: 0.5, delay: {kind: constant, value: 50ms}}
 phases:
   - {name: impaired, duration: 30s}
+  - {name: recovery, duration: 30s, check: {tolerance: 0.2}}
 `
 
 // TestTripWithinOnePeriod drives `monitor soak` with samples the test
@@ -51,7 +53,10 @@ phases:
 // trip action says: clean (no loss, no delay, for samples and commands) or
 // stop_commands (samples clean, no command reaches the actuator any more).
 // The soak then ends with exit status 8 and names the sample that tripped;
-// `monitor serve` does the same with the loop's own profile.
+// its phase is judged on the samples up to the trip only (the later ones
+// counted apart), the phase after it is listed as not run, in the summary,
+// the table and the report; `monitor serve` does the same with the loop's
+// own profile.
 func TestTripWithinOnePeriod(t *testing.T) {
 	for _, action := range []string{"clean", "stop_commands"} {
 		t.Run(action, func(t *testing.T) {
@@ -90,8 +95,9 @@ func tripRun(t *testing.T, action, command string) {
 	summary := filepath.Join(dir, "summary.json")
 	args := []string{command, "--loop", loop, "--listen", relayAddr,
 		"--controller", ctl.LocalAddr().String(), "--metrics", "off", "--summary", summary, "--progress", "0"}
+	reportDir := filepath.Join(dir, "report")
 	if command == "soak" {
-		args = append(args, "--scenario", scen, "--after-trip", "1s")
+		args = append(args, "--scenario", scen, "--after-trip", "1s", "--report", reportDir)
 	} else {
 		args = append(args, "--duration", "3s")
 	}
@@ -212,5 +218,41 @@ func tripRun(t *testing.T, action, command string) {
 	}
 	if !strings.Contains(soak.out.String(), "safety trip") {
 		t.Errorf("the soak's output does not say it tripped:\n%s", soak.out.String())
+	}
+	if command != "soak" {
+		return
+	}
+	// Samples 0…100 reached the monitor before the trip (its tap sees them
+	// before impairment; loopback may lose one), 101…160 after it.
+	if len(s.Phases) != 2 {
+		t.Fatalf("phases %+v, want impaired and recovery", s.Phases)
+	}
+	imp, rec := s.Phases[0], s.Phases[1]
+	if imp.Name != "impaired" || imp.CutShort != "trip" || imp.Samples < crossing-5 || imp.Samples > crossing+1 ||
+		imp.AfterTripSamples < last-crossing-10 || imp.AfterTripSamples > last-crossing ||
+		!strings.Contains(imp.Reason, "cut short by the safety trip") {
+		t.Errorf("impaired: %+v; want cut by the trip, about %d samples judged and %d after the trip", imp, crossing+1, last-crossing)
+	}
+	if rec.Name != "recovery" || rec.Verdict != "not_run" || rec.Samples != 0 || rec.StartSeconds != nil ||
+		!strings.Contains(rec.Reason, `not run: the safety trip (abs_error) ended the soak in phase "impaired"`) {
+		t.Errorf("recovery: %+v, want not run", rec)
+	}
+	if s.AfterTripSamples != imp.AfterTripSamples {
+		t.Errorf("run after_trip_samples %d, phase %d", s.AfterTripSamples, imp.AfterTripSamples)
+	}
+	out := soak.out.String()
+	for _, re := range []string{`(?m)^impaired\s+pass\s+\d+ .*cut by trip \(\d+ after it\)`, `(?m)^recovery\s+not run\s+0 `} {
+		if !regexp.MustCompile(re).MatchString(out) {
+			t.Errorf("the soak's table lacks %s:\n%s", re, out)
+		}
+	}
+	page, err := os.ReadFile(filepath.Join(reportDir, "report.html"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, want := range []string{"TRIPPED", "cut by trip", "not run", "recovery", "not an emergency stop"} {
+		if !strings.Contains(string(page), want) {
+			t.Errorf("report.html lacks %q", want)
+		}
 	}
 }
