@@ -25,7 +25,7 @@ type soakResult struct {
 		StartSeconds     *float64 `json:"start_seconds"`
 	} `json:"phases"`
 	AfterTripSamples int64 `json:"after_trip_samples"`
-	Trip *struct {
+	Trip             *struct {
 		Reason   string  `json:"reason"`
 		Sequence *uint64 `json:"sequence"`
 		Action   string  `json:"action"`
