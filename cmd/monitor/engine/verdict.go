@@ -39,13 +39,13 @@ const (
 	// 20 samples of an error whose integrated correlation time is up to
 	// about 10 periods (an AR(1) x with coefficient 0.8) keep a lag-1
 	// correlation under 0.15, from the AR(1) autocovariance of batch sums
-	// (common practice); slower loops need more, which the correlation
-	// test below reports. It is the least data that can be judged at all,
-	// not a sufficient amount.
+	// (common practice); slower loops need more, which the batch-length
+	// checks (estimate.OnlineStats.ShortBatches) report. It is the least
+	// data that can be judged at all, not a sufficient amount.
 	DefaultMinSamples = profiles.DefaultMinSamples
 	// MinVerdictBatches is the least number of complete batches behind a
 	// verdict's interval: estimate.MinMergedBatches (10), the fewest the
-	// whole-run estimator reports after merging correlated batches.
+	// whole-run estimator reports after merging short batches.
 	MinVerdictBatches = estimate.MinMergedBatches
 	// DiscriminationFactor: agreement needs an interval that would have
 	// shown a prediction off by this factor either way as disagreement:
