@@ -43,6 +43,7 @@ func TestExitStatusBadInput(t *testing.T) {
 		{"rig node bad loop", []string{"rig", "node", "--loop", badLoop, "--relay", "127.0.0.1:9"}, "shape-d.bad.yaml:10"},
 		{"rig controller bad loop", []string{"rig", "controller", "--loop", badLoop, "--listen", "127.0.0.1:0"}, "shape-d.bad.yaml:10"},
 		{"run bad flag", []string{"run", "--loop", goodLoop, "--listen", "127.0.0.1:0", "--tolerance", "-1"}, "--tolerance: want a number ≥ 0"},
+		{"run min samples too few", []string{"run", "--loop", goodLoop, "--listen", "127.0.0.1:0", "--min-samples", "5"}, "--min-samples: want 20…1000000000 samples"},
 		{"run bad metrics", []string{"run", "--loop", goodLoop, "--listen", "127.0.0.1:0", "--metrics", "9472"}, `--metrics: want HOST:PORT or "off"`},
 		{"run missing loop", []string{"run", "--loop", missing, "--listen", "127.0.0.1:0", "--metrics", "off"}, missing},
 		{"run bad loop", []string{"run", "--loop", badLoop, "--listen", "127.0.0.1:0", "--metrics", "off"}, "shape-d.bad.yaml:10"},

@@ -31,8 +31,8 @@ import (
 const runCaution = "SAFETY: the monitor only watches; it does not stop the rig.\n" + emulate.SafetyCautions
 
 const runUsage = `usage: monitor run --loop LOOP.yaml --listen HOST:PORT [--metrics HOST:PORT] [--duration D]
-                   [--summary FILE] [--tolerance X] [--warmup D] [--strict]
-                   [--trip-to HOST:PORT]
+                   [--summary FILE] [--tolerance X] [--min-samples N] [--warmup D]
+                   [--strict] [--trip-to HOST:PORT]
 
 Receives the rig's sensor datagrams, decodes them with the loop's decode
 section, estimates E[eᵀe] of e = setpoint − y online with a 95 % batch-means
@@ -43,7 +43,7 @@ predicted E[eᵀe] lies below the interval widened by --tolerance
 ([lo·(1 − tol), hi·(1 + tol)]), below when it lies above it, agree when it
 lies inside and that interval is narrow enough to have shown a prediction
 off by a factor of 2, inconclusive when the data cannot tell (fewer than
-400 samples, batches short for the loop's correlation time, or an
+--min-samples samples, 400 by default, batches short for the loop's correlation time, or an
 interval too wide to confirm; the summary's verdict_reason says which),
 unstable when the prediction is not mean-square stable. Without
 --strict the status is 0 once the summary is written, whatever the
@@ -82,6 +82,7 @@ func cmdRun(args []string, stdout, stderr io.Writer) error {
 	fs.Var(&duration, "duration", "stop after `D` (a duration or seconds; default: run until SIGINT/SIGTERM)")
 	summaryPath := fs.String("summary", "", "write the JSON summary to `FILE` (default: stdout)")
 	tolerance := fs.Float64("tolerance", 0.1, "relative widening of the confidence interval for the verdict")
+	minSamples := fs.Int("min-samples", engine.DefaultMinSamples, "least number of estimated samples for a verdict other than inconclusive (at least 20)")
 	fs.Var(&warmup, "warmup", "skip the samples of the first `D` (by count: D / period)")
 	strict := fs.Bool("strict", false, "exit with the verdict's status (3 above, 4 below, 5 inconclusive, 6 not stable)")
 	windows := fs.String("windows", "1m,10m", "sliding windows, comma-separated durations")
@@ -105,6 +106,8 @@ func cmdRun(args []string, stdout, stderr io.Writer) error {
 		return usagef("--listen: required")
 	case !(*tolerance >= 0) || math.IsInf(*tolerance, 0):
 		return usagef("--tolerance: want a number ≥ 0, got %g", *tolerance)
+	case *minSamples < 20 || *minSamples > 1_000_000_000:
+		return usagef("--min-samples: want 20…1000000000 samples, got %d", *minSamples)
 	case *maxDatagram < 1 || *maxDatagram > 65535:
 		return usagef("--max-datagram: want 1…65535 bytes, got %d", *maxDatagram)
 	case *rcvBuf < 0 || *rcvBuf > 1<<30:
@@ -134,7 +137,7 @@ func cmdRun(args []string, stdout, stderr io.Writer) error {
 		return badInput(fmt.Errorf("%s: prediction: %w", *loopPath, err))
 	}
 	mon, err := engine.New(loop, pred, engine.Options{
-		Windows: wins, Warmup: time.Duration(warmup.s * 1e9), Tolerance: *tolerance, MaxDatagram: *maxDatagram,
+		Windows: wins, Warmup: time.Duration(warmup.s * 1e9), Tolerance: *tolerance, MinSamples: *minSamples, MaxDatagram: *maxDatagram,
 	})
 	if err != nil {
 		return badInput(fmt.Errorf("%s: %w", *loopPath, err))
