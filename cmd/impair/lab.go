@@ -27,7 +27,7 @@ var labExits = exitcode.Help(plainStatuses, map[int]string{
 func cmdLab(args []string, stdout, stderr io.Writer) error {
 	if len(args) == 0 || (args[0] != "up" && args[0] != "down") {
 		if len(args) > 0 && (args[0] == "-h" || args[0] == "-help" || args[0] == "--help" || args[0] == "help") {
-			return helpError{labUsage + "\n" + labExits}
+			return helpError{Text: labUsage + "\n" + labExits}
 		}
 		return usagef("want up or down")
 	}

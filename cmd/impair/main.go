@@ -21,6 +21,7 @@ import (
 	"io"
 	"os"
 
+	"rigwire/cmd/internal/cli"
 	"rigwire/cmd/internal/exitcode"
 )
 
@@ -88,5 +89,5 @@ func dispatch(args []string, stdout, stderr io.Writer) int {
 	if args[0] == "lab" && len(args) > 1 && (args[1] == "up" || args[1] == "down") {
 		name += " " + args[1]
 	}
-	return exitStatus(err, name, stdout, stderr)
+	return cli.Status(err, name, stdout, stderr)
 }

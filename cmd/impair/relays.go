@@ -266,7 +266,7 @@ func runLinks(specs []linkSpec, opts runOpts, stderr io.Writer, log *slog.Logger
 		}
 	}
 	if code != 0 {
-		return exitError{code: code} // the reasons are logged above
+		return exitError{Code: code} // the reasons are logged above
 	}
 	log.Info("stopped")
 	return nil

@@ -4,9 +4,7 @@ import (
 	"flag"
 	"io"
 	"log/slog"
-	"net"
 	"net/netip"
-	"strconv"
 	"time"
 
 	"rigwire/cmd/internal/exitcode"
@@ -192,20 +190,4 @@ func addrOr(a netip.AddrPort, def string) string {
 		return a.String()
 	}
 	return def
-}
-
-// checkMetricsAddr checks a --metrics value: "off" or HOST:PORT with a
-// port number (whether it can be bound is found out when it is bound).
-func checkMetricsAddr(s string) error {
-	if s == "off" {
-		return nil
-	}
-	_, port, err := net.SplitHostPort(s)
-	if err == nil {
-		_, err = strconv.ParseUint(port, 10, 16)
-	}
-	if err != nil {
-		return usagef("--metrics: want HOST:PORT or \"off\", got %q", s)
-	}
-	return nil
 }

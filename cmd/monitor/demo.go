@@ -192,10 +192,10 @@ func cmdDemo(args []string, stdout, stderr io.Writer) error {
 	case engine.VerdictAgree:
 		return nil
 	case engine.VerdictInconclusive:
-		return exitError{code: code, msg: "verdict inconclusive: " + s.VerdictReason +
+		return exitError{Code: code, Msg: "verdict inconclusive: " + s.VerdictReason +
 			" (a longer --duration gives the estimate more to go on)"}
 	default:
-		return exitError{code: code, msg: fmt.Sprintf("verdict %s: %s", s.Verdict, s.VerdictReason)}
+		return exitError{Code: code, Msg: fmt.Sprintf("verdict %s: %s", s.Verdict, s.VerdictReason)}
 	}
 }
 

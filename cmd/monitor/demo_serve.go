@@ -92,7 +92,7 @@ func cmdServe(args []string, stdout, stderr io.Writer) error {
 	}
 	fmt.Fprintln(stderr, verdictLine(s))
 	if s.Trip != nil {
-		return exitError{code: s.TripExitCode(), msg: fmt.Sprintf("safety trip: %s %.5g above the bound %.5g; relay action %s",
+		return exitError{Code: s.TripExitCode(), Msg: fmt.Sprintf("safety trip: %s %.5g above the bound %.5g; relay action %s",
 			s.Trip.Reason, s.Trip.Value, s.Trip.Bound, s.Trip.Action)}
 	}
 	return nil

@@ -20,15 +20,11 @@
 package main
 
 import (
-	"errors"
-	"flag"
 	"fmt"
 	"io"
-	"net"
 	"os"
-	"strconv"
-	"strings"
 
+	"rigwire/cmd/internal/cli"
 	"rigwire/cmd/internal/exitcode"
 )
 
@@ -53,9 +49,6 @@ run "monitor COMMAND -h" for the flags of a command and the statuses it returns
 // allStatuses is the whole table, for the top-level usage.
 var allStatuses = []int{exitcode.OK, exitcode.Failure, exitcode.BadInput, exitcode.Above, exitcode.Below,
 	exitcode.Inconclusive, exitcode.NotStable, exitcode.PhaseFailed, exitcode.Tripped}
-
-// plainStatuses are those of a command without a verdict.
-var plainStatuses = []int{exitcode.OK, exitcode.Failure, exitcode.BadInput}
 
 func main() {
 	os.Exit(run(os.Args[1:], os.Stdout, os.Stderr))
@@ -95,145 +88,7 @@ func run(args []string, stdout, stderr io.Writer) int {
 	if name == "rig" && len(args) > 1 && (args[1] == "node" || args[1] == "controller") {
 		name += " " + args[1]
 	}
-	return exitStatus(err, "monitor "+name, stdout, stderr)
-}
-
-// exitStatus prints what err says and returns the exit status: 0 for
-// none or a help request (the help goes to stdout), the error's own code
-// for an exitError, 2 for a bad flag or argument (usageError) or an input
-// file that does not load or validate (inputError), 1 for anything else
-// (an error while running).
-func exitStatus(err error, cmd string, stdout, stderr io.Writer) int {
-	var (
-		he helpError
-		ee exitError
-		ue usageError
-		ie inputError
-	)
-	switch {
-	case err == nil:
-		return exitcode.OK
-	case errors.As(err, &he):
-		fmt.Fprint(stdout, he.text)
-		return exitcode.OK
-	case errors.Is(err, flag.ErrHelp):
-		return exitcode.OK
-	case errors.As(err, &ee):
-		if ee.msg != "" {
-			fmt.Fprintf(stderr, "%s: %s\n", cmd, ee.msg)
-		}
-		return ee.code
-	case errors.As(err, &ue):
-		fmt.Fprintf(stderr, "%s: %v\nrun \"%s -h\" for its flags\n", cmd, err, cmd)
-		return exitcode.BadInput
-	case errors.As(err, &ie):
-		fmt.Fprintf(stderr, "%s: %v\n", cmd, err)
-		return exitcode.BadInput
-	}
-	fmt.Fprintf(stderr, "%s: %v\n", cmd, err)
-	return exitcode.Failure
-}
-
-// exitError ends a command with its own exit status (a verdict, say); msg,
-// when set, is printed first.
-type exitError struct {
-	code int
-	msg  string
-}
-
-func (e exitError) Error() string {
-	if e.msg != "" {
-		return e.msg
-	}
-	return fmt.Sprintf("exit status %d", e.code)
-}
-
-// usageError is a bad flag or argument (exit status 2).
-type usageError struct{ msg string }
-
-func (e usageError) Error() string { return e.msg }
-
-func usagef(format string, args ...any) error { return usageError{fmt.Sprintf(format, args...)} }
-
-// inputError is an input file that does not load or validate (a loop,
-// profile, scenario or trace file; the message names file, line and key),
-// or a loop the prediction cannot use (too large, overflowing, a law that
-// cannot be integrated): exit status 2.
-type inputError struct{ err error }
-
-func (e inputError) Error() string { return e.err.Error() }
-func (e inputError) Unwrap() error { return e.err }
-
-// badInput marks err, when not nil, as an error of the input.
-func badInput(err error) error {
-	if err == nil {
-		return nil
-	}
-	return inputError{err}
-}
-
-// helpError is a help request (-h): its text goes to stdout, exit 0.
-type helpError struct{ text string }
-
-func (e helpError) Error() string        { return "help requested" }
-func (e helpError) Is(target error) bool { return target == flag.ErrHelp }
-
-// flags is a command's flag set with its help. Parse turns -h into a
-// helpError carrying the help (the head, the flags, the exit statuses)
-// and a bad flag into a usageError; the flag package itself prints
-// nothing.
-type flags struct {
-	*flag.FlagSet
-	head  string // synopsis and description, ending in a newline
-	exits string // the exit-status paragraph (exitcode.Help)
-}
-
-func newFlags(name, head, exits string) *flags {
-	fs := flag.NewFlagSet(name, flag.ContinueOnError)
-	fs.SetOutput(io.Discard)
-	fs.Usage = func() {}
-	return &flags{FlagSet: fs, head: head, exits: exits}
-}
-
-// Parse parses args; see flags.
-func (f *flags) Parse(args []string) error {
-	err := f.FlagSet.Parse(args)
-	switch {
-	case err == nil:
-		return nil
-	case errors.Is(err, flag.ErrHelp):
-		return helpError{f.help()}
-	}
-	return usageError{err.Error()}
-}
-
-// help is the command's help text.
-func (f *flags) help() string {
-	var b strings.Builder
-	b.WriteString(f.head)
-	b.WriteString("\nflags:\n")
-	f.SetOutput(&b)
-	f.PrintDefaults()
-	f.SetOutput(io.Discard)
-	b.WriteString("\n")
-	b.WriteString(f.exits)
-	return b.String()
-}
-
-// checkMetricsAddr checks a --metrics value: "off" or HOST:PORT with a
-// port number (whether it can be bound is found out when it is bound).
-func checkMetricsAddr(s string) error {
-	if s == "off" {
-		return nil
-	}
-	_, port, err := net.SplitHostPort(s)
-	if err == nil {
-		_, err = strconv.ParseUint(port, 10, 16)
-	}
-	if err != nil {
-		return usagef("--metrics: want HOST:PORT or \"off\", got %q", s)
-	}
-	return nil
+	return cli.Status(err, "monitor "+name, stdout, stderr)
 }
 
 // parseArgs parses flags given before or after the one positional argument

@@ -145,9 +145,9 @@ func strictStatus(pr *estimate.Prediction) error {
 	case estimate.StabilityStable:
 		return nil
 	case estimate.StabilityMarginal:
-		return exitError{code: exitcode.Inconclusive, msg: "--strict: " + stability.Describe(pr)}
+		return exitError{Code: exitcode.Inconclusive, Msg: "--strict: " + stability.Describe(pr)}
 	}
-	return exitError{code: exitcode.NotStable, msg: "--strict: " + stability.Describe(pr)}
+	return exitError{Code: exitcode.NotStable, Msg: "--strict: " + stability.Describe(pr)}
 }
 
 func parseFloats(s string) ([]float64, error) {

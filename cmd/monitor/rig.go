@@ -263,5 +263,5 @@ func parseErr(err error) error {
 	if err == nil || errors.As(err, &he) || errors.As(err, &ue) || errors.Is(err, flag.ErrHelp) {
 		return err
 	}
-	return usageError{err.Error()}
+	return usageError{Msg: err.Error()}
 }

@@ -215,10 +215,10 @@ func cmdRun(args []string, stdout, stderr io.Writer) error {
 	}
 	fmt.Fprintln(stderr, verdictLine(sum))
 	if code := sum.TripExitCode(); code != 0 {
-		return exitError{code: code}
+		return exitError{Code: code}
 	}
 	if code := sum.ExitCode(*strict); code != 0 {
-		return exitError{code: code}
+		return exitError{Code: code}
 	}
 	return nil
 }

@@ -226,10 +226,10 @@ func soakExit(s *engine.Summary, code int, playErr error) error {
 	case exitcode.OK:
 		return nil
 	case soakExitTripped:
-		return exitError{code: code, msg: fmt.Sprintf("safety trip in phase %q: %s %.5g above the bound %.5g",
+		return exitError{Code: code, Msg: fmt.Sprintf("safety trip in phase %q: %s %.5g above the bound %.5g",
 			s.Trip.Phase, s.Trip.Reason, s.Trip.Value, s.Trip.Bound)}
 	case soakExitFailed:
-		return exitError{code: code, msg: "failed phase " + list(engine.PhaseFail)}
+		return exitError{Code: code, Msg: "failed phase " + list(engine.PhaseFail)}
 	case exitcode.Inconclusive:
 		msg := ""
 		if l := list(engine.PhaseInconclusive, engine.PhaseNotRun); l != "" {
@@ -241,9 +241,9 @@ func soakExit(s *engine.Summary, code int, playErr error) error {
 			}
 			msg += "interrupted before the scenario's end: " + playErr.Error()
 		}
-		return exitError{code: code, msg: msg}
+		return exitError{Code: code, Msg: msg}
 	}
-	return exitError{code: code}
+	return exitError{Code: code}
 }
 
 // predictSteps computes the prediction for each distinct profile the steps

@@ -125,7 +125,7 @@ func TestSoakTableAndReportTripped(t *testing.T) {
 		}
 	}
 	var ee exitError
-	if err := soakExit(s, code, nil); !errors.As(err, &ee) || ee.code != exitcode.Tripped || !strings.Contains(ee.msg, `safety trip in phase "outage"`) {
+	if err := soakExit(s, code, nil); !errors.As(err, &ee) || ee.Code != exitcode.Tripped || !strings.Contains(ee.Msg, `safety trip in phase "outage"`) {
 		t.Errorf("exit %v", err)
 	}
 
@@ -171,10 +171,10 @@ func TestSoakTableAndReportNotRun(t *testing.T) {
 	}
 	var ee exitError
 	err := soakExit(s, code, errors.New("context canceled"))
-	if !errors.As(err, &ee) || ee.code != exitcode.Inconclusive ||
-		!strings.Contains(ee.msg, `could not be judged: "nominal" (only 30 judged samples`) ||
-		!strings.Contains(ee.msg, `"degrading" (not run: the soak ended before it)`) ||
-		!strings.HasSuffix(ee.msg, "interrupted before the scenario's end: context canceled") {
+	if !errors.As(err, &ee) || ee.Code != exitcode.Inconclusive ||
+		!strings.Contains(ee.Msg, `could not be judged: "nominal" (only 30 judged samples`) ||
+		!strings.Contains(ee.Msg, `"degrading" (not run: the soak ended before it)`) ||
+		!strings.HasSuffix(ee.Msg, "interrupted before the scenario's end: context canceled") {
 		t.Errorf("exit %v", err)
 	}
 

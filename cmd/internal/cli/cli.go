@@ -1,0 +1,165 @@
+// Package cli is what both rigwire commands share between parsing their
+// flags and exiting: the kinds of error a subcommand returns, the one
+// function that turns them into an exit status of the table in
+// cmd/internal/exitcode, and a flag set whose -h prints the command's
+// help with its exit statuses.
+//
+// A subcommand returns nil, or one of: a UsageError (a bad flag or
+// argument) or an InputError (a file that does not load or validate, or a
+// loop the prediction cannot use), both status 2; an Exit with its own
+// status (a verdict, a trip); a Help (-h); anything else is an error while
+// running, status 1.
+package cli
+
+import (
+	"errors"
+	"flag"
+	"fmt"
+	"io"
+	"net"
+	"strconv"
+	"strings"
+
+	"rigwire/cmd/internal/exitcode"
+)
+
+// Status prints what err says, prefixed with the command's name cmd, and
+// returns the exit status; a help request prints the help to stdout and
+// returns 0.
+func Status(err error, cmd string, stdout, stderr io.Writer) int {
+	var (
+		he Help
+		ee Exit
+		ue UsageError
+		ie InputError
+	)
+	switch {
+	case err == nil:
+		return exitcode.OK
+	case errors.As(err, &he):
+		fmt.Fprint(stdout, he.Text)
+		return exitcode.OK
+	case errors.Is(err, flag.ErrHelp):
+		return exitcode.OK
+	case errors.As(err, &ee):
+		if ee.Msg != "" {
+			fmt.Fprintf(stderr, "%s: %s\n", cmd, ee.Msg)
+		}
+		return ee.Code
+	case errors.As(err, &ue):
+		fmt.Fprintf(stderr, "%s: %v\nrun \"%s -h\" for its flags\n", cmd, err, cmd)
+		return exitcode.BadInput
+	case errors.As(err, &ie):
+		fmt.Fprintf(stderr, "%s: %v\n", cmd, err)
+		return exitcode.BadInput
+	}
+	fmt.Fprintf(stderr, "%s: %v\n", cmd, err)
+	return exitcode.Failure
+}
+
+// UsageError is a bad flag or argument (exit status 2).
+type UsageError struct{ Msg string }
+
+func (e UsageError) Error() string { return e.Msg }
+
+// Usagef is a UsageError with a formatted message.
+func Usagef(format string, args ...any) error { return UsageError{fmt.Sprintf(format, args...)} }
+
+// InputError is an input file (loop, profile, scenario, links file,
+// trace, lab topology) that does not load or validate — the message names
+// file, line and key — or a loop the prediction cannot use (too large,
+// overflowing, a law that cannot be integrated): exit status 2.
+type InputError struct{ Err error }
+
+func (e InputError) Error() string { return e.Err.Error() }
+func (e InputError) Unwrap() error { return e.Err }
+
+// BadInput marks err, when not nil, as an error of the input.
+func BadInput(err error) error {
+	if err == nil {
+		return nil
+	}
+	return InputError{err}
+}
+
+// Exit ends a command with status Code (a verdict, say); Msg, when set,
+// is printed (a status whose reasons were logged already has none).
+type Exit struct {
+	Code int
+	Msg  string
+}
+
+func (e Exit) Error() string {
+	if e.Msg != "" {
+		return e.Msg
+	}
+	return fmt.Sprintf("exit status %d", e.Code)
+}
+
+// Help is a help request (-h): its text goes to stdout, exit 0.
+type Help struct{ Text string }
+
+func (e Help) Error() string        { return "help requested" }
+func (e Help) Is(target error) bool { return target == flag.ErrHelp }
+
+// Flags is a command's flag set with its help. Parse turns -h into a Help
+// carrying the help (the head, the flags, the exit statuses) and a bad
+// flag into a UsageError; the flag package itself prints nothing.
+type Flags struct {
+	*flag.FlagSet
+	head  string // synopsis and description, ending in a newline
+	exits string // the exit-status paragraph (exitcode.Help)
+}
+
+// NewFlags is the flag set of command name with its help head and
+// exit-status paragraph.
+func NewFlags(name, head, exits string) *Flags {
+	fs := flag.NewFlagSet(name, flag.ContinueOnError)
+	fs.SetOutput(io.Discard)
+	fs.Usage = func() {}
+	return &Flags{FlagSet: fs, head: head, exits: exits}
+}
+
+// Parse parses args; see Flags.
+func (f *Flags) Parse(args []string) error {
+	err := f.FlagSet.Parse(args)
+	switch {
+	case err == nil:
+		return nil
+	case errors.Is(err, flag.ErrHelp):
+		return Help{f.HelpText()}
+	}
+	return UsageError{err.Error()}
+}
+
+// HelpText is the command's help text.
+func (f *Flags) HelpText() string {
+	var b strings.Builder
+	b.WriteString(f.head)
+	b.WriteString("\nflags:\n")
+	f.SetOutput(&b)
+	f.PrintDefaults()
+	f.SetOutput(io.Discard)
+	b.WriteString("\n")
+	b.WriteString(f.exits)
+	return b.String()
+}
+
+// CheckMetricsAddr checks a --metrics value: "off" or HOST:PORT with a
+// port number (whether it can be bound is found out when it is bound).
+func CheckMetricsAddr(s string) error {
+	if s == "off" {
+		return nil
+	}
+	_, port, err := net.SplitHostPort(s)
+	if err == nil {
+		_, err = strconv.ParseUint(port, 10, 16)
+	}
+	if err != nil {
+		return Usagef("--metrics: want HOST:PORT or \"off\", got %q", s)
+	}
+	return nil
+}
+
+// PlainStatuses are those of a command without a verdict.
+var PlainStatuses = []int{exitcode.OK, exitcode.Failure, exitcode.BadInput}
