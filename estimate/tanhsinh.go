@@ -33,6 +33,12 @@ const (
 	tsSafety   = 1e3 // margin on the squared-difference error estimate
 )
 
+// vecFunc fills out (length dim) with the integrand's values at x.
+type vecFunc func(x float64, out []float64)
+
+// epsilon is the unit roundoff of float64, 2⁻⁵².
+const epsilon = 0x1p-52
+
 // tanhSinh integrates vector-valued functions of dimension dim.
 type tanhSinh struct {
 	dim            int
