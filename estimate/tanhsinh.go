@@ -91,6 +91,14 @@ func (q *tanhSinh) piece(f vecFunc, a, b float64, out []float64) {
 			d = r
 		}
 		for _, x := range [2]float64{a + d, b - d} {
+			// A node closer to an end than the floats can show lands on
+			// it: take the nearest float inside instead, so that no weight
+			// is lost on a range narrow against its position.
+			if x <= a {
+				x = math.Nextafter(a, b)
+			} else if x >= b {
+				x = math.Nextafter(b, a)
+			}
 			if x > a && x < b && w > 0 {
 				f(x, q.val)
 				for j, v := range q.val {
