@@ -98,8 +98,8 @@ import (
 // lag-1 correlation of means of b samples is about τ/(4b), τ = (1+r)/(1−r),
 // so 0.08 at b = 3τ (from the autocovariance of AR(1) batch sums, common
 // practice; batches many times the integrated autocorrelation time are the
-// usual requirement, e.g. A. D. Sokal, "Monte Carlo methods in statistical
-// mechanics", Cargèse lectures 1996, §3, from memory). When the batches
+// usual requirement, e.g. C. J. Geyer, "Practical Markov chain Monte
+// Carlo", Statistical Science 7(4), 1992, §3, from memory). When the batches
 // are far shorter than the correlation time, n_eff itself comes out near
 // k (each batch looks like one sample), so the check fails as it should.
 //
