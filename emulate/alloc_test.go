@@ -22,7 +22,7 @@ func newTestDirection(t testing.TB, ch *profiles.Channel, inFlight int) (*direct
 }
 
 // The per-datagram path (draw, copy into the pool, schedule, release) must
-// not allocate: STYLE.md "The hot path".
+// not allocate: DEVELOPERS.md, "The relay's hot path".
 func TestHotPathDoesNotAllocate(t *testing.T) {
 	laws := map[string]profiles.Delay{
 		"constant":  profiles.Constant{Value: 0.002},

@@ -62,7 +62,7 @@ func TestReplayInOrder(t *testing.T) {
 }
 
 // TestReplayDoesNotAllocate: the replay path keeps the hot path free of
-// allocations (STYLE.md "The hot path").
+// allocations (DEVELOPERS.md, "The relay's hot path").
 func TestReplayDoesNotAllocate(t *testing.T) {
 	d, _ := newTestDirection(t, replayChannel(t, profiles.AtEndLoop), 256)
 	batch := make([]message, 8)

@@ -7,8 +7,8 @@ import (
 	"rigwire/profiles"
 )
 
-// Prediction is what theory says of a loop over its network (MODEL.md
-// §5). An unstable loop is a result: MeanSquareStable false, Error nil.
+// Prediction is what theory says of a loop over its network (package
+// doc, "What a prediction reports"). An unstable loop is a result: MeanSquareStable false, Error nil.
 type Prediction struct {
 	// MeanSquareStable is Stability == StabilityStable: the loop is
 	// certified mean-square stable.
@@ -41,7 +41,7 @@ type StateReport struct {
 	LossSC      float64 // loss probability, sensor direction (extra loss included)
 	LossCA      float64 // loss probability, command direction
 	// Mode probabilities: sample lost or stale, command lost or late,
-	// delivered in time (MODEL.md §1).
+	// delivered in time (package doc, "The rig and its timing").
 	P0, P1, P2 float64
 	// MeanDelay is E[τ | m2] in seconds (total delay of a delivered
 	// command), NaN when P2 = 0.
@@ -72,7 +72,7 @@ type PredictOptions struct {
 	MarginProgress func(q float64)
 }
 
-// Predict computes the prediction of MODEL.md §5 for a validated loop:
+// Predict computes the prediction of package doc, "What a prediction reports" for a validated loop:
 // it builds the jump linear system, decides mean-square stability,
 // computes ρ, the steady error moments when stable, and the loss margin.
 // This is what the monitor calls.

@@ -12,7 +12,7 @@ import (
 //
 // so each row sums to 0 (J. R. Norris, Markov Chains, 1997, §2.1: a
 // jump chain with holding rates 1/MeanDwell). A one-state channel gives
-// [[0]]. (MODEL.md calls it Q; here it is named apart from the second
+// [[0]]. (Often written Q; here it is named apart from the second
 // moments.) The section numbers of Norris here and below are from memory.
 func (c *Channel) Generator() *mat.Dense {
 	n := len(c.States)

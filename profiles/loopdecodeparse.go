@@ -2,7 +2,7 @@ package profiles
 
 import "strings"
 
-// parseDecode reads the decode section of a loop file (INTERFACES.md):
+// parseDecode reads the decode section of a loop file (the loop file of the package doc):
 //
 //	decode: {format: text, separator: ",", outputs: [{field: 2}], sequence: {field: 0}}
 //	decode: {format: binary, outputs: [{offset: 8, type: float64, order: little}],

@@ -11,7 +11,7 @@ import (
 )
 
 // LoadLoop reads and validates the loop description at path (the loop
-// file of INTERFACES.md). A profile given as a path is resolved against
+// file of the package doc). A profile given as a path is resolved against
 // the loop file's directory. Every error names the file, the line and the
 // key path:
 //

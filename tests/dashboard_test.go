@@ -108,7 +108,7 @@ func known(served map[string]bool, name string) bool {
 }
 
 // The dashboard and the alert rules use only metric names the relay and
-// the monitor really export (STYLE.md, deploy/), apart from the pending
+// the monitor really export (the files in deploy/), apart from the pending
 // ones, which only the rules may use.
 func TestDeployedQueriesUseServedMetrics(t *testing.T) {
 	served := servedNames(t)

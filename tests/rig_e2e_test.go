@@ -158,10 +158,10 @@ var (
 // TestRigEndToEnd runs the simulated rig through the relay for three loops
 // and checks the rig's measured E[eᵀe] (from its own sample log, 95 %
 // batch-means interval, 20 batches) against `monitor predict`'s value
-// (MODEL.md §4): the interval widened by relTol of the prediction must
+// (estimate doc, "Moments and stability"): the interval widened by relTol of the prediction must
 // cover it. relTol holds the loopback stack's own latency, which adds
-// ~0.2–0.4 ms to every τ and biases E[eᵀe] up by a few per cent (MODEL.md
-// §6), and the short runs' correlation (a few dozen independent stretches
+// ~0.2–0.4 ms to every τ and biases E[eᵀe] up by a few per cent (estimate
+// doc, "Conventions"), and the short runs' correlation (a few dozen independent stretches
 // per run). With a monitor (`monitor run` on the relay's tap), its
 // measured value must also equal the one computed from the log, to
 // monTol relative: both count the same samples.

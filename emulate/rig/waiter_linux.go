@@ -10,7 +10,7 @@ import (
 
 // waiter sleeps until an absolute CLOCK_MONOTONIC time on a Linux timerfd
 // (TFD_TIMER_ABSTIME) and spins the last spinNs. Go timers round waits
-// below 1 ms up to 1 ms (DESIGN.md, measured); a timerfd read on a locked
+// below 1 ms up to 1 ms (measured; DEVELOPERS.md, "The relay's hot path"); a timerfd read on a locked
 // OS thread wakes within about 0.1 ms, and the spin takes up the rest.
 // The goroutine that calls until must have called runtime.LockOSThread.
 type waiter struct {

@@ -54,7 +54,7 @@ function run_case(name, A, B, C, W, V, Ac, Bc, Cc, Dc, r, h, tau)
   emit([name '.error_second_moment'], Eee);
 end
 
-% servo: the loop example of INTERFACES.md, 1 ms + 1.5 ms network, 0.5 ms compute.
+% servo: the loop example of profiles/doc.go, 1 ms + 1.5 ms network, 0.5 ms compute.
 run_case('servo', [0 1; 0 -2], [0; 3], [1 0], [0 0; 0 0.04], 1e-6, ...
          1, 0.01, 5, 12, 0.5, 0.01, 0.003);
 % mimo: three states (a lightly damped pair and a real pole), two inputs,

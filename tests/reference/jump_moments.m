@@ -1,7 +1,7 @@
-% An independent implementation of the prediction of MODEL.md sec. 3-4 in
+% An independent implementation of the prediction of the model of estimate's package doc ("The closed loop as a jump linear system" to "Moments and stability") in
 % GNU Octave (control package), for the check "second moments agree with
 % an independent implementation to 1e-6 relative on smooth cases". Written
-% from MODEL.md alone: c2d for Phi, Gamma and Gamma0(tau) = Gamma(h - tau),
+% from the model of estimate/doc.go alone: c2d for Phi, Gamma and Gamma0(tau) = Gamma(h - tau),
 % W_d by quadrature, vec/kron second-moment operators (not estimate's
 % symmetric vectors), the expectation over the delivered mode by Octave's
 % adaptive integral of the delay density (not estimate's Chebyshev rule).
@@ -18,7 +18,7 @@ function emit(name, M)
   printf('\n');
 end
 
-% The servo of INTERFACES.md: z = [x1 x2 u xc].
+% The servo of profiles/doc.go: z = [x1 x2 u xc].
 function L = servo_loop(h, c)
   L.A = [0 1; 0 -2]; L.B = [0; 3]; L.C = [1 0];
   L.W = [0 0; 0 0.04]; L.V = 1e-6;
@@ -30,7 +30,7 @@ function L = servo_loop(h, c)
   L.sys = sys;
 end
 
-% Mode matrices (MODEL.md sec. 3, held input). kind 0, 1, 2.
+% Mode matrices (estimate doc, "The closed loop as a jump linear system", held input). kind 0, 1, 2.
 function [F, g, HXH] = mode_of(L, kind, tau)
   n = 2; m = 1; nc = 1; p = 1;
   Phi = L.Phi; Gam = L.Gam; Ac = L.Ac; Bc = L.Bc; Cc = L.Cc; Dc = L.Dc; C = L.C; r = L.r;
