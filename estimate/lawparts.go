@@ -46,17 +46,6 @@ func (p piece) support() (lo, hi float64) {
 	return p.shift + p.scale*lo, p.shift + p.scale*hi
 }
 
-func (p piece) String() string {
-	s := profiles.Describe(p.base)
-	if p.scale != 1 {
-		s = fmt.Sprintf("%g × (%s)", p.scale, s)
-	}
-	if p.shift != 0 {
-		s += fmt.Sprintf(" + %gs", p.shift)
-	}
-	return s
-}
-
 // splitLaw decomposes d into atoms and continuous pieces: shifts and the
 // delay scale are carried along, mixtures split by weight, trace replays
 // and empirical laws are their atoms. A law of a kind it does not know
