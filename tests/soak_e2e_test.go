@@ -143,12 +143,18 @@ func TestSoakWrongPredictionFails(t *testing.T) {
 		t.Errorf("the soak does not name the failed phase:\n%s", out)
 	}
 	for _, p := range s.Phases {
-		want := "pass"
-		if p.Name == "recovery" {
-			want = "fail"
-		}
-		if p.Verdict != want {
-			t.Errorf("phase %s: verdict %s (%s), want %s", p.Name, p.Verdict, p.Reason, want)
+		switch {
+		case p.Name == "recovery" && p.Verdict != "fail":
+			t.Errorf("phase recovery: verdict %s (%s), want fail", p.Verdict, p.Reason)
+		case p.Name != "recovery" && p.Verdict == "inconclusive":
+			// A phase judged against the right belief must not fail. When
+			// the loaded host stalls the rig (its node counts overruns),
+			// the transient widens the interval past what can confirm
+			// agreement, and the honest verdict is inconclusive; the
+			// soak's status stays 7 for the failed recovery.
+			t.Logf("phase %s: inconclusive (%s)", p.Name, p.Reason)
+		case p.Name != "recovery" && p.Verdict != "pass":
+			t.Errorf("phase %s: verdict %s (%s), want pass", p.Name, p.Verdict, p.Reason)
 		}
 		if p.Name == "recovery" && !strings.Contains(p.Reason, "measured below") {
 			t.Errorf("recovery: %s, want the measured value below the prediction", p.Reason)
