@@ -189,17 +189,31 @@ func sockaddrToAddrPort(sa *unix.RawSockaddrInet6) netip.AddrPort {
 }
 
 // addrPortToSockaddr spells ap for a socket of the given family and
-// returns the address length.
+// returns the address length. An address the socket cannot reach (none, or
+// of the other family; the relay refuses both before sending) is spelled
+// with port 0, which the kernel refuses: a send error, never a panic.
 func addrPortToSockaddr(ap netip.AddrPort, family int, sa *unix.RawSockaddrInet6) uint32 {
 	var port [2]byte
-	binary.BigEndian.PutUint16(port[:], ap.Port())
+	a := ap.Addr().Unmap()
+	reachable := a.IsValid() && (a.Is4() == (family == unix.AF_INET) || family == unix.AF_INET6)
+	if reachable {
+		binary.BigEndian.PutUint16(port[:], ap.Port())
+	}
 	if family == unix.AF_INET {
+		var a4 [4]byte
+		if reachable {
+			a4 = a.As4()
+		}
 		sa4 := (*unix.RawSockaddrInet4)(unsafe.Pointer(sa))
-		*sa4 = unix.RawSockaddrInet4{Family: unix.AF_INET, Addr: ap.Addr().Unmap().As4()}
+		*sa4 = unix.RawSockaddrInet4{Family: unix.AF_INET, Addr: a4}
 		*(*[2]byte)(unsafe.Pointer(&sa4.Port)) = port
 		return unix.SizeofSockaddrInet4
 	}
-	*sa = unix.RawSockaddrInet6{Family: unix.AF_INET6, Addr: ap.Addr().As16()}
+	var a16 [16]byte
+	if reachable {
+		a16 = ap.Addr().As16()
+	}
+	*sa = unix.RawSockaddrInet6{Family: unix.AF_INET6, Addr: a16}
 	*(*[2]byte)(unsafe.Pointer(&sa.Port)) = port
 	return unix.SizeofSockaddrInet6
 }

@@ -18,6 +18,9 @@ const (
 	// OutcomeTripped: a command dropped, on arrival or while held, because
 	// the safety trip stopped commands (TripStopCommands).
 	OutcomeTripped = "tripped"
+	// OutcomeNoActuator: a command that arrived before the relay knew where
+	// the actuator is (no Actuator given and no sensor datagram yet).
+	OutcomeNoActuator = "no_actuator"
 )
 
 // Metrics are the relay's Prometheus metrics, registered on the registry
@@ -41,6 +44,9 @@ type Metrics struct {
 	ScenarioPhase   *prometheus.GaugeVec // index, phase
 	ScenarioSteps   prometheus.Counter
 	ScenarioElapsed prometheus.Gauge // seconds since the scenario started, at its latest step
+	// SensorSource: 1 for the source the relay takes for the sensor node.
+	SensorSource        *prometheus.GaugeVec   // source
+	SensorSourceChanges *prometheus.CounterVec // reason: first, quiet
 }
 
 // LossRunBuckets are the upper bounds of the loss-run histogram (counts of
@@ -109,10 +115,20 @@ func NewMetrics(reg prometheus.Registerer) *Metrics {
 			Name: "rigwire_relay_scenario_elapsed_seconds",
 			Help: "Time since the scenario started, at its latest step.",
 		}),
+		SensorSource: prometheus.NewGaugeVec(prometheus.GaugeOpts{
+			Name: "rigwire_relay_sensor_source_info",
+			Help: "1 for the source (address:port) the relay takes for the rig's sensor node; absent until one has sent.",
+		}, []string{"source"}),
+		SensorSourceChanges: prometheus.NewCounterVec(prometheus.CounterOpts{
+			Name: "rigwire_relay_sensor_source_changes_total",
+			Help: "Times the relay took a source for the sensor node, by reason: first (the first to send), quiet (the previous one had been silent for the relock interval).",
+		}, []string{"reason"}),
 	}
 	reg.MustRegister(m.Datagrams, m.Bytes, m.Delay, m.Lateness, m.InFlight,
 		m.ChannelState, m.Tap, m.RecordLost, m.Reloads, m.LossRuns, m.Tripped,
-		m.ScenarioPhase, m.ScenarioSteps, m.ScenarioElapsed)
+		m.ScenarioPhase, m.ScenarioSteps, m.ScenarioElapsed, m.SensorSource, m.SensorSourceChanges)
+	m.SensorSourceChanges.WithLabelValues(lockFirst)
+	m.SensorSourceChanges.WithLabelValues(lockQuiet)
 	for _, o := range []string{"sent", OutcomeSendError} {
 		m.Tap.WithLabelValues(o)
 	}
@@ -144,11 +160,13 @@ const (
 	oSendError
 	oShutdown
 	oTripped
+	oNoActuator
 )
 
 var outcomeIndex = [...]string{oForwarded: OutcomeForwarded, oDropped: OutcomeDropped,
 	oOverflow: OutcomeOverflow, oStranger: OutcomeStranger, oOversized: OutcomeOversized,
-	oSendError: OutcomeSendError, oShutdown: OutcomeShutdown, oTripped: OutcomeTripped}
+	oSendError: OutcomeSendError, oShutdown: OutcomeShutdown, oTripped: OutcomeTripped,
+	oNoActuator: OutcomeNoActuator}
 
 func (m *Metrics) forDirection(dir string) *dirMetrics {
 	dm := &dirMetrics{

@@ -10,6 +10,7 @@ import (
 	"net"
 	"net/netip"
 	"os"
+	"runtime/debug"
 	"sync"
 	"sync/atomic"
 	"time"
@@ -28,11 +29,21 @@ type Config struct {
 	// Controller is where sensor datagrams go; its replies to the relay's
 	// upstream socket are the commands.
 	Controller netip.AddrPort
-	// Actuator receives the commands; zero: the source of the latest
-	// sensor datagram.
+	// Actuator receives the commands; zero: the rig's sensor source (see
+	// Sensor). Commands that arrive before that source is known are
+	// counted as no_actuator and dropped.
 	Actuator netip.AddrPort
-	// Sensor, when set, is the only source accepted at Listen; zero: any.
+	// Sensor pins the rig's sensor source. With an address and a port only
+	// that source is accepted at Listen; with port 0 only that address, on
+	// the first port it sends from. Zero: the relay locks onto the first
+	// source that sends to Listen. Every other source is a stranger:
+	// counted, never forwarded, never sent commands.
 	Sensor netip.AddrPort
+	// RelockAfter, when > 0, lets another source (one the pin allows) take
+	// the sensor's place once the locked source has been silent this long:
+	// the way back in for a rig node that restarted on a new port. Each
+	// change is logged and counted. Zero: the lock holds for the run.
+	RelockAfter time.Duration
 	// Upstream is the local address of the socket that talks to the
 	// controller; zero: an ephemeral port (on loopback if the controller is
 	// on loopback).
@@ -85,8 +96,12 @@ type Relay struct {
 	rec    *recorder
 	sc, ca *direction
 
-	srcMu      sync.Mutex
-	lastSensor netip.AddrPort // guarded by srcMu
+	// sensorSrc is the locked sensor source (zero until the first
+	// datagram; guarded by srcMu): the command side sends to it when no
+	// Actuator is given.
+	srcMu     sync.Mutex
+	sensorSrc netip.AddrPort
+	lock      sourceLock // owned by the sensor side's receive goroutine
 
 	tapSent, tapFailed prometheus.Counter
 
@@ -109,6 +124,15 @@ func New(cfg Config) (*Relay, error) {
 	if cfg.Profile == nil {
 		return nil, errors.New("relay: no profile")
 	}
+	if !cfg.Listen.IsValid() || !cfg.Controller.IsValid() {
+		return nil, errors.New("relay: the listen and controller addresses are required")
+	}
+	if cfg.RelockAfter < 0 {
+		return nil, fmt.Errorf("relay: relock interval %s: want ≥ 0", cfg.RelockAfter)
+	}
+	if err := checkFamilies(cfg); err != nil {
+		return nil, err
+	}
 	if cfg.MaxDatagram <= 0 {
 		cfg.MaxDatagram = DefaultMaxDatagram
 	}
@@ -126,7 +150,8 @@ func New(cfg Config) (*Relay, error) {
 	}
 	r := &Relay{cfg: cfg, log: cfg.Logger, m: cfg.Metrics, epoch: time.Now(),
 		tapSent:   cfg.Metrics.Tap.WithLabelValues("sent"),
-		tapFailed: cfg.Metrics.Tap.WithLabelValues(OutcomeSendError)}
+		tapFailed: cfg.Metrics.Tap.WithLabelValues(OutcomeSendError),
+		lock:      sourceLock{pin: unmapped(cfg.Sensor), relockAfter: int64(cfg.RelockAfter)}}
 	switch {
 	case cfg.SeedSet:
 		r.seed = cfg.Seed
@@ -198,6 +223,15 @@ func (r *Relay) openSockets() error {
 		}
 	}
 	return nil
+}
+
+// unmapped spells an IPv4-mapped IPv6 address as IPv4, as the sockets
+// report sources.
+func unmapped(ap netip.AddrPort) netip.AddrPort {
+	if !ap.IsValid() {
+		return ap
+	}
+	return netip.AddrPortFrom(ap.Addr().Unmap(), ap.Port())
 }
 
 // ephemeralFor is a local address with an ephemeral port from which dst
@@ -291,20 +325,41 @@ func (r *Relay) apply(p *profiles.Profile, why string) bool {
 // Shutdown order: receive loops end (read deadline in the past), then each
 // direction drains and its release goroutine ends, then the recorder
 // flushes, then the sockets and timers close.
+//
+// A goroutine of the relay that fails (a panic: a bug) ends the run the
+// same way, and Run returns its error; what a failed release goroutine
+// held is counted as shutdown.
 func (r *Relay) Run(ctx context.Context, abort <-chan struct{}) error {
 	var recv, rel sync.WaitGroup
-	for _, d := range []*direction{r.sc, r.ca} {
-		rel.Add(1)
-		go func() { defer rel.Done(); d.releaseLoop() }()
+	failed := make(chan error, 4)
+	guard := func(wg *sync.WaitGroup, what string, f func()) {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			defer func() {
+				if p := recover(); p != nil {
+					err := fmt.Errorf("relay %s failed: %v", what, p)
+					r.log.Error("relay goroutine failed: stopping the run", "goroutine", what, "panic", fmt.Sprint(p), "stack", string(debug.Stack()))
+					failed <- err
+				}
+			}()
+			f()
+		}()
 	}
-	sensor := &side{in: r.listen, dir: r.sc, from: r.cfg.Sensor, sensor: true}
-	command := &side{in: r.up, dir: r.ca, from: r.cfg.Controller}
+	for _, d := range []*direction{r.sc, r.ca} {
+		guard(&rel, "release "+d.name, d.releaseLoop)
+	}
+	sensor := &side{in: r.listen, dir: r.sc, sensor: true}
+	command := &side{in: r.up, dir: r.ca, from: unmapped(r.cfg.Controller)}
 	for _, s := range []*side{sensor, command} {
-		recv.Add(1)
-		go func() { defer recv.Done(); r.receiveLoop(s) }()
+		guard(&recv, "receive "+s.dir.name, func() { r.receiveLoop(s) })
 	}
 
-	<-ctx.Done()
+	var runErr error
+	select {
+	case <-ctx.Done():
+	case runErr = <-failed:
+	}
 	r.closing.Store(true)
 	past := time.Now().Add(-time.Second)
 	r.listen.setReadDeadline(past)
@@ -327,16 +382,30 @@ func (r *Relay) Run(ctx context.Context, abort <-chan struct{}) error {
 		r.ca.stop(false)
 		<-drained
 	}
-	var err error
+	// A release goroutine that failed left its schedule behind.
+	for _, d := range []*direction{r.sc, r.ca} {
+		if d.mu.TryLock() {
+			d.abortLocked()
+			d.mu.Unlock()
+		} else {
+			r.log.Error("a failed goroutine holds the direction: its datagrams cannot be counted", "direction", d.name)
+		}
+	}
+	errs := []error{runErr}
+	select {
+	case err := <-failed:
+		errs = append(errs, err)
+	default:
+	}
 	if r.rec != nil {
 		if rerr := r.rec.close(); rerr != nil {
-			err = fmt.Errorf("record: %w", rerr)
+			errs = append(errs, fmt.Errorf("record: %w", rerr))
 		}
 	}
 	r.closeSockets()
 	r.sc.w.close()
 	r.ca.w.close()
-	return err
+	return errors.Join(errs...)
 }
 
 // side is one socket's receive loop: which direction its datagrams take and
@@ -344,8 +413,8 @@ func (r *Relay) Run(ctx context.Context, abort <-chan struct{}) error {
 type side struct {
 	in     batchConn
 	dir    *direction
-	from   netip.AddrPort // zero: any source
-	sensor bool           // sensor side: tap, track the source, send to the controller
+	from   netip.AddrPort // command side: the only source accepted (the controller)
+	sensor bool           // sensor side: the source lock, the tap, send to the controller
 }
 
 // rxBatch is a receive loop's read buffers and per-batch scratch, made
@@ -356,7 +425,6 @@ type rxBatch struct {
 	taps []message
 	imm  []message
 	meta []immediate
-	last netip.AddrPort // latest sensor source this loop published
 }
 
 func (r *Relay) newRxBatch() *rxBatch {
@@ -396,44 +464,46 @@ func (r *Relay) receiveLoop(s *side) {
 }
 
 // handleBatch settles the n datagrams just read into b.ms: each is
-// rejected (oversized, stranger) or handed to the direction; those with no
-// delay are sent at once, from the read buffers, and on the sensor side
-// the tap gets its copies.
+// rejected (oversized, stranger, no actuator known yet) or handed to the
+// direction; those with no delay are sent at once, from the read buffers,
+// and on the sensor side the tap gets its copies.
 func (r *Relay) handleBatch(s *side, b *rxBatch, n int) {
 	d := s.dir
 	now := d.now()
 	b.acc = b.acc[:0]
 	for i := range n {
 		m := &b.ms[i]
-		switch {
-		case m.trunc || m.n > r.cfg.MaxDatagram:
+		if m.trunc || m.n > r.cfg.MaxDatagram {
 			d.m.outcome[oOversized].Inc()
 			d.record(rec{arrival: now, outcome: oOversized})
-		case s.from.IsValid() && m.addr != s.from:
+			continue
+		}
+		if !r.fromRig(s, m.addr, now) {
 			d.m.outcome[oStranger].Inc()
 			d.record(rec{arrival: now, outcome: oStranger})
-		default:
-			b.acc = append(b.acc, *m)
+			continue
 		}
+		b.acc = append(b.acc, *m)
 	}
 	if len(b.acc) == 0 {
 		return
 	}
-	var dst netip.AddrPort
-	if s.sensor {
-		dst = r.cfg.Controller
-		if src := b.acc[len(b.acc)-1].addr; src != b.last {
-			b.last = src
-			r.srcMu.Lock()
-			r.lastSensor = src
-			r.srcMu.Unlock()
-		}
-	} else {
+	dst := r.cfg.Controller
+	if !s.sensor {
 		dst = r.cfg.Actuator
 		if !dst.IsValid() {
 			r.srcMu.Lock()
-			dst = r.lastSensor
+			dst = r.sensorSrc
 			r.srcMu.Unlock()
+		}
+		if !dst.IsValid() {
+			// A controller that kept sending across a relay restart: no
+			// sensor datagram yet says where the actuator is.
+			for range b.acc {
+				d.m.outcome[oNoActuator].Inc()
+				d.record(rec{arrival: now, outcome: oNoActuator})
+			}
+			return
 		}
 	}
 	b.imm, b.meta = d.admit(b.acc, dst, now, b.imm[:0], b.meta[:0])
@@ -441,6 +511,23 @@ func (r *Relay) handleBatch(s *side, b *rxBatch, n int) {
 	if s.sensor {
 		b.taps = r.sendTaps(b.acc, b.taps[:0])
 	}
+}
+
+// fromRig reports whether a datagram from src read at now on side s comes
+// from the rig: the controller on the command side, the locked sensor
+// source on the sensor side (which it may lock onto first).
+func (r *Relay) fromRig(s *side, src netip.AddrPort, now int64) bool {
+	if !s.sensor {
+		return src == s.from
+	}
+	ok, c := r.lock.admit(src, now)
+	switch {
+	case !ok:
+		r.strangerSeen(src, now)
+	case c.why != "":
+		r.lockChanged(src, c)
+	}
+	return ok
 }
 
 // sendTaps hands copies of the accepted sensor datagrams to the tap.
