@@ -9,7 +9,7 @@ package main
 //	  - name: conveyor               # required, unique, [a-z0-9_-]+
 //	    listen: 127.0.0.1:7001       # required
 //	    controller: 127.0.0.1:7101   # required
-//	    actuator: 127.0.0.1:7201     # optional, like the flags: sensor, upstream, tap
+//	    actuator: 127.0.0.1:7201     # optional, like the flags: sensor, relock_after, upstream, tap
 //	    profile: conveyor.yaml       # exactly one of profile and scenario
 //	    scenario: conveyor-soak.yaml #   (paths relative to this file)
 //	    seed: 11                     # optional
@@ -17,8 +17,8 @@ package main
 //	    trip_listen: 127.0.0.1:7401  # optional, with on_trip (clean|stop_commands)
 //	    trip_from: 127.0.0.1         #   and trip_from (default: loopback only)
 //
-// Names and the local ports the process binds (listen, upstream,
-// trip_listen) must be unique across the file.
+// Names, the local ports the process binds (listen, upstream, trip_listen)
+// and record paths must be unique across the file.
 
 import (
 	"fmt"
@@ -27,6 +27,7 @@ import (
 	"os"
 	"path/filepath"
 	"regexp"
+	"time"
 
 	"rigwire/profiles"
 )
@@ -46,6 +47,10 @@ type linkSpec struct {
 	SeedSet bool
 
 	RecordPath string
+
+	// RelockAfter lets a new source replace a sensor node silent this long
+	// (0: never; emulate.Config.RelockAfter).
+	RelockAfter time.Duration
 
 	// TripListen, when valid, is where trip requests are accepted;
 	// TripFrom is the only source address accepted (invalid: loopback
@@ -93,7 +98,7 @@ func parseLinks(data []byte, file, dir string) (*linksFile, error) {
 			return nil, f.Errorf("want HOST:PORT or \"off\", got %s", f.Got())
 		}
 		if s != "off" {
-			if _, _, err := net.SplitHostPort(s); err != nil {
+			if _, _, err := net.SplitHostPort(s); err != nil || s == "" {
 				return nil, f.Errorf("want HOST:PORT or \"off\", got %s", f.Got())
 			}
 		}
@@ -114,6 +119,7 @@ func parseLinks(data []byte, file, dir string) (*linksFile, error) {
 		return nil, lk.Errorf("want at most %d links, got %d", maxLinks, len(items))
 	}
 	names := map[string]int{}
+	records := map[string]string{} // absolute record path → the link that writes it
 	// Local sockets the process binds: listen, upstream, trip_listen.
 	bound := map[netip.AddrPort]string{}
 	for _, it := range items {
@@ -125,6 +131,16 @@ func parseLinks(data []byte, file, dir string) (*linksFile, error) {
 			return nil, it.Errorf("name: %q already names the link at line %d", l.Name, prev)
 		}
 		names[l.Name] = l.Line
+		if l.RecordPath != "" {
+			abs, err := filepath.Abs(l.RecordPath)
+			if err != nil {
+				abs = filepath.Clean(l.RecordPath)
+			}
+			if prev, dup := records[abs]; dup {
+				return nil, it.Errorf("record: %s is already the record of link %q (each link needs its own)", l.RecordPath, prev)
+			}
+			records[abs] = l.Name
+		}
 		for _, b := range []struct {
 			key string
 			ap  netip.AddrPort
@@ -143,7 +159,7 @@ func parseLinks(data []byte, file, dir string) (*linksFile, error) {
 }
 
 func parseLink(it profiles.Field, dir string) (linkSpec, error) {
-	keys, err := it.Mapping("name", "listen", "controller", "actuator", "sensor", "upstream", "tap",
+	keys, err := it.Mapping("name", "listen", "controller", "actuator", "sensor", "relock_after", "upstream", "tap",
 		"profile", "scenario", "seed", "record", "trip_listen", "trip_from", "on_trip")
 	if err != nil {
 		return linkSpec{}, err
@@ -181,13 +197,36 @@ func parseLink(it profiles.Field, dir string) (linkSpec, error) {
 		dst *netip.AddrPort
 	}{
 		{"listen", true, &l.Listen}, {"controller", true, &l.Controller},
-		{"actuator", false, &l.Actuator}, {"sensor", false, &l.Sensor},
+		{"actuator", false, &l.Actuator},
 		{"upstream", false, &l.Upstream}, {"tap", false, &l.Tap},
 		{"trip_listen", false, &l.TripListen},
 	} {
 		if err := addr(a.key, a.req, a.dst); err != nil {
 			return l, err
 		}
+	}
+	if f, ok := keys["sensor"]; ok {
+		s, err := f.Text()
+		if err == nil {
+			l.Sensor, err = resolveHostPort(s)
+		}
+		if err != nil {
+			return l, f.Errorf("want HOST or HOST:PORT (the rig's sensor node), got %s", f.Got())
+		}
+	}
+	if f, ok := keys["relock_after"]; ok {
+		s, err := f.Text()
+		var d time.Duration
+		if err == nil {
+			d, err = time.ParseDuration(s)
+		}
+		if err != nil || d < 0 || d > time.Hour {
+			return l, f.Errorf("want a duration from 0 (never) to 1h, such as 2s, got %s", f.Got())
+		}
+		l.RelockAfter = d
+	}
+	if err := checkFamilies(l, func(key string) string { return key }); err != nil {
+		return l, it.Errorf("%v", err)
 	}
 	if l.Controller.Port() == 0 {
 		return l, keys["controller"].Errorf("want a port > 0, got %s", keys["controller"].Got())

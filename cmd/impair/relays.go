@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"io"
 	"log/slog"
+	"net/netip"
 	"os"
 	"os/signal"
 	"sync"
@@ -24,7 +25,13 @@ type link struct {
 	log     *slog.Logger
 	metrics *emulate.Metrics
 	relay   *emulate.Relay
-	record  *os.File
+	record  *recordFile // nil without a record
+	// committed: the record has taken its path's place (runLinks, once
+	// everything is up).
+	committed bool
+	// reloads asks the link's reloader to re-read its profile (SIGHUP);
+	// a request while one is pending is merged with it.
+	reloads chan struct{}
 	prof    *profiles.Profile // the profile (nil with a scenario)
 	scen    *playingScenario  // nil with a profile
 	trip    *tripListener     // nil without a trip socket
@@ -56,15 +63,16 @@ func openLink(spec linkSpec, opts runOpts, reg prometheus.Registerer, log *slog.
 		tripCount = newTripMetrics(reg)
 	}
 	if spec.RecordPath != "" {
-		f, err := os.Create(spec.RecordPath)
+		f, err := openRecord(spec.RecordPath, append([]string{spec.ProfilePath, spec.ScenarioPath}, opts.inputs...))
 		if err != nil {
-			return nil, fmt.Errorf("record: %w", err)
+			return nil, badInput(err)
 		}
 		l.record = f
 	}
 	cfg := emulate.Config{
 		Profile: first, Listen: spec.Listen, Controller: spec.Controller,
-		Actuator: spec.Actuator, Sensor: spec.Sensor, Upstream: spec.Upstream, Tap: spec.Tap,
+		Actuator: spec.Actuator, Sensor: spec.Sensor, RelockAfter: spec.RelockAfter,
+		Upstream: spec.Upstream, Tap: spec.Tap,
 		Seed: spec.Seed, SeedSet: spec.SeedSet,
 		MaxDatagram: opts.maxDatagram, MaxInFlight: opts.maxInFlight, Spin: opts.spin, SpinSet: true,
 		Metrics: l.metrics, Logger: log,
@@ -95,7 +103,11 @@ func (l *link) close() {
 		l.trip.Close()
 	}
 	if l.record != nil {
-		l.record.Close()
+		if l.committed {
+			l.record.Close()
+		} else {
+			l.record.abandon()
+		}
 	}
 }
 
@@ -116,8 +128,12 @@ func (l *link) describe(w io.Writer) {
 	l.log.Info("relaying",
 		what, file, "listen", l.relay.ListenAddr().String(),
 		"upstream", l.relay.UpstreamAddr().String(), "controller", l.spec.Controller.String(),
-		"actuator", addrOr(l.spec.Actuator, "latest sensor source"), "tap", addrOr(l.spec.Tap, "none"),
-		"trip", trip, "seed", l.relay.Seed())
+		"actuator", addrOr(l.spec.Actuator, "the sensor source"), "sensor", sensorText(l.spec.Sensor),
+		"tap", addrOr(l.spec.Tap, "none"), "trip", trip, "seed", l.relay.Seed())
+	if !l.spec.Sensor.IsValid() && !l.spec.Listen.Addr().IsLoopback() {
+		l.log.Warn("the listen address is reachable from other hosts and no sensor is pinned: the first source to send becomes the rig's sensor and receives its commands; pin the rig's sensor node with --sensor (sensor: in a links file)",
+			"listen", l.spec.Listen.String())
+	}
 	if l.scen != nil {
 		prefix := ""
 		if l.spec.Name != "" {
@@ -169,6 +185,18 @@ func runLinks(specs []linkSpec, opts runOpts, stderr io.Writer, log *slog.Logger
 	}
 	defer srv.Close()
 
+	// Everything is up: the records take their paths' places.
+	for _, l := range links {
+		if l.record == nil {
+			continue
+		}
+		if err := l.record.commit(); err != nil {
+			closeAll()
+			return err
+		}
+		l.committed = true
+	}
+
 	fmt.Fprint(stderr, safetyCaution)
 	for _, l := range links {
 		l.describe(stderr)
@@ -176,6 +204,10 @@ func runLinks(specs []linkSpec, opts runOpts, stderr io.Writer, log *slog.Logger
 
 	ctx, cancel := context.WithCancel(context.Background())
 	defer cancel()
+	for _, l := range links {
+		l.reloads = make(chan struct{}, 1)
+		go l.reloader(ctx)
+	}
 	abort := make(chan struct{})
 	go func() {
 		stopping := false
@@ -192,8 +224,13 @@ func runLinks(specs []linkSpec, opts runOpts, stderr io.Writer, log *slog.Logger
 			}
 			switch {
 			case s == syscall.SIGHUP:
+				// Reloads run on each link's reloader, never here: a
+				// reload that blocks must not keep SIGTERM waiting.
 				for _, l := range links {
-					l.reload()
+					select {
+					case l.reloads <- struct{}{}:
+					default: // one is pending already
+					}
 				}
 			case !stopping:
 				stopping = true
@@ -270,6 +307,29 @@ func runLinks(specs []linkSpec, opts runOpts, stderr io.Writer, log *slog.Logger
 	}
 	log.Info("stopped")
 	return nil
+}
+
+// reloader runs the link's reloads until ctx is done.
+func (l *link) reloader(ctx context.Context) {
+	for {
+		select {
+		case <-ctx.Done():
+			return
+		case <-l.reloads:
+			l.reload()
+		}
+	}
+}
+
+// sensorText is the --sensor pin for the log.
+func sensorText(p netip.AddrPort) string {
+	switch {
+	case !p.IsValid():
+		return "the first source to send"
+	case p.Port() == 0:
+		return p.Addr().String() + " (any port)"
+	}
+	return p.String()
 }
 
 // reload re-reads the link's profile file (SIGHUP); a link playing a

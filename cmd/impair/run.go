@@ -23,6 +23,9 @@ type runOpts struct {
 	timeScale         float64
 	exitAfterScenario bool
 	singleLink        bool // flags, not a links file: metrics without a link label
+	// inputs are input files of the run besides each link's profile or
+	// scenario (the links file): no record may overwrite them.
+	inputs []string
 }
 
 // MaxTimeScale bounds --time-scale.
@@ -35,9 +38,22 @@ const runUsage = `usage: impair run --profile FILE --listen HOST:PORT --controll
 
 Relays a rig's UDP datagrams: those of the sensor node arriving at --listen
 go on to --controller, the controller's replies go back to the actuator
-(by default the source of the latest sensor datagram), each delayed and
-dropped as the profile's direction says (sensor_to_controller,
-controller_to_actuator), or as the scenario's phases say in turn. --links
+(by default the sensor node's address), each delayed and dropped as the
+profile's direction says (sensor_to_controller, controller_to_actuator), or
+as the scenario's phases say in turn.
+
+Only the rig gets through. The relay takes the first source that sends to
+--listen for the sensor node (--sensor pins it: an address, or an address
+and port); datagrams from any other source, and datagrams at the
+controller-facing socket from anyone but --controller, are strangers:
+counted, never forwarded, never sent commands. A sensor node that restarts
+on a new port stays a stranger unless --relock-after lets a silent sensor
+be replaced (logged and counted). Commands that arrive before the sensor
+node has sent, with no --actuator, are counted (no_actuator) and dropped.
+The relay does not authenticate the rig's own datagrams: anyone who can
+send from the rig's address and port is the rig.
+
+--links
 relays several rigs' links from one process. SIGHUP re-reads a profile
 (a bad one is refused and the running one kept); SIGINT or SIGTERM stops
 reading, releases what is in flight on time and exits; a second signal
@@ -55,7 +71,8 @@ var runExits = exitcode.Help(plainStatuses, map[int]string{
 
 func cmdRun(args []string, stdout, stderr io.Writer) error {
 	fs := newFlags("impair run", runUsage, runExits)
-	var listen, controller, actuator, sensor, upstream, tap, tripListen addrFlag
+	var listen, controller, actuator, upstream, tap, tripListen addrFlag
+	var sensor hostPortFlag
 	profilePath := fs.String("profile", "", "network profile `FILE` (YAML)")
 	scenarioPath := fs.String("scenario", "", "play the scenario `FILE` (YAML) instead of one profile")
 	linksPath := fs.String("links", "", "relay several rigs' links described in `FILE` (YAML) instead of one from flags")
@@ -64,7 +81,8 @@ func cmdRun(args []string, stdout, stderr io.Writer) error {
 	fs.Var(&listen, "listen", "`HOST:PORT` where the sensor node's datagrams arrive (required)")
 	fs.Var(&controller, "controller", "`HOST:PORT` of the controller (required)")
 	fs.Var(&actuator, "actuator", "`HOST:PORT` for commands (default: the source of the latest sensor datagram)")
-	fs.Var(&sensor, "sensor", "accept sensor datagrams only from `HOST:PORT` (default: any source)")
+	fs.Var(&sensor, "sensor", "the rig's sensor node: `HOST` (any port) or HOST:PORT (default: the first source to send)")
+	relockAfter := fs.Duration("relock-after", 0, "let a new source replace the sensor node once it has been silent this `long` (0: never)")
 	fs.Var(&upstream, "upstream", "local `HOST:PORT` of the socket that talks to the controller (default: an ephemeral port)")
 	fs.Var(&tap, "tap", "send a copy of every sensor datagram, before impairment, to `HOST:PORT`")
 	fs.Var(&tripListen, "trip-listen", "accept safety trip requests (\"rigwire-trip 1 <reason>\") on UDP `HOST:PORT`")
@@ -101,6 +119,8 @@ func cmdRun(args []string, stdout, stderr io.Writer) error {
 		return fail("--max-datagram: want 1…65535 bytes, got %d", *maxDatagram)
 	case *maxInFlight < 1 || *maxInFlight > 1<<20:
 		return fail("--max-in-flight: want 1…1048576, got %d", *maxInFlight)
+	case *relockAfter < 0 || *relockAfter > time.Hour:
+		return fail("--relock-after: want 0 (never) … 1h, got %s", *relockAfter)
 	case *spin < 0 || *spin > 10*time.Millisecond:
 		return fail("--spin: want 0…10ms, got %s", *spin)
 	case !(*timeScale > 0 && *timeScale <= maxTimeScale):
@@ -118,7 +138,7 @@ func cmdRun(args []string, stdout, stderr io.Writer) error {
 	var specs []linkSpec
 	if *linksPath != "" {
 		for _, name := range []string{"listen", "controller", "actuator", "sensor", "upstream", "tap",
-			"trip-listen", "trip-from", "on-trip", "record", "seed"} {
+			"trip-listen", "trip-from", "on-trip", "record", "seed", "relock-after"} {
 			if set[name] {
 				return fail("--%s: not with --links (give it per link in %s)", name, *linksPath)
 			}
@@ -131,6 +151,7 @@ func cmdRun(args []string, stdout, stderr io.Writer) error {
 			opts.metricsAddr = lf.Metrics
 		}
 		specs = lf.Links
+		opts.inputs = []string{*linksPath}
 	} else {
 		switch {
 		case !listen.set:
@@ -141,7 +162,10 @@ func cmdRun(args []string, stdout, stderr io.Writer) error {
 		s := linkSpec{
 			Listen: listen.ap, Controller: controller.ap, Actuator: actuator.ap, Sensor: sensor.ap,
 			Upstream: upstream.ap, Tap: tap.ap, ProfilePath: *profilePath, ScenarioPath: *scenarioPath,
-			Seed: *seed, SeedSet: set["seed"], RecordPath: *recordPath,
+			Seed: *seed, SeedSet: set["seed"], RecordPath: *recordPath, RelockAfter: *relockAfter,
+		}
+		if err := checkFamilies(s, func(key string) string { return "--" + key }); err != nil {
+			return fail("%v", err)
 		}
 		if tripListen.set {
 			s.TripListen = tripListen.ap
