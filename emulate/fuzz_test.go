@@ -37,7 +37,7 @@ func fuzzBody(t *testing.T, stream []byte) {
 	r, err := New(Config{
 		Profile: p, Listen: listen.addr, Controller: controllerAddr, Tap: tapAddr, Sensor: sensorAddr,
 		MaxDatagram: 512, MaxInFlight: 4, SeedSet: true, portableTimers: true,
-		conns: &testConns{listen: listen, upstream: up, tap: tap},
+		conns: &testConns{listen: listen, ctlSide: up, tap: tap},
 	})
 	if err != nil {
 		t.Fatal(err)

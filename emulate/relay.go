@@ -27,7 +27,7 @@ type Config struct {
 	// actuator leave from the same socket.
 	Listen netip.AddrPort
 	// Controller is where sensor datagrams go; its replies to the relay's
-	// upstream socket are the commands.
+	// controller-facing socket are the commands.
 	Controller netip.AddrPort
 	// Actuator receives the commands; zero: the rig's sensor source (see
 	// Sensor). Commands that arrive before that source is known are
@@ -44,10 +44,10 @@ type Config struct {
 	// the way back in for a rig node that restarted on a new port. Each
 	// change is logged and counted. Zero: the lock holds for the run.
 	RelockAfter time.Duration
-	// Upstream is the local address of the socket that talks to the
+	// ControllerBind is the local address of the socket that talks to the
 	// controller; zero: an ephemeral port (on loopback if the controller is
 	// on loopback).
-	Upstream netip.AddrPort
+	ControllerBind netip.AddrPort
 	// Tap, when set, receives a copy of every accepted sensor datagram as
 	// it arrived, before any impairment.
 	Tap netip.AddrPort
@@ -81,7 +81,7 @@ type Config struct {
 	conns *testConns
 }
 
-type testConns struct{ listen, upstream, tap batchConn }
+type testConns struct{ listen, ctlSide, tap batchConn }
 
 // Relay impairs the two directions of one rig's link.
 type Relay struct {
@@ -203,19 +203,19 @@ func (r *Relay) newDirection(name string, ch *profiles.Channel, stream uint64, o
 
 func (r *Relay) openSockets() error {
 	if r.cfg.conns != nil {
-		r.listen, r.up, r.tap = r.cfg.conns.listen, r.cfg.conns.upstream, r.cfg.conns.tap
+		r.listen, r.up, r.tap = r.cfg.conns.listen, r.cfg.conns.ctlSide, r.cfg.conns.tap
 		return nil
 	}
 	var err error
 	if r.listen, err = openUDP(r.cfg.Listen); err != nil {
 		return fmt.Errorf("listen %s: %w", r.cfg.Listen, err)
 	}
-	up := r.cfg.Upstream
+	up := r.cfg.ControllerBind
 	if !up.IsValid() {
 		up = ephemeralFor(r.cfg.Controller)
 	}
 	if r.up, err = openUDP(up); err != nil {
-		return fmt.Errorf("upstream socket %s: %w", up, err)
+		return fmt.Errorf("controller-facing socket %s: %w", up, err)
 	}
 	if r.cfg.Tap.IsValid() {
 		if r.tap, err = openUDP(ephemeralFor(r.cfg.Tap)); err != nil {
@@ -279,9 +279,9 @@ func (r *Relay) closeSockets() {
 // Seed is the seed of this run's decisions.
 func (r *Relay) Seed() uint64 { return r.seed }
 
-// ListenAddr and UpstreamAddr are the relay's two socket addresses.
-func (r *Relay) ListenAddr() netip.AddrPort   { return r.listen.localAddr() }
-func (r *Relay) UpstreamAddr() netip.AddrPort { return r.up.localAddr() }
+// ListenAddr and ControllerBindAddr are the relay's two socket addresses.
+func (r *Relay) ListenAddr() netip.AddrPort         { return r.listen.localAddr() }
+func (r *Relay) ControllerBindAddr() netip.AddrPort { return r.up.localAddr() }
 
 // Metrics are the relay's metrics.
 func (r *Relay) Metrics() *Metrics { return r.m }

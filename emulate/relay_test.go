@@ -122,7 +122,7 @@ func TestRelayLoopbackRoundTrip(t *testing.T) {
 			t.Fatalf("datagram %d: controller %q tap %q, want %q", i, got[i], tapped[i], want)
 		}
 	}
-	up := rig.relay.UpstreamAddr()
+	up := rig.relay.ControllerBindAddr()
 	for i := range n {
 		if _, err := rig.controller.WriteToUDPAddrPort(fmt.Appendf(nil, "command %d", i), up); err != nil {
 			t.Fatal(err)

@@ -153,9 +153,9 @@ func checkFamilies(c Config) error {
 				a.name, a.ap, family(a.ap.Addr()), c.Listen, lf)
 		}
 	}
-	if c.Upstream.IsValid() && family(c.Upstream.Addr()) != family(c.Controller.Addr()) {
+	if c.ControllerBind.IsValid() && family(c.ControllerBind.Addr()) != family(c.Controller.Addr()) {
 		return fmt.Errorf("controller %s is IPv%d but the controller-facing socket's address %s is IPv%d; use addresses of one family",
-			c.Controller, family(c.Controller.Addr()), c.Upstream, family(c.Upstream.Addr()))
+			c.Controller, family(c.Controller.Addr()), c.ControllerBind, family(c.ControllerBind.Addr()))
 	}
 	return nil
 }

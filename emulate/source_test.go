@@ -86,7 +86,7 @@ func TestRelayOnlyItsOwnRig(t *testing.T) {
 					c.Sensor = addrOf(rigNode)
 				}
 			})
-			listen, up := rig.relay.ListenAddr(), rig.relay.UpstreamAddr()
+			listen, up := rig.relay.ListenAddr(), rig.relay.ControllerBindAddr()
 			if tc.strangerFirst {
 				send(t, stranger, listen, "stranger", nStranger/2)
 				time.Sleep(20 * time.Millisecond)
@@ -163,7 +163,7 @@ func TestRelayRelock(t *testing.T) {
 		t.Run(tc.name, func(t *testing.T) {
 			old := listenLoopback(t)
 			rig := startLoopback(t, cleanProfile(0), func(c *Config) { c.RelockAfter = tc.relockAfter })
-			listen, up := rig.relay.ListenAddr(), rig.relay.UpstreamAddr()
+			listen, up := rig.relay.ListenAddr(), rig.relay.ControllerBindAddr()
 			send(t, old, listen, "sample", 10)
 			readAll(t, rig.controller, 10, 200*time.Millisecond)
 			old.Close()
@@ -201,7 +201,7 @@ func TestRelayCommandBeforeAnySensor(t *testing.T) {
 		t.Run(fmt.Sprintf("command delay %gs", delay), func(t *testing.T) {
 			rigNode := listenLoopback(t)
 			rig := startLoopback(t, cleanProfile(delay), nil)
-			up := rig.relay.UpstreamAddr()
+			up := rig.relay.ControllerBindAddr()
 			send(t, rig.controller, up, "early", 30)
 			time.Sleep(50 * time.Millisecond)
 			send(t, rigNode, rig.relay.ListenAddr(), "sample", 1)
@@ -237,7 +237,7 @@ func TestRelayMixedFamiliesRefused(t *testing.T) {
 		}, want: "actuator 127.0.0.1:7000 is IPv4"},
 		{name: "IPv6 controller, IPv4 controller-facing socket", mod: func(c *Config) {
 			c.Controller = netip.MustParseAddrPort("[::1]:7100")
-			c.Upstream = v4
+			c.ControllerBind = v4
 		}, want: "controller [::1]:7100 is IPv6"},
 		{name: "IPv4-mapped actuator with IPv4 listen is IPv4", mod: func(c *Config) {
 			c.Actuator = netip.MustParseAddrPort("[::ffff:127.0.0.1]:7000")
@@ -302,19 +302,19 @@ func (p panicConn) readBatch([]message) (int, error) {
 // error that says so, and every datagram held is released or counted.
 func TestRelayGoroutineFailureEndsRun(t *testing.T) {
 	listen := newFakeConn("127.0.0.1:7000")
-	upstream := newFakeConn("127.0.0.1:7001")
+	ctlSide := newFakeConn("127.0.0.1:7001")
 	cfg := Config{
 		Profile: cleanProfile(0.05), Listen: listen.addr, Controller: netip.MustParseAddrPort("127.0.0.1:7100"),
 		Actuator: netip.MustParseAddrPort("127.0.0.1:7200"),
 		Metrics:  NewMetrics(prometheus.NewRegistry()), Logger: slog.New(slog.NewTextHandler(io.Discard, nil)),
 		portableTimers: true,
-		conns:          &testConns{listen: panicConn{listen, make(chan struct{})}, upstream: upstream},
+		conns:          &testConns{listen: panicConn{listen, make(chan struct{})}, ctlSide: ctlSide},
 	}
 	r, err := New(cfg)
 	if err != nil {
 		t.Fatal(err)
 	}
-	upstream.push(cfg.Controller, []byte("held command"))
+	ctlSide.push(cfg.Controller, []byte("held command"))
 	done := make(chan error, 1)
 	go func() { done <- r.Run(context.Background(), nil) }()
 	for deadline := time.Now().Add(5 * time.Second); ; time.Sleep(time.Millisecond) {

@@ -50,7 +50,7 @@ func startFake(t *testing.T, p *profiles.Profile, mod func(*Config)) *fakeRig {
 		Metrics: NewMetrics(rig.reg), Record: rig.record,
 		Logger:         slog.New(slog.NewTextHandler(io.Discard, nil)),
 		portableTimers: true,
-		conns:          &testConns{listen: rig.listen, upstream: rig.up, tap: rig.tapped},
+		conns:          &testConns{listen: rig.listen, ctlSide: rig.up, tap: rig.tapped},
 	}
 	if mod != nil {
 		mod(&cfg)

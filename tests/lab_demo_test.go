@@ -16,7 +16,7 @@ import (
 )
 
 // TestLabDemoAcrossNamespaces runs the simulated rig across the lab's
-// namespaces: `impair lab up` builds the test topology, the rig controller
+// namespaces: `impair lab build` builds the test topology, the rig controller
 // runs in the controller's namespace, `monitor serve` (relay and monitor in
 // one process) in the relay's, and the rig node in the rig's, each through
 // ip netns exec, so that every sample and command crosses both veth pairs.
@@ -24,7 +24,7 @@ import (
 // prediction must lie in its 95 % interval widened by 15 % of its bounds
 // (its verdict agree with --tolerance 0.15) — the same check TestRigServe
 // makes on loopback; the veths add microseconds to every delay. Then
-// `impair lab down` must leave no namespace behind (ip netns list). An
+// `impair lab remove` must leave no namespace behind (ip netns list). An
 // end-to-end plumbing check; its thresholds are common practice.
 func TestLabDemoAcrossNamespaces(t *testing.T) {
 	needRoot(t)
@@ -43,9 +43,9 @@ func TestLabDemoAcrossNamespaces(t *testing.T) {
 		t.Fatal(err)
 	}
 	mon, imp := buildCmd(t, "monitor"), buildCmd(t, "impair")
-	file, cfg := testTopology(t) // its cleanup takes the lab down whatever happens
+	file, cfg := testTopology(t) // its cleanup removes the lab whatever happens
 	rig, relay, ctl := cfg.Namespaces[0], cfg.Namespaces[1], cfg.Namespaces[2]
-	runLab(t, imp, []string{"up", "--config", file}, []string{"namespace " + relay + ": created"})
+	runLab(t, imp, []string{"build", "--config", file}, []string{"namespace " + relay + ": created"})
 
 	const (
 		listen  = "10.213.201.2:9470" // the relay's side of the rig–relay veth
@@ -115,7 +115,7 @@ func TestLabDemoAcrossNamespaces(t *testing.T) {
 		t.Errorf("verdict %q with tolerance %g, want agree with %g:\n%s", s.Verdict, s.Tolerance, tolerance, b)
 	}
 
-	runLab(t, imp, []string{"down", "--config", file}, []string{"namespace " + relay + ": removed"})
+	runLab(t, imp, []string{"remove", "--config", file}, []string{"namespace " + relay + ": removed"})
 	out, err := exec.Command(ip, "netns", "list").CombinedOutput()
 	if err != nil {
 		t.Fatalf("ip netns list: %v\n%s", err, out)
@@ -123,7 +123,7 @@ func TestLabDemoAcrossNamespaces(t *testing.T) {
 	for _, name := range cfg.Namespaces {
 		for _, l := range bytes.Split(out, []byte("\n")) {
 			if f := strings.Fields(string(l)); len(f) > 0 && f[0] == name {
-				t.Errorf("namespace %s still listed by ip netns list after lab down:\n%s", name, out)
+				t.Errorf("namespace %s still listed by ip netns list after lab remove:\n%s", name, out)
 			}
 		}
 	}

@@ -54,7 +54,7 @@ func testTopology(t *testing.T) (file string, cfg lab.Config) {
 	// Whatever happens, nothing is left behind.
 	t.Cleanup(func() {
 		var out bytes.Buffer
-		if err := lab.Down(cfg, &out); err != nil {
+		if err := lab.Remove(cfg, &out); err != nil {
 			t.Errorf("cleanup: %v", err)
 		}
 		for name, ok := range lab.Exists(cfg) {
@@ -116,29 +116,29 @@ func listenIn(t *testing.T, ns string, addr netip.AddrPort) *net.UDPConn {
 	return c
 }
 
-// impair lab up builds the namespaces, veth pairs, addresses and routes
+// impair lab build builds the namespaces, veth pairs, addresses and routes
 // (twice: the second time finds everything there); a datagram sent from
-// the rig's namespace to the relay's address crosses the veth; lab down
+// the rig's namespace to the relay's address crosses the veth; lab remove
 // removes it all (twice: the second time finds nothing).
-func TestLabUpDown(t *testing.T) {
+func TestLabBuildRemove(t *testing.T) {
 	needRoot(t)
 	impair := buildCmd(t, "impair")
 	file, cfg := testTopology(t)
 	rig, relay := cfg.Namespaces[0], cfg.Namespaces[1]
 
-	runLab(t, impair, []string{"up", "--config", file}, []string{
+	runLab(t, impair, []string{"build", "--config", file}, []string{
 		"namespace " + rig + ": created",
 		"link " + rig + "/to-" + relay + " – " + relay + "/to-" + rig + ": created",
 		"address 10.213.201.1/30 on " + rig + "/to-" + relay + ", up",
 		"route 10.213.202.0/30 via 10.213.201.2 dev to-" + relay + " in " + rig,
 	})
-	runLab(t, impair, []string{"up", "--config", file}, []string{
+	runLab(t, impair, []string{"build", "--config", file}, []string{
 		"namespace " + rig + ": exists",
 		"link " + rig + "/to-" + relay + " – " + relay + "/to-" + rig + ": exists",
 	})
 	for name, ok := range lab.Exists(cfg) {
 		if !ok {
-			t.Fatalf("namespace %s missing after lab up", name)
+			t.Fatalf("namespace %s missing after lab build", name)
 		}
 	}
 
@@ -166,11 +166,11 @@ func TestLabUpDown(t *testing.T) {
 		t.Errorf("got %q from %v, want %q from 10.213.201.1", buf[:n], from, want)
 	}
 
-	runLab(t, impair, []string{"down", "--config", file}, []string{"namespace " + rig + ": removed"})
-	runLab(t, impair, []string{"down", "--config", file}, []string{"namespace " + rig + ": absent"})
+	runLab(t, impair, []string{"remove", "--config", file}, []string{"namespace " + rig + ": removed"})
+	runLab(t, impair, []string{"remove", "--config", file}, []string{"namespace " + rig + ": absent"})
 	for name, ok := range lab.Exists(cfg) {
 		if ok {
-			t.Errorf("namespace %s still there after lab down", name)
+			t.Errorf("namespace %s still there after lab remove", name)
 		}
 	}
 }
@@ -186,7 +186,7 @@ func TestLabRelayAcrossNamespaces(t *testing.T) {
 	_, cfg := testTopology(t)
 	rig, relay, ctl := cfg.Namespaces[0], cfg.Namespaces[1], cfg.Namespaces[2]
 	var out bytes.Buffer
-	if err := lab.Up(cfg, &out); err != nil {
+	if err := lab.Build(cfg, &out); err != nil {
 		t.Fatalf("%v\n%s", err, out.String())
 	}
 

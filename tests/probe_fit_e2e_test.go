@@ -86,7 +86,7 @@ sensor_to_controller:
 	metrics := freePort(t, "tcp")
 	record := filepath.Join(dir, "record.csv")
 	relay := start(t, bin, "run", "--profile", profPath, "--listen", listen,
-		"--upstream", freePort(t, "udp"), "--controller", echoAddr, "--metrics", metrics,
+		"--controller-bind", freePort(t, "udp"), "--controller", echoAddr, "--metrics", metrics,
 		"--record", record)
 	waitHTTP(t, "http://"+metrics+"/metrics", relay)
 	waitOutput(t, echo, "echoing probes")

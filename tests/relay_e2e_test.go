@@ -28,7 +28,7 @@ import (
 type relayRig struct {
 	p          *proc
 	listen     netip.AddrPort
-	upstream   netip.AddrPort
+	ctlSide    netip.AddrPort
 	metrics    string
 	sensor     *net.UDPConn // the sensor node; commands come back to it
 	controller *net.UDPConn
@@ -62,11 +62,11 @@ func startRelay(t testing.TB, profile string, extra ...string) *relayRig {
 		t.Fatal(err)
 	}
 	rig.listen = netip.MustParseAddrPort(freePort(t, "udp"))
-	rig.upstream = netip.MustParseAddrPort(freePort(t, "udp"))
+	rig.ctlSide = netip.MustParseAddrPort(freePort(t, "udp"))
 	metrics := freePort(t, "tcp")
 	rig.metrics = "http://" + metrics + "/metrics"
 	args := append([]string{"run", "--profile", rig.profile,
-		"--listen", rig.listen.String(), "--upstream", rig.upstream.String(),
+		"--listen", rig.listen.String(), "--controller-bind", rig.ctlSide.String(),
 		"--controller", apOf(rig.controller).String(), "--tap", apOf(rig.tap).String(),
 		"--metrics", metrics, "--record", rig.record}, extra...)
 	rig.p = start(t, buildCmd(t, "impair"), args...)
@@ -171,7 +171,7 @@ controller_to_actuator:
 			atController = append(atController, arrival{data: bytes.Clone(buf[:k]), at: now})
 			cmd := bytes.Clone(buf[:k])
 			binary.BigEndian.PutUint64(cmd[4:], uint64(now))
-			rig.controller.WriteToUDPAddrPort(cmd, rig.upstream)
+			rig.controller.WriteToUDPAddrPort(cmd, rig.ctlSide)
 		}
 	}()
 	sent := map[uint32][]byte{}
@@ -261,7 +261,7 @@ func TestRelayRejectsStrangers(t *testing.T) {
 	stranger := udpLoopback(t)
 	for range 5 {
 		stranger.WriteToUDPAddrPort([]byte("not the sensor"), rig.listen)
-		stranger.WriteToUDPAddrPort([]byte("not the controller"), rig.upstream)
+		stranger.WriteToUDPAddrPort([]byte("not the controller"), rig.ctlSide)
 	}
 	sensor.WriteToUDPAddrPort([]byte("the sensor"), rig.listen)
 	var got []arrival

@@ -103,9 +103,9 @@ func checkFamilies(l linkSpec, name func(key string) string) error {
 				name(a.key), a.ap.Addr(), ipFamily(a.ap.Addr()), name("listen"), l.Listen, lf)
 		}
 	}
-	if l.Upstream.IsValid() && ipFamily(l.Upstream.Addr()) != ipFamily(l.Controller.Addr()) {
+	if l.ControllerBind.IsValid() && ipFamily(l.ControllerBind.Addr()) != ipFamily(l.Controller.Addr()) {
 		return fmt.Errorf("%s: %s is IPv%d but %s %s is IPv%d (that socket sends to the controller); use addresses of one family",
-			name("upstream"), l.Upstream, ipFamily(l.Upstream.Addr()), name("controller"), l.Controller, ipFamily(l.Controller.Addr()))
+			name("controller_bind"), l.ControllerBind, ipFamily(l.ControllerBind.Addr()), name("controller"), l.Controller, ipFamily(l.Controller.Addr()))
 	}
 	return nil
 }

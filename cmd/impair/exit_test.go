@@ -57,10 +57,10 @@ func TestExitStatusBadInput(t *testing.T) {
 		{"fit bad flag", []string{"fit", badTrace, "--halve-rtt", "--direction", "sideways"}, "--direction: want"},
 		{"fit missing trace", []string{"fit", missing, "--halve-rtt"}, missing},
 		{"fit bad trace", []string{"fit", badTrace, "--halve-rtt"}, "cut.csv:4: want 4 fields"},
-		{"lab bad verb", []string{"lab", "sideways"}, "want up or down"},
-		{"lab bad flag", []string{"lab", "up", "--conf", "x"}, "flag provided but not defined: -conf"},
-		{"lab missing config", []string{"lab", "up", "--config", missing}, missing},
-		{"lab bad config", []string{"lab", "up", "--config", badLab}, "lab.yaml"},
+		{"lab bad verb", []string{"lab", "sideways"}, "want build or remove"},
+		{"lab bad flag", []string{"lab", "build", "--conf", "x"}, "flag provided but not defined: -conf"},
+		{"lab missing config", []string{"lab", "build", "--config", missing}, missing},
+		{"lab bad config", []string{"lab", "build", "--config", badLab}, "lab.yaml"},
 	}
 	for _, c := range cases {
 		t.Run(c.name, func(t *testing.T) {
@@ -86,7 +86,7 @@ func mustAbs(t *testing.T, p string) string {
 }
 
 // helpCommands are every command and subcommand, for the help tests.
-var helpCommands = [][]string{{"run"}, {"check"}, {"echo"}, {"probe"}, {"fit"}, {"lab"}, {"lab", "up"}, {"lab", "down"}}
+var helpCommands = [][]string{{"run"}, {"check"}, {"echo"}, {"probe"}, {"fit"}, {"lab"}, {"lab", "build"}, {"lab", "remove"}}
 
 // TestHelpListsExitStatuses: every command's -h lists its exit statuses
 // (on stdout, exit 0); the top-level usage lists the whole table.

@@ -7,9 +7,9 @@ import (
 	"rigwire/deploy/lab"
 )
 
-const labUsage = `usage: impair lab up|down [--config FILE]
+const labUsage = `usage: impair lab build|remove [--config FILE]
 
-Builds (up) or removes (down) the lab topology: network namespaces joined
+Builds or removes the lab topology: network namespaces joined
 by veth pairs with private addresses and routes, so that a dry run with
 the simulated rig crosses real interfaces. Without --config, three
 namespaces in a chain: rw-rig (10.213.1.1) – (10.213.1.2) rw-relay
@@ -18,18 +18,18 @@ Run a program inside one with: ip netns exec rw-relay impair run ...
 `
 
 var labExits = exitcode.Help(plainStatuses, map[int]string{
-	exitcode.OK:       "the topology is up (or removed)",
+	exitcode.OK:       "the topology is built (or removed)",
 	exitcode.Failure:  "error while running (an ip command failed; not root?)",
 	exitcode.BadInput: "bad usage, or a topology file that does not load or validate (the message names file, line and key)",
 })
 
-// cmdLab runs `impair lab up|down`.
+// cmdLab runs `impair lab build|remove`.
 func cmdLab(args []string, stdout, stderr io.Writer) error {
-	if len(args) == 0 || (args[0] != "up" && args[0] != "down") {
+	if len(args) == 0 || (args[0] != "build" && args[0] != "remove") {
 		if len(args) > 0 && (args[0] == "-h" || args[0] == "-help" || args[0] == "--help" || args[0] == "help") {
 			return helpError{Text: labUsage + "\n" + labExits}
 		}
-		return usagef("want up or down")
+		return usagef("want build or remove")
 	}
 	verb := args[0]
 	fs := newFlags("impair lab "+verb, labUsage, labExits)
@@ -47,8 +47,8 @@ func cmdLab(args []string, stdout, stderr io.Writer) error {
 			return badInput(err)
 		}
 	}
-	if verb == "up" {
-		return lab.Up(cfg, stdout)
+	if verb == "build" {
+		return lab.Build(cfg, stdout)
 	}
-	return lab.Down(cfg, stdout)
+	return lab.Remove(cfg, stdout)
 }

@@ -9,7 +9,7 @@ package main
 //	  - name: conveyor               # required, unique, [a-z0-9_-]+
 //	    listen: 127.0.0.1:7001       # required
 //	    controller: 127.0.0.1:7101   # required
-//	    actuator: 127.0.0.1:7201     # optional, like the flags: sensor, relock_after, upstream, tap
+//	    actuator: 127.0.0.1:7201     # optional, like the flags: sensor, relock_after, controller_bind, tap
 //	    profile: conveyor.yaml       # exactly one of profile and scenario
 //	    scenario: conveyor-soak.yaml #   (paths relative to this file)
 //	    seed: 11                     # optional
@@ -17,7 +17,7 @@ package main
 //	    trip_listen: 127.0.0.1:7401  # optional, with on_trip (clean|stop_commands)
 //	    trip_from: 127.0.0.1         #   and trip_from (default: loopback only)
 //
-// Names, the local ports the process binds (listen, upstream, trip_listen)
+// Names, the local ports the process binds (listen, controller_bind, trip_listen)
 // and record paths must be unique across the file.
 
 import (
@@ -38,7 +38,7 @@ type linkSpec struct {
 	Name string // "" in single-link mode: metrics without a link label
 	Line int    // line of the entry in the links file (0: flags)
 
-	Listen, Controller, Actuator, Sensor, Upstream, Tap netip.AddrPort
+	Listen, Controller, Actuator, Sensor, ControllerBind, Tap netip.AddrPort
 
 	// Exactly one of ProfilePath and ScenarioPath is set.
 	ProfilePath, ScenarioPath string
@@ -120,7 +120,7 @@ func parseLinks(data []byte, file, dir string) (*linksFile, error) {
 	}
 	names := map[string]int{}
 	records := map[string]string{} // absolute record path → the link that writes it
-	// Local sockets the process binds: listen, upstream, trip_listen.
+	// Local sockets the process binds: listen, controller_bind, trip_listen.
 	bound := map[netip.AddrPort]string{}
 	for _, it := range items {
 		l, err := parseLink(it, dir)
@@ -144,7 +144,7 @@ func parseLinks(data []byte, file, dir string) (*linksFile, error) {
 		for _, b := range []struct {
 			key string
 			ap  netip.AddrPort
-		}{{"listen", l.Listen}, {"upstream", l.Upstream}, {"trip_listen", l.TripListen}} {
+		}{{"listen", l.Listen}, {"controller_bind", l.ControllerBind}, {"trip_listen", l.TripListen}} {
 			if !b.ap.IsValid() || b.ap.Port() == 0 {
 				continue
 			}
@@ -159,7 +159,7 @@ func parseLinks(data []byte, file, dir string) (*linksFile, error) {
 }
 
 func parseLink(it profiles.Field, dir string) (linkSpec, error) {
-	keys, err := it.Mapping("name", "listen", "controller", "actuator", "sensor", "relock_after", "upstream", "tap",
+	keys, err := it.Mapping("name", "listen", "controller", "actuator", "sensor", "relock_after", "controller_bind", "tap",
 		"profile", "scenario", "seed", "record", "trip_listen", "trip_from", "on_trip")
 	if err != nil {
 		return linkSpec{}, err
@@ -198,7 +198,7 @@ func parseLink(it profiles.Field, dir string) (linkSpec, error) {
 	}{
 		{"listen", true, &l.Listen}, {"controller", true, &l.Controller},
 		{"actuator", false, &l.Actuator},
-		{"upstream", false, &l.Upstream}, {"tap", false, &l.Tap},
+		{"controller_bind", false, &l.ControllerBind}, {"tap", false, &l.Tap},
 		{"trip_listen", false, &l.TripListen},
 	} {
 		if err := addr(a.key, a.req, a.dst); err != nil {

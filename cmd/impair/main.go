@@ -10,7 +10,7 @@
 //	impair echo --listen HOST:PORT
 //	impair probe --target HOST:PORT --rate R --size B --duration D --out TRACE.csv
 //	impair fit TRACE (--one-way | --halve-rtt | --round-trip) [--out PROFILE.yaml] [--loop LOOP.yaml]
-//	impair lab up|down [--config FILE]
+//	impair lab build|remove [--config FILE]
 //
 // Every command exits with a status of the one table in
 // cmd/internal/exitcode (see exit.go).
@@ -38,7 +38,7 @@ commands:
   echo    answer probes: send each one back, stamped
   probe   send timestamped probes to an echo and record their fates in a trace
   fit     fit a profile to a probe trace
-  lab     build or remove the lab's network namespaces (up|down, root)
+  lab     build or remove the lab's network namespaces (build|remove, root)
 
 Run "impair <command> -h" for a command's flags and the statuses it returns.
 
@@ -86,7 +86,7 @@ func dispatch(args []string, stdout, stderr io.Writer) int {
 		return exitcode.BadInput
 	}
 	name := "impair " + args[0]
-	if args[0] == "lab" && len(args) > 1 && (args[1] == "up" || args[1] == "down") {
+	if args[0] == "lab" && len(args) > 1 && (args[1] == "build" || args[1] == "remove") {
 		name += " " + args[1]
 	}
 	return cli.Status(err, name, stdout, stderr)

@@ -72,7 +72,7 @@ func openLink(spec linkSpec, opts runOpts, reg prometheus.Registerer, log *slog.
 	cfg := emulate.Config{
 		Profile: first, Listen: spec.Listen, Controller: spec.Controller,
 		Actuator: spec.Actuator, Sensor: spec.Sensor, RelockAfter: spec.RelockAfter,
-		Upstream: spec.Upstream, Tap: spec.Tap,
+		ControllerBind: spec.ControllerBind, Tap: spec.Tap,
 		Seed: spec.Seed, SeedSet: spec.SeedSet,
 		MaxDatagram: opts.maxDatagram, MaxInFlight: opts.maxInFlight, Spin: opts.spin, SpinSet: true,
 		Metrics: l.metrics, Logger: log,
@@ -127,7 +127,7 @@ func (l *link) describe(w io.Writer) {
 	}
 	l.log.Info("relaying",
 		what, file, "listen", l.relay.ListenAddr().String(),
-		"upstream", l.relay.UpstreamAddr().String(), "controller", l.spec.Controller.String(),
+		"controller_bind", l.relay.ControllerBindAddr().String(), "controller", l.spec.Controller.String(),
 		"actuator", addrOr(l.spec.Actuator, "the sensor source"), "sensor", sensorText(l.spec.Sensor),
 		"tap", addrOr(l.spec.Tap, "none"), "trip", trip, "seed", l.relay.Seed())
 	if !l.spec.Sensor.IsValid() && !l.spec.Listen.Addr().IsLoopback() {

@@ -71,7 +71,7 @@ var runExits = exitcode.Help(plainStatuses, map[int]string{
 
 func cmdRun(args []string, stdout, stderr io.Writer) error {
 	fs := newFlags("impair run", runUsage, runExits)
-	var listen, controller, actuator, upstream, tap, tripListen addrFlag
+	var listen, controller, actuator, ctlBind, tap, tripListen addrFlag
 	var sensor hostPortFlag
 	profilePath := fs.String("profile", "", "network profile `FILE` (YAML)")
 	scenarioPath := fs.String("scenario", "", "play the scenario `FILE` (YAML) instead of one profile")
@@ -83,7 +83,7 @@ func cmdRun(args []string, stdout, stderr io.Writer) error {
 	fs.Var(&actuator, "actuator", "`HOST:PORT` for commands (default: the source of the latest sensor datagram)")
 	fs.Var(&sensor, "sensor", "the rig's sensor node: `HOST` (any port) or HOST:PORT (default: the first source to send)")
 	relockAfter := fs.Duration("relock-after", 0, "let a new source replace the sensor node once it has been silent this `long` (0: never)")
-	fs.Var(&upstream, "upstream", "local `HOST:PORT` of the socket that talks to the controller (default: an ephemeral port)")
+	fs.Var(&ctlBind, "controller-bind", "local `HOST:PORT` the relay binds to talk to the controller (default: an ephemeral port)")
 	fs.Var(&tap, "tap", "send a copy of every sensor datagram, before impairment, to `HOST:PORT`")
 	fs.Var(&tripListen, "trip-listen", "accept safety trip requests (\"rigwire-trip 1 <reason>\") on UDP `HOST:PORT`")
 	tripFrom := fs.String("trip-from", "", "accept trip requests only from `HOST` (default: loopback addresses only)")
@@ -137,7 +137,7 @@ func cmdRun(args []string, stdout, stderr io.Writer) error {
 
 	var specs []linkSpec
 	if *linksPath != "" {
-		for _, name := range []string{"listen", "controller", "actuator", "sensor", "upstream", "tap",
+		for _, name := range []string{"listen", "controller", "actuator", "sensor", "controller-bind", "tap",
 			"trip-listen", "trip-from", "on-trip", "record", "seed", "relock-after"} {
 			if set[name] {
 				return fail("--%s: not with --links (give it per link in %s)", name, *linksPath)
@@ -161,7 +161,7 @@ func cmdRun(args []string, stdout, stderr io.Writer) error {
 		}
 		s := linkSpec{
 			Listen: listen.ap, Controller: controller.ap, Actuator: actuator.ap, Sensor: sensor.ap,
-			Upstream: upstream.ap, Tap: tap.ap, ProfilePath: *profilePath, ScenarioPath: *scenarioPath,
+			ControllerBind: ctlBind.ap, Tap: tap.ap, ProfilePath: *profilePath, ScenarioPath: *scenarioPath,
 			Seed: *seed, SeedSet: set["seed"], RecordPath: *recordPath, RelockAfter: *relockAfter,
 		}
 		if err := checkFamilies(s, func(key string) string { return "--" + key }); err != nil {

@@ -489,7 +489,7 @@ func TestRunLinksTripStopCommands(t *testing.T) {
 	actA, actB := udp(t, "127.0.0.1"), udp(t, "127.0.0.1") // sensor nodes, which also take the commands
 
 	// roundTrip: the node sends a sample, the controller answers it with a
-	// command to the relay's upstream socket; it returns whether the
+	// command to the relay's controller-facing socket; it returns whether the
 	// command reached the node.
 	roundTrip := func(node, ctl *net.UDPConn, listen string) bool {
 		t.Helper()

@@ -14,16 +14,16 @@ import (
 	"golang.org/x/sys/unix"
 )
 
-// Up creates what cfg describes and is missing — namespaces, veth pairs,
+// Build creates what cfg describes and is missing — namespaces, veth pairs,
 // addresses, links up, routes — leaving what already exists as it is, and
 // prints one line per step to w. Running it twice changes nothing the
 // second time.
-func Up(cfg Config, w io.Writer) error {
+func Build(cfg Config, w io.Writer) error {
 	runtime.LockOSThread()
 	defer runtime.UnlockOSThread()
 	origin, err := netns.Get()
 	if err != nil {
-		return fmt.Errorf("lab up: current namespace: %w", err)
+		return fmt.Errorf("lab build: current namespace: %w", err)
 	}
 	defer origin.Close()
 	// NewNamed switches this thread into the namespace it creates; come
@@ -48,27 +48,27 @@ func Up(cfg Config, w io.Writer) error {
 		case errors.Is(err, os.ErrNotExist):
 			ns, err = netns.NewNamed(name)
 			if err != nil {
-				return fmt.Errorf("lab up: creating namespace %s: %w", name, permHint(err))
+				return fmt.Errorf("lab build: creating namespace %s: %w", name, permHint(err))
 			}
 			if err := netns.Set(origin); err != nil {
-				return fmt.Errorf("lab up: back to the first namespace: %w", err)
+				return fmt.Errorf("lab build: back to the first namespace: %w", err)
 			}
 			fmt.Fprintf(w, "namespace %s: created\n", name)
 		default:
-			return fmt.Errorf("lab up: namespace %s: %w", name, err)
+			return fmt.Errorf("lab build: namespace %s: %w", name, err)
 		}
 		nsHandles[name] = ns
 		h, err := netlink.NewHandleAt(ns)
 		if err != nil {
-			return fmt.Errorf("lab up: netlink in %s: %w", name, permHint(err))
+			return fmt.Errorf("lab build: netlink in %s: %w", name, permHint(err))
 		}
 		handles[name] = h
 		lo, err := h.LinkByName("lo")
 		if err != nil {
-			return fmt.Errorf("lab up: %s/lo: %w", name, err)
+			return fmt.Errorf("lab build: %s/lo: %w", name, err)
 		}
 		if err := h.LinkSetUp(lo); err != nil {
-			return fmt.Errorf("lab up: %s/lo up: %w", name, permHint(err))
+			return fmt.Errorf("lab build: %s/lo up: %w", name, permHint(err))
 		}
 	}
 	for _, l := range cfg.Links {
@@ -79,7 +79,7 @@ func Up(cfg Config, w io.Writer) error {
 		case errA == nil && errB == nil:
 			fmt.Fprintf(w, "link %s/%s – %s/%s: exists\n", l.A, l.IfA(), l.B, l.IfB())
 		case errA == nil || errB == nil:
-			return fmt.Errorf("lab up: link %s/%s – %s/%s: only one end exists; run lab down first", l.A, l.IfA(), l.B, l.IfB())
+			return fmt.Errorf("lab build: link %s/%s – %s/%s: only one end exists; run lab remove first", l.A, l.IfA(), l.B, l.IfB())
 		default:
 			veth := &netlink.Veth{
 				LinkAttrs:     netlink.LinkAttrs{Name: l.IfA()},
@@ -87,7 +87,7 @@ func Up(cfg Config, w io.Writer) error {
 				PeerNamespace: netlink.NsFd(nsHandles[l.B]),
 			}
 			if err := ha.LinkAdd(veth); err != nil {
-				return fmt.Errorf("lab up: veth %s/%s – %s/%s: %w", l.A, l.IfA(), l.B, l.IfB(), permHint(err))
+				return fmt.Errorf("lab build: veth %s/%s – %s/%s: %w", l.A, l.IfA(), l.B, l.IfB(), permHint(err))
 			}
 			fmt.Fprintf(w, "link %s/%s – %s/%s: created\n", l.A, l.IfA(), l.B, l.IfB())
 		}
@@ -98,17 +98,17 @@ func Up(cfg Config, w io.Writer) error {
 		}{{l.A, l.IfA(), ha, l.AddrA().String()}, {l.B, l.IfB(), hb, l.AddrB().String()}} {
 			link, err := end.h.LinkByName(end.ifname)
 			if err != nil {
-				return fmt.Errorf("lab up: %s/%s: %w", end.ns, end.ifname, err)
+				return fmt.Errorf("lab build: %s/%s: %w", end.ns, end.ifname, err)
 			}
 			a, err := netlink.ParseAddr(end.addr)
 			if err != nil {
-				return fmt.Errorf("lab up: %s: %w", end.addr, err)
+				return fmt.Errorf("lab build: %s: %w", end.addr, err)
 			}
 			if err := end.h.AddrReplace(link, a); err != nil {
-				return fmt.Errorf("lab up: address %s on %s/%s: %w", end.addr, end.ns, end.ifname, permHint(err))
+				return fmt.Errorf("lab build: address %s on %s/%s: %w", end.addr, end.ns, end.ifname, permHint(err))
 			}
 			if err := end.h.LinkSetUp(link); err != nil {
-				return fmt.Errorf("lab up: %s/%s up: %w", end.ns, end.ifname, permHint(err))
+				return fmt.Errorf("lab build: %s/%s up: %w", end.ns, end.ifname, permHint(err))
 			}
 			fmt.Fprintf(w, "address %s on %s/%s, up\n", end.addr, end.ns, end.ifname)
 		}
@@ -133,7 +133,7 @@ func Up(cfg Config, w io.Writer) error {
 		h := handles[name]
 		link, err := h.LinkByName(ifname)
 		if err != nil {
-			return fmt.Errorf("lab up: %s/%s: %w", name, ifname, err)
+			return fmt.Errorf("lab build: %s/%s: %w", name, ifname, err)
 		}
 		for _, o := range cfg.Links {
 			if o == l {
@@ -142,7 +142,7 @@ func Up(cfg Config, w io.Writer) error {
 			dst := &net.IPNet{IP: o.Subnet.Addr().AsSlice(), Mask: net.CIDRMask(o.Subnet.Bits(), 32)}
 			r := &netlink.Route{LinkIndex: link.Attrs().Index, Dst: dst, Gw: via.AsSlice()}
 			if err := h.RouteReplace(r); err != nil {
-				return fmt.Errorf("lab up: route %s via %s in %s: %w", o.Subnet, via, name, permHint(err))
+				return fmt.Errorf("lab build: route %s via %s in %s: %w", o.Subnet, via, name, permHint(err))
 			}
 			fmt.Fprintf(w, "route %s via %s dev %s in %s\n", o.Subnet, via, ifname, name)
 		}
@@ -150,11 +150,11 @@ func Up(cfg Config, w io.Writer) error {
 	return nil
 }
 
-// Down removes cfg's namespaces, and with them their veth pairs,
+// Remove removes cfg's namespaces, and with them their veth pairs,
 // addresses and routes, printing one line per namespace. Namespaces that
 // do not exist are reported and skipped. A process still inside a
 // namespace keeps it alive, nameless, until it exits.
-func Down(cfg Config, w io.Writer) error {
+func Remove(cfg Config, w io.Writer) error {
 	var errs []error
 	for _, name := range cfg.Namespaces {
 		ns, err := netns.GetFromName(name)
@@ -166,7 +166,7 @@ func Down(cfg Config, w io.Writer) error {
 			ns.Close()
 		}
 		if err := deleteNamed(name); err != nil {
-			errs = append(errs, fmt.Errorf("lab down: removing namespace %s: %w", name, permHint(err)))
+			errs = append(errs, fmt.Errorf("lab remove: removing namespace %s: %w", name, permHint(err)))
 			continue
 		}
 		fmt.Fprintf(w, "namespace %s: removed\n", name)
