@@ -8,3 +8,8 @@ const SafetyCautions = `  - Keep an emergency stop that does not depend on the e
   - Keep guards in place and people out of the machine's reach.
   - Local machine-safety rules and qualified personnel have the last word.
 `
+
+// SafetyReminder is the one line a command prints instead of the cautions
+// once the operator has said they were read (a flag of the command): the
+// cautions still hold, shortened, never gone.
+const SafetyReminder = "SAFETY (cautions acknowledged): e-stop independent of the link within reach; actuator off or low gains first; guards in place; local safety rules apply.\n"

@@ -245,3 +245,36 @@ func relaySource(t *testing.T, c *net.UDPConn) string {
 	}
 	return src.String()
 }
+
+// The safety cautions are printed in full by default and as one line with
+// --cautions-read; never left out.
+func TestRunCautions(t *testing.T) {
+	dir := t.TempDir()
+	prof := writeFile(t, dir, "pass.yaml", passProfile)
+	ctl := udp(t, "127.0.0.1")
+	for _, tc := range []struct {
+		name     string
+		flags    []string
+		want     string
+		wantNone string
+	}{
+		{"default: in full", nil, "Keep an emergency stop that does not depend on the emulated link", "cautions acknowledged"},
+		{"read: one line", []string{"--cautions-read"}, "SAFETY (cautions acknowledged): e-stop independent of the link", "Keep guards in place"},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			args := append([]string{"run", "--profile", prof, "--listen", freePort(t), "--controller", ctl.LocalAddr().String(),
+				"--metrics", "127.0.0.1:0"}, tc.flags...)
+			p := startImpair(t, args...)
+			p.metricsURL()
+			deadline := time.Now().Add(5 * time.Second)
+			for !strings.Contains(p.output(), "msg=relaying") && time.Now().Before(deadline) {
+				time.Sleep(10 * time.Millisecond)
+			}
+			p.stop()
+			out := p.output()
+			if !strings.Contains(out, tc.want) || strings.Contains(out, tc.wantNone) {
+				t.Errorf("output has %q: %v, has %q: %v", tc.want, strings.Contains(out, tc.want), tc.wantNone, strings.Contains(out, tc.wantNone))
+			}
+		})
+	}
+}

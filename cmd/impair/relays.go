@@ -197,7 +197,11 @@ func runLinks(specs []linkSpec, opts runOpts, stderr io.Writer, log *slog.Logger
 		l.committed = true
 	}
 
-	fmt.Fprint(stderr, safetyCaution)
+	if opts.cautionsRead {
+		fmt.Fprint(stderr, emulate.SafetyReminder)
+	} else {
+		fmt.Fprint(stderr, safetyCaution)
+	}
 	for _, l := range links {
 		l.describe(stderr)
 	}

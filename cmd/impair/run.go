@@ -23,6 +23,7 @@ type runOpts struct {
 	timeScale         float64
 	exitAfterScenario bool
 	singleLink        bool // flags, not a links file: metrics without a link label
+	cautionsRead      bool // the safety cautions as one line
 	// inputs are input files of the run besides each link's profile or
 	// scenario (the links file): no record may overwrite them.
 	inputs []string
@@ -95,6 +96,7 @@ func cmdRun(args []string, stdout, stderr io.Writer) error {
 	maxInFlight := fs.Int("max-in-flight", emulate.DefaultMaxInFlight, "datagrams held at most per direction")
 	spin := fs.Duration("spin", emulate.DefaultSpin, "spin this long before each release instead of sleeping (0: never)")
 	logLevel := fs.String("log-level", "info", "debug, info, warn or error")
+	cautionsRead := fs.Bool("cautions-read", false, "print the safety cautions as one line (you have read them)")
 	if err := fs.Parse(args); err != nil {
 		return err
 	}
@@ -133,7 +135,7 @@ func cmdRun(args []string, stdout, stderr io.Writer) error {
 		return fail("--log-level: want debug, info, warn or error, got %q", *logLevel)
 	}
 	opts := runOpts{metricsAddr: *metricsAddr, maxDatagram: *maxDatagram, maxInFlight: *maxInFlight,
-		spin: *spin, timeScale: *timeScale, exitAfterScenario: *exitAfter}
+		spin: *spin, timeScale: *timeScale, exitAfterScenario: *exitAfter, cautionsRead: *cautionsRead}
 
 	var specs []linkSpec
 	if *linksPath != "" {
