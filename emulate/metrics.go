@@ -1,6 +1,9 @@
 package emulate
 
 import (
+	"sync"
+	"time"
+
 	"github.com/prometheus/client_golang/prometheus"
 )
 
@@ -43,10 +46,44 @@ type Metrics struct {
 	// ScenarioPhase: 1 for the phase being played, 0 for those played before.
 	ScenarioPhase   *prometheus.GaugeVec // index, phase
 	ScenarioSteps   prometheus.Counter
-	ScenarioElapsed prometheus.Gauge // seconds since the scenario started, at its latest step
+	// ScenarioElapsed reads the wall-clock time since the scenario started
+	// playing, at every scrape; frozen at its length once it has ended.
+	ScenarioElapsed prometheus.GaugeFunc
+	scenario        scenarioClock
 	// SensorSource: 1 for the source the relay takes for the sensor node.
 	SensorSource        *prometheus.GaugeVec   // source
 	SensorSourceChanges *prometheus.CounterVec // reason: first, quiet
+}
+
+// scenarioClock is what the scenario elapsed-time gauge reads.
+type scenarioClock struct {
+	mu      sync.Mutex
+	start   time.Time // zero: not playing
+	stopped float64   // seconds, once it ended
+}
+
+func (c *scenarioClock) begin(t time.Time) {
+	c.mu.Lock()
+	c.start = t
+	c.mu.Unlock()
+}
+
+func (c *scenarioClock) end(t time.Time) {
+	c.mu.Lock()
+	if !c.start.IsZero() {
+		c.stopped = t.Sub(c.start).Seconds()
+	}
+	c.start = time.Time{}
+	c.mu.Unlock()
+}
+
+func (c *scenarioClock) elapsed() float64 {
+	c.mu.Lock()
+	defer c.mu.Unlock()
+	if c.start.IsZero() {
+		return c.stopped
+	}
+	return time.Since(c.start).Seconds()
 }
 
 // LossRunBuckets are the upper bounds of the loss-run histogram (counts of
@@ -111,10 +148,6 @@ func NewMetrics(reg prometheus.Registerer) *Metrics {
 			Name: "rigwire_relay_scenario_steps_total",
 			Help: "Scenario steps applied.",
 		}),
-		ScenarioElapsed: prometheus.NewGauge(prometheus.GaugeOpts{
-			Name: "rigwire_relay_scenario_elapsed_seconds",
-			Help: "Time since the scenario started, at its latest step.",
-		}),
 		SensorSource: prometheus.NewGaugeVec(prometheus.GaugeOpts{
 			Name: "rigwire_relay_sensor_source_info",
 			Help: "1 for the source (address:port) the relay takes for the rig's sensor node; absent until one has sent.",
@@ -124,6 +157,10 @@ func NewMetrics(reg prometheus.Registerer) *Metrics {
 			Help: "Times the relay took a source for the sensor node, by reason: first (the first to send), quiet (the previous one had been silent for the relock interval).",
 		}, []string{"reason"}),
 	}
+	m.ScenarioElapsed = prometheus.NewGaugeFunc(prometheus.GaugeOpts{
+		Name: "rigwire_relay_scenario_elapsed_seconds",
+		Help: "Wall-clock seconds since the scenario started playing (its phases' times are scaled by the time scale); its length once it has ended; 0 before.",
+	}, m.scenario.elapsed)
 	reg.MustRegister(m.Datagrams, m.Bytes, m.Delay, m.Lateness, m.InFlight,
 		m.ChannelState, m.Tap, m.RecordLost, m.Reloads, m.LossRuns, m.Tripped,
 		m.ScenarioPhase, m.ScenarioSteps, m.ScenarioElapsed, m.SensorSource, m.SensorSourceChanges)

@@ -37,6 +37,8 @@ func (r *Relay) Play(ctx context.Context, names []string, steps []profiles.Scena
 		}
 	}
 	start := time.Now()
+	r.m.scenario.begin(start)
+	defer func() { r.m.scenario.end(time.Now()) }()
 	timer := time.NewTimer(time.Hour)
 	defer timer.Stop()
 	waitUntil := func(at time.Duration) error {
@@ -71,14 +73,9 @@ func (r *Relay) Play(ctx context.Context, names []string, steps []profiles.Scena
 			r.log.Info("scenario phase", "index", phase, "phase", names[phase], "at", st.At)
 		}
 		r.m.ScenarioSteps.Inc()
-		r.m.ScenarioElapsed.Set(time.Since(start).Seconds())
 		if onStep != nil {
 			onStep(st)
 		}
 	}
-	if err := waitUntil(total); err != nil {
-		return err
-	}
-	r.m.ScenarioElapsed.Set(time.Since(start).Seconds())
-	return nil
+	return waitUntil(total)
 }

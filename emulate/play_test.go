@@ -41,6 +41,10 @@ func TestPlaySteps(t *testing.T) {
 			t.Error("phase 0 gauge not 1 during phase 0")
 		}
 		time.Sleep(95 * time.Millisecond)
+		// Between steps the gauge still reads the time since the start.
+		if got := testutil.ToFloat64(rig.relay.m.ScenarioElapsed); got != 0.095 {
+			t.Errorf("elapsed gauge %v between the steps, at 95 ms", got)
+		}
 		rig.listen.push(sensorAddr, []byte("held")) // due at 105 ms, across the step
 		synctest.Wait()
 		s := <-applied
@@ -60,6 +64,10 @@ func TestPlaySteps(t *testing.T) {
 		}
 		if got := time.Since(start); got != 200*time.Millisecond {
 			t.Errorf("Play returned after %v, want 200ms", got)
+		}
+		time.Sleep(time.Second)
+		if got := testutil.ToFloat64(rig.relay.m.ScenarioElapsed); got != 0.2 {
+			t.Errorf("elapsed gauge %v after the end, want the scenario's 0.2 s", got)
 		}
 		sent := rig.up.sent()
 		if len(sent) != 2 || string(sent[0].data) != "new" || string(sent[1].data) != "held" {
