@@ -3,9 +3,8 @@ package profiles
 import (
 	"errors"
 	"fmt"
-	"io/fs"
+	"io"
 	"math"
-	"os"
 	"path/filepath"
 	"sort"
 	"strings"
@@ -134,7 +133,7 @@ func parseDelayExtra(f Field, dir string, depth int, extra ...string) (Delay, ma
 	}
 	kind, ok := delayKinds[name]
 	if !ok {
-		return nil, nil, kf.Errorf("unknown kind %q (want one of %s)", name, strings.Join(DelayKinds(), ", "))
+		return nil, nil, kf.Errorf("unknown kind %s (want one of %s)", Token(name), strings.Join(DelayKinds(), ", "))
 	}
 	// Second pass: only the kind's keys.
 	allowed := append([]string{"kind"}, kind.keys...)
@@ -265,6 +264,9 @@ func buildEmpirical(k map[string]Field, dir string, _ int) (Delay, error) {
 		if len(items) == 0 {
 			return nil, sf.Errorf("want at least one delay, got none")
 		}
+		if len(items) > MaxSamples {
+			return nil, sf.Errorf("want at most %d delays, got %d", MaxSamples, len(items))
+		}
 		for _, it := range items {
 			v, err := it.DurationIn(0, MaxDelay)
 			if err != nil {
@@ -277,7 +279,7 @@ func buildEmpirical(k map[string]Field, dir string, _ int) (Delay, error) {
 		if err != nil {
 			return nil, err
 		}
-		fh, err := openRelative(ff, name, dir)
+		fh, err := openRelative(ff, name, dir, "samples file", MaxSamplesBytes)
 		if err != nil {
 			return nil, err
 		}
@@ -328,19 +330,27 @@ func buildMixture(k map[string]Field, dir string, depth int) (Delay, error) {
 }
 
 // openRelative opens the file a profile key names, its path relative to
-// the profile's directory dir; an error is positioned at the key.
-func openRelative(ff Field, name, dir string) (*os.File, error) {
+// the profile's directory dir, when it is a regular file of at most limit
+// bytes (see OpenInputFile); an error is positioned at the key. The
+// reader it returns fails should the file grow past limit while read.
+func openRelative(ff Field, name, dir, what string, limit int64) (io.ReadCloser, error) {
 	path := name
 	if !filepath.IsAbs(path) && dir != "" {
 		path = filepath.Join(dir, path)
 	}
-	fh, err := os.Open(path)
+	fh, _, err := OpenInputFile(path, what, limit)
 	if err != nil {
-		var pe *fs.PathError
-		if errors.As(err, &pe) {
-			err = pe.Err
+		var fe *FileError
+		if errors.As(err, &fe) && fe.Msg == "" {
+			return nil, ff.Errorf("cannot open %s: %s", Token(name), fe.Reason())
 		}
-		return nil, ff.Errorf("cannot open %q: %v", name, err)
+		if errors.As(err, &fe) {
+			return nil, ff.Errorf("%s: %s", Token(name), fe.Reason())
+		}
+		return nil, ff.Errorf("cannot open %s: %v", Token(name), err)
 	}
-	return fh, nil
+	return struct {
+		io.Reader
+		io.Closer
+	}{LimitedReader(fh, name, what, limit), fh}, nil
 }

@@ -2,12 +2,14 @@ package profiles
 
 import (
 	"bufio"
+	"errors"
 	"fmt"
 	"io"
 	"math"
 	"math/rand/v2"
 	"slices"
 	"sort"
+	"strconv"
 	"strings"
 )
 
@@ -63,12 +65,22 @@ func NewEmpirical(samples []float64, shift float64) (Delay, error) {
 	return Shift(e, shift)
 }
 
+// MaxSamples bounds the delays of one empirical law, given inline or in a
+// file: a file obeys the bound an inline list has (a YAML file holds at
+// most MaxNodes values).
+const MaxSamples = MaxNodes
+
 // ReadSamples reads delays, one a line, as a duration ("3ms") or plain
-// seconds; blank lines and lines starting with # are skipped. name is used
-// in messages: "trace.txt:37: want a duration …".
+// seconds; blank lines and lines starting with # are skipped. Every delay
+// obeys the bounds of an inline sample: finite, in [0, MaxDelay], at most
+// MaxSamples of them. name is used in messages, which give the line and
+// never repeat a line that is not a delay:
+// "trace.txt:37: want a delay in [0, 3600] seconds, got 1e+10".
 func ReadSamples(name string, r io.Reader) ([]float64, error) {
 	var out []float64
 	sc := bufio.NewScanner(r)
+	const maxLine = 4096
+	sc.Buffer(make([]byte, 0, maxLine), maxLine)
 	line := 0
 	for sc.Scan() {
 		line++
@@ -78,15 +90,21 @@ func ReadSamples(name string, r io.Reader) ([]float64, error) {
 		}
 		v, err := ParseDuration(t)
 		if err != nil {
-			return nil, fmt.Errorf("%s:%d: %w", name, line, err)
+			return nil, fmt.Errorf("%s:%d: want a delay (seconds, or a duration such as \"3ms\"), got %s", name, line, shownNumber(t))
 		}
-		if v < 0 {
-			return nil, fmt.Errorf("%s:%d: want a delay ≥ 0, got %q", name, line, t)
+		if !(v >= 0) || v > MaxDelay {
+			return nil, fmt.Errorf("%s:%d: want a delay in [0, %g] seconds, got %s", name, line, MaxDelay, strconv.FormatFloat(v, 'g', 6, 64))
+		}
+		if len(out) == MaxSamples {
+			return nil, fmt.Errorf("%s:%d: want at most %d delays, got more", name, line, MaxSamples)
 		}
 		out = append(out, v)
 	}
 	if err := sc.Err(); err != nil {
-		return nil, fmt.Errorf("%s: %w", name, err)
+		if errors.Is(err, bufio.ErrTooLong) {
+			return nil, fmt.Errorf("%s:%d: want one delay a line, got a line longer than %d bytes", name, line+1, maxLine)
+		}
+		return nil, fmt.Errorf("%s:%d: %w", name, line+1, err)
 	}
 	if len(out) == 0 {
 		return nil, fmt.Errorf("%s: want at least one delay, got none", name)

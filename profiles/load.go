@@ -3,7 +3,6 @@ package profiles
 import (
 	"fmt"
 	"math"
-	"os"
 	"path/filepath"
 	"strconv"
 
@@ -16,9 +15,9 @@ import (
 //
 //	pick.yaml:7: sensor_to_controller: unknown key "lossy"
 func Load(path string) (*Profile, error) {
-	data, err := os.ReadFile(path)
+	data, err := ReadInputFile(path, "profile", MaxYAMLBytes)
 	if err != nil {
-		return nil, fmt.Errorf("reading profile: %w", err)
+		return nil, err
 	}
 	p, err := Parse(data, path, filepath.Dir(path))
 	if err != nil {
@@ -183,7 +182,7 @@ func parseStates(f Field, dir string) (*Channel, error) {
 			}
 		}
 		if _, dup := index[s.Name]; dup {
-			return nil, keys["name"].Errorf("state name %q used twice", s.Name)
+			return nil, keys["name"].Errorf("state name %s used twice", Token(s.Name))
 		}
 		index[s.Name] = i
 		s.MeanDwell = math.Inf(1)
@@ -246,7 +245,7 @@ func parseStates(f Field, dir string) (*Channel, error) {
 		c.States[i].Jump = jump
 	}
 	if i, j, ok := unreachable(c); ok {
-		return nil, f.Errorf("state %q cannot be reached from state %q; want every state reachable from every other", c.States[j].Name, c.States[i].Name)
+		return nil, f.Errorf("state %s cannot be reached from state %s; want every state reachable from every other", Token(c.States[j].Name), Token(c.States[i].Name))
 	}
 	return c, nil
 }

@@ -30,7 +30,7 @@ var expectedErrors = []struct {
 	{"duration-with-space.bad.yaml", "testdata/duration-with-space.bad.yaml:2: controller_to_actuator.delay.value: want a duration in [0s, 1h0m0s], got \"3 ms\""},
 	{"empirical-both.bad.yaml", "testdata/empirical-both.bad.yaml:2: sensor_to_controller.delay.file: want samples or file, got both"},
 	{"empirical-empty.bad.yaml", "testdata/empirical-empty.bad.yaml:2: sensor_to_controller.delay.samples: want at least one delay, got none"},
-	{"empirical-file-bad-line.bad.yaml", "testdata/empirical-file-bad-line.bad.yaml:2: sensor_to_controller.delay.file: trace-bad.txt:3: want a duration (\"3ms\") or seconds, got \"fast\""},
+	{"empirical-file-bad-line.bad.yaml", "testdata/empirical-file-bad-line.bad.yaml:2: sensor_to_controller.delay.file: trace-bad.txt:3: want a delay (seconds, or a duration such as \"3ms\"), got \"fast\""},
 	{"empirical-file-missing.bad.yaml", "testdata/empirical-file-missing.bad.yaml:2: sensor_to_controller.delay.file: cannot open \"no-such-trace.txt\": no such file or directory"},
 	{"empirical-negative-sample.bad.yaml", "testdata/empirical-negative-sample.bad.yaml:2: sensor_to_controller.delay.samples[2]: want a duration in [0s, 1h0m0s], got \"-3ms\""},
 	{"empirical-neither.bad.yaml", "testdata/empirical-neither.bad.yaml:2: sensor_to_controller.delay: missing samples or file for kind empirical"},

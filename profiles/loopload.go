@@ -3,7 +3,6 @@ package profiles
 import (
 	"fmt"
 	"math"
-	"os"
 	"path/filepath"
 
 	"gonum.org/v1/gonum/mat"
@@ -17,9 +16,9 @@ import (
 //
 //	loop.yaml:12: controller.d: want 1×1, got 1×2
 func LoadLoop(path string) (*Loop, error) {
-	data, err := os.ReadFile(path)
+	data, err := ReadInputFile(path, "loop file", MaxYAMLBytes)
 	if err != nil {
-		return nil, fmt.Errorf("reading loop file: %w", err)
+		return nil, err
 	}
 	l, err := ParseLoop(data, path, filepath.Dir(path))
 	if err != nil {

@@ -10,7 +10,6 @@ import (
 	"errors"
 	"fmt"
 	"math"
-	"os"
 	"path/filepath"
 	"regexp"
 	"strconv"
@@ -77,9 +76,9 @@ type phaseSource struct {
 //
 //	conveyor.yaml:14: phases[1].ramp.sensor_to_controller.loss: at the phase end (to: 1.5): sensor_to_controller.loss: want a number in [0, 1], got "1.5"
 func LoadScenario(path string) (*Scenario, error) {
-	data, err := os.ReadFile(path)
+	data, err := ReadInputFile(path, "scenario", MaxYAMLBytes)
 	if err != nil {
-		return nil, fmt.Errorf("reading scenario: %w", err)
+		return nil, err
 	}
 	s, err := ParseScenario(data, path, filepath.Dir(path))
 	if err != nil {
@@ -206,9 +205,9 @@ func profileFrom(f Field, dir string) (profileSource, *Profile, error) {
 		if !filepath.IsAbs(path) && dir != "" {
 			path = filepath.Join(dir, path)
 		}
-		data, err := os.ReadFile(path)
+		data, err := ReadInputFile(path, "profile", MaxYAMLBytes)
 		if err != nil {
-			return profileSource{}, nil, f.Errorf("%v", fmt.Errorf("reading profile: %w", err))
+			return profileSource{}, nil, f.Errorf("%v", err)
 		}
 		root, err := Document(path, data)
 		if err != nil {
@@ -252,7 +251,7 @@ func pairs(f Field) ([]pair, error) {
 			return nil, &Error{File: f.File, Line: f.Node.Content[i].Line, Key: f.Path, Msg: "want a plain key, got a mapping or sequence as key"}
 		}
 		if seen[k.Value] {
-			return nil, &Error{File: f.File, Line: k.Line, Key: f.Path, Msg: fmt.Sprintf("key %q given twice", k.Value)}
+			return nil, &Error{File: f.File, Line: k.Line, Key: f.Path, Msg: fmt.Sprintf("key %s given twice", Token(k.Value))}
 		}
 		seen[k.Value] = true
 		v := NodeField(f.File, f.Key(k.Value), f.Node.Content[i+1])
@@ -369,7 +368,7 @@ func parseOverrides(f Field, ramp bool) ([]override, error) {
 		comps := strings.Split(p.name, ".")
 		for _, c := range comps {
 			if c == "" {
-				return nil, key.Errorf("want a dotted key of the profile (sensor_to_controller.loss), got %q", p.name)
+				return nil, key.Errorf("want a dotted key of the profile (sensor_to_controller.loss), got %s", Token(p.name))
 			}
 		}
 		if comps[0] == "seed" {
@@ -466,7 +465,7 @@ func patch(root *yaml.Node, o override, val *yaml.Node) (string, error) {
 			case last:
 				n.Content = append(n.Content, &yaml.Node{Kind: yaml.ScalarNode, Tag: "!!str", Value: c, Line: o.key.Line()}, val)
 			default:
-				return "", o.key.Errorf("no key %q in the profile at %s", c, where(path))
+				return "", o.key.Errorf("no key %s in the profile at %s", Token(c), where(path))
 			}
 		case yaml.SequenceNode:
 			idx := -1
@@ -487,7 +486,7 @@ func patch(root *yaml.Node, o override, val *yaml.Node) (string, error) {
 					}
 				}
 				if idx < 0 {
-					return "", o.key.Errorf("no item named %q in the list at %s", c, where(path))
+					return "", o.key.Errorf("no item named %s in the list at %s", Token(c), where(path))
 				}
 			}
 			path = fmt.Sprintf("%s[%d]", path, idx)
@@ -497,7 +496,7 @@ func patch(root *yaml.Node, o override, val *yaml.Node) (string, error) {
 				n = n.Content[idx]
 			}
 		default:
-			return "", o.key.Errorf("cannot go into %q: the profile's %s is a single value", c, where(path))
+			return "", o.key.Errorf("cannot go into %s: the profile's %s is a single value", Token(c), where(path))
 		}
 	}
 	return path, nil

@@ -6,7 +6,6 @@ import (
 	"fmt"
 	"io"
 	"math"
-	"os"
 	"slices"
 	"strconv"
 	"strings"
@@ -72,17 +71,21 @@ type Probe struct {
 	Reordered bool
 }
 
+// MaxTraceProbes bounds the probe lines of a trace: the most `impair
+// probe` sends in one run.
+const MaxTraceProbes = 10_000_000
+
 // ErrEmptyTrace is returned for a trace without probe lines.
 var ErrEmptyTrace = errors.New("empty trace: no probe lines")
 
 // LoadTrace reads the trace file at path.
 func LoadTrace(path string) (*Trace, error) {
-	f, err := os.Open(path)
+	f, _, err := OpenInputFile(path, "trace", MaxTraceBytes)
 	if err != nil {
-		return nil, fmt.Errorf("reading trace: %w", err)
+		return nil, err
 	}
 	defer f.Close()
-	return ReadTrace(f, path)
+	return ReadTrace(LimitedReader(f, path, "trace", MaxTraceBytes), path)
 }
 
 // ReadTrace reads a trace from r; file names it in messages, which give
@@ -118,10 +121,10 @@ func ReadTrace(r io.Reader, file string) (*Trace, error) {
 			for i, name := range fields {
 				name = strings.TrimSpace(name)
 				if !slices.Contains(TraceColumns, name) {
-					return nil, errAt("unknown column %q in the header; want some of %s", name, strings.Join(TraceColumns, ","))
+					return nil, errAt("unknown column %s in the header; want some of %s", shownWord(name), strings.Join(TraceColumns, ","))
 				}
 				if _, dup := col[name]; dup {
-					return nil, errAt("column %q given twice", name)
+					return nil, errAt("column %s given twice", Token(name))
 				}
 				col[name] = i
 				t.Columns = append(t.Columns, name)
@@ -144,12 +147,12 @@ func ReadTrace(r io.Reader, file string) (*Trace, error) {
 			case "seq":
 				p.Seq, err = strconv.ParseInt(v, 10, 64)
 				if err != nil || p.Seq < 0 {
-					return nil, errAt("seq: want an integer ≥ 0, got %q", v)
+					return nil, errAt("seq: want an integer ≥ 0, got %s", shownNumber(v))
 				}
 			case "send_s":
 				p.Send, err = strconv.ParseFloat(v, 64)
 				if err != nil || !(p.Send >= 0) || math.IsInf(p.Send, 1) {
-					return nil, errAt("send_s: want a time ≥ 0 in seconds, got %q", v)
+					return nil, errAt("send_s: want a time ≥ 0 in seconds, got %s", shownNumber(v))
 				}
 			case "status":
 				switch v {
@@ -157,7 +160,7 @@ func ReadTrace(r io.Reader, file string) (*Trace, error) {
 				case "lost":
 					p.Lost = true
 				default:
-					return nil, errAt("status: want delivered or lost, got %q", v)
+					return nil, errAt("status: want delivered or lost, got %s", shownWord(v))
 				}
 			case "rtt_s", "one_way_s", "back_s":
 				if v == "" {
@@ -165,7 +168,7 @@ func ReadTrace(r io.Reader, file string) (*Trace, error) {
 				}
 				x, err := strconv.ParseFloat(v, 64)
 				if err != nil || !(x >= 0) || x > MaxDelay {
-					return nil, errAt("%s: want a delay in [0, %g] seconds or nothing, got %q", name, MaxDelay, v)
+					return nil, errAt("%s: want a delay in [0, %g] seconds or nothing, got %s", name, MaxDelay, shownNumber(v))
 				}
 				switch name {
 				case "rtt_s":
@@ -178,7 +181,7 @@ func ReadTrace(r io.Reader, file string) (*Trace, error) {
 			case "copies":
 				p.Copies, err = strconv.Atoi(v)
 				if err != nil || p.Copies < 0 {
-					return nil, errAt("copies: want an integer ≥ 0, got %q", v)
+					return nil, errAt("copies: want an integer ≥ 0, got %s", shownNumber(v))
 				}
 			case "reordered":
 				switch v {
@@ -186,7 +189,7 @@ func ReadTrace(r io.Reader, file string) (*Trace, error) {
 				case "1":
 					p.Reordered = true
 				default:
-					return nil, errAt("reordered: want 0 or 1, got %q", v)
+					return nil, errAt("reordered: want 0 or 1, got %s", shownNumber(v))
 				}
 			}
 		}
@@ -197,6 +200,9 @@ func ReadTrace(r io.Reader, file string) (*Trace, error) {
 			return nil, errAt("seq: want increasing sequence numbers, got %d after %d", p.Seq, lastSeq)
 		}
 		lastSeq = p.Seq
+		if len(t.Probes) == MaxTraceProbes {
+			return nil, errAt("want at most %d probes, got more", MaxTraceProbes)
+		}
 		t.Probes = append(t.Probes, p)
 	}
 	if err := sc.Err(); err != nil {
@@ -217,13 +223,13 @@ func (t *Trace) meta(k, v string) error {
 	case "interval_s":
 		x, err := strconv.ParseFloat(v, 64)
 		if err != nil || !(x > 0) || x > MaxDelay {
-			return fmt.Errorf("interval_s: want a time > 0 in seconds, got %q", v)
+			return fmt.Errorf("interval_s: want a time in (0, %g] seconds, got %s", MaxDelay, shownNumber(v))
 		}
 		t.Interval = x
 	case "clocks_synced":
 		b, err := strconv.ParseBool(v)
 		if err != nil {
-			return fmt.Errorf("clocks_synced: want true or false, got %q", v)
+			return fmt.Errorf("clocks_synced: want true or false, got %s", shownWord(v))
 		}
 		t.ClocksSynced = b
 	}

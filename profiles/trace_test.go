@@ -59,7 +59,7 @@ func TestReadTraceErrors(t *testing.T) {
 		{"seq not increasing", head + "1,0.1,lost,\n1,0.2,lost,\n", "t.csv:4: seq: want increasing sequence numbers, got 1 after 1"},
 		{"unknown column", "seq,send_s,status,jitter\n", `t.csv:1: unknown column "jitter" in the header; want some of seq,send_s,status,rtt_s,one_way_s,back_s,copies,reordered`},
 		{"missing column", "seq,status\n", `t.csv:1: header: missing column "send_s"`},
-		{"bad interval", "# interval_s: fast\n" + head, `t.csv:1: interval_s: want a time > 0 in seconds, got "fast"`},
+		{"bad interval", "# interval_s: fast\n" + head, `t.csv:1: interval_s: want a time in (0, 3600] seconds, got "fast"`},
 	}
 	for _, c := range cases {
 		t.Run(c.name, func(t *testing.T) {

@@ -138,7 +138,7 @@ func parseTraceChannel(f Field, others map[string]Field, dir string) (*Channel, 
 			return nil, g.Errorf("want loop, stop or clean, got %s", g.Got())
 		}
 	}
-	fh, err := openRelative(ff, name, dir)
+	fh, err := openRelative(ff, name, dir, "trace", MaxTraceBytes)
 	if err != nil {
 		return nil, err
 	}

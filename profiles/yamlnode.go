@@ -91,7 +91,16 @@ type Field struct {
 // Syntax errors come back positioned ("file:3: mapping values are not
 // allowed in this context"); an empty document is an error, and so is a
 // second document in the same data.
+// Data larger than MaxYAMLBytes is refused, and so is data that holds
+// more than MaxNodes values, counted before the parser builds anything
+// (see yamlscan.go).
 func Document(file string, data []byte) (Field, error) {
+	if len(data) > MaxYAMLBytes {
+		return Field{}, &Error{File: file, Msg: fmt.Sprintf("%d bytes, want at most %d (%s)", len(data), MaxYAMLBytes, byteSize(MaxYAMLBytes))}
+	}
+	if over, line := yamlValuesOver(data, MaxNodes); over {
+		return Field{}, &Error{File: file, Line: line, Msg: fmt.Sprintf("want at most %d values, got more", MaxNodes)}
+	}
 	dec := yaml.NewDecoder(bytes.NewReader(data))
 	var doc yaml.Node
 	if err := dec.Decode(&doc); err != nil {
@@ -273,10 +282,10 @@ func (f Field) Mapping(allowed ...string) (map[string]Field, error) {
 		}
 		name := k.Value
 		if !contains(allowed, name) {
-			return nil, &Error{File: f.File, Line: k.Line, Key: f.Path, Msg: fmt.Sprintf("unknown key %q", name)}
+			return nil, &Error{File: f.File, Line: k.Line, Key: f.Path, Msg: fmt.Sprintf("unknown key %s", Token(name))}
 		}
 		if _, dup := out[name]; dup {
-			return nil, &Error{File: f.File, Line: k.Line, Key: f.Path, Msg: fmt.Sprintf("key %q given twice", name)}
+			return nil, &Error{File: f.File, Line: k.Line, Key: f.Path, Msg: fmt.Sprintf("key %s given twice", Token(name))}
 		}
 		out[name] = NodeField(f.File, f.Key(name), v)
 		if out[name].Node == nil {
@@ -440,7 +449,7 @@ func ParseDuration(s string) (float64, error) {
 	}
 	v, err := strconv.ParseFloat(s, 64)
 	if err != nil || math.IsNaN(v) || math.IsInf(v, 0) {
-		return 0, fmt.Errorf("want a duration (\"3ms\") or seconds, got %q", s)
+		return 0, fmt.Errorf("want a duration (\"3ms\") or seconds, got %s", Token(s))
 	}
 	return v, nil
 }

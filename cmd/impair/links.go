@@ -24,7 +24,6 @@ import (
 	"fmt"
 	"net"
 	"net/netip"
-	"os"
 	"path/filepath"
 	"regexp"
 	"time"
@@ -75,9 +74,9 @@ const maxLinks = 256
 // loadLinks reads and validates a links file. Paths inside it are relative
 // to its directory. Errors read "file:line: key: what was expected".
 func loadLinks(path string) (*linksFile, error) {
-	data, err := os.ReadFile(path)
+	data, err := profiles.ReadInputFile(path, "links file", profiles.MaxYAMLBytes)
 	if err != nil {
-		return nil, fmt.Errorf("reading links file: %w", err)
+		return nil, err
 	}
 	return parseLinks(data, path, filepath.Dir(path))
 }

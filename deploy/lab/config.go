@@ -1,9 +1,7 @@
 package lab
 
 import (
-	"fmt"
 	"net/netip"
-	"os"
 	"regexp"
 
 	"rigwire/profiles"
@@ -67,9 +65,9 @@ var private = []netip.Prefix{
 //	  - {a: rw-rig, b: rw-relay, subnet: 10.213.1.0/30}
 //	  - {a: rw-relay, b: rw-ctl, subnet: 10.213.2.0/30}
 func Load(path string) (Config, error) {
-	data, err := os.ReadFile(path)
+	data, err := profiles.ReadInputFile(path, "lab topology", profiles.MaxYAMLBytes)
 	if err != nil {
-		return Config{}, fmt.Errorf("reading lab topology: %w", err)
+		return Config{}, err
 	}
 	return Parse(path, data)
 }
@@ -104,7 +102,7 @@ func Parse(file string, data []byte) (Config, error) {
 			return cfg, err
 		}
 		if !nsName.MatchString(s) {
-			return cfg, f.Errorf("want a name of 1 to 12 lowercase letters, digits or '-', got %q", s)
+			return cfg, f.Errorf("want a name of 1 to 12 lowercase letters, digits or '-', got %s", profiles.Token(s))
 		}
 		if known[s] {
 			return cfg, f.Errorf("namespace %q listed twice", s)
@@ -140,7 +138,7 @@ func Parse(file string, data []byte) (Config, error) {
 				return cfg, err
 			}
 			if !known[s] {
-				return cfg, ef.Errorf("want one of the namespaces listed, got %q", s)
+				return cfg, ef.Errorf("want one of the namespaces listed, got %s", profiles.Token(s))
 			}
 			*end.dst = s
 		}
@@ -162,14 +160,14 @@ func Parse(file string, data []byte) (Config, error) {
 		}
 		p, err := netip.ParsePrefix(s)
 		if err != nil || !p.Addr().Is4() || p.Bits() < 24 || p.Bits() > 30 || p.Masked() != p {
-			return cfg, sf.Errorf("want an IPv4 subnet from /24 to /30 such as 10.213.1.0/30, got %q", s)
+			return cfg, sf.Errorf("want an IPv4 subnet from /24 to /30 such as 10.213.1.0/30, got %s", profiles.Token(s))
 		}
 		inside := false
 		for _, r := range private {
 			inside = inside || r.Contains(p.Addr()) && r.Bits() <= p.Bits()
 		}
 		if !inside {
-			return cfg, sf.Errorf("want a private (RFC 1918) subnet, got %q", s)
+			return cfg, sf.Errorf("want a private (RFC 1918) subnet, got %s", profiles.Token(s))
 		}
 		for _, o := range cfg.Links {
 			if o.Subnet.Overlaps(p) {
