@@ -7,6 +7,7 @@ import (
 	"math"
 	"path/filepath"
 	"sort"
+	"strconv"
 	"strings"
 
 	"gopkg.in/yaml.v3"
@@ -340,14 +341,18 @@ func openRelative(ff Field, name, dir, what string, limit int64) (io.ReadCloser,
 	}
 	fh, _, err := OpenInputFile(path, what, limit)
 	if err != nil {
+		shown := Token(name)
+		if len(name) <= 256 {
+			shown = strconv.Quote(name) // a path of our own file: shown whole
+		}
 		var fe *FileError
 		if errors.As(err, &fe) && fe.Msg == "" {
-			return nil, ff.Errorf("cannot open %s: %s", Token(name), fe.Reason())
+			return nil, ff.Errorf("cannot open %s: %s", shown, fe.Reason())
 		}
 		if errors.As(err, &fe) {
-			return nil, ff.Errorf("%s: %s", Token(name), fe.Reason())
+			return nil, ff.Errorf("%s: %s", shown, fe.Reason())
 		}
-		return nil, ff.Errorf("cannot open %s: %v", Token(name), err)
+		return nil, ff.Errorf("cannot open %s: %v", shown, err)
 	}
 	return struct {
 		io.Reader

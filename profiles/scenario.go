@@ -23,6 +23,16 @@ import (
 const (
 	// MaxScenarioSteps bounds the steps of a whole scenario (Steps).
 	MaxScenarioSteps = 10000
+	// MaxScenarioValues bounds what the steps of a whole scenario hold
+	// together: every step builds its own profile, so a phase counts its
+	// steps times the values of its profile (the YAML values of its tree
+	// with the phase's overrides, plus the delays its laws hold, inline
+	// or read from sample and trace files), twice with predict_with. A
+	// scenario over it is refused at load, before any step is built.
+	// Two million values hold about 50 MB once built; a profile of a
+	// hundred values may ramp over the most steps a scenario may have
+	// with room to spare.
+	MaxScenarioValues = 2_000_000
 	// MaxPhaseDuration bounds one phase's duration, seconds (7 days).
 	MaxPhaseDuration = 7 * 86400.0
 	// DefaultMinSamples is a check's min_samples when not given: 20
@@ -42,10 +52,11 @@ var phaseName = regexp.MustCompile(`^[a-z0-9_-]+$`)
 // profileSource is where a phase's profile comes from: its YAML mapping
 // and the directory its relative paths are resolved against.
 type profileSource struct {
-	node *yaml.Node
-	file string // the profile's file for messages (the scenario's when inline)
-	path string // the profile file's path, "" when inline
-	dir  string
+	weight int64 // values the profile holds: its tree's and its laws' delays
+	node   *yaml.Node
+	file   string // the profile's file for messages (the scenario's when inline)
+	path   string // the profile file's path, "" when inline
+	dir    string
 }
 
 // override is one dotted key of set, ramp or predict_with.
@@ -65,6 +76,7 @@ type override struct {
 // phaseSource is what a phase needs to build its profiles.
 type phaseSource struct {
 	prof    profileSource
+	weight  int64 // values one step's profile holds (see MaxScenarioValues)
 	sets    []override
 	ramps   []override
 	predict []override
@@ -167,6 +179,9 @@ func parseScenario(root Field, dir string) (*Scenario, error) {
 		return nil, &Error{File: root.File, Line: keys["ramp_step"].Line(), Key: "ramp_step",
 			Msg: fmt.Sprintf("want at most %d steps in the scenario, got %d with ramp_step %s; want a longer ramp_step", MaxScenarioSteps, n, s.RampStep)}
 	}
+	if err := s.checkValues(); err != nil {
+		return nil, err
+	}
 	// Validate every phase at its ends.
 	for i := range s.Phases {
 		ends := []float64{0}
@@ -218,13 +233,13 @@ func profileFrom(f Field, dir string) (profileSource, *Profile, error) {
 			return profileSource{}, nil, f.Errorf("%v", err)
 		}
 		p.File = path
-		return profileSource{node: root.Node, file: path, path: path, dir: filepath.Dir(path)}, p, nil
+		return profileSource{weight: treeSize(root.Node) + p.heldDelays(), node: root.Node, file: path, path: path, dir: filepath.Dir(path)}, p, nil
 	default:
 		p, err := ParseField(f, dir)
 		if err != nil {
 			return profileSource{}, nil, err
 		}
-		return profileSource{node: f.Node, file: f.File, dir: dir}, p, nil
+		return profileSource{weight: treeSize(f.Node) + p.heldDelays(), node: f.Node, file: f.File, dir: dir}, p, nil
 	}
 }
 
@@ -311,11 +326,18 @@ func parsePhase(f Field, i int, s *Scenario, base profileSource, dir string) (Ph
 	for _, r := range src.ramps {
 		ph.Ramps = append(ph.Ramps, Ramp{Key: r.name, From: r.fromV, To: r.toV, Line: r.key.Line()})
 	}
+	src.weight = src.prof.weight
+	for _, o := range append(append([]override(nil), src.sets...), src.ramps...) {
+		src.weight += treeSize(o.value)
+	}
 	if g, ok := keys["predict_with"]; ok {
 		if src.predict, err = parseOverrides(g, false); err != nil {
 			return ph, src, err
 		}
 		ph.HasPredictWith = true
+		for _, o := range src.predict {
+			src.weight += treeSize(o.value)
+		}
 	}
 	if g, ok := keys["check"]; ok {
 		if ph.Check, err = parseCheck(g); err != nil {
@@ -697,6 +719,9 @@ func (s *Scenario) Steps() ([]ScenarioStep, error) {
 	if n > MaxScenarioSteps {
 		return nil, &Error{File: s.File, Key: "ramp_step", Msg: fmt.Sprintf("want at most %d steps in the scenario, got more with ramp_step %s", MaxScenarioSteps, s.RampStep)}
 	}
+	if err := s.checkValues(); err != nil {
+		return nil, err
+	}
 	out := make([]ScenarioStep, 0, n)
 	var start time.Duration
 	for i, ph := range s.Phases {
@@ -752,4 +777,89 @@ func (s *Scenario) Scale(f float64) *Scenario {
 	}
 	c.src = append([]phaseSource(nil), s.src...)
 	return &c
+}
+
+// checkValues refuses a scenario whose steps together would hold more
+// than MaxScenarioValues values, naming the phase that holds the most.
+func (s *Scenario) checkValues() error {
+	var total, most int64
+	worst := 0
+	for i, ph := range s.Phases {
+		n := s.phaseSteps(ph)
+		if ph.HasPredictWith {
+			n *= 2
+		}
+		v := n * s.src[i].weight
+		if n > 0 && v/n != s.src[i].weight || v < 0 {
+			v = math.MaxInt64 // cannot happen within MaxScenarioSteps; kept safe
+		}
+		if v > most {
+			most, worst = v, i
+		}
+		if total += v; total < 0 {
+			total = math.MaxInt64
+		}
+	}
+	if total <= MaxScenarioValues {
+		return nil
+	}
+	ph := s.Phases[worst]
+	line, key := ph.Line, fmt.Sprintf("phases[%d]", worst)
+	if len(ph.Ramps) > 0 {
+		line, key = ph.Ramps[0].Line, fmt.Sprintf("phases[%d].ramp", worst)
+	}
+	twice := ""
+	if ph.HasPredictWith {
+		twice = " (twice, with predict_with)"
+	}
+	return &Error{File: s.File, Line: line, Key: key, Msg: fmt.Sprintf(
+		"the scenario's steps would hold %d profile values, want at most %d: phase %s has %d steps of %d values each%s; want a longer ramp_step, fewer steps or a smaller profile (a delay list read from a file counts its delays)",
+		total, MaxScenarioValues, Token(ph.Name), s.phaseSteps(ph), s.src[worst].weight, twice)}
+}
+
+// treeSize counts the values of a YAML tree with its aliases expanded
+// (Document has already bounded it).
+func treeSize(n *yaml.Node) int64 {
+	n = resolve(n)
+	if n == nil {
+		return 0
+	}
+	c := int64(1)
+	for _, k := range n.Content {
+		c += treeSize(k)
+	}
+	return c
+}
+
+// heldDelays counts the delays the profile's laws hold (empirical
+// samples, a replayed trace's fates).
+func (p *Profile) heldDelays() int64 {
+	var n int64
+	for _, c := range []*Channel{p.SensorToController, p.ControllerToActuator} {
+		if c == nil {
+			continue
+		}
+		for _, st := range c.States {
+			n += lawDelays(st.Delay)
+		}
+	}
+	return n
+}
+
+func lawDelays(d Delay) int64 {
+	switch d := d.(type) {
+	case *Empirical:
+		return int64(d.Len())
+	case *Replay:
+		return int64(len(d.Lost)) + lawDelays(d.Delay)
+	case *Shifted:
+		return lawDelays(d.Base)
+	case *Mixture:
+		var n int64
+		for _, p := range d.Parts {
+			n += lawDelays(p)
+		}
+		return n
+	}
+	return 0
 }

@@ -121,7 +121,10 @@ func ReadTrace(r io.Reader, file string) (*Trace, error) {
 			for i, name := range fields {
 				name = strings.TrimSpace(name)
 				if !slices.Contains(TraceColumns, name) {
-					return nil, errAt("unknown column %s in the header; want some of %s", shownWord(name), strings.Join(TraceColumns, ","))
+					if w := shownWord(name); strings.HasPrefix(w, `"`) {
+						return nil, errAt("unknown column %s in the header; want some of %s", w, strings.Join(TraceColumns, ","))
+					}
+					return nil, errAt("want a header line of column names (some of %s), got other text", strings.Join(TraceColumns, ","))
 				}
 				if _, dup := col[name]; dup {
 					return nil, errAt("column %s given twice", Token(name))

@@ -272,6 +272,12 @@ func (f Field) Mapping(allowed ...string) (map[string]Field, error) {
 		return map[string]Field{}, nil
 	}
 	if f.Node.Kind != yaml.MappingNode {
+		if f.Path == "" && f.Node.Kind == yaml.ScalarNode {
+			// A whole file that reads as one value is not a file of
+			// ours at all (a list of hosts, a password file): say so
+			// without repeating it.
+			return nil, f.Errorf("want a mapping of keys, got a file that reads as a single value (%d characters)", len([]rune(f.Node.Value)))
+		}
 		return nil, f.Errorf("want a mapping, got %s", f.Got())
 	}
 	out := make(map[string]Field, len(f.Node.Content)/2)
