@@ -251,8 +251,25 @@ func printFit(w io.Writer, r *fitResult) {
 	fmt.Fprintln(w, "(KS p-values are conservative: the parameters were estimated from the same sample — Lilliefors)")
 	l := r.loss
 	fmt.Fprintf(w, "\nlosses: %d of %d probes in %d runs\n", l.Lost, l.N, l.Runs)
-	fmt.Fprintf(w, "  i.i.d.:                 loss %.4g ± %.2g                          AIC %.1f\n", l.Loss, l.LossSE, l.AICIID)
-	fmt.Fprintf(w, "  simplified Gilbert:     p %.4g ± %.2g, r %.4g ± %.2g   AIC %.1f\n", l.P, l.PSE, l.R, l.RSE, l.AICBurst)
+	if l.Lost == 0 {
+		// A binomial standard error is 0 with no losses, which claims too
+		// much: give the one-sided 95 % upper bound instead, −ln(0.05)/N ≈
+		// 3/N (the "rule of three", Hanley and Lippman-Hand, JAMA 249(13),
+		// 1983, from memory).
+		fmt.Fprintf(w, "  i.i.d.:                 loss 0 (none in %d probes; 95 %% upper bound %.2g, the rule of three)   AIC %.1f\n", l.N, -math.Log(0.05)/float64(l.N), l.AICIID)
+		fmt.Fprintf(w, "  simplified Gilbert:     p 0, r not identifiable (no losses)   AIC %.1f\n", l.AICBurst)
+		fmt.Fprintln(w, "  chosen: i.i.d.; no losses in the trace (long-run loss 0)")
+		return
+	}
+	fmt.Fprintf(w, "  i.i.d.:                 loss %s                          AIC %.1f\n", plusMinus(l.Loss, l.LossSE), l.AICIID)
+	// r = P(delivered | previous lost) needs a lost probe followed by
+	// another probe; without one (no losses, or only the last probe lost)
+	// the trace says nothing about it.
+	rs := "r " + plusMinus(l.R, l.RSE)
+	if math.IsNaN(l.RSE) {
+		rs = "r not identifiable (no lost probe is followed by another)"
+	}
+	fmt.Fprintf(w, "  simplified Gilbert:     p %s, %s   AIC %.1f\n", plusMinus(l.P, l.PSE), rs, l.AICBurst)
 	fmt.Fprintf(w, "  likelihood ratio %.2f, p-value %.3g (χ², 1 degree of freedom)\n", l.LR, l.LRP)
 	if l.Burst {
 		fmt.Fprintf(w, "  chosen: burst channel; long-run loss %.4g, mean burst %.3g probes", l.LongRunLoss, l.MeanBurst)
@@ -263,6 +280,15 @@ func printFit(w io.Writer, r *fitResult) {
 	} else {
 		fmt.Fprintf(w, "  chosen: i.i.d.; long-run loss %.4g, mean burst %.3g probes\n", l.LongRunLoss, l.MeanBurst)
 	}
+}
+
+// plusMinus writes an estimate with its standard error, or the estimate
+// alone when the error is not defined.
+func plusMinus(v, se float64) string {
+	if math.IsNaN(se) || math.IsInf(se, 0) {
+		return strconv.FormatFloat(v, 'g', 4, 64) + " (no standard error)"
+	}
+	return strconv.FormatFloat(v, 'g', 4, 64) + " ± " + strconv.FormatFloat(se, 'g', 2, 64)
 }
 
 // printLoopPrediction prints the loop's prediction under its own profile

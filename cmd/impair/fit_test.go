@@ -211,3 +211,50 @@ func TestProbeWire(t *testing.T) {
 		t.Error("a datagram without the magic read as a probe")
 	}
 }
+
+// TestFitNoLosses: a trace without losses (or whose only loss is its last
+// probe) says nothing about r = P(delivered | previous lost); the fit
+// says so instead of printing NaN.
+func TestFitNoLosses(t *testing.T) {
+	dir := t.TempDir()
+	cases := []struct {
+		name     string
+		lastLost bool
+		want     []string
+	}{
+		{"no losses", false, []string{"loss 0 (none in 500 probes; 95 % upper bound 0.006", "r not identifiable (no losses)", "chosen: i.i.d.; no losses in the trace"}},
+		{"only the last probe lost", true, []string{"r not identifiable (no lost probe is followed by another)", "chosen: i.i.d."}},
+	}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			var b strings.Builder
+			fmt.Fprintf(&b, "%s\n# interval_s: 0.01\nseq,send_s,status,rtt_s\n", profiles.TraceHeaderComment)
+			rng := rand.New(rand.NewPCG(8, 9))
+			const n = 500
+			for i := range n {
+				if c.lastLost && i == n-1 {
+					fmt.Fprintf(&b, "%d,%.2f,lost,\n", i, float64(i)*0.01)
+					continue
+				}
+				fmt.Fprintf(&b, "%d,%.2f,delivered,%.6f\n", i, float64(i)*0.01, 0.002+0.001*rng.ExpFloat64())
+			}
+			trace := filepath.Join(dir, strings.ReplaceAll(c.name, " ", "-")+".csv")
+			if err := os.WriteFile(trace, []byte(b.String()), 0o644); err != nil {
+				t.Fatal(err)
+			}
+			var stdout, stderr bytes.Buffer
+			if code := dispatch([]string{"fit", trace, "--round-trip"}, &stdout, &stderr); code != 0 {
+				t.Fatalf("exit %d: %s", code, stderr.String())
+			}
+			out := stdout.String()
+			if strings.Contains(strings.ToLower(out), "nan") {
+				t.Errorf("output holds NaN:\n%s", out)
+			}
+			for _, w := range c.want {
+				if !strings.Contains(out, w) {
+					t.Errorf("output lacks %q:\n%s", w, out)
+				}
+			}
+		})
+	}
+}
