@@ -16,6 +16,10 @@
 // duration strings ("250us", "3ms", "1.5s") or plain numbers of seconds.
 // Unknown keys are errors that name the key and its line.
 //
+// The sketches below are a reminder; docs/formats.md is the reference for
+// every key of every file (type, unit, default, bounds, meaning), with
+// complete examples.
+//
 // # The network profile file
 //
 //	name: pick-station-wifi        # free text
@@ -41,6 +45,38 @@
 // or file: one delay a line, its path relative to the profile), mixture
 // (parts: a list of laws each with a weight; weights normalised).
 //
+// # Files: what is read, and how much
+//
+// Every file the project reads — a profile, a loop, a scenario, a links
+// file, a lab topology, an empirical law's samples, a probe trace — is
+// read through [ReadInputFile] or [OpenInputFile]. Only a regular file is
+// read (a symbolic link is followed to one): a named pipe, a directory, a
+// device or a socket is refused with its kind named ("profile x.yaml: not
+// a regular file (a named pipe)"), and a pipe is never opened in a way
+// that could wait for a writer. A file larger than its cap is refused
+// before a byte of it is read:
+//
+//	YAML files (profile, loop, scenario, links, lab topology)   1 MiB   MaxYAMLBytes
+//	empirical samples file (file: of kind empirical)           16 MiB   MaxSamplesBytes
+//	probe trace (impair fit, trace: of a direction)              1 GiB   MaxTraceBytes
+//
+// A YAML file holds at most [MaxNodes] values (100000, aliases
+// expanded); the values are counted before the file is parsed, so a file
+// of too many values is refused without building it. An empirical law has
+// at most [MaxSamples] delays (100000), inline or in its file, and every
+// delay of every source — inline, a samples file, a trace — is finite and
+// in [0, MaxDelay] (1 h); a trace has at most [MaxTraceProbes] probes, the
+// most `impair probe` sends. A scenario builds one profile per step; its
+// steps together may hold at most [MaxScenarioValues] values (each step
+// counts its profile's YAML values and the delays its laws hold), checked
+// before any step is built.
+//
+// Messages name the file, the line and the key; they quote at most a
+// short, escaped token of the input ([Token]: 40 characters), and never
+// repeat a line of a samples or trace file that does not look like a
+// number or a word, so pointing a key at an unrelated file shows none of
+// it.
+//
 // # The loop file
 //
 //	period: 10ms
@@ -62,6 +98,6 @@
 //	decode: …                    # where outputs sit in a sensor datagram (LoadLoop)
 //	trip: …                      # the monitor's safety trip (looptrip.go)
 //
-// The model these numbers enter is described in package estimate's
-// documentation.
+// The model these numbers enter is described in docs/model.md (the plant
+// and controller §1 and §3, the network §2).
 package profiles
