@@ -9,7 +9,7 @@ import (
 )
 
 // Monte-Carlo checks of the prediction: the analytic steady E[eᵀe] of
-// estimate.Predict (estimate doc, "Moments and stability") against a plain simulation of the same
+// estimate.Predict (docs/model.md §4) against a plain simulation of the same
 // loop (estimate.Simulate, which draws modes and delays from the
 // profile's own Sample methods and samples the plant exactly each
 // period). The runs are independent, so their time averages give an

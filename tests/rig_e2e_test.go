@@ -158,7 +158,7 @@ var (
 // TestRigEndToEnd runs the simulated rig through the relay for three loops
 // and checks the rig's measured E[eᵀe] (from its own sample log, 95 %
 // batch-means interval, 20 batches) against `monitor predict`'s value
-// (estimate doc, "Moments and stability"): the interval widened by relTol of the prediction must
+// (docs/model.md §4): the interval widened by relTol of the prediction must
 // cover it. relTol holds the loopback stack's own latency, which adds
 // ~0.2–0.4 ms to every τ and biases E[eᵀe] up by a few per cent (estimate
 // doc, "Conventions"), and the short runs' correlation (a few dozen independent stretches
