@@ -578,3 +578,58 @@ func TestFormatsDocExamplesLoad(t *testing.T) {
 		}
 	})
 }
+
+// TestModelDocCitations checks that every "docs/model.md §N" cited in the
+// repository's Go sources, reference scripts and documents names a
+// section docs/model.md has.
+func TestModelDocCitations(t *testing.T) {
+	data, err := os.ReadFile("../docs/model.md")
+	if err != nil {
+		t.Fatal(err)
+	}
+	have := map[string]bool{}
+	for _, m := range regexp.MustCompile(`(?m)^## §(\d+) `).FindAllStringSubmatch(string(data), -1) {
+		have[m[1]] = true
+	}
+	if len(have) < 10 {
+		t.Fatalf("docs/model.md: %d numbered sections found, want its §1 … §12", len(have))
+	}
+	cite := regexp.MustCompile(`docs/model\.md(?: \(| )((?:§\d+(?:–§\d+)?(?:, | and )?)+)`)
+	num := regexp.MustCompile(`§(\d+)`)
+	count := 0
+	err = filepath.WalkDir("..", func(path string, d os.DirEntry, err error) error {
+		if err != nil {
+			return err
+		}
+		if d.IsDir() {
+			if name := d.Name(); name != ".." && (strings.HasPrefix(name, ".") || name == "testdata") {
+				return filepath.SkipDir
+			}
+			return nil
+		}
+		switch filepath.Ext(path) {
+		case ".go", ".m", ".py", ".md":
+		default:
+			return nil
+		}
+		b, err := os.ReadFile(path)
+		if err != nil {
+			return err
+		}
+		for _, m := range cite.FindAllStringSubmatch(string(b), -1) {
+			for _, n := range num.FindAllStringSubmatch(m[1], -1) {
+				count++
+				if !have[n[1]] {
+					t.Errorf("%s: cites docs/model.md §%s, which docs/model.md does not have", path, n[1])
+				}
+			}
+		}
+		return nil
+	})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if count == 0 {
+		t.Error("no citation of docs/model.md found; the walk is broken")
+	}
+}
