@@ -36,6 +36,8 @@ import (
 	"strconv"
 	"strings"
 	"time"
+	"unicode"
+	"unicode/utf8"
 
 	"gonum.org/v1/gonum/mat"
 	"gopkg.in/yaml.v3"
@@ -168,9 +170,34 @@ func syntaxError(file string, err error) error {
 	msg := err.Error()
 	if m := yamlLine.FindStringSubmatch(msg); m != nil {
 		line, _ := strconv.Atoi(m[1])
-		return &Error{File: file, Line: line, Msg: m[2], Err: err}
+		return &Error{File: file, Line: line, Msg: parserText(m[2]), Err: err}
 	}
-	return &Error{File: file, Msg: strings.TrimPrefix(msg, "yaml: "), Err: err}
+	return &Error{File: file, Msg: parserText(strings.TrimPrefix(msg, "yaml: ")), Err: err}
+}
+
+// parserText is a YAML parser's message made safe to print: a few of them
+// quote the input (an anchor's name, say), so control characters and
+// invalid UTF-8 are escaped and the text is cut at 160 characters.
+func parserText(s string) string {
+	var b strings.Builder
+	n := 0
+	for i, r := range s {
+		if n == 160 {
+			b.WriteString("…")
+			break
+		}
+		n++
+		switch {
+		case r == utf8.RuneError && !utf8.FullRuneInString(s[i:]) || r == utf8.RuneError && s[i] != 0xef:
+			fmt.Fprintf(&b, `\x%02x`, s[i])
+		case unicode.IsControl(r):
+			q := strconv.QuoteRune(r)
+			b.WriteString(q[1 : len(q)-1])
+		default:
+			b.WriteRune(r)
+		}
+	}
+	return b.String()
 }
 
 // NodeField wraps a node that the caller already holds (a value found in
