@@ -289,9 +289,10 @@ func (f Field) Got() string {
 
 // Mapping checks that the field is a mapping whose keys are all among
 // allowed, each given once, and returns the values by key. An unknown key
-// is reported at its own line with the mapping's path:
+// is reported at its own line with the mapping's path and the keys
+// accepted there, in the order given:
 //
-//	pick.yaml:7: sensor_to_controller: unknown key "lossy"
+//	pick.yaml:7: sensor_to_controller: unknown key "lossy" (want one of: loss, delay, states, trace)
 //
 // A null field (a key with nothing after it) counts as an empty mapping.
 func (f Field) Mapping(allowed ...string) (map[string]Field, error) {
@@ -315,7 +316,7 @@ func (f Field) Mapping(allowed ...string) (map[string]Field, error) {
 		}
 		name := k.Value
 		if !contains(allowed, name) {
-			return nil, &Error{File: f.File, Line: k.Line, Key: f.Path, Msg: fmt.Sprintf("unknown key %s", Token(name))}
+			return nil, &Error{File: f.File, Line: k.Line, Key: f.Path, Msg: UnknownKey(name, allowed)}
 		}
 		if _, dup := out[name]; dup {
 			return nil, &Error{File: f.File, Line: k.Line, Key: f.Path, Msg: fmt.Sprintf("key %s given twice", Token(name))}
@@ -327,6 +328,17 @@ func (f Field) Mapping(allowed ...string) (map[string]Field, error) {
 		}
 	}
 	return out, nil
+}
+
+// UnknownKey is the message for a key that is not among allowed:
+// `unknown key "num" (want one of: a, b, c)`. The key is quoted and
+// escaped, at most 40 characters of it (Token); the accepted keys are
+// listed in the order given.
+func UnknownKey(name string, allowed []string) string {
+	if len(allowed) == 0 {
+		return fmt.Sprintf("unknown key %s (want no keys here)", Token(name))
+	}
+	return fmt.Sprintf("unknown key %s (want one of: %s)", Token(name), strings.Join(allowed, ", "))
 }
 
 func contains(list []string, s string) bool {
