@@ -149,7 +149,13 @@ func parseDelayExtra(f Field, dir string, depth int, extra ...string) (Delay, ma
 			if k := keys["shift"]; !kind.shift && k.Node != nil && strings.Contains(pe.Msg, `"shift"`) {
 				pe.Msg = fmt.Sprintf("kind %s takes no shift", name)
 			} else {
-				pe.Msg += fmt.Sprintf(" for kind %s", name)
+				// Before the list of keys accepted (Mapping's message):
+				// `unknown key "sigma" for kind normal (want one of: …)`.
+				head, list, _ := strings.Cut(pe.Msg, " (want")
+				pe.Msg = head + " for kind " + name
+				if list != "" {
+					pe.Msg += " (want" + list
+				}
 			}
 		}
 		return nil, nil, err

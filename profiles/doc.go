@@ -14,7 +14,8 @@
 //
 // All times are in seconds, as float64. In files, durations are Go
 // duration strings ("250us", "3ms", "1.5s") or plain numbers of seconds.
-// Unknown keys are errors that name the key and its line.
+// Unknown keys are errors that name the key and its line and list the
+// keys accepted there.
 //
 // The sketches below are a reminder; docs/formats.md is the reference for
 // every key of every file (type, unit, default, bounds, meaning), with

@@ -13,7 +13,7 @@ import (
 // it (an empirical delay's file) are resolved against the file's
 // directory. Errors name the file, the line and the key path:
 //
-//	pick.yaml:7: sensor_to_controller: unknown key "lossy"
+//	pick.yaml:7: sensor_to_controller: unknown key "lossy" (want one of: loss, delay, states, trace)
 func Load(path string) (*Profile, error) {
 	data, err := ReadInputFile(path, "profile", MaxYAMLBytes)
 	if err != nil {

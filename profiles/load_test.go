@@ -36,7 +36,7 @@ var expectedErrors = []struct {
 	{"empirical-neither.bad.yaml", "testdata/empirical-neither.bad.yaml:2: sensor_to_controller.delay: missing samples or file for kind empirical"},
 	{"empty.bad.yaml", "testdata/empty.bad.yaml: empty document"},
 	{"gamma-shape-zero.bad.yaml", "testdata/gamma-shape-zero.bad.yaml:2: controller_to_actuator.delay.shape: want a number in [0.1, 10000], got \"0\""},
-	{"key-of-other-kind.bad.yaml", "testdata/key-of-other-kind.bad.yaml:2: sensor_to_controller.delay: unknown key \"sigma\" for kind normal"},
+	{"key-of-other-kind.bad.yaml", "testdata/key-of-other-kind.bad.yaml:2: sensor_to_controller.delay: unknown key \"sigma\" for kind normal (want one of: kind, mean, std, shift)"},
 	{"lognormal-missing-sigma.bad.yaml", "testdata/lognormal-missing-sigma.bad.yaml:2: controller_to_actuator.delay: missing sigma for kind lognormal"},
 	{"loss-above-one.bad.yaml", "testdata/loss-above-one.bad.yaml:2: sensor_to_controller.loss: want a number in [0, 1], got \"1.5\""},
 	{"loss-not-number.bad.yaml", "testdata/loss-not-number.bad.yaml:2: sensor_to_controller.loss: want a number in [0, 1], got \"high\""},
@@ -49,7 +49,7 @@ var expectedErrors = []struct {
 	{"name-mapping.bad.yaml", "testdata/name-mapping.bad.yaml:1: name: want a string, got a mapping"},
 	{"negative-shift.bad.yaml", "testdata/negative-shift.bad.yaml:2: controller_to_actuator.delay.shift: want a duration in [0s, 1h0m0s], got \"-1ms\""},
 	{"next-self.bad.yaml", "testdata/next-self.bad.yaml:3: sensor_to_controller.states[0].next.a: a state cannot jump to itself"},
-	{"next-unknown-state.bad.yaml", "testdata/next-unknown-state.bad.yaml:3: sensor_to_controller.states[0].next: unknown key \"fog\""},
+	{"next-unknown-state.bad.yaml", "testdata/next-unknown-state.bad.yaml:3: sensor_to_controller.states[0].next: unknown key \"fog\" (want one of: clear, shadow, blocked)"},
 	{"next-weight-negative.bad.yaml", "testdata/next-weight-negative.bad.yaml:3: sensor_to_controller.states[0].next.c: want a number ≥ 0, got \"-2\""},
 	{"next-weights-zero.bad.yaml", "testdata/next-weights-zero.bad.yaml:3: sensor_to_controller.states[0].next: want weights ≥ 0, not all 0"},
 	{"normal-std-zero.bad.yaml", "testdata/normal-std-zero.bad.yaml:2: controller_to_actuator.delay.std: want a duration > 0 and ≤ 1h0m0s, got \"0\""},
@@ -61,9 +61,9 @@ var expectedErrors = []struct {
 	{"syntax.bad.yaml", "testdata/syntax.bad.yaml:2: found a tab character that violates indentation"},
 	{"three-states-no-next.bad.yaml", "testdata/three-states-no-next.bad.yaml:5: sensor_to_controller.states[2]: missing next (with more than two states each needs next: {state: weight, …})"},
 	{"uniform-min-above-max.bad.yaml", "testdata/uniform-min-above-max.bad.yaml:2: controller_to_actuator.delay.max: want a duration ≥ min (8ms), got \"2ms\""},
-	{"unknown-key.bad.yaml", "testdata/unknown-key.bad.yaml:4: sensor_to_controller: unknown key \"lossy\""},
+	{"unknown-key.bad.yaml", "testdata/unknown-key.bad.yaml:4: sensor_to_controller: unknown key \"lossy\" (want one of: loss, delay, states, trace)"},
 	{"unknown-kind.bad.yaml", "testdata/unknown-kind.bad.yaml:2: sensor_to_controller.delay.kind: unknown kind \"cauchy\" (want one of constant, empirical, exponential, gamma, lognormal, mixture, normal, pareto, uniform, weibull)"},
-	{"unknown-top-key.bad.yaml", "testdata/unknown-top-key.bad.yaml:2: unknown key \"sensor_to_contoller\""},
+	{"unknown-top-key.bad.yaml", "testdata/unknown-top-key.bad.yaml:2: unknown key \"sensor_to_contoller\" (want one of: name, seed, sensor_to_controller, controller_to_actuator)"},
 }
 
 func TestBadProfiles(t *testing.T) {

@@ -52,7 +52,7 @@ func TestParseTripBad(t *testing.T) {
 		{"trip:\n  max_ratio: 2\n  window: 15ms\n", `loop.yaml:7: trip.window: want a duration ≥ 2 periods (20ms), got "15ms"`},
 		{"trip:\n  max_ratio: 2\n  window: soon\n", `loop.yaml:7: trip.window: want a duration ≥ 2 periods (20ms), got "soon"`},
 		{"trip:\n  max_ratio: 2\n  action: halt\n", `loop.yaml:7: trip.action: want clean or stop_commands, got "halt"`},
-		{"trip:\n  max_ratio: 2\n  max_error: 1\n", `loop.yaml:7: trip: unknown key "max_error"`},
+		{"trip:\n  max_ratio: 2\n  max_error: 1\n", `loop.yaml:7: trip: unknown key "max_error" (want one of: max_abs_error, max_second_moment, max_ratio, window, action)`},
 		{"trip: [1]\n", `loop.yaml:5: trip: want a mapping, got a sequence`},
 	}
 	for _, c := range cases {

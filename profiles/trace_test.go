@@ -113,7 +113,7 @@ func TestTraceProfile(t *testing.T) {
 		t.Errorf("mean delay %g, want 0.00325 (the delivered one-way delays' mean)", m)
 	}
 	cases := []struct{ name, yaml, want string }{
-		{"unknown key", "sensor_to_controller:\n  trace: {file: wifi.csv, colum: rtt_s}\n", `p.yaml:2: sensor_to_controller.trace: unknown key "colum"`},
+		{"unknown key", "sensor_to_controller:\n  trace: {file: wifi.csv, colum: rtt_s}\n", `p.yaml:2: sensor_to_controller.trace: unknown key "colum" (want one of: file, column, at_end)`},
 		{"bad at_end", "sensor_to_controller:\n  trace: {file: wifi.csv, at_end: wrap}\n", `p.yaml:2: sensor_to_controller.trace.at_end: want loop, stop or clean, got "wrap"`},
 		{"bad column", "sensor_to_controller:\n  trace: {file: wifi.csv, column: size}\n", `p.yaml:2: sensor_to_controller.trace.column: want one of rtt_s, one_way_s, back_s, got "size"`},
 		{"missing file", "sensor_to_controller:\n  trace: {column: rtt_s}\n", `p.yaml:2: sensor_to_controller.trace: missing file (a probe trace, as written by impair probe)`},

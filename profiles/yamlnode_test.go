@@ -96,9 +96,9 @@ nested:
 		t.Fatal(err)
 	}
 	_, err = n["b"].Mapping("d")
-	check("unknown nested", err, `loop.yaml:13: nested.b: unknown key "c"`)
+	check("unknown nested", err, `loop.yaml:13: nested.b: unknown key "c" (want one of: d)`)
 	_, err = root.Mapping("period")
-	check("unknown root", err, `loop.yaml:2: unknown key "seconds"`)
+	check("unknown root", err, `loop.yaml:2: unknown key "seconds" (want one of: period)`)
 
 	var pe *Error
 	if !errors.As(err, &pe) || pe.Line != 2 {

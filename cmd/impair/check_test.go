@@ -67,7 +67,7 @@ func TestCheckErrors(t *testing.T) {
 		want string // first line of stderr
 	}{
 		{"bad profile", []string{"../../profiles/testdata/unknown-key.bad.yaml"},
-			`impair check: ../../profiles/testdata/unknown-key.bad.yaml:4: sensor_to_controller: unknown key "lossy"`},
+			`impair check: ../../profiles/testdata/unknown-key.bad.yaml:4: sensor_to_controller: unknown key "lossy" (want one of: loss, delay, states, trace)`},
 		{"missing file", []string{"no-such.yaml"}, "impair check: reading profile: open no-such.yaml: no such file or directory"},
 		{"no profile", nil, "impair check: want one profile, got 0"},
 		{"two profiles", []string{"a.yaml", "b.yaml"}, "impair check: want one profile, got 2"},

@@ -31,7 +31,7 @@ func TestParseBad(t *testing.T) {
 		name, in, want string
 	}{
 		{"unknown key", "namespaces: [a]\nlink: []\n",
-			`lab.yaml:2: unknown key "link"`},
+			`lab.yaml:2: unknown key "link" (want one of: namespaces, links)`},
 		{"no namespaces", "links: []\n",
 			`lab.yaml:1: missing key "namespaces"`},
 		{"bad name", "namespaces: [Rig]\n",
