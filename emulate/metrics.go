@@ -44,8 +44,8 @@ type Metrics struct {
 	LossRuns *prometheus.HistogramVec // direction
 	Tripped  prometheus.Gauge         // 1 once the safety trip fired
 	// ScenarioPhase: 1 for the phase being played, 0 for those played before.
-	ScenarioPhase   *prometheus.GaugeVec // index, phase
-	ScenarioSteps   prometheus.Counter
+	ScenarioPhase *prometheus.GaugeVec // index, phase
+	ScenarioSteps prometheus.Counter
 	// ScenarioElapsed reads the wall-clock time since the scenario started
 	// playing, at every scrape; frozen at its length once it has ended.
 	ScenarioElapsed prometheus.GaugeFunc
