@@ -11,32 +11,76 @@ import (
 
 	"gonum.org/v1/plot"
 	"gonum.org/v1/plot/plotter"
+	"gonum.org/v1/plot/text"
 	"gonum.org/v1/plot/vg"
 	"gonum.org/v1/plot/vg/draw"
 	"gonum.org/v1/plot/vg/vgimg"
+	"gonum.org/v1/plot/vg/vgsvg"
 )
 
-// Colours: the measured estimate in blue, the prediction in dark orange,
-// boundaries and references in grey, so the plots also read in greyscale
-// print (dashes differ as well as colours).
+// Colours, from the project's palette (palette.go): what was measured in
+// teal, the prediction in brick red (dashed), the trip's own window in
+// ochre, references and phase boundaries in slate, so the plots also read
+// in greyscale print.
 var (
-	measuredColor  = color.RGBA{R: 0x1f, G: 0x5f, B: 0x9f, A: 0xff}
-	bandColor      = color.NRGBA{R: 0x1f, G: 0x5f, B: 0x9f, A: 0x50} // not premultiplied
-	predictedColor = color.RGBA{R: 0xc0, G: 0x60, B: 0x10, A: 0xff}
-	boundaryColor  = color.RGBA{R: 0x60, G: 0x60, B: 0x60, A: 0xff}
-	overflowColor  = color.RGBA{R: 0xa0, G: 0xa0, B: 0xa0, A: 0xff}
-	tripColor      = color.RGBA{R: 0xb0, G: 0x10, B: 0x10, A: 0xff}
+	measuredColor  = Teal
+	bandColor      = Band(Teal, 0x50) // not premultiplied
+	predictedColor = Brick
+	windowColor    = Ochre
+	boundaryColor  = Slate
+	overflowColor  = Mist
+	tripColor      = Brick
 )
 
-func directionColor(i int) color.Color {
-	palette := []color.Color{measuredColor, predictedColor, color.RGBA{G: 0x80, B: 0x40, A: 0xff}, color.RGBA{R: 0x80, B: 0x80, A: 0xff}}
-	return palette[i%len(palette)]
-}
+func directionColor(i int) color.Color { return Series(i) }
 
 const (
 	plotWidth  = 16 * vg.Centimeter
 	plotHeight = 10 * vg.Centimeter
+	// labelSize is the size of tick labels, phase names and the legend.
+	labelSize = 9
 )
+
+// layout draws p on c with its legend in a strip below the plot (never
+// over the data or the phase names). It returns the total height the
+// figure needs for a plot of plotHeight.
+func legendHeight(p *plot.Plot) vg.Length {
+	l := p.Legend
+	styleLegend(&l)
+	r := l.Rectangle(draw.Canvas{Rectangle: vg.Rectangle{Max: vg.Point{X: plotWidth, Y: plotHeight}}})
+	h := r.Max.Y - r.Min.Y
+	if h <= 0 {
+		return 0
+	}
+	return h + l.TextStyle.FontExtents().Descent + vg.Points(10)
+}
+
+// styleLegend sets the legend's look for its strip below the plot.
+func styleLegend(l *plot.Legend) {
+	l.Top, l.Left = true, true
+	l.XOffs, l.YOffs = 0, 0
+	l.Padding = vg.Points(2)
+	l.TextStyle.Font.Size = vg.Points(labelSize)
+}
+
+// drawFigure draws p on dc: the plot above, its legend (if any) in a strip
+// below.
+func drawFigure(p *plot.Plot, dc draw.Canvas) {
+	leg := p.Legend
+	lh := legendHeight(p)
+	p.Legend = plot.NewLegend()
+	defer func() { p.Legend = leg }()
+	top := dc
+	top.Min.Y += lh
+	p.Draw(top)
+	if lh > 0 {
+		strip := dc
+		strip.Max.Y = dc.Min.Y + lh - vg.Points(2)
+		strip.Min.X += vg.Points(36)
+		styleLegend(&leg)
+		leg.Draw(strip)
+	}
+}
 
 // render draws p on a PNG canvas. A panic inside the plotting library is
 // turned into an error so that one odd plot never costs the whole report.
@@ -46,11 +90,28 @@ func render(p *plot.Plot) (png []byte, err error) {
 			png, err = nil, fmt.Errorf("drawing failed: %v", r)
 		}
 	}()
-	c := vgimg.New(plotWidth, plotHeight)
-	p.Draw(draw.New(c))
+	c := vgimg.New(plotWidth, plotHeight+legendHeight(p))
+	drawFigure(p, draw.New(c))
 	var buf bytes.Buffer
 	if _, err := (vgimg.PngCanvas{Canvas: c}).WriteTo(&buf); err != nil {
 		return nil, fmt.Errorf("encoding PNG: %w", err)
+	}
+	return buf.Bytes(), nil
+}
+
+// renderSVG draws p as SVG, laid out as render lays out the PNG (the
+// tests read the SVG's coordinates).
+func renderSVG(p *plot.Plot) (svg []byte, err error) {
+	defer func() {
+		if r := recover(); r != nil {
+			svg, err = nil, fmt.Errorf("drawing failed: %v", r)
+		}
+	}()
+	c := vgsvg.New(plotWidth, plotHeight+legendHeight(p))
+	drawFigure(p, draw.New(c))
+	var buf bytes.Buffer
+	if _, err := c.WriteTo(&buf); err != nil {
+		return nil, fmt.Errorf("encoding SVG: %w", err)
 	}
 	return buf.Bytes(), nil
 }
@@ -62,7 +123,7 @@ func finish(f *figure, p *plot.Plot) *figure {
 		f.NoData = err.Error()
 		return f
 	}
-	f.png = png
+	f.png, f.plot = png, p
 	return f
 }
 
@@ -71,50 +132,64 @@ func newPlot(title, x, y string) *plot.Plot {
 	p.Title.Text = title
 	p.X.Label.Text = x
 	p.Y.Label.Text = y
-	p.X.Tick.Marker = niceTicks{}
-	p.Y.Tick.Marker = niceTicks{}
+	p.X.Tick.Marker = NiceTicks{}
+	p.Y.Tick.Marker = NiceTicks{}
+	p.X.Tick.Label.Font.Size = vg.Points(labelSize)
+	p.Y.Tick.Label.Font.Size = vg.Points(labelSize)
+	p.X.Label.TextStyle.Font.Size = vg.Points(10)
+	p.Y.Label.TextStyle.Font.Size = vg.Points(10)
 	p.Add(plotter.NewGrid())
 	return p
 }
 
-// niceTicks puts about six labelled ticks on steps of 1, 2 or 5 times a
-// power of ten, labelled without trailing zeros.
-type niceTicks struct{}
+// yAxis is a plot's vertical axis: linear from zero, or logarithmic when
+// the values span decades; Floor is the lowest value drawn, at which
+// bands and whiskers are clipped.
+type yAxis struct {
+	Log      bool
+	Lo, Hi   float64 // the axis range, headroom included
+	Floor    float64 // = Lo
+	DataHi   float64
+	headroom float64
+}
 
-func (niceTicks) Ticks(lo, hi float64) []plot.Tick {
-	if !(hi > lo) || math.IsInf(hi-lo, 0) {
-		return plot.DefaultTicks{}.Ticks(lo, hi)
+// logAbove is the ratio of the largest to the smallest positive value
+// above which an axis turns logarithmic.
+const logAbove = 30
+
+// chooseY picks the axis for positive quantities in s (zeros and
+// negatives never set a log axis's floor), leaving the top fraction
+// headroom of the height free for phase names.
+func chooseY(s span, minPos float64, headroom float64) yAxis {
+	lo, hi := s.widened()
+	if s.empty() {
+		lo, hi = 0, 1
 	}
-	raw := (hi - lo) / 6
-	mag := math.Pow(10, math.Floor(math.Log10(raw)))
-	step, minors := 10*mag, 5
-	for _, m := range []struct {
-		f float64
-		n int
-	}{{1, 5}, {2, 4}, {5, 5}} {
-		if m.f*mag >= raw {
-			step, minors = m.f*mag, m.n
-			break
-		}
+	if minPos > 0 && hi > 0 && hi/minPos >= logAbove {
+		l, h := LogPad(minPos, hi, 0.04)
+		// headroom on the log scale: the top fraction of the decades
+		h *= math.Pow(h/l, headroom/(1-headroom))
+		return yAxis{Log: true, Lo: l, Hi: h, Floor: l, DataHi: hi, headroom: headroom}
 	}
-	minor := step / float64(minors)
-	var ticks []plot.Tick
-	first := math.Ceil(lo/minor - 1e-9)
-	for k := first; k*minor <= hi+minor*1e-9; k++ {
-		v := k * minor
-		t := plot.Tick{Value: v}
-		if int64(k)%int64(minors) == 0 {
-			if math.Abs(v) < step*1e-9 {
-				v = 0
-			}
-			t.Label = strconv.FormatFloat(v, 'g', 6, 64)
-		}
-		ticks = append(ticks, t)
-		if len(ticks) > 200 { // cannot happen with finite bounds; stay safe
-			break
-		}
+	if lo > 0 {
+		lo = 0 // a second moment or a ratio: from zero
 	}
-	return ticks
+	h := hi + (hi-lo)*headroom/(1-headroom)
+	return yAxis{Lo: lo, Hi: h, Floor: lo, DataHi: hi, headroom: headroom}
+}
+
+// apply sets p's Y axis.
+func (a yAxis) apply(p *plot.Plot) {
+	p.Y.Min, p.Y.Max = a.Lo, a.Hi
+	if a.Log {
+		p.Y.Scale = plot.LogScale{}
+		p.Y.Tick.Marker = LogTicks{}
+	}
+}
+
+// clip keeps v inside the axis (a band never reaches below its floor).
+func (a yAxis) clip(v float64) float64 {
+	return math.Min(math.Max(v, a.Floor), a.Hi)
 }
 
 // sortedHistory returns the points with a finite time, in time order.
@@ -206,42 +281,103 @@ func (s *segmenter) done() []plotter.XYs { s.gap(); return s.segs }
 
 // boundary is a vertical line where a phase starts.
 type boundary struct {
-	x    float64
-	name string
+	x     float64
+	name  string
+	short string
 }
 
 // boundaries lists phase starts within [xlo, xhi]; without phases it uses
-// the points where History changes phase.
+// the points where History changes phase. Names are numbered from 1 as in
+// the report's table, the short form being the number alone.
 func boundaries(d *Data, hist []Point, xlo, xhi float64) []boundary {
 	var out []boundary
 	if len(d.Phases) > 0 {
-		for _, ph := range d.Phases {
+		for i, ph := range d.Phases {
 			if math.IsNaN(ph.Start) || math.IsInf(ph.Start, 0) || ph.Start < xlo || ph.Start > xhi {
 				continue
 			}
 			name := ph.Name
 			if name == "" {
-				name = fmt.Sprintf("phase %d", ph.Index)
+				name = fmt.Sprintf("phase %d", ph.Index+1)
 			}
-			out = append(out, boundary{ph.Start, name})
+			n := fmt.Sprint(i + 1)
+			out = append(out, boundary{ph.Start, n + " " + shorten(name, 20), n})
 		}
 		return out
 	}
 	for i, pt := range hist {
 		if i == 0 || pt.Phase != hist[i-1].Phase {
-			out = append(out, boundary{pt.Elapsed, fmt.Sprintf("phase %d", pt.Phase)})
+			n := fmt.Sprint(pt.Phase + 1)
+			out = append(out, boundary{pt.Elapsed, "phase " + n, n})
 		}
 	}
 	return out
 }
 
-// addBoundaries draws dashed vertical lines from ylo to yhi with the phase
-// names written just below the top.
+// stagger draws short texts along the top of the data area, each at its
+// x, in the first of rows rows where it does not run into a text already
+// placed; a text that fits in no row is drawn in its short form, and
+// dropped (counted in dropped) when even that does not fit.
+type stagger struct {
+	items   []staggerItem
+	rows    int
+	style   text.Style
+	dropped int
+}
+
+type staggerItem struct {
+	x           float64
+	text, short string
+}
+
+func newStagger(rows int) *stagger {
+	p := plot.New() // for the default text handler and font
+	sty := p.X.Tick.Label
+	sty.Font.Size = vg.Points(labelSize - 1)
+	sty.Color = boundaryColor
+	sty.XAlign, sty.YAlign = draw.XLeft, draw.YBottom
+	sty.Rotation = 0
+	return &stagger{rows: rows, style: sty}
+}
+
+func (s *stagger) Plot(c draw.Canvas, p *plot.Plot) {
+	trX, _ := p.Transforms(&c)
+	lineH := s.style.Height("Ag") + vg.Points(2)
+	gap := vg.Points(4)
+	end := make([]vg.Length, s.rows)
+	for i := range end {
+		end[i] = c.Min.X - 1000
+	}
+	s.dropped = 0
+	for _, it := range s.items {
+		x := trX(it.x) + vg.Points(2)
+		placed := false
+		for _, txt := range []string{it.text, it.short} {
+			w := s.style.Width(txt)
+			for r := 0; r < s.rows && !placed; r++ {
+				if x >= end[r]+gap && x+w <= c.Max.X {
+					c.FillText(s.style, vg.Point{X: x, Y: c.Max.Y - vg.Length(r+1)*lineH}, txt)
+					end[r] = x + w
+					placed = true
+				}
+			}
+			if placed {
+				break
+			}
+		}
+		if !placed {
+			s.dropped++
+		}
+	}
+}
+
+// addBoundaries draws dashed vertical lines from ylo to yhi and the phase
+// names, staggered in up to three rows along the top.
 func addBoundaries(p *plot.Plot, bs []boundary, ylo, yhi float64) error {
 	if len(bs) == 0 {
 		return nil
 	}
-	var labels plotter.XYLabels
+	st := newStagger(3)
 	for _, b := range bs {
 		l, err := plotter.NewLine(plotter.XYs{{X: b.x, Y: ylo}, {X: b.x, Y: yhi}})
 		if err != nil {
@@ -251,24 +387,13 @@ func addBoundaries(p *plot.Plot, bs []boundary, ylo, yhi float64) error {
 		l.Width = vg.Points(0.8)
 		l.Dashes = []vg.Length{vg.Points(3), vg.Points(3)}
 		p.Add(l)
-		labels.XYs = append(labels.XYs, plotter.XY{X: b.x, Y: yhi})
-		labels.Labels = append(labels.Labels, shorten(b.name, 24))
+		st.items = append(st.items, staggerItem{x: b.x, text: b.name, short: b.short})
 	}
-	lab, err := plotter.NewLabels(labels)
-	if err != nil {
-		return err
-	}
-	for i := range lab.TextStyle {
-		lab.TextStyle[i].Color = boundaryColor
-		lab.TextStyle[i].YAlign = draw.YTop
-		lab.TextStyle[i].Font.Size = vg.Points(8)
-	}
-	lab.Offset = vg.Point{X: vg.Points(2), Y: -vg.Points(1)}
-	p.Add(lab)
+	p.Add(st)
 	return nil
 }
 
-// addTrip draws a solid red vertical line where the safety trip fired, when
+// addTrip draws a solid vertical line where the safety trip fired, when
 // that time lies within [xlo, xhi].
 func addTrip(p *plot.Plot, t *Trip, xlo, xhi, ylo, yhi float64) error {
 	if t == nil || math.IsNaN(t.Elapsed) || t.Elapsed < xlo || t.Elapsed > xhi {
@@ -293,19 +418,161 @@ func shorten(s string, n int) string {
 	return string(r[:n-1]) + "…"
 }
 
+// timeAxisLabel is the time axis's label: wall time, and how scenario time
+// relates to it.
+func timeAxisLabel(d *Data) string {
+	if sc := d.scale(); sc != 1 {
+		return fmt.Sprintf("wall time since start (s); scenario time = wall time ÷ %g", sc)
+	}
+	return "time since start (s); = scenario time (time scale 1)"
+}
+
+// timeRange is the time axis's range: the values drawn, widened to the
+// phases' starts and ends so that the first phase's boundary shows.
+func timeRange(d *Data, xs span) (float64, float64) {
+	for _, ph := range d.Phases {
+		for _, v := range []float64{ph.Start, ph.End} {
+			if !math.IsNaN(v) && !math.IsInf(v, 0) {
+				xs.add(v)
+			}
+		}
+	}
+	return xs.widened()
+}
+
+// tripWindowFor returns the trip's windowed series when it is the given
+// quantity and has points.
+func tripWindowFor(d *Data, quantity string) *TripWindow {
+	if w := d.TripWindow; w != nil && w.Quantity == quantity && len(w.Points) > 0 {
+		return w
+	}
+	return nil
+}
+
+// tripWindowName is the legend's name of the trip's series.
+func tripWindowName(w *TripWindow) string {
+	what := "mean eᵀe"
+	if w.Quantity == "ratio" {
+		what = "mean eᵀe / predicted"
+	}
+	return fmt.Sprintf("trip's own %s over its %s window", what, fmtWindow(w.Seconds))
+}
+
+func fmtWindow(s float64) string {
+	return strconv.FormatFloat(s, 'g', 4, 64) + " s"
+}
+
+// addTripWindow draws the trip's windowed quantity, its bound, and the
+// value that fired the trip (a marker at the trip's time), all on the
+// axis ax; it adds their values to ys.
+func addTripWindow(p *plot.Plot, d *Data, w *TripWindow) error {
+	var seg segmenter
+	for _, pt := range w.Points {
+		if math.IsNaN(pt.Value) || math.IsInf(pt.Value, 0) || pt.Value <= 0 {
+			seg.gap()
+			continue
+		}
+		seg.add(pt.Elapsed, pt.Value)
+	}
+	th, err := addSegments(p, seg.done(), windowColor, nil)
+	if err != nil {
+		return err
+	}
+	if th != nil {
+		p.Legend.Add(tripWindowName(w), th)
+	}
+	if t := d.Trip; t != nil && t.Reason == tripReason(w.Quantity) && t.Value > 0 && !math.IsNaN(t.Elapsed) {
+		sc, err := plotter.NewScatter(plotter.XYs{{X: t.Elapsed, Y: t.Value}})
+		if err != nil {
+			return err
+		}
+		sc.Color = tripColor
+		sc.Shape = draw.PyramidGlyph{}
+		sc.Radius = vg.Points(4)
+		p.Add(sc)
+		p.Legend.Add(fmt.Sprintf("the value that fired the trip: %.4g above %.4g", t.Value, t.Bound), sc)
+	}
+	return nil
+}
+
+// tripReason is the trip event's reason for a windowed quantity.
+func tripReason(quantity string) string {
+	if quantity == "ratio" {
+		return "ratio"
+	}
+	return "second_moment"
+}
+
+// addBound draws a horizontal dotted line at y across [xlo, xhi].
+func addBound(p *plot.Plot, y, xlo, xhi float64, c color.Color, name string) error {
+	l, err := plotter.NewLine(plotter.XYs{{X: xlo, Y: y}, {X: xhi, Y: y}})
+	if err != nil {
+		return err
+	}
+	l.Color = c
+	l.Width = vg.Points(1.2)
+	l.Dashes = []vg.Length{vg.Points(2), vg.Points(2)}
+	p.Add(l)
+	p.Legend.Add(name, l)
+	return nil
+}
+
+// headroom is the share of a time plot's height kept free for the phase
+// names along its top.
+const headroom = 0.2
+
 func secondMomentFigure(d *Data) *figure {
 	f := &figure{
 		File:  SecondMomentName,
 		Title: "Tracking error second moment E[eᵀe]",
-		Caption: "Measured E[eᵀe] (blue, shaded: its confidence interval) against the prediction " +
-			"(orange, dashed) over the run; dashed grey lines mark where each phase starts, a solid red " +
-			"line where the safety trip fired, if it did.",
+		Caption: "Measured E[eᵀe] (teal, shaded: its confidence interval, which is built on the log scale and " +
+			"never reaches below zero) against the prediction in force (brick red, dashed) over the run; " +
+			"dashed slate lines mark where each phase starts (numbered as in the table), a solid brick line " +
+			"where the safety trip fired, if it did. The axis turns logarithmic when the values span decades; " +
+			"a band is clipped at the axis's floor.",
 	}
 	hist := sortedHistory(d.History)
+	xs, ys := newSpan(), newSpan()
+	minPos := math.Inf(1)
+	addY := func(v float64) {
+		ys.add(v)
+		if v > 0 {
+			minPos = math.Min(minPos, v)
+		}
+	}
+	for _, pt := range hist {
+		for _, p := range []*float64{pt.Measured, pt.CILow, pt.CIHigh, pt.Predicted} {
+			if v, ok := val(p); ok {
+				xs.add(pt.Elapsed)
+				addY(v)
+			}
+		}
+	}
+	tw := tripWindowFor(d, "second_moment")
+	if tw != nil {
+		for _, pt := range tw.Points {
+			if pt.Value > 0 && !math.IsInf(pt.Value, 0) {
+				addY(pt.Value)
+			}
+		}
+		if tw.Bound > 0 {
+			addY(tw.Bound)
+		}
+		if d.Trip != nil && d.Trip.Value > 0 && d.Trip.Reason == "second_moment" {
+			addY(d.Trip.Value)
+		}
+	}
+	if xs.empty() {
+		f.NoData = "no measured or predicted value in the history"
+		return f
+	}
+	if math.IsInf(minPos, 1) {
+		minPos = 0
+	}
+	ax := chooseY(ys, minPos, headroom)
 	var meas, pred segmenter
 	var bandSegs [][2]plotter.XYs
 	var lo, hi plotter.XYs
-	xs, ys := newSpan(), newSpan()
 	lone := &whiskers{line: draw.LineStyle{Color: measuredColor, Width: vg.Points(1)}}
 	flushBand := func() {
 		switch {
@@ -321,31 +588,24 @@ func secondMomentFigure(d *Data) *figure {
 	prevPhase := 0
 	for _, pt := range hist {
 		x := pt.Elapsed
-		if m, ok := val(pt.Measured); ok {
+		if m, ok := val(pt.Measured); ok && (!ax.Log || m > 0) {
 			meas.add(x, m)
-			xs.add(x)
-			ys.add(m)
 		} else {
 			meas.gap()
 		}
 		l, okl := val(pt.CILow)
 		h, okh := val(pt.CIHigh)
-		if okl && okh && l <= h {
-			lo = append(lo, plotter.XY{X: x, Y: l})
-			hi = append(hi, plotter.XY{X: x, Y: h})
-			xs.add(x)
-			ys.add(l)
-			ys.add(h)
+		if okl && okh && l <= h && h > ax.Floor {
+			lo = append(lo, plotter.XY{X: x, Y: ax.clip(l)})
+			hi = append(hi, plotter.XY{X: x, Y: ax.clip(h)})
 		} else {
 			flushBand()
 		}
-		if v, ok := val(pt.Predicted); ok {
+		if v, ok := val(pt.Predicted); ok && (!ax.Log || v > 0) {
 			if havePrev && pt.Phase != prevPhase && v != prevY {
 				pred.add(x, prevY) // step at the phase change
 			}
 			pred.add(x, v)
-			xs.add(x)
-			ys.add(v)
 			havePrev, prevY, prevPhase = true, v, pt.Phase
 		} else {
 			pred.gap()
@@ -353,11 +613,7 @@ func secondMomentFigure(d *Data) *figure {
 		}
 	}
 	flushBand()
-	if xs.empty() {
-		f.NoData = "no measured or predicted value in the history"
-		return f
-	}
-	p := newPlot(f.Title, "time since start (s)", "E[eᵀe]")
+	p := newPlot(f.Title, timeAxisLabel(d), "E[eᵀe] ((output units)²)")
 	for i, b := range bandSegs {
 		poly := make(plotter.XYs, 0, 2*len(b[0]))
 		poly = append(poly, b[1]...)
@@ -373,50 +629,58 @@ func secondMomentFigure(d *Data) *figure {
 		pg.LineStyle.Width = 0
 		p.Add(pg)
 		if i == 0 {
-			p.Legend.Add("confidence interval", pg)
+			p.Legend.Add("confidence interval of the measured E[eᵀe]", pg)
 		}
 	}
 	if len(lone.w) > 0 {
 		p.Add(lone)
 		if len(bandSegs) == 0 {
-			p.Legend.Add("confidence interval", lone)
+			p.Legend.Add("confidence interval of the measured E[eᵀe]", lone)
 		}
 	}
 	if th, err := addSegments(p, meas.done(), measuredColor, nil); err != nil {
 		f.NoData = "drawing failed: " + err.Error()
 		return f
 	} else if th != nil {
-		p.Legend.Add("measured", th)
+		p.Legend.Add("measured E[eᵀe] (the estimator's window)", th)
 	}
 	if th, err := addSegments(p, pred.done(), predictedColor, []vg.Length{vg.Points(6), vg.Points(3)}); err != nil {
 		f.NoData = "drawing failed: " + err.Error()
 		return f
 	} else if th != nil {
-		p.Legend.Add("predicted", th)
+		p.Legend.Add("predicted E[eᵀe] in force", th)
 	}
-	xlo, xhi := xs.widened()
-	ylo, yhi := ys.widened()
-	if ylo > 0 {
-		ylo = 0 // a second moment: show it from zero
+	xlo, xhi := timeRange(d, xs)
+	if tw != nil {
+		if err := addTripWindow(p, d, tw); err != nil {
+			f.NoData = "drawing failed: " + err.Error()
+			return f
+		}
+		if tw.Bound > 0 {
+			if err := addBound(p, tw.Bound, xlo, xhi, tripColor, fmt.Sprintf("trip bound max_second_moment %.4g", tw.Bound)); err != nil {
+				f.NoData = "drawing failed: " + err.Error()
+				return f
+			}
+		}
+		f.Caption += " The ochre line is the quantity the safety trip compared with its bound: the mean of eᵀe " +
+			"over the trip's own window of " + fmtWindow(tw.Seconds) + ", sampled every " + fmtWindow(tw.Every) + "."
 	}
-	yhi += 0.3 * (yhi - ylo) // room for the phase names and the legend
-	return finishTimePlot(f, p, d, hist, xlo, xhi, ylo, yhi)
+	return finishTimePlot(f, p, d, hist, xlo, xhi, ax)
 }
 
 // finishTimePlot adds the phase boundaries and the trip to a plot over
-// time, fixes its axes and legend and renders it.
-func finishTimePlot(f *figure, p *plot.Plot, d *Data, hist []Point, xlo, xhi, ylo, yhi float64) *figure {
-	if err := addBoundaries(p, boundaries(d, hist, xlo, xhi), ylo, yhi); err != nil {
+// time, fixes its axes and renders it.
+func finishTimePlot(f *figure, p *plot.Plot, d *Data, hist []Point, xlo, xhi float64, ax yAxis) *figure {
+	if err := addBoundaries(p, boundaries(d, hist, xlo, xhi), ax.Lo, ax.Hi); err != nil {
 		f.NoData = "drawing failed: " + err.Error()
 		return f
 	}
-	if err := addTrip(p, d.Trip, xlo, xhi, ylo, yhi); err != nil {
+	if err := addTrip(p, d.Trip, xlo, xhi, ax.Lo, ax.Hi); err != nil {
 		f.NoData = "drawing failed: " + err.Error()
 		return f
 	}
-	p.X.Min, p.X.Max, p.Y.Min, p.Y.Max = xlo, xhi, ylo, yhi
-	p.Legend.Top, p.Legend.Left = true, true
-	p.Legend.YOffs = -vg.Points(14)
+	p.X.Min, p.X.Max = xlo, xhi
+	ax.apply(p)
 	return finish(f, p)
 }
 
@@ -424,50 +688,85 @@ func ratioFigure(d *Data) *figure {
 	f := &figure{
 		File:  RatioName,
 		Title: "Measured over predicted",
-		Caption: "Measured E[eᵀe] divided by the predicted value over the run; " +
-			"1 (grey, dotted) means the measurement matches the prediction.",
+		Caption: "Measured E[eᵀe] over the estimator's window divided by the prediction in force (teal); " +
+			"1 (slate, dotted) means the measurement matches the prediction.",
 	}
 	hist := sortedHistory(d.History)
 	var seg segmenter
 	xs, ys := newSpan(), newSpan()
+	minPos := math.Inf(1)
+	addY := func(v float64) {
+		ys.add(v)
+		if v > 0 {
+			minPos = math.Min(minPos, v)
+		}
+	}
 	for _, pt := range hist {
 		if r, ok := ratio(pt.Measured, pt.Predicted); ok {
-			seg.add(pt.Elapsed, r)
 			xs.add(pt.Elapsed)
-			ys.add(r)
-		} else {
-			seg.gap()
+			addY(r)
+		}
+	}
+	tw := tripWindowFor(d, "ratio")
+	if tw != nil {
+		for _, pt := range tw.Points {
+			if pt.Value > 0 && !math.IsInf(pt.Value, 0) {
+				xs.add(pt.Elapsed)
+				addY(pt.Value)
+			}
+		}
+		if tw.Bound > 0 {
+			addY(tw.Bound)
+		}
+		if d.Trip != nil && d.Trip.Value > 0 && d.Trip.Reason == "ratio" {
+			addY(d.Trip.Value)
 		}
 	}
 	if xs.empty() {
 		f.NoData = "no point has both a measured and a non-zero predicted value"
 		return f
 	}
-	ys.add(1)
-	p := newPlot(f.Title, "time since start (s)", "measured / predicted")
-	xlo, xhi := xs.widened()
-	ylo, yhi := ys.widened()
-	if ylo > 0 {
-		ylo = 0
+	addY(1)
+	if math.IsInf(minPos, 1) {
+		minPos = 0
 	}
-	yhi += 0.3 * (yhi - ylo)
-	ref, err := plotter.NewLine(plotter.XYs{{X: xlo, Y: 1}, {X: xhi, Y: 1}})
-	if err != nil {
+	ax := chooseY(ys, minPos, headroom)
+	for _, pt := range hist {
+		if r, ok := ratio(pt.Measured, pt.Predicted); ok && (!ax.Log || r > 0) {
+			seg.add(pt.Elapsed, r)
+		} else {
+			seg.gap()
+		}
+	}
+	p := newPlot(f.Title, timeAxisLabel(d), "measured / predicted")
+	xlo, xhi := timeRange(d, xs)
+	if err := addBound(p, 1, xlo, xhi, boundaryColor, "1 (as predicted)"); err != nil {
 		f.NoData = "drawing failed: " + err.Error()
 		return f
 	}
-	ref.Color = boundaryColor
-	ref.Width = vg.Points(1.2)
-	ref.Dashes = []vg.Length{vg.Points(2), vg.Points(2)}
-	p.Add(ref)
-	p.Legend.Add("1 (as predicted)", ref)
 	if th, err := addSegments(p, seg.done(), measuredColor, nil); err != nil {
 		f.NoData = "drawing failed: " + err.Error()
 		return f
 	} else if th != nil {
-		p.Legend.Add("measured / predicted", th)
+		p.Legend.Add("measured / predicted (the estimator's window)", th)
 	}
-	return finishTimePlot(f, p, d, hist, xlo, xhi, ylo, yhi)
+	if tw != nil {
+		if err := addTripWindow(p, d, tw); err != nil {
+			f.NoData = "drawing failed: " + err.Error()
+			return f
+		}
+		if tw.Bound > 0 {
+			if err := addBound(p, tw.Bound, xlo, xhi, tripColor, fmt.Sprintf("trip bound max_ratio %.4g", tw.Bound)); err != nil {
+				f.NoData = "drawing failed: " + err.Error()
+				return f
+			}
+		}
+		f.Caption += " The ochre line is the very ratio the safety trip compared with its bound (brick, dotted): " +
+			"the mean of eᵀe over the trip's own window of " + fmtWindow(tw.Seconds) + " over the prediction in force, " +
+			"sampled every " + fmtWindow(tw.Every) + "; it moves far faster than the estimator's window, so it can " +
+			"cross the bound while the teal ratio stays low. The marker is the value that fired the trip."
+	}
+	return finishTimePlot(f, p, d, hist, xlo, xhi, ax)
 }
 
 // rects is a plotter of filled rectangles in data coordinates.
@@ -545,68 +844,76 @@ func phasesFigure(d *Data) *figure {
 	f := &figure{
 		File:  PhasesName,
 		Title: "Per-phase E[eᵀe]",
-		Caption: "For each phase: measured E[eᵀe] (blue, whiskers: confidence interval) beside the " +
-			"prediction (orange); the label below gives the phase's verdict.",
+		Caption: "For each phase (numbered as in the table): measured E[eᵀe] (teal, whiskers: its confidence " +
+			"interval, clipped at the axis's floor) beside the prediction (brick red); the phase's verdict is " +
+			"written above its bars. The axis turns logarithmic when the values span decades.",
 	}
 	if len(d.Phases) == 0 {
 		f.NoData = "no phases"
 		return f
 	}
-	meas, pred := newRects(measuredColor), newRects(predictedColor)
-	wh := &whiskers{line: draw.LineStyle{Color: color.Black, Width: vg.Points(1)}}
 	ys := newSpan()
-	ys.add(0)
-	names := make([]string, len(d.Phases))
+	minPos := math.Inf(1)
+	addY := func(v float64) {
+		ys.add(v)
+		if v > 0 {
+			minPos = math.Min(minPos, v)
+		}
+	}
 	any := false
-	for i, ph := range d.Phases {
-		x := float64(i)
-		name := ph.Name
-		if name == "" {
-			name = fmt.Sprintf("phase %d", ph.Index)
-		}
-		v := strings.ToUpper(phaseVerdict(ph.Verdict))
-		if v == "" {
-			v = "NO VERDICT"
-		}
-		names[i] = shorten(name, 16) + "\n" + v
-		if m, ok := val(ph.Measured); ok {
-			meas.add(x-0.36, x-0.02, 0, m)
-			ys.add(m)
-			any = true
-		}
-		l, okl := val(ph.CILow)
-		h, okh := val(ph.CIHigh)
-		if okl && okh && l <= h {
-			wh.w = append(wh.w, [3]float64{x - 0.19, l, h})
-			ys.add(l)
-			ys.add(h)
-			any = true
-		}
-		if pv, ok := val(ph.Predicted); ok {
-			pred.add(x+0.02, x+0.36, 0, pv)
-			ys.add(pv)
-			any = true
+	for _, ph := range d.Phases {
+		for _, p := range []*float64{ph.Measured, ph.CILow, ph.CIHigh, ph.Predicted} {
+			if v, ok := val(p); ok {
+				addY(v)
+				any = true
+			}
 		}
 	}
 	if !any {
 		f.NoData = "no phase has a measured or predicted value"
 		return f
 	}
-	p := newPlot(f.Title, "", "E[eᵀe]")
-	p.Add(meas, pred, wh)
-	p.Legend.Add("measured", meas)
-	p.Legend.Add("confidence interval", wh)
-	p.Legend.Add("predicted", pred)
-	p.NominalX(names...)
-	if len(d.Phases) > 6 { // slant the names so they do not run into each other
-		p.X.Tick.Label.Rotation = math.Pi / 6
-		p.X.Tick.Label.XAlign = draw.XRight
-		p.X.Tick.Label.YAlign = draw.YTop
+	ys.add(0)
+	if math.IsInf(minPos, 1) {
+		minPos = 0
 	}
-	p.X.Min, p.X.Max = -0.6, float64(len(d.Phases))-0.4
-	ylo, yhi := ys.widened()
-	p.Y.Min, p.Y.Max = ylo, yhi+0.25*(yhi-ylo)
-	p.Legend.Top = true
+	ax := chooseY(ys, minPos, 0.15)
+	meas, pred := newRects(measuredColor), newRects(predictedColor)
+	wh := &whiskers{line: draw.LineStyle{Color: color.Black, Width: vg.Points(1)}}
+	names := make([]string, len(d.Phases))
+	st := newStagger(2)
+	st.style.Color = color.Black
+	for i, ph := range d.Phases {
+		x := float64(i)
+		name := ph.Name
+		if name == "" {
+			name = fmt.Sprintf("phase %d", ph.Index+1)
+		}
+		names[i] = fmt.Sprintf("%d %s", i+1, shorten(name, 16))
+		v := strings.ToUpper(phaseVerdict(ph.Verdict))
+		if v == "" {
+			v = "NO VERDICT"
+		}
+		st.items = append(st.items, staggerItem{x: x - 0.4, text: v, short: shorten(v, 4)})
+		if m, ok := val(ph.Measured); ok && m > ax.Floor {
+			meas.add(x-0.36, x-0.02, ax.Floor, m)
+		}
+		l, okl := val(ph.CILow)
+		h, okh := val(ph.CIHigh)
+		if okl && okh && l <= h && h > ax.Floor {
+			wh.w = append(wh.w, [3]float64{x - 0.19, ax.clip(l), ax.clip(h)})
+		}
+		if pv, ok := val(ph.Predicted); ok && pv > ax.Floor {
+			pred.add(x+0.02, x+0.36, ax.Floor, pv)
+		}
+	}
+	p := newPlot(f.Title, "phase", "E[eᵀe] ((output units)²)")
+	p.Add(meas, pred, wh, st)
+	p.Legend.Add("measured E[eᵀe]", meas)
+	p.Legend.Add("its confidence interval", wh)
+	p.Legend.Add("predicted E[eᵀe]", pred)
+	FitCategoryLabels(p, names, plotWidth-3*vg.Centimeter)
+	ax.apply(p)
 	return finish(f, p)
 }
 
@@ -679,7 +986,18 @@ func buckets(h Histogram, scale float64) (bs []bucket, total float64, note strin
 	return bs, total, note, ""
 }
 
-func delayFigure(direction string, h Histogram) *figure {
+// histTotal is the sum of a histogram's counts (0 when it cannot be read).
+func histTotal(h Histogram) float64 {
+	t := 0.0
+	for _, c := range h.Counts {
+		if c > 0 && !math.IsInf(c, 0) {
+			t += c
+		}
+	}
+	return t
+}
+
+func delayFigure(direction string, h Histogram, after Histogram, afterWhy string) *figure {
 	f := &figure{
 		File:  DelayName(direction),
 		Title: "Drawn delays, " + direction,
@@ -687,16 +1005,31 @@ func delayFigure(direction string, h Histogram) *figure {
 	bs, total, note, reason := buckets(h, 1000)
 	if reason != "" {
 		f.NoData = reason
+		if n := histTotal(after); n > 0 {
+			f.NoData += fmt.Sprintf(" (%.0f datagrams relayed after the safety trip are not drawn delays and are not counted here%s)", n, afterWhy)
+		}
 		return f
 	}
-	f.Caption = fmt.Sprintf("%sHow many of the %.0f delays drawn for %s fell in each bucket; "+
-		"buckets are labelled in milliseconds (the run records seconds) and drawn equally wide "+
-		"whatever their width.", note, total, direction)
-	p := newPlot(f.Title, "delay bucket (ms)", "draws")
+	// Show the buckets that hold delays, with one empty bucket either side.
+	first, last := 0, len(bs)-1
+	for first < last && bs[first].count == 0 {
+		first++
+	}
+	for last > first && bs[last].count == 0 {
+		last--
+	}
+	first, last = max(first-1, 0), min(last+1, len(bs)-1)
+	shown := bs[first : last+1]
+	f.Caption = fmt.Sprintf("%sHow many of the %.0f delays the relay drew for %s during the phases fell in each "+
+		"bucket; each bar is labelled by its bucket's upper bound in milliseconds (the run records seconds) and "+
+		"drawn equally wide whatever its width.", note, total, direction)
+	if first > 0 || last < len(bs)-1 {
+		f.Caption += fmt.Sprintf(" Buckets from %s to %s ms are shown; the others are empty.", fmtMs(shown[0].lo), fmtMs(shown[len(shown)-1].hi))
+	}
+	p := newPlot(f.Title, "delay bucket, upper bound (ms)", "datagrams")
 	in, over := newRects(measuredColor), newRects(overflowColor)
-	labels := make([]string, len(bs))
-	every := (len(bs) + 9) / 10 // at most about ten labels
-	for i, b := range bs {
+	labels := make([]string, len(shown))
+	for i, b := range shown {
 		x := float64(i)
 		if b.overflow {
 			over.add(x-0.4, x+0.4, 0, b.count)
@@ -704,34 +1037,32 @@ func delayFigure(direction string, h Histogram) *figure {
 			continue
 		}
 		in.add(x-0.4, x+0.4, 0, b.count)
-		switch {
-		case i == 0 && b.lo == 0:
+		labels[i] = fmtMs(b.hi)
+		if i == 0 && first == 0 && b.lo == 0 {
 			labels[i] = "≤ " + fmtMs(b.hi)
-		default:
-			labels[i] = fmtMs(b.lo) + "–" + fmtMs(b.hi)
-		}
-		if i%every != 0 && i != len(bs)-1 {
-			labels[i] = ""
 		}
 	}
 	if len(in.r) > 0 {
 		p.Add(in)
+		p.Legend.Add("delays drawn from the profile", in)
 	}
 	if len(over.r) > 0 {
 		p.Add(over)
-		last := bs[len(bs)-1]
+		lastB := shown[len(shown)-1]
 		p.Legend.Add("above the last bound", over)
-		f.Caption += fmt.Sprintf(" The grey bar counts the %.0f delays above %s ms.", last.count, fmtMs(last.lo))
+		f.Caption += fmt.Sprintf(" The light grey bar counts the %.0f delays above %s ms.", lastB.count, fmtMs(lastB.lo))
 	}
-	p.NominalX(labels...)
-	p.X.Min, p.X.Max = -0.6, float64(len(bs))-0.4
+	if n := histTotal(after); n > 0 {
+		f.Caption += fmt.Sprintf(" Not counted here: the %.0f datagrams relayed after the safety trip fired%s — "+
+			"their delays were not drawn from the profile.", n, afterWhy)
+	}
+	FitCategoryLabels(p, labels, plotWidth-3*vg.Centimeter)
 	p.Y.Min = 0
-	p.Y.Max = 1.15 * maxCount(bs)
-	p.Legend.Top = true
+	p.Y.Max = 1.15 * maxCount(shown)
 	return finish(f, p)
 }
 
-func fmtMs(v float64) string { return strconv.FormatFloat(v, 'g', 4, 64) }
+func fmtMs(v float64) string { return strconv.FormatFloat(v, 'g', 3, 64) }
 
 func maxCount(bs []bucket) float64 {
 	m := 0.0
@@ -837,15 +1168,13 @@ func lossRunsFigure(d *Data) *figure {
 		p.Add(r)
 		p.Legend.Add(s.dir, r)
 	}
-	p.NominalX(labels...)
-	p.X.Min, p.X.Max = -0.6, float64(len(ups))-0.4
+	FitCategoryLabels(p, labels, plotWidth-3*vg.Centimeter)
 	p.Y.Min = 0
 	ymax := 1.0
 	for _, s := range ss {
 		ymax = math.Max(ymax, maxCount(s.bs))
 	}
 	p.Y.Max = 1.15 * ymax
-	p.Legend.Top = true
 	f.Caption = "Number of runs of consecutive lost datagrams by run length, one colour per direction; " +
 		"each bar is a bucket labelled by the run lengths it holds."
 	if !same {

@@ -15,6 +15,8 @@ import (
 	"sort"
 	"strings"
 	"time"
+
+	"gonum.org/v1/plot"
 )
 
 // Data is everything one soak report shows.
@@ -32,6 +34,43 @@ type Data struct {
 	Delays   map[string]Histogram // by direction: drawn delays, seconds
 	LossRuns map[string]Histogram // by direction: lengths of runs of consecutive losses
 	Trip     *Trip                // nil when no trip
+
+	// Provenance says what ran, from what, when: nil leaves the section
+	// out (a report without provenance cannot be filed; the soak always
+	// gives one).
+	Provenance *Provenance
+	// TimeScale is the factor the scenario's durations were multiplied
+	// by (--time-scale); 0 is read as 1. Scenario time = wall time ÷
+	// TimeScale.
+	TimeScale float64
+	// DelaysAfterTrip are the delays the relay recorded after the safety
+	// trip fired (by direction, as Delays): not drawn from the profile
+	// (clean sends at once), so they are kept out of Delays and counted
+	// apart.
+	DelaysAfterTrip map[string]Histogram
+	// TripWindow is the quantity the trip compared with its bound, over
+	// the trip's own window, sampled over the run; nil when the trip
+	// judges no windowed bound.
+	TripWindow *TripWindow
+}
+
+// TripWindow is the safety trip's windowed quantity over the run.
+type TripWindow struct {
+	// Quantity is "ratio" (windowed mean of eᵀe over the prediction in
+	// force, judged against max_ratio) or "second_moment" (the windowed
+	// mean of eᵀe, against max_second_moment).
+	Quantity string
+	Seconds  float64 // the trip's window
+	Bound    float64 // the bound it is judged against; 0: none
+	// Every is the spacing of the samples in seconds (wall time).
+	Every  float64
+	Points []TripPoint
+}
+
+// TripPoint is one sample of the trip's windowed quantity.
+type TripPoint struct {
+	Elapsed float64 // seconds from start, as Point.Elapsed
+	Value   float64
 }
 
 // Phase is one phase's outcome. Nil pointers mean "no value".
@@ -49,6 +88,55 @@ type Phase struct {
 	// Note is said beside the verdict: cut short by the trip, a
 	// prediction outside the measured interval of a bound-only check.
 	Note string
+
+	// ScenarioStart and ScenarioEnd are the phase's planned span in
+	// scenario time (seconds from the scenario's start, before
+	// --time-scale); NaN when unknown.
+	ScenarioStart, ScenarioEnd float64
+	// Network is what the relay applied in the phase; nil: unknown.
+	Network *PhaseNetwork
+}
+
+// PhaseNetwork is one phase's network: the profile parameters in force,
+// the profile the prediction used, and what the relay measured.
+type PhaseNetwork struct {
+	// Source says where the relay's profile came from: its file and the
+	// phase's overrides ("warehouse-wifi.yaml with the phase's set and
+	// ramp").
+	Source string
+	// Settings are the profile's parameters per direction, in order
+	// (sensor_to_controller first); a ramp shows its start and end.
+	Settings []DirectionText
+	// PredictedWith says which profile the phase's prediction used: the
+	// relayed one, or another belief (predict_with), then described.
+	PredictedWith string
+	// PredictSettings are the prediction's profile per direction when it
+	// differs from the relayed one; nil otherwise.
+	PredictSettings []DirectionText
+	// Measured is what the relay counted in the phase, per direction.
+	Measured []DirectionMeasure
+}
+
+// DirectionText is a text about one direction.
+type DirectionText struct {
+	Direction string
+	Text      string
+}
+
+// DirectionMeasure is what the relay counted in one direction over a
+// phase (up to the trip when the trip cut it).
+type DirectionMeasure struct {
+	Direction string
+	// Datagrams read in the direction; Dropped of them by the profile's
+	// loss; Other ended otherwise than forwarded or dropped (overflow,
+	// stranger, tripped, …).
+	Datagrams, Dropped, Other int64
+	// Delays drawn and their sum in seconds (mean = DelaySum/Delays).
+	Delays   int64
+	DelaySum float64
+	// DelayMedian is the median drawn delay, read off the histogram's
+	// buckets (linear within the bucket); NaN when unknown.
+	DelayMedian float64
 }
 
 // Point is one sample of the online estimate. Nil pointers mean "no value".
@@ -112,7 +200,8 @@ type figure struct {
 	Title   string
 	Caption string
 	png     []byte
-	NoData  string // non-empty: why the plot was skipped
+	plot    *plot.Plot // the plot drawn (for the SVG the tests read)
+	NoData  string     // non-empty: why the plot was skipped
 }
 
 // Write creates dir if needed and writes dir/report.html and one PNG per plot
@@ -187,8 +276,12 @@ func buildFigures(d *Data) []*figure {
 		ratioFigure(d),
 		phasesFigure(d),
 	}
+	afterWhy := ""
+	if d.Trip != nil && d.Trip.Action != "" {
+		afterWhy = " (action " + d.Trip.Action + ")"
+	}
 	for _, dir := range sortedKeys(d.Delays) {
-		figs = append(figs, delayFigure(dir, d.Delays[dir]))
+		figs = append(figs, delayFigure(dir, d.Delays[dir], d.DelaysAfterTrip[dir], afterWhy))
 	}
 	if len(d.Delays) == 0 {
 		figs = append(figs, &figure{Title: "Drawn delays", NoData: "no delay histogram was recorded"})

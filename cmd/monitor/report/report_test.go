@@ -433,7 +433,7 @@ func TestInconclusiveAndNotRun(t *testing.T) {
 	}
 	c := checkReport(t, dir, paths)
 	for _, s := range []string{"INCONCLUSIVE", "exit code 5", "only 300 judged samples, want ≥ 400", "cut by trip (12 after it)",
-		"not run", "not run: the soak ended before it", "— – —", "prediction outside interval"} {
+		"not run", "not run: the soak ended before it", "prediction outside interval"} {
 		if !strings.Contains(c.text, s) {
 			t.Errorf("report text lacks %q", s)
 		}
