@@ -93,6 +93,7 @@ func cmdSoak(args []string, stdout, stderr io.Writer) error {
 	if err != nil {
 		return badInput(err)
 	}
+	written := sc // as the file says, for the report's scenario times
 	if *timeScale != 1 {
 		sc = sc.Scale(*timeScale)
 	}
@@ -129,12 +130,16 @@ func cmdSoak(args []string, stdout, stderr io.Writer) error {
 	if err != nil {
 		return err
 	}
+	// The report's per-phase counts: the relay's counters at each phase
+	// start, at the trip and at the end, and the trip's own window.
+	rec := newSoakRecorder(b)
 	benchDone := make(chan error, 1)
 	go func() { benchDone <- b.run(relayCtx, stderr, 0) }()
 
 	onStep := func(st profiles.ScenarioStep) {
 		ph := sc.Phases[st.Phase]
 		if st.Frac == 0 {
+			rec.phaseStart(st.Phase)
 			b.mon.StartPhase(st.Phase, ph.Name, preds[st.Predict], ph.Settle, ph.Check)
 			log.Info("phase", "index", st.Phase+1, "of", len(sc.Phases), "name", ph.Name, "duration", ph.Duration.String())
 			return
@@ -151,6 +156,8 @@ func cmdSoak(args []string, stdout, stderr io.Writer) error {
 		defer t.Stop()
 		tick = t.C
 	}
+	twTick := time.NewTicker(tripWindowEvery)
+	defer twTick.Stop()
 	var playErr error
 	var afterTripC <-chan time.Time
 	finished := false // the scenario played to its end
@@ -161,18 +168,23 @@ wait:
 			finished = playErr == nil
 			break wait
 		case <-tripped:
+			rec.tripped()
 			tripped = nil
 			afterTripC = time.After(*afterTrip)
 		case <-afterTripC:
 			break wait
 		case <-tick:
 			fmt.Fprintln(stderr, soakProgress(sc, b.mon, time.Since(started)))
+		case <-twTick.C:
+			rec.sampleTripWindow()
 		}
 	}
 	stopRelay()
 	if err := <-benchDone; err != nil {
 		return err
 	}
+	rec.sampleTripWindow()
+	rec.finish()
 	b.mon.EndPhases(!finished)
 	s := b.mon.Summary()
 	code := s.SoakExitCode()
@@ -183,7 +195,10 @@ wait:
 			code = exitcode.Inconclusive
 		}
 	}
-	out, err := json.MarshalIndent(s, "", "  ")
+	run := &soakRun{b: b, loop: loop, written: written, played: sc, steps: steps, timeScale: *timeScale,
+		started: started, ended: time.Now(), rec: rec}
+	prov := soakProvenance(run)
+	out, err := json.MarshalIndent(soakSummary{Summary: s, Provenance: prov}, "", "  ")
 	if err != nil {
 		return err
 	}
@@ -197,7 +212,7 @@ wait:
 	}
 	soakTable(stderr, s)
 	if *reportDir != "" {
-		files, err := writeSoakReport(*reportDir, b, sc, loop, s, started, code)
+		files, err := writeSoakReport(*reportDir, run, s, prov, code)
 		if err != nil {
 			return fmt.Errorf("--report: %w", err)
 		}

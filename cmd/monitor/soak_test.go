@@ -131,7 +131,7 @@ func TestSoakTableAndReportTripped(t *testing.T) {
 
 	text := writeReport(t, s, code, "tripped")
 	for _, want := range []string{"TRIPPED", "Safety trip", "abs_error", "outage", "cut by trip (12 after it); prediction outside interval",
-		"judged on its 41 samples before the trip", "recovery", "not run", `ended the soak in phase "outage"`, "— – —"} {
+		"judged on its 41 samples before the trip", "recovery", "not run", `ended the soak in phase "outage"`} {
 		if !strings.Contains(text, want) {
 			t.Errorf("report lacks %q", want)
 		}
