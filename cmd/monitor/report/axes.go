@@ -139,7 +139,7 @@ func FitCategoryLabels(p *plot.Plot, labels []string, dataWidth vg.Length) int {
 	sty := p.X.Tick.Label
 	widest := vg.Length(0)
 	for _, l := range labels {
-		widest = max(widest, sty.Width(l))
+		widest = max(widest, textWidth(sty, l))
 	}
 	slot := dataWidth / vg.Length(n)
 	height := sty.Height("0")

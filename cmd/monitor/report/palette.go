@@ -22,6 +22,8 @@ var (
 	Slate = color.NRGBA{R: 0x4e, G: 0x5a, B: 0x66, A: 0xff}
 	// Plum: a fifth series.
 	Plum = color.NRGBA{R: 0x6b, G: 0x3f, B: 0x6e, A: 0xff}
+	// Ink: near-black for whiskers and outlines drawn over the series.
+	Ink = color.NRGBA{R: 0x1c, G: 0x23, B: 0x29, A: 0xff}
 	// Mist: a light grey for bars that lie outside the drawn range.
 	Mist = color.NRGBA{R: 0xa9, G: 0xb1, B: 0xb8, A: 0xff}
 )

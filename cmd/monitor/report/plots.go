@@ -8,6 +8,7 @@ import (
 	"sort"
 	"strconv"
 	"strings"
+	"unicode/utf8"
 
 	"gonum.org/v1/plot"
 	"gonum.org/v1/plot/plotter"
@@ -171,8 +172,11 @@ func chooseY(s span, minPos float64, headroom float64) yAxis {
 		h *= math.Pow(h/l, headroom/(1-headroom))
 		return yAxis{Log: true, Lo: l, Hi: h, Floor: l, DataHi: hi, headroom: headroom}
 	}
-	if lo > 0 {
-		lo = 0 // a second moment or a ratio: from zero
+	// A second moment or a ratio: from zero; an interval's end below
+	// zero (it cannot be, the interval is positive) is clipped there.
+	lo = 0
+	if !(hi > lo) {
+		hi = 1
 	}
 	h := hi + (hi-lo)*headroom/(1-headroom)
 	return yAxis{Lo: lo, Hi: h, Floor: lo, DataHi: hi, headroom: headroom}
@@ -353,7 +357,7 @@ func (s *stagger) Plot(c draw.Canvas, p *plot.Plot) {
 		x := trX(it.x) + vg.Points(2)
 		placed := false
 		for _, txt := range []string{it.text, it.short} {
-			w := s.style.Width(txt)
+			w := textWidth(s.style, txt)
 			for r := 0; r < s.rows && !placed; r++ {
 				if x >= end[r]+gap && x+w <= c.Max.X {
 					c.FillText(s.style, vg.Point{X: x, Y: c.Max.Y - vg.Length(r+1)*lineH}, txt)
@@ -369,6 +373,14 @@ func (s *stagger) Plot(c draw.Canvas, p *plot.Plot) {
 			s.dropped++
 		}
 	}
+}
+
+// textWidth is a text's width, never less than half an em per character:
+// room for wider glyphs than the measured font's, should the viewer
+// substitute another.
+func textWidth(sty text.Style, txt string) vg.Length {
+	est := vg.Length(0.5*float64(utf8.RuneCountInString(txt))) * sty.Font.Size
+	return max(sty.Width(txt), est)
 }
 
 // addBoundaries draws dashed vertical lines from ylo to yhi and the phase
@@ -879,7 +891,7 @@ func phasesFigure(d *Data) *figure {
 	}
 	ax := chooseY(ys, minPos, 0.15)
 	meas, pred := newRects(measuredColor), newRects(predictedColor)
-	wh := &whiskers{line: draw.LineStyle{Color: color.Black, Width: vg.Points(1)}}
+	wh := &whiskers{line: draw.LineStyle{Color: Ink, Width: vg.Points(1)}}
 	names := make([]string, len(d.Phases))
 	st := newStagger(2)
 	st.style.Color = color.Black

@@ -2,7 +2,10 @@ package report
 
 import (
 	"bytes"
+	"crypto/sha256"
 	"encoding/base64"
+	"encoding/hex"
+	"fmt"
 	"image/png"
 	"math"
 	"math/rand/v2"
@@ -443,5 +446,232 @@ func TestInconclusiveAndNotRun(t *testing.T) {
 	}
 	if !strings.Contains(c.html, `class="inconclusive"`) || !strings.Contains(c.html, `class="notrun"`) {
 		t.Errorf("rows lack their verdict classes")
+	}
+}
+
+// conveyorInputs are small inputs of our own (a conveyor's loop, its
+// profile and a two-phase scenario) for the provenance checks.
+var conveyorInputs = []struct{ role, path, text string }{
+	{"loop", "loops/conveyor.yaml", "period: 10ms\nplant: {a: [[-2.5]], b: [[5]], c: [[1]]}\n"},
+	{"scenario", "scenarios/conveyor.yaml", "name: conveyor\nprofile: wifi.yaml\nphases:\n  - {name: nominal, duration: 3m}\n"},
+	{"scenario's base profile", "profiles/wifi.yaml", "sensor_to_controller: {loss: 0.02, delay: {kind: constant, value: 4ms}}\n"},
+}
+
+func provenanceSoak() *Data {
+	d := pumpSoak(120)
+	d.TimeScale = 0.3
+	pv := &Provenance{Version: "v0.9.1", Revision: "0123456789abcdef0123456789abcdef01234567", Modified: true,
+		Go: "go1.26.0", CommandLine: []string{"monitor", "soak", "--loop", "loops/conveyor.yaml", "--time-scale", "0.3", "--report", "out dir"},
+		WorkDir: "/lab/conveyor", TimeScale: 0.3, Seed: 42,
+		Started: time.Date(2026, 12, 2, 9, 0, 0, 0, time.UTC), Ended: time.Date(2026, 12, 2, 9, 1, 30, 500e6, time.UTC)}
+	for _, in := range conveyorInputs {
+		pv.Inputs = append(pv.Inputs, InputFromBytes(in.role, in.path, []byte(in.text)))
+	}
+	pv.Inputs = append(pv.Inputs, Input{Role: "profile of phase outage", Path: "gone.yaml", Err: "reading gone.yaml for the report: no such file"})
+	d.Provenance = pv
+	// Scenario times: 3 min, 3 min, 1 min; at scale 0.3 the phases ran 54 s, 54 s, 18 s.
+	spans := [][2]float64{{0, 180}, {180, 360}, {360, 420}}
+	for i := range d.Phases {
+		d.Phases[i].ScenarioStart, d.Phases[i].ScenarioEnd = spans[i][0], spans[i][1]
+		d.Phases[i].Start, d.Phases[i].End = spans[i][0]*0.3, spans[i][1]*0.3
+	}
+	d.Phases[0].Network = &PhaseNetwork{Source: "profiles/wifi.yaml", PredictedWith: "the profile the relay applied",
+		Settings: []DirectionText{{"sensor_to_controller", "loss 0.02, delay constant 4ms"}, {"controller_to_actuator", "loss 0, delay constant 0"}},
+		Measured: []DirectionMeasure{{Direction: "sensor_to_controller", Datagrams: 5400, Dropped: 108, Delays: 5292, DelaySum: 5292 * 0.004, DelayMedian: 0.004},
+			{Direction: "controller_to_actuator", Datagrams: 5292, Delays: 5292, DelayMedian: math.NaN()}}}
+	d.Phases[1].Network = &PhaseNetwork{Source: "profiles/wifi.yaml with set {sensor_to_controller.loss: 0.3}",
+		PredictedWith: "another belief: the relayed profile with the phase's predict_with {sensor_to_controller.loss: 0}",
+		Settings:        []DirectionText{{"sensor_to_controller", "loss 0.3, delay constant 4ms"}},
+		PredictSettings: []DirectionText{{"sensor_to_controller", "loss 0, delay constant 4ms"}}}
+	d.Phases[2] = Phase{Index: 2, Name: "outage", Start: math.NaN(), End: math.NaN(), ScenarioStart: 360, ScenarioEnd: 420,
+		Verdict: "not_run", Reason: "not run: the soak ended before it",
+		Network: &PhaseNetwork{Source: "profiles/wifi.yaml with set {sensor_to_controller.loss: 0.6}",
+			Settings: []DirectionText{{"sensor_to_controller", "loss 0.6, delay constant 4ms"}}}}
+	return d
+}
+
+// elementText is the text inside the element with the given id.
+func elementText(t *testing.T, page, id string) string {
+	t.Helper()
+	doc, err := html.Parse(strings.NewReader(page))
+	if err != nil {
+		t.Fatal(err)
+	}
+	var found *html.Node
+	var walk func(n *html.Node)
+	walk = func(n *html.Node) {
+		for _, a := range n.Attr {
+			if a.Key == "id" && a.Val == id {
+				found = n
+			}
+		}
+		for c := n.FirstChild; c != nil && found == nil; c = c.NextSibling {
+			walk(c)
+		}
+	}
+	walk(doc)
+	if found == nil {
+		t.Fatalf("no element with id %q", id)
+	}
+	var b strings.Builder
+	var text func(n *html.Node)
+	text = func(n *html.Node) {
+		if n.Type == html.TextNode {
+			b.WriteString(n.Data)
+		}
+		for c := n.FirstChild; c != nil; c = c.NextSibling {
+			text(c)
+		}
+	}
+	text(found)
+	return b.String()
+}
+
+// The report says what ran, from what and when, in an element a script
+// can find (id="provenance", one id per field), each input embedded and
+// hashed; the phases give scenario and wall time; a phase not run says so;
+// each phase lists the network in force and what the relay measured.
+func TestProvenanceAndPhaseTimes(t *testing.T) {
+	dir := t.TempDir()
+	paths, err := Write(dir, provenanceSoak())
+	if err != nil {
+		t.Fatal(err)
+	}
+	c := checkReport(t, dir, paths)
+	fields := []struct{ id, want string }{
+		{"prov-version", "v0.9.1"},
+		{"prov-revision", "0123456789abcdef0123456789abcdef01234567"},
+		{"prov-modified", "yes"},
+		{"prov-command-line", "monitor soak --loop loops/conveyor.yaml --time-scale 0.3 --report 'out dir'"},
+		{"prov-time-scale", "0.3"},
+		{"prov-started", "2026-12-02 09:00:00.000 UTC"},
+		{"prov-ended", "2026-12-02 09:01:30.500 UTC (1m30.5s after the start)"},
+		{"prov-seed", "42"},
+		{"prov-work-dir", "/lab/conveyor"},
+	}
+	for _, f := range fields {
+		if got := elementText(t, c.html, f.id); !strings.Contains(got, f.want) {
+			t.Errorf("#%s = %q, want it to contain %q", f.id, got, f.want)
+		}
+	}
+	for i, in := range conveyorInputs {
+		// SHA-256 computed here from the text, independently of the report.
+		sum := sha256.Sum256([]byte(in.text))
+		want := hex.EncodeToString(sum[:])
+		id := fmt.Sprintf("input-%d", i+1)
+		row := elementText(t, c.html, id)
+		if !strings.Contains(row, want) || !strings.Contains(row, in.path) || !strings.Contains(row, in.role) {
+			t.Errorf("#%s = %q, want role %q, path %q and SHA-256 %s", id, row, in.role, in.path, want)
+		}
+		if got := elementText(t, c.html, id+"-text"); !strings.Contains(got, in.text) {
+			t.Errorf("#%s-text = %q, want the file's text embedded", id, got)
+		}
+	}
+	if !strings.Contains(c.html, `<details class="input-text"`) {
+		t.Errorf("inputs not in collapsible details")
+	}
+	if row := elementText(t, c.html, "input-4"); !strings.Contains(row, "no such file") {
+		t.Errorf("an input that could not be read back: row %q", row)
+	}
+	for _, s := range []string{
+		"scenario 0–3 min, ran 54.0 s at time scale 0.3 (0.0–54.0 s after the start)",
+		"scenario 3–6 min, ran 54.0 s at time scale 0.3 (54.0–108.0 s after the start)",
+		"scenario 6–7 min, not run",
+		"wall time (seconds since the start, as on the plots' time axes) = scenario time × 0.3",
+		// per-phase settings, the prediction's profile, the measurement
+		"loss 0.02, delay constant 4ms", "loss 0.3, delay constant 4ms", "loss 0.6, delay constant 4ms",
+		"profiles/wifi.yaml with set {sensor_to_controller.loss: 0.3}",
+		"predict_with {sensor_to_controller.loss: 0}",
+		"0.02 (108 of 5400)", "4 ms",
+	} {
+		if !strings.Contains(c.text, s) {
+			t.Errorf("report text lacks %q", s)
+		}
+	}
+	net := elementText(t, c.html, "network")
+	if !strings.Contains(net, "prediction used: loss 0, delay constant 4ms") {
+		t.Errorf("the phase with predict_with does not show the prediction's profile: %q", net)
+	}
+	if i := strings.Index(net, "outage"); i < 0 || strings.Contains(net[i:], "5400") {
+		t.Errorf("the phase not run shows measurements: %q", net)
+	}
+}
+
+// The phase spans read as a lab lead reads a scenario.
+func TestPhaseSpans(t *testing.T) {
+	nan := math.NaN()
+	cases := []struct {
+		name  string
+		ph    Phase
+		scale float64
+		want  string
+	}{
+		{"scaled", Phase{ScenarioStart: 0, ScenarioEnd: 180, Start: 0, End: 54}, 0.3, "scenario 0–3 min, ran 54.0 s at time scale 0.3 (0.0–54.0 s after the start)"},
+		{"real time", Phase{ScenarioStart: 180, ScenarioEnd: 210, Start: 180, End: 210}, 1, "scenario 3 min – 3 min 30 s, ran 30.0 s (180.0–210.0 s after the start)"},
+		{"seconds", Phase{ScenarioStart: 0, ScenarioEnd: 20, Start: 0.1, End: 2.1}, 0.1, "scenario 0–20 s, ran 2.0 s at time scale 0.1 (0.1–2.1 s after the start)"},
+		{"cut by the trip", Phase{ScenarioStart: 0, ScenarioEnd: 180, Start: 0, End: 12}, 0.3, "scenario 0–3 min, ran 12.0 s at time scale 0.3 of the 54.0 s planned (0.0–12.0 s after the start)"},
+		{"not run", Phase{ScenarioStart: 180, ScenarioEnd: 240, Start: nan, End: nan, Verdict: "not_run"}, 0.3, "scenario 3–4 min, not run"},
+	}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			if _, _, got := phaseSpans(c.ph, c.scale); got != c.want {
+				t.Errorf("span %q, want %q", got, c.want)
+			}
+		})
+	}
+}
+
+// The plots use our palette, not a plotting library's default cycle: no Go
+// file of the repository names its first colours. The codes are built
+// from parts so that this file does not hold them either.
+func TestPaletteIsOurs(t *testing.T) {
+	var banned []string
+	for _, parts := range [][3]string{{"1f", "77", "b4"}, {"ff", "7f", "0e"}, {"2c", "a0", "2c"}, {"94", "67", "bd"}, {"d6", "27", "28"}} {
+		banned = append(banned, "#"+parts[0]+parts[1]+parts[2])
+		banned = append(banned, fmt.Sprintf("r: 0x%s, g: 0x%s, b: 0x%s", parts[0], parts[1], parts[2]))
+	}
+	root, err := filepath.Abs(filepath.Join("..", "..", ".."))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if _, err := os.Stat(filepath.Join(root, "go.mod")); err != nil {
+		t.Fatalf("repository root not found at %s: %v", root, err)
+	}
+	files := 0
+	err = filepath.WalkDir(root, func(path string, d os.DirEntry, err error) error {
+		if err != nil {
+			return err
+		}
+		if d.IsDir() && (d.Name() == ".git" || d.Name() == "node_modules") {
+			return filepath.SkipDir
+		}
+		if d.IsDir() || !strings.HasSuffix(path, ".go") {
+			return nil
+		}
+		b, err := os.ReadFile(path)
+		if err != nil {
+			return err
+		}
+		files++
+		low := strings.Join(strings.Fields(strings.ToLower(string(b))), " ")
+		for _, s := range banned {
+			if strings.Contains(low, s) {
+				t.Errorf("%s: names %s, a colour of a common plotting library's default cycle", path, s)
+			}
+		}
+		return nil
+	})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if files < 50 {
+		t.Errorf("only %d Go files read under %s", files, root)
+	}
+	for _, c := range Palette {
+		for _, s := range banned {
+			if strings.EqualFold(colorHex(c), s) {
+				t.Errorf("palette colour %s is a default-cycle colour", colorHex(c))
+			}
+		}
 	}
 }
