@@ -217,7 +217,7 @@ type scenarioSources struct {
 }
 
 type phaseSource struct {
-	profile                 string // the phase's own profile file; "" none, "(inline)"
+	profile                string // the phase's own profile file; "" none, "(inline)"
 	set, ramp, predictWith string // the overrides as "{key: value, …}"
 }
 

@@ -42,7 +42,7 @@ type pageDir struct {
 
 type pageProv struct {
 	Version, Revision, Modified, Go, CommandLine, WorkDir, TimeScale, Started, Ended, Seed string
-	Inputs                                                                               []pageInput
+	Inputs                                                                                 []pageInput
 }
 
 type pageInput struct {
@@ -172,14 +172,14 @@ func buildPage(d *Data, figs []*figure) page {
 			ScenarioSpan: scen,
 			WallSpan:     wall,
 			Net:          buildNet(ph),
-			Samples:   fmt.Sprint(ph.Samples),
-			Measured:  meas,
-			Predicted: fmtNum(ph.Predicted),
-			Ratio:     r,
-			Verdict:   orDash(phaseVerdict(ph.Verdict)),
-			Class:     verdictClass(ph.Verdict),
-			Note:      ph.Note,
-			Reason:    ph.Reason,
+			Samples:      fmt.Sprint(ph.Samples),
+			Measured:     meas,
+			Predicted:    fmtNum(ph.Predicted),
+			Ratio:        r,
+			Verdict:      orDash(phaseVerdict(ph.Verdict)),
+			Class:        verdictClass(ph.Verdict),
+			Note:         ph.Note,
+			Reason:       ph.Reason,
 		})
 	}
 	pg.TimeNote = timeNote(d.scale())

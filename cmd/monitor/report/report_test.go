@@ -480,7 +480,7 @@ func provenanceSoak() *Data {
 		Measured: []DirectionMeasure{{Direction: "sensor_to_controller", Datagrams: 5400, Dropped: 108, Delays: 5292, DelaySum: 5292 * 0.004, DelayMedian: 0.004},
 			{Direction: "controller_to_actuator", Datagrams: 5292, Delays: 5292, DelayMedian: math.NaN()}}}
 	d.Phases[1].Network = &PhaseNetwork{Source: "profiles/wifi.yaml with set {sensor_to_controller.loss: 0.3}",
-		PredictedWith: "another belief: the relayed profile with the phase's predict_with {sensor_to_controller.loss: 0}",
+		PredictedWith:   "another belief: the relayed profile with the phase's predict_with {sensor_to_controller.loss: 0}",
 		Settings:        []DirectionText{{"sensor_to_controller", "loss 0.3, delay constant 4ms"}},
 		PredictSettings: []DirectionText{{"sensor_to_controller", "loss 0, delay constant 4ms"}}}
 	d.Phases[2] = Phase{Index: 2, Name: "outage", Start: math.NaN(), End: math.NaN(), ScenarioStart: 360, ScenarioEnd: 420,
