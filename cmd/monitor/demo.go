@@ -58,7 +58,7 @@ func cmdDemo(args []string, stdout, stderr io.Writer) error {
 	fs := newFlags("monitor demo", demoHead, demoExits)
 	var dur durationFlag
 	dur.s = 60
-	fs.Var(&dur, "duration", "how long the rig runs (default 60s)")
+	fs.Var(&dur, "duration", "how long the rig runs")
 	loopPath := fs.String("loop", "", "loop `FILE` to run instead of the built-in diverter demo (it needs a decode section)")
 	profilePath := fs.String("profile", "", "relay profile `FILE` (default: the loop's own profile)")
 	metrics := fs.String("metrics", "127.0.0.1:9474", "serve the relay's and the monitor's metrics on `HOST:PORT` (\"off\": none)")

@@ -11,6 +11,7 @@ import (
 	"net/netip"
 	"os"
 	"os/signal"
+	"strconv"
 	"syscall"
 
 	"rigwire/cmd/internal/exitcode"
@@ -112,7 +113,9 @@ func resolveAddrPort(s string) (netip.AddrPort, error) {
 // duration or a plain number of seconds.
 type durationFlag struct{ s float64 }
 
-func (f *durationFlag) String() string { return fmt.Sprint(f.s) }
+// String spells the value in seconds with its unit, as the help's
+// "(default 60s)" shows it once.
+func (f *durationFlag) String() string { return strconv.FormatFloat(f.s, 'g', -1, 64) + "s" }
 func (f *durationFlag) Set(s string) error {
 	v, err := profiles.ParseDuration(s)
 	if err != nil || v < 0 {

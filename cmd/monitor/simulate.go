@@ -32,7 +32,9 @@ func cmdSimulate(args []string, stdout, stderr io.Writer) error {
 	}))
 	periods := fs.Int("periods", 10000, "periods per run")
 	runs := fs.Int("runs", 20, "independent runs (the standard error is taken across them)")
-	warmup := fs.Int("warmup", -1, "periods discarded at the start of each run (default: a tenth of --periods)")
+	var warmupFlag optionalCount
+	fs.Var(&warmupFlag, "warmup", "periods discarded at the start of each run (default: a tenth of --periods)")
+	warmup := &warmupFlag.n
 	seed := fs.Uint64("seed", 1, "seed of the runs' random sources (run r uses PCG(seed, r))")
 	paths := fs.String("paths", "", "write sample paths as CSV to `FILE` (- for stdout)")
 	pathRuns := fs.Int("path-runs", 1, "number of runs whose paths --paths writes")
@@ -41,7 +43,7 @@ func cmdSimulate(args []string, stdout, stderr io.Writer) error {
 	if err != nil {
 		return err
 	}
-	if *warmup < 0 {
+	if !warmupFlag.set {
 		*warmup = *periods / 10
 	}
 	switch {
@@ -158,5 +160,28 @@ func writePaths(name string, loop *profiles.Loop, res *estimate.SimResult, stdou
 			}
 		}
 	}
+	return nil
+}
+
+// optionalCount is a count flag whose default is computed from other
+// flags: unset, the help shows only the usage's own "(default: …)".
+type optionalCount struct {
+	n   int
+	set bool
+}
+
+func (c *optionalCount) String() string {
+	if c == nil || !c.set {
+		return ""
+	}
+	return strconv.Itoa(c.n)
+}
+
+func (c *optionalCount) Set(s string) error {
+	v, err := strconv.Atoi(s)
+	if err != nil || v < 0 {
+		return fmt.Errorf("want a whole number ≥ 0, got %q", s)
+	}
+	c.n, c.set = v, true
 	return nil
 }
