@@ -80,6 +80,7 @@ func TestPredictBadInput(t *testing.T) {
 		{"bad vary", []string{"predict", "examples/conveyor.yaml", "--vary", "jitter=0:1:0.1"}, 2, `unknown parameter "jitter"`},
 		{"vary step", []string{"predict", "examples/conveyor.yaml", "--vary", "loss=0:1:0"}, 2, "step must be > 0"},
 		{"vary loss range", []string{"predict", "examples/conveyor.yaml", "--vary", "loss=0:1.5:0.1"}, 2, "loss must lie in [0, 1]"},
+		{"vary misread as start:step:stop", []string{"predict", "examples/conveyor.yaml", "--vary", "loss=0:0.01:0.3"}, 2, "step 0.3 is larger than the range 0 to 0.01; the order is START:STOP:STEP"},
 		{"plot ext", []string{"predict", "examples/conveyor.yaml", "--vary", "loss=0:0.1:0.1", "--plot", "x.gif"}, 2, "want a file ending in .svg, .png or .pdf"},
 		{"plot alone", []string{"predict", "examples/conveyor.yaml", "--plot", "x.svg"}, 2, "--plot: want --vary or --step"},
 		{"step-to", []string{"predict", "examples/conveyor.yaml", "--step", "3", "--step-to", "1,2"}, 2, "--step-to: want 1 comma-separated numbers"},

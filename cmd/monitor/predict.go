@@ -199,6 +199,9 @@ func parseVary(s string) (string, []float64, error) {
 		return "", nil, bad("loss must lie in [0, 1]")
 	case name == estimate.SweepDelayScale && !(start > 0):
 		return "", nil, bad("delay_scale must be > 0")
+	case stop > start && step > stop-start:
+		// 0:0.01:0.3 read as START:STEP:STOP would give one point.
+		return "", nil, bad(fmt.Sprintf("step %g is larger than the range %g to %g; the order is START:STOP:STEP", step, start, stop))
 	}
 	n := int(math.Floor((stop-start)/step+1e-9)) + 1
 	if n > maxSweepPoints {
