@@ -38,6 +38,12 @@ type NodeConfig struct {
 	Logger *slog.Logger
 }
 
+// NoCommandWarnAfter is how long the node sends without any command coming
+// back before it warns (once) that nothing answers: the relay is not
+// running yet, or listens elsewhere (a closed port gives no error on an
+// unconnected UDP socket).
+const NoCommandWarnAfter = 2 * time.Second
+
 // NodeStats count what the node did.
 type NodeStats struct {
 	Samples   uint64 // sample datagrams sent
@@ -85,7 +91,10 @@ type Node struct {
 	row     logRow    // the open period's log row; guarded by mu
 	applied bool      // a command has been applied in the open period; guarded by mu
 	stats   NodeStats // guarded by mu
-	y       []float64
+	// silentWarned: the node has warned that no command came back
+	// (NoCommandWarnAfter); guarded by mu.
+	silentWarned bool
+	y            []float64
 	buf     []byte
 	slog    *sampleLog
 }
@@ -256,6 +265,12 @@ func (nd *Node) catchUpLocked(now int64) {
 		nd.plant.Sample(nd.y)
 		if now-tk >= nd.hNs/4 {
 			nd.stats.Overruns++
+		}
+		if !nd.silentWarned && nd.stats.Applied+nd.stats.Late+nd.stats.Duplicate == 0 &&
+			int64(k)*nd.hNs >= int64(NoCommandWarnAfter) {
+			nd.silentWarned = true
+			nd.log.Warn("rig node: no command has come back yet: is the relay (or the controller) running and listening there? The node keeps sending and holds its input",
+				"sending_to", nd.cfg.Relay.String(), "samples_sent", nd.stats.Samples, "since", time.Duration(int64(k)*nd.hNs).String())
 		}
 		nd.buf = nd.layout.AppendSample(nd.buf[:0], uint64(k), tk, nd.y)
 		if _, err := nd.conn.WriteToUDPAddrPort(nd.buf, nd.cfg.Relay); err != nil {
