@@ -366,8 +366,8 @@ func TestMonitorRunFloodAndPromtool(t *testing.T) {
 	}
 	for _, want := range []string{
 		`rigwire_monitor_error_second_moment{window="run"}`,
-		`rigwire_monitor_error_second_moment{window="60"}`,
-		`rigwire_monitor_error_second_moment_ci_low{window="600"}`,
+		`rigwire_monitor_error_second_moment{window="1m"}`,
+		`rigwire_monitor_error_second_moment_ci_low{window="10m"}`,
 		`rigwire_monitor_error_second_moment_ci_high{window="run"}`,
 		`rigwire_monitor_predicted_error_second_moment `,
 		`rigwire_monitor_measured_to_predicted_ratio{window="run"}`,

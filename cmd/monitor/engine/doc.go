@@ -71,21 +71,26 @@
 // # Metrics
 //
 // Read from the estimators at each scrape (Feed touches none). window is
-// "run" (the whole run) or a window's length in seconds ("60", "600").
+// "run" (the whole run) or a window's length as --windows spells it
+// ("1m", "10m"). A measured value that does not exist yet (no sample, an
+// interval before its window holds two complete batches) is absent, never
+// NaN; predicted values are NaN when the prediction has none.
 //
 //	rigwire_monitor_error_second_moment{window}          measured E[eᵀe]
-//	rigwire_monitor_error_second_moment_ci_low{window}   95 % batch-means interval (log scale)
-//	rigwire_monitor_error_second_moment_ci_high{window}
+//	rigwire_monitor_error_second_moment_ci_low{window}   95 % batch-means interval (log scale);
+//	rigwire_monitor_error_second_moment_ci_high{window}  absent with fewer than 2 complete batches
+//	rigwire_monitor_error_second_moment_batches{window}  complete batches behind the interval
 //	rigwire_monitor_error_mean{window,output}            measured E[e] per output
 //	rigwire_monitor_error_std{window}                    √(E[eᵀe] − |E[e]|²)
 //	rigwire_monitor_effective_samples{window}            n·s²/(b·S_B²)
 //	rigwire_monitor_window_samples{window}               samples behind each estimate
 //	rigwire_monitor_measured_to_predicted_ratio{window}
-//	rigwire_monitor_predicted_error_second_moment        NaN when not mean-square stable
+//	rigwire_monitor_predicted_error_second_moment        the run's; NaN when not mean-square stable
+//	rigwire_monitor_predicted_error_second_moment_in_force  the running phase's (ramp step's), else the run's
 //	rigwire_monitor_predicted_mean_square_stable         0 or 1
 //	rigwire_monitor_predicted_spectral_radius
 //	rigwire_monitor_predicted_loss_margin                NaN with --no-margin
-//	rigwire_monitor_tolerance_ratio
+//	rigwire_monitor_tolerance_ratio                      in force: the running phase's check, else --tolerance
 //	rigwire_monitor_missing_samples                      gauge: never seen (gaps − late)
 //	rigwire_monitor_samples_total                        estimated (after warm-up)
 //	rigwire_monitor_datagrams_total                      received
@@ -101,6 +106,10 @@
 //	rigwire_monitor_phase{index,phase}                   1 for the running soak phase, 0 for the others
 //	rigwire_monitor_phase_error_second_moment{phase}     measured over the phase's judged samples
 //	rigwire_monitor_phase_predicted_error_second_moment{phase}  mean prediction in force (NaN unstable)
+//	rigwire_monitor_phase_error_second_moment_ci_low{phase}   the interval the phase's verdict uses (the
+//	rigwire_monitor_phase_error_second_moment_ci_high{phase}  worst case when its batches are short);
+//	                                                     absent until it has min_samples and 10 batches
+//	rigwire_monitor_phase_tolerance_ratio{phase}         the check's tolerance; absent without one
 //	rigwire_monitor_phase_passed{phase}                  1 pass, 0 fail; absent while running, inconclusive, not run
 //	rigwire_monitor_phase_inconclusive{phase}            1 inconclusive or not run, 0 pass or fail; absent while running
 //	rigwire_monitor_trip_active                          0, or 1 once the safety trip fired (latched)

@@ -3,15 +3,26 @@ package engine
 import (
 	"math"
 	"strconv"
+	"strings"
+	"time"
 
 	"github.com/prometheus/client_golang/prometheus"
 
+	"rigwire/estimate"
 	"rigwire/profiles"
 )
 
 // Metric names, all rigwire_monitor_ (base units; counters end in
 // _total). The measured values carry a window label: "run" for the whole
-// run, else the window's length in seconds ("60", "600").
+// run, else the window's length spelled as --windows spells it ("1m",
+// "10m"; windowLabel).
+//
+// A measured value that does not exist yet — no sample in a window, an
+// interval before its window holds two complete batches — is absent from
+// the scrape, never NaN: error_second_moment_batches says how many
+// batches there are. Predicted values are NaN when the prediction has
+// none (not mean-square stable, no loss margin), as their Help says,
+// beside predicted_mean_square_stable.
 const (
 	namePrefix = "rigwire_monitor_"
 )
@@ -30,26 +41,34 @@ type descs struct {
 	failures, skipped                                                  *prometheus.Desc
 	phase, phaseSecond, phasePredicted, phasePassed, tripActive, trips *prometheus.Desc
 	phaseInconclusive, afterTrip                                       *prometheus.Desc
+	batches, predictedInForce, phaseCILow, phaseCIHigh, phaseTolerance *prometheus.Desc
+	// all are the descriptors above, for Describe.
+	all []*prometheus.Desc
 }
 
 func newDescs() *descs {
+	var all []*prometheus.Desc
 	d := func(name, help string, labels ...string) *prometheus.Desc {
-		return prometheus.NewDesc(namePrefix+name, help, labels, nil)
+		desc := prometheus.NewDesc(namePrefix+name, help, labels, nil)
+		all = append(all, desc)
+		return desc
 	}
-	return &descs{
+	ds := &descs{
 		second:            d("error_second_moment", "Measured E[eᵀe] of the tracking error e = setpoint − y, by window (run: the whole run).", "window"),
-		ciLow:             d("error_second_moment_ci_low", "Lower bound of the confidence interval of the measured E[eᵀe] (batch means), by window.", "window"),
-		ciHigh:            d("error_second_moment_ci_high", "Upper bound of the confidence interval of the measured E[eᵀe] (batch means), by window.", "window"),
+		ciLow:             d("error_second_moment_ci_low", "Lower bound of the confidence interval of the measured E[eᵀe] (batch means), by window; absent with fewer than 2 complete batches (error_second_moment_batches).", "window"),
+		ciHigh:            d("error_second_moment_ci_high", "Upper bound of the confidence interval of the measured E[eᵀe] (batch means; +Inf when very wide), by window; absent with fewer than 2 complete batches.", "window"),
+		batches:           d("error_second_moment_batches", "Complete batches behind each window's interval: a window is cut into 30 batches of a thirtieth of its length, so a 10m window has its first interval (2 batches) 40 s after its first sample, a 1m window after 4 s; the run keeps 20 to 39 (10 to 19 merged). A verdict needs at least 10.", "window"),
 		mean:              d("error_mean", "Measured mean tracking error, by window and output index.", "window", "output"),
 		std:               d("error_std", "Measured sqrt(E[eᵀe] − |E[e]|²), by window.", "window"),
 		effective:         d("effective_samples", "Effective number of independent samples behind the interval, by window.", "window"),
 		windowSamples:     d("window_samples", "Samples the estimate of each window covers.", "window"),
 		ratio:             d("measured_to_predicted_ratio", "Measured over predicted E[eᵀe], by window.", "window"),
-		predicted:         d("predicted_error_second_moment", "Predicted steady E[eᵀe] (NaN when not mean-square stable)."),
+		predicted:         d("predicted_error_second_moment", "Predicted steady E[eᵀe] the run's verdict and the windows compare with (NaN when not mean-square stable)."),
+		predictedInForce:  d("predicted_error_second_moment_in_force", "Predicted steady E[eᵀe] in force now: during a soak the running phase's (the ramp step's during a ramp), else the run's (NaN when not mean-square stable)."),
 		stable:            d("predicted_mean_square_stable", "1 when the prediction says the loop is mean-square stable, else 0."),
 		radius:            d("predicted_spectral_radius", "Spectral radius of the second-moment operator (stable below 1)."),
 		margin:            d("predicted_loss_margin", "Extra loss on every packet at which mean-square stability is lost (1: none)."),
-		tolerance:         d("tolerance_ratio", "Relative widening of the interval used for the verdict."),
+		tolerance:         d("tolerance_ratio", "Relative widening of the interval by the verdict in force: the running soak phase's tolerance check, else the run's --tolerance."),
 		samples:           d("samples_total", "Samples estimated (decoded, not duplicates, after the warm-up)."),
 		datagrams:         d("datagrams_total", "Datagrams received."),
 		gaps:              d("sample_gaps_total", "Sequence numbers skipped when a higher one arrived (some may arrive late: see late_samples_total)."),
@@ -63,12 +82,17 @@ func newDescs() *descs {
 		phase:             d("phase", "1 for the running soak phase, 0 for the others.", "index", "phase"),
 		phaseSecond:       d("phase_error_second_moment", "Measured E[eᵀe] over the judged samples of each soak phase.", "phase"),
 		phasePredicted:    d("phase_predicted_error_second_moment", "Predicted E[eᵀe] of each soak phase (mean over its judged samples; NaN when unstable).", "phase"),
+		phaseCILow:        d("phase_error_second_moment_ci_low", "Lower bound of the interval a soak phase's verdict uses (batch means, or the worst case when its batches are short for the loop's correlation time); absent until the phase has its min_samples and 10 complete batches.", "phase"),
+		phaseCIHigh:       d("phase_error_second_moment_ci_high", "Upper bound of the interval a soak phase's verdict uses; absent until the phase has its min_samples and 10 complete batches.", "phase"),
+		phaseTolerance:    d("phase_tolerance_ratio", "Tolerance of a soak phase's check (the interval is widened to [lo·(1 − tol), hi·(1 + tol)]); absent for a phase whose check has none.", "phase"),
 		phasePassed:       d("phase_passed", "1 when a closed soak phase passed its check, 0 when it failed (absent while running, inconclusive or not run).", "phase"),
 		phaseInconclusive: d("phase_inconclusive", "1 when a closed soak phase could not be judged (inconclusive, or not run), 0 when it passed or failed (absent while running).", "phase"),
 		afterTrip:         d("after_trip_samples_total", "Samples decoded after the safety trip fired: counted, estimated nowhere."),
 		tripActive:        d("trip_active", "1 once the safety trip has fired (latched), else 0."),
 		trips:             d("trips_total", "Safety trips fired, by reason (0 or 1: the trip is latched).", "reason"),
 	}
+	ds.all = all
+	return ds
 }
 
 type collector struct {
@@ -76,8 +100,13 @@ type collector struct {
 	d *descs
 }
 
+// Describe sends every descriptor, also of the series a scrape may leave
+// out (phases not started yet, intervals not there yet), so that a
+// pedantic registry accepts every later scrape.
 func (c *collector) Describe(ch chan<- *prometheus.Desc) {
-	prometheus.DescribeByCollect(c, ch)
+	for _, d := range c.d.all {
+		ch <- d
+	}
 }
 
 func (c *collector) Collect(ch chan<- prometheus.Metric) {
@@ -88,29 +117,36 @@ func (c *collector) Collect(ch chan<- prometheus.Metric) {
 	counter := func(desc *prometheus.Desc, v int64, labels ...string) {
 		ch <- prometheus.MustNewConstMetric(desc, prometheus.CounterValue, float64(v), labels...)
 	}
+	// measured is gauge for a measured value: absent while it does not
+	// exist (NaN), never exported as NaN.
+	measured := func(desc *prometheus.Desc, v float64, labels ...string) {
+		if !math.IsNaN(v) {
+			gauge(desc, v, labels...)
+		}
+	}
 	pr := m.predicted()
 	m.mu.Lock()
 	defer m.mu.Unlock()
-	emit := func(label string, second, lo, hi, std, eff float64, mean []float64, n int64) {
-		gauge(d.second, second, label)
-		gauge(d.ciLow, lo, label)
-		gauge(d.ciHigh, hi, label)
-		gauge(d.std, std, label)
-		gauge(d.effective, eff, label)
-		gauge(d.windowSamples, float64(n), label)
-		gauge(d.ratio, second/pr, label)
-		for i, v := range mean {
-			gauge(d.mean, v, label, strconv.Itoa(i))
+	emit := func(label string, st estimate.OnlineStats) {
+		measured(d.second, st.SecondMoment, label)
+		measured(d.ciLow, st.CILow, label)
+		measured(d.ciHigh, st.CIHigh, label)
+		measured(d.std, st.Std, label)
+		measured(d.effective, st.EffectiveSamples, label)
+		gauge(d.windowSamples, float64(st.Samples), label)
+		gauge(d.batches, float64(st.Batches), label)
+		measured(d.ratio, st.SecondMoment/pr, label)
+		for i, v := range st.Mean {
+			measured(d.mean, v, label, strconv.Itoa(i))
 		}
 	}
 	st := m.on.Run(nil)
-	emit("run", st.SecondMoment, st.CILow, st.CIHigh, st.Std, st.EffectiveSamples, st.Mean, st.Samples)
+	emit("run", st)
 	for i, w := range m.windows {
-		ws := m.on.Window(i, nil)
-		emit(strconv.FormatFloat(w.Seconds(), 'g', -1, 64), ws.SecondMoment, ws.CILow, ws.CIHigh, ws.Std,
-			ws.EffectiveSamples, ws.Mean, ws.Samples)
+		emit(windowLabel(w), m.on.Window(i, nil))
 	}
 	gauge(d.predicted, pr)
+	gauge(d.predictedInForce, m.curPr)
 	stable, radius, margin := 0.0, math.NaN(), math.NaN()
 	if m.pred != nil {
 		if m.pred.MeanSquareStable {
@@ -121,7 +157,7 @@ func (c *collector) Collect(ch chan<- prometheus.Metric) {
 	gauge(d.stable, stable)
 	gauge(d.radius, radius)
 	gauge(d.margin, margin)
-	gauge(d.tolerance, m.opts.Tolerance)
+	gauge(d.tolerance, m.toleranceInForce())
 	counter(d.samples, st.Samples)
 	counter(d.datagrams, m.datagrams)
 	// Gaps goes down when a late sample arrives; the counter counts every
@@ -140,6 +176,10 @@ func (c *collector) Collect(ch chan<- prometheus.Metric) {
 	// Phases by name; a repeated name keeps its latest phase so that
 	// the scrape never has duplicate series.
 	results := m.phaseResults()
+	byIndex := map[int]*phase{}
+	for _, p := range m.phases {
+		byIndex[p.index] = p
+	}
 	latest := map[string]int{}
 	for i, r := range results {
 		latest[r.Name] = i
@@ -153,8 +193,17 @@ func (c *collector) Collect(ch chan<- prometheus.Metric) {
 			cur = 1
 		}
 		gauge(d.phase, cur, strconv.Itoa(r.Index), r.Name)
-		gauge(d.phaseSecond, value(r.ErrorSecondMoment), r.Name)
+		measured(d.phaseSecond, value(r.ErrorSecondMoment), r.Name)
 		gauge(d.phasePredicted, value(r.PredictedSecondMoment), r.Name)
+		if p := byIndex[r.Index]; p != nil && r.Verdict != PhaseNotRun {
+			if lo, hi, ok := p.verdictInterval(r.MinSamples); ok {
+				gauge(d.phaseCILow, lo, r.Name)
+				gauge(d.phaseCIHigh, hi, r.Name)
+			}
+		}
+		if r.Tolerance != nil {
+			gauge(d.phaseTolerance, *r.Tolerance, r.Name)
+		}
 		switch r.Verdict {
 		case PhasePass:
 			gauge(d.phasePassed, 1, r.Name)
@@ -178,6 +227,19 @@ func (c *collector) Collect(ch chan<- prometheus.Metric) {
 		}
 		counter(d.trips, n, r)
 	}
+}
+
+// windowLabel spells a window as the --windows flag does: Go's duration
+// string without its zero tails ("1m", "10m", "1h", "1m30s", "500ms").
+func windowLabel(w time.Duration) string {
+	s := w.String()
+	if t, ok := strings.CutSuffix(s, "m0s"); ok {
+		s = t + "m"
+	}
+	if t, ok := strings.CutSuffix(s, "h0m"); ok {
+		s = t + "h"
+	}
+	return s
 }
 
 // value is *v, NaN for nil.

@@ -389,3 +389,31 @@ func outsideWarning(st estimate.OnlineStats, pr float64, minSamples int) string 
 	}
 	return ""
 }
+
+// verdictInterval is the interval p's verdict uses (interval: the
+// batch-means interval, or the worst case when the batches are short) and
+// ok once the phase has the samples and complete batches a verdict needs
+// (enough with minSamples); the metrics export it only then, so that an
+// alert comparing it with the phase's prediction and tolerance says
+// above or below exactly when the phase's tolerance check does.
+// Under the monitor's lock.
+func (p *phase) verdictInterval(minSamples int) (lo, hi float64, ok bool) {
+	st := p.on.Run(nil)
+	if ok, _ := enough(st, minSamples); !ok {
+		return 0, 0, false
+	}
+	lo, hi, _ = interval(st)
+	if math.IsNaN(lo) || math.IsNaN(hi) {
+		return 0, 0, false
+	}
+	return lo, hi, true
+}
+
+// toleranceInForce is the tolerance of the verdict in force: the running
+// phase's tolerance check, else the run's. Under the monitor's lock.
+func (m *Monitor) toleranceInForce() float64 {
+	if p := m.phase; p != nil && p.check.Tolerance != nil {
+		return *p.check.Tolerance
+	}
+	return m.opts.Tolerance
+}
