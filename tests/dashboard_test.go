@@ -5,8 +5,10 @@ import (
 	"fmt"
 	"math/rand/v2"
 	"os"
+	"os/exec"
 	"path/filepath"
 	"regexp"
+	"slices"
 	"sort"
 	"strings"
 	"testing"
@@ -16,6 +18,7 @@ import (
 	"gopkg.in/yaml.v3"
 
 	"rigwire/cmd/monitor/engine"
+	"rigwire/cmd/monitor/report"
 	"rigwire/profiles"
 )
 
@@ -51,14 +54,16 @@ decode: {format: text, outputs: [{field: 1}], sequence: {field: 0}}
 
 // servedNames returns the metric family names the relay serves, from live
 // scrapes of the built impair binary after traffic crossed it (on a
-// profile, and playing a scenario, whose phase series exist only then),
+// profile with a trip socket, and playing a scenario, whose phase series
+// exist only then),
 // and those the monitor serves, gathered from its engine's collector (the
 // one `monitor run`, serve, soak and the demo serve) on a small loop in a
 // soak phase with enough samples for the phase's interval.
 func servedNames(t *testing.T) map[string]bool {
 	t.Helper()
 	names := map[string]bool{}
-	rig := startRelay(t, "name: d\nsensor_to_controller: {loss: 0.2, delay: 1ms}\ncontroller_to_actuator: {delay: 1ms}\n")
+	rig := startRelay(t, "name: d\nsensor_to_controller: {loss: 0.2, delay: 1ms}\ncontroller_to_actuator: {delay: 1ms}\n",
+		"--trip-listen", freePort(t, "udp"))
 	for range 50 {
 		rig.sensor.WriteToUDPAddrPort([]byte("x"), rig.listen)
 	}
@@ -96,14 +101,22 @@ func servedNames(t *testing.T) map[string]bool {
 	if err := m.RegisterMetrics(reg); err != nil {
 		t.Fatal(err)
 	}
-	tol := 0.2
-	m.StartPhase(0, "steady", nil, 0, profiles.Check{Tolerance: &tol})
+	// A closed phase without a criterion (passes: its verdict series),
+	// then a running one with a tolerance check and enough samples for
+	// its interval.
 	rng := rand.New(rand.NewPCG(5, 5))
-	at := time.Now() // the phase judges samples from its start on
-	for k := range 2000 {
-		m.Feed([]byte(fmt.Sprintf("%d,%g", k, 0.5+0.1*rng.NormFloat64())), at)
-		at = at.Add(10 * time.Millisecond)
+	at := time.Now() // a phase judges samples from its start on
+	feed := func(from, n int) {
+		for k := from; k < from+n; k++ {
+			m.Feed([]byte(fmt.Sprintf("%d,%g", k, 0.5+0.1*rng.NormFloat64())), at)
+			at = at.Add(10 * time.Millisecond)
+		}
 	}
+	tol := 0.2
+	m.StartPhase(0, "calm", nil, 0, profiles.Check{})
+	feed(0, 100)
+	m.StartPhase(1, "steady", nil, 0, profiles.Check{Tolerance: &tol})
+	feed(100, 2000)
 	fams, err := reg.Gather()
 	if err != nil {
 		t.Fatal(err)
@@ -197,4 +210,95 @@ func TestDeployedQueriesUseServedMetrics(t *testing.T) {
 			t.Logf("%d metric names checked", len(names))
 		})
 	}
+}
+
+// dashboardVars stand for the dashboard's template variables when its
+// queries are checked: what Grafana substitutes with "All" selected.
+var dashboardVars = strings.NewReplacer(`$relay_job`, `.*`, `$monitor_job`, `.*`, `$window`, `.*`, `$link`, `.*`,
+	`$__range`, `1h`, `$__rate_interval`, `1m`)
+
+// Every query of the dashboard is valid PromQL: each, its variables
+// substituted, is a recording rule that promtool check rules accepts.
+func TestDashboardQueriesParse(t *testing.T) {
+	promtool := needTool(t, "promtool", "prometheus")
+	data, err := os.ReadFile("../deploy/dashboard/rigwire-bench.json")
+	if err != nil {
+		t.Fatal(err)
+	}
+	var dash any
+	if err := json.Unmarshal(data, &dash); err != nil {
+		t.Fatalf("rigwire-bench.json: %v", err)
+	}
+	var queries []string
+	queryStrings(dash, &queries)
+	type rule struct {
+		Record string `yaml:"record"`
+		Expr   string `yaml:"expr"`
+	}
+	var rules []rule
+	for i, q := range queries {
+		if strings.HasPrefix(q, "label_values(") || q == "prometheus" {
+			continue // template variables: Grafana's own functions
+		}
+		rules = append(rules, rule{Record: fmt.Sprintf("dashboard_query_%d", i), Expr: dashboardVars.Replace(q)})
+	}
+	out, err := yaml.Marshal(map[string]any{"groups": []any{map[string]any{"name": "dashboard", "rules": rules}}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	file := filepath.Join(t.TempDir(), "dashboard.rules.yml")
+	if err := os.WriteFile(file, out, 0o644); err != nil {
+		t.Fatal(err)
+	}
+	if msg, err := exec.Command(promtool, "check", "rules", file).CombinedOutput(); err != nil {
+		t.Fatalf("promtool check rules on the dashboard's %d queries: %v\n%s", len(rules), err, msg)
+	}
+	t.Logf("%d queries parse", len(rules))
+}
+
+// colourStrings collects every colour the dashboard sets: "fixedColor"
+// and the "color" of a value mapping.
+func colourStrings(v any, into *[]string) {
+	switch v := v.(type) {
+	case map[string]any:
+		for k, x := range v {
+			if s, ok := x.(string); ok && (k == "fixedColor" || k == "color") {
+				*into = append(*into, s)
+			}
+			colourStrings(x, into)
+		}
+	case []any:
+		for _, x := range v {
+			colourStrings(x, into)
+		}
+	}
+}
+
+// The colours the dashboard sets are the project's own palette (the one
+// the soak report and the prediction plots draw with), never a plotting
+// library's default cycle.
+func TestDashboardColoursFromPalette(t *testing.T) {
+	ours := map[string]bool{}
+	for _, c := range append(slices.Clone(report.Palette), report.Ink, report.Mist) {
+		ours[fmt.Sprintf("#%02x%02x%02x", c.R, c.G, c.B)] = true
+	}
+	data, err := os.ReadFile("../deploy/dashboard/rigwire-bench.json")
+	if err != nil {
+		t.Fatal(err)
+	}
+	var dash any
+	if err := json.Unmarshal(data, &dash); err != nil {
+		t.Fatalf("rigwire-bench.json: %v", err)
+	}
+	var colours []string
+	colourStrings(dash, &colours)
+	if len(colours) == 0 {
+		t.Fatal("the dashboard sets no colour")
+	}
+	for _, c := range colours {
+		if !ours[strings.ToLower(c)] {
+			t.Errorf("dashboard colour %q is not in the palette of cmd/monitor/report", c)
+		}
+	}
+	t.Logf("%d colours checked", len(colours))
 }
