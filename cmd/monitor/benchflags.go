@@ -52,17 +52,21 @@ func addBenchFlags(fs *flags, loopHelp, metrics string, every time.Duration) *be
 	}
 }
 
-// check is the checks common to both commands, after fs.Parse.
-func (f *benchFlags) check(fs *flags) error {
+// check is the checks common to both commands, after fs.Parse. With a
+// simulated rig the relay's addresses are the rig's own (not required).
+func (f *benchFlags) check(fs *flags, simulated bool) error {
 	switch {
 	case fs.NArg() > 0:
 		return usagef("unexpected argument %q", fs.Arg(0))
 	case *f.loop == "":
 		return usagef("--loop: required")
+	case simulated && (*f.controller != "" || *f.actuator != ""):
+		return usagef("--controller, --actuator: not with --simulated-rig (the simulated rig's own addresses are used)")
+	case simulated:
 	case *f.listen == "":
-		return usagef("--listen: required")
+		return usagef("--listen: required (or --simulated-rig)")
 	case *f.controller == "":
-		return usagef("--controller: required")
+		return usagef("--controller: required (or --simulated-rig)")
 	case *f.every < 0:
 		return usagef("--progress: want ≥ 0, got %s", *f.every)
 	case checkMetricsAddr(*f.metrics) != nil:

@@ -35,7 +35,7 @@ func cmdServe(args []string, stdout, stderr io.Writer) error {
 	if err := fs.Parse(args); err != nil {
 		return parseErr(err)
 	}
-	if err := bf.check(fs); err != nil {
+	if err := bf.check(fs, false); err != nil {
 		return err
 	}
 	if *tolerance < 0 || *tolerance > 10 {

@@ -47,7 +47,7 @@ func TestExitStatusBadInput(t *testing.T) {
 		{"run bad metrics", []string{"run", "--loop", goodLoop, "--listen", "127.0.0.1:0", "--metrics", "9472"}, `--metrics: want HOST:PORT or "off"`},
 		{"run missing loop", []string{"run", "--loop", missing, "--listen", "127.0.0.1:0", "--metrics", "off"}, missing},
 		{"run bad loop", []string{"run", "--loop", badLoop, "--listen", "127.0.0.1:0", "--metrics", "off"}, "shape-d.bad.yaml:10"},
-		{"run loop without decode", []string{"run", "--loop", goodLoop, "--listen", "127.0.0.1:0", "--metrics", "off"}, "conveyor.yaml: decode: missing"},
+		{"run loop without decode", []string{"run", "--loop", "testdata/marginal.yaml", "--listen", "127.0.0.1:0", "--metrics", "off"}, "marginal.yaml: decode: missing"},
 		{"demo bad flag", []string{"demo", "--duration", "-1s"}, `invalid value "-1s" for flag -duration`},
 		{"demo bad loop", []string{"demo", "--loop", badLoop, "--metrics", "off"}, "shape-d.bad.yaml:10"},
 		{"demo bad profile", []string{"demo", "--profile", badProfile, "--metrics", "off"}, "unknown-key.bad.yaml:4"},

@@ -33,6 +33,7 @@ const (
 
 const soakHead = `usage: monitor soak --loop LOOP --scenario FILE --listen HOST:PORT --controller HOST:PORT
                    [--time-scale F] [--report DIR] [--summary FILE] [--after-trip D]
+       monitor soak --loop LOOP --scenario FILE --simulated-rig [--time-scale F] [--report DIR] …
 
 Plays a scenario's phases on the relay (in process, with the monitor),
 predicts every phase (and every ramp step) before it starts, judges each
@@ -41,6 +42,12 @@ and a per-phase table, and writes a JSON summary; --report DIR writes
 report.html and the plots as PNG files. A trip section in the loop file
 arms the safety trip: the run then ends --after-trip later. The trip is no
 emergency stop: keep one that does not depend on the link or on rigwire.
+
+The relay binds --listen and relays (on the first phase's profile) before
+the phases are predicted, so a rig that already sends is not refused; the
+scenario starts once every phase is predicted. --simulated-rig runs the
+simulated rig's node and controller in this process on loopback (no
+hardware, no root): a whole soak in one command.
 `
 
 // soakExits are the statuses of monitor soak, in their order of
@@ -69,10 +76,11 @@ func cmdSoak(args []string, stdout, stderr io.Writer) error {
 	reportDir := fs.String("report", "", "write report.html and the plots as PNG into `DIR`")
 	timeScale := fs.Float64("time-scale", 1, "multiply every phase duration and settling time by `F` (0 < F ≤ 100)")
 	afterTrip := fs.Duration("after-trip", 5*time.Second, "keep relaying (as the trip action says) this long after a trip before ending")
+	simulated := fs.Bool("simulated-rig", false, "run the simulated rig (node and controller) in this process on loopback instead of a real one")
 	if err := fs.Parse(args); err != nil {
 		return parseErr(err)
 	}
-	if err := bf.check(fs); err != nil {
+	if err := bf.check(fs, *simulated); err != nil {
 		return err
 	}
 	switch {
@@ -101,12 +109,16 @@ func cmdSoak(args []string, stdout, stderr io.Writer) error {
 	if err != nil {
 		return badInput(fmt.Errorf("%s: %w", sc.File, err))
 	}
-	preds, err := predictSteps(loop, steps, stderr)
-	if err != nil {
-		return badInput(err)
-	}
 	first := *loop
 	first.Profile, first.ProfileFile = steps[0].Profile, ""
+	var sim *simRig
+	if *simulated {
+		if sim, err = newSimRig(&first, log); err != nil {
+			return err
+		}
+		defer sim.stop()
+		*bf.listen, *bf.controller = "127.0.0.1:0", sim.ctl.LocalAddr().String()
+	}
 	b, err := openBench(benchConfig{loop: &first, profile: steps[0].Profile, listen: *bf.listen, controller: *bf.controller,
 		actuator: *bf.actuator, metrics: *bf.metrics, seed: *bf.seed, seedSet: bf.seedSet(fs), log: log, metricsNote: stderr})
 	if err != nil {
@@ -134,7 +146,24 @@ func cmdSoak(args []string, stdout, stderr io.Writer) error {
 	// start, at the trip and at the end, and the trip's own window.
 	rec := newSoakRecorder(b)
 	benchDone := make(chan error, 1)
+	// The relay runs from here, on the first phase's profile, while the
+	// phases are predicted: a rig that already sends finds it listening.
 	go func() { benchDone <- b.run(relayCtx, stderr, 0) }()
+	log.Info("relaying on the first phase's profile while the scenario's steps are predicted; the scenario starts when they are ready",
+		"steps", len(steps))
+	preds, err := predictSteps(loop, steps, stderr)
+	if err != nil {
+		stopRelay()
+		<-benchDone
+		return badInput(err)
+	}
+	if sim != nil {
+		if err := sim.startNode(b.relay.ListenAddr(), sc.Total(), *bf.seed, log); err != nil {
+			stopRelay()
+			<-benchDone
+			return err
+		}
+	}
 
 	onStep := func(st profiles.ScenarioStep) {
 		ph := sc.Phases[st.Phase]
@@ -178,6 +207,9 @@ wait:
 		case <-twTick.C:
 			rec.sampleTripWindow()
 		}
+	}
+	if sim != nil {
+		sim.stopNode(loop.Period)
 	}
 	stopRelay()
 	if err := <-benchDone; err != nil {

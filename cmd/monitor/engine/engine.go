@@ -103,7 +103,7 @@ func init() {
 // (estimate.Predict with the loss margin).
 func New(loop *profiles.Loop, pred *estimate.Prediction, opts Options) (*Monitor, error) {
 	if loop.Decode.Format == "" {
-		return nil, fmt.Errorf("%s: decode: missing (monitor run needs to know where the outputs sit in each datagram)", loop.File)
+		return nil, fmt.Errorf("%s: decode: missing (the monitor needs to know where the outputs sit in each sensor datagram; see the decode section of docs/formats.md)", loop.File)
 	}
 	if opts.Tolerance < 0 || math.IsNaN(opts.Tolerance) || math.IsInf(opts.Tolerance, 0) {
 		return nil, fmt.Errorf("tolerance: want a number ≥ 0, got %g", opts.Tolerance)
