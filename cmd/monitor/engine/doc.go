@@ -104,6 +104,7 @@
 //	rigwire_monitor_decode_failures_total{reason}        too_short, not_a_number, not_finite,
 //	                                                     bad_sequence, oversized
 //	rigwire_monitor_phase{index,phase}                   1 for the running soak phase, 0 for the others
+//	                                                     (every planned phase listed from the soak's start)
 //	rigwire_monitor_phase_error_second_moment{phase}     measured over the phase's judged samples
 //	rigwire_monitor_phase_predicted_error_second_moment{phase}  mean prediction in force (NaN unstable)
 //	rigwire_monitor_phase_error_second_moment_ci_low{phase}   the interval the phase's verdict uses (the

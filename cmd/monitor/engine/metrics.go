@@ -79,7 +79,7 @@ func newDescs() *descs {
 		restarts:          d("sequence_restarts_total", "Jumps of the sensor's sequence counter taken as restarts."),
 		failures:          d("decode_failures_total", "Datagrams that did not decode, by reason.", "reason"),
 		skipped:           d("warmup_skipped_samples_total", "Samples skipped as warm-up."),
-		phase:             d("phase", "1 for the running soak phase, 0 for the others.", "index", "phase"),
+		phase:             d("phase", "1 for the running soak phase, 0 for the others (every planned phase is listed from the soak's start).", "index", "phase"),
 		phaseSecond:       d("phase_error_second_moment", "Measured E[eᵀe] over the judged samples of each soak phase.", "phase"),
 		phasePredicted:    d("phase_predicted_error_second_moment", "Predicted E[eᵀe] of each soak phase (mean over its judged samples; NaN when unstable).", "phase"),
 		phaseCILow:        d("phase_error_second_moment_ci_low", "Lower bound of the interval a soak phase's verdict uses (batch means, or the worst case when its batches are short for the loop's correlation time); absent until the phase has its min_samples and 10 complete batches.", "phase"),
@@ -184,6 +184,7 @@ func (c *collector) Collect(ch chan<- prometheus.Metric) {
 	for i, r := range results {
 		latest[r.Name] = i
 	}
+	shown := map[string]bool{}
 	for i, r := range results {
 		if latest[r.Name] != i {
 			continue
@@ -193,6 +194,7 @@ func (c *collector) Collect(ch chan<- prometheus.Metric) {
 			cur = 1
 		}
 		gauge(d.phase, cur, strconv.Itoa(r.Index), r.Name)
+		shown[r.Name] = true
 		measured(d.phaseSecond, value(r.ErrorSecondMoment), r.Name)
 		gauge(d.phasePredicted, value(r.PredictedSecondMoment), r.Name)
 		if p := byIndex[r.Index]; p != nil && r.Verdict != PhaseNotRun {
@@ -213,6 +215,14 @@ func (c *collector) Collect(ch chan<- prometheus.Metric) {
 			gauge(d.phaseInconclusive, 0, r.Name)
 		case PhaseInconclusive, PhaseNotRun:
 			gauge(d.phaseInconclusive, 1, r.Name)
+		}
+	}
+	// Planned phases not started yet, so that a soak is visible as one
+	// (and a dashboard shows its plan) before its first phase starts.
+	for i := len(m.planned) - 1; i >= 0; i-- {
+		if name := m.planned[i]; !shown[name] {
+			gauge(d.phase, 0, strconv.Itoa(i), name)
+			shown[name] = true
 		}
 	}
 	active := 0.0

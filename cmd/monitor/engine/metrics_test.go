@@ -281,3 +281,40 @@ func TestPhaseIntervalAgreesWithPhaseVerdict(t *testing.T) {
 		})
 	}
 }
+
+// A soak lists its planned phases from its start (PlanPhases), each 0
+// until it runs, so that it shows as a soak before its first phase (the
+// outside-prediction alert leaves a soak's windows unjudged by the
+// presence of these series).
+func TestPlannedPhasesListed(t *testing.T) {
+	c := &clock{t: time.Unix(0, 0)}
+	m := newClocked(t, c, Options{})
+	reg := registered(t, m)
+	steps := []struct {
+		name string
+		do   func()
+		want map[string]float64
+	}{
+		{"not a soak", func() {}, map[string]float64{}},
+		{"planned", func() { m.PlanPhases([]string{"warm", "storm", "calm"}) },
+			map[string]float64{"index=0,phase=warm": 0, "index=1,phase=storm": 0, "index=2,phase=calm": 0}},
+		{"first phase running", func() { m.StartPhase(0, "warm", nil, 0, profiles.Check{}) },
+			map[string]float64{"index=0,phase=warm": 1, "index=1,phase=storm": 0, "index=2,phase=calm": 0}},
+		{"ended early", func() { m.EndPhases(true) },
+			map[string]float64{"index=0,phase=warm": 0, "index=1,phase=storm": 0, "index=2,phase=calm": 0}},
+	}
+	for _, st := range steps {
+		t.Run(st.name, func(t *testing.T) {
+			st.do()
+			got := gatherAll(t, reg)["rigwire_monitor_phase"]
+			if len(got) != len(st.want) {
+				t.Errorf("phase series %v, want %v", got, st.want)
+			}
+			for l, v := range st.want {
+				if g, ok := got[l]; !ok || g != v {
+					t.Errorf("%s: %v (served %v), want %v", l, g, ok, v)
+				}
+			}
+		})
+	}
+}
