@@ -130,7 +130,7 @@ func New(cfg Config) (*Relay, error) {
 	if cfg.RelockAfter < 0 {
 		return nil, fmt.Errorf("relay: relock interval %s: want ≥ 0", cfg.RelockAfter)
 	}
-	if err := checkFamilies(cfg); err != nil {
+	if err := CheckFamilies(cfg); err != nil {
 		return nil, err
 	}
 	if cfg.MaxDatagram <= 0 {

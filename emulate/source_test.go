@@ -229,16 +229,16 @@ func TestRelayMixedFamiliesRefused(t *testing.T) {
 		ok   bool
 		want string
 	}{
-		{name: "IPv6 actuator, IPv4 listen", mod: func(c *Config) { c.Actuator = netip.MustParseAddrPort("[::1]:7000") }, want: "actuator [::1]:7000 is IPv6"},
-		{name: "IPv6 sensor, IPv4 listen", mod: func(c *Config) { c.Sensor = netip.MustParseAddrPort("[::1]:7000") }, want: "sensor [::1]:7000 is IPv6"},
+		{name: "IPv6 actuator, IPv4 listen", mod: func(c *Config) { c.Actuator = netip.MustParseAddrPort("[::1]:7000") }, want: "actuator: [::1]:7000 is IPv6"},
+		{name: "IPv6 sensor, IPv4 listen", mod: func(c *Config) { c.Sensor = netip.MustParseAddrPort("[::1]:7000") }, want: "sensor: [::1]:7000 is IPv6"},
 		{name: "IPv4 actuator, IPv6 listen", mod: func(c *Config) {
 			c.Listen = netip.MustParseAddrPort("[::1]:0")
 			c.Actuator = netip.MustParseAddrPort("127.0.0.1:7000")
-		}, want: "actuator 127.0.0.1:7000 is IPv4"},
+		}, want: "actuator: 127.0.0.1:7000 is IPv4"},
 		{name: "IPv6 controller, IPv4 controller-facing socket", mod: func(c *Config) {
 			c.Controller = netip.MustParseAddrPort("[::1]:7100")
 			c.ControllerBind = v4
-		}, want: "controller [::1]:7100 is IPv6"},
+		}, want: "but controller [::1]:7100 is IPv6"},
 		{name: "IPv4-mapped actuator with IPv4 listen is IPv4", mod: func(c *Config) {
 			c.Actuator = netip.MustParseAddrPort("[::ffff:127.0.0.1]:7000")
 		}, ok: true},

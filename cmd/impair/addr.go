@@ -1,9 +1,12 @@
 package main
 
 import (
+	"errors"
+
 	"fmt"
 	"net"
 	"net/netip"
+	"rigwire/emulate"
 )
 
 // addrFlag is a HOST:PORT flag value, resolved at parse time so that a bad
@@ -80,32 +83,15 @@ func resolveHostPort(s string) (netip.AddrPort, error) {
 	return netip.AddrPortFrom(a, 0), nil
 }
 
-// ipFamily is 4 or 6: the family of socket that reaches a.
-func ipFamily(a netip.Addr) int {
-	if a.Unmap().Is4() {
-		return 4
-	}
-	return 6
-}
-
 // checkFamilies refuses a link whose addresses one socket would have to
-// serve in two families: the listen socket receives from the sensor and
-// sends to the actuator, the controller-facing one sends to the
-// controller. name spells a key (a flag, or a key of the links file).
+// serve in two families (emulate.CheckFamilies); name spells a key (a
+// flag, or a key of the links file).
 func checkFamilies(l linkSpec, name func(key string) string) error {
-	lf := ipFamily(l.Listen.Addr())
-	for _, a := range []struct {
-		key string
-		ap  netip.AddrPort
-	}{{"actuator", l.Actuator}, {"sensor", l.Sensor}} {
-		if a.ap.IsValid() && ipFamily(a.ap.Addr()) != lf {
-			return fmt.Errorf("%s: %s is IPv%d but %s %s is IPv%d (one socket serves both); use addresses of one family",
-				name(a.key), a.ap.Addr(), ipFamily(a.ap.Addr()), name("listen"), l.Listen, lf)
-		}
+	err := emulate.CheckFamilies(emulate.Config{Listen: l.Listen, Actuator: l.Actuator, Sensor: l.Sensor,
+		Controller: l.Controller, ControllerBind: l.ControllerBind})
+	var fe *emulate.FamilyError
+	if errors.As(err, &fe) {
+		return errors.New(fe.Spell(name))
 	}
-	if l.ControllerBind.IsValid() && ipFamily(l.ControllerBind.Addr()) != ipFamily(l.Controller.Addr()) {
-		return fmt.Errorf("%s: %s is IPv%d but %s %s is IPv%d (that socket sends to the controller); use addresses of one family",
-			name("controller_bind"), l.ControllerBind, ipFamily(l.ControllerBind.Addr()), name("controller"), l.Controller, ipFamily(l.Controller.Addr()))
-	}
-	return nil
+	return err
 }

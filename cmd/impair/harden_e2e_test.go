@@ -102,11 +102,11 @@ func TestRunMixedFamiliesRefused(t *testing.T) {
 		args []string
 		want string
 	}{
-		{"IPv6 actuator, IPv4 listen", []string{"--listen", "127.0.0.1:0", "--controller", "127.0.0.1:7101", "--actuator", "[::1]:7201"}, "--actuator: ::1 is IPv6 but --listen 127.0.0.1:0 is IPv4"},
+		{"IPv6 actuator, IPv4 listen", []string{"--listen", "127.0.0.1:0", "--controller", "127.0.0.1:7101", "--actuator", "[::1]:7201"}, "--actuator: [::1]:7201 is IPv6 but --listen 127.0.0.1:0 is IPv4"},
 		{"IPv6 sensor, IPv4 listen", []string{"--listen", "127.0.0.1:0", "--controller", "127.0.0.1:7101", "--sensor", "::1"}, "--sensor: ::1 is IPv6"},
-		{"IPv4 actuator, IPv6 listen", []string{"--listen", "[::1]:0", "--controller", "127.0.0.1:7101", "--actuator", "127.0.0.1:7201"}, "--actuator: 127.0.0.1 is IPv4"},
+		{"IPv4 actuator, IPv6 listen", []string{"--listen", "[::1]:0", "--controller", "127.0.0.1:7101", "--actuator", "127.0.0.1:7201"}, "--actuator: 127.0.0.1:7201 is IPv4"},
 		{"IPv6 controller, IPv4 controller-facing socket", []string{"--listen", "127.0.0.1:0", "--controller", "[::1]:7101", "--controller-bind", "127.0.0.1:0"}, "is IPv4 but --controller [::1]:7101 is IPv6"},
-		{"links file", []string{"--links", links}, "l.yaml:2: links[0]: actuator: ::1 is IPv6 but listen"},
+		{"links file", []string{"--links", links}, "l.yaml:2: links[0]: actuator: [::1]:7201 is IPv6 but listen"},
 	} {
 		t.Run(tc.name, func(t *testing.T) {
 			args := append(append([]string(nil), base...), tc.args...)
