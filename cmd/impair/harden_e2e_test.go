@@ -278,3 +278,29 @@ func TestRunCautions(t *testing.T) {
 		})
 	}
 }
+
+// --metrics "" (an unset variable in an env file) and an address with no
+// host (every interface) are refused as bad usage, saying how to turn
+// metrics off; so is the same in a links file.
+func TestRunMetricsAddressRefused(t *testing.T) {
+	dir := t.TempDir()
+	prof := writeFile(t, dir, "pass.yaml", passProfile)
+	links := writeFile(t, dir, "l.yaml", "metrics: \":9471\"\nlinks:\n  - {name: a, listen: 127.0.0.1:0, controller: 127.0.0.1:7101, profile: pass.yaml}\n")
+	for _, tc := range []struct {
+		name string
+		args []string
+		want string
+	}{
+		{"empty", []string{"--profile", prof, "--listen", "127.0.0.1:0", "--controller", "127.0.0.1:7101", "--metrics", ""}, `"off" for no metrics endpoint`},
+		{"no host", []string{"--profile", prof, "--listen", "127.0.0.1:0", "--controller", "127.0.0.1:7101", "--metrics", ":9471"}, `":9471" has no host`},
+		{"links file, no host", []string{"--links", links}, `l.yaml:1: metrics: ":9471" has no host`},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			var stderr bytes.Buffer
+			code := dispatch(append([]string{"run"}, tc.args...), io.Discard, &stderr)
+			if code != 2 || !strings.Contains(stderr.String(), tc.want) {
+				t.Errorf("status %d, stderr %q; want 2 and %q", code, stderr.String(), tc.want)
+			}
+		})
+	}
+}

@@ -26,6 +26,7 @@ import (
 	"net/netip"
 	"path/filepath"
 	"regexp"
+	"strings"
 	"time"
 
 	"rigwire/profiles"
@@ -96,10 +97,8 @@ func parseLinks(data []byte, file, dir string) (*linksFile, error) {
 		if err != nil {
 			return nil, f.Errorf("want HOST:PORT or \"off\", got %s", f.Got())
 		}
-		if s != "off" {
-			if _, _, err := net.SplitHostPort(s); err != nil || s == "" {
-				return nil, f.Errorf("want HOST:PORT or \"off\", got %s", f.Got())
-			}
+		if err := checkMetricsAddr(s); err != nil {
+			return nil, f.Errorf("%s", strings.TrimPrefix(err.Error(), "--metrics: "))
 		}
 		lf.Metrics = s
 	}

@@ -60,17 +60,18 @@ func (f *benchFlags) check(fs *flags, simulated bool) error {
 		return usagef("unexpected argument %q", fs.Arg(0))
 	case *f.loop == "":
 		return usagef("--loop: required")
-	case simulated && (*f.controller != "" || *f.actuator != ""):
-		return usagef("--controller, --actuator: not with --simulated-rig (the simulated rig's own addresses are used)")
-	case simulated:
-	case *f.listen == "":
-		return usagef("--listen: required (or --simulated-rig)")
-	case *f.controller == "":
-		return usagef("--controller: required (or --simulated-rig)")
 	case *f.every < 0:
 		return usagef("--progress: want ≥ 0, got %s", *f.every)
 	case checkMetricsAddr(*f.metrics) != nil:
 		return checkMetricsAddr(*f.metrics)
+	case simulated && (*f.controller != "" || *f.actuator != ""):
+		return usagef("--controller, --actuator: not with --simulated-rig (the simulated rig's own addresses are used)")
+	case simulated:
+		return nil
+	case *f.listen == "":
+		return usagef("--listen: required")
+	case *f.controller == "":
+		return usagef("--controller: required")
 	}
 	return nil
 }
