@@ -28,6 +28,10 @@ var (
 	ErrNotNumber = &DecodeError{Reason: "not_a_number"}
 	// ErrNotFinite: an output is NaN or infinite (or out of float64 range).
 	ErrNotFinite = &DecodeError{Reason: "not_finite"}
+	// ErrOutOfRange: an output is finite but beyond ±MaxOutput, where its
+	// square, summed over the outputs and a long run, would no longer be
+	// a finite number: one such value must not poison a run's estimate.
+	ErrOutOfRange = &DecodeError{Reason: "out_of_range"}
 	// ErrBadSequence: the sequence field is not a non-negative integer.
 	ErrBadSequence = &DecodeError{Reason: "bad_sequence"}
 	// ErrOversized: longer than the reader accepts.
@@ -36,7 +40,24 @@ var (
 
 // DecodeReasons lists every DecodeError, for counters that must exist
 // from the start.
-var DecodeReasons = []*DecodeError{ErrTooShort, ErrNotNumber, ErrNotFinite, ErrBadSequence, ErrOversized}
+var DecodeReasons = []*DecodeError{ErrTooShort, ErrNotNumber, ErrNotFinite, ErrOutOfRange, ErrBadSequence, ErrOversized}
+
+// MaxOutput bounds the magnitude of a decoded output. With |y| ≤ 1e100
+// and setpoints of the same bound, (r − y)² ≤ 4e200, and sums of such
+// squares over a thousand outputs and 10¹⁰⁰ samples stay below float64's
+// largest value (1.8e308); no physical measurement comes near it.
+const MaxOutput = 1e100
+
+// checkOutput sorts a decoded value into finite, out of range or valid.
+func checkOutput(v float64) error {
+	switch {
+	case math.IsNaN(v) || math.IsInf(v, 0):
+		return ErrNotFinite
+	case math.Abs(v) > MaxOutput:
+		return ErrOutOfRange
+	}
+	return nil
+}
 
 // Output decodes one sensor datagram: it writes the plant's outputs into
 // y (len(y) must be len(d.Outputs)) and returns the sample counter when
@@ -60,8 +81,8 @@ func (d *Decode) Output(payload []byte, y []float64) (seq uint64, hasSeq bool, e
 			if !ok {
 				return 0, false, ErrTooShort
 			}
-			if math.IsNaN(v) || math.IsInf(v, 0) {
-				return 0, false, ErrNotFinite
+			if err := checkOutput(v); err != nil {
+				return 0, false, err
 			}
 			y[i] = v
 		}
@@ -92,8 +113,11 @@ func (d *Decode) Output(payload []byte, y []float64) (seq uint64, hasSeq bool, e
 		// The string aliases payload only for the call; the syntax check
 		// above leaves range errors (overflow) as the only failure.
 		v, perr := strconv.ParseFloat(unsafe.String(unsafe.SliceData(b), len(b)), 64)
-		if perr != nil || math.IsInf(v, 0) || math.IsNaN(v) {
+		if perr != nil {
 			return 0, false, ErrNotFinite
+		}
+		if err := checkOutput(v); err != nil {
+			return 0, false, err
 		}
 		y[i] = v
 	}

@@ -183,11 +183,12 @@ func TestMonitorRunMeasuresWhatWasSent(t *testing.T) {
 		"too_short":    {[]byte("1,2"), []byte(""), []byte("12")},
 		"not_a_number": {[]byte("5,0.1,fast"), []byte("5,0.1,"), []byte("\x00\xff\x10,\x01,\x02")},
 		"not_finite":   {[]byte("5,0.1,1e999")},
+		"out_of_range": {[]byte("5,0.1,3e200"), []byte("5,0.1,-1e300")},
 		"bad_sequence": {[]byte("-3,0.1,1.2"), []byte("x,0.1,1.2")},
 		"oversized":    {bytes.Repeat([]byte("9"), 5000), bytes.Repeat([]byte("1,"), 4000)},
 	}
 	rejected := 0
-	for i, reason := range []string{"too_short", "not_a_number", "not_finite", "bad_sequence", "oversized"} {
+	for i, reason := range []string{"too_short", "not_a_number", "not_finite", "out_of_range", "bad_sequence", "oversized"} {
 		for _, d := range bad[reason] {
 			pos := 1000 + 700*i + rejected
 			dgs = append(dgs[:pos], append([][]byte{d}, dgs[pos:]...)...)

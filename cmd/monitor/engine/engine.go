@@ -105,6 +105,11 @@ func New(loop *profiles.Loop, pred *estimate.Prediction, opts Options) (*Monitor
 	if loop.Decode.Format == "" {
 		return nil, fmt.Errorf("%s: decode: missing (the monitor needs to know where the outputs sit in each sensor datagram; see the decode section of docs/formats.md)", loop.File)
 	}
+	for i, r := range loop.Setpoint {
+		if !(math.Abs(r) <= profiles.MaxOutput) {
+			return nil, fmt.Errorf("%s: setpoint[%d]: want a value within ±%g (the bound on decoded outputs), got %g", loop.File, i, profiles.MaxOutput, r)
+		}
+	}
 	if opts.Tolerance < 0 || math.IsNaN(opts.Tolerance) || math.IsInf(opts.Tolerance, 0) {
 		return nil, fmt.Errorf("tolerance: want a number ≥ 0, got %g", opts.Tolerance)
 	}
