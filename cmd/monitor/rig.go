@@ -268,3 +268,18 @@ func parseErr(err error) error {
 	}
 	return usageError{Msg: err.Error()}
 }
+
+// hostPortFlag is HOST or HOST:PORT (port 0 when only the host is given).
+type hostPortFlag struct{ apFlag }
+
+func (f *hostPortFlag) Set(s string) error {
+	if _, _, err := net.SplitHostPort(s); err == nil {
+		return f.apFlag.Set(s)
+	}
+	ap, err := resolveAddrPort(net.JoinHostPort(s, "0"))
+	if err != nil {
+		return fmt.Errorf("want HOST or HOST:PORT, got %q", s)
+	}
+	f.ap, f.set = ap, true
+	return nil
+}

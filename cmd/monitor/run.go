@@ -91,6 +91,8 @@ func cmdRun(args []string, stdout, stderr io.Writer) error {
 	fs.Var(&progress, "progress", "status line on stderr every `D` (a duration or seconds; 0: none)")
 	noMargin := fs.Bool("no-margin", false, "skip the loss margin in the prediction")
 	rcvBuf := fs.Int("receive-buffer", 4<<20, "socket receive buffer, `bytes`")
+	var from hostPortFlag
+	fs.Var(&from, "from", "decode only datagrams from `HOST` or HOST:PORT (the relay's tap socket); others are counted as strangers (default: any source)")
 	var tripTo apFlag
 	fs.Var(&tripTo, "trip-to", "send the safety trip request to the relay's trip socket at `HOST:PORT` (needs a trip section in the loop)")
 	logLevel := fs.String("log-level", "info", "debug, info, warn or error")
@@ -159,6 +161,9 @@ func cmdRun(args []string, stdout, stderr io.Writer) error {
 		}
 	}
 
+	if from.set {
+		mon.SetSource(from.ap)
+	}
 	conn, err := net.ListenUDP("udp", net.UDPAddrFromAddrPort(listen.ap))
 	if err != nil {
 		return fmt.Errorf("--listen %s: %w", listen.ap, err)

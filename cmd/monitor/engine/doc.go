@@ -101,6 +101,7 @@
 //	rigwire_monitor_sequence_restarts_total
 //	rigwire_monitor_warmup_skipped_samples_total
 //	rigwire_monitor_after_trip_samples_total             decoded after the trip, estimated nowhere
+//	rigwire_monitor_stranger_datagrams_total             from anyone but --from (the relay's tap), never decoded
 //	rigwire_monitor_decode_failures_total{reason}        too_short, not_a_number, not_finite, out_of_range,
 //	                                                     bad_sequence, oversized
 //	rigwire_monitor_phase{index,phase}                   1 for the running soak phase, 0 for the others

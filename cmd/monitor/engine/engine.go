@@ -3,6 +3,7 @@ package engine
 import (
 	"fmt"
 	"math"
+	"net/netip"
 	"sync"
 	"time"
 
@@ -61,6 +62,10 @@ type Monitor struct {
 	// seq classifies the sequence numbers (when the decode has them).
 	seq       estimate.SeqTracker
 	datagrams int64
+	// source, when valid, is the only sender Serve feeds (SetSource);
+	// strangers counts the datagrams from anyone else.
+	source    netip.AddrPort
+	strangers int64
 	decoded   int64     // samples decoded and not duplicates/stale
 	skipped   int64     // of those, skipped as warm-up
 	failures  []int64   // by index in profiles.DecodeReasons

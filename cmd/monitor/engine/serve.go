@@ -4,6 +4,7 @@ import (
 	"context"
 	"errors"
 	"net"
+	"net/netip"
 )
 
 // Serve reads datagrams from conn and feeds them to the monitor until ctx
@@ -17,7 +18,7 @@ func (m *Monitor) Serve(ctx context.Context, conn *net.UDPConn) error {
 	defer stop()
 	buf := make([]byte, m.opts.MaxDatagram+1)
 	for {
-		n, _, err := conn.ReadFromUDPAddrPort(buf)
+		n, src, err := conn.ReadFromUDPAddrPort(buf)
 		if err != nil {
 			if errors.Is(err, net.ErrClosed) && ctx.Err() != nil {
 				return nil
@@ -28,6 +29,36 @@ func (m *Monitor) Serve(ctx context.Context, conn *net.UDPConn) error {
 			}
 			return err
 		}
+		if !m.fromSource(src) {
+			continue
+		}
 		m.Feed(buf[:n], m.now())
 	}
+}
+
+// SetSource makes Serve take datagrams only from src (the relay's tap
+// socket): with a port, that source alone; with port 0, any port of its
+// address. Datagrams from anyone else are counted as strangers and never
+// decoded. Zero: every source.
+func (m *Monitor) SetSource(src netip.AddrPort) {
+	m.mu.Lock()
+	defer m.mu.Unlock()
+	m.source = netip.AddrPortFrom(src.Addr().Unmap(), src.Port())
+}
+
+// fromSource reports whether a datagram from src is to be fed, counting
+// it as a stranger when not.
+func (m *Monitor) fromSource(src netip.AddrPort) bool {
+	m.mu.Lock()
+	defer m.mu.Unlock()
+	pin := m.source
+	if !pin.IsValid() {
+		return true
+	}
+	a := src.Addr().Unmap()
+	if a == pin.Addr() && (pin.Port() == 0 || src.Port() == pin.Port()) {
+		return true
+	}
+	m.strangers++
+	return false
 }

@@ -96,6 +96,7 @@ type Summary struct {
 	CIMethod          string    `json:"ci_method"`
 	Predicted         Predicted `json:"predicted"`
 	Datagrams         int64     `json:"datagrams"`
+	Strangers         int64     `json:"stranger_datagrams"`
 	Gaps              int64     `json:"gaps"`
 	Late              int64     `json:"late_samples"`
 	Duplicates        int64     `json:"duplicate_samples"`
@@ -192,7 +193,7 @@ func (m *Monitor) Summary() *Summary {
 		Effective: finite(st.EffectiveSamples), Batches: st.Batches, BatchSize: st.BatchSize,
 		BatchesMerged: st.Merged, BatchCorrelation: finite(st.BatchCorrelation), BatchCorrelationZ: finite(st.BatchCorrelationZ),
 		CIMethod: CIMethod, AfterTripSamples: m.afterTrip,
-		Datagrams: m.datagrams, Gaps: m.seq.Counts.Gaps, Late: m.seq.Counts.Late,
+		Datagrams: m.datagrams, Strangers: m.strangers, Gaps: m.seq.Counts.Gaps, Late: m.seq.Counts.Late,
 		Duplicates: m.seq.Counts.Duplicates, Stale: m.seq.Counts.Stale, Restarts: m.seq.Counts.Restarts,
 		DecodeFailures: map[string]int64{}, SkippedWarmup: m.skipped,
 		WarmupSeconds: float64(m.skipped) * m.loop.Period,
