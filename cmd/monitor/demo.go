@@ -56,6 +56,7 @@ var demoExits = exitcode.Help(
 // second, serves the metrics and ends with predicted against measured.
 func cmdDemo(args []string, stdout, stderr io.Writer) error {
 	fs := newFlags("monitor demo", demoHead, demoExits)
+	cautions := cautionsFlag(fs)
 	var dur durationFlag
 	dur.s = 60
 	fs.Var(&dur, "duration", "how long the rig runs")
@@ -141,7 +142,7 @@ func cmdDemo(args []string, stdout, stderr io.Writer) error {
 		return err
 	}
 
-	fmt.Fprint(stdout, demoCaution)
+	fmt.Fprint(stdout, cautions(demoCaution))
 	loopName := filepath.Base(loop.File)
 	if *loopPath == "" {
 		loopName = "built-in diverter.yaml (cmd/monitor/examples/demo)"

@@ -25,6 +25,7 @@ const serveCaution = "SAFETY: the relay will delay and drop the commands that mo
 // exits 8 when it fired.
 func cmdServe(args []string, stdout, stderr io.Writer) error {
 	fs := newFlags("monitor serve", serveHead, serveExits)
+	cautions := cautionsFlag(fs)
 	bf := addBenchFlags(fs, "loop `FILE` (YAML, with a decode section; its trip section arms the safety trip) (required)",
 		"127.0.0.1:9472", time.Second)
 	profilePath := fs.String("profile", "", "relay profile `FILE` (default: the loop's own profile)")
@@ -64,7 +65,7 @@ func cmdServe(args []string, stdout, stderr io.Writer) error {
 	if _, err := b.armTrip(loop.Trip); err != nil {
 		return err
 	}
-	fmt.Fprint(stderr, serveCaution)
+	fmt.Fprint(stderr, cautions(serveCaution))
 	log.Info("relaying and monitoring", "loop", loop.File, "listen", b.relay.ListenAddr().String(),
 		"controller", *bf.controller, "metrics", b.url, "seed", b.relay.Seed())
 	ctx, cancel := signalContext()

@@ -23,3 +23,21 @@ func TestMetricsAddressRefused(t *testing.T) {
 		}
 	}
 }
+
+// Every monitor command that starts a run prints its safety cautions in
+// full by default and as one line with --cautions-read.
+func TestCautionsRead(t *testing.T) {
+	for _, tc := range []struct {
+		flags []string
+		want  string
+	}{
+		{nil, "Keep an emergency stop that does not depend on the emulated link"},
+		{[]string{"--cautions-read"}, "SAFETY (cautions acknowledged)"},
+	} {
+		args := append([]string{"demo", "--duration", "0.3s", "--metrics", "off", "--progress", "0"}, tc.flags...)
+		_, out, errOut := runMonitor(args...)
+		if !strings.Contains(out+errOut, tc.want) {
+			t.Errorf("monitor %v: output lacks %q", args, tc.want)
+		}
+	}
+}

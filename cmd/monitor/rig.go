@@ -152,6 +152,7 @@ func signalContext() (context.Context, context.CancelFunc) {
 
 func cmdRigNode(args []string, stderr io.Writer) error {
 	fs := newFlags("monitor rig node", rigNodeHead, rigExits)
+	cautions := cautionsFlag(fs)
 	loopPath := fs.String("loop", "", "loop `FILE` (YAML) the rig simulates (required)")
 	var relay, listen apFlag
 	fs.Var(&relay, "relay", "`HOST:PORT` the samples go to: the relay's --listen, or the controller (required)")
@@ -181,7 +182,7 @@ func cmdRigNode(args []string, stderr io.Writer) error {
 	if err != nil {
 		return err
 	}
-	fmt.Fprint(stderr, rigCaution)
+	fmt.Fprint(stderr, cautions(rigCaution))
 	log.Info("rig node running", "loop", loop.File, "listen", node.LocalAddr().String(),
 		"relay", relay.ap.String(), "period", loop.Period, "periods", cfg.Periods, "start", *start, "seed", *seed)
 	ctx, cancel := signalContext()
@@ -202,6 +203,7 @@ func cmdRigNode(args []string, stderr io.Writer) error {
 
 func cmdRigController(args []string, stderr io.Writer) error {
 	fs := newFlags("monitor rig controller", rigControllerHead, rigExits)
+	cautions := cautionsFlag(fs)
 	loopPath := fs.String("loop", "", "loop `FILE` (YAML) whose controller to run (required)")
 	var listen apFlag
 	fs.Var(&listen, "listen", "`HOST:PORT` where samples arrive (required)")
@@ -214,7 +216,7 @@ func cmdRigController(args []string, stderr io.Writer) error {
 	if err != nil {
 		return err
 	}
-	fmt.Fprint(stderr, rigCaution)
+	fmt.Fprint(stderr, cautions(rigCaution))
 	log.Info("rig controller running", "loop", loop.File, "listen", ctl.LocalAddr().String(),
 		"compute_delay", loop.ComputeDelay, "start", *start)
 	ctx, cancel := signalContext()

@@ -74,6 +74,7 @@ var runExits = exitcode.Help(
 
 func cmdRun(args []string, stdout, stderr io.Writer) error {
 	fs := newFlags("monitor run", runUsage, runExits)
+	cautions := cautionsFlag(fs)
 	var listen apFlag
 	var duration, warmup durationFlag
 	loopPath := fs.String("loop", "", "loop description `FILE` (YAML, with a decode section)")
@@ -186,7 +187,7 @@ func cmdRun(args []string, stdout, stderr io.Writer) error {
 	}
 	defer srv.Close()
 
-	fmt.Fprint(stderr, runCaution)
+	fmt.Fprint(stderr, cautions(runCaution))
 	printPrediction(stderr, pred)
 	log.Info("monitoring", "loop", *loopPath, "listen", conn.LocalAddr().String(),
 		"decode", loop.Decode.Format, "warmup_samples", mon.WarmupSamples(), "tolerance", *tolerance)

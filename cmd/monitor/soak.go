@@ -70,6 +70,7 @@ var soakExits = exitcode.Help(
 // as PNG files.
 func cmdSoak(args []string, stdout, stderr io.Writer) error {
 	fs := newFlags("monitor soak", soakHead, soakExits)
+	cautions := cautionsFlag(fs)
 	bf := addBenchFlags(fs, "loop `FILE` (YAML, with a decode section; its trip section arms the safety trip) (required)",
 		"127.0.0.1:9475", 5*time.Second)
 	scenarioPath := fs.String("scenario", "", "scenario `FILE`: the phases the relay applies (required)")
@@ -124,7 +125,7 @@ func cmdSoak(args []string, stdout, stderr io.Writer) error {
 	if err != nil {
 		return err
 	}
-	fmt.Fprint(stderr, soakCaution)
+	fmt.Fprint(stderr, cautions(soakCaution))
 	names := make([]string, len(sc.Phases))
 	for i, p := range sc.Phases {
 		names[i] = p.Name
