@@ -28,9 +28,9 @@ var (
 	ErrNotNumber = &DecodeError{Reason: "not_a_number"}
 	// ErrNotFinite: an output is NaN or infinite (or out of float64 range).
 	ErrNotFinite = &DecodeError{Reason: "not_finite"}
-	// ErrOutOfRange: an output is finite but beyond ±MaxOutput, where its
-	// square, summed over the outputs and a long run, would no longer be
-	// a finite number: one such value must not poison a run's estimate.
+	// ErrOutOfRange: an output is finite but beyond ±MaxOutput, where the
+	// square of its squared error, summed over a long run, would no longer
+	// be a finite number: one such value must not poison a run's estimate.
 	ErrOutOfRange = &DecodeError{Reason: "out_of_range"}
 	// ErrBadSequence: the sequence field is not a non-negative integer.
 	ErrBadSequence = &DecodeError{Reason: "bad_sequence"}
@@ -42,11 +42,16 @@ var (
 // from the start.
 var DecodeReasons = []*DecodeError{ErrTooShort, ErrNotNumber, ErrNotFinite, ErrOutOfRange, ErrBadSequence, ErrOversized}
 
-// MaxOutput bounds the magnitude of a decoded output. With |y| ≤ 1e100
-// and setpoints of the same bound, (r − y)² ≤ 4e200, and sums of such
-// squares over a thousand outputs and 10¹⁰⁰ samples stay below float64's
-// largest value (1.8e308); no physical measurement comes near it.
-const MaxOutput = 1e100
+// MaxOutput bounds the magnitude of a decoded output (and of a setpoint:
+// the monitor refuses a loop whose setpoint lies beyond it). The monitor
+// squares twice: x = eᵀe for each sample, then x² for the spread of the
+// samples and of the batch means behind the interval. With |y|, |r| ≤ B
+// and p outputs, |e_i| ≤ 2B, x ≤ 4p·B² and x² ≤ 16p²·B⁴; for B = 1e50,
+// p ≤ 10⁶ outputs and a run of up to 10⁹⁰ samples, sums of x² stay below
+// 1.6e303, under float64's largest value (1.8e308). A bound of 1e100
+// would let x² overflow on one sample (1e400). No physical measurement
+// comes near 1e50 in any unit; a value beyond it is a corrupt datagram.
+const MaxOutput = 1e50
 
 // checkOutput sorts a decoded value into finite, out of range or valid.
 func checkOutput(v float64) error {

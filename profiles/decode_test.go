@@ -116,6 +116,11 @@ func TestDecodeCases(t *testing.T) {
 		{"text nan refused", text, []byte("1,2,NaN,4"), nil, 0, false, ErrNotNumber},
 		{"text exponent without digits", text, []byte("1,2,1e,4"), nil, 0, false, ErrNotNumber},
 		{"text overflow", text, []byte("1,2,1e400,4"), nil, 0, false, ErrNotFinite},
+		{"text at the bound", text, []byte("1,2,1e50,-1e50"), []float64{MaxOutput, -MaxOutput}, 1, true, nil},
+		{"text beyond the bound", text, []byte("1,2,1.0000000001e50,4"), nil, 0, false, ErrOutOfRange},
+		{"text 1e200", text, []byte("1,2,0.5,1e200"), nil, 0, false, ErrOutOfRange},
+		{"text -1e300", text, []byte("1,2,-1e300,4"), nil, 0, false, ErrOutOfRange},
+		{"text inf refused", text, []byte("1,2,Inf,4"), nil, 0, false, ErrNotNumber},
 		{"text negative sequence", text, []byte("-1,2,3,4"), nil, 0, false, ErrBadSequence},
 		{"text fractional sequence", text, []byte("1.5,2,3,4"), nil, 0, false, ErrBadSequence},
 		{"text huge sequence", text, []byte("99999999999999999999,2,3,4"), nil, 0, false, ErrBadSequence},
@@ -125,6 +130,10 @@ func TestDecodeCases(t *testing.T) {
 		{"binary empty", bin, nil, nil, 0, false, ErrTooShort},
 		{"binary negative sequence", bin, mk(-5, 1), nil, 0, false, ErrBadSequence},
 		{"binary infinite", bin, mk(1, math.Inf(1)), nil, 0, false, ErrNotFinite},
+		{"binary nan", bin, mk(1, math.NaN()), nil, 0, false, ErrNotFinite},
+		{"binary beyond the bound", bin, mk(1, -1e200), nil, 0, false, ErrOutOfRange},
+		{"binary largest float64", bin, mk(1, math.MaxFloat64), nil, 0, false, ErrOutOfRange},
+		{"binary at the bound", bin, mk(9, MaxOutput), []float64{MaxOutput}, 9, true, nil},
 		{"binary float32 nan", f32, nan32, nil, 0, false, ErrNotFinite},
 	}
 	for _, c := range cases {
