@@ -8,6 +8,7 @@ import (
 	"log/slog"
 	"math"
 	"net"
+	"net/netip"
 	"os"
 	"path/filepath"
 	"strings"
@@ -32,7 +33,7 @@ const runCaution = "SAFETY: the monitor only watches; it does not stop the rig.\
 
 const runUsage = `usage: monitor run --loop LOOP.yaml --listen HOST:PORT [--metrics HOST:PORT] [--duration D]
                    [--summary FILE] [--tolerance X] [--min-samples N] [--warmup D]
-                   [--strict] [--trip-to HOST:PORT]
+                   [--strict] [--trip-to HOST:PORT] [--from HOST[:PORT]]
 
 Receives the rig's sensor datagrams, decodes them with the loop's decode
 section, estimates E[eᵀe] of e = setpoint − y online with a 95 % batch-means
@@ -48,6 +49,21 @@ interval too wide to confirm; the summary's verdict_reason says which),
 unstable when the prediction is not mean-square stable. Without
 --strict the status is 0 once the summary is written, whatever the
 verdict; a safety trip gives 8 either way.
+
+Only the relay's tap should reach --listen. --from HOST (any port of that
+address: the relay sends its taps from an ephemeral port) or --from
+HOST:PORT decodes only what that source sends; a datagram from anyone else
+is counted as a stranger (rigwire_monitor_stranger_datagrams_total, reason
+other_host or other_port; stranger_datagrams in the summary) and never
+decoded. Without --from every source is decoded: give it whenever --listen
+is reachable from other hosts.
+
+A datagram that does not decode is counted by reason and never used
+(rigwire_monitor_decode_failures_total, decode_failures in the summary):
+too_short, not_a_number, not_finite (NaN, infinite), out_of_range (an
+output beyond ±1e50: the monitor sums the squares of each sample's eᵀe, and
+they stay finite under that bound, so one absurd value never poisons the
+run's estimate), bad_sequence, oversized (--max-datagram).
 
 With a trip section in the loop file the monitor checks every sample
 against its bounds; when one is crossed it logs a warning and, with
@@ -93,7 +109,7 @@ func cmdRun(args []string, stdout, stderr io.Writer) error {
 	noMargin := fs.Bool("no-margin", false, "skip the loss margin in the prediction")
 	rcvBuf := fs.Int("receive-buffer", 4<<20, "socket receive buffer, `bytes`")
 	var from hostPortFlag
-	fs.Var(&from, "from", "decode only datagrams from `HOST` or HOST:PORT (the relay's tap socket); others are counted as strangers (default: any source)")
+	fs.Var(&from, "from", "decode only datagrams from `HOST` (any port) or HOST:PORT, the relay's tap socket; others are counted as strangers, never decoded (default: any source)")
 	var tripTo apFlag
 	fs.Var(&tripTo, "trip-to", "send the safety trip request to the relay's trip socket at `HOST:PORT` (needs a trip section in the loop)")
 	logLevel := fs.String("log-level", "info", "debug, info, warn or error")
@@ -117,6 +133,9 @@ func cmdRun(args []string, stdout, stderr io.Writer) error {
 		return usagef("--receive-buffer: want 0…1073741824 bytes, got %d", *rcvBuf)
 	case checkMetricsAddr(*metricsAddr) != nil:
 		return checkMetricsAddr(*metricsAddr)
+	case from.set && mixedFamilies(listen.ap.Addr(), from.ap.Addr()):
+		return usagef("--from %s: an IPv%s address, but --listen %s takes IPv%s datagrams only; the tap could never match",
+			from.ap.Addr(), family(from.ap.Addr()), listen.ap, family(listen.ap.Addr()))
 	}
 	wins, err := parseWindows(*windows)
 	if err != nil {
@@ -189,8 +208,19 @@ func cmdRun(args []string, stdout, stderr io.Writer) error {
 
 	fmt.Fprint(stderr, cautions(runCaution))
 	printPrediction(stderr, pred)
-	log.Info("monitoring", "loop", *loopPath, "listen", conn.LocalAddr().String(),
+	fromAttr := "any source"
+	if from.set {
+		fromAttr = from.ap.String()
+		if from.ap.Port() == 0 {
+			fromAttr = from.ap.Addr().String() + " (any port)"
+		}
+	}
+	log.Info("monitoring", "loop", *loopPath, "listen", conn.LocalAddr().String(), "from", fromAttr,
 		"decode", loop.Decode.Format, "warmup_samples", mon.WarmupSamples(), "tolerance", *tolerance)
+	if !from.set && !listen.ap.Addr().IsLoopback() {
+		log.Warn("--from not given: datagrams from any host that reaches --listen are decoded; give the relay's address (--from HOST) to count the others as strangers",
+			"listen", listen.ap.String())
+	}
 
 	// Shutdown order: the signal or the duration ends ctx; Serve closes the
 	// socket and returns; the progress goroutine ends with ctx; then the
@@ -347,4 +377,22 @@ func writeRunSummary(path string, s *engine.Summary, stdout io.Writer) error {
 		return fmt.Errorf("--summary: %w", err)
 	}
 	return nil
+}
+
+// mixedFamilies reports whether a socket bound to listen can never
+// receive from src: one is IPv4 and the other IPv6, and listen is not an
+// unspecified address (which a dual-stack socket serves for both).
+func mixedFamilies(listen, src netip.Addr) bool {
+	if listen.IsUnspecified() {
+		return false
+	}
+	return listen.Unmap().Is4() != src.Unmap().Is4()
+}
+
+// family is "4" or "6".
+func family(a netip.Addr) string {
+	if a.Unmap().Is4() {
+		return "4"
+	}
+	return "6"
 }

@@ -17,6 +17,8 @@
 //	m.RegisterMetrics(reg)              // rigwire_monitor_* on a prometheus.Registerer
 //	relayCfg.TapFunc = m.Feed           // Feed(payload []byte, at time.Time): no allocation,
 //	                                    // safe from any goroutine, payload not retained
+//	m.SetSource(tap)                    // optional: Serve decodes only datagrams from tap (port 0: any port of
+//	                                    // its address); the others are counted as strangers, never decoded
 //	err = m.Serve(ctx, conn)            // or: read datagrams from a net.PacketConn until ctx ends
 //	p := m.Progress()                   // Progress{Elapsed, Samples, Measured, CILow, CIHigh, Predicted}; p.String() for a status line
 //	s := m.Summary()                    // Summary: the JSON summary of `monitor run` (json tags), with Verdict,
@@ -101,7 +103,8 @@
 //	rigwire_monitor_sequence_restarts_total
 //	rigwire_monitor_warmup_skipped_samples_total
 //	rigwire_monitor_after_trip_samples_total             decoded after the trip, estimated nowhere
-//	rigwire_monitor_stranger_datagrams_total             from anyone but --from (the relay's tap), never decoded
+//	rigwire_monitor_stranger_datagrams_total{reason}     from anyone but --from (the relay's tap), never decoded:
+//	                                                     other_host, other_port
 //	rigwire_monitor_decode_failures_total{reason}        too_short, not_a_number, not_finite, out_of_range,
 //	                                                     bad_sequence, oversized
 //	rigwire_monitor_phase{index,phase}                   1 for the running soak phase, 0 for the others
@@ -117,6 +120,13 @@
 //	rigwire_monitor_trip_active                          0, or 1 once the safety trip fired (latched)
 //	rigwire_monitor_trips_total{reason}                  abs_error, second_moment, ratio (0 or 1)
 //
-// Every datagram read is exactly one of: a sample, a warm-up skip, a
-// sample after the trip, a duplicate or stale sample, a decode failure.
+// Every datagram read is exactly one of: a stranger's (SetSource; not in
+// datagrams_total), a sample, a warm-up skip, a sample after the trip, a
+// duplicate or stale sample, a decode failure — so that the summary's
+// counts add up to its datagrams. An output beyond ±profiles.MaxOutput
+// (1e50), NaN or infinite is a decode failure (out_of_range, not_finite,
+// or not_a_number for text that is not a decimal number): the estimators
+// sum squares of each sample's eᵀe, which stay finite under that bound,
+// so one absurd value never makes a run's estimate or interval infinite
+// or NaN.
 package engine

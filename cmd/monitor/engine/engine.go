@@ -63,9 +63,10 @@ type Monitor struct {
 	seq       estimate.SeqTracker
 	datagrams int64
 	// source, when valid, is the only sender Serve feeds (SetSource);
-	// strangers counts the datagrams from anyone else.
+	// strangers counts the datagrams from anyone else, by index in
+	// StrangerReasons.
 	source    netip.AddrPort
-	strangers int64
+	strangers [len(StrangerReasons)]int64
 	decoded   int64     // samples decoded and not duplicates/stale
 	skipped   int64     // of those, skipped as warm-up
 	failures  []int64   // by index in profiles.DecodeReasons

@@ -71,7 +71,7 @@ func newDescs() *descs {
 		tolerance:         d("tolerance_ratio", "Relative widening of the interval by the verdict in force: the running soak phase's tolerance check, else the run's --tolerance."),
 		samples:           d("samples_total", "Samples estimated (decoded, not duplicates, after the warm-up)."),
 		datagrams:         d("datagrams_total", "Datagrams received."),
-		strangers:         d("stranger_datagrams_total", "Datagrams from a source other than the relay's tap (monitor run --from), counted and never decoded."),
+		strangers:         d("stranger_datagrams_total", "Datagrams from a source other than the relay's tap (monitor run --from), counted and never decoded, by reason: other_host, other_port (the tap's address, another port, when --from names one).", "reason"),
 		gaps:              d("sample_gaps_total", "Sequence numbers skipped when a higher one arrived (some may arrive late: see late_samples_total)."),
 		missing:           d("missing_samples", "Samples never seen so far: sample gaps minus late arrivals."),
 		late:              d("late_samples_total", "Samples that arrived after a later one (reordered), used."),
@@ -161,7 +161,9 @@ func (c *collector) Collect(ch chan<- prometheus.Metric) {
 	gauge(d.tolerance, m.toleranceInForce())
 	counter(d.samples, st.Samples)
 	counter(d.datagrams, m.datagrams)
-	counter(d.strangers, m.strangers)
+	for i, r := range StrangerReasons {
+		counter(d.strangers, m.strangers[i], r)
+	}
 	// Gaps goes down when a late sample arrives; the counter counts every
 	// skip (Gaps + Late never decreases) and the gauge the net.
 	counter(d.gaps, m.seq.Counts.Gaps+m.seq.Counts.Late)

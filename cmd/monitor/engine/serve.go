@@ -36,10 +36,23 @@ func (m *Monitor) Serve(ctx context.Context, conn *net.UDPConn) error {
 	}
 }
 
+// StrangerReasons label the datagrams Serve does not decode because
+// they are not from the source set with SetSource: StrangerOtherHost
+// from another address, StrangerOtherPort from the source's address but
+// another port (only when the source names a port).
+var StrangerReasons = [...]string{StrangerOtherHost: "other_host", StrangerOtherPort: "other_port"}
+
+// Indices in StrangerReasons.
+const (
+	StrangerOtherHost = iota
+	StrangerOtherPort
+)
+
 // SetSource makes Serve take datagrams only from src (the relay's tap
 // socket): with a port, that source alone; with port 0, any port of its
-// address. Datagrams from anyone else are counted as strangers and never
-// decoded. Zero: every source.
+// address (the relay sends its taps from an ephemeral port). Datagrams
+// from anyone else are counted as strangers (by reason, StrangerReasons)
+// and never decoded. Zero: every source.
 func (m *Monitor) SetSource(src netip.AddrPort) {
 	m.mu.Lock()
 	defer m.mu.Unlock()
@@ -55,10 +68,20 @@ func (m *Monitor) fromSource(src netip.AddrPort) bool {
 	if !pin.IsValid() {
 		return true
 	}
-	a := src.Addr().Unmap()
-	if a == pin.Addr() && (pin.Port() == 0 || src.Port() == pin.Port()) {
+	switch a := src.Addr().Unmap(); {
+	case a != pin.Addr():
+		m.strangers[StrangerOtherHost]++
+	case pin.Port() != 0 && src.Port() != pin.Port():
+		m.strangers[StrangerOtherPort]++
+	default:
 		return true
 	}
-	m.strangers++
 	return false
+}
+
+// Source is the source set with SetSource (zero: every source).
+func (m *Monitor) Source() netip.AddrPort {
+	m.mu.Lock()
+	defer m.mu.Unlock()
+	return m.source
 }

@@ -10,34 +10,51 @@ import (
 )
 
 // With SetSource, Serve decodes only the relay's tap datagrams: a
-// stranger's, over real UDP, are counted and never decoded, whether the
-// pin names the tap's address and port or its address alone.
+// stranger's, over real UDP, are counted under their reason and never
+// decoded, whether the pin names the tap's address and port or its
+// address alone; without a pin every source is decoded.
 func TestServeTakesOnlyItsSource(t *testing.T) {
-	for _, withPort := range []bool{true, false} {
-		t.Run(fmt.Sprintf("pin with port %v", withPort), func(t *testing.T) {
+	lo1, lo2 := net.IPv4(127, 0, 0, 1), net.IPv4(127, 0, 0, 2)
+	cases := []struct {
+		name       string
+		pin        string // "none", "host" or "host:port" (the tap's)
+		strangerIP net.IP
+		reason     string // the strangers' reason; "" when they are decoded
+	}{
+		{"address pinned, stranger on another host", "host", lo2, "other_host"},
+		{"address and port pinned, stranger on another host", "host:port", lo2, "other_host"},
+		{"address and port pinned, stranger on another port", "host:port", lo1, "other_port"},
+		{"address pinned, another port of it is the tap's too", "host", lo1, ""},
+		{"nothing pinned, every source decoded", "none", lo2, ""},
+	}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
 			m, err := New(testLoop(t, textDecode), stablePred(0.0025), Options{})
 			if err != nil {
 				t.Fatal(err)
 			}
-			conn, err := net.ListenUDP("udp4", &net.UDPAddr{IP: net.IPv4(127, 0, 0, 1)})
+			reg := registered(t, m)
+			conn, err := net.ListenUDP("udp4", &net.UDPAddr{IP: lo1})
 			if err != nil {
 				t.Fatal(err)
 			}
-			tap, err := net.ListenUDP("udp4", &net.UDPAddr{IP: net.IPv4(127, 0, 0, 1)})
+			tap, err := net.ListenUDP("udp4", &net.UDPAddr{IP: lo1})
 			if err != nil {
 				t.Fatal(err)
 			}
 			defer tap.Close()
-			stranger, err := net.ListenUDP("udp4", &net.UDPAddr{IP: net.IPv4(127, 0, 0, 2)})
+			stranger, err := net.ListenUDP("udp4", &net.UDPAddr{IP: c.strangerIP})
 			if err != nil {
-				t.Skipf("no second loopback address here: %v", err)
+				t.Skipf("cannot bind %s here: %v", c.strangerIP, err)
 			}
 			defer stranger.Close()
 			pin := tap.LocalAddr().(*net.UDPAddr).AddrPort()
-			if !withPort {
-				pin = netip.AddrPortFrom(pin.Addr(), 0)
+			switch c.pin {
+			case "host":
+				m.SetSource(netip.AddrPortFrom(pin.Addr(), 0))
+			case "host:port":
+				m.SetSource(pin)
 			}
-			m.SetSource(pin)
 			ctx, cancel := context.WithCancel(context.Background())
 			done := make(chan error, 1)
 			go func() { done <- m.Serve(ctx, conn) }()
@@ -56,14 +73,33 @@ func TestServeTakesOnlyItsSource(t *testing.T) {
 				time.Sleep(5 * time.Millisecond)
 			}
 			cancel()
-			<-done
+			if err := <-done; err != nil {
+				t.Fatal(err)
+			}
 			s := m.Summary()
+			got := gatherAll(t, reg)
+			if c.reason == "" {
+				if s.Datagrams != 2*n || s.Strangers != 0 || s.Samples != 2*n {
+					t.Errorf("datagrams %d, strangers %d, samples %d; want %d, 0, %d", s.Datagrams, s.Strangers, s.Samples, 2*n, 2*n)
+				}
+				return
+			}
 			if s.Datagrams != n || s.Strangers != n || s.Samples != n {
 				t.Errorf("datagrams %d, strangers %d, samples %d; want %d each", s.Datagrams, s.Strangers, s.Samples, n)
+			}
+			for _, r := range StrangerReasons {
+				want := 0.0
+				if r == c.reason {
+					want = n
+				}
+				if v, ok := got.get(namePrefix+"stranger_datagrams_total", "reason="+r); !ok || v != want {
+					t.Errorf("stranger_datagrams_total{reason=%q} = %v (served %v), want %v", r, v, ok, want)
+				}
 			}
 			if s.ErrorSecondMoment == nil || *s.ErrorSecondMoment > 1e-20 {
 				t.Errorf("E[eᵀe] %v: the stranger's values got in", s.ErrorSecondMoment)
 			}
+			checkCountsAddUp(t, s)
 		})
 	}
 }

@@ -193,7 +193,7 @@ func (m *Monitor) Summary() *Summary {
 		Effective: finite(st.EffectiveSamples), Batches: st.Batches, BatchSize: st.BatchSize,
 		BatchesMerged: st.Merged, BatchCorrelation: finite(st.BatchCorrelation), BatchCorrelationZ: finite(st.BatchCorrelationZ),
 		CIMethod: CIMethod, AfterTripSamples: m.afterTrip,
-		Datagrams: m.datagrams, Strangers: m.strangers, Gaps: m.seq.Counts.Gaps, Late: m.seq.Counts.Late,
+		Datagrams: m.datagrams, Strangers: m.strangers[StrangerOtherHost] + m.strangers[StrangerOtherPort], Gaps: m.seq.Counts.Gaps, Late: m.seq.Counts.Late,
 		Duplicates: m.seq.Counts.Duplicates, Stale: m.seq.Counts.Stale, Restarts: m.seq.Counts.Restarts,
 		DecodeFailures: map[string]int64{}, SkippedWarmup: m.skipped,
 		WarmupSeconds: float64(m.skipped) * m.loop.Period,
@@ -235,6 +235,7 @@ type Progress struct {
 	Predicted     float64 // NaN when the loop is not mean-square stable
 	Gaps          int64
 	Rejected      int64 // datagrams that did not decode
+	Strangers     int64 // datagrams from a source other than SetSource's
 	SkippedWarmup int64
 	Verdict       string // as it stands, with the tolerance
 	Reason        string // why
@@ -251,6 +252,9 @@ func (m *Monitor) Progress() Progress {
 	p.Verdict, p.Reason = m.runVerdict(st)
 	for _, f := range m.failures {
 		p.Rejected += f
+	}
+	for _, n := range m.strangers {
+		p.Strangers += n
 	}
 	return p
 }
@@ -279,6 +283,9 @@ func (p Progress) String() string {
 	}
 	if p.Rejected > 0 {
 		fmt.Fprintf(&b, "  rejected %d", p.Rejected)
+	}
+	if p.Strangers > 0 {
+		fmt.Fprintf(&b, "  strangers %d", p.Strangers)
 	}
 	if p.SkippedWarmup > 0 {
 		fmt.Fprintf(&b, "  warm-up skipped %d", p.SkippedWarmup)
