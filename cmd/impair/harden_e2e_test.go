@@ -292,8 +292,8 @@ func TestRunMetricsAddressRefused(t *testing.T) {
 		want string
 	}{
 		{"empty", []string{"--profile", prof, "--listen", "127.0.0.1:0", "--controller", "127.0.0.1:7101", "--metrics", ""}, `"off" for no metrics endpoint`},
-		{"no host", []string{"--profile", prof, "--listen", "127.0.0.1:0", "--controller", "127.0.0.1:7101", "--metrics", ":9471"}, `":9471" has no host`},
-		{"links file, no host", []string{"--links", links}, `l.yaml:1: metrics: ":9471" has no host`},
+		{"no host", []string{"--profile", prof, "--listen", "127.0.0.1:0", "--controller", "127.0.0.1:7101", "--metrics", ":9471"}, `":9471" has no host; give one (127.0.0.1 for this machine only, 0.0.0.0 or [::] for every interface), or "off" for no metrics endpoint`},
+		{"links file, no host", []string{"--links", links}, `l.yaml:1: metrics: ":9471" has no host; give one (127.0.0.1 for this machine only, 0.0.0.0 or [::] for every interface), or "off" for no metrics endpoint`},
 	} {
 		t.Run(tc.name, func(t *testing.T) {
 			var stderr bytes.Buffer

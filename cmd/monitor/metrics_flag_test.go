@@ -5,21 +5,34 @@ import (
 	"testing"
 )
 
-// --metrics "" and an address with no host are bad usage for every
-// monitor command that serves metrics, and the message says how to turn
-// metrics off.
+// --metrics "" (an unset variable in an env file) and an address with no
+// host (which would bind every interface) are bad usage (status 2) for
+// every monitor command that serves metrics, and the message says how to
+// turn metrics off ("off"); the check runs before any socket is opened.
 func TestMetricsAddressRefused(t *testing.T) {
-	for _, cmd := range [][]string{
-		{"run", "--loop", "examples/conveyor.yaml", "--listen", "127.0.0.1:0"},
-		{"serve", "--loop", "examples/conveyor.yaml", "--listen", "127.0.0.1:0", "--controller", "127.0.0.1:9"},
-		{"soak", "--loop", "examples/conveyor.yaml", "--scenario", "x.yaml", "--simulated-rig"},
-		{"demo"},
-	} {
-		for _, addr := range []string{"", ":9472"} {
-			code, _, errOut := runMonitor(append(append([]string{}, cmd...), "--metrics", addr)...)
-			if code != 2 || !strings.Contains(errOut, `"off" for no metrics endpoint`) {
-				t.Errorf("monitor %s --metrics %q: status %d, stderr %q; want 2 and how to turn metrics off", cmd[0], addr, code, errOut)
-			}
+	commands := []struct {
+		name string
+		args []string
+	}{
+		{"run", []string{"run", "--loop", "examples/conveyor.yaml", "--listen", "127.0.0.1:0"}},
+		{"serve", []string{"serve", "--loop", "examples/conveyor.yaml", "--listen", "127.0.0.1:0", "--controller", "127.0.0.1:9"}},
+		{"soak", []string{"soak", "--loop", "examples/conveyor.yaml", "--scenario", "x.yaml", "--simulated-rig"}},
+		{"demo", []string{"demo"}},
+	}
+	values := []struct {
+		name, addr, want string
+	}{
+		{"empty", "", `--metrics: empty; want HOST:PORT (such as 127.0.0.1:9471), or "off" for no metrics endpoint`},
+		{"no host", ":9471", `--metrics: ":9471" has no host; give one (127.0.0.1 for this machine only, 0.0.0.0 or [::] for every interface), or "off" for no metrics endpoint`},
+	}
+	for _, c := range commands {
+		for _, v := range values {
+			t.Run(c.name+" "+v.name, func(t *testing.T) {
+				code, _, errOut := runMonitor(append(append([]string{}, c.args...), "--metrics", v.addr)...)
+				if code != 2 || !strings.Contains(errOut, v.want) {
+					t.Errorf("monitor %s --metrics %q: status %d, stderr %q; want 2 and %q", c.name, v.addr, code, errOut, v.want)
+				}
+			})
 		}
 	}
 }

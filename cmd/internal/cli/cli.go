@@ -147,14 +147,15 @@ func (f *Flags) HelpText() string {
 
 // CheckMetricsAddr checks a --metrics value: "off", or HOST:PORT with a
 // host and a port number (whether it can be bound is found out when it is
-// bound). An empty value (an unset variable in an env file) and an empty
-// host (":9471", every interface) are refused: the endpoint is reachable
+// bound). An empty value (an unset variable in an env file; blanks alone
+// too) and an empty host (":9471", which would bind every interface) are
+// refused, each with how to turn metrics off: the endpoint is reachable
 // from other hosts only when an address such as 0.0.0.0 or [::] says so.
 func CheckMetricsAddr(s string) error {
 	if s == "off" {
 		return nil
 	}
-	if s == "" {
+	if strings.TrimSpace(s) == "" {
 		return Usagef("--metrics: empty; want HOST:PORT (such as 127.0.0.1:9471), or \"off\" for no metrics endpoint")
 	}
 	host, port, err := net.SplitHostPort(s)
