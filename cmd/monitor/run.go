@@ -60,10 +60,12 @@ is reachable from other hosts.
 
 A datagram that does not decode is counted by reason and never used
 (rigwire_monitor_decode_failures_total, decode_failures in the summary):
-too_short, not_a_number, not_finite (NaN, infinite), out_of_range (an
-output beyond ±1e50: the monitor sums the squares of each sample's eᵀe, and
-they stay finite under that bound, so one absurd value never poisons the
-run's estimate), bad_sequence, oversized (--max-datagram).
+too_short, not_a_number (text that is not a decimal number: NaN and Inf
+included), not_finite (a binary NaN or infinity, text beyond float64),
+out_of_range (an output beyond ±1e50: the monitor sums the squares of each
+sample's eᵀe, and they stay finite under that bound, so one absurd value
+never poisons the run's estimate), bad_sequence, oversized
+(--max-datagram).
 
 With a trip section in the loop file the monitor checks every sample
 against its bounds; when one is crossed it logs a warning and, with
@@ -95,7 +97,7 @@ func cmdRun(args []string, stdout, stderr io.Writer) error {
 	var duration, warmup durationFlag
 	loopPath := fs.String("loop", "", "loop description `FILE` (YAML, with a decode section)")
 	fs.Var(&listen, "listen", "`HOST:PORT` where the sensor datagrams arrive (required)")
-	metricsAddr := fs.String("metrics", "127.0.0.1:9472", "serve Prometheus metrics on `HOST:PORT` (\"off\": none)")
+	metricsAddr := fs.String("metrics", "127.0.0.1:9472", "serve Prometheus metrics on `HOST:PORT` (\"off\": none; every interface only as 0.0.0.0:PORT or [::]:PORT)")
 	fs.Var(&duration, "duration", "stop after `D` (a duration or seconds; default: run until SIGINT/SIGTERM)")
 	summaryPath := fs.String("summary", "", "write the JSON summary to `FILE` (default: stdout)")
 	tolerance := fs.Float64("tolerance", 0.1, "relative widening of the confidence interval for the verdict")
