@@ -95,8 +95,8 @@ type Node struct {
 	// (NoCommandWarnAfter); guarded by mu.
 	silentWarned bool
 	y            []float64
-	buf     []byte
-	slog    *sampleLog
+	buf          []byte
+	slog         *sampleLog
 }
 
 // NewNode checks the loop against what the simulated rig can do and
