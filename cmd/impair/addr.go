@@ -6,6 +6,7 @@ import (
 	"fmt"
 	"net"
 	"net/netip"
+	"rigwire/cmd/internal/cli"
 	"rigwire/emulate"
 )
 
@@ -59,7 +60,8 @@ func resolveAddr(s string) (netip.AddrPort, error) {
 	return netip.AddrPortFrom(ap.Addr().Unmap(), ap.Port()), nil
 }
 
-// hostPortFlag is HOST or HOST:PORT (port 0 when only the host is given).
+// hostPortFlag names one sender: HOST or HOST:PORT (port 0 when only the
+// host is given).
 type hostPortFlag struct{ addrFlag }
 
 func (a *hostPortFlag) Set(s string) error {
@@ -71,16 +73,10 @@ func (a *hostPortFlag) Set(s string) error {
 	return nil
 }
 
-// resolveHostPort reads HOST:PORT, or HOST alone (port 0: any port).
+// resolveHostPort reads one sender: HOST:PORT, or HOST alone (port 0: any
+// port); see cli.ParseSender for what is refused.
 func resolveHostPort(s string) (netip.AddrPort, error) {
-	if _, _, err := net.SplitHostPort(s); err == nil {
-		return resolveAddr(s)
-	}
-	a, err := resolveHost(s)
-	if err != nil {
-		return netip.AddrPort{}, fmt.Errorf("want HOST or HOST:PORT, got %q", s)
-	}
-	return netip.AddrPortFrom(a, 0), nil
+	return cli.ParseSender(s, "the rig's sensor node", resolveAddr)
 }
 
 // checkFamilies refuses a link whose addresses one socket would have to

@@ -304,3 +304,31 @@ func TestRunMetricsAddressRefused(t *testing.T) {
 		})
 	}
 }
+
+// --sensor names one sender: an unspecified address would pin a source no
+// datagram ever comes from (every datagram a stranger), so it is refused,
+// as are an empty value and a port alone; so is the links file's sensor.
+func TestRunSensorPinRefused(t *testing.T) {
+	dir := t.TempDir()
+	prof := writeFile(t, dir, "pass.yaml", passProfile)
+	links := writeFile(t, dir, "l.yaml", "links:\n  - {name: a, listen: 127.0.0.1:0, controller: 127.0.0.1:7101, sensor: 0.0.0.0, profile: pass.yaml}\n")
+	base := []string{"run", "--profile", prof, "--listen", "127.0.0.1:0", "--controller", "127.0.0.1:7101", "--metrics", "off"}
+	for _, tc := range []struct {
+		name string
+		args []string
+		want string
+	}{
+		{"unspecified", append(append([]string(nil), base...), "--sensor", "0.0.0.0"), `"0.0.0.0" is no sender's address`},
+		{"empty", append(append([]string(nil), base...), "--sensor", ""), "empty; want HOST or HOST:PORT of the rig's sensor node"},
+		{"port alone", append(append([]string(nil), base...), "--sensor", ":7000"), `":7000" has no host`},
+		{"links file", []string{"run", "--links", links, "--metrics", "off"}, `l.yaml:2: links[0].sensor: "0.0.0.0" is no sender's address`},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			var stderr bytes.Buffer
+			code := dispatch(tc.args, io.Discard, &stderr)
+			if code != 2 || !strings.Contains(stderr.String(), tc.want) {
+				t.Errorf("status %d, stderr %q; want 2 and %q", code, stderr.String(), tc.want)
+			}
+		})
+	}
+}

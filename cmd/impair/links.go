@@ -209,7 +209,7 @@ func parseLink(it profiles.Field, dir string) (linkSpec, error) {
 			l.Sensor, err = resolveHostPort(s)
 		}
 		if err != nil {
-			return l, f.Errorf("want HOST or HOST:PORT (the rig's sensor node), got %s", f.Got())
+			return l, f.Errorf("%v", err)
 		}
 	}
 	if f, ok := keys["relock_after"]; ok {

@@ -11,8 +11,8 @@ import (
 	"net/netip"
 	"os"
 	"os/signal"
+	"rigwire/cmd/internal/cli"
 	"strconv"
-	"strings"
 	"syscall"
 
 	"rigwire/cmd/internal/exitcode"
@@ -272,33 +272,13 @@ func parseErr(err error) error {
 	return usageError{Msg: err.Error()}
 }
 
-// hostPortFlag is HOST or HOST:PORT (port 0 when only the host is given)
-// naming one sender: an empty value (an unset variable in an env file), a
-// port without a host and an unspecified address (0.0.0.0, ::) are
-// refused, since none of them names a sender and the flag would pin
-// nothing or everything.
+// hostPortFlag names one sender: HOST or HOST:PORT (cli.ParseSender).
 type hostPortFlag struct{ apFlag }
 
 func (f *hostPortFlag) Set(s string) error {
-	const want = "want HOST or HOST:PORT of the relay's tap (such as 127.0.0.1); leave the flag out to take every source"
-	if strings.TrimSpace(s) == "" {
-		return fmt.Errorf("empty; %s", want)
-	}
-	var ap netip.AddrPort
-	var err error
-	if host, _, serr := net.SplitHostPort(s); serr == nil {
-		if host == "" {
-			return fmt.Errorf("%q has no host; %s", s, want)
-		}
-		ap, err = resolveAddrPort(s)
-	} else {
-		ap, err = resolveAddrPort(net.JoinHostPort(s, "0"))
-	}
-	switch {
-	case err != nil || !ap.Addr().IsValid():
-		return fmt.Errorf("%s, got %q", want, s)
-	case ap.Addr().IsUnspecified():
-		return fmt.Errorf("%q is no sender's address; %s", s, want)
+	ap, err := cli.ParseSender(s, "the relay's tap", resolveAddrPort)
+	if err != nil {
+		return err
 	}
 	f.ap, f.set = ap, true
 	return nil
