@@ -127,6 +127,9 @@ func New(cfg Config) (*Relay, error) {
 	if !cfg.Listen.IsValid() || !cfg.Controller.IsValid() {
 		return nil, errors.New("relay: the listen and controller addresses are required")
 	}
+	if cfg.Sensor.IsValid() && cfg.Sensor.Addr().IsUnspecified() {
+		return nil, fmt.Errorf("relay: sensor %s: no datagram comes from an unspecified address; want the sensor node's address", cfg.Sensor)
+	}
 	if cfg.RelockAfter < 0 {
 		return nil, fmt.Errorf("relay: relock interval %s: want ≥ 0", cfg.RelockAfter)
 	}

@@ -239,6 +239,7 @@ func TestRelayMixedFamiliesRefused(t *testing.T) {
 			c.Controller = netip.MustParseAddrPort("[::1]:7100")
 			c.ControllerBind = v4
 		}, want: "but controller [::1]:7100 is IPv6"},
+		{name: "unspecified sensor pin", mod: func(c *Config) { c.Sensor = netip.MustParseAddrPort("0.0.0.0:0") }, want: "no datagram comes from an unspecified address"},
 		{name: "IPv4-mapped actuator with IPv4 listen is IPv4", mod: func(c *Config) {
 			c.Actuator = netip.MustParseAddrPort("[::ffff:127.0.0.1]:7000")
 		}, ok: true},
