@@ -17,8 +17,8 @@ import (
 	"github.com/prometheus/client_golang/prometheus"
 	"gopkg.in/yaml.v3"
 
-	"rigwire/cmd/monitor/engine"
-	"rigwire/cmd/monitor/report"
+	"rigwire/estimate/engine"
+	"rigwire/estimate/report"
 	"rigwire/profiles"
 )
 

@@ -11,7 +11,6 @@ import (
 	"text/tabwriter"
 
 	"rigwire/cmd/internal/exitcode"
-	"rigwire/cmd/internal/stability"
 	"rigwire/estimate"
 	"rigwire/profiles"
 )
@@ -320,8 +319,8 @@ func printLoopPrediction(w io.Writer, path string, fitted *profiles.Profile) err
 		if x.p.Error != nil {
 			m = num(x.p.Error.SecondMoment)
 		}
-		v := stability.Of(x.p)
-		fmt.Fprintf(tw, "%s\t%s\t%s\t%s\n", x.name, v, stability.Radius(x.p.SpectralRadius, x.p.RadiusError, v), m)
+		v := estimate.VerdictOf(x.p)
+		fmt.Fprintf(tw, "%s\t%s\t%s\t%s\n", x.name, v, estimate.RadiusText(x.p.SpectralRadius, x.p.RadiusError, v), m)
 	}
 	return tw.Flush()
 }

@@ -21,7 +21,7 @@ import (
 	"testing"
 	"time"
 
-	"rigwire/cmd/internal/tripwire"
+	"rigwire/emulate/tripwire"
 )
 
 func TestMain(m *testing.M) {

@@ -9,7 +9,7 @@ import (
 
 	"github.com/prometheus/client_golang/prometheus"
 
-	"rigwire/cmd/internal/tripwire"
+	"rigwire/emulate/tripwire"
 	"rigwire/profiles"
 )
 

@@ -7,7 +7,7 @@ import (
 	"github.com/prometheus/client_golang/prometheus"
 	"github.com/prometheus/client_golang/prometheus/testutil"
 
-	"rigwire/cmd/internal/tripwire"
+	"rigwire/emulate/tripwire"
 	"rigwire/profiles"
 )
 

@@ -12,9 +12,9 @@ import (
 	"time"
 
 	"rigwire/cmd/internal/exitcode"
-	"rigwire/cmd/monitor/engine"
 	"rigwire/emulate"
 	"rigwire/emulate/rig"
+	"rigwire/estimate/engine"
 	"rigwire/profiles"
 )
 
@@ -189,7 +189,7 @@ func cmdDemo(args []string, stdout, stderr io.Writer) error {
 	ns, cs := node.Stats(), ctl.Stats()
 	fmt.Fprintf(stdout, "rig:\n  %-24s samples %d, commands applied %d, late %d, sent late by the host (overruns) %d\n", "node", ns.Samples, ns.Applied, ns.Late, ns.Overruns)
 	fmt.Fprintf(stdout, "  %-24s samples used %d, stale %d\n", "controller", cs.Used, cs.Stale)
-	switch code := s.ExitCode(true); s.Verdict {
+	switch code := exitcode.OfRun(s, true); s.Verdict {
 	case engine.VerdictAgree:
 		return nil
 	case engine.VerdictInconclusive:

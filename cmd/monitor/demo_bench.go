@@ -18,9 +18,9 @@ import (
 	"github.com/prometheus/client_golang/prometheus/collectors"
 	"github.com/prometheus/client_golang/prometheus/promhttp"
 
-	"rigwire/cmd/monitor/engine"
 	"rigwire/emulate"
 	"rigwire/estimate"
+	"rigwire/estimate/engine"
 	"rigwire/profiles"
 )
 

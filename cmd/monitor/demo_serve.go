@@ -9,6 +9,7 @@ import (
 	"os"
 	"time"
 
+	"rigwire/cmd/internal/exitcode"
 	"rigwire/emulate"
 	"rigwire/profiles"
 )
@@ -93,7 +94,7 @@ func cmdServe(args []string, stdout, stderr io.Writer) error {
 	}
 	fmt.Fprintln(stderr, verdictLine(s))
 	if s.Trip != nil {
-		return exitError{Code: s.TripExitCode(), Msg: fmt.Sprintf("safety trip: %s %.5g above the bound %.5g; relay action %s",
+		return exitError{Code: exitcode.OfTrip(s), Msg: fmt.Sprintf("safety trip: %s %.5g above the bound %.5g; relay action %s",
 			s.Trip.Reason, s.Trip.Value, s.Trip.Bound, s.Trip.Action)}
 	}
 	return nil

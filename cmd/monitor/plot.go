@@ -16,8 +16,8 @@ import (
 	"gonum.org/v1/plot/vg/vgpdf"
 	"gonum.org/v1/plot/vg/vgsvg"
 
-	"rigwire/cmd/monitor/report"
 	"rigwire/estimate"
+	"rigwire/estimate/report"
 )
 
 // checkPlotName accepts the formats gonum/plot writes that suit a report.

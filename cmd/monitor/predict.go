@@ -11,7 +11,6 @@ import (
 	"time"
 
 	"rigwire/cmd/internal/exitcode"
-	"rigwire/cmd/internal/stability"
 	"rigwire/estimate"
 	"rigwire/profiles"
 )
@@ -145,13 +144,13 @@ func marginProgress(stderr io.Writer, start time.Time) func(q float64) {
 // strictStatus is the --strict verdict: nil when the loop is certified
 // mean-square stable, else an exitError (6 not stable, 5 marginal).
 func strictStatus(pr *estimate.Prediction) error {
-	switch stability.Of(pr) {
+	switch estimate.VerdictOf(pr) {
 	case estimate.StabilityStable:
 		return nil
 	case estimate.StabilityMarginal:
-		return exitError{Code: exitcode.Inconclusive, Msg: "--strict: " + stability.Describe(pr)}
+		return exitError{Code: exitcode.Inconclusive, Msg: "--strict: " + estimate.DescribeStability(pr)}
 	}
-	return exitError{Code: exitcode.NotStable, Msg: "--strict: " + stability.Describe(pr)}
+	return exitError{Code: exitcode.NotStable, Msg: "--strict: " + estimate.DescribeStability(pr)}
 }
 
 func parseFloats(s string) ([]float64, error) {
@@ -251,7 +250,7 @@ func finite(v float64) *float64 {
 func writeJSON(w io.Writer, loop *profiles.Loop, pr *estimate.Prediction) error {
 	out := jsonPrediction{
 		MeanSquareStable: pr.MeanSquareStable,
-		Stability:        stability.Of(pr),
+		Stability:        estimate.VerdictOf(pr),
 		SpectralRadius:   pr.SpectralRadius,
 		RadiusError:      finite(pr.RadiusError),
 		LossMargin:       finite(pr.LossMargin),
@@ -298,8 +297,8 @@ func writeSummary(w io.Writer, path string, loop *profiles.Loop, pr *estimate.Pr
 		name = "(unnamed)"
 	}
 	fmt.Fprintf(w, "network   %s, %d joint states; actuator %s on loss\n", name, len(pr.States), loop.Actuator.OnLoss)
-	verdict := stability.Describe(pr)
-	if stability.Of(pr) == estimate.StabilityUnstable {
+	verdict := estimate.DescribeStability(pr)
+	if estimate.VerdictOf(pr) == estimate.StabilityUnstable {
 		verdict += ": the error's second moment grows without bound"
 	}
 	fmt.Fprintf(w, "verdict   %s\n", verdict)
@@ -340,7 +339,7 @@ func predictSweep(loop *profiles.Loop, param string, values []float64, plotFile 
 			sm = strconv.FormatFloat(p.SecondMoment, 'g', 8, 64)
 		}
 		fmt.Fprintf(stdout, "%s,%s,%s,%v,%s\n", strconv.FormatFloat(p.Value, 'g', 8, 64), sm,
-			stability.Value(p.SpectralRadius, 8), p.MeanSquareStable, pointStability(p))
+			estimate.RhoText(p.SpectralRadius, 8), p.MeanSquareStable, pointStability(p))
 	}
 	switch {
 	case res.LostFromStart:

@@ -19,11 +19,10 @@ import (
 
 	"rigwire/cmd/internal/exitcode"
 	"rigwire/cmd/internal/metricsrv"
-	"rigwire/cmd/internal/stability"
-	"rigwire/cmd/internal/tripwire"
-	"rigwire/cmd/monitor/engine"
 	"rigwire/emulate"
+	"rigwire/emulate/tripwire"
 	"rigwire/estimate"
+	"rigwire/estimate/engine"
 	"rigwire/profiles"
 )
 
@@ -252,10 +251,10 @@ func cmdRun(args []string, stdout, stderr io.Writer) error {
 		return fmt.Errorf("receiving: %w", serveErr)
 	}
 	fmt.Fprintln(stderr, verdictLine(sum))
-	if code := sum.TripExitCode(); code != 0 {
+	if code := exitcode.OfTrip(sum); code != 0 {
 		return exitError{Code: code}
 	}
-	if code := sum.ExitCode(*strict); code != 0 {
+	if code := exitcode.OfRun(sum, *strict); code != 0 {
 		return exitError{Code: code}
 	}
 	return nil
@@ -303,10 +302,10 @@ func parseWindows(s string) ([]time.Duration, error) {
 
 func printPrediction(w io.Writer, pr *estimate.Prediction) {
 	if !pr.MeanSquareStable || pr.Error == nil {
-		fmt.Fprintf(w, "predicted: %s; no predicted E[eᵀe] to compare with\n", stability.Describe(pr))
+		fmt.Fprintf(w, "predicted: %s; no predicted E[eᵀe] to compare with\n", estimate.DescribeStability(pr))
 		return
 	}
-	fmt.Fprintf(w, "predicted: E[eᵀe] = %.6g, %s", pr.Error.SecondMoment, stability.Describe(pr))
+	fmt.Fprintf(w, "predicted: E[eᵀe] = %.6g, %s", pr.Error.SecondMoment, estimate.DescribeStability(pr))
 	if !math.IsNaN(pr.LossMargin) {
 		fmt.Fprintf(w, ", loss margin %.4f", pr.LossMargin)
 	}

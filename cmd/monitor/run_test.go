@@ -5,7 +5,7 @@ import (
 	"testing"
 
 	"rigwire/cmd/internal/exitcode"
-	"rigwire/cmd/monitor/engine"
+	"rigwire/estimate/engine"
 )
 
 // Bad flags and loop files end `monitor run` with exit 2 and a message
@@ -49,10 +49,10 @@ func TestRunExitCodes(t *testing.T) {
 		engine.VerdictInconclusive: exitcode.Inconclusive, engine.VerdictUnstable: exitcode.NotStable,
 	} {
 		s := &engine.Summary{Verdict: verdict}
-		if got := s.ExitCode(true); got != want {
+		if got := exitcode.OfRun(s, true); got != want {
 			t.Errorf("%s: strict exit %d, want %d", verdict, got, want)
 		}
-		if got := s.ExitCode(false); got != 0 {
+		if got := exitcode.OfRun(s, false); got != 0 {
 			t.Errorf("%s: exit %d without --strict, want 0", verdict, got)
 		}
 	}

@@ -11,7 +11,6 @@ import (
 	"time"
 
 	"rigwire/cmd/internal/exitcode"
-	"rigwire/cmd/internal/stability"
 	"rigwire/estimate"
 	"rigwire/profiles"
 )
@@ -97,7 +96,7 @@ func cmdSimulate(args []string, stdout, stderr io.Writer) error {
 			"warmup":              *warmup,
 			"seed":                *seed,
 			"mode_counts":         res.ModeCounts,
-			"stability":           stability.Of(pr),
+			"stability":           estimate.VerdictOf(pr),
 			"predicted_second_moment": func() *float64 {
 				if pr.Error == nil {
 					return nil
@@ -119,7 +118,7 @@ func cmdSimulate(args []string, stdout, stderr io.Writer) error {
 		z := (res.SecondMoment - pr.Error.SecondMoment) / res.StdErr
 		fmt.Fprintf(stdout, "predicted  %.6g (difference %.2f standard errors)\n", pr.Error.SecondMoment, z)
 	} else {
-		fmt.Fprintf(stdout, "predicted  %s: a finite-length average means little\n", stability.Describe(pr))
+		fmt.Fprintf(stdout, "predicted  %s: a finite-length average means little\n", estimate.DescribeStability(pr))
 	}
 	fmt.Fprintf(stdout, "modes      sample lost/stale %.4f, command lost/late %.4f, in time %.4f\n",
 		float64(res.ModeCounts[0])/total, float64(res.ModeCounts[1])/total, float64(res.ModeCounts[2])/total)

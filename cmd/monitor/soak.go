@@ -14,9 +14,9 @@ import (
 	"unicode/utf8"
 
 	"rigwire/cmd/internal/exitcode"
-	"rigwire/cmd/monitor/engine"
 	"rigwire/emulate"
 	"rigwire/estimate"
+	"rigwire/estimate/engine"
 	"rigwire/profiles"
 )
 
@@ -220,7 +220,7 @@ wait:
 	rec.finish()
 	b.mon.EndPhases(!finished)
 	s := b.mon.Summary()
-	code := s.SoakExitCode()
+	code := exitcode.OfSoak(s)
 	if !finished && s.Trip == nil {
 		// Interrupted before the end: the phases not played are not run.
 		log.Warn("soak interrupted before the scenario's end", "elapsed", time.Since(started).Round(time.Millisecond).String())

@@ -14,8 +14,8 @@ import (
 
 	"rigwire/cmd/internal/exitcode"
 	"rigwire/cmd/internal/metricsrv"
-	"rigwire/cmd/monitor/engine"
-	"rigwire/cmd/monitor/report"
+	"rigwire/estimate/engine"
+	"rigwire/estimate/report"
 	"rigwire/profiles"
 )
 

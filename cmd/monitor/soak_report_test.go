@@ -9,8 +9,8 @@ import (
 	"strings"
 	"testing"
 
-	"rigwire/cmd/monitor/engine"
-	"rigwire/cmd/monitor/report"
+	"rigwire/estimate/engine"
+	"rigwire/estimate/report"
 	"rigwire/profiles"
 )
 

@@ -13,9 +13,9 @@ import (
 	"time"
 
 	"rigwire/cmd/internal/exitcode"
-	"rigwire/cmd/monitor/engine"
-	"rigwire/cmd/monitor/report"
 	"rigwire/estimate"
+	"rigwire/estimate/engine"
+	"rigwire/estimate/report"
 	"rigwire/profiles"
 )
 
@@ -106,7 +106,7 @@ func TestSoakTableAndReportTripped(t *testing.T) {
 	r.feed(12, 0.2)
 	r.m.EndPhases(true)
 	s := r.m.Summary()
-	code := s.SoakExitCode()
+	code := exitcode.OfSoak(s)
 	if code != exitcode.Tripped {
 		t.Fatalf("soak exit %d, want %d", code, exitcode.Tripped)
 	}
@@ -152,7 +152,7 @@ func TestSoakTableAndReportNotRun(t *testing.T) {
 	}
 	r.m.EndPhases(true)
 	s := r.m.Summary()
-	code := s.SoakExitCode()
+	code := exitcode.OfSoak(s)
 	if code != exitcode.Inconclusive {
 		t.Fatalf("soak exit %d, want %d", code, exitcode.Inconclusive)
 	}

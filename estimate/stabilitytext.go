@@ -1,29 +1,29 @@
-// Package stability words the prediction's mean-square stability verdict
+// The words of the prediction's mean-square stability verdict
 // for the commands: the verdict itself, and the spectral radius ρ of the
 // second-moment operator with its error, printed with as many digits as
 // the error makes meaningful and never on the wrong side of 1 (no
 // "1 < 1" or "0.999 ≥ 1").
-package stability
+
+package estimate
 
 import (
 	"math"
 	"strconv"
 
-	"rigwire/estimate"
 )
 
-// Of is the prediction's verdict: estimate.StabilityStable,
+// Of is the prediction's verdict: StabilityStable,
 // StabilityMarginal or StabilityUnstable. A prediction without one (an
 // older computation) is stable when MeanSquareStable, else unstable.
-func Of(pr *estimate.Prediction) string {
+func VerdictOf(pr *Prediction) string {
 	switch pr.Stability {
-	case estimate.StabilityStable, estimate.StabilityMarginal, estimate.StabilityUnstable:
+	case StabilityStable, StabilityMarginal, StabilityUnstable:
 		return pr.Stability
 	}
 	if pr.MeanSquareStable {
-		return estimate.StabilityStable
+		return StabilityStable
 	}
-	return estimate.StabilityUnstable
+	return StabilityUnstable
 }
 
 // shownDigits is how many significant digits ρ gets when its error
@@ -36,7 +36,7 @@ const shownDigits = 5
 // side of 1 ρ lies (a stable ρ of 0.9999999 is not printed as 1). A
 // marginal ρ gets every digit its error allows. An error that is zero or
 // not finite is left out.
-func Radius(rho, rhoErr float64, verdict string) string {
+func RadiusText(rho, rhoErr float64, verdict string) string {
 	if math.IsNaN(rho) || math.IsInf(rho, 0) {
 		return strconv.FormatFloat(rho, 'g', -1, 64)
 	}
@@ -47,7 +47,7 @@ func Radius(rho, rhoErr float64, verdict string) string {
 		maxDigits = min(max(maxDigits, 1), 17)
 	}
 	digits := min(shownDigits, maxDigits)
-	if verdict == estimate.StabilityMarginal {
+	if verdict == StabilityMarginal {
 		digits = maxDigits
 	}
 	s := strconv.FormatFloat(rho, 'g', digits, 64)
@@ -64,7 +64,7 @@ func Radius(rho, rhoErr float64, verdict string) string {
 // Value writes ρ with at least digits significant digits, and more when
 // needed to show on which side of 1 it lies (for tables and CSV, where no
 // error is printed beside it).
-func Value(rho float64, digits int) string {
+func RhoText(rho float64, digits int) string {
 	s := strconv.FormatFloat(rho, 'g', digits, 64)
 	for digits < 17 && !sameSide(s, rho) {
 		digits++
@@ -97,13 +97,13 @@ func sameSide(s string, rho float64) bool {
 //	NOT mean-square stable (spectral radius 1.0213 ± 1e-09, at or above 1)
 //	MARGINAL: the spectral radius 1 ± 1e-06 cannot be told apart from 1 at the
 //	accuracy of the computation; treated as not stable (no steady moments)
-func Describe(pr *estimate.Prediction) string {
-	v := Of(pr)
-	r := Radius(pr.SpectralRadius, pr.RadiusError, v)
+func DescribeStability(pr *Prediction) string {
+	v := VerdictOf(pr)
+	r := RadiusText(pr.SpectralRadius, pr.RadiusError, v)
 	switch v {
-	case estimate.StabilityStable:
+	case StabilityStable:
 		return "mean-square stable (spectral radius " + r + ", below 1)"
-	case estimate.StabilityMarginal:
+	case StabilityMarginal:
 		return "MARGINAL: the spectral radius " + r + " cannot be told apart from 1 at the accuracy of the computation; treated as not stable (no steady moments)"
 	}
 	return "NOT mean-square stable (spectral radius " + r + ", at or above 1)"

@@ -23,7 +23,6 @@
 //	p := m.Progress()                   // Progress{Elapsed, Samples, Measured, CILow, CIHigh, Predicted}; p.String() for a status line
 //	s := m.Summary()                    // Summary: the JSON summary of `monitor run` (json tags), with Verdict,
 //	                                    // VerdictReason and VerdictRule
-//	code := s.ExitCode(strict)          // 0 unless strict: see ExitCode
 //
 // Soaks, the safety trip and the history:
 //
@@ -36,7 +35,6 @@
 //	err = m.SetTrip(loop.Trip, fire)    // fire(TripEvent) once, from Feed, outside the monitor's lock
 //	ev := m.Tripped()                   // *TripEvent, nil until it fires
 //	h := m.History()                    // []Point, at most 4096, every Options.HistoryEvery (doubling)
-//	code = s.SoakExitCode()             // or s.TripExitCode()
 //
 // A phase's predicted value is the mean of the predicted E[eᵀe] in force
 // at each of its judged samples: a quasi-static approximation for ramps
@@ -61,12 +59,8 @@
 //
 // # Exit codes
 //
-// From cmd/internal/exitcode. ExitCode(strict): 0 without strict; with
-// strict 0 agree, 3 above, 4 below, 5 inconclusive, 6 a prediction not
-// certified stable (unstable or marginal). SoakExitCode: 8 when the
-// safety trip fired, else 7 when a phase failed its check, else 5 when a
-// phase was inconclusive or not run, else 0. TripExitCode: 8 when the
-// trip fired, else 0. 1 and 2 stay the commands' error and usage codes.
+// The engine gives verdicts, not exit statuses: the commands turn a
+// Summary into one (cmd/internal/exitcode: OfRun, OfSoak, OfTrip).
 //
 // pred may be nil: New then computes estimate.Predict itself.
 //

@@ -4,7 +4,6 @@ import (
 	"fmt"
 	"math"
 
-	"rigwire/cmd/internal/stability"
 	"rigwire/estimate"
 	"rigwire/profiles"
 )
@@ -166,7 +165,7 @@ func stabilityOf(pred *estimate.Prediction) string {
 	if pred == nil {
 		return estimate.StabilityUnstable
 	}
-	switch v := stability.Of(pred); {
+	switch v := estimate.VerdictOf(pred); {
 	case v == estimate.StabilityStable && pred.Error != nil:
 		return ""
 	case v == estimate.StabilityMarginal:

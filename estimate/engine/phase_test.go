@@ -6,7 +6,6 @@ import (
 	"testing"
 	"time"
 
-	"rigwire/cmd/internal/exitcode"
 	"rigwire/estimate"
 	"rigwire/profiles"
 )
@@ -131,46 +130,12 @@ func TestPhases(t *testing.T) {
 		t.Errorf("e, f: a prediction inside the interval flagged outside")
 	}
 	s := m.Summary()
-	if len(s.Phases) != 10 || s.SoakExitCode() != exitcode.PhaseFailed || s.TripExitCode() != exitcode.OK {
-		t.Errorf("summary phases %d soak exit %d", len(s.Phases), s.SoakExitCode())
+	if len(s.Phases) != 10 || s.Phases[0].Verdict == "" || s.Trip != nil {
+		t.Errorf("summary phases %d, trip %v", len(s.Phases), s.Trip)
 	}
 	// The run keeps the monitor's own prediction.
 	if *s.PredictedSecondMoment != 0.04 || m.Prediction().Error.SecondMoment != 0.04 {
 		t.Errorf("run prediction changed: %v", *s.PredictedSecondMoment)
-	}
-}
-
-// The soak's exit status: the trip before a failed phase before an
-// inconclusive or not-run one.
-func TestSoakExitCode(t *testing.T) {
-	ph := func(vs ...string) []PhaseResult {
-		var out []PhaseResult
-		for _, v := range vs {
-			out = append(out, PhaseResult{Verdict: v})
-		}
-		return out
-	}
-	cases := []struct {
-		name   string
-		phases []PhaseResult
-		trip   bool
-		want   int
-	}{
-		{"all passed", ph(PhasePass, PhasePass), false, exitcode.OK},
-		{"inconclusive", ph(PhasePass, PhaseInconclusive), false, exitcode.Inconclusive},
-		{"not run", ph(PhasePass, PhaseNotRun), false, exitcode.Inconclusive},
-		{"failed beats inconclusive", ph(PhaseInconclusive, PhaseFail, PhaseNotRun), false, exitcode.PhaseFailed},
-		{"trip beats all", ph(PhaseFail, PhaseNotRun), true, exitcode.Tripped},
-		{"no phases", nil, false, exitcode.OK},
-	}
-	for _, c := range cases {
-		s := &Summary{Phases: c.phases}
-		if c.trip {
-			s.Trip = &TripEvent{}
-		}
-		if got := s.SoakExitCode(); got != c.want {
-			t.Errorf("%s: %d, want %d", c.name, got, c.want)
-		}
 	}
 }
 
@@ -225,8 +190,8 @@ func TestPhaseCutByTrip(t *testing.T) {
 		t.Errorf("cool-down: %+v", cool)
 	}
 	s := m.Summary()
-	if s.Samples != 91 || s.AfterTripSamples != 55 || s.SoakExitCode() != exitcode.Tripped {
-		t.Errorf("run: %d samples, %d after the trip, soak exit %d", s.Samples, s.AfterTripSamples, s.SoakExitCode())
+	if s.Samples != 91 || s.AfterTripSamples != 55 || s.Trip == nil {
+		t.Errorf("run: %d samples, %d after the trip, trip %v", s.Samples, s.AfterTripSamples, s.Trip)
 	}
 }
 
@@ -250,8 +215,8 @@ func TestPhasesNotRun(t *testing.T) {
 			t.Errorf("%s: %s %q", p.Name, p.Verdict, p.Reason)
 		}
 	}
-	if code := m.Summary().SoakExitCode(); code != exitcode.Inconclusive {
-		t.Errorf("soak exit %d, want %d", code, exitcode.Inconclusive)
+	if s := m.Summary(); s.Trip != nil || len(s.Phases) != 3 {
+		t.Errorf("summary: trip %v, %d phases", s.Trip, len(s.Phases))
 	}
 }
 

@@ -6,59 +6,9 @@ import (
 	"strings"
 	"time"
 
-	"rigwire/cmd/internal/exitcode"
-	"rigwire/cmd/internal/stability"
 	"rigwire/estimate"
 	"rigwire/profiles"
 )
-
-// ExitCode is the process exit status for the verdict: 0 unless strict;
-// with strict 0 agree, 3 above, 4 below, 5 inconclusive, 6 a prediction
-// not certified stable (exitcode.Above, Below, Inconclusive, NotStable).
-func (s *Summary) ExitCode(strict bool) int {
-	if !strict {
-		return exitcode.OK
-	}
-	switch s.Verdict {
-	case VerdictAgree:
-		return exitcode.OK
-	case VerdictAbove:
-		return exitcode.Above
-	case VerdictBelow:
-		return exitcode.Below
-	case VerdictUnstable:
-		return exitcode.NotStable
-	}
-	return exitcode.Inconclusive
-}
-
-// TripExitCode is exitcode.Tripped (8) when the safety trip fired, else 0.
-func (s *Summary) TripExitCode() int {
-	if s.Trip != nil {
-		return exitcode.Tripped
-	}
-	return exitcode.OK
-}
-
-// SoakExitCode is the exit status of a soak, the first that applies:
-// exitcode.Tripped (8) when the safety trip fired, exitcode.PhaseFailed
-// (7) when a phase failed its check, exitcode.Inconclusive (5) when a
-// phase was inconclusive or not run, else 0.
-func (s *Summary) SoakExitCode() int {
-	if s.Trip != nil {
-		return exitcode.Tripped
-	}
-	code := exitcode.OK
-	for _, p := range s.Phases {
-		switch p.Verdict {
-		case PhaseFail:
-			return exitcode.PhaseFailed
-		case PhaseInconclusive, PhaseNotRun:
-			code = exitcode.Inconclusive
-		}
-	}
-	return code
-}
 
 // Summary is the JSON summary of `monitor run` (the keys a lab script
 // reads first). Values that do not exist (no samples yet, unstable
@@ -203,7 +153,7 @@ func (m *Monitor) Summary() *Summary {
 		s.SampledSeconds = m.last.Sub(m.first).Seconds()
 	}
 	if p := m.pred; p != nil {
-		s.Predicted = Predicted{MeanSquareStable: p.MeanSquareStable, Stability: stability.Of(p), SpectralRadius: p.SpectralRadius,
+		s.Predicted = Predicted{MeanSquareStable: p.MeanSquareStable, Stability: estimate.VerdictOf(p), SpectralRadius: p.SpectralRadius,
 			SpectralRadiusError: finite(p.RadiusError), LossMargin: finite(p.LossMargin)}
 		if p.Error != nil {
 			s.Predicted.ErrorMean, s.Predicted.ErrorStd = finites(p.Error.Mean), finite(p.Error.Std)
