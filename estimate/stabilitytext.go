@@ -9,7 +9,6 @@ package estimate
 import (
 	"math"
 	"strconv"
-
 )
 
 // Of is the prediction's verdict: StabilityStable,

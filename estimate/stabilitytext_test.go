@@ -6,7 +6,6 @@ import (
 	"strconv"
 	"strings"
 	"testing"
-
 )
 
 func TestRadius(t *testing.T) {
