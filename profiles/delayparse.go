@@ -6,6 +6,7 @@ import (
 	"io"
 	"math"
 	"path/filepath"
+	"rigwire/profiles/yamlpos"
 	"sort"
 	"strconv"
 	"strings"
@@ -19,7 +20,7 @@ type delayKind struct {
 	keys     []string // the kind's own keys, besides kind and shift
 	required []string
 	shift    bool // whether `shift` is allowed
-	build    func(k map[string]Field, dir string, depth int) (Delay, error)
+	build    func(k map[string]yamlpos.Field, dir string, depth int) (Delay, error)
 }
 
 // maxMixtureDepth bounds mixtures of mixtures (and so what aliases can
@@ -33,21 +34,21 @@ func init() {
 		"constant": {keys: []string{"value"}, required: []string{"value"}, build: buildConstant},
 		"uniform":  {keys: []string{"min", "max"}, required: []string{"min", "max"}, build: buildUniform},
 		"normal":   {keys: []string{"mean", "std"}, required: []string{"mean", "std"}, shift: true, build: buildNormal},
-		"exponential": {keys: []string{"mean"}, required: []string{"mean"}, shift: true, build: func(k map[string]Field, _ string, _ int) (Delay, error) {
+		"exponential": {keys: []string{"mean"}, required: []string{"mean"}, shift: true, build: func(k map[string]yamlpos.Field, _ string, _ int) (Delay, error) {
 			m, err := k["mean"].PositiveDurationMax(MaxDelay)
 			if err != nil {
 				return nil, err
 			}
 			return NewExponential(m, 0)
 		}},
-		"gamma": {keys: []string{"shape", "scale"}, required: []string{"shape", "scale"}, shift: true, build: func(k map[string]Field, _ string, _ int) (Delay, error) {
+		"gamma": {keys: []string{"shape", "scale"}, required: []string{"shape", "scale"}, shift: true, build: func(k map[string]yamlpos.Field, _ string, _ int) (Delay, error) {
 			a, s, err := shapeScale(k)
 			if err != nil {
 				return nil, err
 			}
 			return NewGamma(a, s, 0)
 		}},
-		"lognormal": {keys: []string{"median", "sigma"}, required: []string{"median", "sigma"}, shift: true, build: func(k map[string]Field, _ string, _ int) (Delay, error) {
+		"lognormal": {keys: []string{"median", "sigma"}, required: []string{"median", "sigma"}, shift: true, build: func(k map[string]yamlpos.Field, _ string, _ int) (Delay, error) {
 			m, err := k["median"].PositiveDurationMax(MaxDelay)
 			if err != nil {
 				return nil, err
@@ -61,14 +62,14 @@ func init() {
 			}
 			return NewLognormal(m, s, 0)
 		}},
-		"weibull": {keys: []string{"shape", "scale"}, required: []string{"shape", "scale"}, shift: true, build: func(k map[string]Field, _ string, _ int) (Delay, error) {
+		"weibull": {keys: []string{"shape", "scale"}, required: []string{"shape", "scale"}, shift: true, build: func(k map[string]yamlpos.Field, _ string, _ int) (Delay, error) {
 			a, s, err := shapeScale(k)
 			if err != nil {
 				return nil, err
 			}
 			return NewWeibull(a, s, 0)
 		}},
-		"pareto": {keys: []string{"shape", "scale"}, required: []string{"shape", "scale"}, build: func(k map[string]Field, _ string, _ int) (Delay, error) {
+		"pareto": {keys: []string{"shape", "scale"}, required: []string{"shape", "scale"}, build: func(k map[string]yamlpos.Field, _ string, _ int) (Delay, error) {
 			a, s, err := shapeScale(k)
 			if err != nil {
 				return nil, err
@@ -93,18 +94,18 @@ func DelayKinds() []string {
 // ParseDelay reads a delay law from a field holding a `delay` mapping
 // ({kind: lognormal, median: 3ms, sigma: 0.4}) or a lone duration (a
 // constant). dir resolves an empirical file's relative path.
-func ParseDelay(f Field, dir string) (Delay, error) {
+func ParseDelay(f yamlpos.Field, dir string) (Delay, error) {
 	return parseDelay(f, dir, 0)
 }
 
-func parseDelay(f Field, dir string, depth int) (Delay, error) {
+func parseDelay(f yamlpos.Field, dir string, depth int) (Delay, error) {
 	d, _, err := parseDelayExtra(f, dir, depth)
 	return d, err
 }
 
 // parseDelayExtra parses a law whose mapping may also hold the keys in
 // extra (a mixture part's weight), returned by name.
-func parseDelayExtra(f Field, dir string, depth int, extra ...string) (Delay, map[string]Field, error) {
+func parseDelayExtra(f yamlpos.Field, dir string, depth int, extra ...string) (Delay, map[string]yamlpos.Field, error) {
 	if f.Node != nil && f.Node.Kind == yaml.ScalarNode && len(extra) == 0 && !f.IsNull() {
 		v, err := f.DurationIn(0, MaxDelay)
 		if err != nil {
@@ -134,7 +135,7 @@ func parseDelayExtra(f Field, dir string, depth int, extra ...string) (Delay, ma
 	}
 	kind, ok := delayKinds[name]
 	if !ok {
-		return nil, nil, kf.Errorf("unknown kind %s (want one of %s)", Token(name), strings.Join(DelayKinds(), ", "))
+		return nil, nil, kf.Errorf("unknown kind %s (want one of %s)", yamlpos.Token(name), strings.Join(DelayKinds(), ", "))
 	}
 	// Second pass: only the kind's keys.
 	allowed := append([]string{"kind"}, kind.keys...)
@@ -143,8 +144,8 @@ func parseDelayExtra(f Field, dir string, depth int, extra ...string) (Delay, ma
 	}
 	allowed = append(allowed, extra...)
 	if _, err := f.Mapping(allowed...); err != nil {
-		var pe *Error
-		if e, ok := err.(*Error); ok {
+		var pe *yamlpos.Error
+		if e, ok := err.(*yamlpos.Error); ok {
 			pe = e
 			if k := keys["shift"]; !kind.shift && k.Node != nil && strings.Contains(pe.Msg, `"shift"`) {
 				pe.Msg = fmt.Sprintf("kind %s takes no shift", name)
@@ -178,7 +179,7 @@ func parseDelayExtra(f Field, dir string, depth int, extra ...string) (Delay, ma
 			return nil, nil, wrapLawError(f, err)
 		}
 	}
-	out := make(map[string]Field, len(extra))
+	out := make(map[string]yamlpos.Field, len(extra))
 	for _, e := range extra {
 		if g, ok := keys[e]; ok {
 			out[e] = g
@@ -189,8 +190,8 @@ func parseDelayExtra(f Field, dir string, depth int, extra ...string) (Delay, ma
 
 // wrapLawError positions an error from a constructor (checks the fields
 // did not already make) at the law's mapping.
-func wrapLawError(f Field, err error) error {
-	if _, ok := err.(*Error); ok {
+func wrapLawError(f yamlpos.Field, err error) error {
+	if _, ok := err.(*yamlpos.Error); ok {
 		return err
 	}
 	return f.Errorf("%v", err)
@@ -208,7 +209,7 @@ func uniq(s []string) []string {
 	return out
 }
 
-func shapeScale(k map[string]Field) (shape, scale float64, err error) {
+func shapeScale(k map[string]yamlpos.Field) (shape, scale float64, err error) {
 	if shape, err = k["shape"].FloatIn(MinShape, MaxShape); err != nil {
 		return 0, 0, err
 	}
@@ -218,7 +219,7 @@ func shapeScale(k map[string]Field) (shape, scale float64, err error) {
 	return shape, scale, nil
 }
 
-func buildConstant(k map[string]Field, _ string, _ int) (Delay, error) {
+func buildConstant(k map[string]yamlpos.Field, _ string, _ int) (Delay, error) {
 	v, err := k["value"].DurationIn(0, MaxDelay)
 	if err != nil {
 		return nil, err
@@ -226,7 +227,7 @@ func buildConstant(k map[string]Field, _ string, _ int) (Delay, error) {
 	return Constant{Value: v}, nil
 }
 
-func buildUniform(k map[string]Field, _ string, _ int) (Delay, error) {
+func buildUniform(k map[string]yamlpos.Field, _ string, _ int) (Delay, error) {
 	lo, err := k["min"].DurationIn(0, MaxDelay)
 	if err != nil {
 		return nil, err
@@ -241,7 +242,7 @@ func buildUniform(k map[string]Field, _ string, _ int) (Delay, error) {
 	return NewUniform(lo, hi)
 }
 
-func buildNormal(k map[string]Field, _ string, _ int) (Delay, error) {
+func buildNormal(k map[string]yamlpos.Field, _ string, _ int) (Delay, error) {
 	m, err := k["mean"].DurationIn(-MaxDelay, MaxDelay)
 	if err != nil {
 		return nil, err
@@ -256,7 +257,7 @@ func buildNormal(k map[string]Field, _ string, _ int) (Delay, error) {
 	return NewNormal(m, s, 0)
 }
 
-func buildEmpirical(k map[string]Field, dir string, _ int) (Delay, error) {
+func buildEmpirical(k map[string]yamlpos.Field, dir string, _ int) (Delay, error) {
 	sf, hasSamples := k["samples"]
 	ff, hasFile := k["file"]
 	var samples []float64
@@ -286,7 +287,7 @@ func buildEmpirical(k map[string]Field, dir string, _ int) (Delay, error) {
 		if err != nil {
 			return nil, err
 		}
-		fh, err := openRelative(ff, name, dir, "samples file", MaxSamplesBytes)
+		fh, err := openRelative(ff, name, dir, "samples file", yamlpos.MaxSamplesBytes)
 		if err != nil {
 			return nil, err
 		}
@@ -300,7 +301,7 @@ func buildEmpirical(k map[string]Field, dir string, _ int) (Delay, error) {
 	return NewEmpirical(samples, 0)
 }
 
-func buildMixture(k map[string]Field, dir string, depth int) (Delay, error) {
+func buildMixture(k map[string]yamlpos.Field, dir string, depth int) (Delay, error) {
 	pf := k["parts"]
 	if depth >= maxMixtureDepth {
 		return nil, pf.Errorf("mixtures nested deeper than %d", maxMixtureDepth)
@@ -340,18 +341,18 @@ func buildMixture(k map[string]Field, dir string, depth int) (Delay, error) {
 // the profile's directory dir, when it is a regular file of at most limit
 // bytes (see OpenInputFile); an error is positioned at the key. The
 // reader it returns fails should the file grow past limit while read.
-func openRelative(ff Field, name, dir, what string, limit int64) (io.ReadCloser, error) {
+func openRelative(ff yamlpos.Field, name, dir, what string, limit int64) (io.ReadCloser, error) {
 	path := name
 	if !filepath.IsAbs(path) && dir != "" {
 		path = filepath.Join(dir, path)
 	}
-	fh, _, err := OpenInputFile(path, what, limit)
+	fh, _, err := yamlpos.OpenInputFile(path, what, limit)
 	if err != nil {
-		shown := Token(name)
+		shown := yamlpos.Token(name)
 		if len(name) <= 256 {
 			shown = strconv.Quote(name) // a path of our own file: shown whole
 		}
-		var fe *FileError
+		var fe *yamlpos.FileError
 		if errors.As(err, &fe) && fe.Msg == "" {
 			return nil, ff.Errorf("cannot open %s: %s", shown, fe.Reason())
 		}
@@ -363,5 +364,5 @@ func openRelative(ff Field, name, dir, what string, limit int64) (io.ReadCloser,
 	return struct {
 		io.Reader
 		io.Closer
-	}{LimitedReader(fh, name, what, limit), fh}, nil
+	}{yamlpos.LimitedReader(fh, name, what, limit), fh}, nil
 }

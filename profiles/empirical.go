@@ -7,6 +7,7 @@ import (
 	"io"
 	"math"
 	"math/rand/v2"
+	"rigwire/profiles/yamlpos"
 	"slices"
 	"sort"
 	"strconv"
@@ -68,7 +69,7 @@ func NewEmpirical(samples []float64, shift float64) (Delay, error) {
 // MaxSamples bounds the delays of one empirical law, given inline or in a
 // file: a file obeys the bound an inline list has (a YAML file holds at
 // most MaxNodes values).
-const MaxSamples = MaxNodes
+const MaxSamples = yamlpos.MaxNodes
 
 // ReadSamples reads delays, one a line, as a duration ("3ms") or plain
 // seconds; blank lines and lines starting with # are skipped. Every delay
@@ -88,9 +89,9 @@ func ReadSamples(name string, r io.Reader) ([]float64, error) {
 		if t == "" || strings.HasPrefix(t, "#") {
 			continue
 		}
-		v, err := ParseDuration(t)
+		v, err := yamlpos.ParseDuration(t)
 		if err != nil {
-			return nil, fmt.Errorf("%s:%d: want a delay (seconds, or a duration such as \"3ms\"), got %s", name, line, shownNumber(t))
+			return nil, fmt.Errorf("%s:%d: want a delay (seconds, or a duration such as \"3ms\"), got %s", name, line, yamlpos.ShownNumber(t))
 		}
 		if !(v >= 0) || v > MaxDelay {
 			return nil, fmt.Errorf("%s:%d: want a delay in [0, %g] seconds, got %s", name, line, MaxDelay, strconv.FormatFloat(v, 'g', 6, 64))

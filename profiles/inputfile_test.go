@@ -6,6 +6,7 @@ import (
 	"math/rand/v2"
 	"os"
 	"path/filepath"
+	"rigwire/profiles/yamlpos"
 	"runtime"
 	"strings"
 	"syscall"
@@ -166,7 +167,7 @@ func TestReadInputFile(t *testing.T) {
 	}
 	for _, c := range cases {
 		t.Run(c.name, func(t *testing.T) {
-			data, err := ReadInputFile(c.path, "profile", c.limit)
+			data, err := yamlpos.ReadInputFile(c.path, "profile", c.limit)
 			if c.want == "" {
 				if err != nil || len(data) == 0 {
 					t.Fatalf("got %q, %v", data, err)
@@ -217,14 +218,14 @@ func TestLargeYAMLRefusedCheaply(t *testing.T) {
 		name string
 		data []byte
 	}{
-		{"flow list", flowList(MaxNodes + 10)},
+		{"flow list", flowList(yamlpos.MaxNodes + 10)},
 		{"flow mapping of keys", []byte("x: {" + strings.Repeat("a,", 400_000) + "b}\n")},
 		{"block list", []byte(strings.Repeat("- 0\n", 200_000))},
 		{"block mapping", []byte(strings.Repeat("? a\n", 200_000))},
 	}
 	for _, s := range shapes {
 		t.Run(s.name, func(t *testing.T) {
-			if len(s.data) > MaxYAMLBytes {
+			if len(s.data) > yamlpos.MaxYAMLBytes {
 				t.Fatalf("test file of %d bytes is over the cap", len(s.data))
 			}
 			var err error
@@ -240,7 +241,7 @@ func TestLargeYAMLRefusedCheaply(t *testing.T) {
 	}
 
 	// The densest file that is within the limits still loads.
-	ok := flowList(MaxNodes - 100)
+	ok := flowList(yamlpos.MaxNodes - 100)
 	var p *Profile
 	n = allocated(func() {
 		err = within(t, func() error { var e error; p, e = Parse(ok, "ok.yaml", dir); return e })
@@ -248,12 +249,12 @@ func TestLargeYAMLRefusedCheaply(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if got := p.SensorToController.States[0].Delay.(*Empirical).Len(); got != MaxNodes-100 {
-		t.Errorf("loaded %d samples, want %d", got, MaxNodes-100)
+	if got := p.SensorToController.States[0].Delay.(*Empirical).Len(); got != yamlpos.MaxNodes-100 {
+		t.Errorf("loaded %d samples, want %d", got, yamlpos.MaxNodes-100)
 	}
-	t.Logf("loading %d values: %d MB allocated", MaxNodes-100, n>>20)
+	t.Logf("loading %d values: %d MB allocated", yamlpos.MaxNodes-100, n>>20)
 	if n > memBudget {
-		t.Errorf("allocated %d MB loading %d values, want under %d MB", n>>20, MaxNodes-100, memBudget>>20)
+		t.Errorf("allocated %d MB loading %d values, want under %d MB", n>>20, yamlpos.MaxNodes-100, memBudget>>20)
 	}
 }
 
@@ -417,38 +418,5 @@ func TestMessagesOnForeignFiles(t *testing.T) {
 				}
 			})
 		}
-	}
-}
-
-func TestToken(t *testing.T) {
-	cases := []struct{ name, in, want string }{
-		{"short", "abc", `"abc"`},
-		{"control characters", "a\x00b\x1b", `"a\x00b\x1b"`},
-		{"invalid UTF-8", "\xff\xfe", `"\xff\xfe"`},
-		{"long", strings.Repeat("é", 50), `"` + strings.Repeat("é", 40) + `"…`},
-	}
-	for _, c := range cases {
-		t.Run(c.name, func(t *testing.T) {
-			if got := Token(c.in); got != c.want {
-				t.Errorf("got %s, want %s", got, c.want)
-			}
-		})
-	}
-}
-
-func TestParserText(t *testing.T) {
-	cases := []struct{ name, in, want string }{
-		{"plain", "unknown anchor 'y' referenced", "unknown anchor 'y' referenced"},
-		{"control characters", "a\x01b\n", `a\x01b\n`},
-		{"invalid UTF-8", "b\xffc", `b\xffc`},
-		{"replacement character kept", "a\uFFFDé", "a\uFFFDé"},
-		{"long", strings.Repeat("x", 200), strings.Repeat("x", 160) + "…"},
-	}
-	for _, c := range cases {
-		t.Run(c.name, func(t *testing.T) {
-			if got := parserText(c.in); got != c.want {
-				t.Errorf("got %q, want %q", got, c.want)
-			}
-		})
 	}
 }

@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"math"
 	"path/filepath"
+	"rigwire/profiles/yamlpos"
 	"strconv"
 
 	"gopkg.in/yaml.v3"
@@ -15,7 +16,7 @@ import (
 //
 //	pick.yaml:7: sensor_to_controller: unknown key "lossy" (want one of: loss, delay, states, trace)
 func Load(path string) (*Profile, error) {
-	data, err := ReadInputFile(path, "profile", MaxYAMLBytes)
+	data, err := yamlpos.ReadInputFile(path, "profile", yamlpos.MaxYAMLBytes)
 	if err != nil {
 		return nil, err
 	}
@@ -30,7 +31,7 @@ func Load(path string) (*Profile, error) {
 // Parse validates a profile held in memory. file names it in messages; dir
 // is the directory that relative paths inside it are resolved against.
 func Parse(data []byte, file, dir string) (*Profile, error) {
-	root, err := Document(file, data)
+	root, err := yamlpos.Document(file, data)
 	if err != nil {
 		return nil, err
 	}
@@ -43,20 +44,20 @@ func Parse(data []byte, file, dir string) (*Profile, error) {
 // relative paths. Key paths in errors start at the profile's own keys;
 // use ParseField to have them start with the enclosing key.
 func ParseNode(node *yaml.Node, file, dir string) (*Profile, error) {
-	return parseProfile(NodeField(file, "", node), dir)
+	return parseProfile(yamlpos.NodeField(file, "", node), dir)
 }
 
 // ParseField is ParseNode for a Field, keeping its key path in messages:
 // `loop.yaml:14: profile.sensor_to_controller.loss: want a number in [0, 1], got "2"`.
-func ParseField(f Field, dir string) (*Profile, error) {
+func ParseField(f yamlpos.Field, dir string) (*Profile, error) {
 	return parseProfile(f, dir)
 }
 
-func parseProfile(root Field, dir string) (*Profile, error) {
+func parseProfile(root yamlpos.Field, dir string) (*Profile, error) {
 	if root.IsNull() {
 		return nil, root.Errorf("want a profile (a mapping), got %s", root.Got())
 	}
-	if err := root.CheckSize(MaxNodes); err != nil {
+	if err := root.CheckSize(yamlpos.MaxNodes); err != nil {
 		return nil, err
 	}
 	keys, err := root.Mapping("name", "seed", SensorToController, ControllerToActuator)
@@ -102,7 +103,7 @@ func Clean() *Channel {
 	return &Channel{States: []State{{Name: "clean", MeanDwell: math.Inf(1), Delay: Constant{}}}}
 }
 
-func parseChannel(f Field, dir string) (*Channel, error) {
+func parseChannel(f yamlpos.Field, dir string) (*Channel, error) {
 	if f.IsNull() {
 		return Clean(), nil
 	}
@@ -124,7 +125,7 @@ func parseChannel(f Field, dir string) (*Channel, error) {
 	}
 	for _, k := range []string{"loss", "delay"} {
 		if g, ok := keys[k]; ok {
-			return nil, &Error{File: f.File, Line: g.Line(), Key: f.Path, Msg: fmt.Sprintf("want either states or loss/delay, got both (%s and states)", k)}
+			return nil, &yamlpos.Error{File: f.File, Line: g.Line(), Key: f.Path, Msg: fmt.Sprintf("want either states or loss/delay, got both (%s and states)", k)}
 		}
 	}
 	return parseStates(st, dir)
@@ -132,7 +133,7 @@ func parseChannel(f Field, dir string) (*Channel, error) {
 
 // parseLossDelay reads the loss and delay keys shared by a plain direction
 // and a state.
-func parseLossDelay(keys map[string]Field, dir string) (State, error) {
+func parseLossDelay(keys map[string]yamlpos.Field, dir string) (State, error) {
 	s := State{Delay: Constant{}}
 	var err error
 	if f, ok := keys["loss"]; ok {
@@ -148,7 +149,7 @@ func parseLossDelay(keys map[string]Field, dir string) (State, error) {
 	return s, nil
 }
 
-func parseStates(f Field, dir string) (*Channel, error) {
+func parseStates(f yamlpos.Field, dir string) (*Channel, error) {
 	items, err := f.Seq()
 	if err != nil {
 		return nil, err
@@ -162,7 +163,7 @@ func parseStates(f Field, dir string) (*Channel, error) {
 	n := len(items)
 	c := &Channel{States: make([]State, n)}
 	index := make(map[string]int, n)
-	nexts := make([]Field, n)
+	nexts := make([]yamlpos.Field, n)
 	for i, it := range items {
 		keys, err := it.Mapping("name", "mean_dwell", "loss", "delay", "next")
 		if err != nil {
@@ -182,7 +183,7 @@ func parseStates(f Field, dir string) (*Channel, error) {
 			}
 		}
 		if _, dup := index[s.Name]; dup {
-			return nil, keys["name"].Errorf("state name %s used twice", Token(s.Name))
+			return nil, keys["name"].Errorf("state name %s used twice", yamlpos.Token(s.Name))
 		}
 		index[s.Name] = i
 		s.MeanDwell = math.Inf(1)
@@ -245,7 +246,7 @@ func parseStates(f Field, dir string) (*Channel, error) {
 		c.States[i].Jump = jump
 	}
 	if i, j, ok := unreachable(c); ok {
-		return nil, f.Errorf("state %s cannot be reached from state %s; want every state reachable from every other", Token(c.States[j].Name), Token(c.States[i].Name))
+		return nil, f.Errorf("state %s cannot be reached from state %s; want every state reachable from every other", yamlpos.Token(c.States[j].Name), yamlpos.Token(c.States[i].Name))
 	}
 	return c, nil
 }

@@ -15,6 +15,7 @@ import (
 	"gopkg.in/yaml.v3"
 
 	"rigwire/profiles"
+	"rigwire/profiles/yamlpos"
 )
 
 // expectedErrors pairs each testdata/*.bad.yaml with the one message it
@@ -85,9 +86,9 @@ func TestBadProfiles(t *testing.T) {
 			if strings.Count(err.Error(), "testdata/") != 1 {
 				t.Errorf("want one positioned error, got %q", err)
 			}
-			var pe *profiles.Error
+			var pe *yamlpos.Error
 			if !errors.As(err, &pe) {
-				t.Errorf("error %T is not a *profiles.Error", err)
+				t.Errorf("error %T is not a *yamlpos.Error", err)
 			}
 		})
 	}
@@ -323,7 +324,7 @@ profile:
 	if err == nil || err.Error() != want {
 		t.Errorf("ParseNode: got %v, want %q", err, want)
 	}
-	root, err := profiles.Document("loop.yaml", []byte(loop))
+	root, err := yamlpos.Document("loop.yaml", []byte(loop))
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -376,7 +377,7 @@ func FuzzParse(f *testing.F) {
 	f.Fuzz(func(t *testing.T, data []byte) {
 		p, err := profiles.Parse(data, "fuzz.yaml", t.TempDir())
 		if err != nil {
-			var pe *profiles.Error
+			var pe *yamlpos.Error
 			if !errors.As(err, &pe) {
 				t.Fatalf("error %T is not positioned: %v", err, err)
 			}

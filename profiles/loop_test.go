@@ -5,6 +5,7 @@ import (
 	"math"
 	"os"
 	"path/filepath"
+	"rigwire/profiles/yamlpos"
 	"strings"
 	"testing"
 )
@@ -61,7 +62,7 @@ func TestLoadLoopBad(t *testing.T) {
 			if got := err.Error(); got != f+want {
 				t.Errorf("got  %s\nwant %s", got, f+want)
 			}
-			var pe *Error
+			var pe *yamlpos.Error
 			if !errors.As(err, &pe) {
 				t.Errorf("error is not a positioned *Error: %T", err)
 			}

@@ -1,6 +1,10 @@
 package profiles
 
-import "strings"
+import (
+	"rigwire/profiles/yamlpos"
+	"slices"
+	"strings"
+)
 
 // parseDecode reads the decode section of a loop file (docs/formats.md, the loop file's decode):
 //
@@ -11,7 +15,7 @@ import "strings"
 // outputs must list one field per plant output (p); a binary order
 // defaults to little. The sequence of a binary format must be an integer
 // type.
-func parseDecode(f Field, d *Decode, p int) error {
+func parseDecode(f yamlpos.Field, d *Decode, p int) error {
 	keys, err := f.Mapping("format", "separator", "outputs", "sequence")
 	if err != nil {
 		return err
@@ -67,7 +71,7 @@ func parseDecode(f Field, d *Decode, p int) error {
 
 var binaryTypes = []string{"float32", "float64", "int16", "int32", "int64", "uint16", "uint32"}
 
-func parseDecodeField(f Field, format string, counter bool) (DecodeField, error) {
+func parseDecodeField(f yamlpos.Field, format string, counter bool) (DecodeField, error) {
 	var df DecodeField
 	if format == "text" {
 		keys, err := f.Mapping("field")
@@ -101,7 +105,7 @@ func parseDecodeField(f Field, format string, counter bool) (DecodeField, error)
 	if df.Type, err = keys["type"].Text(); err != nil {
 		return df, err
 	}
-	if !contains(binaryTypes, df.Type) {
+	if !slices.Contains(binaryTypes, df.Type) {
 		return df, keys["type"].Errorf("want one of %s, got %s", strings.Join(binaryTypes, ", "), keys["type"].Got())
 	}
 	if counter && strings.HasPrefix(df.Type, "float") {

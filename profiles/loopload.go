@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"math"
 	"path/filepath"
+	"rigwire/profiles/yamlpos"
 
 	"gonum.org/v1/gonum/mat"
 	"gopkg.in/yaml.v3"
@@ -16,7 +17,7 @@ import (
 //
 //	loop.yaml:12: controller.d: want 1×1, got 1×2
 func LoadLoop(path string) (*Loop, error) {
-	data, err := ReadInputFile(path, "loop file", MaxYAMLBytes)
+	data, err := yamlpos.ReadInputFile(path, "loop file", yamlpos.MaxYAMLBytes)
 	if err != nil {
 		return nil, err
 	}
@@ -32,7 +33,7 @@ func LoadLoop(path string) (*Loop, error) {
 // messages; dir is the directory that the profile path is resolved
 // against.
 func ParseLoop(data []byte, file, dir string) (*Loop, error) {
-	root, err := Document(file, data)
+	root, err := yamlpos.Document(file, data)
 	if err != nil {
 		return nil, err
 	}
@@ -43,7 +44,7 @@ func ParseLoop(data []byte, file, dir string) (*Loop, error) {
 // largest entry are taken for rounding in the file (common practice).
 const psdTolerance = 1e-12
 
-func parseLoop(root Field, dir string) (*Loop, error) {
+func parseLoop(root yamlpos.Field, dir string) (*Loop, error) {
 	keys, err := root.Mapping("period", "plant", "controller", "setpoint", "compute_delay",
 		"profile", "actuator", "decode", "trip")
 	if err != nil {
@@ -147,9 +148,9 @@ func parseLoop(root Field, dir string) (*Loop, error) {
 
 // missing is the error for a required key that is absent, at the line of
 // the mapping that should hold it.
-func missing(parent Field, key string) *Error {
+func missing(parent yamlpos.Field, key string) *yamlpos.Error {
 	line := parent.Line()
-	return &Error{File: parent.File, Line: line, Key: parent.Key(key), Msg: "missing (required)"}
+	return &yamlpos.Error{File: parent.File, Line: line, Key: parent.Key(key), Msg: "missing (required)"}
 }
 
 func shape(m *mat.Dense) string {
@@ -157,7 +158,7 @@ func shape(m *mat.Dense) string {
 	return fmt.Sprintf("%d×%d", r, c)
 }
 
-func parsePlant(f Field, pl *Plant) error {
+func parsePlant(f yamlpos.Field, pl *Plant) error {
 	keys, err := f.Mapping("a", "b", "c", "process_noise", "sensor_noise")
 	if err != nil {
 		return err
@@ -198,7 +199,7 @@ func parsePlant(f Field, pl *Plant) error {
 
 // covariance reads an n×n symmetric positive semidefinite matrix; absent
 // means zeros.
-func covariance(f Field, n int) (*mat.Dense, error) {
+func covariance(f yamlpos.Field, n int) (*mat.Dense, error) {
 	if f.IsNull() {
 		return mat.NewDense(n, n, nil), nil
 	}
@@ -231,7 +232,7 @@ func covariance(f Field, n int) (*mat.Dense, error) {
 	return m, nil
 }
 
-func parseController(f Field, c *Controller, n, m, p int) error {
+func parseController(f yamlpos.Field, c *Controller, n, m, p int) error {
 	keys, err := f.Mapping("a", "b", "c", "d")
 	if err != nil {
 		return err

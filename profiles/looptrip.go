@@ -1,5 +1,7 @@
 package profiles
 
+import "rigwire/profiles/yamlpos"
+
 // DefaultTripWindow is the trip's window when the loop file gives none,
 // seconds (common practice: long enough to average, short enough to act).
 const DefaultTripWindow = 1.0
@@ -15,7 +17,7 @@ const DefaultTripWindow = 1.0
 //
 // At least one bound is required; the window must hold at least two
 // sampling periods.
-func parseTrip(f Field, t *Trip, period float64) error {
+func parseTrip(f yamlpos.Field, t *Trip, period float64) error {
 	keys, err := f.Mapping("max_abs_error", "max_second_moment", "max_ratio", "window", "action")
 	if err != nil {
 		return err
@@ -32,7 +34,7 @@ func parseTrip(f Field, t *Trip, period float64) error {
 		}
 	}
 	if g := keys["max_ratio"]; !g.IsZero() {
-		v, ok := g.float()
+		v, ok := g.AsFloat()
 		if !ok || v <= 1 {
 			return g.Errorf("want a number > 1, got %s", g.Got())
 		}

@@ -12,6 +12,7 @@ import (
 	"math"
 	"path/filepath"
 	"regexp"
+	"rigwire/profiles/yamlpos"
 	"strconv"
 	"strings"
 	"time"
@@ -61,9 +62,9 @@ type profileSource struct {
 
 // override is one dotted key of set, ramp or predict_with.
 type override struct {
-	name  string   // the dotted key as written
-	comps []string // its components
-	key   Field    // position of the key: Path "phases[1].set.a.b", Line of the key
+	name  string        // the dotted key as written
+	comps []string      // its components
+	key   yamlpos.Field // position of the key: Path "phases[1].set.a.b", Line of the key
 	value *yaml.Node
 	// A ramp's ends: the nodes as written and their values (seconds for
 	// durations).
@@ -88,7 +89,7 @@ type phaseSource struct {
 //
 //	conveyor.yaml:14: phases[1].ramp.sensor_to_controller.loss: at the phase end (to: 1.5): sensor_to_controller.loss: want a number in [0, 1], got "1.5"
 func LoadScenario(path string) (*Scenario, error) {
-	data, err := ReadInputFile(path, "scenario", MaxYAMLBytes)
+	data, err := yamlpos.ReadInputFile(path, "scenario", yamlpos.MaxYAMLBytes)
 	if err != nil {
 		return nil, err
 	}
@@ -107,14 +108,14 @@ func LoadScenario(path string) (*Scenario, error) {
 // errors: ramps are linear, and the profile's bounds on a ramped number
 // are intervals, so values in between are valid too.
 func ParseScenario(data []byte, file, dir string) (*Scenario, error) {
-	root, err := Document(file, data)
+	root, err := yamlpos.Document(file, data)
 	if err != nil {
 		return nil, err
 	}
 	return parseScenario(root, dir)
 }
 
-func parseScenario(root Field, dir string) (*Scenario, error) {
+func parseScenario(root yamlpos.Field, dir string) (*Scenario, error) {
 	keys, err := root.Mapping("name", "profile", "settle", "ramp_step", "phases")
 	if err != nil {
 		return nil, err
@@ -167,16 +168,16 @@ func parseScenario(root Field, dir string) (*Scenario, error) {
 			return nil, err
 		}
 		if names[ph.Name] {
-			return nil, &Error{File: it.File, Line: ph.Line, Key: it.Key("name"), Msg: fmt.Sprintf("phase name %q used twice", ph.Name)}
+			return nil, &yamlpos.Error{File: it.File, Line: ph.Line, Key: it.Key("name"), Msg: fmt.Sprintf("phase name %q used twice", ph.Name)}
 		}
 		names[ph.Name] = true
 		s.Phases = append(s.Phases, ph)
 		s.src = append(s.src, src)
 	}
 	if n, err := s.stepCount(); err != nil {
-		return nil, &Error{File: root.File, Line: keys["ramp_step"].Line(), Key: "ramp_step", Msg: err.Error()}
+		return nil, &yamlpos.Error{File: root.File, Line: keys["ramp_step"].Line(), Key: "ramp_step", Msg: err.Error()}
 	} else if n > MaxScenarioSteps {
-		return nil, &Error{File: root.File, Line: keys["ramp_step"].Line(), Key: "ramp_step",
+		return nil, &yamlpos.Error{File: root.File, Line: keys["ramp_step"].Line(), Key: "ramp_step",
 			Msg: fmt.Sprintf("want at most %d steps in the scenario, got %d with ramp_step %s; want a longer ramp_step", MaxScenarioSteps, n, s.RampStep)}
 	}
 	if err := s.checkValues(); err != nil {
@@ -207,7 +208,7 @@ func seconds(v float64) time.Duration { return time.Duration(math.Round(v * 1e9)
 
 // profileFrom reads a scenario's profile key: a path relative to dir or
 // an inline mapping.
-func profileFrom(f Field, dir string) (profileSource, *Profile, error) {
+func profileFrom(f yamlpos.Field, dir string) (profileSource, *Profile, error) {
 	switch {
 	case f.IsNull():
 		return profileSource{}, nil, f.Errorf("want a profile file (a path) or an inline profile (a mapping), got %s", f.Got())
@@ -220,11 +221,11 @@ func profileFrom(f Field, dir string) (profileSource, *Profile, error) {
 		if !filepath.IsAbs(path) && dir != "" {
 			path = filepath.Join(dir, path)
 		}
-		data, err := ReadInputFile(path, "profile", MaxYAMLBytes)
+		data, err := yamlpos.ReadInputFile(path, "profile", yamlpos.MaxYAMLBytes)
 		if err != nil {
 			return profileSource{}, nil, f.Errorf("%v", err)
 		}
-		root, err := Document(path, data)
+		root, err := yamlpos.Document(path, data)
 		if err != nil {
 			return profileSource{}, nil, f.Errorf("%v", err)
 		}
@@ -247,11 +248,11 @@ func profileFrom(f Field, dir string) (profileSource, *Profile, error) {
 type pair struct {
 	name string
 	line int
-	val  Field
+	val  yamlpos.Field
 }
 
 // pairs returns a mapping's keys in file order; duplicates are errors.
-func pairs(f Field) ([]pair, error) {
+func pairs(f yamlpos.Field) ([]pair, error) {
 	if f.IsNull() {
 		return nil, nil
 	}
@@ -261,15 +262,15 @@ func pairs(f Field) ([]pair, error) {
 	var out []pair
 	seen := map[string]bool{}
 	for i := 0; i+1 < len(f.Node.Content); i += 2 {
-		k := resolve(f.Node.Content[i])
+		k := yamlpos.Resolve(f.Node.Content[i])
 		if k == nil || k.Kind != yaml.ScalarNode {
-			return nil, &Error{File: f.File, Line: f.Node.Content[i].Line, Key: f.Path, Msg: "want a plain key, got a mapping or sequence as key"}
+			return nil, &yamlpos.Error{File: f.File, Line: f.Node.Content[i].Line, Key: f.Path, Msg: "want a plain key, got a mapping or sequence as key"}
 		}
 		if seen[k.Value] {
-			return nil, &Error{File: f.File, Line: k.Line, Key: f.Path, Msg: fmt.Sprintf("key %s given twice", Token(k.Value))}
+			return nil, &yamlpos.Error{File: f.File, Line: k.Line, Key: f.Path, Msg: fmt.Sprintf("key %s given twice", yamlpos.Token(k.Value))}
 		}
 		seen[k.Value] = true
-		v := NodeField(f.File, f.Key(k.Value), f.Node.Content[i+1])
+		v := yamlpos.NodeField(f.File, f.Key(k.Value), f.Node.Content[i+1])
 		if v.Node == nil {
 			v.Node = &yaml.Node{Kind: yaml.ScalarNode, Tag: "!!null", Line: k.Line}
 		}
@@ -278,7 +279,7 @@ func pairs(f Field) ([]pair, error) {
 	return out, nil
 }
 
-func parsePhase(f Field, i int, s *Scenario, base profileSource, dir string) (Phase, phaseSource, error) {
+func parsePhase(f yamlpos.Field, i int, s *Scenario, base profileSource, dir string) (Phase, phaseSource, error) {
 	ph := Phase{Index: i, Line: f.Line(), Settle: s.Settle, Check: Check{MinSamples: DefaultMinSamples}}
 	src := phaseSource{prof: base}
 	keys, err := f.Mapping("name", "duration", "settle", "profile", "set", "ramp", "predict_with", "check")
@@ -347,7 +348,7 @@ func parsePhase(f Field, i int, s *Scenario, base profileSource, dir string) (Ph
 	return ph, src, nil
 }
 
-func parseCheck(f Field) (Check, error) {
+func parseCheck(f yamlpos.Field) (Check, error) {
 	c := Check{MinSamples: DefaultMinSamples}
 	keys, err := f.Mapping("tolerance", "max_second_moment", "min_samples")
 	if err != nil {
@@ -379,18 +380,18 @@ func parseCheck(f Field) (Check, error) {
 
 // parseOverrides reads set, predict_with (ramp false) or ramp: a mapping
 // from dotted keys to values, or to {from, to}.
-func parseOverrides(f Field, ramp bool) ([]override, error) {
+func parseOverrides(f yamlpos.Field, ramp bool) ([]override, error) {
 	ps, err := pairs(f)
 	if err != nil {
 		return nil, err
 	}
 	var out []override
 	for _, p := range ps {
-		key := Field{File: f.File, Path: f.Key(p.name), Node: &yaml.Node{Kind: yaml.ScalarNode, Line: p.line, Value: p.name}}
+		key := yamlpos.Field{File: f.File, Path: f.Key(p.name), Node: &yaml.Node{Kind: yaml.ScalarNode, Line: p.line, Value: p.name}}
 		comps := strings.Split(p.name, ".")
 		for _, c := range comps {
 			if c == "" {
-				return nil, key.Errorf("want a dotted key of the profile (sensor_to_controller.loss), got %s", Token(p.name))
+				return nil, key.Errorf("want a dotted key of the profile (sensor_to_controller.loss), got %s", yamlpos.Token(p.name))
 			}
 		}
 		if comps[0] == "seed" {
@@ -407,7 +408,7 @@ func parseOverrides(f Field, ramp bool) ([]override, error) {
 	return out, nil
 }
 
-func parseRampEnds(f Field, o *override) error {
+func parseRampEnds(f yamlpos.Field, o *override) error {
 	keys, err := f.Mapping("from", "to")
 	if err != nil {
 		return err
@@ -433,8 +434,8 @@ func parseRampEnds(f Field, o *override) error {
 	if errB != nil {
 		return to.Errorf("want a number or a duration, got %s", to.Got())
 	}
-	_, numA := fr.float()
-	_, numB := to.float()
+	_, numA := fr.AsFloat()
+	_, numB := to.AsFloat()
 	if numA || numB {
 		return f.Errorf("want from and to of the same kind (two numbers or two durations), got %s and %s", fr.Got(), to.Got())
 	}
@@ -444,7 +445,7 @@ func parseRampEnds(f Field, o *override) error {
 
 // copyNode deep-copies a tree, expanding aliases.
 func copyNode(n *yaml.Node) *yaml.Node {
-	n = resolve(n)
+	n = yamlpos.Resolve(n)
 	if n == nil {
 		return &yaml.Node{Kind: yaml.ScalarNode, Tag: "!!null"}
 	}
@@ -487,7 +488,7 @@ func patch(root *yaml.Node, o override, val *yaml.Node) (string, error) {
 			case last:
 				n.Content = append(n.Content, &yaml.Node{Kind: yaml.ScalarNode, Tag: "!!str", Value: c, Line: o.key.Line()}, val)
 			default:
-				return "", o.key.Errorf("no key %s in the profile at %s", Token(c), where(path))
+				return "", o.key.Errorf("no key %s in the profile at %s", yamlpos.Token(c), where(path))
 			}
 		case yaml.SequenceNode:
 			idx := -1
@@ -508,7 +509,7 @@ func patch(root *yaml.Node, o override, val *yaml.Node) (string, error) {
 					}
 				}
 				if idx < 0 {
-					return "", o.key.Errorf("no item named %s in the list at %s", Token(c), where(path))
+					return "", o.key.Errorf("no item named %s in the list at %s", yamlpos.Token(c), where(path))
 				}
 			}
 			path = fmt.Sprintf("%s[%d]", path, idx)
@@ -518,7 +519,7 @@ func patch(root *yaml.Node, o override, val *yaml.Node) (string, error) {
 				n = n.Content[idx]
 			}
 		default:
-			return "", o.key.Errorf("cannot go into %s: the profile's %s is a single value", Token(c), where(path))
+			return "", o.key.Errorf("cannot go into %s: the profile's %s is a single value", yamlpos.Token(c), where(path))
 		}
 	}
 	return path, nil
@@ -611,13 +612,13 @@ func (s *Scenario) build(i int, frac float64, relay *Profile) (*Profile, error) 
 			return nil, err
 		}
 	}
-	p, err := parseProfile(NodeField(src.prof.file, "", root), src.prof.dir)
+	p, err := parseProfile(yamlpos.NodeField(src.prof.file, "", root), src.prof.dir)
 	if err != nil {
 		a, ok := blame(err, done[blameFrom:])
 		if !ok {
-			return nil, &Error{File: s.File, Line: s.Phases[i].Line, Key: fmt.Sprintf("phases[%d]", i), Msg: "profile: " + inner(err), Err: err}
+			return nil, &yamlpos.Error{File: s.File, Line: s.Phases[i].Line, Key: fmt.Sprintf("phases[%d]", i), Msg: "profile: " + inner(err), Err: err}
 		}
-		return nil, &Error{File: a.o.key.File, Line: a.o.key.Line(), Key: a.o.key.Path, Msg: a.desc + inner(err), Err: err}
+		return nil, &yamlpos.Error{File: a.o.key.File, Line: a.o.key.Line(), Key: a.o.key.Path, Msg: a.desc + inner(err), Err: err}
 	}
 	if len(done) == 0 {
 		p.File = src.prof.path
@@ -631,7 +632,7 @@ func (s *Scenario) build(i int, frac float64, relay *Profile) (*Profile, error) 
 // inner is a profile error without its position (the scenario's key gives
 // it): "sensor_to_controller.loss: want a number in [0, 1], got "1.5"".
 func inner(err error) string {
-	var e *Error
+	var e *yamlpos.Error
 	if errors.As(err, &e) {
 		if e.Key != "" {
 			return e.Key + ": " + e.Msg
@@ -645,7 +646,7 @@ func inner(err error) string {
 // patched node holds the offending key (the deepest such), else the last
 // one patched inside the offending key's subtree.
 func blame(err error, done []applied) (applied, bool) {
-	var e *Error
+	var e *yamlpos.Error
 	key := ""
 	if errors.As(err, &e) {
 		key = e.Key
@@ -717,7 +718,7 @@ func (s *Scenario) stepCount() (int64, error) {
 func (s *Scenario) Steps() ([]ScenarioStep, error) {
 	n, _ := s.stepCount()
 	if n > MaxScenarioSteps {
-		return nil, &Error{File: s.File, Key: "ramp_step", Msg: fmt.Sprintf("want at most %d steps in the scenario, got more with ramp_step %s", MaxScenarioSteps, s.RampStep)}
+		return nil, &yamlpos.Error{File: s.File, Key: "ramp_step", Msg: fmt.Sprintf("want at most %d steps in the scenario, got more with ramp_step %s", MaxScenarioSteps, s.RampStep)}
 	}
 	if err := s.checkValues(); err != nil {
 		return nil, err
@@ -812,15 +813,15 @@ func (s *Scenario) checkValues() error {
 	if ph.HasPredictWith {
 		twice = " (twice, with predict_with)"
 	}
-	return &Error{File: s.File, Line: line, Key: key, Msg: fmt.Sprintf(
+	return &yamlpos.Error{File: s.File, Line: line, Key: key, Msg: fmt.Sprintf(
 		"the scenario's steps would hold %d profile values, want at most %d: phase %s has %d steps of %d values each%s; want a longer ramp_step, fewer steps or a smaller profile (a delay list read from a file counts its delays)",
-		total, MaxScenarioValues, Token(ph.Name), s.phaseSteps(ph), s.src[worst].weight, twice)}
+		total, MaxScenarioValues, yamlpos.Token(ph.Name), s.phaseSteps(ph), s.src[worst].weight, twice)}
 }
 
 // treeSize counts the values of a YAML tree with its aliases expanded
 // (Document has already bounded it).
 func treeSize(n *yaml.Node) int64 {
-	n = resolve(n)
+	n = yamlpos.Resolve(n)
 	if n == nil {
 		return 0
 	}

@@ -6,6 +6,7 @@ import (
 	"fmt"
 	"io"
 	"math"
+	"rigwire/profiles/yamlpos"
 	"slices"
 	"strconv"
 	"strings"
@@ -80,12 +81,12 @@ var ErrEmptyTrace = errors.New("empty trace: no probe lines")
 
 // LoadTrace reads the trace file at path.
 func LoadTrace(path string) (*Trace, error) {
-	f, _, err := OpenInputFile(path, "trace", MaxTraceBytes)
+	f, _, err := yamlpos.OpenInputFile(path, "trace", yamlpos.MaxTraceBytes)
 	if err != nil {
 		return nil, err
 	}
 	defer f.Close()
-	return ReadTrace(LimitedReader(f, path, "trace", MaxTraceBytes), path)
+	return ReadTrace(yamlpos.LimitedReader(f, path, "trace", yamlpos.MaxTraceBytes), path)
 }
 
 // ReadTrace reads a trace from r; file names it in messages, which give
@@ -97,7 +98,7 @@ func ReadTrace(r io.Reader, file string) (*Trace, error) {
 	line := 0
 	col := map[string]int{}
 	errAt := func(format string, args ...any) error {
-		return &Error{File: file, Line: line, Msg: fmt.Sprintf(format, args...)}
+		return &yamlpos.Error{File: file, Line: line, Msg: fmt.Sprintf(format, args...)}
 	}
 	var lastSeq int64 = math.MinInt64
 	for sc.Scan() {
@@ -121,13 +122,13 @@ func ReadTrace(r io.Reader, file string) (*Trace, error) {
 			for i, name := range fields {
 				name = strings.TrimSpace(name)
 				if !slices.Contains(TraceColumns, name) {
-					if w := shownWord(name); strings.HasPrefix(w, `"`) {
+					if w := yamlpos.ShownWord(name); strings.HasPrefix(w, `"`) {
 						return nil, errAt("unknown column %s in the header; want some of %s", w, strings.Join(TraceColumns, ","))
 					}
 					return nil, errAt("want a header line of column names (some of %s), got other text", strings.Join(TraceColumns, ","))
 				}
 				if _, dup := col[name]; dup {
-					return nil, errAt("column %s given twice", Token(name))
+					return nil, errAt("column %s given twice", yamlpos.Token(name))
 				}
 				col[name] = i
 				t.Columns = append(t.Columns, name)
@@ -150,12 +151,12 @@ func ReadTrace(r io.Reader, file string) (*Trace, error) {
 			case "seq":
 				p.Seq, err = strconv.ParseInt(v, 10, 64)
 				if err != nil || p.Seq < 0 {
-					return nil, errAt("seq: want an integer ≥ 0, got %s", shownNumber(v))
+					return nil, errAt("seq: want an integer ≥ 0, got %s", yamlpos.ShownNumber(v))
 				}
 			case "send_s":
 				p.Send, err = strconv.ParseFloat(v, 64)
 				if err != nil || !(p.Send >= 0) || math.IsInf(p.Send, 1) {
-					return nil, errAt("send_s: want a time ≥ 0 in seconds, got %s", shownNumber(v))
+					return nil, errAt("send_s: want a time ≥ 0 in seconds, got %s", yamlpos.ShownNumber(v))
 				}
 			case "status":
 				switch v {
@@ -163,7 +164,7 @@ func ReadTrace(r io.Reader, file string) (*Trace, error) {
 				case "lost":
 					p.Lost = true
 				default:
-					return nil, errAt("status: want delivered or lost, got %s", shownWord(v))
+					return nil, errAt("status: want delivered or lost, got %s", yamlpos.ShownWord(v))
 				}
 			case "rtt_s", "one_way_s", "back_s":
 				if v == "" {
@@ -171,7 +172,7 @@ func ReadTrace(r io.Reader, file string) (*Trace, error) {
 				}
 				x, err := strconv.ParseFloat(v, 64)
 				if err != nil || !(x >= 0) || x > MaxDelay {
-					return nil, errAt("%s: want a delay in [0, %g] seconds or nothing, got %s", name, MaxDelay, shownNumber(v))
+					return nil, errAt("%s: want a delay in [0, %g] seconds or nothing, got %s", name, MaxDelay, yamlpos.ShownNumber(v))
 				}
 				switch name {
 				case "rtt_s":
@@ -184,7 +185,7 @@ func ReadTrace(r io.Reader, file string) (*Trace, error) {
 			case "copies":
 				p.Copies, err = strconv.Atoi(v)
 				if err != nil || p.Copies < 0 {
-					return nil, errAt("copies: want an integer ≥ 0, got %s", shownNumber(v))
+					return nil, errAt("copies: want an integer ≥ 0, got %s", yamlpos.ShownNumber(v))
 				}
 			case "reordered":
 				switch v {
@@ -192,7 +193,7 @@ func ReadTrace(r io.Reader, file string) (*Trace, error) {
 				case "1":
 					p.Reordered = true
 				default:
-					return nil, errAt("reordered: want 0 or 1, got %s", shownNumber(v))
+					return nil, errAt("reordered: want 0 or 1, got %s", yamlpos.ShownNumber(v))
 				}
 			}
 		}
@@ -226,13 +227,13 @@ func (t *Trace) meta(k, v string) error {
 	case "interval_s":
 		x, err := strconv.ParseFloat(v, 64)
 		if err != nil || !(x > 0) || x > MaxDelay {
-			return fmt.Errorf("interval_s: want a time in (0, %g] seconds, got %s", MaxDelay, shownNumber(v))
+			return fmt.Errorf("interval_s: want a time in (0, %g] seconds, got %s", MaxDelay, yamlpos.ShownNumber(v))
 		}
 		t.Interval = x
 	case "clocks_synced":
 		b, err := strconv.ParseBool(v)
 		if err != nil {
-			return fmt.Errorf("clocks_synced: want true or false, got %s", shownWord(v))
+			return fmt.Errorf("clocks_synced: want true or false, got %s", yamlpos.ShownWord(v))
 		}
 		t.ClocksSynced = b
 	}

@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"math"
 	"math/rand/v2"
+	"rigwire/profiles/yamlpos"
 	"strconv"
 )
 
@@ -95,7 +96,7 @@ func ReplayOf(c *Channel) *Replay {
 // parseTraceChannel reads `trace: {file, column, at_end}` (f is the trace
 // key's value); others are the direction's other keys, which must be
 // absent.
-func parseTraceChannel(f Field, others map[string]Field, dir string) (*Channel, error) {
+func parseTraceChannel(f yamlpos.Field, others map[string]yamlpos.Field, dir string) (*Channel, error) {
 	for _, k := range []string{"loss", "delay", "states"} {
 		if g, ok := others[k]; ok {
 			return nil, g.Errorf("want either trace or %s, got both", k)
@@ -138,7 +139,7 @@ func parseTraceChannel(f Field, others map[string]Field, dir string) (*Channel, 
 			return nil, g.Errorf("want loop, stop or clean, got %s", g.Got())
 		}
 	}
-	fh, err := openRelative(ff, name, dir, "trace", MaxTraceBytes)
+	fh, err := openRelative(ff, name, dir, "trace", yamlpos.MaxTraceBytes)
 	if err != nil {
 		return nil, err
 	}

@@ -1,7 +1,7 @@
 package tests
 
 // docs/formats.md against the loaders. The key lists are read from the
-// loaders' own source: every call of profiles.Field.Mapping (the one way a
+// loaders' own source: every call of yamlpos.Field.Mapping (the one way a
 // YAML file's keys are accepted) in profiles/, cmd/impair/links.go and
 // deploy/lab/config.go, the delay kinds' table (delayKinds in
 // profiles/delayparse.go) and the trace's metadata switch; the CSV

@@ -9,6 +9,7 @@ import (
 
 	"rigwire/cmd/internal/exitcode"
 	"rigwire/profiles"
+	"rigwire/profiles/yamlpos"
 )
 
 const checkUsage = `usage: impair check [--interval D] PROFILE
@@ -34,7 +35,7 @@ func cmdCheck(args []string, stdout, stderr io.Writer) error {
 	fs := newFlags("impair check", checkUsage, checkExits)
 	interval := 0.01
 	fs.Func("interval", "time between datagrams for loss-run figures (default 10ms)", func(s string) error {
-		v, err := profiles.ParseDuration(s)
+		v, err := yamlpos.ParseDuration(s)
 		if err != nil {
 			return err
 		}

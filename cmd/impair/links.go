@@ -30,6 +30,7 @@ import (
 	"time"
 
 	"rigwire/profiles"
+	"rigwire/profiles/yamlpos"
 )
 
 // linkSpec is one rig's link as the relay process runs it: from the flags
@@ -75,7 +76,7 @@ const maxLinks = 256
 // loadLinks reads and validates a links file. Paths inside it are relative
 // to its directory. Errors read "file:line: key: what was expected".
 func loadLinks(path string) (*linksFile, error) {
-	data, err := profiles.ReadInputFile(path, "links file", profiles.MaxYAMLBytes)
+	data, err := yamlpos.ReadInputFile(path, "links file", yamlpos.MaxYAMLBytes)
 	if err != nil {
 		return nil, err
 	}
@@ -83,7 +84,7 @@ func loadLinks(path string) (*linksFile, error) {
 }
 
 func parseLinks(data []byte, file, dir string) (*linksFile, error) {
-	root, err := profiles.Document(file, data)
+	root, err := yamlpos.Document(file, data)
 	if err != nil {
 		return nil, err
 	}
@@ -156,7 +157,7 @@ func parseLinks(data []byte, file, dir string) (*linksFile, error) {
 	return lf, nil
 }
 
-func parseLink(it profiles.Field, dir string) (linkSpec, error) {
+func parseLink(it yamlpos.Field, dir string) (linkSpec, error) {
 	keys, err := it.Mapping("name", "listen", "controller", "actuator", "sensor", "relock_after", "controller_bind", "tap",
 		"profile", "scenario", "seed", "record", "trip_listen", "trip_from", "on_trip")
 	if err != nil {

@@ -12,6 +12,7 @@ import (
 	"os"
 	"os/signal"
 	"rigwire/cmd/internal/cli"
+	"rigwire/profiles/yamlpos"
 	"strconv"
 	"syscall"
 
@@ -118,7 +119,7 @@ type durationFlag struct{ s float64 }
 // "(default 60s)" shows it once.
 func (f *durationFlag) String() string { return strconv.FormatFloat(f.s, 'g', -1, 64) + "s" }
 func (f *durationFlag) Set(s string) error {
-	v, err := profiles.ParseDuration(s)
+	v, err := yamlpos.ParseDuration(s)
 	if err != nil || v < 0 {
 		return fmt.Errorf("want a duration ≥ 0 (\"90s\", \"2m\" or seconds), got %q", s)
 	}

@@ -24,6 +24,7 @@ import (
 	"rigwire/estimate"
 	"rigwire/estimate/engine"
 	"rigwire/profiles"
+	"rigwire/profiles/yamlpos"
 )
 
 // runCaution is printed when `monitor run` starts (same family as the
@@ -291,7 +292,7 @@ func parseWindows(s string) ([]time.Duration, error) {
 	}
 	var out []time.Duration
 	for _, f := range strings.Split(s, ",") {
-		v, err := profiles.ParseDuration(strings.TrimSpace(f))
+		v, err := yamlpos.ParseDuration(strings.TrimSpace(f))
 		if err != nil || !(v > 0) {
 			return nil, usagef("--windows: want comma-separated durations > 0 (\"1m,10m\"), got %q", f)
 		}

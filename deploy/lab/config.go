@@ -3,8 +3,7 @@ package lab
 import (
 	"net/netip"
 	"regexp"
-
-	"rigwire/profiles"
+	"rigwire/profiles/yamlpos"
 )
 
 // Config is a lab topology: namespaces and the point-to-point links
@@ -65,7 +64,7 @@ var private = []netip.Prefix{
 //	  - {a: rw-rig, b: rw-relay, subnet: 10.213.1.0/30}
 //	  - {a: rw-relay, b: rw-ctl, subnet: 10.213.2.0/30}
 func Load(path string) (Config, error) {
-	data, err := profiles.ReadInputFile(path, "lab topology", profiles.MaxYAMLBytes)
+	data, err := yamlpos.ReadInputFile(path, "lab topology", yamlpos.MaxYAMLBytes)
 	if err != nil {
 		return Config{}, err
 	}
@@ -76,7 +75,7 @@ func Load(path string) (Config, error) {
 // errors.
 func Parse(file string, data []byte) (Config, error) {
 	var cfg Config
-	root, err := profiles.Document(file, data)
+	root, err := yamlpos.Document(file, data)
 	if err != nil {
 		return cfg, err
 	}
@@ -102,7 +101,7 @@ func Parse(file string, data []byte) (Config, error) {
 			return cfg, err
 		}
 		if !nsName.MatchString(s) {
-			return cfg, f.Errorf("want a name of 1 to 12 lowercase letters, digits or '-', got %s", profiles.Token(s))
+			return cfg, f.Errorf("want a name of 1 to 12 lowercase letters, digits or '-', got %s", yamlpos.Token(s))
 		}
 		if known[s] {
 			return cfg, f.Errorf("namespace %q listed twice", s)
@@ -138,7 +137,7 @@ func Parse(file string, data []byte) (Config, error) {
 				return cfg, err
 			}
 			if !known[s] {
-				return cfg, ef.Errorf("want one of the namespaces listed, got %s", profiles.Token(s))
+				return cfg, ef.Errorf("want one of the namespaces listed, got %s", yamlpos.Token(s))
 			}
 			*end.dst = s
 		}
@@ -160,14 +159,14 @@ func Parse(file string, data []byte) (Config, error) {
 		}
 		p, err := netip.ParsePrefix(s)
 		if err != nil || !p.Addr().Is4() || p.Bits() < 24 || p.Bits() > 30 || p.Masked() != p {
-			return cfg, sf.Errorf("want an IPv4 subnet from /24 to /30 such as 10.213.1.0/30, got %s", profiles.Token(s))
+			return cfg, sf.Errorf("want an IPv4 subnet from /24 to /30 such as 10.213.1.0/30, got %s", yamlpos.Token(s))
 		}
 		inside := false
 		for _, r := range private {
 			inside = inside || r.Contains(p.Addr()) && r.Bits() <= p.Bits()
 		}
 		if !inside {
-			return cfg, sf.Errorf("want a private (RFC 1918) subnet, got %s", profiles.Token(s))
+			return cfg, sf.Errorf("want a private (RFC 1918) subnet, got %s", yamlpos.Token(s))
 		}
 		for _, o := range cfg.Links {
 			if o.Subnet.Overlaps(p) {

@@ -1,4 +1,4 @@
-package profiles
+package yamlpos
 
 // Helpers for decoding YAML files by walking yaml.v3 nodes, so that every
 // error can name the file, the line and the key path, and unknown keys are
@@ -8,7 +8,7 @@ package profiles
 // They serve the profile loader here and any other file of the project that
 // is read the same way (the loop description). A typical decoder:
 //
-//	root, err := profiles.Document("loop.yaml", data)
+//	root, err := yamlpos.Document("loop.yaml", data)
 //	if err != nil {
 //		return err
 //	}
@@ -141,7 +141,7 @@ func (f Field) CheckSize(limit int) error {
 	count := 0
 	var walk func(n *yaml.Node, depth int) bool
 	walk = func(n *yaml.Node, depth int) bool {
-		n = resolve(n)
+		n = Resolve(n)
 		if n == nil {
 			return true
 		}
@@ -204,10 +204,10 @@ func parserText(s string) string {
 // another file's tree, say) as a Field with the given file and key path. A
 // document node is unwrapped to its content; aliases are resolved.
 func NodeField(file, path string, n *yaml.Node) Field {
-	return Field{File: file, Path: path, Node: resolve(n)}
+	return Field{File: file, Path: path, Node: Resolve(n)}
 }
 
-func resolve(n *yaml.Node) *yaml.Node {
+func Resolve(n *yaml.Node) *yaml.Node {
 	for range 64 { // aliases of aliases; yaml.v3 rejects cycles already
 		if n == nil {
 			return nil
@@ -310,7 +310,7 @@ func (f Field) Mapping(allowed ...string) (map[string]Field, error) {
 	}
 	out := make(map[string]Field, len(f.Node.Content)/2)
 	for i := 0; i+1 < len(f.Node.Content); i += 2 {
-		k, v := resolve(f.Node.Content[i]), f.Node.Content[i+1]
+		k, v := Resolve(f.Node.Content[i]), f.Node.Content[i+1]
 		if k == nil || k.Kind != yaml.ScalarNode {
 			return nil, &Error{File: f.File, Line: f.Node.Content[i].Line, Key: f.Path, Msg: "want a plain key, got a mapping or sequence as key"}
 		}
@@ -380,14 +380,14 @@ func (f Field) Text() (string, error) {
 // and so is a quoted string that parses as one ("1e-3"); .inf and .nan are
 // not.
 func (f Field) Float() (float64, error) {
-	v, ok := f.float()
+	v, ok := f.AsFloat()
 	if !ok {
 		return 0, f.Errorf("want a number, got %s", f.Got())
 	}
 	return v, nil
 }
 
-func (f Field) float() (float64, bool) {
+func (f Field) AsFloat() (float64, bool) {
 	n := f.Node
 	if n == nil || n.Kind != yaml.ScalarNode || n.Tag == "!!null" || n.Tag == "!!bool" {
 		return 0, false
@@ -413,7 +413,7 @@ func (f Field) float() (float64, bool) {
 // FloatIn returns a number in [lo, hi] (either end may be ±Inf), with a
 // message that says so: `want a number in [0, 1], got "1.5"`.
 func (f Field) FloatIn(lo, hi float64) (float64, error) {
-	v, ok := f.float()
+	v, ok := f.AsFloat()
 	if !ok || v < lo || v > hi {
 		return 0, f.Errorf("want %s, got %s", describeRange("a number", lo, hi, false), f.Got())
 	}
@@ -422,7 +422,7 @@ func (f Field) FloatIn(lo, hi float64) (float64, error) {
 
 // Positive returns a number > 0: `want a number > 0, got "-1"`.
 func (f Field) Positive() (float64, error) {
-	v, ok := f.float()
+	v, ok := f.AsFloat()
 	if !ok || v <= 0 {
 		return 0, f.Errorf("want a number > 0, got %s", f.Got())
 	}
@@ -550,7 +550,7 @@ func (f Field) Vector() ([]float64, error) {
 	}
 	out := make([]float64, len(items))
 	for i, it := range items {
-		v, ok := it.float()
+		v, ok := it.AsFloat()
 		if !ok {
 			return nil, it.Errorf("want a number, got %s", it.Got())
 		}

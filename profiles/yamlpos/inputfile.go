@@ -1,4 +1,4 @@
-package profiles
+package yamlpos
 
 // Opening the files the project reads. Every input file — a profile, a
 // loop, a scenario, a links file, a lab topology, an empirical delay's
@@ -235,13 +235,13 @@ func Token(s string) string {
 	return q
 }
 
-// shownNumber is a field of a line-based file (a samples file, a trace)
+// ShownNumber is a field of a line-based file (a samples file, a trace)
 // that should have been a number, as a message shows it: quoted when it
 // looks like a mistyped value (at most 24 letters, digits, points and
 // signs), else only said to be something else, so that a message never
 // repeats a line of a file that is not a delay list at all (no line of a
 // password or configuration file passes).
-func shownNumber(s string) string {
+func ShownNumber(s string) string {
 	if s == "" {
 		return "nothing"
 	}
@@ -260,10 +260,10 @@ func shownNumber(s string) string {
 	return "text that is not a number"
 }
 
-// shownWord is like shownNumber for a field that should have been a word
+// ShownWord is like ShownNumber for a field that should have been a word
 // (a column name, a status): quoted when it is a short word of letters,
 // digits and underscores.
-func shownWord(s string) string {
+func ShownWord(s string) string {
 	if s == "" {
 		return "nothing"
 	}
