@@ -8,6 +8,7 @@ import (
 	"github.com/prometheus/client_golang/prometheus"
 
 	"rigwire/profiles"
+	"rigwire/profiles/laws"
 )
 
 // newTestDirection is a direction on a fake socket, outside any relay.
@@ -24,18 +25,18 @@ func newTestDirection(t testing.TB, ch *profiles.Channel, inFlight int) (*direct
 // The per-datagram path (draw, copy into the pool, schedule, release) must
 // not allocate: DEVELOPERS.md, "The relay's hot path".
 func TestHotPathDoesNotAllocate(t *testing.T) {
-	laws := map[string]profiles.Delay{
-		"constant":  profiles.Constant{Value: 0.002},
-		"lognormal": mustDelay(t)(profiles.NewLognormal(0.003, 0.4, 0.001)),
-		"mixture": mustDelay(t)(profiles.NewMixture([]float64{0.9, 0.1}, []profiles.Delay{
-			profiles.Constant{Value: 0.001}, mustDelay(t)(profiles.NewPareto(1.5, 0.004))})),
+	lawsByName := map[string]laws.Delay{
+		"constant":  laws.Constant{Value: 0.002},
+		"lognormal": mustDelay(t)(laws.NewLognormal(0.003, 0.4, 0.001)),
+		"mixture": mustDelay(t)(laws.NewMixture([]float64{0.9, 0.1}, []laws.Delay{
+			laws.Constant{Value: 0.001}, mustDelay(t)(laws.NewPareto(1.5, 0.004))})),
 	}
 	two := &profiles.Channel{States: []profiles.State{
-		{Name: "clear", MeanDwell: 0.05, Loss: 0.01, Delay: profiles.Constant{Value: 0.001}, Jump: []float64{0, 1}},
-		{Name: "fading", MeanDwell: 0.01, Loss: 0.4, Delay: laws["lognormal"], Jump: []float64{1, 0}},
+		{Name: "clear", MeanDwell: 0.05, Loss: 0.01, Delay: laws.Constant{Value: 0.001}, Jump: []float64{0, 1}},
+		{Name: "fading", MeanDwell: 0.01, Loss: 0.4, Delay: lawsByName["lognormal"], Jump: []float64{1, 0}},
 	}}
 	chans := map[string]*profiles.Channel{"markov": two}
-	for k, law := range laws {
+	for k, law := range lawsByName {
 		chans[k] = oneState(0.05, law)
 	}
 	for name, ch := range chans {
@@ -64,8 +65,8 @@ func TestHotPathDoesNotAllocate(t *testing.T) {
 	}
 }
 
-func mustDelay(t testing.TB) func(profiles.Delay, error) profiles.Delay {
-	return func(d profiles.Delay, err error) profiles.Delay {
+func mustDelay(t testing.TB) func(laws.Delay, error) laws.Delay {
+	return func(d laws.Delay, err error) laws.Delay {
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -79,12 +80,12 @@ func mustDelay(t testing.TB) func(profiles.Delay, error) profiles.Delay {
 func BenchmarkRelayLoopback(b *testing.B) {
 	for _, c := range []struct {
 		name  string
-		delay profiles.Delay
+		delay laws.Delay
 		size  int
 	}{
 		{"zero-delay/64B", nil, 64},
 		{"zero-delay/1200B", nil, 1200},
-		{"delay-1ms/64B", profiles.Constant{Value: 0.001}, 64},
+		{"delay-1ms/64B", laws.Constant{Value: 0.001}, 64},
 	} {
 		b.Run(c.name, func(b *testing.B) {
 			p := &profiles.Profile{SensorToController: oneState(0, c.delay), ControllerToActuator: oneState(0, nil)}

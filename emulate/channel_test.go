@@ -9,6 +9,7 @@ import (
 	"gonum.org/v1/gonum/mat"
 
 	"rigwire/profiles"
+	"rigwire/profiles/laws"
 )
 
 // generator builds Q from the channel's mean dwells and jump weights, here
@@ -52,13 +53,13 @@ func stationaryByPower(p *mat.Dense) []float64 {
 
 var testChannels = map[string]*profiles.Channel{
 	"gilbert-elliott": {States: []profiles.State{
-		{Name: "good", MeanDwell: 0.4, Loss: 0.01, Delay: profiles.Constant{}, Jump: []float64{0, 1}},
-		{Name: "bad", MeanDwell: 0.06, Loss: 0.6, Delay: profiles.Constant{}, Jump: []float64{1, 0}},
+		{Name: "good", MeanDwell: 0.4, Loss: 0.01, Delay: laws.Constant{}, Jump: []float64{0, 1}},
+		{Name: "bad", MeanDwell: 0.06, Loss: 0.6, Delay: laws.Constant{}, Jump: []float64{1, 0}},
 	}},
 	"three-state": {States: []profiles.State{
-		{Name: "clear", MeanDwell: 0.5, Loss: 0.0, Delay: profiles.Constant{}, Jump: []float64{0, 0.8, 0.2}},
-		{Name: "shadow", MeanDwell: 0.1, Loss: 0.2, Delay: profiles.Constant{}, Jump: []float64{0.7, 0, 0.3}},
-		{Name: "outage", MeanDwell: 0.03, Loss: 1.0, Delay: profiles.Constant{}, Jump: []float64{0.5, 0.5, 0}},
+		{Name: "clear", MeanDwell: 0.5, Loss: 0.0, Delay: laws.Constant{}, Jump: []float64{0, 0.8, 0.2}},
+		{Name: "shadow", MeanDwell: 0.1, Loss: 0.2, Delay: laws.Constant{}, Jump: []float64{0.7, 0, 0.3}},
+		{Name: "outage", MeanDwell: 0.03, Loss: 1.0, Delay: laws.Constant{}, Jump: []float64{0.5, 0.5, 0}},
 	}},
 }
 

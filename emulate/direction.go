@@ -11,6 +11,7 @@ import (
 	"github.com/prometheus/client_golang/prometheus"
 
 	"rigwire/profiles"
+	"rigwire/profiles/laws"
 )
 
 // direction impairs the datagrams of one direction of the link: it draws
@@ -354,7 +355,7 @@ func (d *direction) trip(stop bool) {
 
 // cleanChannel forwards everything at once.
 var cleanChannel = &profiles.Channel{States: []profiles.State{
-	{Name: tripStateName, MeanDwell: math.Inf(1), Delay: profiles.Constant{}},
+	{Name: tripStateName, MeanDwell: math.Inf(1), Delay: laws.Constant{}},
 }}
 
 // changeChannel puts the direction on ch from now on, unless the trip has

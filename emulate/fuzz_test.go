@@ -9,6 +9,7 @@ import (
 	"github.com/prometheus/client_golang/prometheus/testutil"
 
 	"rigwire/profiles"
+	"rigwire/profiles/laws"
 )
 
 // FuzzDatagramPath feeds arbitrary datagrams, of any size and from any
@@ -31,7 +32,7 @@ func FuzzDatagramPath(f *testing.F) {
 }
 
 func fuzzBody(t *testing.T, stream []byte) {
-	lossy, _ := profiles.NewUniform(0, 200e-6)
+	lossy, _ := laws.NewUniform(0, 200e-6)
 	p := &profiles.Profile{SensorToController: oneState(0.3, lossy), ControllerToActuator: oneState(0.3, lossy)}
 	listen, up, tap := newFakeConn("127.0.0.1:4000"), newFakeConn("127.0.0.1:4001"), newFakeConn("127.0.0.1:4002")
 	r, err := New(Config{

@@ -10,11 +10,12 @@ import (
 	"github.com/prometheus/client_golang/prometheus/testutil"
 
 	"rigwire/profiles"
+	"rigwire/profiles/laws"
 )
 
 // constSC is a profile whose sensor datagrams all take delay d.
 func constSC(d time.Duration) *profiles.Profile {
-	return &profiles.Profile{SensorToController: oneState(0, profiles.Constant{Value: d.Seconds()}), ControllerToActuator: oneState(0, nil)}
+	return &profiles.Profile{SensorToController: oneState(0, laws.Constant{Value: d.Seconds()}), ControllerToActuator: oneState(0, nil)}
 }
 
 func TestPlaySteps(t *testing.T) {

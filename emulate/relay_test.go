@@ -13,11 +13,12 @@ import (
 	"time"
 
 	"rigwire/profiles"
+	"rigwire/profiles/laws"
 )
 
-func oneState(loss float64, d profiles.Delay) *profiles.Channel {
+func oneState(loss float64, d laws.Delay) *profiles.Channel {
 	if d == nil {
-		d = profiles.Constant{}
+		d = laws.Constant{}
 	}
 	return &profiles.Channel{States: []profiles.State{{Name: "only", MeanDwell: math.Inf(1), Loss: loss, Delay: d}}}
 }
@@ -98,7 +99,7 @@ func readAll(t *testing.T, c *net.UDPConn, want int, wait time.Duration) [][]byt
 }
 
 func TestRelayLoopbackRoundTrip(t *testing.T) {
-	p := &profiles.Profile{SensorToController: oneState(0, nil), ControllerToActuator: oneState(0, profiles.Constant{Value: 0.002})}
+	p := &profiles.Profile{SensorToController: oneState(0, nil), ControllerToActuator: oneState(0, laws.Constant{Value: 0.002})}
 	rig := startLoopback(t, p, nil)
 	listen := rig.relay.ListenAddr()
 	const n = 50
@@ -139,7 +140,7 @@ func TestRelayLoopbackRoundTrip(t *testing.T) {
 // leave from the release goroutine, through the same socket: run under
 // -race, this checks the socket's writers are serialised.
 func TestRelayMixedDelaysOneSocket(t *testing.T) {
-	half, _ := profiles.NewMixture([]float64{0.5, 0.5}, []profiles.Delay{profiles.Constant{}, profiles.Constant{Value: 0.0005}})
+	half, _ := laws.NewMixture([]float64{0.5, 0.5}, []laws.Delay{laws.Constant{}, laws.Constant{Value: 0.0005}})
 	p := &profiles.Profile{SensorToController: oneState(0, half), ControllerToActuator: oneState(0, nil)}
 	rig := startLoopback(t, p, nil)
 	const n = 2000

@@ -15,6 +15,7 @@ import (
 	"github.com/prometheus/client_golang/prometheus/testutil"
 
 	"rigwire/profiles"
+	"rigwire/profiles/laws"
 )
 
 // listenOn binds a UDP socket on a loopback address of our choice (the
@@ -55,7 +56,7 @@ func countPrefix(got [][]byte, prefix string) int {
 
 func cleanProfile(commandDelay float64) *profiles.Profile {
 	return &profiles.Profile{SensorToController: oneState(0, nil),
-		ControllerToActuator: oneState(0, profiles.Constant{Value: commandDelay})}
+		ControllerToActuator: oneState(0, laws.Constant{Value: commandDelay})}
 }
 
 // The relay takes only its own rig: strangers at the listen socket, before

@@ -17,6 +17,7 @@ import (
 	"github.com/prometheus/client_golang/prometheus/testutil"
 
 	"rigwire/profiles"
+	"rigwire/profiles/laws"
 )
 
 var (
@@ -135,7 +136,7 @@ func (s *stepDelays) Kind() string              { return "test" }
 func (s *stepDelays) Sample(*rand.Rand) float64 { x := s.d[s.i%len(s.d)]; s.i++; return x.Seconds() }
 func (s *stepDelays) CDF(float64) float64       { return 0 }
 func (s *stepDelays) Density(float64) float64   { return 0 }
-func (s *stepDelays) Atoms() []profiles.Atom    { return nil }
+func (s *stepDelays) Atoms() []laws.Atom        { return nil }
 func (s *stepDelays) Mean() float64             { return 0 }
 func (s *stepDelays) Variance() float64         { return 0 }
 func (s *stepDelays) Support() (lo, hi float64) { return 0, 1 }
@@ -143,8 +144,8 @@ func (s *stepDelays) Support() (lo, hi float64) { return 0, 1 }
 func TestShutdownDrainsOnTime(t *testing.T) {
 	synctest.Test(t, func(t *testing.T) {
 		p := &profiles.Profile{
-			SensorToController:   oneState(0, profiles.Constant{Value: 0.2}),
-			ControllerToActuator: oneState(0, profiles.Constant{Value: 0.3}),
+			SensorToController:   oneState(0, laws.Constant{Value: 0.2}),
+			ControllerToActuator: oneState(0, laws.Constant{Value: 0.3}),
 		}
 		rig := startFake(t, p, nil)
 		start := time.Now()
@@ -168,7 +169,7 @@ func TestShutdownDrainsOnTime(t *testing.T) {
 
 func TestAbortCountsWhatIsLeft(t *testing.T) {
 	synctest.Test(t, func(t *testing.T) {
-		p := &profiles.Profile{SensorToController: oneState(0, profiles.Constant{Value: 10}), ControllerToActuator: oneState(0, nil)}
+		p := &profiles.Profile{SensorToController: oneState(0, laws.Constant{Value: 10}), ControllerToActuator: oneState(0, nil)}
 		rig := startFake(t, p, nil)
 		for range 4 {
 			rig.listen.push(sensorAddr, []byte("x"))
@@ -188,7 +189,7 @@ func TestAbortCountsWhatIsLeft(t *testing.T) {
 
 func TestRejections(t *testing.T) {
 	synctest.Test(t, func(t *testing.T) {
-		p := &profiles.Profile{SensorToController: oneState(0, profiles.Constant{Value: 0.001}), ControllerToActuator: oneState(0, nil)}
+		p := &profiles.Profile{SensorToController: oneState(0, laws.Constant{Value: 0.001}), ControllerToActuator: oneState(0, nil)}
 		rig := startFake(t, p, func(c *Config) {
 			c.Sensor = sensorAddr
 			c.MaxDatagram = 100
@@ -228,7 +229,7 @@ func TestRejections(t *testing.T) {
 
 func TestReloadKeepsInFlight(t *testing.T) {
 	synctest.Test(t, func(t *testing.T) {
-		slow := &profiles.Profile{SensorToController: oneState(0, profiles.Constant{Value: 0.05}), ControllerToActuator: oneState(0, nil)}
+		slow := &profiles.Profile{SensorToController: oneState(0, laws.Constant{Value: 0.05}), ControllerToActuator: oneState(0, nil)}
 		lossy := &profiles.Profile{SensorToController: oneState(1, nil), ControllerToActuator: oneState(0, nil)}
 		rig := startFake(t, slow, nil)
 		start := time.Now()

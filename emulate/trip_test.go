@@ -10,14 +10,15 @@ import (
 	"github.com/prometheus/client_golang/prometheus/testutil"
 
 	"rigwire/profiles"
+	"rigwire/profiles/laws"
 )
 
 // lossyDelayed is the trip tests' profile: both directions lose half the
 // datagrams and delay the others by 5 ms.
 func lossyDelayed() *profiles.Profile {
 	return &profiles.Profile{
-		SensorToController:   oneState(0.5, profiles.Constant{Value: 0.005}),
-		ControllerToActuator: oneState(0.5, profiles.Constant{Value: 0.005}),
+		SensorToController:   oneState(0.5, laws.Constant{Value: 0.005}),
+		ControllerToActuator: oneState(0.5, laws.Constant{Value: 0.005}),
 	}
 }
 

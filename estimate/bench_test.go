@@ -10,6 +10,7 @@ import (
 	"gonum.org/v1/gonum/mat"
 
 	"rigwire/profiles"
+	"rigwire/profiles/laws"
 )
 
 // bigLoop is the size bar of the issue: a 12-state loop (a chain of ten
@@ -35,10 +36,10 @@ func bigLoop() *profiles.Loop {
 		w.Set(i, i, 0.01)
 	}
 	ms := 1e-3
-	lg := must(profiles.NewLognormal(2*ms, 0.5, 0.3*ms))
-	ga := must(profiles.NewGamma(2, 2*ms, 1*ms))
-	un := must(profiles.NewUniform(1*ms, 8*ms))
-	ex := must(profiles.NewExponential(1*ms, 0.2*ms))
+	lg := must(laws.NewLognormal(2*ms, 0.5, 0.3*ms))
+	ga := must(laws.NewGamma(2, 2*ms, 1*ms))
+	un := must(laws.NewUniform(1*ms, 8*ms))
+	ex := must(laws.NewExponential(1*ms, 0.2*ms))
 	return &profiles.Loop{
 		Period: 0.01,
 		Plant:  profiles.Plant{A: a, B: b, C: c, W: w, V: dense([]float64{1e-4})},

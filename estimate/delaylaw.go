@@ -4,9 +4,8 @@ import (
 	"fmt"
 	"math"
 	"math/rand/v2"
+	"rigwire/profiles/laws"
 	"sort"
-
-	"rigwire/profiles"
 )
 
 // tauNode is one point of the quadrature over the delivered-with-delay
@@ -79,7 +78,7 @@ const (
 // parts of P(τsc < b − τca) from the sensor law's own CDF (massCheck),
 // within massRelTol. A law that fails either is refused with an error
 // naming it, rather than answered wrongly.
-func tauRule(dsc, dca profiles.Delay, h, c float64, deg int) ([]tauNode, error) {
+func tauRule(dsc, dca laws.Delay, h, c float64, deg int) ([]tauNode, error) {
 	budget := h - c // τsc + τca must stay below it
 	if budget <= 0 {
 		return nil, nil
@@ -95,11 +94,11 @@ func tauRule(dsc, dca profiles.Delay, h, c float64, deg int) ([]tauNode, error) 
 	for _, x := range []float64{budget, h} {
 		if e := math.Abs(sc.cdf(x) - dsc.CDF(x)); !(e <= 1e-9) {
 			return nil, fmt.Errorf("sensor_to_controller delay %s: its parts give P(delay ≤ %gs) = %.12g, its CDF %.12g",
-				profiles.Describe(dsc), x, sc.cdf(x), dsc.CDF(x))
+				laws.Describe(dsc), x, sc.cdf(x), dsc.CDF(x))
 		}
 		if e := math.Abs(ca.cdf(x) - dca.CDF(x)); !(e <= 1e-9) {
 			return nil, fmt.Errorf("controller_to_actuator delay %s: its parts give P(delay ≤ %gs) = %.12g, its CDF %.12g",
-				profiles.Describe(dca), x, ca.cdf(x), dca.CDF(x))
+				laws.Describe(dca), x, ca.cdf(x), dca.CDF(x))
 		}
 	}
 	var nodes []tauNode
@@ -241,12 +240,12 @@ func tauRule(dsc, dca profiles.Delay, h, c float64, deg int) ([]tauNode, error) 
 	for _, v := range mom {
 		if math.IsNaN(v) || math.IsInf(v, 0) {
 			return nil, fmt.Errorf("delays %s (sensor_to_controller) and %s (controller_to_actuator): the expectation over the total delay is not finite",
-				profiles.Describe(dsc), profiles.Describe(dca))
+				laws.Describe(dsc), laws.Describe(dca))
 		}
 	}
 	if want := massCheck(sc, ca, budget); math.Abs(direct+mom[0]-want) > massRelTol*want+massAbsTol {
 		return nil, fmt.Errorf("delays %s (sensor_to_controller) and %s (controller_to_actuator): the rule integrates P(in time) = %.12g, the laws' CDFs give %.12g",
-			profiles.Describe(dsc), profiles.Describe(dca), direct+mom[0], want)
+			laws.Describe(dsc), laws.Describe(dca), direct+mom[0], want)
 	}
 
 	if hasMom {
@@ -274,11 +273,11 @@ func tauRule(dsc, dca profiles.Delay, h, c float64, deg int) ([]tauNode, error) 
 // on the CDF 3.
 func quantileCost(p piece) int {
 	switch p.base.(type) {
-	case profiles.Uniform, profiles.Exponential, profiles.Weibull, profiles.Pareto:
+	case laws.Uniform, laws.Exponential, laws.Weibull, laws.Pareto:
 		return 0
-	case profiles.Lognormal, *profiles.Normal:
+	case laws.Lognormal, *laws.Normal:
 		return 1
-	case profiles.Gamma:
+	case laws.Gamma:
 		return 2
 	}
 	return 3
@@ -339,12 +338,12 @@ func massCheck(sc, ca lawParts, budget float64) float64 {
 // monitor's delay_scale): F(x) = F₀(x/S), f(x) = f₀(x/S)/S, atoms moved
 // to S·x, E = S E₀, Var = S² Var₀.
 type scaled struct {
-	d profiles.Delay
+	d laws.Delay
 	s float64
 }
 
 // scaleDelay returns d with every delay multiplied by s (d itself for s = 1).
-func scaleDelay(d profiles.Delay, s float64) profiles.Delay {
+func scaleDelay(d laws.Delay, s float64) laws.Delay {
 	if s == 1 {
 		return d
 	}
@@ -361,14 +360,14 @@ func (x scaled) Support() (lo, hi float64) {
 	lo, hi = x.d.Support()
 	return x.s * lo, x.s * hi
 }
-func (x scaled) Atoms() []profiles.Atom {
+func (x scaled) Atoms() []laws.Atom {
 	a := x.d.Atoms()
 	if a == nil {
 		return nil
 	}
-	out := make([]profiles.Atom, len(a))
+	out := make([]laws.Atom, len(a))
 	for i, v := range a {
-		out[i] = profiles.Atom{At: x.s * v.At, Mass: v.Mass}
+		out[i] = laws.Atom{At: x.s * v.At, Mass: v.Mass}
 	}
 	return out
 }

@@ -5,13 +5,12 @@ import (
 	"math"
 	"math/rand/v2"
 	"os"
+	"rigwire/profiles/laws"
 	"strconv"
 	"strings"
 	"testing"
 
 	"gonum.org/v1/gonum/stat/distuv"
-
-	"rigwire/profiles"
 )
 
 const (
@@ -21,7 +20,7 @@ const (
 	lawTol = 1e-10
 )
 
-func must(d profiles.Delay, err error) profiles.Delay {
+func must(d laws.Delay, err error) laws.Delay {
 	if err != nil {
 		panic(err)
 	}
@@ -71,21 +70,21 @@ func TestTauRuleClosedForms(t *testing.T) {
 	}
 	cases := []struct {
 		name     string
-		sc, ca   profiles.Delay
+		sc, ca   laws.Delay
 		h, c     float64
 		moment   func(k int, x float64) float64 // E[Sᵏ; S < x], S = τsc + τca
 		source   string
 		sumShift float64 // S − shift is the law of moment
 	}{
-		{"gamma+gamma", must(profiles.NewGamma(2, 1*ms, 0)), must(profiles.NewGamma(3, 1*ms, 0)), 10 * ms, 1 * ms,
+		{"gamma+gamma", must(laws.NewGamma(2, 1*ms, 0)), must(laws.NewGamma(3, 1*ms, 0)), 10 * ms, 1 * ms,
 			gammaSum(5, 1*ms), "Gamma(2,θ)+Gamma(3,θ) = Gamma(5,θ); distuv.Gamma", 0},
-		{"gamma shape<1 pair", must(profiles.NewGamma(0.5, 2*ms, 0)), must(profiles.NewGamma(0.7, 2*ms, 0)), 10 * ms, 0,
+		{"gamma shape<1 pair", must(laws.NewGamma(0.5, 2*ms, 0)), must(laws.NewGamma(0.7, 2*ms, 0)), 10 * ms, 0,
 			gammaSum(1.2, 2*ms), "Gamma(0.5,θ)+Gamma(0.7,θ) = Gamma(1.2,θ), singular densities; distuv.Gamma", 0},
-		{"exponential pair", must(profiles.NewExponential(1*ms, 0)), must(profiles.NewExponential(2.5*ms, 0)), 8 * ms, 0.5 * ms,
+		{"exponential pair", must(laws.NewExponential(1*ms, 0)), must(laws.NewExponential(2.5*ms, 0)), 8 * ms, 0.5 * ms,
 			hypoExp(1*ms, 2.5*ms), "hypoexponential density, distuv.Gamma for the incomplete gamma", 0},
-		{"exponential pair shifted", must(profiles.NewExponential(1*ms, 1*ms)), must(profiles.NewExponential(2.5*ms, 0.5*ms)), 8 * ms, 0.5 * ms,
+		{"exponential pair shifted", must(laws.NewExponential(1*ms, 1*ms)), must(laws.NewExponential(2.5*ms, 0.5*ms)), 8 * ms, 0.5 * ms,
 			hypoExp(1*ms, 2.5*ms), "hypoexponential moved by the shifts", 1.5 * ms},
-		{"atom+exponential", profiles.Constant{Value: 2 * ms}, must(profiles.NewExponential(1.5*ms, 0)), 6 * ms, 1 * ms,
+		{"atom+exponential", laws.Constant{Value: 2 * ms}, must(laws.NewExponential(1.5*ms, 0)), 6 * ms, 1 * ms,
 			func(k int, x float64) float64 {
 				e := distuv.Exponential{Rate: 1 / (1.5 * ms)}
 				g := func(k int, x float64) float64 { // ∫₀ˣ sᵏ λe^{−λs} ds
@@ -148,8 +147,8 @@ func TestTauRuleSciPy(t *testing.T) {
 			want[fs[0]], _ = strconv.ParseFloat(fs[1], 64)
 		}
 	}
-	dsc := must(profiles.NewLognormal(2*ms, 0.5, 0.5*ms))
-	dca := must(profiles.NewGamma(2, 1*ms, 0))
+	dsc := must(laws.NewLognormal(2*ms, 0.5, 0.5*ms))
+	dca := must(laws.NewGamma(2, 1*ms, 0))
 	const h, c = 8 * ms, 1 * ms
 	l := servo(nil, c)
 	s := Discretize(l.Plant.A, l.Plant.B, nil, h)
@@ -175,12 +174,12 @@ func TestTauRuleSciPy(t *testing.T) {
 func TestTauRuleManyAtoms(t *testing.T) {
 	const atomTol = 1e-12
 	r := rand.New(rand.NewPCG(7, 11))
-	draw := func(n int, mean float64) profiles.Delay {
+	draw := func(n int, mean float64) laws.Delay {
 		x := make([]float64, n)
 		for i := range x {
 			x[i] = mean * r.ExpFloat64()
 		}
-		return must(profiles.NewEmpirical(x, 0))
+		return must(laws.NewEmpirical(x, 0))
 	}
 	dsc, dca := draw(40, 2*ms), draw(30, 3*ms)
 	const h, c = 10 * ms, 0.5 * ms
@@ -215,7 +214,7 @@ func TestTauRuleManyAtoms(t *testing.T) {
 // is stale (sensor) or late (command).
 func TestStaleAndLateAtTheBoundary(t *testing.T) {
 	const h = 10 * ms
-	l := servo(profile(iidChannel(0, profiles.Constant{Value: h}), nil), 0)
+	l := servo(profile(iidChannel(0, laws.Constant{Value: h}), nil), 0)
 	md, err := Build(l, Options{})
 	if err != nil {
 		t.Fatal(err)
@@ -223,7 +222,7 @@ func TestStaleAndLateAtTheBoundary(t *testing.T) {
 	if js := md.States[0]; js.P0 != 1 {
 		t.Errorf("τsc = h: P(m0) = %g, want 1 (stale)", js.P0)
 	}
-	l = servo(profile(iidChannel(0, profiles.Constant{Value: 4 * ms}), iidChannel(0, profiles.Constant{Value: 5 * ms})), 1*ms)
+	l = servo(profile(iidChannel(0, laws.Constant{Value: 4 * ms}), iidChannel(0, laws.Constant{Value: 5 * ms})), 1*ms)
 	md, err = Build(l, Options{})
 	if err != nil {
 		t.Fatal(err)

@@ -4,12 +4,11 @@ import (
 	"errors"
 	"fmt"
 	"math"
+	"rigwire/profiles/laws"
 	"slices"
 
 	"gonum.org/v1/gonum/mat"
 	"gonum.org/v1/gonum/mathext"
-
-	"rigwire/profiles"
 )
 
 // DelayFit is the maximum-likelihood fit of one delay kind to a sample.
@@ -37,7 +36,7 @@ type DelayFit struct {
 	// 1967).
 	KS, KSP float64
 	// Law is the fitted law, ready for a profile.
-	Law profiles.Delay
+	Law laws.Delay
 }
 
 // Param returns the estimate and standard error of the named parameter.
@@ -135,15 +134,15 @@ type kindSpec struct {
 	names   []string // without shift
 	shifted bool
 	fit     func(y []float64) ([]float64, bool)
-	law     func(p []float64, shift float64) (profiles.Delay, error)
+	law     func(p []float64, shift float64) (laws.Delay, error)
 }
 
 var kindSpecs = map[string]kindSpec{
-	"exponential": {[]string{"mean"}, true, fitExponential, func(p []float64, s float64) (profiles.Delay, error) { return profiles.NewExponential(p[0], s) }},
-	"gamma":       {[]string{"shape", "scale"}, true, fitGamma, func(p []float64, s float64) (profiles.Delay, error) { return profiles.NewGamma(p[0], p[1], s) }},
-	"lognormal":   {[]string{"median", "sigma"}, true, fitLognormal, func(p []float64, s float64) (profiles.Delay, error) { return profiles.NewLognormal(p[0], p[1], s) }},
-	"weibull":     {[]string{"shape", "scale"}, true, fitWeibull, func(p []float64, s float64) (profiles.Delay, error) { return profiles.NewWeibull(p[0], p[1], s) }},
-	"normal":      {[]string{"mean", "std"}, false, fitNormal, func(p []float64, _ float64) (profiles.Delay, error) { return profiles.NewNormal(p[0], p[1], 0) }},
+	"exponential": {[]string{"mean"}, true, fitExponential, func(p []float64, s float64) (laws.Delay, error) { return laws.NewExponential(p[0], s) }},
+	"gamma":       {[]string{"shape", "scale"}, true, fitGamma, func(p []float64, s float64) (laws.Delay, error) { return laws.NewGamma(p[0], p[1], s) }},
+	"lognormal":   {[]string{"median", "sigma"}, true, fitLognormal, func(p []float64, s float64) (laws.Delay, error) { return laws.NewLognormal(p[0], p[1], s) }},
+	"weibull":     {[]string{"shape", "scale"}, true, fitWeibull, func(p []float64, s float64) (laws.Delay, error) { return laws.NewWeibull(p[0], p[1], s) }},
+	"normal":      {[]string{"mean", "std"}, false, fitNormal, func(p []float64, _ float64) (laws.Delay, error) { return laws.NewNormal(p[0], p[1], 0) }},
 }
 
 func fitKind(kind string, sorted []float64) (DelayFit, error) {
@@ -189,8 +188,8 @@ func fitKind(kind string, sorted []float64) (DelayFit, error) {
 	law, _ := spec.law(p, shift)
 	f.Law, f.LogLik = law, ll
 	f.AIC = 2*float64(f.K) - 2*ll
-	f.KS = KSStatistic(sorted, law.CDF)
-	f.KSP = KSPValue(f.KS, n)
+	f.KS = laws.KSStatistic(sorted, law.CDF)
+	f.KSP = laws.KSPValue(f.KS, n)
 	f.StdErr = observedStdErr(spec, f.Params, sorted, edge)
 	return f, nil
 }
@@ -237,7 +236,7 @@ func maxProfile(g func(float64) (float64, []float64), lo, hi float64) float64 {
 	return x
 }
 
-func logLik(d profiles.Delay, xs []float64) float64 {
+func logLik(d laws.Delay, xs []float64) float64 {
 	s := 0.0
 	for _, x := range xs {
 		s += math.Log(d.Density(x))
@@ -277,7 +276,7 @@ func observedStdErr(spec kindSpec, theta, sorted []float64, edge bool) []float64
 		free = append(free, i)
 	}
 	ll := func(th []float64) float64 {
-		var d profiles.Delay
+		var d laws.Delay
 		var err error
 		if spec.shifted {
 			d, err = spec.law(th[:k-1], th[k-1])

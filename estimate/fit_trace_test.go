@@ -5,6 +5,7 @@ import (
 	"testing"
 
 	"rigwire/profiles"
+	"rigwire/profiles/laws"
 )
 
 // TestPredictTraceDirection: for the prediction a direction that replays
@@ -29,7 +30,7 @@ func TestPredictTraceDirection(t *testing.T) {
 			kept = append(kept, delays[i])
 		}
 	}
-	emp, err := profiles.NewEmpirical(kept, 0)
+	emp, err := laws.NewEmpirical(kept, 0)
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -6,20 +6,21 @@ import (
 	"gonum.org/v1/gonum/mat"
 
 	"rigwire/profiles"
+	"rigwire/profiles/laws"
 )
 
 // Test helpers that build loops in code, without the loop-file loader.
 
-func iidChannel(loss float64, d profiles.Delay) *profiles.Channel {
+func iidChannel(loss float64, d laws.Delay) *profiles.Channel {
 	if d == nil {
-		d = profiles.Constant{}
+		d = laws.Constant{}
 	}
 	return &profiles.Channel{States: []profiles.State{{MeanDwell: math.Inf(1), Loss: loss, Delay: d}}}
 }
 
 // twoState is a Gilbert–Elliott channel (Gilbert 1960, Elliott 1963):
 // a good and a bad state with their mean dwell times.
-func twoState(dwellGood, lossGood float64, dGood profiles.Delay, dwellBad, lossBad float64, dBad profiles.Delay) *profiles.Channel {
+func twoState(dwellGood, lossGood float64, dGood laws.Delay, dwellBad, lossBad float64, dBad laws.Delay) *profiles.Channel {
 	return &profiles.Channel{States: []profiles.State{
 		{Name: "good", MeanDwell: dwellGood, Loss: lossGood, Delay: dGood, Jump: []float64{0, 1}},
 		{Name: "bad", MeanDwell: dwellBad, Loss: lossBad, Delay: dBad, Jump: []float64{1, 0}},

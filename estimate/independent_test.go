@@ -9,6 +9,7 @@ import (
 	"testing"
 
 	"rigwire/profiles"
+	"rigwire/profiles/laws"
 )
 
 // TestAgainstIndependentOctave compares the prediction with an
@@ -32,12 +33,12 @@ func TestAgainstIndependentOctave(t *testing.T) {
 			want[fs[0]], _ = strconv.ParseFloat(fs[3], 64)
 		}
 	}
-	un1 := must(profiles.NewUniform(1*ms, 3*ms))
-	un2 := must(profiles.NewUniform(0.5*ms, 4*ms))
+	un1 := must(laws.NewUniform(1*ms, 3*ms))
+	un2 := must(laws.NewUniform(0.5*ms, 4*ms))
 	trap := servo(profile(iidChannel(0.08, un1), iidChannel(0.05, un2)), 0.5*ms)
 	trap.Period = 6 * ms
-	markov := servo(profile(iidChannel(0.02, profiles.Constant{Value: 1 * ms}),
-		twoState(0.5, 0.01, profiles.Constant{Value: 1 * ms}, 0.1, 0.6, profiles.Constant{Value: 6 * ms})), 0.5*ms)
+	markov := servo(profile(iidChannel(0.02, laws.Constant{Value: 1 * ms}),
+		twoState(0.5, 0.01, laws.Constant{Value: 1 * ms}, 0.1, 0.6, laws.Constant{Value: 6 * ms})), 0.5*ms)
 	for name, l := range map[string]*profiles.Loop{"iid_trapezoid": trap, "markov_atoms": markov} {
 		t.Run(name, func(t *testing.T) {
 			pr, err := Predict(l, PredictOptions{SkipMargin: true})

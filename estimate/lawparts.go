@@ -6,6 +6,7 @@ import (
 	"sort"
 
 	"rigwire/profiles"
+	"rigwire/profiles/laws"
 )
 
 // lawParts is a delay law split for integration (delaylaw.go): its point
@@ -21,7 +22,7 @@ import (
 // heavy tail is cut where the period ends (substitution x = F⁻¹(u), the
 // probability integral transform; common practice).
 type lawParts struct {
-	atoms  []profiles.Atom // merged, in increasing order
+	atoms  []laws.Atom // merged, in increasing order
 	pieces []piece
 }
 
@@ -29,12 +30,12 @@ type lawParts struct {
 // (a law without atoms), with mass w in the whole law.
 type piece struct {
 	w, scale, shift float64
-	base            profiles.Delay
+	base            laws.Delay
 }
 
 // quantile is the piece's own quantile function, for 0 < u < 1.
 func (p piece) quantile(u float64) float64 {
-	return p.shift + p.scale*profiles.Quantile(p.base, u)
+	return p.shift + p.scale*laws.Quantile(p.base, u)
 }
 
 // cdf is the piece's own P(X ≤ x).
@@ -50,13 +51,13 @@ func (p piece) support() (lo, hi float64) {
 // delay scale are carried along, mixtures split by weight, trace replays
 // and empirical laws are their atoms. A law of a kind it does not know
 // that has both atoms and a density is refused.
-func splitLaw(d profiles.Delay) (lawParts, error) {
+func splitLaw(d laws.Delay) (lawParts, error) {
 	var lp lawParts
 	if err := lp.add(d, 1, 1, 0); err != nil {
 		return lawParts{}, err
 	}
 	sort.Slice(lp.atoms, func(i, j int) bool { return lp.atoms[i].At < lp.atoms[j].At })
-	var merged []profiles.Atom
+	var merged []laws.Atom
 	for _, a := range lp.atoms {
 		if n := len(merged); n > 0 && merged[n-1].At == a.At {
 			merged[n-1].Mass += a.Mass
@@ -73,16 +74,16 @@ func splitLaw(d profiles.Delay) (lawParts, error) {
 		total += p.w
 	}
 	if math.Abs(total-1) > 1e-9 {
-		return lawParts{}, fmt.Errorf("%s: its parts carry mass %.12g, want 1", profiles.Describe(d), total)
+		return lawParts{}, fmt.Errorf("%s: its parts carry mass %.12g, want 1", laws.Describe(d), total)
 	}
 	return lp, nil
 }
 
-func (lp *lawParts) add(d profiles.Delay, w, scale, shift float64) error {
+func (lp *lawParts) add(d laws.Delay, w, scale, shift float64) error {
 	switch x := d.(type) {
-	case *profiles.Shifted:
+	case *laws.Shifted:
 		return lp.add(x.Base, w, scale, shift+scale*x.Shift)
-	case *profiles.Mixture:
+	case *laws.Mixture:
 		for i, part := range x.Parts {
 			if err := lp.add(part, w*x.Weights[i], scale, shift); err != nil {
 				return err
@@ -97,14 +98,14 @@ func (lp *lawParts) add(d profiles.Delay, w, scale, shift float64) error {
 	atoms := d.Atoms()
 	mass := 0.0
 	for _, a := range atoms {
-		lp.atoms = append(lp.atoms, profiles.Atom{At: shift + scale*a.At, Mass: w * a.Mass})
+		lp.atoms = append(lp.atoms, laws.Atom{At: shift + scale*a.At, Mass: w * a.Mass})
 		mass += a.Mass
 	}
 	switch {
 	case mass >= 1-1e-12:
 		return nil
 	case len(atoms) > 0:
-		return fmt.Errorf("%s: a law with both atoms and a density must be a mixture of its parts", profiles.Describe(d))
+		return fmt.Errorf("%s: a law with both atoms and a density must be a mixture of its parts", laws.Describe(d))
 	}
 	lp.pieces = append(lp.pieces, piece{w: w, scale: scale, shift: shift, base: d})
 	return nil

@@ -7,6 +7,7 @@ import (
 	"gonum.org/v1/gonum/mat"
 
 	"rigwire/profiles"
+	"rigwire/profiles/laws"
 )
 
 // Options changes the network of a loop for a what-if prediction.
@@ -130,7 +131,7 @@ func Build(loop *profiles.Loop, opts Options) (*Model, error) {
 			dca := scaleDelay(a.Delay, opts.DelayScale)
 			js := JointState{Name: stateName(sc, i) + "/" + stateName(ca, j)}
 			js.baseSC, js.baseCA = s.Loss, a.Loss
-			js.OnTimeSC = profiles.ProbBelow(dsc, h)
+			js.OnTimeSC = laws.ProbBelow(dsc, h)
 			var err error
 			if js.nodes, err = tauRule(dsc, dca, h, loop.ComputeDelay, deg); err != nil {
 				return nil, fmt.Errorf("network state %s: %w", js.Name, err)

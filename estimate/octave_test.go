@@ -11,6 +11,7 @@ import (
 	"gonum.org/v1/gonum/mat"
 
 	"rigwire/profiles"
+	"rigwire/profiles/laws"
 )
 
 // Reference values from GNU Octave 7.3 with its control package (Debian
@@ -100,15 +101,15 @@ func octaveLoops() map[string]struct {
 		Controller:   profiles.Controller{D: dense([]float64{0.5, 0}, []float64{0, 0.8})},
 		Setpoint:     []float64{1, -0.5},
 		ComputeDelay: 0.005,
-		Profile: profile(iidChannel(0, profiles.Constant{Value: 0.01}),
-			iidChannel(0, profiles.Constant{Value: 0.005})),
+		Profile: profile(iidChannel(0, laws.Constant{Value: 0.01}),
+			iidChannel(0, laws.Constant{Value: 0.005})),
 	}
 	return map[string]struct {
 		loop *profiles.Loop
 		tau  float64
 	}{
-		"servo": {servo(profile(iidChannel(0, profiles.Constant{Value: 0.001}),
-			iidChannel(0, profiles.Constant{Value: 0.0015})), 0.0005), 0.003},
+		"servo": {servo(profile(iidChannel(0, laws.Constant{Value: 0.001}),
+			iidChannel(0, laws.Constant{Value: 0.0015})), 0.0005), 0.003},
 		"mimo": {mimo, 0.02},
 	}
 }

@@ -3,11 +3,10 @@ package estimate
 import (
 	"math"
 	"math/rand/v2"
+	"rigwire/profiles/laws"
 	"testing"
 
 	"gonum.org/v1/gonum/stat/distuv"
-
-	"rigwire/profiles"
 )
 
 // ar1Errors is a recorded sample set for the estimator checks: two
@@ -305,7 +304,7 @@ func TestOnlineCoverageOnSimulator(t *testing.T) {
 		periods = 82_000
 		warmup  = 2_000
 	)
-	loop := servo(profile(iidChannel(0.1, profiles.Constant{Value: 0.001}), iidChannel(0.1, profiles.Constant{Value: 0.002})), 0.0005)
+	loop := servo(profile(iidChannel(0.1, laws.Constant{Value: 0.001}), iidChannel(0.1, laws.Constant{Value: 0.002})), 0.0005)
 	pr, err := Predict(loop, PredictOptions{SkipMargin: true})
 	if err != nil || pr.Error == nil {
 		t.Fatalf("prediction: %v", err)

@@ -8,6 +8,7 @@ import (
 	"gonum.org/v1/gonum/mat"
 
 	"rigwire/profiles"
+	"rigwire/profiles/laws"
 )
 
 // SimOptions sets up a Monte-Carlo run of a loop.
@@ -114,8 +115,8 @@ type simulator struct {
 	psc, pca       *mat.Dense
 	pisc, pica     []float64
 	sc, ca         []profiles.State
-	delaySC        []profiles.Delay
-	delayCA        []profiles.Delay
+	delaySC        []laws.Delay
+	delayCA        []laws.Delay
 	lossSC, lossCA []float64   // extra loss included
 	rowsSC, rowsCA [][]float64 // rows of the transition matrices
 	split          map[float64][2]*mat.Dense

@@ -8,6 +8,7 @@ import (
 	"gonum.org/v1/gonum/mat"
 
 	"rigwire/profiles"
+	"rigwire/profiles/laws"
 )
 
 // Slow, obviously correct references beside the fast paths (the pattern
@@ -19,17 +20,17 @@ import (
 
 func smoothLoops() map[string]*profiles.Loop {
 	ms := 1e-3
-	lg := must(profiles.NewLognormal(2*ms, 0.6, 0.5*ms))
-	un := must(profiles.NewUniform(1*ms, 6*ms))
-	ga := must(profiles.NewGamma(2, 1*ms, 0.5*ms))
+	lg := must(laws.NewLognormal(2*ms, 0.6, 0.5*ms))
+	un := must(laws.NewUniform(1*ms, 6*ms))
+	ga := must(laws.NewGamma(2, 1*ms, 0.5*ms))
 	zero := servo(profile(iidChannel(0.1, lg), iidChannel(0.05, un)), 0.5*ms)
 	zero.Actuator.OnLoss = profiles.ZeroUnlessFresh
 	return map[string]*profiles.Loop{
 		"iid": servo(profile(iidChannel(0.08, lg), iidChannel(0.05, un)), 0.5*ms),
 		"burst": servo(profile(iidChannel(0.02, ga),
-			twoState(0.5, 0.01, profiles.Constant{Value: 1 * ms}, 0.1, 0.6, un)), 0.5*ms),
+			twoState(0.5, 0.01, laws.Constant{Value: 1 * ms}, 0.1, 0.6, un)), 0.5*ms),
 		"both bursty": servo(profile(twoState(2, 0.01, lg, 0.2, 0.3, ga),
-			twoState(0.5, 0.01, profiles.Constant{Value: 1 * ms}, 0.1, 0.6, un)), 0.5*ms),
+			twoState(0.5, 0.01, laws.Constant{Value: 1 * ms}, 0.1, 0.6, un)), 0.5*ms),
 		"zero policy": zero,
 	}
 }

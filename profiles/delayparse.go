@@ -6,6 +6,7 @@ import (
 	"io"
 	"math"
 	"path/filepath"
+	"rigwire/profiles/laws"
 	"rigwire/profiles/yamlpos"
 	"sort"
 	"strconv"
@@ -20,7 +21,7 @@ type delayKind struct {
 	keys     []string // the kind's own keys, besides kind and shift
 	required []string
 	shift    bool // whether `shift` is allowed
-	build    func(k map[string]yamlpos.Field, dir string, depth int) (Delay, error)
+	build    func(k map[string]yamlpos.Field, dir string, depth int) (laws.Delay, error)
 }
 
 // maxMixtureDepth bounds mixtures of mixtures (and so what aliases can
@@ -34,22 +35,22 @@ func init() {
 		"constant": {keys: []string{"value"}, required: []string{"value"}, build: buildConstant},
 		"uniform":  {keys: []string{"min", "max"}, required: []string{"min", "max"}, build: buildUniform},
 		"normal":   {keys: []string{"mean", "std"}, required: []string{"mean", "std"}, shift: true, build: buildNormal},
-		"exponential": {keys: []string{"mean"}, required: []string{"mean"}, shift: true, build: func(k map[string]yamlpos.Field, _ string, _ int) (Delay, error) {
-			m, err := k["mean"].PositiveDurationMax(MaxDelay)
+		"exponential": {keys: []string{"mean"}, required: []string{"mean"}, shift: true, build: func(k map[string]yamlpos.Field, _ string, _ int) (laws.Delay, error) {
+			m, err := k["mean"].PositiveDurationMax(laws.MaxDelay)
 			if err != nil {
 				return nil, err
 			}
-			return NewExponential(m, 0)
+			return laws.NewExponential(m, 0)
 		}},
-		"gamma": {keys: []string{"shape", "scale"}, required: []string{"shape", "scale"}, shift: true, build: func(k map[string]yamlpos.Field, _ string, _ int) (Delay, error) {
+		"gamma": {keys: []string{"shape", "scale"}, required: []string{"shape", "scale"}, shift: true, build: func(k map[string]yamlpos.Field, _ string, _ int) (laws.Delay, error) {
 			a, s, err := shapeScale(k)
 			if err != nil {
 				return nil, err
 			}
-			return NewGamma(a, s, 0)
+			return laws.NewGamma(a, s, 0)
 		}},
-		"lognormal": {keys: []string{"median", "sigma"}, required: []string{"median", "sigma"}, shift: true, build: func(k map[string]yamlpos.Field, _ string, _ int) (Delay, error) {
-			m, err := k["median"].PositiveDurationMax(MaxDelay)
+		"lognormal": {keys: []string{"median", "sigma"}, required: []string{"median", "sigma"}, shift: true, build: func(k map[string]yamlpos.Field, _ string, _ int) (laws.Delay, error) {
+			m, err := k["median"].PositiveDurationMax(laws.MaxDelay)
 			if err != nil {
 				return nil, err
 			}
@@ -60,21 +61,21 @@ func init() {
 			if err != nil {
 				return nil, err
 			}
-			return NewLognormal(m, s, 0)
+			return laws.NewLognormal(m, s, 0)
 		}},
-		"weibull": {keys: []string{"shape", "scale"}, required: []string{"shape", "scale"}, shift: true, build: func(k map[string]yamlpos.Field, _ string, _ int) (Delay, error) {
+		"weibull": {keys: []string{"shape", "scale"}, required: []string{"shape", "scale"}, shift: true, build: func(k map[string]yamlpos.Field, _ string, _ int) (laws.Delay, error) {
 			a, s, err := shapeScale(k)
 			if err != nil {
 				return nil, err
 			}
-			return NewWeibull(a, s, 0)
+			return laws.NewWeibull(a, s, 0)
 		}},
-		"pareto": {keys: []string{"shape", "scale"}, required: []string{"shape", "scale"}, build: func(k map[string]yamlpos.Field, _ string, _ int) (Delay, error) {
+		"pareto": {keys: []string{"shape", "scale"}, required: []string{"shape", "scale"}, build: func(k map[string]yamlpos.Field, _ string, _ int) (laws.Delay, error) {
 			a, s, err := shapeScale(k)
 			if err != nil {
 				return nil, err
 			}
-			return NewPareto(a, s)
+			return laws.NewPareto(a, s)
 		}},
 		"empirical": {keys: []string{"samples", "file"}, shift: true, build: buildEmpirical},
 		"mixture":   {keys: []string{"parts"}, required: []string{"parts"}, shift: true, build: buildMixture},
@@ -94,24 +95,24 @@ func DelayKinds() []string {
 // ParseDelay reads a delay law from a field holding a `delay` mapping
 // ({kind: lognormal, median: 3ms, sigma: 0.4}) or a lone duration (a
 // constant). dir resolves an empirical file's relative path.
-func ParseDelay(f yamlpos.Field, dir string) (Delay, error) {
+func ParseDelay(f yamlpos.Field, dir string) (laws.Delay, error) {
 	return parseDelay(f, dir, 0)
 }
 
-func parseDelay(f yamlpos.Field, dir string, depth int) (Delay, error) {
+func parseDelay(f yamlpos.Field, dir string, depth int) (laws.Delay, error) {
 	d, _, err := parseDelayExtra(f, dir, depth)
 	return d, err
 }
 
 // parseDelayExtra parses a law whose mapping may also hold the keys in
 // extra (a mixture part's weight), returned by name.
-func parseDelayExtra(f yamlpos.Field, dir string, depth int, extra ...string) (Delay, map[string]yamlpos.Field, error) {
+func parseDelayExtra(f yamlpos.Field, dir string, depth int, extra ...string) (laws.Delay, map[string]yamlpos.Field, error) {
 	if f.Node != nil && f.Node.Kind == yaml.ScalarNode && len(extra) == 0 && !f.IsNull() {
-		v, err := f.DurationIn(0, MaxDelay)
+		v, err := f.DurationIn(0, laws.MaxDelay)
 		if err != nil {
 			return nil, nil, f.Errorf("want a delay law ({kind: …}) or a duration ≥ 0, got %s", f.Got())
 		}
-		return Constant{Value: v}, nil, nil
+		return laws.Constant{Value: v}, nil, nil
 	}
 	if f.IsNull() {
 		return nil, nil, f.Errorf("want a delay law ({kind: …}), got %s", f.Got())
@@ -171,11 +172,11 @@ func parseDelayExtra(f yamlpos.Field, dir string, depth int, extra ...string) (D
 		return nil, nil, wrapLawError(f, err)
 	}
 	if g, ok := keys["shift"]; ok {
-		s, err := g.DurationIn(0, MaxDelay)
+		s, err := g.DurationIn(0, laws.MaxDelay)
 		if err != nil {
 			return nil, nil, err
 		}
-		if d, err = Shift(d, s); err != nil {
+		if d, err = laws.Shift(d, s); err != nil {
 			return nil, nil, wrapLawError(f, err)
 		}
 	}
@@ -213,51 +214,51 @@ func shapeScale(k map[string]yamlpos.Field) (shape, scale float64, err error) {
 	if shape, err = k["shape"].FloatIn(MinShape, MaxShape); err != nil {
 		return 0, 0, err
 	}
-	if scale, err = k["scale"].PositiveDurationMax(MaxDelay); err != nil {
+	if scale, err = k["scale"].PositiveDurationMax(laws.MaxDelay); err != nil {
 		return 0, 0, err
 	}
 	return shape, scale, nil
 }
 
-func buildConstant(k map[string]yamlpos.Field, _ string, _ int) (Delay, error) {
-	v, err := k["value"].DurationIn(0, MaxDelay)
+func buildConstant(k map[string]yamlpos.Field, _ string, _ int) (laws.Delay, error) {
+	v, err := k["value"].DurationIn(0, laws.MaxDelay)
 	if err != nil {
 		return nil, err
 	}
-	return Constant{Value: v}, nil
+	return laws.Constant{Value: v}, nil
 }
 
-func buildUniform(k map[string]yamlpos.Field, _ string, _ int) (Delay, error) {
-	lo, err := k["min"].DurationIn(0, MaxDelay)
+func buildUniform(k map[string]yamlpos.Field, _ string, _ int) (laws.Delay, error) {
+	lo, err := k["min"].DurationIn(0, laws.MaxDelay)
 	if err != nil {
 		return nil, err
 	}
-	hi, err := k["max"].DurationIn(0, MaxDelay)
+	hi, err := k["max"].DurationIn(0, laws.MaxDelay)
 	if err != nil {
 		return nil, err
 	}
 	if hi < lo {
-		return nil, k["max"].Errorf("want a duration ≥ min (%s), got %s", fmtSeconds(lo), k["max"].Got())
+		return nil, k["max"].Errorf("want a duration ≥ min (%s), got %s", laws.FormatSeconds(lo), k["max"].Got())
 	}
-	return NewUniform(lo, hi)
+	return laws.NewUniform(lo, hi)
 }
 
-func buildNormal(k map[string]yamlpos.Field, _ string, _ int) (Delay, error) {
-	m, err := k["mean"].DurationIn(-MaxDelay, MaxDelay)
+func buildNormal(k map[string]yamlpos.Field, _ string, _ int) (laws.Delay, error) {
+	m, err := k["mean"].DurationIn(-laws.MaxDelay, laws.MaxDelay)
 	if err != nil {
 		return nil, err
 	}
-	s, err := k["std"].PositiveDurationMax(MaxDelay)
+	s, err := k["std"].PositiveDurationMax(laws.MaxDelay)
 	if err != nil {
 		return nil, err
 	}
-	if -m/s > maxNormalAlpha {
-		return nil, k["mean"].Errorf("want a mean ≥ −%d·std (%s), got %s", maxNormalAlpha, fmtSeconds(-maxNormalAlpha*s), k["mean"].Got())
+	if -m/s > laws.MaxNormalAlpha {
+		return nil, k["mean"].Errorf("want a mean ≥ −%d·std (%s), got %s", laws.MaxNormalAlpha, laws.FormatSeconds(-laws.MaxNormalAlpha*s), k["mean"].Got())
 	}
-	return NewNormal(m, s, 0)
+	return laws.NewNormal(m, s, 0)
 }
 
-func buildEmpirical(k map[string]yamlpos.Field, dir string, _ int) (Delay, error) {
+func buildEmpirical(k map[string]yamlpos.Field, dir string, _ int) (laws.Delay, error) {
 	sf, hasSamples := k["samples"]
 	ff, hasFile := k["file"]
 	var samples []float64
@@ -272,11 +273,11 @@ func buildEmpirical(k map[string]yamlpos.Field, dir string, _ int) (Delay, error
 		if len(items) == 0 {
 			return nil, sf.Errorf("want at least one delay, got none")
 		}
-		if len(items) > MaxSamples {
-			return nil, sf.Errorf("want at most %d delays, got %d", MaxSamples, len(items))
+		if len(items) > laws.MaxSamples {
+			return nil, sf.Errorf("want at most %d delays, got %d", laws.MaxSamples, len(items))
 		}
 		for _, it := range items {
-			v, err := it.DurationIn(0, MaxDelay)
+			v, err := it.DurationIn(0, laws.MaxDelay)
 			if err != nil {
 				return nil, err
 			}
@@ -292,16 +293,16 @@ func buildEmpirical(k map[string]yamlpos.Field, dir string, _ int) (Delay, error
 			return nil, err
 		}
 		defer fh.Close()
-		if samples, err = ReadSamples(name, fh); err != nil {
+		if samples, err = laws.ReadSamples(name, fh); err != nil {
 			return nil, ff.Errorf("%v", err)
 		}
 	default:
 		return nil, fmt.Errorf("missing samples or file for kind empirical")
 	}
-	return NewEmpirical(samples, 0)
+	return laws.NewEmpirical(samples, 0)
 }
 
-func buildMixture(k map[string]yamlpos.Field, dir string, depth int) (Delay, error) {
+func buildMixture(k map[string]yamlpos.Field, dir string, depth int) (laws.Delay, error) {
 	pf := k["parts"]
 	if depth >= maxMixtureDepth {
 		return nil, pf.Errorf("mixtures nested deeper than %d", maxMixtureDepth)
@@ -314,7 +315,7 @@ func buildMixture(k map[string]yamlpos.Field, dir string, depth int) (Delay, err
 		return nil, pf.Errorf("want at least one part, got none")
 	}
 	weights := make([]float64, len(items))
-	parts := make([]Delay, len(items))
+	parts := make([]laws.Delay, len(items))
 	total := 0.0
 	for i, it := range items {
 		d, extra, err := parseDelayExtra(it, dir, depth+1, "weight")
@@ -334,7 +335,7 @@ func buildMixture(k map[string]yamlpos.Field, dir string, depth int) (Delay, err
 	if !(total > 0) {
 		return nil, pf.Errorf("want weights ≥ 0, not all 0")
 	}
-	return NewMixture(weights, parts)
+	return laws.NewMixture(weights, parts)
 }
 
 // openRelative opens the file a profile key names, its path relative to

@@ -6,6 +6,7 @@ import (
 	"math/rand/v2"
 	"os"
 	"path/filepath"
+	"rigwire/profiles/laws"
 	"rigwire/profiles/yamlpos"
 	"runtime"
 	"strings"
@@ -249,7 +250,7 @@ func TestLargeYAMLRefusedCheaply(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if got := p.SensorToController.States[0].Delay.(*Empirical).Len(); got != yamlpos.MaxNodes-100 {
+	if got := p.SensorToController.States[0].Delay.(*laws.Empirical).Len(); got != yamlpos.MaxNodes-100 {
 		t.Errorf("loaded %d samples, want %d", got, yamlpos.MaxNodes-100)
 	}
 	t.Logf("loading %d values: %d MB allocated", yamlpos.MaxNodes-100, n>>20)
@@ -313,7 +314,7 @@ func TestSampleFileBounds(t *testing.T) {
 		{"negative", "# delays\n0.002\n-1\n", at + "3: want a delay in [0, 3600] seconds, got -1"},
 		{"not a number", "NaN\n", at + "1: want a delay (seconds, or a duration such as \"3ms\"), got \"NaN\""},
 		{"infinite", "+Inf\n", at + "1: want a delay (seconds, or a duration such as \"3ms\"), got \"+Inf\""},
-		{"too many", strings.Repeat("0.001\n", MaxSamples+1), at + "100001: want at most 100000 delays, got more"},
+		{"too many", strings.Repeat("0.001\n", laws.MaxSamples+1), at + "100001: want at most 100000 delays, got more"},
 		{"a line too long", strings.Repeat("1", 5000) + "\n", at + "1: want one delay a line, got a line longer than 4096 bytes"},
 	}
 	for _, c := range cases {
@@ -325,12 +326,12 @@ func TestSampleFileBounds(t *testing.T) {
 		})
 	}
 	t.Run("at the bounds", func(t *testing.T) {
-		p, err := Load(prof("0\n3600\n" + strings.Repeat("1ms\n", MaxSamples-2)))
+		p, err := Load(prof("0\n3600\n" + strings.Repeat("1ms\n", laws.MaxSamples-2)))
 		if err != nil {
 			t.Fatal(err)
 		}
-		if n := p.SensorToController.States[0].Delay.(*Empirical).Len(); n != MaxSamples {
-			t.Errorf("got %d samples, want %d", n, MaxSamples)
+		if n := p.SensorToController.States[0].Delay.(*laws.Empirical).Len(); n != laws.MaxSamples {
+			t.Errorf("got %d samples, want %d", n, laws.MaxSamples)
 		}
 	})
 }

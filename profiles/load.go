@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"math"
 	"path/filepath"
+	"rigwire/profiles/laws"
 	"rigwire/profiles/yamlpos"
 	"strconv"
 
@@ -92,7 +93,6 @@ const (
 	MaxStates    = 64     // states of one direction's chain
 	MinMeanDwell = 1e-6   // seconds: 1µs
 	MaxMeanDwell = 864000 // seconds: 10 days
-	MaxDelay     = 3600.0 // seconds: any time parameter of a delay law, 1h
 	MinShape     = 0.1    // gamma, weibull, pareto shapes
 	MaxShape     = 1e4
 	MaxSigma     = 10.0 // lognormal sigma
@@ -100,7 +100,7 @@ const (
 
 // Clean is a one-state channel that neither loses nor delays.
 func Clean() *Channel {
-	return &Channel{States: []State{{Name: "clean", MeanDwell: math.Inf(1), Delay: Constant{}}}}
+	return &Channel{States: []State{{Name: "clean", MeanDwell: math.Inf(1), Delay: laws.Constant{}}}}
 }
 
 func parseChannel(f yamlpos.Field, dir string) (*Channel, error) {
@@ -134,7 +134,7 @@ func parseChannel(f yamlpos.Field, dir string) (*Channel, error) {
 // parseLossDelay reads the loss and delay keys shared by a plain direction
 // and a state.
 func parseLossDelay(keys map[string]yamlpos.Field, dir string) (State, error) {
-	s := State{Delay: Constant{}}
+	s := State{Delay: laws.Constant{}}
 	var err error
 	if f, ok := keys["loss"]; ok {
 		if s.Loss, err = f.FloatIn(0, 1); err != nil {

@@ -15,6 +15,7 @@ import (
 	"gopkg.in/yaml.v3"
 
 	"rigwire/profiles"
+	"rigwire/profiles/laws"
 	"rigwire/profiles/yamlpos"
 )
 
@@ -200,7 +201,7 @@ func checkChannel(t testing.TB, c *profiles.Channel) {
 	}
 }
 
-func checkDelay(t testing.TB, d profiles.Delay) {
+func checkDelay(t testing.TB, d laws.Delay) {
 	t.Helper()
 	if d == nil {
 		t.Fatal("nil delay")
@@ -251,7 +252,7 @@ controller_to_actuator:
 	if p.Name != "42" || p.HasSeed {
 		t.Errorf("name %q, seed %v", p.Name, p.HasSeed)
 	}
-	if d := p.SensorToController.States[0].Delay; d != (profiles.Constant{Value: 0.002}) {
+	if d := p.SensorToController.States[0].Delay; d != (laws.Constant{Value: 0.002}) {
 		t.Errorf("shorthand delay = %v", d)
 	}
 	ca := p.ControllerToActuator
@@ -297,7 +298,7 @@ controller_to_actuator:
 		t.Fatal(err)
 	}
 	for _, c := range []*profiles.Channel{p.SensorToController, p.ControllerToActuator} {
-		if len(c.States) != 1 || c.States[0].Loss != 0 || c.States[0].Delay != (profiles.Constant{}) {
+		if len(c.States) != 1 || c.States[0].Loss != 0 || c.States[0].Delay != (laws.Constant{}) {
 			t.Errorf("missing direction = %+v, want no loss and no delay", c.States)
 		}
 	}

@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"math"
 	"path/filepath"
+	"rigwire/profiles/laws"
 	"rigwire/profiles/yamlpos"
 
 	"gonum.org/v1/gonum/mat"
@@ -84,7 +85,7 @@ func parseLoop(root yamlpos.Field, dir string) (*Loop, error) {
 			return nil, err
 		}
 		if c >= l.Period {
-			return nil, f.Errorf("want a duration below the period (%s), got %s", fmtSeconds(l.Period), f.Got())
+			return nil, f.Errorf("want a duration below the period (%s), got %s", laws.FormatSeconds(l.Period), f.Got())
 		}
 		l.ComputeDelay = c
 	}

@@ -1,6 +1,9 @@
 package profiles
 
-import "rigwire/profiles/yamlpos"
+import (
+	"rigwire/profiles/laws"
+	"rigwire/profiles/yamlpos"
+)
 
 // DefaultTripWindow is the trip's window when the loop file gives none,
 // seconds (common practice: long enough to average, short enough to act).
@@ -47,11 +50,11 @@ func parseTrip(f yamlpos.Field, t *Trip, period float64) error {
 	if g := keys["window"]; !g.IsZero() {
 		w, err := g.Duration()
 		if err != nil || !(w >= min) {
-			return g.Errorf("want a duration ≥ 2 periods (%s), got %s", fmtSeconds(min), g.Got())
+			return g.Errorf("want a duration ≥ 2 periods (%s), got %s", laws.FormatSeconds(min), g.Got())
 		}
 		t.Window = w
 	} else if t.Window < min {
-		return f.Errorf("the default window (%s) is shorter than 2 periods (%s); give window: ≥ %s", fmtSeconds(DefaultTripWindow), fmtSeconds(min), fmtSeconds(min))
+		return f.Errorf("the default window (%s) is shorter than 2 periods (%s); give window: ≥ %s", laws.FormatSeconds(DefaultTripWindow), laws.FormatSeconds(min), laws.FormatSeconds(min))
 	}
 	if g := keys["action"]; !g.IsNull() {
 		s, err := g.Text()

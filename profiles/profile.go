@@ -1,5 +1,7 @@
 package profiles
 
+import "rigwire/profiles/laws"
+
 // Profile is a validated network profile: the two directions of one rig's
 // link, each a [Channel].
 type Profile struct {
@@ -42,7 +44,7 @@ type State struct {
 	Loss float64
 	// Delay is the law of the delay of a datagram that is not dropped;
 	// never nil (no delay is Constant{0}).
-	Delay Delay
+	Delay laws.Delay
 	// Jump[j] is the probability that, leaving this state, the chain enters
 	// state j; Jump[self] = 0, the row sums to 1. Nil for a one-state
 	// channel.

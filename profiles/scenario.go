@@ -12,6 +12,7 @@ import (
 	"math"
 	"path/filepath"
 	"regexp"
+	"rigwire/profiles/laws"
 	"rigwire/profiles/yamlpos"
 	"strconv"
 	"strings"
@@ -847,15 +848,15 @@ func (p *Profile) heldDelays() int64 {
 	return n
 }
 
-func lawDelays(d Delay) int64 {
+func lawDelays(d laws.Delay) int64 {
 	switch d := d.(type) {
-	case *Empirical:
+	case *laws.Empirical:
 		return int64(d.Len())
 	case *Replay:
 		return int64(len(d.Lost)) + lawDelays(d.Delay)
-	case *Shifted:
+	case *laws.Shifted:
 		return lawDelays(d.Base)
-	case *Mixture:
+	case *laws.Mixture:
 		var n int64
 		for _, p := range d.Parts {
 			n += lawDelays(p)

@@ -5,6 +5,7 @@ import (
 	"math"
 	"os"
 	"path/filepath"
+	"rigwire/profiles/laws"
 	"rigwire/profiles/yamlpos"
 	"strings"
 	"testing"
@@ -128,8 +129,8 @@ func TestScenarioGood(t *testing.T) {
 			t.Errorf("frac %g: clear loss %g, want %g", frac, got, w)
 		}
 		med := 0.002 + (0.004-0.002)*frac
-		mix := p.ControllerToActuator.States[0].Delay.(*Mixture)
-		if got := mix.Parts[1].(Lognormal).Mu; got != math.Log(med) {
+		mix := p.ControllerToActuator.States[0].Delay.(*laws.Mixture)
+		if got := mix.Parts[1].(laws.Lognormal).Mu; got != math.Log(med) {
 			t.Errorf("frac %g: part 1 median %g, want %g", frac, math.Exp(got), med)
 		}
 		// set applies on every step of the phase: a new key and a state's
@@ -137,7 +138,7 @@ func TestScenarioGood(t *testing.T) {
 		if l := p.ControllerToActuator.States[0].Loss; l != 0.05 {
 			t.Errorf("frac %g: c→a loss %g, want 0.05 (set)", frac, l)
 		}
-		if u := p.SensorToController.States[1].Delay.(Uniform); u.Max != 0.006 || u.Min != 0.001 {
+		if u := p.SensorToController.States[1].Delay.(laws.Uniform); u.Max != 0.006 || u.Min != 0.001 {
 			t.Errorf("frac %g: fading delay %+v, want [1ms, 6ms]", frac, u)
 		}
 		if lossOf(p, 1) != 0.2 {
@@ -249,10 +250,10 @@ func TestScenarioPaths(t *testing.T) {
 		{"sensor_to_controller.states.0.loss: 0.3", func(p *Profile) bool { return lossOf(p, 0) == 0.3 }},
 		{"sensor_to_controller.states.clear.mean_dwell: 4s", func(p *Profile) bool { return p.SensorToController.States[0].MeanDwell == 4 }},
 		{"controller_to_actuator.delay.parts.0.value: 3ms", func(p *Profile) bool {
-			return p.ControllerToActuator.States[0].Delay.(*Mixture).Parts[0].(Constant).Value == 0.003
+			return p.ControllerToActuator.States[0].Delay.(*laws.Mixture).Parts[0].(laws.Constant).Value == 0.003
 		}},
 		{"controller_to_actuator.delay.parts.1: {weight: 1, kind: constant, value: 2ms}", func(p *Profile) bool {
-			_, ok := p.ControllerToActuator.States[0].Delay.(*Mixture).Parts[1].(Constant)
+			_, ok := p.ControllerToActuator.States[0].Delay.(*laws.Mixture).Parts[1].(laws.Constant)
 			return ok
 		}},
 		{"controller_to_actuator.loss: 0.5", func(p *Profile) bool { return p.ControllerToActuator.States[0].Loss == 0.5 }},

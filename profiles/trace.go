@@ -6,6 +6,7 @@ import (
 	"fmt"
 	"io"
 	"math"
+	"rigwire/profiles/laws"
 	"rigwire/profiles/yamlpos"
 	"slices"
 	"strconv"
@@ -171,8 +172,8 @@ func ReadTrace(r io.Reader, file string) (*Trace, error) {
 					continue
 				}
 				x, err := strconv.ParseFloat(v, 64)
-				if err != nil || !(x >= 0) || x > MaxDelay {
-					return nil, errAt("%s: want a delay in [0, %g] seconds or nothing, got %s", name, MaxDelay, yamlpos.ShownNumber(v))
+				if err != nil || !(x >= 0) || x > laws.MaxDelay {
+					return nil, errAt("%s: want a delay in [0, %g] seconds or nothing, got %s", name, laws.MaxDelay, yamlpos.ShownNumber(v))
 				}
 				switch name {
 				case "rtt_s":
@@ -226,8 +227,8 @@ func (t *Trace) meta(k, v string) error {
 	switch k {
 	case "interval_s":
 		x, err := strconv.ParseFloat(v, 64)
-		if err != nil || !(x > 0) || x > MaxDelay {
-			return fmt.Errorf("interval_s: want a time in (0, %g] seconds, got %s", MaxDelay, yamlpos.ShownNumber(v))
+		if err != nil || !(x > 0) || x > laws.MaxDelay {
+			return fmt.Errorf("interval_s: want a time in (0, %g] seconds, got %s", laws.MaxDelay, yamlpos.ShownNumber(v))
 		}
 		t.Interval = x
 	case "clocks_synced":

@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"math"
 	"math/rand/v2"
+	"rigwire/profiles/laws"
 	"rigwire/profiles/yamlpos"
 	"strconv"
 )
@@ -33,14 +34,14 @@ const (
 // empirical law. Only the relay replays it in order (emulate asks for
 // Fates and keeps its own cursor); Sample draws from the empirical law.
 type Replay struct {
-	Delay            // the empirical law of the delivered delays
-	File      string // as written in the profile
-	Column    string
-	AtEnd     string
-	Delays    []float64 // per probe, in order; 0 where lost
-	Lost      []bool
-	LossRate  float64
-	Delivered int
+	laws.Delay        // the empirical law of the delivered delays
+	File       string // as written in the profile
+	Column     string
+	AtEnd      string
+	Delays     []float64 // per probe, in order; 0 where lost
+	Lost       []bool
+	LossRate   float64
+	Delivered  int
 }
 
 func (r *Replay) Kind() string { return "trace" }
@@ -73,10 +74,10 @@ func NewReplay(file, column, atEnd string, delays []float64, lost []bool) (*Repl
 	r.Delivered = len(kept)
 	r.LossRate = 1 - float64(len(kept))/float64(len(lost))
 	if len(kept) == 0 {
-		r.Delay = Constant{} // every probe lost: the delay never matters
+		r.Delay = laws.Constant{} // every probe lost: the delay never matters
 		return r, nil
 	}
-	law, err := NewEmpirical(kept, 0)
+	law, err := laws.NewEmpirical(kept, 0)
 	if err != nil {
 		return nil, fmt.Errorf("trace replay: %w", err)
 	}

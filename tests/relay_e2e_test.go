@@ -18,8 +18,8 @@ import (
 	"testing"
 	"time"
 
-	"rigwire/estimate"
 	"rigwire/profiles"
+	"rigwire/profiles/laws"
 )
 
 // relayRig is the built impair binary running as its own process between
@@ -118,13 +118,13 @@ func binomialOK(t *testing.T, what string, k, n int, p float64) {
 }
 
 // ksOK tests a sample against a law's CDF with the one-sample
-// Kolmogorov–Smirnov test (p-value from Stephens 1970, estimate.KSPValue).
-func ksOK(t *testing.T, what string, xs []float64, d profiles.Delay) {
+// Kolmogorov–Smirnov test (p-value from Stephens 1970, laws.KSPValue).
+func ksOK(t *testing.T, what string, xs []float64, d laws.Delay) {
 	t.Helper()
 	const alpha = 0.001
 	sort.Float64s(xs)
-	stat := estimate.KSStatistic(xs, d.CDF)
-	p := estimate.KSPValue(stat, len(xs))
+	stat := laws.KSStatistic(xs, d.CDF)
+	p := laws.KSPValue(stat, len(xs))
 	t.Logf("%s: KS D = %.4f over %d, p = %.3g", what, stat, len(xs), p)
 	if p < alpha {
 		t.Errorf("%s: Kolmogorov–Smirnov rejects the profile's law (D = %.4f, n = %d, p = %.3g < %g)", what, stat, len(xs), p, alpha)
@@ -196,7 +196,7 @@ controller_to_actuator:
 		}
 	}
 	// Payloads byte for byte; one-way delays as the profile says.
-	check := func(name string, got []arrival, law profiles.Delay) []float64 {
+	check := func(name string, got []arrival, law laws.Delay) []float64 {
 		var delays []float64
 		seen := map[uint32]bool{}
 		for _, a := range got {
@@ -214,7 +214,7 @@ controller_to_actuator:
 		// The measured delay is the drawn one plus the loopback stack and
 		// the release lateness; the median shows both are small.
 		med := median(delays)
-		want := profiles.Quantile(law, 0.5)
+		want := laws.Quantile(law, 0.5)
 		t.Logf("%s: measured one-way median %.3f ms, profile median %.3f ms", name, med*1e3, want*1e3)
 		if med < want-0.2e-3 || med > want+1e-3 {
 			t.Errorf("%s: measured median delay %.3f ms, profile's %.3f ms (tolerance −0.2/+1 ms for the host's stack)", name, med*1e3, want*1e3)

@@ -9,6 +9,7 @@ import (
 
 	"rigwire/cmd/internal/exitcode"
 	"rigwire/profiles"
+	"rigwire/profiles/laws"
 	"rigwire/profiles/yamlpos"
 )
 
@@ -100,13 +101,13 @@ func writeChannel(w io.Writer, name string, c *profiles.Channel, interval float6
 		late := lateShare(d, interval)
 		fmt.Fprintf(tw, "  %s\t%s\t%s\t%s\t%s\t%s\t%s\t%s\t%s\t\n",
 			s.Name, fmtDur(s.MeanDwell), fmtPct(pi[i]), fmtPct(s.Loss),
-			fmtMS(d.Mean()), fmtMS(profiles.Quantile(d, 0.5)),
-			fmtMS(profiles.Quantile(d, 0.99)), fmtMS(profiles.Quantile(d, 0.999)),
+			fmtMS(d.Mean()), fmtMS(laws.Quantile(d, 0.5)),
+			fmtMS(laws.Quantile(d, 0.99)), fmtMS(laws.Quantile(d, 0.999)),
 			fmtPct(late))
 	}
 	tw.Flush()
 	for _, s := range c.States {
-		fmt.Fprintf(w, "  %s delay: %s\n", s.Name, profiles.Describe(s.Delay))
+		fmt.Fprintf(w, "  %s delay: %s\n", s.Name, laws.Describe(s.Delay))
 	}
 	fmt.Fprintf(w, "  long-run loss %s; mean loss burst %s datagrams; P(lost | previous lost) %s\n",
 		fmtPct(c.LongRunLoss()), fmtNum(c.MeanLossBurst(interval)), fmtNum(c.LagOneLoss(interval)))
@@ -123,10 +124,10 @@ func writeChannel(w io.Writer, name string, c *profiles.Channel, interval float6
 }
 
 // lateShare is P(delay ≥ interval), a datagram late for the next one:
-// the complement of profiles.ProbBelow, the same function the prediction
+// the complement of laws.ProbBelow, the same function the prediction
 // uses for a stale sample, so the two agree on every law.
-func lateShare(d profiles.Delay, interval float64) float64 {
-	return 1 - profiles.ProbBelow(d, interval)
+func lateShare(d laws.Delay, interval float64) float64 {
+	return 1 - laws.ProbBelow(d, interval)
 }
 
 // fmtMS writes seconds as milliseconds with three significant digits.

@@ -107,7 +107,7 @@ func TestCheckFlagAfterProfile(t *testing.T) {
 // TestCheckLateAgreesWithPrediction checks that the share of late
 // datagrams `impair check` reports for the sensor direction of every
 // shipped profile is the prediction's P(sample stale) for a loop with the
-// same period, state by state: both come from profiles.ProbBelow, and
+// same period, state by state: both come from laws.ProbBelow, and
 // must not drift apart.
 func TestCheckLateAgreesWithPrediction(t *testing.T) {
 	const agreeTol = 1e-15 // the same function: equal up to the subtraction

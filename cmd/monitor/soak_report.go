@@ -17,6 +17,7 @@ import (
 	"rigwire/estimate/engine"
 	"rigwire/estimate/report"
 	"rigwire/profiles"
+	"rigwire/profiles/laws"
 )
 
 // soakRun is what a soak hands its report and its summary beyond the
@@ -196,7 +197,7 @@ func channelText(ch *profiles.Channel) string {
 		return "no loss, no delay"
 	}
 	state := func(s profiles.State) string {
-		return fmt.Sprintf("loss %.4g, delay %s", s.Loss, profiles.Describe(s.Delay))
+		return fmt.Sprintf("loss %.4g, delay %s", s.Loss, laws.Describe(s.Delay))
 	}
 	if len(ch.States) == 1 {
 		return state(ch.States[0])

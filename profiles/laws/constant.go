@@ -1,4 +1,4 @@
-package profiles
+package laws
 
 import (
 	"fmt"
@@ -28,7 +28,7 @@ func (c Constant) Density(float64) float64   { return 0 }
 func (c Constant) Mean() float64             { return c.Value }
 func (c Constant) Variance() float64         { return 0 }
 func (c Constant) Support() (lo, hi float64) { return c.Value, c.Value }
-func (c Constant) String() string            { return "constant " + fmtSeconds(c.Value) }
+func (c Constant) String() string            { return "constant " + FormatSeconds(c.Value) }
 func (c Constant) Atoms() []Atom             { return []Atom{{At: c.Value, Mass: 1}} }
 
 // CDF is 1 from Value on, 0 below.

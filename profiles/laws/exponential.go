@@ -1,4 +1,4 @@
-package profiles
+package laws
 
 import (
 	"fmt"
@@ -49,4 +49,4 @@ func (e Exponential) Support() (lo, hi float64) { return 0, math.Inf(1) }
 // Quantile is −scale·ln(1 − p), by math.Log1p so that small p keep
 // their digits.
 func (e Exponential) Quantile(p float64) float64 { return -e.Scale * math.Log1p(-p) }
-func (e Exponential) String() string             { return "exponential mean " + fmtSeconds(e.Scale) }
+func (e Exponential) String() string             { return "exponential mean " + FormatSeconds(e.Scale) }

@@ -1,4 +1,4 @@
-package profiles
+package laws
 
 import (
 	"fmt"
@@ -110,5 +110,5 @@ func (g Gamma) Quantile(p float64) float64 {
 	return quantileNewton(g, p, best)
 }
 func (g Gamma) String() string {
-	return fmt.Sprintf("gamma shape %s scale %s", fmtNum(g.Shape), fmtSeconds(g.Scale))
+	return fmt.Sprintf("gamma shape %s scale %s", fmtNum(g.Shape), FormatSeconds(g.Scale))
 }

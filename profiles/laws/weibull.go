@@ -1,4 +1,4 @@
-package profiles
+package laws
 
 import (
 	"fmt"
@@ -69,5 +69,5 @@ func (w Weibull) Variance() float64 {
 }
 
 func (w Weibull) String() string {
-	return fmt.Sprintf("weibull shape %s scale %s", fmtNum(w.Shape), fmtSeconds(w.Scale))
+	return fmt.Sprintf("weibull shape %s scale %s", fmtNum(w.Shape), FormatSeconds(w.Scale))
 }

@@ -1,4 +1,4 @@
-package profiles
+package laws
 
 import (
 	"fmt"
@@ -32,9 +32,9 @@ type Normal struct {
 	robert    float64 // optimal rate of Robert's proposal, for α > 0
 }
 
-// maxNormalAlpha bounds the truncation point α = −mean/std: beyond it the
+// MaxNormalAlpha bounds the truncation point α = −mean/std: beyond it the
 // law is all but an exponential tail and 1 − Φ(α) approaches underflow.
-const maxNormalAlpha = 25
+const MaxNormalAlpha = 25
 
 // NewNormal returns the normal law with the given mean and std, truncated
 // to [0, ∞) (redrawn while negative), then shifted by shift ≥ 0. The mean
@@ -44,8 +44,8 @@ func NewNormal(mean, std, shift float64) (Delay, error) {
 		return nil, fmt.Errorf("normal delay: want std > 0 and a finite mean, got mean %g, std %g", mean, std)
 	}
 	alpha := -mean / std
-	if alpha > maxNormalAlpha {
-		return nil, fmt.Errorf("normal delay: want mean ≥ −%d·std (almost all of the law would be redrawn), got mean %g, std %g", maxNormalAlpha, mean, std)
+	if alpha > MaxNormalAlpha {
+		return nil, fmt.Errorf("normal delay: want mean ≥ −%d·std (almost all of the law would be redrawn), got mean %g, std %g", MaxNormalAlpha, mean, std)
 	}
 	n := &Normal{Mu: mean, Sigma: std, alpha: alpha, kept: stdNormalSurvival(alpha), below: stdNormalCDF(alpha)}
 	n.lambda = stdNormalDensity(alpha) / n.kept
@@ -133,5 +133,5 @@ func (n *Normal) Variance() float64 {
 }
 
 func (n *Normal) String() string {
-	return fmt.Sprintf("normal mean %s std %s (≥ 0)", fmtSeconds(n.Mu), fmtSeconds(n.Sigma))
+	return fmt.Sprintf("normal mean %s std %s (≥ 0)", FormatSeconds(n.Mu), FormatSeconds(n.Sigma))
 }

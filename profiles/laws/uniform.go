@@ -1,4 +1,4 @@
-package profiles
+package laws
 
 import (
 	"fmt"
@@ -59,5 +59,5 @@ func (u Uniform) Quantile(p float64) float64 { return u.Min + p*(u.Max-u.Min) }
 func (u Uniform) Variance() float64 { w := u.Max - u.Min; return w * w / 12 }
 
 func (u Uniform) String() string {
-	return fmt.Sprintf("uniform %s…%s", fmtSeconds(u.Min), fmtSeconds(u.Max))
+	return fmt.Sprintf("uniform %s…%s", FormatSeconds(u.Min), FormatSeconds(u.Max))
 }

@@ -1,13 +1,14 @@
-package profiles
+package laws
 
 import (
 	"math"
 	"strconv"
 )
 
-// fmtSeconds writes a time in seconds in the unit that suits it (µs, ms,
-// s) with up to four significant digits, for descriptions of laws.
-func fmtSeconds(s float64) string {
+// FormatSeconds writes a time in seconds in the unit that suits it (µs,
+// ms, s) with up to four significant digits, for descriptions of laws and
+// the messages about them.
+func FormatSeconds(s float64) string {
 	a := math.Abs(s)
 	switch {
 	case math.IsInf(s, 0) || math.IsNaN(s):

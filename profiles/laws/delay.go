@@ -1,4 +1,4 @@
-package profiles
+package laws
 
 import (
 	"math"
@@ -146,3 +146,8 @@ func quantileBisect(d Delay, p float64) float64 {
 	}
 	return hi
 }
+
+// MaxDelay bounds every time parameter of a delay law and every delay of
+// an empirical sample, in seconds (1 h): far outside what a network does,
+// and small enough that no draw or matrix exponential overflows.
+const MaxDelay = 3600.0

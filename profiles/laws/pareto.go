@@ -1,4 +1,4 @@
-package profiles
+package laws
 
 import (
 	"fmt"
@@ -70,5 +70,5 @@ func (p Pareto) Variance() float64 {
 }
 
 func (p Pareto) String() string {
-	return fmt.Sprintf("pareto shape %s scale %s", fmtNum(p.Shape), fmtSeconds(p.Scale))
+	return fmt.Sprintf("pareto shape %s scale %s", fmtNum(p.Shape), FormatSeconds(p.Scale))
 }

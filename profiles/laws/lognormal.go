@@ -1,4 +1,4 @@
-package profiles
+package laws
 
 import (
 	"fmt"
@@ -61,5 +61,5 @@ func (l Lognormal) Variance() float64 {
 }
 
 func (l Lognormal) String() string {
-	return fmt.Sprintf("lognormal median %s sigma %s", fmtSeconds(math.Exp(l.Mu)), fmtNum(l.Sigma))
+	return fmt.Sprintf("lognormal median %s sigma %s", FormatSeconds(math.Exp(l.Mu)), fmtNum(l.Sigma))
 }

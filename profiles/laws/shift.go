@@ -1,4 +1,4 @@
-package profiles
+package laws
 
 import (
 	"fmt"
@@ -48,7 +48,7 @@ func (s *Shifted) CDF(x float64) float64       { return s.Base.CDF(x - s.Shift) 
 func (s *Shifted) Density(x float64) float64   { return s.Base.Density(x - s.Shift) }
 func (s *Shifted) Mean() float64               { return s.Shift + s.Base.Mean() }
 func (s *Shifted) Variance() float64           { return s.Base.Variance() }
-func (s *Shifted) String() string              { return Describe(s.Base) + " + " + fmtSeconds(s.Shift) }
+func (s *Shifted) String() string              { return Describe(s.Base) + " + " + FormatSeconds(s.Shift) }
 
 // Atoms returns Base's atoms moved by Shift; the slice is shared, do not
 // modify it.

@@ -1,8 +1,9 @@
-package profiles_test
+package laws_test
 
 import (
 	"math"
 	"math/rand/v2"
+	"rigwire/profiles/laws"
 	"slices"
 	"testing"
 
@@ -10,9 +11,6 @@ import (
 	"gonum.org/v1/gonum/integrate/quad"
 	"gonum.org/v1/gonum/stat"
 	"gonum.org/v1/gonum/stat/distuv"
-
-	"rigwire/estimate"
-	"rigwire/profiles"
 )
 
 // reference is an outside definition of a law, from gonum's stat/distuv,
@@ -34,7 +32,7 @@ func shifted(shift float64, cdf, pdf func(float64) float64, mean, vari float64) 
 // 10 ms control loop meets.
 type lawCase struct {
 	name string
-	law  profiles.Delay
+	law  laws.Delay
 	ref  *reference // nil where distuv has no such law
 	// heavyTail marks a law whose variance is mostly carried beyond the
 	// last quantile integrated, where the quadrature check of moments is
@@ -47,8 +45,8 @@ type lawCase struct {
 
 // mustFor returns a helper that unwraps a constructor's result, failing
 // t on error.
-func mustFor(t testing.TB) func(profiles.Delay, error) profiles.Delay {
-	return func(d profiles.Delay, err error) profiles.Delay {
+func mustFor(t testing.TB) func(laws.Delay, error) laws.Delay {
+	return func(d laws.Delay, err error) laws.Delay {
 		t.Helper()
 		if err != nil {
 			t.Fatal(err)
@@ -129,35 +127,35 @@ func lawCases(t testing.TB) []lawCase {
 	}
 	u := distuv.Uniform{Min: 2 * ms, Max: 8 * ms}
 
-	mixHeavy := must(profiles.NewMixture([]float64{9, 1}, []profiles.Delay{
-		must(profiles.NewLognormal(2*ms, 0.3, 0)),
-		must(profiles.NewPareto(1.5, 4*ms)),
+	mixHeavy := must(laws.NewMixture([]float64{9, 1}, []laws.Delay{
+		must(laws.NewLognormal(2*ms, 0.3, 0)),
+		must(laws.NewPareto(1.5, 4*ms)),
 	}))
-	mixAtoms := must(profiles.NewMixture([]float64{0.7, 0.2, 0.1}, []profiles.Delay{
-		profiles.Constant{Value: 1 * ms},
-		must(profiles.NewUniform(1*ms, 3*ms)),
-		must(profiles.NewEmpirical([]float64{1 * ms, 5 * ms}, 0)),
+	mixAtoms := must(laws.NewMixture([]float64{0.7, 0.2, 0.1}, []laws.Delay{
+		laws.Constant{Value: 1 * ms},
+		must(laws.NewUniform(1*ms, 3*ms)),
+		must(laws.NewEmpirical([]float64{1 * ms, 5 * ms}, 0)),
 	}))
-	nested := must(profiles.Shift(must(profiles.NewMixture([]float64{1, 1}, []profiles.Delay{
+	nested := must(laws.Shift(must(laws.NewMixture([]float64{1, 1}, []laws.Delay{
 		mixHeavy,
-		must(profiles.NewGamma(3, 0.5*ms, 0)),
+		must(laws.NewGamma(3, 0.5*ms, 0)),
 	})), 0.25*ms))
 
 	return []lawCase{
-		{name: "constant", law: profiles.Constant{Value: 2 * ms}},
-		{name: "uniform", law: must(profiles.NewUniform(2*ms, 8*ms)), ref: shifted(0, u.CDF, u.Prob, u.Mean(), u.Variance())},
-		{name: "normal mostly kept", law: must(profiles.NewNormal(3*ms, 0.5*ms, 0.2*ms)), ref: truncRef(3*ms, 0.5*ms, 0.2*ms)},
-		{name: "normal near zero", law: must(profiles.NewNormal(0.5*ms, 1*ms, 0)), ref: truncRef(0.5*ms, 1*ms, 0)},
-		{name: "normal mostly cut (robert)", law: must(profiles.NewNormal(-2*ms, 1*ms, 0.1*ms)), ref: truncRef(-2*ms, 1*ms, 0.1*ms)},
-		{name: "exponential", law: must(profiles.NewExponential(2*ms, 0.5*ms)), ref: expRef(2*ms, 0.5*ms)},
-		{name: "gamma shape 2.5", law: must(profiles.NewGamma(2.5, 1*ms, 0.3*ms)), ref: gammaRef(2.5, 1*ms, 0.3*ms)},
-		{name: "gamma shape 0.6 (boost)", law: must(profiles.NewGamma(0.6, 2*ms, 0)), ref: gammaRef(0.6, 2*ms, 0), singular: true},
-		{name: "lognormal", law: must(profiles.NewLognormal(3*ms, 0.4, 1*ms)), ref: lnRef(3*ms, 0.4, 1*ms)},
-		{name: "weibull shape 1.5", law: must(profiles.NewWeibull(1.5, 2*ms, 0.5*ms)), ref: weibullRef(1.5, 2*ms, 0.5*ms)},
-		{name: "weibull shape 0.8", law: must(profiles.NewWeibull(0.8, 1*ms, 0)), ref: weibullRef(0.8, 1*ms, 0), singular: true},
-		{name: "pareto shape 2.5", law: must(profiles.NewPareto(2.5, 1*ms)), ref: paretoRef(2.5, 1*ms), heavyTail: true},
-		{name: "pareto shape 1.2", law: must(profiles.NewPareto(1.2, 0.5*ms)), ref: paretoRef(1.2, 0.5*ms)},
-		{name: "empirical", law: must(profiles.NewEmpirical([]float64{3.5 * ms, 1 * ms, 2 * ms, 1 * ms, 3.5 * ms, 9 * ms, 3.5 * ms}, 0.5*ms))},
+		{name: "constant", law: laws.Constant{Value: 2 * ms}},
+		{name: "uniform", law: must(laws.NewUniform(2*ms, 8*ms)), ref: shifted(0, u.CDF, u.Prob, u.Mean(), u.Variance())},
+		{name: "normal mostly kept", law: must(laws.NewNormal(3*ms, 0.5*ms, 0.2*ms)), ref: truncRef(3*ms, 0.5*ms, 0.2*ms)},
+		{name: "normal near zero", law: must(laws.NewNormal(0.5*ms, 1*ms, 0)), ref: truncRef(0.5*ms, 1*ms, 0)},
+		{name: "normal mostly cut (robert)", law: must(laws.NewNormal(-2*ms, 1*ms, 0.1*ms)), ref: truncRef(-2*ms, 1*ms, 0.1*ms)},
+		{name: "exponential", law: must(laws.NewExponential(2*ms, 0.5*ms)), ref: expRef(2*ms, 0.5*ms)},
+		{name: "gamma shape 2.5", law: must(laws.NewGamma(2.5, 1*ms, 0.3*ms)), ref: gammaRef(2.5, 1*ms, 0.3*ms)},
+		{name: "gamma shape 0.6 (boost)", law: must(laws.NewGamma(0.6, 2*ms, 0)), ref: gammaRef(0.6, 2*ms, 0), singular: true},
+		{name: "lognormal", law: must(laws.NewLognormal(3*ms, 0.4, 1*ms)), ref: lnRef(3*ms, 0.4, 1*ms)},
+		{name: "weibull shape 1.5", law: must(laws.NewWeibull(1.5, 2*ms, 0.5*ms)), ref: weibullRef(1.5, 2*ms, 0.5*ms)},
+		{name: "weibull shape 0.8", law: must(laws.NewWeibull(0.8, 1*ms, 0)), ref: weibullRef(0.8, 1*ms, 0), singular: true},
+		{name: "pareto shape 2.5", law: must(laws.NewPareto(2.5, 1*ms)), ref: paretoRef(2.5, 1*ms), heavyTail: true},
+		{name: "pareto shape 1.2", law: must(laws.NewPareto(1.2, 0.5*ms)), ref: paretoRef(1.2, 0.5*ms)},
+		{name: "empirical", law: must(laws.NewEmpirical([]float64{3.5 * ms, 1 * ms, 2 * ms, 1 * ms, 3.5 * ms, 9 * ms, 3.5 * ms}, 0.5*ms))},
 		{name: "mixture heavy tail", law: mixHeavy},
 		{name: "mixture with atoms", law: mixAtoms},
 		{name: "nested mixture shifted", law: nested},
@@ -167,7 +165,7 @@ func lawCases(t testing.TB) []lawCase {
 // TestSamplersKS checks each sampler against its own CDF by the
 // one-sample Kolmogorov–Smirnov test (Massey 1951), n = 20000 seeded
 // draws, rejecting at α = 0.001 with the asymptotic Kolmogorov law and
-// Stephens' (1970) modified statistic (estimate.KSPValue). For laws with
+// Stephens' (1970) modified statistic (laws.KSPValue). For laws with
 // atoms the statistic is the exact supremum and the test conservative.
 // Purely atomic laws are checked by Pearson's chi-square test on the atom
 // counts instead (p-value from distuv.ChiSquared), at the same level.
@@ -196,15 +194,15 @@ func TestSamplersKS(t *testing.T) {
 				chiSquareAtoms(t, x, atoms, alpha)
 				return
 			}
-			d := estimate.KSStatistic(x, tc.law.CDF)
-			if p := estimate.KSPValue(d, n); p < alpha {
+			d := laws.KSStatistic(x, tc.law.CDF)
+			if p := laws.KSPValue(d, n); p < alpha {
 				t.Errorf("KS D = %.5f, p = %.3g < %v", d, p, alpha)
 			}
 		})
 	}
 }
 
-func chiSquareAtoms(t *testing.T, sorted []float64, atoms []profiles.Atom, alpha float64) {
+func chiSquareAtoms(t *testing.T, sorted []float64, atoms []laws.Atom, alpha float64) {
 	t.Helper()
 	n := float64(len(sorted))
 	obs := make([]float64, len(atoms))
@@ -243,7 +241,7 @@ func TestLawsAgainstDistuv(t *testing.T) {
 		}
 		t.Run(tc.name, func(t *testing.T) {
 			for _, p := range []float64{1e-6, 0.001, 0.05, 0.3, 0.5, 0.7, 0.95, 0.999, 1 - 1e-6} {
-				x := profiles.Quantile(tc.law, p)
+				x := laws.Quantile(tc.law, p)
 				for _, y := range []float64{x, x * 0.97, x * 1.05} {
 					if got, want := tc.law.CDF(y), tc.ref.cdf(y); math.Abs(got-want) > cdfTol {
 						t.Errorf("CDF(%g) = %.15g, want %.15g (distuv)", y, got, want)
@@ -275,11 +273,11 @@ func close(got, want, rel float64) bool {
 
 // breakpoints returns points that split the law's support into pieces
 // where the density is smooth: its lower end, quantiles, its atoms.
-func breakpoints(d profiles.Delay) []float64 {
+func breakpoints(d laws.Delay) []float64 {
 	lo, _ := d.Support()
 	pts := []float64{lo}
 	for _, p := range []float64{1e-9, 1e-6, 1e-4, 0.001, 0.01, 0.03, 0.1, 0.2, 0.3, 0.4, 0.5, 0.6, 0.7, 0.8, 0.9, 0.97, 0.99, 0.999, 1 - 1e-4, 1 - 1e-6, 1 - 1e-8, 1 - 1e-10} {
-		pts = append(pts, profiles.Quantile(d, p))
+		pts = append(pts, laws.Quantile(d, p))
 	}
 	for _, a := range d.Atoms() {
 		pts = append(pts, a.At)
@@ -291,18 +289,18 @@ func breakpoints(d profiles.Delay) []float64 {
 
 // componentEnds lists the finite ends of the supports of the laws that d
 // is made of (mixture parts, shifted bases), where its density may jump.
-func componentEnds(d profiles.Delay, offset float64) []float64 {
+func componentEnds(d laws.Delay, offset float64) []float64 {
 	lo, hi := d.Support()
 	out := []float64{lo + offset}
 	if !math.IsInf(hi, 1) {
 		out = append(out, hi+offset)
 	}
 	switch v := d.(type) {
-	case *profiles.Mixture:
+	case *laws.Mixture:
 		for _, p := range v.Parts {
 			out = append(out, componentEnds(p, offset)...)
 		}
-	case *profiles.Shifted:
+	case *laws.Shifted:
 		out = append(out, componentEnds(v.Base, offset+v.Shift)...)
 	}
 	return out
@@ -375,7 +373,7 @@ func TestQuantileInvertsCDF(t *testing.T) {
 	for _, tc := range lawCases(t) {
 		t.Run(tc.name, func(t *testing.T) {
 			for _, p := range []float64{0.001, 0.01, 0.1, 0.25, 0.5, 0.75, 0.9, 0.99, 0.999} {
-				x := profiles.Quantile(tc.law, p)
+				x := laws.Quantile(tc.law, p)
 				if tc.law.CDF(x) < p-slack {
 					t.Errorf("p=%v: CDF(%g) = %v < p", p, x, tc.law.CDF(x))
 				}
@@ -407,8 +405,8 @@ func TestLawStructure(t *testing.T) {
 	const tol = 1e-15
 	must := mustFor(t)
 	ms := 1e-3
-	emp := must(profiles.NewEmpirical([]float64{2 * ms, 1 * ms, 2 * ms, 2 * ms}, 0))
-	want := []profiles.Atom{{At: 1 * ms, Mass: 0.25}, {At: 2 * ms, Mass: 0.75}}
+	emp := must(laws.NewEmpirical([]float64{2 * ms, 1 * ms, 2 * ms, 2 * ms}, 0))
+	want := []laws.Atom{{At: 1 * ms, Mass: 0.25}, {At: 2 * ms, Mass: 0.75}}
 	if got := emp.Atoms(); !atomsEqual(got, want, tol) {
 		t.Errorf("empirical atoms = %v, want %v", got, want)
 	}
@@ -416,28 +414,28 @@ func TestLawStructure(t *testing.T) {
 	if !close(emp.Mean(), 1.75*ms, 1e-12) || !close(emp.Variance(), 0.1875*ms*ms, 1e-12) {
 		t.Errorf("empirical mean, variance = %v, %v; want 1.75ms, 0.1875ms²", emp.Mean(), emp.Variance())
 	}
-	mix := must(profiles.NewMixture([]float64{3, 1}, []profiles.Delay{
-		profiles.Constant{Value: 1 * ms},
+	mix := must(laws.NewMixture([]float64{3, 1}, []laws.Delay{
+		laws.Constant{Value: 1 * ms},
 		emp,
 	}))
-	want = []profiles.Atom{{At: 1 * ms, Mass: 0.75 + 0.25*0.25}, {At: 2 * ms, Mass: 0.25 * 0.75}}
+	want = []laws.Atom{{At: 1 * ms, Mass: 0.75 + 0.25*0.25}, {At: 2 * ms, Mass: 0.25 * 0.75}}
 	if got := mix.Atoms(); !atomsEqual(got, want, tol) {
 		t.Errorf("mixture atoms = %v, want %v", got, want)
 	}
-	sh := must(profiles.Shift(mix, 0.5*ms))
-	want = []profiles.Atom{{At: 1.5 * ms, Mass: 0.8125}, {At: 2.5 * ms, Mass: 0.1875}}
+	sh := must(laws.Shift(mix, 0.5*ms))
+	want = []laws.Atom{{At: 1.5 * ms, Mass: 0.8125}, {At: 2.5 * ms, Mass: 0.1875}}
 	if got := sh.Atoms(); !atomsEqual(got, want, tol) {
 		t.Errorf("shifted atoms = %v, want %v", got, want)
 	}
-	if u := must(profiles.NewUniform(3*ms, 3*ms)); u.Kind() != "constant" {
+	if u := must(laws.NewUniform(3*ms, 3*ms)); u.Kind() != "constant" {
 		t.Errorf("uniform min = max: kind %q, want constant", u.Kind())
 	}
-	if c := must(profiles.Shift(profiles.Constant{Value: 1 * ms}, 2*ms)); c != (profiles.Constant{Value: 3 * ms}) {
+	if c := must(laws.Shift(laws.Constant{Value: 1 * ms}, 2*ms)); c != (laws.Constant{Value: 3 * ms}) {
 		t.Errorf("shifted constant = %v", c)
 	}
 }
 
-func atomsEqual(a, b []profiles.Atom, tol float64) bool {
+func atomsEqual(a, b []laws.Atom, tol float64) bool {
 	if len(a) != len(b) {
 		return false
 	}
@@ -457,21 +455,21 @@ func TestConstructorsReject(t *testing.T) {
 		name string
 		err  error
 	}{
-		{"constant negative", second(profiles.NewConstant(-1))},
-		{"uniform min > max", second(profiles.NewUniform(2, 1))},
-		{"uniform negative", second(profiles.NewUniform(-1, 1))},
-		{"normal std 0", second(profiles.NewNormal(1, 0, 0))},
-		{"normal mean nan", second(profiles.NewNormal(nan, 1, 0))},
-		{"normal cut too far", second(profiles.NewNormal(-30, 1, 0))},
-		{"exponential mean 0", second(profiles.NewExponential(0, 0))},
-		{"gamma shape 0", second(profiles.NewGamma(0, 1, 0))},
-		{"lognormal sigma negative", second(profiles.NewLognormal(1, -1, 0))},
-		{"weibull scale 0", second(profiles.NewWeibull(1, 0, 0))},
-		{"pareto scale 0", second(profiles.NewPareto(1, 0))},
-		{"empirical empty", second(profiles.NewEmpirical(nil, 0))},
-		{"empirical negative", second(profiles.NewEmpirical([]float64{-1}, 0))},
-		{"mixture zero weights", second(profiles.NewMixture([]float64{0}, []profiles.Delay{profiles.Constant{}}))},
-		{"shift negative", second(profiles.Shift(profiles.Constant{}, -1))},
+		{"constant negative", second(laws.NewConstant(-1))},
+		{"uniform min > max", second(laws.NewUniform(2, 1))},
+		{"uniform negative", second(laws.NewUniform(-1, 1))},
+		{"normal std 0", second(laws.NewNormal(1, 0, 0))},
+		{"normal mean nan", second(laws.NewNormal(nan, 1, 0))},
+		{"normal cut too far", second(laws.NewNormal(-30, 1, 0))},
+		{"exponential mean 0", second(laws.NewExponential(0, 0))},
+		{"gamma shape 0", second(laws.NewGamma(0, 1, 0))},
+		{"lognormal sigma negative", second(laws.NewLognormal(1, -1, 0))},
+		{"weibull scale 0", second(laws.NewWeibull(1, 0, 0))},
+		{"pareto scale 0", second(laws.NewPareto(1, 0))},
+		{"empirical empty", second(laws.NewEmpirical(nil, 0))},
+		{"empirical negative", second(laws.NewEmpirical([]float64{-1}, 0))},
+		{"mixture zero weights", second(laws.NewMixture([]float64{0}, []laws.Delay{laws.Constant{}}))},
+		{"shift negative", second(laws.Shift(laws.Constant{}, -1))},
 	}
 	for _, tt := range tests {
 		t.Run(tt.name, func(t *testing.T) {
@@ -482,4 +480,4 @@ func TestConstructorsReject(t *testing.T) {
 	}
 }
 
-func second(_ profiles.Delay, err error) error { return err }
+func second(_ laws.Delay, err error) error { return err }
