@@ -9,10 +9,11 @@ import (
 
 	"rigwire/profiles"
 	"rigwire/profiles/laws"
+	"rigwire/profiles/markov"
 )
 
 // newTestDirection is a direction on a fake socket, outside any relay.
-func newTestDirection(t testing.TB, ch *profiles.Channel, inFlight int) (*direction, *fakeConn) {
+func newTestDirection(t testing.TB, ch *markov.Channel, inFlight int) (*direction, *fakeConn) {
 	out := newFakeConn("127.0.0.1:4001")
 	d := newDirection(dirConfig{
 		name: profiles.SensorToController, ch: ch, seed: 1, stream: 1, out: out,
@@ -31,11 +32,11 @@ func TestHotPathDoesNotAllocate(t *testing.T) {
 		"mixture": mustDelay(t)(laws.NewMixture([]float64{0.9, 0.1}, []laws.Delay{
 			laws.Constant{Value: 0.001}, mustDelay(t)(laws.NewPareto(1.5, 0.004))})),
 	}
-	two := &profiles.Channel{States: []profiles.State{
+	two := &markov.Channel{States: []markov.State{
 		{Name: "clear", MeanDwell: 0.05, Loss: 0.01, Delay: laws.Constant{Value: 0.001}, Jump: []float64{0, 1}},
 		{Name: "fading", MeanDwell: 0.01, Loss: 0.4, Delay: lawsByName["lognormal"], Jump: []float64{1, 0}},
 	}}
-	chans := map[string]*profiles.Channel{"markov": two}
+	chans := map[string]*markov.Channel{"markov": two}
 	for k, law := range lawsByName {
 		chans[k] = oneState(0.05, law)
 	}

@@ -3,8 +3,7 @@ package emulate
 import (
 	"math"
 	"math/rand/v2"
-
-	"rigwire/profiles"
+	"rigwire/profiles/markov"
 )
 
 // chain steps one direction's Markov-modulated channel in continuous time:
@@ -16,14 +15,14 @@ import (
 // per-datagram draws, so that with a given seed the state at any instant is
 // the same whatever traffic crosses the relay.
 type chain struct {
-	ch   *profiles.Channel
+	ch   *markov.Channel
 	rng  *rand.Rand
 	cur  int
 	next int64 // when the chain leaves cur; math.MaxInt64 if never
 }
 
 // newChain starts ch at time t in a state drawn from its stationary law.
-func newChain(ch *profiles.Channel, rng *rand.Rand, t int64) *chain {
+func newChain(ch *markov.Channel, rng *rand.Rand, t int64) *chain {
 	c := &chain{ch: ch, rng: rng}
 	c.cur = 0
 	if len(ch.States) > 1 {

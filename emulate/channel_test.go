@@ -8,15 +8,15 @@ import (
 
 	"gonum.org/v1/gonum/mat"
 
-	"rigwire/profiles"
 	"rigwire/profiles/laws"
+	"rigwire/profiles/markov"
 )
 
 // generator builds Q from the channel's mean dwells and jump weights, here
 // in the test, apart from the package's own code: q_ij = Jump_ij / dwell_i,
 // q_ii = −1/dwell_i (continuous-time Markov chain with exponential
 // sojourns; Norris, Markov Chains, 1997, §2.6 — from memory).
-func generator(ch *profiles.Channel) *mat.Dense {
+func generator(ch *markov.Channel) *mat.Dense {
 	n := len(ch.States)
 	q := mat.NewDense(n, n, nil)
 	for i, st := range ch.States {
@@ -51,12 +51,12 @@ func stationaryByPower(p *mat.Dense) []float64 {
 	return mat.Row(nil, 0, &m)
 }
 
-var testChannels = map[string]*profiles.Channel{
-	"gilbert-elliott": {States: []profiles.State{
+var testChannels = map[string]*markov.Channel{
+	"gilbert-elliott": {States: []markov.State{
 		{Name: "good", MeanDwell: 0.4, Loss: 0.01, Delay: laws.Constant{}, Jump: []float64{0, 1}},
 		{Name: "bad", MeanDwell: 0.06, Loss: 0.6, Delay: laws.Constant{}, Jump: []float64{1, 0}},
 	}},
-	"three-state": {States: []profiles.State{
+	"three-state": {States: []markov.State{
 		{Name: "clear", MeanDwell: 0.5, Loss: 0.0, Delay: laws.Constant{}, Jump: []float64{0, 0.8, 0.2}},
 		{Name: "shadow", MeanDwell: 0.1, Loss: 0.2, Delay: laws.Constant{}, Jump: []float64{0.7, 0, 0.3}},
 		{Name: "outage", MeanDwell: 0.03, Loss: 1.0, Delay: laws.Constant{}, Jump: []float64{0.5, 0.5, 0}},

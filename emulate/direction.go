@@ -10,8 +10,8 @@ import (
 
 	"github.com/prometheus/client_golang/prometheus"
 
-	"rigwire/profiles"
 	"rigwire/profiles/laws"
+	"rigwire/profiles/markov"
 )
 
 // direction impairs the datagrams of one direction of the link: it draws
@@ -50,7 +50,7 @@ type direction struct {
 
 type dirConfig struct {
 	name        string
-	ch          *profiles.Channel
+	ch          *markov.Channel
 	seed        uint64
 	stream      uint64 // two streams are used: stream (datagrams) and stream+1 (chain path)
 	out         batchConn
@@ -89,7 +89,7 @@ func (d *direction) now() int64 { return int64(time.Since(d.epoch)) }
 
 // setChannelLocked puts the direction on channel ch from time t, in a state
 // drawn from its stationary law, and relabels the state gauges.
-func (d *direction) setChannelLocked(ch *profiles.Channel, chainRng *rand.Rand, t int64) {
+func (d *direction) setChannelLocked(ch *markov.Channel, chainRng *rand.Rand, t int64) {
 	if d.chain != nil {
 		for _, st := range d.chain.ch.States {
 			d.gaugeVec.DeleteLabelValues(d.name, st.Name)
@@ -354,13 +354,13 @@ func (d *direction) trip(stop bool) {
 }
 
 // cleanChannel forwards everything at once.
-var cleanChannel = &profiles.Channel{States: []profiles.State{
+var cleanChannel = &markov.Channel{States: []markov.State{
 	{Name: tripStateName, MeanDwell: math.Inf(1), Delay: laws.Constant{}},
 }}
 
 // changeChannel puts the direction on ch from now on, unless the trip has
 // fired; it reports whether it did.
-func (d *direction) changeChannel(ch *profiles.Channel) bool {
+func (d *direction) changeChannel(ch *markov.Channel) bool {
 	d.mu.Lock()
 	defer d.mu.Unlock()
 	if d.tripped {

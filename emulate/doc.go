@@ -1,6 +1,6 @@
 // Package emulate relays a rig's UDP datagrams and impairs them: each
 // direction draws every datagram's fate (drop, or release after a delay)
-// from a [profiles.Channel], holds delayed datagrams in a bounded pool and a
+// from a [markov.Channel], holds delayed datagrams in a bounded pool and a
 // release schedule, and sends them on within microseconds of their due time.
 //
 // Files are cut by concern: conn*.go batch the sockets, channel.go steps

@@ -18,6 +18,7 @@ import (
 	"github.com/prometheus/client_golang/prometheus"
 
 	"rigwire/profiles"
+	"rigwire/profiles/markov"
 )
 
 // Config is what a Relay needs. Listen and Controller are required.
@@ -186,7 +187,7 @@ func New(cfg Config) (*Relay, error) {
 	return r, nil
 }
 
-func (r *Relay) newDirection(name string, ch *profiles.Channel, stream uint64, out batchConn) (*direction, error) {
+func (r *Relay) newDirection(name string, ch *markov.Channel, stream uint64, out batchConn) (*direction, error) {
 	var w waiter = newTimerWaiter()
 	precise := !r.cfg.portableTimers
 	if precise {

@@ -14,13 +14,14 @@ import (
 
 	"rigwire/profiles"
 	"rigwire/profiles/laws"
+	"rigwire/profiles/markov"
 )
 
-func oneState(loss float64, d laws.Delay) *profiles.Channel {
+func oneState(loss float64, d laws.Delay) *markov.Channel {
 	if d == nil {
 		d = laws.Constant{}
 	}
-	return &profiles.Channel{States: []profiles.State{{Name: "only", MeanDwell: math.Inf(1), Loss: loss, Delay: d}}}
+	return &markov.Channel{States: []markov.State{{Name: "only", MeanDwell: math.Inf(1), Loss: loss, Delay: d}}}
 }
 
 func listenLoopback(t testing.TB) *net.UDPConn {

@@ -1,21 +1,24 @@
 package emulate
 
-import "rigwire/profiles"
+import (
+	"rigwire/profiles/markov"
+	"rigwire/profiles/trace"
+)
 
 // replayCursor walks a recorded trace's fates in order, one per datagram:
 // the relay's side of a direction that replays a trace
-// (profiles.Replay). It is guarded by its direction's mutex. A profile
+// (trace.Replay). It is guarded by its direction's mutex. A profile
 // reload (SIGHUP) sets a new channel and so starts the trace again from
 // its first probe.
 type replayCursor struct {
-	r *profiles.Replay
+	r *trace.Replay
 	i int // next fate
 }
 
 // newReplayCursor returns a cursor at the start of ch's trace, or nil when
 // ch does not replay one.
-func newReplayCursor(ch *profiles.Channel) *replayCursor {
-	rp := profiles.ReplayOf(ch)
+func newReplayCursor(ch *markov.Channel) *replayCursor {
+	rp := ch.Replay
 	if rp == nil {
 		return nil
 	}
@@ -27,9 +30,9 @@ func newReplayCursor(ch *profiles.Channel) *replayCursor {
 func (c *replayCursor) next() (lost bool, delay float64) {
 	if c.i >= len(c.r.Lost) {
 		switch c.r.AtEnd {
-		case profiles.AtEndLoop:
+		case trace.AtEndLoop:
 			c.i = 0
-		case profiles.AtEndStop:
+		case trace.AtEndStop:
 			return true, 0
 		default:
 			return false, 0
@@ -44,7 +47,7 @@ func (c *replayCursor) next() (lost bool, delay float64) {
 // direction replays a trace, else a loss draw and, if kept, a delay draw
 // from state st (in that order, so a seed gives the same decisions as
 // before traces existed).
-func (d *direction) fateLocked(st *profiles.State) (lost bool, delay float64) {
+func (d *direction) fateLocked(st *markov.State) (lost bool, delay float64) {
 	if d.replay != nil {
 		return d.replay.next()
 	}

@@ -5,17 +5,18 @@ import (
 	"testing"
 	"time"
 
-	"rigwire/profiles"
+	"rigwire/profiles/markov"
+	"rigwire/profiles/trace"
 )
 
-func replayChannel(t *testing.T, atEnd string) *profiles.Channel {
+func replayChannel(t *testing.T, atEnd string) *markov.Channel {
 	t.Helper()
-	rp, err := profiles.NewReplay("t.csv", "one_way_s", atEnd,
+	rp, err := trace.NewReplay("t.csv", "one_way_s", atEnd,
 		[]float64{0.003, 0, 0.001, 0.002}, []bool{false, true, false, false})
 	if err != nil {
 		t.Fatal(err)
 	}
-	return &profiles.Channel{States: []profiles.State{{Name: "trace", MeanDwell: math.Inf(1), Loss: rp.LossRate, Delay: rp}}}
+	return &markov.Channel{States: []markov.State{{Name: "trace", MeanDwell: math.Inf(1), Loss: rp.LossRate, Delay: rp}}, Replay: rp}
 }
 
 // TestReplayInOrder: a replaying direction gives the recorded fates in
@@ -30,8 +31,8 @@ func TestReplayInOrder(t *testing.T) {
 		atEnd string
 		after fate // the fate of the datagrams past the end
 	}{
-		{profiles.AtEndStop, fate{true, 0}},
-		{profiles.AtEndClean, fate{false, 0}},
+		{trace.AtEndStop, fate{true, 0}},
+		{trace.AtEndClean, fate{false, 0}},
 	}
 	for _, c := range cases {
 		t.Run(c.atEnd, func(t *testing.T) {
@@ -49,8 +50,8 @@ func TestReplayInOrder(t *testing.T) {
 			}
 		})
 	}
-	t.Run(profiles.AtEndLoop, func(t *testing.T) {
-		d, _ := newTestDirection(t, replayChannel(t, profiles.AtEndLoop), 64)
+	t.Run(trace.AtEndLoop, func(t *testing.T) {
+		d, _ := newTestDirection(t, replayChannel(t, trace.AtEndLoop), 64)
 		st := &d.chain.ch.States[0]
 		for i := range 10 {
 			lost, delay := d.fateLocked(st)
@@ -64,7 +65,7 @@ func TestReplayInOrder(t *testing.T) {
 // TestReplayDoesNotAllocate: the replay path keeps the hot path free of
 // allocations (DEVELOPERS.md, "The relay's hot path").
 func TestReplayDoesNotAllocate(t *testing.T) {
-	d, _ := newTestDirection(t, replayChannel(t, profiles.AtEndLoop), 256)
+	d, _ := newTestDirection(t, replayChannel(t, trace.AtEndLoop), 256)
 	batch := make([]message, 8)
 	for i := range batch {
 		batch[i] = message{buf: make([]byte, 1500), n: 64, addr: sensorAddr}

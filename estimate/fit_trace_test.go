@@ -6,11 +6,13 @@ import (
 
 	"rigwire/profiles"
 	"rigwire/profiles/laws"
+	"rigwire/profiles/markov"
+	"rigwire/profiles/trace"
 )
 
 // TestPredictTraceDirection: for the prediction a direction that replays
 // a trace is its empirical law with i.i.d. loss at the trace's loss rate
-// (profiles.Replay); the prediction must equal the one for that profile
+// (trace.Replay); the prediction must equal the one for that profile
 // written out by hand.
 func TestPredictTraceDirection(t *testing.T) {
 	const relTol = 1e-12 // the same computation on the same numbers
@@ -20,7 +22,7 @@ func TestPredictTraceDirection(t *testing.T) {
 	}
 	delays := []float64{0.003, 0, 0.0041, 0.0052, 0.003, 0, 0.0124, 0.0061}
 	lost := []bool{false, true, false, false, false, true, false, false}
-	rp, err := profiles.NewReplay("field.csv", "one_way_s", profiles.AtEndLoop, delays, lost)
+	rp, err := trace.NewReplay("field.csv", "one_way_s", trace.AtEndLoop, delays, lost)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -34,9 +36,9 @@ func TestPredictTraceDirection(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	predict := func(st profiles.State) float64 {
+	predict := func(st markov.State) float64 {
 		p := *loop.Profile
-		p.SensorToController = &profiles.Channel{States: []profiles.State{st}}
+		p.SensorToController = &markov.Channel{States: []markov.State{st}}
 		l := *loop
 		l.Profile = &p
 		pr, err := Predict(&l, PredictOptions{SkipMargin: true})
@@ -48,8 +50,8 @@ func TestPredictTraceDirection(t *testing.T) {
 		}
 		return pr.Error.SecondMoment
 	}
-	got := predict(profiles.State{Name: "trace", MeanDwell: math.Inf(1), Loss: rp.LossRate, Delay: rp})
-	want := predict(profiles.State{Name: "iid", MeanDwell: math.Inf(1), Loss: 2.0 / 8, Delay: emp})
+	got := predict(markov.State{Name: "trace", MeanDwell: math.Inf(1), Loss: rp.LossRate, Delay: rp})
+	want := predict(markov.State{Name: "iid", MeanDwell: math.Inf(1), Loss: 2.0 / 8, Delay: emp})
 	if math.Abs(got-want) > relTol*want {
 		t.Errorf("E[eᵀe] with the trace direction %.15g, with its empirical law and loss %.15g", got, want)
 	}

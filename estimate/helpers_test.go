@@ -7,27 +7,28 @@ import (
 
 	"rigwire/profiles"
 	"rigwire/profiles/laws"
+	"rigwire/profiles/markov"
 )
 
 // Test helpers that build loops in code, without the loop-file loader.
 
-func iidChannel(loss float64, d laws.Delay) *profiles.Channel {
+func iidChannel(loss float64, d laws.Delay) *markov.Channel {
 	if d == nil {
 		d = laws.Constant{}
 	}
-	return &profiles.Channel{States: []profiles.State{{MeanDwell: math.Inf(1), Loss: loss, Delay: d}}}
+	return &markov.Channel{States: []markov.State{{MeanDwell: math.Inf(1), Loss: loss, Delay: d}}}
 }
 
 // twoState is a Gilbert–Elliott channel (Gilbert 1960, Elliott 1963):
 // a good and a bad state with their mean dwell times.
-func twoState(dwellGood, lossGood float64, dGood laws.Delay, dwellBad, lossBad float64, dBad laws.Delay) *profiles.Channel {
-	return &profiles.Channel{States: []profiles.State{
+func twoState(dwellGood, lossGood float64, dGood laws.Delay, dwellBad, lossBad float64, dBad laws.Delay) *markov.Channel {
+	return &markov.Channel{States: []markov.State{
 		{Name: "good", MeanDwell: dwellGood, Loss: lossGood, Delay: dGood, Jump: []float64{0, 1}},
 		{Name: "bad", MeanDwell: dwellBad, Loss: lossBad, Delay: dBad, Jump: []float64{1, 0}},
 	}}
 }
 
-func profile(sc, ca *profiles.Channel) *profiles.Profile {
+func profile(sc, ca *markov.Channel) *profiles.Profile {
 	if sc == nil {
 		sc = iidChannel(0, nil)
 	}

@@ -5,8 +5,8 @@ import (
 	"math"
 	"sort"
 
-	"rigwire/profiles"
 	"rigwire/profiles/laws"
+	"rigwire/profiles/trace"
 )
 
 // lawParts is a delay law split for integration (delaylaw.go): its point
@@ -92,7 +92,7 @@ func (lp *lawParts) add(d laws.Delay, w, scale, shift float64) error {
 		return nil
 	case scaled:
 		return lp.add(x.d, w, scale*x.s, shift)
-	case *profiles.Replay:
+	case *trace.Replay:
 		return lp.add(x.Delay, w, scale, shift)
 	}
 	atoms := d.Atoms()

@@ -8,6 +8,7 @@ import (
 
 	"rigwire/profiles"
 	"rigwire/profiles/laws"
+	"rigwire/profiles/markov"
 )
 
 // Options changes the network of a loop for a what-if prediction.
@@ -162,7 +163,7 @@ func Build(loop *profiles.Loop, opts Options) (*Model, error) {
 
 // stateName is a channel state's name, "iid" for a one-state channel
 // without one.
-func stateName(ch *profiles.Channel, i int) string {
+func stateName(ch *markov.Channel, i int) string {
 	if n := ch.States[i].Name; n != "" {
 		return n
 	}

@@ -9,6 +9,7 @@ import (
 
 	"rigwire/profiles"
 	"rigwire/profiles/laws"
+	"rigwire/profiles/markov"
 )
 
 // SimOptions sets up a Monte-Carlo run of a loop.
@@ -114,7 +115,7 @@ type simulator struct {
 	wFac, vFac     *mat.Dense // noise factors: L Lᵀ = covariance
 	psc, pca       *mat.Dense
 	pisc, pica     []float64
-	sc, ca         []profiles.State
+	sc, ca         []markov.State
 	delaySC        []laws.Delay
 	delayCA        []laws.Delay
 	lossSC, lossCA []float64   // extra loss included

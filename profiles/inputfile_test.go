@@ -7,6 +7,7 @@ import (
 	"os"
 	"path/filepath"
 	"rigwire/profiles/laws"
+	"rigwire/profiles/trace"
 	"rigwire/profiles/yamlpos"
 	"runtime"
 	"strings"
@@ -92,7 +93,7 @@ func loaders(dir string) []struct {
 		{"profile", func(p string) error { _, err := Load(p); return err }},
 		{"loop", func(p string) error { _, err := LoadLoop(p); return err }},
 		{"scenario", func(p string) error { _, err := LoadScenario(p); return err }},
-		{"trace", func(p string) error { _, err := LoadTrace(p); return err }},
+		{"trace", func(p string) error { _, err := trace.LoadTrace(p); return err }},
 		{"empirical file", ref("sensor_to_controller:\n  delay: {kind: empirical, file: %q}\n")},
 		{"trace in a profile", ref("sensor_to_controller:\n  trace: {file: %q}\n")},
 		{"profile of a scenario", func(p string) error {
@@ -347,7 +348,7 @@ func TestTraceDelayBound(t *testing.T) {
 	}
 	for _, c := range cases {
 		t.Run(c.name, func(t *testing.T) {
-			_, err := ReadTrace(strings.NewReader(c.body), "t.csv")
+			_, err := trace.ReadTrace(strings.NewReader(c.body), "t.csv")
 			if err == nil || err.Error() != c.want {
 				t.Fatalf("got  %v\nwant %s", err, c.want)
 			}

@@ -5,6 +5,7 @@ import (
 	"math"
 	"path/filepath"
 	"rigwire/profiles/laws"
+	"rigwire/profiles/markov"
 	"rigwire/profiles/yamlpos"
 	"strconv"
 
@@ -99,11 +100,11 @@ const (
 )
 
 // Clean is a one-state channel that neither loses nor delays.
-func Clean() *Channel {
-	return &Channel{States: []State{{Name: "clean", MeanDwell: math.Inf(1), Delay: laws.Constant{}}}}
+func Clean() *markov.Channel {
+	return &markov.Channel{States: []markov.State{{Name: "clean", MeanDwell: math.Inf(1), Delay: laws.Constant{}}}}
 }
 
-func parseChannel(f yamlpos.Field, dir string) (*Channel, error) {
+func parseChannel(f yamlpos.Field, dir string) (*markov.Channel, error) {
 	if f.IsNull() {
 		return Clean(), nil
 	}
@@ -121,7 +122,7 @@ func parseChannel(f yamlpos.Field, dir string) (*Channel, error) {
 			return nil, err
 		}
 		s.Name, s.MeanDwell = "iid", math.Inf(1)
-		return &Channel{States: []State{s}}, nil
+		return &markov.Channel{States: []markov.State{s}}, nil
 	}
 	for _, k := range []string{"loss", "delay"} {
 		if g, ok := keys[k]; ok {
@@ -133,8 +134,8 @@ func parseChannel(f yamlpos.Field, dir string) (*Channel, error) {
 
 // parseLossDelay reads the loss and delay keys shared by a plain direction
 // and a state.
-func parseLossDelay(keys map[string]yamlpos.Field, dir string) (State, error) {
-	s := State{Delay: laws.Constant{}}
+func parseLossDelay(keys map[string]yamlpos.Field, dir string) (markov.State, error) {
+	s := markov.State{Delay: laws.Constant{}}
 	var err error
 	if f, ok := keys["loss"]; ok {
 		if s.Loss, err = f.FloatIn(0, 1); err != nil {
@@ -149,7 +150,7 @@ func parseLossDelay(keys map[string]yamlpos.Field, dir string) (State, error) {
 	return s, nil
 }
 
-func parseStates(f yamlpos.Field, dir string) (*Channel, error) {
+func parseStates(f yamlpos.Field, dir string) (*markov.Channel, error) {
 	items, err := f.Seq()
 	if err != nil {
 		return nil, err
@@ -161,7 +162,7 @@ func parseStates(f yamlpos.Field, dir string) (*Channel, error) {
 		return nil, f.Errorf("want at most %d states, got %d", MaxStates, len(items))
 	}
 	n := len(items)
-	c := &Channel{States: make([]State, n)}
+	c := &markov.Channel{States: make([]markov.State, n)}
 	index := make(map[string]int, n)
 	nexts := make([]yamlpos.Field, n)
 	for i, it := range items {
@@ -251,7 +252,7 @@ func parseStates(f yamlpos.Field, dir string) (*Channel, error) {
 	return c, nil
 }
 
-func stateNames(c *Channel) []string {
+func stateNames(c *markov.Channel) []string {
 	out := make([]string, len(c.States))
 	for i, s := range c.States {
 		out[i] = s.Name
@@ -263,7 +264,7 @@ func stateNames(c *Channel) []string {
 // reached from from, or ok = false when the chain is irreducible (every
 // state reachable from every other), which gives it a unique stationary
 // law with every state visited (Norris §3.5, from memory).
-func unreachable(c *Channel) (from, to int, ok bool) {
+func unreachable(c *markov.Channel) (from, to int, ok bool) {
 	n := len(c.States)
 	reach := make([][]bool, n)
 	for i := range reach {

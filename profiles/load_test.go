@@ -16,6 +16,7 @@ import (
 
 	"rigwire/profiles"
 	"rigwire/profiles/laws"
+	"rigwire/profiles/markov"
 	"rigwire/profiles/yamlpos"
 )
 
@@ -125,7 +126,7 @@ func TestShippedProfiles(t *testing.T) {
 			if p.Name == "" || p.File != f {
 				t.Errorf("name %q, file %q", p.Name, p.File)
 			}
-			for dir, c := range map[string]*profiles.Channel{profiles.SensorToController: p.SensorToController, profiles.ControllerToActuator: p.ControllerToActuator} {
+			for dir, c := range map[string]*markov.Channel{profiles.SensorToController: p.SensorToController, profiles.ControllerToActuator: p.ControllerToActuator} {
 				checkChannel(t, c)
 				// Realism for a 10 ms loop (common practice, not a
 				// source): in the long run most delays sit well below
@@ -169,7 +170,7 @@ func TestShippedProfiles(t *testing.T) {
 // checkChannel checks the invariants a loaded channel promises: losses in
 // [0, 1], jump rows summing to 1 without self-jumps, a stationary law,
 // and delay laws with a monotone CDF in [0, 1] and draws ≥ 0.
-func checkChannel(t testing.TB, c *profiles.Channel) {
+func checkChannel(t testing.TB, c *markov.Channel) {
 	t.Helper()
 	const tol = 1e-9
 	if len(c.States) == 0 {
@@ -297,7 +298,7 @@ controller_to_actuator:
 	if err != nil {
 		t.Fatal(err)
 	}
-	for _, c := range []*profiles.Channel{p.SensorToController, p.ControllerToActuator} {
+	for _, c := range []*markov.Channel{p.SensorToController, p.ControllerToActuator} {
 		if len(c.States) != 1 || c.States[0].Loss != 0 || c.States[0].Delay != (laws.Constant{}) {
 			t.Errorf("missing direction = %+v, want no loss and no delay", c.States)
 		}

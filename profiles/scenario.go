@@ -13,6 +13,8 @@ import (
 	"path/filepath"
 	"regexp"
 	"rigwire/profiles/laws"
+	"rigwire/profiles/markov"
+	"rigwire/profiles/trace"
 	"rigwire/profiles/yamlpos"
 	"strconv"
 	"strings"
@@ -837,7 +839,7 @@ func treeSize(n *yaml.Node) int64 {
 // samples, a replayed trace's fates).
 func (p *Profile) heldDelays() int64 {
 	var n int64
-	for _, c := range []*Channel{p.SensorToController, p.ControllerToActuator} {
+	for _, c := range []*markov.Channel{p.SensorToController, p.ControllerToActuator} {
 		if c == nil {
 			continue
 		}
@@ -852,7 +854,7 @@ func lawDelays(d laws.Delay) int64 {
 	switch d := d.(type) {
 	case *laws.Empirical:
 		return int64(d.Len())
-	case *Replay:
+	case *trace.Replay:
 		return int64(len(d.Lost)) + lawDelays(d.Delay)
 	case *laws.Shifted:
 		return lawDelays(d.Base)

@@ -5,7 +5,7 @@ package tests
 // YAML file's keys are accepted) in profiles/, cmd/impair/links.go and
 // deploy/lab/config.go, the delay kinds' table (delayKinds in
 // profiles/delayparse.go) and the trace's metadata switch; the CSV
-// columns from the exported lists (profiles.TraceColumns,
+// columns from the exported lists (trace.TraceColumns,
 // emulate.RecordColumns). Each key table of the reference is marked with
 // an HTML comment, <!-- keys: ID -->, and each Mapping call is tied to one
 // ID below, so that a key a loader accepts and the reference does not list,
@@ -30,6 +30,7 @@ import (
 	"rigwire/emulate"
 	"rigwire/estimate"
 	"rigwire/profiles"
+	"rigwire/profiles/trace"
 )
 
 const formatsDoc = "../docs/formats.md"
@@ -442,7 +443,7 @@ func TestFormatsDocCoversLoaderKeys(t *testing.T) {
 	}
 
 	// The CSV files.
-	accepted["trace"] = profiles.TraceColumns
+	accepted["trace"] = trace.TraceColumns
 	accepted["trace.meta"] = traceMetaKeys(t)
 	accepted["record"] = emulate.RecordColumns
 
@@ -563,7 +564,7 @@ func TestFormatsDocExamplesLoad(t *testing.T) {
 	})
 	t.Run("trace", func(t *testing.T) {
 		ex := docExample(t, text, sectionOf["trace"], "At most 1 GiB")
-		tr, err := profiles.ReadTrace(strings.NewReader(ex), "example.csv")
+		tr, err := trace.ReadTrace(strings.NewReader(ex), "example.csv")
 		if err != nil {
 			t.Fatal(err)
 		}

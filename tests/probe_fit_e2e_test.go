@@ -15,6 +15,7 @@ import (
 
 	"rigwire/estimate"
 	"rigwire/profiles"
+	"rigwire/profiles/trace"
 )
 
 // Tolerances of the full loop, each with its reason.
@@ -91,17 +92,17 @@ sensor_to_controller:
 	waitHTTP(t, "http://"+metrics+"/metrics", relay)
 	waitOutput(t, echo, "echoing probes")
 
-	trace := filepath.Join(dir, "trace.csv")
+	traceFile := filepath.Join(dir, "trace.csv")
 	probe := exec.Command(bin, "probe", "--target", listen, "--rate", fmt.Sprint(1/interval),
 		"--size", fmt.Sprint(probeBytes), "--duration", duration, "--clocks-synced",
-		"--wait", "500ms", "--out", trace)
+		"--wait", "500ms", "--out", traceFile)
 	if out, err := probe.CombinedOutput(); err != nil {
 		t.Fatalf("impair probe: %v\n%s", err, out)
 	} else if !strings.Contains(string(out), "sent") {
 		t.Errorf("impair probe printed no progress:\n%s", out)
 	}
 	fitted := filepath.Join(dir, "fitted.yaml")
-	fit := exec.Command(bin, "fit", trace, "--one-way", "--out", fitted, "--loop", loopFile)
+	fit := exec.Command(bin, "fit", traceFile, "--one-way", "--out", fitted, "--loop", loopFile)
 	out, err := fit.CombinedOutput()
 	if err != nil {
 		t.Fatalf("impair fit: %v\n%s", err, out)
@@ -114,7 +115,7 @@ sensor_to_controller:
 	}
 
 	// The same fit, in process, for the standard errors.
-	tr, err := profiles.LoadTrace(trace)
+	tr, err := trace.LoadTrace(traceFile)
 	if err != nil {
 		t.Fatal(err)
 	}

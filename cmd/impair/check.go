@@ -10,6 +10,7 @@ import (
 	"rigwire/cmd/internal/exitcode"
 	"rigwire/profiles"
 	"rigwire/profiles/laws"
+	"rigwire/profiles/markov"
 	"rigwire/profiles/yamlpos"
 )
 
@@ -75,7 +76,7 @@ func writeCheck(w io.Writer, p *profiles.Profile, interval float64) {
 	fmt.Fprintf(w, ")\nloss runs for one datagram every %s; late: share of delivered datagrams delayed ≥ %s\n", fmtDur(interval), fmtDur(interval))
 	for _, d := range []struct {
 		name string
-		c    *profiles.Channel
+		c    *markov.Channel
 	}{
 		{profiles.SensorToController, p.SensorToController},
 		{profiles.ControllerToActuator, p.ControllerToActuator},
@@ -86,7 +87,7 @@ func writeCheck(w io.Writer, p *profiles.Profile, interval float64) {
 	fmt.Fprintln(w, "\nprofile is valid")
 }
 
-func writeChannel(w io.Writer, name string, c *profiles.Channel, interval float64) {
+func writeChannel(w io.Writer, name string, c *markov.Channel, interval float64) {
 	n := len(c.States)
 	if n == 1 {
 		fmt.Fprintf(w, "%s: i.i.d., one state\n", name)

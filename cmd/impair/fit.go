@@ -13,6 +13,7 @@ import (
 	"rigwire/cmd/internal/exitcode"
 	"rigwire/estimate"
 	"rigwire/profiles"
+	"rigwire/profiles/trace"
 )
 
 const fitUsage = `usage: impair fit TRACE (--one-way | --halve-rtt | --round-trip)
@@ -93,7 +94,7 @@ func cmdFit(args []string, stdout, stderr io.Writer) error {
 	default:
 		return usagef("--direction: want sensor_to_controller, controller_to_actuator or both, got %q", f.direction)
 	}
-	tr, err := profiles.LoadTrace(paths[0])
+	tr, err := trace.LoadTrace(paths[0])
 	if err != nil {
 		return badInput(err)
 	}
@@ -118,7 +119,7 @@ func cmdFit(args []string, stdout, stderr io.Writer) error {
 
 // fitResult is what fitTrace found.
 type fitResult struct {
-	trace    *profiles.Trace
+	trace    *trace.Trace
 	column   string
 	what     string // what the delays are
 	interval float64
@@ -134,7 +135,7 @@ type fitResult struct {
 // fitTrace fits the trace; an error is of the input (usageError,
 // inputError: a trace that cannot be fitted) unless the fitted profile
 // does not load, which is a bug.
-func fitTrace(tr *profiles.Trace, f fitFlags) (*fitResult, error) {
+func fitTrace(tr *trace.Trace, f fitFlags) (*fitResult, error) {
 	r := &fitResult{trace: tr}
 	scale := 1.0
 	switch {

@@ -14,6 +14,7 @@ import (
 
 	"rigwire/estimate"
 	"rigwire/profiles"
+	"rigwire/profiles/trace"
 )
 
 // writeSyntheticTrace writes a trace of n probes every h seconds: gamma
@@ -25,7 +26,7 @@ func writeSyntheticTrace(t *testing.T, path string, n int, h, shape, scale, shif
 	g := distuv.Gamma{Alpha: shape, Beta: 1 / scale, Src: rand.NewPCG(3, 4)}
 	rng := rand.New(rand.NewPCG(5, 6))
 	var b strings.Builder
-	fmt.Fprintf(&b, "%s\n# interval_s: %g\n# clocks_synced: true\nseq,send_s,status,rtt_s,one_way_s,back_s,copies,reordered\n", profiles.TraceHeaderComment, h)
+	fmt.Fprintf(&b, "%s\n# interval_s: %g\n# clocks_synced: true\nseq,send_s,status,rtt_s,one_way_s,back_s,copies,reordered\n", trace.TraceHeaderComment, h)
 	bad := false
 	for i := range n {
 		if bad {
@@ -109,7 +110,7 @@ func TestFitCommand(t *testing.T) {
 
 func fitOfTrace(t *testing.T, path string) estimate.LossFit {
 	t.Helper()
-	tr, err := profiles.LoadTrace(path)
+	tr, err := trace.LoadTrace(path)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -228,7 +229,7 @@ func TestFitNoLosses(t *testing.T) {
 	for _, c := range cases {
 		t.Run(c.name, func(t *testing.T) {
 			var b strings.Builder
-			fmt.Fprintf(&b, "%s\n# interval_s: 0.01\nseq,send_s,status,rtt_s\n", profiles.TraceHeaderComment)
+			fmt.Fprintf(&b, "%s\n# interval_s: 0.01\nseq,send_s,status,rtt_s\n", trace.TraceHeaderComment)
 			rng := rand.New(rand.NewPCG(8, 9))
 			const n = 500
 			for i := range n {

@@ -17,7 +17,7 @@ import (
 	"time"
 
 	"rigwire/cmd/internal/exitcode"
-	"rigwire/profiles"
+	"rigwire/profiles/trace"
 )
 
 const probeUsage = `usage: impair probe --target HOST:PORT --rate R --size B --duration D
@@ -270,9 +270,9 @@ func (p *prober) progressLoop(w io.Writer, done <-chan struct{}) {
 
 func secs(d time.Duration) string { return strconv.FormatFloat(d.Seconds(), 'f', 9, 64) }
 
-// writeTrace writes the trace format of profiles.ReadTrace.
+// writeTrace writes the trace format of trace.ReadTrace.
 func writeTrace(w io.Writer, recs []probeRec, rate float64, size int, synced bool, target string) {
-	fmt.Fprintln(w, profiles.TraceHeaderComment)
+	fmt.Fprintln(w, trace.TraceHeaderComment)
 	fmt.Fprintf(w, "# target: %s\n", target)
 	fmt.Fprintf(w, "# interval_s: %s\n", strconv.FormatFloat(1/rate, 'g', -1, 64))
 	fmt.Fprintf(w, "# size_bytes: %d\n", size)

@@ -18,6 +18,7 @@ import (
 	"rigwire/estimate/report"
 	"rigwire/profiles"
 	"rigwire/profiles/laws"
+	"rigwire/profiles/markov"
 )
 
 // soakRun is what a soak hands its report and its summary beyond the
@@ -171,10 +172,10 @@ func (run *soakRun) phaseNetwork(k int, src scenarioSources, notRun bool) *repor
 func profileTexts(from, to *profiles.Profile) []report.DirectionText {
 	dirs := []struct {
 		name string
-		ch   func(*profiles.Profile) *profiles.Channel
+		ch   func(*profiles.Profile) *markov.Channel
 	}{
-		{profiles.SensorToController, func(p *profiles.Profile) *profiles.Channel { return p.SensorToController }},
-		{profiles.ControllerToActuator, func(p *profiles.Profile) *profiles.Channel { return p.ControllerToActuator }},
+		{profiles.SensorToController, func(p *profiles.Profile) *markov.Channel { return p.SensorToController }},
+		{profiles.ControllerToActuator, func(p *profiles.Profile) *markov.Channel { return p.ControllerToActuator }},
 	}
 	var out []report.DirectionText
 	for _, d := range dirs {
@@ -192,11 +193,11 @@ func profileTexts(from, to *profiles.Profile) []report.DirectionText {
 // channelText is a channel's parameters in a line: "loss 0.02, delay
 // lognormal median 8ms …" for one state; each state with its mean dwell
 // for several.
-func channelText(ch *profiles.Channel) string {
+func channelText(ch *markov.Channel) string {
 	if ch == nil || len(ch.States) == 0 {
 		return "no loss, no delay"
 	}
-	state := func(s profiles.State) string {
+	state := func(s markov.State) string {
 		return fmt.Sprintf("loss %.4g, delay %s", s.Loss, laws.Describe(s.Delay))
 	}
 	if len(ch.States) == 1 {

@@ -1,11 +1,9 @@
-package profiles
+package trace
 
 import (
 	"fmt"
-	"math"
 	"math/rand/v2"
 	"rigwire/profiles/laws"
-	"rigwire/profiles/yamlpos"
 	"strconv"
 )
 
@@ -83,79 +81,4 @@ func NewReplay(file, column, atEnd string, delays []float64, lost []bool) (*Repl
 	}
 	r.Delay = law
 	return r, nil
-}
-
-// ReplayOf returns the Replay of a channel that replays a trace, or nil.
-func ReplayOf(c *Channel) *Replay {
-	if c == nil || len(c.States) != 1 {
-		return nil
-	}
-	r, _ := c.States[0].Delay.(*Replay)
-	return r
-}
-
-// parseTraceChannel reads `trace: {file, column, at_end}` (f is the trace
-// key's value); others are the direction's other keys, which must be
-// absent.
-func parseTraceChannel(f yamlpos.Field, others map[string]yamlpos.Field, dir string) (*Channel, error) {
-	for _, k := range []string{"loss", "delay", "states"} {
-		if g, ok := others[k]; ok {
-			return nil, g.Errorf("want either trace or %s, got both", k)
-		}
-	}
-	keys, err := f.Mapping("file", "column", "at_end")
-	if err != nil {
-		return nil, err
-	}
-	ff, ok := keys["file"]
-	if !ok {
-		return nil, f.Errorf("missing file (a probe trace, as written by impair probe)")
-	}
-	name, err := ff.Text()
-	if err != nil {
-		return nil, err
-	}
-	if name == "" {
-		return nil, ff.Errorf("want a file name, got nothing")
-	}
-	column := "one_way_s"
-	if g, ok := keys["column"]; ok {
-		if column, err = g.Text(); err != nil {
-			return nil, err
-		}
-		valid := false
-		for _, c := range TraceDelayColumns {
-			valid = valid || c == column
-		}
-		if !valid {
-			return nil, g.Errorf("want one of rtt_s, one_way_s, back_s, got %s", g.Got())
-		}
-	}
-	atEnd := AtEndLoop
-	if g, ok := keys["at_end"]; ok {
-		if atEnd, err = g.Text(); err != nil {
-			return nil, err
-		}
-		if atEnd != AtEndLoop && atEnd != AtEndStop && atEnd != AtEndClean {
-			return nil, g.Errorf("want loop, stop or clean, got %s", g.Got())
-		}
-	}
-	fh, err := openRelative(ff, name, dir, "trace", yamlpos.MaxTraceBytes)
-	if err != nil {
-		return nil, err
-	}
-	defer fh.Close()
-	tr, err := ReadTrace(fh, name)
-	if err != nil {
-		return nil, ff.Errorf("%v", err)
-	}
-	delays, lost, err := tr.Fates(column)
-	if err != nil {
-		return nil, ff.Errorf("%v", err)
-	}
-	rp, err := NewReplay(name, column, atEnd, delays, lost)
-	if err != nil {
-		return nil, f.Errorf("%v", err)
-	}
-	return &Channel{States: []State{{Name: "trace", MeanDwell: math.Inf(1), Loss: rp.LossRate, Delay: rp}}}, nil
 }

@@ -1,4 +1,4 @@
-package profiles_test
+package markov_test
 
 import (
 	"math"
@@ -7,27 +7,27 @@ import (
 
 	"gonum.org/v1/gonum/mat"
 
-	"rigwire/profiles"
 	"rigwire/profiles/laws"
+	"rigwire/profiles/markov"
 )
 
-func twoState(d1, d2, l1, l2 float64) *profiles.Channel {
-	return &profiles.Channel{States: []profiles.State{
+func twoState(d1, d2, l1, l2 float64) *markov.Channel {
+	return &markov.Channel{States: []markov.State{
 		{Name: "good", MeanDwell: d1, Loss: l1, Delay: laws.Constant{}, Jump: []float64{0, 1}},
 		{Name: "bad", MeanDwell: d2, Loss: l2, Delay: laws.Constant{}, Jump: []float64{1, 0}},
 	}}
 }
 
-func threeState() *profiles.Channel {
-	return &profiles.Channel{States: []profiles.State{
+func threeState() *markov.Channel {
+	return &markov.Channel{States: []markov.State{
 		{Name: "clear", MeanDwell: 4, Loss: 0.001, Delay: laws.Constant{}, Jump: []float64{0, 0.8, 0.2}},
 		{Name: "shadow", MeanDwell: 0.6, Loss: 0.05, Delay: laws.Constant{}, Jump: []float64{0.7, 0, 0.3}},
 		{Name: "blocked", MeanDwell: 0.15, Loss: 0.9, Delay: laws.Constant{}, Jump: []float64{0.5, 0.5, 0}},
 	}}
 }
 
-func iid(loss float64) *profiles.Channel {
-	return &profiles.Channel{States: []profiles.State{{Name: "iid", MeanDwell: math.Inf(1), Loss: loss, Delay: laws.Constant{}}}}
+func iid(loss float64) *markov.Channel {
+	return &markov.Channel{States: []markov.State{{Name: "iid", MeanDwell: math.Inf(1), Loss: loss, Delay: laws.Constant{}}}}
 }
 
 // TestGenerator checks that rows of the generator sum to 0 and that the
@@ -37,7 +37,7 @@ func TestGenerator(t *testing.T) {
 	const tol = 1e-15
 	for _, tc := range []struct {
 		name string
-		c    *profiles.Channel
+		c    *markov.Channel
 	}{{"iid", iid(0.1)}, {"two", twoState(4, 0.3, 0, 1)}, {"three", threeState()}} {
 		t.Run(tc.name, func(t *testing.T) {
 			g := tc.c.Generator()
@@ -145,7 +145,7 @@ func TestLossRuns(t *testing.T) {
 	geLag := (piG*0.01*0.01 + piB*0.5*0.5) / (piG*0.01 + piB*0.5)
 	tests := []struct {
 		name       string
-		c          *profiles.Channel
+		c          *markov.Channel
 		burst, lag float64
 		tol        float64 // relative
 	}{
