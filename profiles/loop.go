@@ -1,6 +1,8 @@
 package profiles
 
 import (
+	"rigwire/profiles/datagram"
+
 	"gonum.org/v1/gonum/mat"
 )
 
@@ -36,7 +38,7 @@ type Loop struct {
 	// Decode says where the outputs sit in each sensor datagram. Its
 	// Format is "" when the loop file has no decode section (enough for
 	// predict, not for monitor run).
-	Decode Decode
+	Decode datagram.Layout
 	// Trip is the safety trip the monitor judges on every sample (key
 	// trip); Trip.Enabled is false when the loop file has none.
 	Trip Trip

@@ -1,6 +1,7 @@
 package profiles
 
 import (
+	"rigwire/profiles/datagram"
 	"rigwire/profiles/yamlpos"
 	"slices"
 	"strings"
@@ -15,7 +16,7 @@ import (
 // outputs must list one field per plant output (p); a binary order
 // defaults to little. The sequence of a binary format must be an integer
 // type.
-func parseDecode(f yamlpos.Field, d *Decode, p int) error {
+func parseDecode(f yamlpos.Field, d *datagram.Layout, p int) error {
 	keys, err := f.Mapping("format", "separator", "outputs", "sequence")
 	if err != nil {
 		return err
@@ -69,10 +70,8 @@ func parseDecode(f yamlpos.Field, d *Decode, p int) error {
 	return nil
 }
 
-var binaryTypes = []string{"float32", "float64", "int16", "int32", "int64", "uint16", "uint32"}
-
-func parseDecodeField(f yamlpos.Field, format string, counter bool) (DecodeField, error) {
-	var df DecodeField
+func parseDecodeField(f yamlpos.Field, format string, counter bool) (datagram.Field, error) {
+	var df datagram.Field
 	if format == "text" {
 		keys, err := f.Mapping("field")
 		if err != nil {
@@ -105,8 +104,8 @@ func parseDecodeField(f yamlpos.Field, format string, counter bool) (DecodeField
 	if df.Type, err = keys["type"].Text(); err != nil {
 		return df, err
 	}
-	if !slices.Contains(binaryTypes, df.Type) {
-		return df, keys["type"].Errorf("want one of %s, got %s", strings.Join(binaryTypes, ", "), keys["type"].Got())
+	if !slices.Contains(datagram.BinaryTypes, df.Type) {
+		return df, keys["type"].Errorf("want one of %s, got %s", strings.Join(datagram.BinaryTypes, ", "), keys["type"].Got())
 	}
 	if counter && strings.HasPrefix(df.Type, "float") {
 		return df, keys["type"].Errorf("want an integer type for the sequence counter, got %s", keys["type"].Got())

@@ -4,10 +4,9 @@ import (
 	"fmt"
 	"math"
 	"math/rand/v2"
+	"rigwire/profiles/datagram"
 	"testing"
 	"time"
-
-	"rigwire/profiles"
 )
 
 // sameTol is the relative tolerance between a run with bad datagrams and
@@ -104,7 +103,7 @@ func show(p *float64) string {
 
 // One absurd value among good samples never poisons the run: outputs
 // whose square of a squared error would overflow, beyond
-// profiles.MaxOutput, NaN and infinities, in text and in binary, are each
+// datagram.MaxOutput, NaN and infinities, in text and in binary, are each
 // counted under their reason and left out, and every estimate — the run's
 // E[eᵀe], its interval, the error's mean and spread, the batches, each
 // window — equals the estimate over the good samples alone.
@@ -177,7 +176,7 @@ func TestBadValuesNeverPoisonTheRun(t *testing.T) {
 			if sw.Samples != sa.Samples || sw.Samples != int64(len(good)) {
 				t.Errorf("samples: %d with, %d without, want %d", sw.Samples, sa.Samples, len(good))
 			}
-			for _, r := range profiles.DecodeReasons {
+			for _, r := range datagram.Reasons {
 				want := int64(0)
 				if r.Reason == c.reason {
 					want = int64(nbad)
@@ -207,8 +206,8 @@ func TestOutputAtTheBoundStaysFinite(t *testing.T) {
 		name string
 		y    float64
 	}{
-		{"+MaxOutput", profiles.MaxOutput},
-		{"-MaxOutput", -profiles.MaxOutput},
+		{"+MaxOutput", datagram.MaxOutput},
+		{"-MaxOutput", -datagram.MaxOutput},
 	} {
 		t.Run(c.name, func(t *testing.T) {
 			s, nbad := badRun(t, textDecode, good, func(seq int) []byte { return fmt.Appendf(nil, "%d,%v", seq, c.y) })
@@ -246,7 +245,7 @@ func TestOutputAtTheBoundStaysFinite(t *testing.T) {
 // overflow the same sums.
 func TestSetpointBeyondTheBoundRefused(t *testing.T) {
 	l := testLoop(t, textDecode)
-	l.Setpoint = []float64{2 * profiles.MaxOutput}
+	l.Setpoint = []float64{2 * datagram.MaxOutput}
 	if _, err := New(l, stablePred(0.0025), Options{}); err == nil {
 		t.Errorf("setpoint %g accepted", l.Setpoint[0])
 	}

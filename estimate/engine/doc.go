@@ -117,7 +117,7 @@
 // Every datagram read is exactly one of: a stranger's (SetSource; not in
 // datagrams_total), a sample, a warm-up skip, a sample after the trip, a
 // duplicate or stale sample, a decode failure — so that the summary's
-// counts add up to its datagrams. An output beyond ±profiles.MaxOutput
+// counts add up to its datagrams. An output beyond ±datagram.MaxOutput
 // (1e50), NaN or infinite is a decode failure (out_of_range, not_finite,
 // or not_a_number for text that is not a decimal number): the estimators
 // sum squares of each sample's eᵀe, which stay finite under that bound,

@@ -9,6 +9,7 @@ import (
 
 	"rigwire/estimate"
 	"rigwire/profiles"
+	"rigwire/profiles/datagram"
 )
 
 // Options configures a Monitor. The zero value takes the defaults.
@@ -69,7 +70,7 @@ type Monitor struct {
 	strangers [len(StrangerReasons)]int64
 	decoded   int64     // samples decoded and not duplicates/stale
 	skipped   int64     // of those, skipped as warm-up
-	failures  []int64   // by index in profiles.DecodeReasons
+	failures  []int64   // by index in datagram.Reasons
 	first     time.Time // arrival of the first estimated sample
 	last      time.Time // arrival of the latest datagram
 	meanBuf   []float64
@@ -96,10 +97,10 @@ type Monitor struct {
 }
 
 // reasonIndex maps each decode failure to its counter.
-var reasonIndex = map[*profiles.DecodeError]int{}
+var reasonIndex = map[*datagram.Error]int{}
 
 func init() {
-	for i, r := range profiles.DecodeReasons {
+	for i, r := range datagram.Reasons {
 		reasonIndex[r] = i
 	}
 }
@@ -112,8 +113,8 @@ func New(loop *profiles.Loop, pred *estimate.Prediction, opts Options) (*Monitor
 		return nil, fmt.Errorf("%s: decode: missing (the monitor needs to know where the outputs sit in each sensor datagram; see the decode section of docs/formats.md)", loop.File)
 	}
 	for i, r := range loop.Setpoint {
-		if !(math.Abs(r) <= profiles.MaxOutput) {
-			return nil, fmt.Errorf("%s: setpoint[%d]: want a value within ±%g (the bound on decoded outputs), got %g", loop.File, i, profiles.MaxOutput, r)
+		if !(math.Abs(r) <= datagram.MaxOutput) {
+			return nil, fmt.Errorf("%s: setpoint[%d]: want a value within ±%g (the bound on decoded outputs), got %g", loop.File, i, datagram.MaxOutput, r)
 		}
 	}
 	if opts.Tolerance < 0 || math.IsNaN(opts.Tolerance) || math.IsInf(opts.Tolerance, 0) {
@@ -170,7 +171,7 @@ func New(loop *profiles.Loop, pred *estimate.Prediction, opts Options) (*Monitor
 	m := &Monitor{
 		loop: loop, pred: pred, opts: opts, now: opts.Now, windows: opts.Windows,
 		warmupN: int64(math.Floor(opts.Warmup.Seconds()/loop.Period + 1e-9)), // 1e-9: 0.2 s / 20 ms is 10, not 9.999…
-		on:      on, failures: make([]int64, len(profiles.DecodeReasons)), y: make([]float64, len(loop.Setpoint)), meanBuf: make([]float64, len(loop.Setpoint)),
+		on:      on, failures: make([]int64, len(datagram.Reasons)), y: make([]float64, len(loop.Setpoint)), meanBuf: make([]float64, len(loop.Setpoint)),
 		e: make([]float64, len(loop.Setpoint)),
 	}
 	m.cur, m.curPr, m.curStab = pred, predictedOf(pred), stabilityOf(pred)
@@ -208,12 +209,12 @@ func (m *Monitor) feed(payload []byte, at time.Time) (*TripEvent, func(TripEvent
 	m.datagrams++
 	m.last = at
 	if len(payload) > m.opts.MaxDatagram {
-		m.failures[reasonIndex[profiles.ErrOversized]]++
+		m.failures[reasonIndex[datagram.ErrOversized]]++
 		return nil, nil
 	}
 	seq, hasSeq, err := m.loop.Decode.Output(payload, m.y)
 	if err != nil {
-		if de, ok := err.(*profiles.DecodeError); ok {
+		if de, ok := err.(*datagram.Error); ok {
 			m.failures[reasonIndex[de]]++
 		}
 		return nil, nil

@@ -9,7 +9,7 @@ import (
 	"github.com/prometheus/client_golang/prometheus"
 
 	"rigwire/estimate"
-	"rigwire/profiles"
+	"rigwire/profiles/datagram"
 )
 
 // Metric names, all rigwire_monitor_ (base units; counters end in
@@ -174,7 +174,7 @@ func (c *collector) Collect(ch chan<- prometheus.Metric) {
 	counter(d.restarts, m.seq.Counts.Restarts)
 	counter(d.skipped, m.skipped)
 	counter(d.afterTrip, m.afterTrip)
-	for i, r := range profiles.DecodeReasons {
+	for i, r := range datagram.Reasons {
 		counter(d.failures, m.failures[i], r.Reason)
 	}
 	// Phases by name; a repeated name keeps its latest phase so that

@@ -7,7 +7,7 @@ import (
 	"time"
 
 	"rigwire/estimate"
-	"rigwire/profiles"
+	"rigwire/profiles/datagram"
 )
 
 // Summary is the JSON summary of `monitor run` (the keys a lab script
@@ -159,7 +159,7 @@ func (m *Monitor) Summary() *Summary {
 			s.Predicted.ErrorMean, s.Predicted.ErrorStd = finites(p.Error.Mean), finite(p.Error.Std)
 		}
 	}
-	for i, r := range profiles.DecodeReasons {
+	for i, r := range datagram.Reasons {
 		s.DecodeFailures[r.Reason] = m.failures[i]
 	}
 	for i, w := range m.windows {

@@ -98,7 +98,7 @@ func enough(st estimate.OnlineStats, minSamples int) (bool, string) {
 	case st.Batches < MinVerdictBatches:
 		return false, fmt.Sprintf("only %d complete batches, want ≥ %d", st.Batches, MinVerdictBatches)
 	case math.IsNaN(st.SecondMoment) || math.IsNaN(st.CILow) || math.IsNaN(st.CIHigh):
-		// Never with decoded values within profiles.MaxOutput; said as it
+		// Never with decoded values within datagram.MaxOutput; said as it
 		// is rather than blamed on the counts, which are enough.
 		return false, fmt.Sprintf("%d samples in %d complete batches, but the interval is not a number", st.Samples, st.Batches)
 	}

@@ -1,25 +1,25 @@
-package profiles
+package datagram
 
 import "encoding/binary"
 
-// Decode says where a rig's outputs sit in each sensor datagram (loop file
+// Layout says where a rig's outputs sit in each sensor datagram (loop file
 // key decode), for the monitor's run command.
-type Decode struct {
+type Layout struct {
 	// Format is "text" (fields split by Separator) or "binary" (fixed
 	// offsets); "" when the loop file has no decode section.
 	Format string
 	// Separator splits a text datagram into fields (default ",").
 	Separator string
 	// Outputs locates the plant's p outputs, in order.
-	Outputs []DecodeField
+	Outputs []Field
 	// Sequence locates the sample counter; nil when the datagrams carry
 	// none.
-	Sequence *DecodeField
+	Sequence *Field
 }
 
-// DecodeField is one value in a datagram: a text field by index, or a
+// Field is one value in a datagram: a text field by index, or a
 // binary value by offset, type and byte order.
-type DecodeField struct {
+type Field struct {
 	// Field is the 0-based index of a text field.
 	Field int
 	// Offset is the byte offset of a binary value.
@@ -33,7 +33,7 @@ type DecodeField struct {
 
 // Size is the width in bytes of a binary field's type (0 for a text
 // field or an unknown type).
-func (f DecodeField) Size() int {
+func (f Field) Size() int {
 	switch f.Type {
 	case "int16", "uint16":
 		return 2
@@ -46,9 +46,12 @@ func (f DecodeField) Size() int {
 }
 
 // ByteOrder is the binary field's byte order.
-func (f DecodeField) ByteOrder() binary.ByteOrder {
+func (f Field) ByteOrder() binary.ByteOrder {
 	if f.Order == "big" {
 		return binary.BigEndian
 	}
 	return binary.LittleEndian
 }
+
+// BinaryTypes are the types a binary field can have.
+var BinaryTypes = []string{"float32", "float64", "int16", "int32", "int64", "uint16", "uint32"}

@@ -1,4 +1,4 @@
-package profiles
+package datagram
 
 import (
 	"bytes"
@@ -7,15 +7,15 @@ import (
 	"unsafe"
 )
 
-// DecodeError is why a datagram did not decode. The values are fixed
+// Error is why a datagram did not decode. The values are fixed
 // (ErrTooShort, …) so that callers count them by Reason without
 // allocating.
-type DecodeError struct {
+type Error struct {
 	// Reason is a short label, usable as a metric label value.
 	Reason string
 }
 
-func (e *DecodeError) Error() string { return "datagram " + e.Reason }
+func (e *Error) Error() string { return "datagram " + e.Reason }
 
 // The reasons a datagram does not decode. Oversized datagrams are the
 // reader's to detect (it bounds its buffer); ReasonOversized is listed
@@ -23,24 +23,24 @@ func (e *DecodeError) Error() string { return "datagram " + e.Reason }
 var (
 	// ErrTooShort: the datagram ends before a binary value, or has fewer
 	// text fields than the decode section names.
-	ErrTooShort = &DecodeError{Reason: "too_short"}
+	ErrTooShort = &Error{Reason: "too_short"}
 	// ErrNotNumber: a text output field is not a decimal number.
-	ErrNotNumber = &DecodeError{Reason: "not_a_number"}
+	ErrNotNumber = &Error{Reason: "not_a_number"}
 	// ErrNotFinite: an output is NaN or infinite (or out of float64 range).
-	ErrNotFinite = &DecodeError{Reason: "not_finite"}
+	ErrNotFinite = &Error{Reason: "not_finite"}
 	// ErrOutOfRange: an output is finite but beyond ±MaxOutput, where the
 	// square of its squared error, summed over a long run, would no longer
 	// be a finite number: one such value must not poison a run's estimate.
-	ErrOutOfRange = &DecodeError{Reason: "out_of_range"}
+	ErrOutOfRange = &Error{Reason: "out_of_range"}
 	// ErrBadSequence: the sequence field is not a non-negative integer.
-	ErrBadSequence = &DecodeError{Reason: "bad_sequence"}
+	ErrBadSequence = &Error{Reason: "bad_sequence"}
 	// ErrOversized: longer than the reader accepts.
-	ErrOversized = &DecodeError{Reason: "oversized"}
+	ErrOversized = &Error{Reason: "oversized"}
 )
 
-// DecodeReasons lists every DecodeError, for counters that must exist
+// Reasons lists every Error, for counters that must exist
 // from the start.
-var DecodeReasons = []*DecodeError{ErrTooShort, ErrNotNumber, ErrNotFinite, ErrOutOfRange, ErrBadSequence, ErrOversized}
+var Reasons = []*Error{ErrTooShort, ErrNotNumber, ErrNotFinite, ErrOutOfRange, ErrBadSequence, ErrOversized}
 
 // MaxOutput bounds the magnitude of a decoded output (and of a setpoint:
 // the monitor refuses a loop whose setpoint lies beyond it). The monitor
@@ -67,7 +67,7 @@ func checkOutput(v float64) error {
 // Output decodes one sensor datagram: it writes the plant's outputs into
 // y (len(y) must be len(d.Outputs)) and returns the sample counter when
 // the decode section has one. It never allocates and never panics; a
-// datagram that does not decode returns one of the DecodeError values and
+// datagram that does not decode returns one of the Error values and
 // leaves y partly written.
 //
 // Text: the payload is split at each occurrence of d.Separator; a field
@@ -76,7 +76,7 @@ func checkOutput(v float64) error {
 // digit before the exponent), or, for the sequence, decimal digits only.
 // Binary: each value is read at its offset with its type and byte order;
 // signed sequence values below zero are ErrBadSequence.
-func (d *Decode) Output(payload []byte, y []float64) (seq uint64, hasSeq bool, err error) {
+func (d *Layout) Output(payload []byte, y []float64) (seq uint64, hasSeq bool, err error) {
 	if len(y) != len(d.Outputs) {
 		return 0, false, ErrTooShort // a caller error; never a panic
 	}
@@ -215,7 +215,7 @@ func parseCounter(b []byte) (uint64, bool) {
 }
 
 // binaryBytes returns the field's bytes within payload.
-func binaryBytes(payload []byte, f DecodeField) ([]byte, bool) {
+func binaryBytes(payload []byte, f Field) ([]byte, bool) {
 	size := f.Size()
 	if size == 0 || f.Offset < 0 || f.Offset > len(payload)-size {
 		return nil, false
@@ -223,7 +223,7 @@ func binaryBytes(payload []byte, f DecodeField) ([]byte, bool) {
 	return payload[f.Offset : f.Offset+size], true
 }
 
-func binaryValue(payload []byte, f DecodeField) (float64, bool) {
+func binaryValue(payload []byte, f Field) (float64, bool) {
 	b, ok := binaryBytes(payload, f)
 	if !ok {
 		return 0, false
@@ -250,7 +250,7 @@ func binaryValue(payload []byte, f DecodeField) (float64, bool) {
 
 // binaryCounter reads an integer sequence field; neg reports a signed
 // value below zero.
-func binaryCounter(payload []byte, f DecodeField) (v uint64, ok, neg bool) {
+func binaryCounter(payload []byte, f Field) (v uint64, ok, neg bool) {
 	b, ok := binaryBytes(payload, f)
 	if !ok {
 		return 0, false, false

@@ -1,4 +1,4 @@
-package profiles
+package datagram
 
 import (
 	"encoding/binary"
@@ -12,10 +12,10 @@ import (
 // strconv-style text: every binary type in both byte orders, text with
 // its separators, and the failures with their reasons.
 
-func binDecode(outType, outOrder string, outOff int, seqType, seqOrder string, seqOff int) *Decode {
-	d := &Decode{Format: "binary", Outputs: []DecodeField{{Offset: outOff, Type: outType, Order: outOrder}}}
+func binDecode(outType, outOrder string, outOff int, seqType, seqOrder string, seqOff int) *Layout {
+	d := &Layout{Format: "binary", Outputs: []Field{{Offset: outOff, Type: outType, Order: outOrder}}}
 	if seqType != "" {
-		d.Sequence = &DecodeField{Offset: seqOff, Type: seqType, Order: seqOrder}
+		d.Sequence = &Field{Offset: seqOff, Type: seqType, Order: seqOrder}
 	}
 	return d
 }
@@ -55,7 +55,7 @@ func TestDecodeBinaryEveryTypeAndOrder(t *testing.T) {
 		"int32": -123456789, "uint32": 4000000000, "int64": -1 << 40,
 	}
 	counters := map[string]uint64{"int16": 32000, "uint16": 65000, "int32": 2000000000, "uint32": 4000000001, "int64": 1 << 50}
-	for _, typ := range binaryTypes {
+	for _, typ := range BinaryTypes {
 		for _, ord := range []string{"little", "big"} {
 			for seqType, seq := range counters {
 				name := typ + "/" + ord + "/seq-" + seqType
@@ -82,8 +82,8 @@ func TestDecodeBinaryEveryTypeAndOrder(t *testing.T) {
 }
 
 func TestDecodeCases(t *testing.T) {
-	text := &Decode{Format: "text", Separator: ",", Outputs: []DecodeField{{Field: 2}, {Field: 3}}, Sequence: &DecodeField{Field: 0}}
-	semi := &Decode{Format: "text", Separator: " ; ", Outputs: []DecodeField{{Field: 1}}}
+	text := &Layout{Format: "text", Separator: ",", Outputs: []Field{{Field: 2}, {Field: 3}}, Sequence: &Field{Field: 0}}
+	semi := &Layout{Format: "text", Separator: " ; ", Outputs: []Field{{Field: 1}}}
 	bin := binDecode("float64", "big", 4, "int32", "little", 0)
 	f32 := binDecode("float32", "little", 0, "", "", 0)
 	le := binary.LittleEndian
@@ -97,7 +97,7 @@ func TestDecodeCases(t *testing.T) {
 	le.PutUint32(nan32, math.Float32bits(float32(math.NaN())))
 	cases := []struct {
 		name    string
-		d       *Decode
+		d       *Layout
 		payload []byte
 		want    []float64
 		seq     uint64
@@ -159,7 +159,7 @@ func TestDecodeCases(t *testing.T) {
 }
 
 func TestDecodeDoesNotAllocate(t *testing.T) {
-	text := &Decode{Format: "text", Separator: ",", Outputs: []DecodeField{{Field: 2}}, Sequence: &DecodeField{Field: 0}}
+	text := &Layout{Format: "text", Separator: ",", Outputs: []Field{{Field: 2}}, Sequence: &Field{Field: 0}}
 	bin := binDecode("float64", "big", 4, "uint32", "little", 0)
 	good, garbage := []byte("17,0.5,1.5e-3\n"), []byte("17,zz,1.5q")
 	b := make([]byte, 12)
@@ -184,18 +184,18 @@ func TestDecodeDoesNotAllocate(t *testing.T) {
 func FuzzDecode(f *testing.F) {
 	f.Add([]byte("1,2.5,-3e2"), ",")
 	f.Add([]byte{0, 0, 0, 1, 0x40, 0x09, 0x21, 0xfb, 0x54, 0x44, 0x2d, 0x18, 0xff}, ";")
-	decoders := []*Decode{
-		{Format: "binary", Outputs: []DecodeField{{Offset: 4, Type: "float64", Order: "big"}, {Offset: 2, Type: "int16", Order: "little"}},
-			Sequence: &DecodeField{Offset: 0, Type: "uint32", Order: "big"}},
-		{Format: "binary", Outputs: []DecodeField{{Offset: 1, Type: "float32", Order: "little"}, {Offset: 9, Type: "int64", Order: "big"}},
-			Sequence: &DecodeField{Offset: 3, Type: "int64", Order: "little"}},
+	decoders := []*Layout{
+		{Format: "binary", Outputs: []Field{{Offset: 4, Type: "float64", Order: "big"}, {Offset: 2, Type: "int16", Order: "little"}},
+			Sequence: &Field{Offset: 0, Type: "uint32", Order: "big"}},
+		{Format: "binary", Outputs: []Field{{Offset: 1, Type: "float32", Order: "little"}, {Offset: 9, Type: "int64", Order: "big"}},
+			Sequence: &Field{Offset: 3, Type: "int64", Order: "little"}},
 	}
 	f.Fuzz(func(t *testing.T, payload []byte, sep string) {
 		if sep == "" || len(sep) > 8 {
 			sep = ","
 		}
-		all := append(decoders, &Decode{Format: "text", Separator: sep,
-			Outputs: []DecodeField{{Field: 1}, {Field: 2}}, Sequence: &DecodeField{Field: 0}})
+		all := append(decoders, &Layout{Format: "text", Separator: sep,
+			Outputs: []Field{{Field: 1}, {Field: 2}}, Sequence: &Field{Field: 0}})
 		for _, d := range all {
 			y := make([]float64, len(d.Outputs))
 			_, _, err := d.Output(payload, y)
@@ -207,9 +207,9 @@ func FuzzDecode(f *testing.F) {
 				}
 				continue
 			}
-			var de *DecodeError
+			var de *Error
 			if !errors.As(err, &de) || strings.TrimSpace(de.Reason) == "" {
-				t.Fatalf("error %v is not a DecodeError with a reason", err)
+				t.Fatalf("error %v is not a Error with a reason", err)
 			}
 		}
 	})
