@@ -14,6 +14,7 @@ import (
 	"time"
 
 	"rigwire/estimate"
+	"rigwire/estimate/fit"
 	"rigwire/profiles"
 	"rigwire/profiles/trace"
 )
@@ -60,7 +61,7 @@ func TestProbeFitRecoversRelayProfile(t *testing.T) {
 		loopFile   = "../cmd/monitor/examples/conveyor.yaml"
 		probeBytes = 64
 	)
-	good, bad, err := (estimate.LossFit{P: pLoss, R: rRecover}).Dwell(interval)
+	good, bad, err := (fit.LossFit{P: pLoss, R: rRecover}).Dwell(interval)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -102,8 +103,8 @@ sensor_to_controller:
 		t.Errorf("impair probe printed no progress:\n%s", out)
 	}
 	fitted := filepath.Join(dir, "fitted.yaml")
-	fit := exec.Command(bin, "fit", traceFile, "--one-way", "--out", fitted, "--loop", loopFile)
-	out, err := fit.CombinedOutput()
+	fitCmd := exec.Command(bin, "fit", traceFile, "--one-way", "--out", fitted, "--loop", loopFile)
+	out, err := fitCmd.CombinedOutput()
 	if err != nil {
 		t.Fatalf("impair fit: %v\n%s", err, out)
 	}
@@ -136,7 +137,7 @@ sensor_to_controller:
 	}
 	noise := stackNoise(t, record, delays, lost)
 	t.Logf("measured minus drawn one-way delay (loopback stack, scheduling): %s", noise)
-	fits, err := estimate.FitDelays(kept)
+	fits, err := fit.Delays(kept)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -155,12 +156,12 @@ sensor_to_controller:
 			}
 		}
 	}
-	lf, err := estimate.FitLoss(lost)
+	lf, err := fit.Loss(lost)
 	if err != nil {
 		t.Fatal(err)
 	}
 	// The relay's chain is in continuous time; sampled every interval it
-	// gives back pLoss, rRecover exactly (estimate.GilbertStep).
+	// gives back pLoss, rRecover exactly (fit.GilbertStep).
 	if math.Abs(lf.P-pLoss) > fitSE*lf.PSE || math.Abs(lf.R-rRecover) > fitSE*lf.RSE {
 		t.Errorf("loss p = %.4g ± %.2g, r = %.4g ± %.2g; configured %g, %g", lf.P, lf.PSE, lf.R, lf.RSE, pLoss, rRecover)
 	}

@@ -12,6 +12,7 @@ import (
 
 	"rigwire/cmd/internal/exitcode"
 	"rigwire/estimate"
+	"rigwire/estimate/fit"
 	"rigwire/profiles"
 	"rigwire/profiles/trace"
 )
@@ -123,8 +124,8 @@ type fitResult struct {
 	column   string
 	what     string // what the delays are
 	interval float64
-	delays   []estimate.DelayFit
-	loss     estimate.LossFit
+	delays   []fit.DelayFit
+	loss     fit.LossFit
 	dwellOK  bool
 	good     float64 // mean dwells of the burst channel, seconds
 	bad      float64
@@ -159,13 +160,13 @@ func fitTrace(tr *trace.Trace, f fitFlags) (*fitResult, error) {
 			kept = append(kept, scale*delays[i])
 		}
 	}
-	if len(kept) < estimate.MinFitSamples {
-		return nil, badInput(fmt.Errorf("%s: %d delivered probes, want at least %d to fit delays", tr.File, len(kept), estimate.MinFitSamples))
+	if len(kept) < fit.MinFitSamples {
+		return nil, badInput(fmt.Errorf("%s: %d delivered probes, want at least %d to fit delays", tr.File, len(kept), fit.MinFitSamples))
 	}
-	if r.delays, err = estimate.FitDelays(kept); err != nil {
+	if r.delays, err = fit.Delays(kept); err != nil {
 		return nil, badInput(fmt.Errorf("%s: %w", tr.File, err))
 	}
-	if r.loss, err = estimate.FitLoss(lost); err != nil {
+	if r.loss, err = fit.Loss(lost); err != nil {
 		return nil, badInput(fmt.Errorf("%s: %w", tr.File, err))
 	}
 	r.interval = tr.ProbeInterval()
@@ -191,7 +192,7 @@ func num(x float64) string { return strconv.FormatFloat(x, 'g', 6, 64) }
 
 // delayYAML is a fitted law as a profile delay mapping (times in
 // seconds).
-func delayYAML(d estimate.DelayFit) string {
+func delayYAML(d fit.DelayFit) string {
 	var b strings.Builder
 	fmt.Fprintf(&b, "{kind: %s", d.Kind)
 	for i, n := range d.Names {
@@ -305,7 +306,7 @@ func printLoopPrediction(w io.Writer, path string, fitted *profiles.Profile) err
 	}
 	fl := *loop
 	fl.Profile = fitted
-	fit, err := estimate.Predict(&fl, estimate.PredictOptions{SkipMargin: true})
+	underFit, err := estimate.Predict(&fl, estimate.PredictOptions{SkipMargin: true})
 	if err != nil {
 		return badInput(fmt.Errorf("%s: predicting under the fitted profile: %w", path, err))
 	}
@@ -315,7 +316,7 @@ func printLoopPrediction(w io.Writer, path string, fitted *profiles.Profile) err
 	for _, x := range []struct {
 		name string
 		p    *estimate.Prediction
-	}{{"the loop's own", own}, {"fitted", fit}} {
+	}{{"the loop's own", own}, {"fitted", underFit}} {
 		m := "—"
 		if x.p.Error != nil {
 			m = num(x.p.Error.SecondMoment)

@@ -12,7 +12,7 @@ import (
 
 	"gonum.org/v1/gonum/stat/distuv"
 
-	"rigwire/estimate"
+	"rigwire/estimate/fit"
 	"rigwire/profiles"
 	"rigwire/profiles/trace"
 )
@@ -91,7 +91,7 @@ func TestFitCommand(t *testing.T) {
 			if len(prof.ControllerToActuator.States) != 1 || prof.ControllerToActuator.States[0].Loss != 0 {
 				t.Errorf("the other direction should be clean")
 			}
-			gp, gr := estimate.GilbertStep(ch.States[0].MeanDwell, ch.States[1].MeanDwell, h)
+			gp, gr := fit.GilbertStep(ch.States[0].MeanDwell, ch.States[1].MeanDwell, h)
 			lf := fitOfTrace(t, trace)
 			if math.Abs(gp-p) > seTol*lf.PSE || math.Abs(gr-r) > seTol*lf.RSE {
 				t.Errorf("the profile's dwells give p %.4g r %.4g per probe, want %g %g", gp, gr, p, r)
@@ -108,7 +108,7 @@ func TestFitCommand(t *testing.T) {
 	}
 }
 
-func fitOfTrace(t *testing.T, path string) estimate.LossFit {
+func fitOfTrace(t *testing.T, path string) fit.LossFit {
 	t.Helper()
 	tr, err := trace.LoadTrace(path)
 	if err != nil {
@@ -118,7 +118,7 @@ func fitOfTrace(t *testing.T, path string) estimate.LossFit {
 	if err != nil {
 		t.Fatal(err)
 	}
-	lf, err := estimate.FitLoss(lost)
+	lf, err := fit.Loss(lost)
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -50,7 +50,7 @@
 // below, inconclusive (too few samples or batches, batches short for the
 // loop's correlation time, or an interval too wide to have disagreed) or
 // unstable (the prediction is not certified stable). The interval is the
-// online estimator's log-scale batch-means interval (estimate.Online;
+// online estimator's log-scale batch-means interval (online.Estimator;
 // CIMethod). A phase passes, fails, is inconclusive, or is not run; its
 // bound check (max_second_moment) uses the same interval; see judgePhase.
 // After the safety trip fires no sample is estimated (the run's, the

@@ -8,6 +8,7 @@ import (
 	"time"
 
 	"rigwire/estimate"
+	"rigwire/estimate/online"
 	"rigwire/profiles"
 	"rigwire/profiles/datagram"
 )
@@ -58,10 +59,10 @@ type Monitor struct {
 	windows []time.Duration
 
 	mu sync.Mutex // guards the fields below
-	on *estimate.Online
+	on *online.Estimator
 	y  []float64
 	// seq classifies the sequence numbers (when the decode has them).
-	seq       estimate.SeqTracker
+	seq       online.SeqTracker
 	datagrams int64
 	// source, when valid, is the only sender Serve feeds (SetSource);
 	// strangers counts the datagrams from anyone else, by index in
@@ -150,7 +151,7 @@ func New(loop *profiles.Loop, pred *estimate.Prediction, opts Options) (*Monitor
 		}
 		counts = append(counts, n)
 	}
-	on, err := estimate.NewOnline(estimate.OnlineOptions{Setpoint: loop.Setpoint, Windows: counts, Level: opts.Level})
+	on, err := online.New(online.Options{Setpoint: loop.Setpoint, Windows: counts, Level: opts.Level})
 	if err != nil {
 		return nil, err
 	}
@@ -221,7 +222,7 @@ func (m *Monitor) feed(payload []byte, at time.Time) (*TripEvent, func(TripEvent
 	}
 	if hasSeq {
 		switch m.seq.Observe(seq) {
-		case estimate.SeqDuplicate, estimate.SeqStale:
+		case online.SeqDuplicate, online.SeqStale:
 			return nil, nil
 		}
 	}

@@ -17,6 +17,7 @@ import (
 
 	"rigwire/emulate"
 	"rigwire/estimate"
+	"rigwire/estimate/online"
 	"rigwire/profiles"
 )
 
@@ -108,21 +109,21 @@ func TestVerdict(t *testing.T) {
 	// x̄ = 1.4 on [0.75, 2.6]: 20 batches, independent; widened by 0.1
 	// it reaches below x̄/2 = 0.7, too wide to confirm.
 	// 50 effective samples per batch; x's standard deviation 2, t 2.09.
-	st := estimate.OnlineStats{Samples: 1000, Batches: 20, SecondMoment: 1.4, CILow: 0.75, CIHigh: 2.6,
+	st := online.Stats{Samples: 1000, Batches: 20, SecondMoment: 1.4, CILow: 0.75, CIHigh: 2.6,
 		BatchCorrelation: 0.05, BatchCorrelationZ: 0.2, EffectiveSamples: 1000, XStd: 2, T: 2.09}
-	with := func(f func(*estimate.OnlineStats)) estimate.OnlineStats { c := st; f(&c); return c }
+	with := func(f func(*online.Stats)) online.Stats { c := st; f(&c); return c }
 	// Correlated batch means, lag-1 0.6, on [1, 2]: judged against the
 	// worst case 1.4·exp(±2.09·2/1.4) = [0.0707, 27.72].
-	corr := with(func(c *estimate.OnlineStats) {
+	corr := with(func(c *online.Stats) {
 		c.CILow, c.CIHigh, c.BatchCorrelation, c.BatchCorrelationZ = 1, 2, 0.6, 3
 	})
 	// Batches spanning 2.5 effective samples each: short too.
-	few := with(func(c *estimate.OnlineStats) { c.CILow, c.CIHigh, c.EffectiveSamples = 1.2, 1.6, 50 })
+	few := with(func(c *online.Stats) { c.CILow, c.CIHigh, c.EffectiveSamples = 1.2, 1.6, 50 })
 	// Narrow enough to confirm: [1.2, 1.6] around 1.4.
-	narrow := with(func(c *estimate.OnlineStats) { c.CILow, c.CIHigh = 1.2, 1.6 })
+	narrow := with(func(c *online.Stats) { c.CILow, c.CIHigh = 1.2, 1.6 })
 	cases := []struct {
 		name      string
-		st        estimate.OnlineStats
+		st        online.Stats
 		pred      float64
 		tol       float64
 		notStable string
@@ -132,16 +133,16 @@ func TestVerdict(t *testing.T) {
 		{"inside, narrow", narrow, 1.5, 0.1, "", VerdictAgree, "inside the measured interval [1.2, 1.6] widened by 0.1"},
 		{"inside, narrow, at the widened edge", narrow, 1.08, 0.1, "", VerdictAgree, "inside"},
 		{"inside, reaching x̄/2 once widened", st, 1.5, 0.1, "", VerdictInconclusive, "too wide to confirm"},
-		{"inside, reaching 2·x̄ once widened", with(func(c *estimate.OnlineStats) { c.CILow = 1 }), 1.5, 0.1, "", VerdictInconclusive, "too wide to confirm"},
+		{"inside, reaching 2·x̄ once widened", with(func(c *online.Stats) { c.CILow = 1 }), 1.5, 0.1, "", VerdictInconclusive, "too wide to confirm"},
 		{"narrow, but a tolerance of 0.5", narrow, 1.3, 0.5, "", VerdictInconclusive, "too wide to confirm"},
 		{"below the interval: measured above", narrow, 1.15, 0, "", VerdictAbove, "prediction 1.15 below the measured interval [1.2, 1.6] widened by 0: measured above"},
 		{"below the widened interval, wide", st, 0.67, 0.1, "", VerdictAbove, "measured above"},
 		{"above the widened interval, wide: measured below", st, 2.9, 0.1, "", VerdictBelow, "measured below"},
-		{"too few samples", with(func(c *estimate.OnlineStats) { c.Samples = 399 }), 1.5, 0.1, "", VerdictInconclusive,
+		{"too few samples", with(func(c *online.Stats) { c.Samples = 399 }), 1.5, 0.1, "", VerdictInconclusive,
 			"only 399 judged samples, want ≥ 400"},
-		{"too few batches", with(func(c *estimate.OnlineStats) { c.Batches = 9 }), 1.5, 0.1, "", VerdictInconclusive,
+		{"too few batches", with(func(c *online.Stats) { c.Batches = 9 }), 1.5, 0.1, "", VerdictInconclusive,
 			"only 9 complete batches, want ≥ 10"},
-		{"no interval", with(func(c *estimate.OnlineStats) { c.CILow, c.CIHigh = math.NaN(), math.NaN() }), 1, 0.1, "", VerdictInconclusive, "complete batches"},
+		{"no interval", with(func(c *online.Stats) { c.CILow, c.CIHigh = math.NaN(), math.NaN() }), 1, 0.1, "", VerdictInconclusive, "complete batches"},
 		{"correlated, inside the worst case", corr, 0.75, 0, "", VerdictInconclusive,
 			"batch means correlated: lag-1 0.60, z 3.00 > 2.33: batches of 0 samples are short"},
 		{"correlated, below the worst case", corr, 0.05, 0, "", VerdictAbove,
@@ -151,7 +152,7 @@ func TestVerdict(t *testing.T) {
 		{"few effective samples per batch, outside the batch interval only", few, 1.1, 0.1, "", VerdictInconclusive, "2.5 effective samples per batch"},
 		{"unstable prediction", st, math.NaN(), 0.1, "unstable", VerdictUnstable, "prediction unstable"},
 		{"marginal prediction", st, math.NaN(), 0.1, "marginal", VerdictUnstable, "prediction marginal"},
-		{"measured zero, predicted zero", with(func(c *estimate.OnlineStats) { c.SecondMoment, c.CILow, c.CIHigh = 0, 0, 0 }), 0, 0.1, "",
+		{"measured zero, predicted zero", with(func(c *online.Stats) { c.SecondMoment, c.CILow, c.CIHigh = 0, 0, 0 }), 0, 0.1, "",
 			VerdictInconclusive, "too wide"},
 	}
 	for _, c := range cases {

@@ -8,7 +8,7 @@ import (
 
 	"github.com/prometheus/client_golang/prometheus"
 
-	"rigwire/estimate"
+	"rigwire/estimate/online"
 	"rigwire/profiles/datagram"
 )
 
@@ -128,7 +128,7 @@ func (c *collector) Collect(ch chan<- prometheus.Metric) {
 	pr := m.predicted()
 	m.mu.Lock()
 	defer m.mu.Unlock()
-	emit := func(label string, st estimate.OnlineStats) {
+	emit := func(label string, st online.Stats) {
 		measured(d.second, st.SecondMoment, label)
 		measured(d.ciLow, st.CILow, label)
 		measured(d.ciHigh, st.CIHigh, label)

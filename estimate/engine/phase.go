@@ -8,6 +8,7 @@ import (
 	"time"
 
 	"rigwire/estimate"
+	"rigwire/estimate/online"
 	"rigwire/profiles"
 )
 
@@ -86,7 +87,7 @@ type phase struct {
 	ended     bool
 	judgeFrom time.Time // start + settle
 	check     profiles.Check
-	on        *estimate.Online
+	on        *online.Estimator
 	settleN   int64
 	// afterTripN counts the samples after the safety trip;
 	// startedAfterTrip is set when the trip had fired before the phase
@@ -144,7 +145,7 @@ func (m *Monitor) PlanPhases(names []string) {
 // monitor's prediction (Prediction).
 func (m *Monitor) StartPhase(index int, name string, pred *estimate.Prediction, settle time.Duration, check profiles.Check) {
 	// The estimator allocates: do it outside the lock.
-	on, err := estimate.NewOnline(estimate.OnlineOptions{Setpoint: m.loop.Setpoint, Level: m.opts.Level})
+	on, err := online.New(online.Options{Setpoint: m.loop.Setpoint, Level: m.opts.Level})
 	if err != nil {
 		panic(fmt.Sprintf("engine: phase estimator: %v", err)) // the run's own estimator was built with the same options
 	}
@@ -309,7 +310,7 @@ func (m *Monitor) result(p *phase) PhaseResult {
 //     its bound: the check asked for the bound only);
 //   - both: fail when either fails, else inconclusive when either is,
 //     else pass.
-func judgePhase(st estimate.OnlineStats, pr float64, notStable string, minSamples int, c profiles.Check) (verdict, reason, warning string) {
+func judgePhase(st online.Stats, pr float64, notStable string, minSamples int, c profiles.Check) (verdict, reason, warning string) {
 	if c.Tolerance == nil && c.MaxSecondMoment == nil {
 		return PhasePass, fmt.Sprintf("no criterion: not judged (%d samples)", st.Samples), ""
 	}
@@ -351,7 +352,7 @@ func judgePhase(st estimate.OnlineStats, pr float64, notStable string, minSample
 }
 
 // judgeBound is the verdict of a bound on E[eᵀe] (see judgePhase).
-func judgeBound(st estimate.OnlineStats, bound float64, minSamples int) (string, string) {
+func judgeBound(st online.Stats, bound float64, minSamples int) (string, string) {
 	if ok, why := enough(st, minSamples); !ok {
 		return PhaseInconclusive, why
 	}
@@ -373,7 +374,7 @@ func judgeBound(st estimate.OnlineStats, bound float64, minSamples int) (string,
 // lies outside the measured interval (not widened: the check has no
 // tolerance), "" when it lies inside, is missing, or the data are too few
 // to say.
-func outsideWarning(st estimate.OnlineStats, pr float64, minSamples int) string {
+func outsideWarning(st online.Stats, pr float64, minSamples int) string {
 	if math.IsNaN(pr) {
 		return ""
 	}

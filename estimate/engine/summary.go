@@ -7,6 +7,7 @@ import (
 	"time"
 
 	"rigwire/estimate"
+	"rigwire/estimate/online"
 	"rigwire/profiles/datagram"
 )
 
@@ -123,7 +124,7 @@ func predictedOf(pred *estimate.Prediction) float64 {
 }
 
 // runVerdict is the run's verdict on st (under the lock).
-func (m *Monitor) runVerdict(st estimate.OnlineStats) (string, string) {
+func (m *Monitor) runVerdict(st online.Stats) (string, string) {
 	return judgeInterval(st, m.predicted(), m.opts.Tolerance, stabilityOf(m.pred), m.opts.MinSamples)
 }
 

@@ -5,6 +5,7 @@ import (
 	"math"
 
 	"rigwire/estimate"
+	"rigwire/estimate/online"
 	"rigwire/profiles"
 )
 
@@ -39,13 +40,13 @@ const (
 	// about 10 periods (an AR(1) x with coefficient 0.8) keep a lag-1
 	// correlation under 0.15, from the AR(1) autocovariance of batch sums
 	// (common practice); slower loops need more, which the batch-length
-	// checks (estimate.OnlineStats.ShortBatches) report. It is the least
+	// checks (online.Stats.ShortBatches) report. It is the least
 	// data that can be judged at all, not a sufficient amount.
 	DefaultMinSamples = profiles.DefaultMinSamples
 	// MinVerdictBatches is the least number of complete batches behind a
-	// verdict's interval: estimate.MinMergedBatches (10), the fewest the
+	// verdict's interval: online.MinMergedBatches (10), the fewest the
 	// whole-run estimator reports after merging short batches.
-	MinVerdictBatches = estimate.MinMergedBatches
+	MinVerdictBatches = online.MinMergedBatches
 	// DiscriminationFactor: agreement needs an interval that would have
 	// shown a prediction off by this factor either way as disagreement:
 	// after widening by the tolerance, the interval must lie strictly
@@ -64,7 +65,7 @@ var VerdictRule = fmt.Sprintf("inconclusive when fewer than min_samples judged s
 	"or when the prediction lies inside the interval widened by the tolerance but that reaches x̄/%g or %g·x̄ "+
 	"(it could not have shown a prediction off by a factor of %g); above or below when the prediction lies outside the widened interval, "+
 	"however wide; agree otherwise",
-	DefaultMinSamples, MinVerdictBatches, estimate.BatchCorrelationZMax, estimate.MinEffectivePerBatch,
+	DefaultMinSamples, MinVerdictBatches, online.BatchCorrelationZMax, online.MinEffectivePerBatch,
 	DiscriminationFactor, DiscriminationFactor, DiscriminationFactor)
 
 // CIMethod names the interval's method in the summary.
@@ -74,24 +75,24 @@ const CIMethod = "non-overlapping batch means, 20-39 batches (10-19 when merged 
 
 // interval is the interval a verdict uses: the estimator's, or, when its
 // batches are short for the loop's correlation time
-// (estimate.OnlineStats.ShortBatches), the worst case
+// (online.Stats.ShortBatches), the worst case
 // x̄·exp(±t·s_x/x̄) with the same t quantile: the standard error of a mean
 // of stationary values is at most their standard deviation s_x, whatever
-// their correlation (see estimate.Online). short is set in that case.
-func interval(st estimate.OnlineStats) (lo, hi float64, short bool) {
+// their correlation (see online.Estimator). short is set in that case.
+func interval(st online.Stats) (lo, hi float64, short bool) {
 	if !st.ShortBatches() {
 		return st.CILow, st.CIHigh, false
 	}
 	if !(st.XStd > 0) {
 		return st.CILow, st.CIHigh, true
 	}
-	lo, hi = estimate.LogInterval(st.SecondMoment, st.XStd, st.T)
+	lo, hi = online.LogInterval(st.SecondMoment, st.XStd, st.T)
 	return lo, hi, true
 }
 
 // enough says whether st has the samples and batches a verdict needs, and
 // why not.
-func enough(st estimate.OnlineStats, minSamples int) (bool, string) {
+func enough(st online.Stats, minSamples int) (bool, string) {
 	switch {
 	case st.Samples < int64(minSamples):
 		return false, fmt.Sprintf("only %d judged samples, want ≥ %d", st.Samples, minSamples)
@@ -116,14 +117,14 @@ func enough(st estimate.OnlineStats, minSamples int) (bool, string) {
 //  3. the prediction below lo·(1−tol): above; above hi·(1+tol): below —
 //     a wide interval that excludes the prediction is still evidence.
 //     When the batches are short for the loop's correlation time
-//     (estimate.OnlineStats.ShortBatches), [lo, hi] is the worst-case
+//     (online.Stats.ShortBatches), [lo, hi] is the worst-case
 //     interval (see interval), so only a gross disagreement counts;
 //  4. short batches and the prediction inside: inconclusive;
 //  5. the prediction inside, but lo·(1−tol) ≤ x̄/DiscriminationFactor or
 //     hi·(1+tol) ≥ DiscriminationFactor·x̄: inconclusive (the interval
 //     could not have disagreed);
 //  6. otherwise agree.
-func judgeInterval(st estimate.OnlineStats, pr, tol float64, notStable string, minSamples int) (verdict, reason string) {
+func judgeInterval(st online.Stats, pr, tol float64, notStable string, minSamples int) (verdict, reason string) {
 	if notStable != "" {
 		return VerdictUnstable, fmt.Sprintf("prediction %s: no E[eᵀe] to compare with", notStable)
 	}
@@ -152,11 +153,11 @@ func judgeInterval(st estimate.OnlineStats, pr, tol float64, notStable string, m
 }
 
 // shortWhy says why st's batches are short.
-func shortWhy(st estimate.OnlineStats) string {
-	if st.BatchCorrelationZ > estimate.BatchCorrelationZMax {
-		return fmt.Sprintf("batch means correlated: lag-1 %.2f, z %.2f > %.2f", st.BatchCorrelation, st.BatchCorrelationZ, estimate.BatchCorrelationZMax)
+func shortWhy(st online.Stats) string {
+	if st.BatchCorrelationZ > online.BatchCorrelationZMax {
+		return fmt.Sprintf("batch means correlated: lag-1 %.2f, z %.2f > %.2f", st.BatchCorrelation, st.BatchCorrelationZ, online.BatchCorrelationZMax)
 	}
-	return fmt.Sprintf("%.1f effective samples per batch, want ≥ %g", st.EffectiveSamples/float64(st.Batches), estimate.MinEffectivePerBatch)
+	return fmt.Sprintf("%.1f effective samples per batch, want ≥ %g", st.EffectiveSamples/float64(st.Batches), online.MinEffectivePerBatch)
 }
 
 // stabilityOf is "" for a prediction certified mean-square stable (with

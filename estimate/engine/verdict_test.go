@@ -3,9 +3,8 @@ package engine
 import (
 	"math"
 	"math/rand/v2"
+	"rigwire/estimate/online"
 	"testing"
-
-	"rigwire/estimate"
 )
 
 // ar1 fills es with a scalar Gaussian AR(1) error e_k = φ e_{k−1} +
@@ -97,7 +96,7 @@ func TestVerdictRates(t *testing.T) {
 			counts := map[string]int{}
 			for range runs {
 				ar1(rng, es, c.phi, sigma)
-				on, err := estimate.NewOnline(estimate.OnlineOptions{Setpoint: []float64{0}})
+				on, err := online.New(online.Options{Setpoint: []float64{0}})
 				if err != nil {
 					t.Fatal(err)
 				}

@@ -630,7 +630,7 @@ func TestPaletteIsOurs(t *testing.T) {
 		banned = append(banned, "#"+parts[0]+parts[1]+parts[2])
 		banned = append(banned, fmt.Sprintf("r: 0x%s, g: 0x%s, b: 0x%s", parts[0], parts[1], parts[2]))
 	}
-	root, err := filepath.Abs(filepath.Join("..", "..", ".."))
+	root, err := filepath.Abs(filepath.Join("..", ".."))
 	if err != nil {
 		t.Fatal(err)
 	}

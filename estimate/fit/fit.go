@@ -1,4 +1,4 @@
-package estimate
+package fit
 
 import (
 	"errors"
@@ -49,17 +49,17 @@ func (f *DelayFit) Param(name string) (est, se float64, ok bool) {
 	return math.NaN(), math.NaN(), false
 }
 
-// FitKinds are the delay kinds FitDelays tries, in the order it reports
+// Kinds are the delay kinds Delays tries, in the order it reports
 // ties.
-var FitKinds = []string{"exponential", "gamma", "lognormal", "weibull", "normal"}
+var Kinds = []string{"exponential", "gamma", "lognormal", "weibull", "normal"}
 
 // ErrFewSamples is returned when a sample is too small to fit.
 var ErrFewSamples = errors.New("too few samples")
 
-// MinFitSamples is the smallest sample FitDelays accepts.
+// MinFitSamples is the smallest sample Delays accepts.
 const MinFitSamples = 10
 
-// FitDelays fits every kind of FitKinds to the delays xs (seconds) by
+// Delays fits every kind of Kinds to the delays xs (seconds) by
 // maximum likelihood and returns the fits in increasing order of AIC
 // (Akaike's information criterion, AIC = 2K − 2 ln L̂: H. Akaike, "A new
 // look at the statistical model identification", IEEE TAC 19(6), 1974),
@@ -93,7 +93,7 @@ const MinFitSamples = 10
 // the estimate; when the shift sits at an end of its range it is left out
 // of the Hessian (its standard error is NaN; the others are conditional
 // on it).
-func FitDelays(xs []float64) ([]DelayFit, error) {
+func Delays(xs []float64) ([]DelayFit, error) {
 	if len(xs) < MinFitSamples {
 		return nil, fmt.Errorf("fitting delays: %w: want at least %d, got %d", ErrFewSamples, MinFitSamples, len(xs))
 	}
@@ -106,7 +106,7 @@ func FitDelays(xs []float64) ([]DelayFit, error) {
 		return nil, fmt.Errorf("fitting delays: all %d delays equal (%g s): a constant, nothing to fit", len(xs), sorted[0])
 	}
 	var fits []DelayFit
-	for _, kind := range FitKinds {
+	for _, kind := range Kinds {
 		f, err := fitKind(kind, sorted)
 		if err != nil {
 			continue // a kind that cannot describe the sample is not a candidate

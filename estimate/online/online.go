@@ -1,4 +1,4 @@
-package estimate
+package online
 
 import (
 	"fmt"
@@ -7,7 +7,7 @@ import (
 	"gonum.org/v1/gonum/stat/distuv"
 )
 
-// Online estimates the tracking error's moments from a stream of samples,
+// Estimator estimates the tracking error's moments from a stream of samples,
 // as the monitor measures a running loop: e_k = r − y_k for each sample,
 // x_k = e_kᵀe_k, over the whole run and over sliding windows of the most
 // recent samples. Its memory is fixed at construction whatever the length
@@ -126,7 +126,7 @@ import (
 // complete ones that fit in W with it (between W − b and W samples once
 // full), its interval is the log-scale batch-means interval over those K'
 // complete batches with t_{K'−1}, so it needs b ≫ the correlation time.
-type Online struct {
+type Estimator struct {
 	r     []float64
 	e     []float64
 	level float64
@@ -151,8 +151,8 @@ type Online struct {
 	diffs, msum, mref []float64
 }
 
-// OnlineOptions configures an Online estimator.
-type OnlineOptions struct {
+// Options configures an Estimator.
+type Options struct {
 	// Setpoint is r; its length is the number of outputs p.
 	Setpoint []float64
 	// Windows are the sliding window lengths, in samples (each ≥ 2).
@@ -164,8 +164,8 @@ type OnlineOptions struct {
 	MinBatches int
 }
 
-// OnlineStats are the estimates over the whole run or one window.
-type OnlineStats struct {
+// Stats are the estimates over the whole run or one window.
+type Stats struct {
 	// Samples is the number of samples the estimates cover.
 	Samples int64
 	// Mean is ē, one entry per output.
@@ -212,17 +212,17 @@ type OnlineStats struct {
 // MinEffectivePerBatch correlation times (EffectiveSamples below
 // MinEffectivePerBatch·Batches). NaN values (too few batches, equal
 // values) fail neither check.
-func (st OnlineStats) ShortBatches() bool {
+func (st Stats) ShortBatches() bool {
 	return st.BatchCorrelationZ > BatchCorrelationZMax || st.EffectiveSamples < MinEffectivePerBatch*float64(st.Batches)
 }
 
 // MinEffectivePerBatch is the least number of correlation times a batch
-// must span: n_eff/k ≥ 3 (see Online).
+// must span: n_eff/k ≥ 3 (see Estimator).
 const MinEffectivePerBatch = 3.0
 
 // BatchCorrelationZMax is the one-sided 1 % point of the standard normal
 // law, Φ⁻¹(0.99): a batch-correlation z-score above it rejects
-// independent batch means at the 1 % level (see Online).
+// independent batch means at the 1 % level (see Estimator).
 const BatchCorrelationZMax = 2.3263478740408408
 
 // MinMergedBatches is the least number of batches the whole-run interval
@@ -258,8 +258,8 @@ const equalWithinRounding = 1e-12
 // windowBatches is K, the number of batches a window is cut into.
 const windowBatches = 30
 
-// NewOnline returns an estimator for len(opts.Setpoint) outputs.
-func NewOnline(opts OnlineOptions) (*Online, error) {
+// New returns an estimator for len(opts.Setpoint) outputs.
+func New(opts Options) (*Estimator, error) {
 	p := len(opts.Setpoint)
 	if p == 0 {
 		return nil, fmt.Errorf("setpoint: want at least one output")
@@ -276,7 +276,7 @@ func NewOnline(opts OnlineOptions) (*Online, error) {
 	if opts.MinBatches < 2 {
 		return nil, fmt.Errorf("min batches: want at least 2, got %d", opts.MinBatches)
 	}
-	o := &Online{
+	o := &Estimator{
 		r: append([]float64(nil), opts.Setpoint...), e: make([]float64, p), level: opts.Level,
 		sumE: make([]float64, p), minBatches: opts.MinBatches, batchSize: 1,
 		batches: make([]float64, 0, 2*opts.MinBatches), refs: make([]float64, 0, 2*opts.MinBatches),
@@ -302,10 +302,10 @@ func NewOnline(opts OnlineOptions) (*Online, error) {
 }
 
 // Outputs is p, the number of outputs.
-func (o *Online) Outputs() int { return len(o.r) }
+func (o *Estimator) Outputs() int { return len(o.r) }
 
 // Windows returns the window lengths in samples.
-func (o *Online) Windows() []int {
+func (o *Estimator) Windows() []int {
 	out := make([]int, len(o.windows))
 	for i, w := range o.windows {
 		out[i] = w.length
@@ -314,7 +314,7 @@ func (o *Online) Windows() []int {
 }
 
 // Add takes one sample y (p outputs): e = r − y.
-func (o *Online) Add(y []float64) {
+func (o *Estimator) Add(y []float64) {
 	for i := range o.e {
 		o.e[i] = o.r[i] - y[i]
 	}
@@ -322,14 +322,14 @@ func (o *Online) Add(y []float64) {
 }
 
 // AddError takes one error sample e directly.
-func (o *Online) AddError(e []float64) { o.AddErrorRef(e, 0) }
+func (o *Estimator) AddError(e []float64) { o.AddErrorRef(e, 0) }
 
 // AddErrorRef takes one error sample e with a reference value ref for
 // its eᵀe (the predicted E[eᵀe] in force): the batch-correlation test
 // runs on the batch means less the mean of ref over each batch, so that a
 // trend the reference follows is not counted as correlation. ref must be
 // finite; it changes no estimate or interval.
-func (o *Online) AddErrorRef(e []float64, ref float64) {
+func (o *Estimator) AddErrorRef(e []float64, ref float64) {
 	x := 0.0
 	for i, v := range e {
 		x += v * v
@@ -389,9 +389,9 @@ func (w *window) add(e []float64, x, ref float64) {
 func (w *window) slot(i int) int { return ((w.head-1-i)%w.k + w.k) % w.k }
 
 // Samples is the number of samples taken so far.
-func (o *Online) Samples() int64 { return o.n }
+func (o *Estimator) Samples() int64 { return o.n }
 
-func (o *Online) quantile(df int) float64 {
+func (o *Estimator) quantile(df int) float64 {
 	if q, ok := o.tq[df]; ok {
 		return q
 	}
@@ -400,7 +400,7 @@ func (o *Online) quantile(df int) float64 {
 
 // LogInterval is the log-scale interval [x̄·e^{−w}, x̄·e^{+w}],
 // w = t·se/x̄, of a positive mean x̄ with standard error se and Student
-// quantile t (see Online): [x̄, x̄] when se is 0, NaN bounds when x̄ is
+// quantile t (see Estimator): [x̄, x̄] when se is 0, NaN bounds when x̄ is
 // not positive and se is, or when an input is NaN.
 func LogInterval(mean, se, t float64) (lo, hi float64) {
 	switch {
@@ -447,8 +447,8 @@ func serialCorrelation(d []float64, scale float64) (c, z float64) {
 
 // Run returns the estimates over the whole run. The mean is written into
 // mean when it has p entries (no allocation), else into a new slice.
-func (o *Online) Run(mean []float64) OnlineStats {
-	st := OnlineStats{Samples: o.n, Mean: o.meanSlice(mean), BatchSize: o.batchSize, Batches: len(o.batches)}
+func (o *Estimator) Run(mean []float64) Stats {
+	st := Stats{Samples: o.n, Mean: o.meanSlice(mean), BatchSize: o.batchSize, Batches: len(o.batches)}
 	nan := math.NaN()
 	st.CILow, st.CIHigh, st.EffectiveSamples, st.XStd, st.T = nan, nan, nan, nan, nan
 	st.BatchCorrelation, st.BatchCorrelationZ = nan, nan
@@ -494,7 +494,7 @@ func (o *Online) Run(mean []float64) OnlineStats {
 // batchStats sets st's interval, effective samples and batch correlation
 // from complete batches of b samples with x sums sums and reference sums
 // refs (oldest first), and varX, the sample variance of x.
-func (o *Online) batchStats(st *OnlineStats, sums, refs []float64, b, varX float64) {
+func (o *Estimator) batchStats(st *Stats, sums, refs []float64, b, varX float64) {
 	k := len(sums)
 	mb := 0.0
 	for _, s := range sums {
@@ -535,7 +535,7 @@ func effective(varX, sb2, k float64) float64 {
 	return varX * k / sb2
 }
 
-func (o *Online) meanSlice(mean []float64) []float64 {
+func (o *Estimator) meanSlice(mean []float64) []float64 {
 	if len(mean) != len(o.r) {
 		mean = make([]float64, len(o.r))
 	}
@@ -543,11 +543,11 @@ func (o *Online) meanSlice(mean []float64) []float64 {
 }
 
 // Window returns the estimates over window i (in the order of
-// OnlineOptions.Windows); mean as for Run.
-func (o *Online) Window(i int, mean []float64) OnlineStats {
+// Options.Windows); mean as for Run.
+func (o *Estimator) Window(i int, mean []float64) Stats {
 	w := &o.windows[i]
 	p := len(o.r)
-	st := OnlineStats{Mean: o.meanSlice(mean), BatchSize: w.b, Batches: w.filled}
+	st := Stats{Mean: o.meanSlice(mean), BatchSize: w.b, Batches: w.filled}
 	nan := math.NaN()
 	st.CILow, st.CIHigh, st.EffectiveSamples, st.XStd, st.T = nan, nan, nan, nan, nan
 	st.BatchCorrelation, st.BatchCorrelationZ = nan, nan

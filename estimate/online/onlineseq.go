@@ -1,4 +1,4 @@
-package estimate
+package online
 
 // SeqTracker classifies samples by their sequence numbers, to count the
 // samples a monitor never saw (gaps) without counting any twice. It

@@ -1,4 +1,4 @@
-package estimate
+package fit
 
 import (
 	"math"
@@ -58,7 +58,7 @@ func TestFitDelaysRecovers(t *testing.T) {
 			for j := range xs {
 				xs[j] = c.shift + draw()
 			}
-			fits, err := FitDelays(xs)
+			fits, err := Delays(xs)
 			if err != nil {
 				t.Fatal(err)
 			}
@@ -113,7 +113,7 @@ func TestFitDelaysExponentialShift(t *testing.T) {
 	for i := range xs {
 		xs[i] = shift + d.Rand()
 	}
-	fits, err := FitDelays(xs)
+	fits, err := Delays(xs)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -139,7 +139,7 @@ func TestFitDelaysRejects(t *testing.T) {
 	}
 	for _, c := range cases {
 		t.Run(c.name, func(t *testing.T) {
-			if _, err := FitDelays(c.xs); err == nil {
+			if _, err := Delays(c.xs); err == nil {
 				t.Error("want an error")
 			}
 		})
@@ -174,7 +174,7 @@ func TestFitLossRecoversGilbert(t *testing.T) {
 				}
 				lost[j] = bad
 			}
-			f, err := FitLoss(lost)
+			f, err := Loss(lost)
 			if err != nil {
 				t.Fatal(err)
 			}

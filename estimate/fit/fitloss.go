@@ -1,4 +1,4 @@
-package estimate
+package fit
 
 import (
 	"fmt"
@@ -37,9 +37,9 @@ type LossFit struct {
 	Runs, Transitions int     // loss runs seen; n₀₁ + n₁₀
 }
 
-// FitLoss fits both models to lost (true: the probe was lost), in sending
+// Loss fits both models to lost (true: the probe was lost), in sending
 // order. It needs at least two fates.
-func FitLoss(lost []bool) (LossFit, error) {
+func Loss(lost []bool) (LossFit, error) {
 	n := len(lost)
 	if n < 2 {
 		return LossFit{}, fmt.Errorf("fitting losses: %w: want at least 2 probes, got %d", ErrFewSamples, n)
