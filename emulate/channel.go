@@ -9,7 +9,7 @@ import (
 // chain steps one direction's Markov-modulated channel in continuous time:
 // it stays in a state for an exponentially distributed dwell with the
 // state's mean, then jumps to another state with the state's jump
-// probabilities (docs/model.md §2). Time is in nanoseconds on the relay's clock.
+// probabilities (estimate/model.md §2). Time is in nanoseconds on the relay's clock.
 //
 // The path of the chain is drawn from its own source, apart from the
 // per-datagram draws, so that with a given seed the state at any instant is

@@ -68,7 +68,7 @@ func BenchmarkPredictLarge(b *testing.B) {
 // BenchmarkPredictExamples reports the prediction time of every shipped
 // and test loop file (the issue's bar: each under 1 s).
 func BenchmarkPredictExamples(b *testing.B) {
-	for _, pat := range []string{"../cmd/monitor/examples/*.yaml", "../tests/examples/*.yaml"} {
+	for _, pat := range []string{"../profiles/examples/loops/*.yaml", "../profiles/examples/checks/*.yaml"} {
 		for _, f := range exampleLoops(pat) {
 			l, err := profiles.LoadLoop(f)
 			if err != nil {
@@ -88,7 +88,7 @@ func BenchmarkPredictExamples(b *testing.B) {
 // TestExampleLoopsPredict checks that every shipped and test loop loads
 // and predicts (times are the benchmark's business).
 func TestExampleLoopsPredict(t *testing.T) {
-	for _, pat := range []string{"../cmd/monitor/examples/*.yaml", "../tests/examples/*.yaml"} {
+	for _, pat := range []string{"../profiles/examples/loops/*.yaml", "../profiles/examples/checks/*.yaml"} {
 		files := exampleLoops(pat)
 		if len(files) == 0 {
 			t.Errorf("no loops in %s", pat)

@@ -9,14 +9,14 @@ import (
 
 // Closed-form stability thresholds for a scalar plant with sampled pole
 // a > 1, the deadbeat gain, no delay and i.i.d. loss ℓ of the sensor's
-// samples (docs/model.md §12).
+// samples (estimate/model.md §12).
 //
 // Zero input on loss (Schenato, Sinopoli, Franceschetti, Poolla, Sastry,
 // "Foundations of control and estimation over lossy networks", Proc. IEEE
 // 95(1), 2007): x' = a x when the packet is lost, 0 when it arrives, so
 // E[x'²] = ℓ a² E[x²] and the loop is mean-square stable iff ℓ < 1/a².
 //
-// Held input (our actuator, docs/model.md §1), renewal argument written out
+// Held input (our actuator, estimate/model.md §1), renewal argument written out
 // here. A delivery at k sets x_{k+1} = 0 and holds u_k = −(a/Γ) x_k. After
 // i further losses, x_{k+1+i} = a x_{k+i} + Γ u_k = −x_k (a + a² + … + aⁱ).
 // So the state at the next delivery, after L losses (P(L = i) = ℓⁱ(1−ℓ)),
@@ -31,13 +31,13 @@ import (
 // ℓ < 1/(a(2a+1)). That is below 1/a², so the states between deliveries
 // (geometric sums of aⁱ weighted by ℓⁱ) stay bounded too.
 //
-// With the extra loss q of docs/model.md §8 on both directions, a static
+// With the extra loss q of estimate/model.md §8 on both directions, a static
 // controller makes a lost command the same as a lost sample, so the
 // delivery probability is (1−q)² and the margin solves 1 − (1−q)² = ℓ*.
 
 const (
 	thresholdRelStep = 1e-3 // probe ℓ* (1 ± this) for the sign of ρ − 1
-	marginTol        = 1e-4 // docs/model.md §8: the loss margin to 1e-4
+	marginTol        = 1e-4 // estimate/model.md §8: the loss margin to 1e-4
 )
 
 func TestScalarDeadbeatThresholds(t *testing.T) {
@@ -48,9 +48,9 @@ func TestScalarDeadbeatThresholds(t *testing.T) {
 		threshold float64 // critical i.i.d. loss ℓ*
 		source    string
 	}{
-		{"hold a=1.5", 1.5, profiles.HoldLast, 1 / (1.5 * 4), "renewal argument above (docs/model.md §12)"},
-		{"hold a=2", 2, profiles.HoldLast, 1.0 / 10, "renewal argument above (docs/model.md §12)"},
-		{"hold a=1.1", 1.1, profiles.HoldLast, 1 / (1.1 * 3.2), "renewal argument above (docs/model.md §12)"},
+		{"hold a=1.5", 1.5, profiles.HoldLast, 1 / (1.5 * 4), "renewal argument above (estimate/model.md §12)"},
+		{"hold a=2", 2, profiles.HoldLast, 1.0 / 10, "renewal argument above (estimate/model.md §12)"},
+		{"hold a=1.1", 1.1, profiles.HoldLast, 1 / (1.1 * 3.2), "renewal argument above (estimate/model.md §12)"},
 		{"zero a=1.5", 1.5, profiles.ZeroUnlessFresh, 1 / 2.25, "Schenato et al. 2007: 1/a²"},
 		{"zero a=2", 2, profiles.ZeroUnlessFresh, 0.25, "Schenato et al. 2007: 1/a²"},
 		{"zero a=3", 3, profiles.ZeroUnlessFresh, 1.0 / 9, "Schenato et al. 2007: 1/a²"},

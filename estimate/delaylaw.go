@@ -37,7 +37,7 @@ const (
 	massAbsTol = 1e-14
 )
 
-// tauRule (docs/model.md §5) returns a quadrature rule for the defective law of the total
+// tauRule (estimate/model.md §5) returns a quadrature rule for the defective law of the total
 // delay τ = τsc + τca + c on the event {τsc < h, τ < h} (mode m2): nodes
 // τ_k in [c, h] and weights w_k with
 //

@@ -210,7 +210,7 @@ func TestTauRuleManyAtoms(t *testing.T) {
 	}
 }
 
-// TestStaleAndLateAtTheBoundary checks docs/model.md §10: a delay of exactly h
+// TestStaleAndLateAtTheBoundary checks estimate/model.md §10: a delay of exactly h
 // is stale (sensor) or late (command).
 func TestStaleAndLateAtTheBoundary(t *testing.T) {
 	const h = 10 * ms

@@ -5,7 +5,7 @@ import (
 )
 
 // Sampled is the zero-order-hold sampling of dx = (A x + B u) dt + dw,
-// E[dw dwᵀ] = W dt, over one period h (docs/model.md §3):
+// E[dw dwᵀ] = W dt, over one period h (estimate/model.md §3):
 //
 //	Φ = e^{Ah},  Γ = ∫₀ʰ e^{As} ds B,  W_d = ∫₀ʰ e^{As} W e^{Aᵀs} ds.
 type Sampled struct {
@@ -80,7 +80,7 @@ func zohPair(a, b *mat.Dense, t float64) (phi, gamma *mat.Dense) {
 // Split returns the two parts of Γ for an input that changes at τ into the
 // period (0 ≤ τ ≤ h): the new input acts over the last h − τ, the old one
 // over the first τ (Åström–Wittenmark, Computer-Controlled Systems, 3rd
-// ed., §2.3, sampling with a fractional input delay; docs/model.md §3):
+// ed., §2.3, sampling with a fractional input delay; estimate/model.md §3):
 //
 //	Γ0(τ) = ∫₀^{h−τ} e^{As} ds B,   Γ1(τ) = e^{A(h−τ)} ∫₀^τ e^{As} ds B = Γ − Γ0(τ).
 //

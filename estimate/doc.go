@@ -6,8 +6,8 @@
 // of the monitor and the goodness-of-fit statistics used to fit and check
 // profiles (ks.go).
 //
-// The model is described in docs/model.md, whose numbered sections the
-// code cites as "docs/model.md §N":
+// The model is described in estimate/model.md, whose numbered sections the
+// code cites as "estimate/model.md §N":
 //
 //   - §1 the rig and its timing: a continuous plant dx = (A x + B u) dt +
 //     dw, E[dw dwᵀ] = W dt, sampled every h with noise of covariance V;

@@ -16,7 +16,7 @@ import (
 // written out by hand.
 func TestPredictTraceDirection(t *testing.T) {
 	const relTol = 1e-12 // the same computation on the same numbers
-	loop, err := profiles.LoadLoop("../cmd/monitor/examples/conveyor.yaml")
+	loop, err := profiles.LoadLoop("../profiles/examples/loops/conveyor.yaml")
 	if err != nil {
 		t.Fatal(err)
 	}

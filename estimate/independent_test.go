@@ -13,7 +13,7 @@ import (
 )
 
 // TestAgainstIndependentOctave compares the prediction with an
-// independent implementation of docs/model.md §3–§4 in GNU Octave
+// independent implementation of estimate/model.md §3–§4 in GNU Octave
 // (tests/reference/jump_moments.m; command in its header): vec/kron
 // operators, c2d for Γ0(τ), Octave's adaptive integral of the trapezoid
 // density of the sum of two uniform delays, the Gilbert–Elliott chain by

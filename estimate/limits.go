@@ -10,7 +10,7 @@ import (
 	"rigwire/profiles"
 )
 
-// MaxOperatorSide (docs/model.md §11) is the largest second-moment operator the prediction
+// MaxOperatorSide (estimate/model.md §11) is the largest second-moment operator the prediction
 // builds: N·nz(nz+1)/2, for nz loop states (plant states, held inputs and
 // controller states) and N joint network states (the product of the two
 // directions' state counts). The operator is a dense square matrix of

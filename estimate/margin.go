@@ -2,16 +2,16 @@ package estimate
 
 import "math"
 
-// Loss-margin search parameters (docs/model.md §8, §10).
+// Loss-margin search parameters (estimate/model.md §8, §10).
 const (
 	marginScanStep  = 0.01 // grid step of the scan over q
 	marginTolerance = 1e-4 // bisection stops when the bracket is this narrow
 )
 
 // LossMargin returns the smallest extra loss q ∈ [0, 1] at which the loop
-// is no longer mean-square stable (docs/model.md §8), 1 when it stays stable
+// is no longer mean-square stable (estimate/model.md §8), 1 when it stays stable
 // for every q < 1, 0 when it is not stable as it is. ρ(q) need not be
-// monotone (docs/model.md §10), so q is scanned on a grid of step 0.01 from 0
+// monotone (estimate/model.md §10), so q is scanned on a grid of step 0.01 from 0
 // and the first grid interval where stability is lost is bisected to
 // 1e-4; the value returned is the bracket's upper end (unstable side).
 // "Stable" is the certified verdict of MeanSquareStable: a q at which
@@ -44,7 +44,7 @@ func (md *Model) LossMarginProgress(progress func(q float64)) float64 {
 			progress(q)
 		}
 		if k == steps {
-			q = 1 - marginTolerance/2 // q = 1 itself never converges (docs/model.md §10)
+			q = 1 - marginTolerance/2 // q = 1 itself never converges (estimate/model.md §10)
 		}
 		if stableAt(q) {
 			prev = q

@@ -13,7 +13,7 @@ import (
 
 // Options changes the network of a loop for a what-if prediction.
 type Options struct {
-	// ExtraLoss is the q of docs/model.md §8: every packet of both directions is
+	// ExtraLoss is the q of estimate/model.md §8: every packet of both directions is
 	// also dropped with probability q, independently (ps → ps + (1−ps)q,
 	// likewise pa). 0 leaves the profile as it is.
 	ExtraLoss float64
@@ -22,7 +22,7 @@ type Options struct {
 	DelayScale float64
 }
 
-// Model is a loop as a Markov jump linear system (docs/model.md §3–§4): the
+// Model is a loop as a Markov jump linear system (estimate/model.md §3–§4): the
 // joint network chain θ_k of both directions, and for each joint state
 // the three modes with their probabilities, the delivered-with-delay mode
 // as a quadrature rule over τ.
@@ -45,7 +45,7 @@ type JointState struct {
 	Name           string  // "sc-state/ca-state"; "iid" names a one-state direction
 	LossSC, LossCA float64 // loss probabilities, extra loss included
 	OnTimeSC       float64 // P(τsc < h)
-	P0, P1, P2     float64 // mode probabilities (docs/model.md §2)
+	P0, P1, P2     float64 // mode probabilities (estimate/model.md §2)
 	MeanDelayM2    float64 // E[τ | m2], seconds; NaN when P2 = 0
 
 	baseSC, baseCA   float64 // the profile's own loss probabilities
@@ -113,7 +113,7 @@ func Build(loop *profiles.Loop, opts Options) (*Model, error) {
 	}
 
 	sc, ca := loop.Profile.SensorToController, loop.Profile.ControllerToActuator
-	// The joint chain of the two independent directions (docs/model.md §2):
+	// The joint chain of the two independent directions (estimate/model.md §2):
 	// P = P_sc ⊗ P_ca, π = π_sc ⊗ π_ca, state (i, j) at index i·N_ca + j.
 	var P mat.Dense
 	P.Kronecker(sc.Transition(h), ca.Transition(h))
@@ -200,7 +200,7 @@ func scaledCopy(a *mat.Dense, s float64) *mat.Dense {
 }
 
 // setLoss applies the extra loss q to every state's mode probabilities
-// (docs/model.md §2 and §8): with ps' = ps + (1−ps)q and pa' likewise,
+// (estimate/model.md §2 and §8): with ps' = ps + (1−ps)q and pa' likewise,
 //
 //	P(m0) = 1 − (1−ps') P(τsc < h),
 //	P(m2, dτ) = (1−ps')(1−pa') P(τsc < h, τ ∈ dτ),

@@ -6,7 +6,7 @@ import (
 	"gonum.org/v1/gonum/mat"
 )
 
-// mode is one affine map of the closed loop over a period (docs/model.md §3):
+// mode is one affine map of the closed loop over a period (estimate/model.md §3):
 // z' = F z + g + H ξ, with z = [x; u_{k−1}; xc] and ξ = [w; v].
 type mode struct {
 	F   *mat.Dense    // nz×nz
@@ -25,7 +25,7 @@ type loopMatrices struct {
 	zeroPolicy      bool
 }
 
-// build assembles F, g and H Ξ Hᵀ for one mode (docs/model.md §3), with
+// build assembles F, g and H Ξ Hᵀ for one mode (estimate/model.md §3), with
 // e_k = r − C x_k − v_k and u_k = Cc xc_k + Dc e_k:
 //
 //	m0:    x' = Φx + Γ u + w           u' = u     xc' = xc

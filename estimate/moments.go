@@ -8,7 +8,7 @@ import (
 	"gonum.org/v1/gonum/mat"
 )
 
-// The moment recursions of a Markov jump linear system (docs/model.md §4;
+// The moment recursions of a Markov jump linear system (estimate/model.md §4;
 // O. L. V. Costa, M. D. Fragoso, R. P. Marques, Discrete-Time Markov Jump
 // Linear Systems, Springer 2005, §3.2, eqs. (3.3)–(3.4) in their notation),
 // with q_i = E[z 1{θ=i}], Q_i = E[z zᵀ 1{θ=i}], π_i = P(θ = i) and E_i
@@ -64,7 +64,7 @@ func (md *Model) baseOps() (m0, m1 *mat.Dense) {
 }
 
 // SecondMomentOperator returns the matrix of the second-moment operator
-// Q ↦ (Σ_i P_ij E_i[F Q_i Fᵀ])_j (docs/model.md §4) on the stacked svec(Q_j),
+// Q ↦ (Σ_i P_ij E_i[F Q_i Fᵀ])_j (estimate/model.md §4) on the stacked svec(Q_j),
 // a square matrix of side N·nz(nz+1)/2 for N joint states.
 func (md *Model) SecondMomentOperator() *mat.Dense {
 	m0, m1 := md.baseOps()
@@ -157,7 +157,7 @@ type Moments struct {
 }
 
 // Steady returns the stationary moments, by solving the two fixed-point
-// linear systems (I − 𝒜) q = b₁ and then (I − ℒ) svec(Q) = b₂ (docs/model.md
+// linear systems (I − 𝒜) q = b₁ and then (I − ℒ) svec(Q) = b₂ (estimate/model.md
 // §4; Costa–Fragoso–Marques 2005, Proposition 3.37 for their existence
 // under mean-square stability — from memory). It returns ErrNotStable when
 // the loop is not mean-square stable.
@@ -241,7 +241,7 @@ func identityMinus(a *mat.Dense) *mat.Dense {
 }
 
 // ErrorStats are the moments of the tracking error e = r − C x − v at a
-// sampling instant (docs/model.md §4):
+// sampling instant (estimate/model.md §4):
 //
 //	E[e] = r − C E[x],   E[eᵀe] = |r − C E[x]|² + tr(C Cov(x) Cᵀ) + tr(V).
 type ErrorStats struct {
@@ -291,7 +291,7 @@ type Step struct {
 // Transient returns the error moments for the first steps periods after
 // the setpoint steps from 0 to the loop's setpoint with the loop at rest
 // (z₀ = 0) and the network in its stationary law, by running the moment
-// recursions of docs/model.md §4 forward; step 0 is the instant of the step.
+// recursions of estimate/model.md §4 forward; step 0 is the instant of the step.
 // It needs no stability: an unstable loop's moments grow.
 func (md *Model) Transient(steps int) []Step {
 	N, nz, d := len(md.States), md.lm.nz, md.symDim()

@@ -41,7 +41,7 @@ type StateReport struct {
 	LossSC      float64 // loss probability, sensor direction (extra loss included)
 	LossCA      float64 // loss probability, command direction
 	// Mode probabilities: sample lost or stale, command lost or late,
-	// delivered in time (docs/model.md §1).
+	// delivered in time (estimate/model.md §1).
 	P0, P1, P2 float64
 	// MeanDelay is E[τ | m2] in seconds (total delay of a delivered
 	// command), NaN when P2 = 0.
@@ -72,7 +72,7 @@ type PredictOptions struct {
 	MarginProgress func(q float64)
 }
 
-// Predict computes the prediction of docs/model.md §7 for a validated loop:
+// Predict computes the prediction of estimate/model.md §7 for a validated loop:
 // it builds the jump linear system, decides mean-square stability,
 // computes ρ, the steady error moments when stable, and the loss margin.
 // This is what the monitor calls.

@@ -30,7 +30,7 @@ type SimOptions struct {
 type PathPoint struct {
 	K     int
 	Error []float64 // e_k = r − y_k
-	Mode  int       // 0, 1, 2 as in docs/model.md §1
+	Mode  int       // 0, 1, 2 as in estimate/model.md §1
 	Tau   float64   // total delay of a delivered command (mode 2), else NaN
 	State int       // joint network state index
 }
@@ -50,7 +50,7 @@ type SimResult struct {
 	Paths      [][]PathPoint
 }
 
-// Simulate runs the loop's jump system period by period (docs/model.md §1),
+// Simulate runs the loop's jump system period by period (estimate/model.md §1),
 // written from the rig's timing rather than from the modes' matrices so
 // that it checks them: each period the joint network state moves by
 // P = P_sc ⊗ P_ca, a sample is lost with the sensor state's probability or

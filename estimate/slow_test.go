@@ -13,7 +13,7 @@ import (
 
 // Slow, obviously correct references beside the fast paths (the pattern
 // of net/netip's slow_test.go): the steady moments by running the
-// recursion of docs/model.md §4 for many periods instead of solving the
+// recursion of estimate/model.md §4 for many periods instead of solving the
 // fixed-point systems, and the spectral radius from the full Kronecker
 // matrix Σ_i P_ij E_i[F ⊗ F] on all nz×nz matrices instead of the
 // symmetric-vector operator (and by bisection on the Lyapunov test).

@@ -11,7 +11,7 @@ import (
 // operator ℒ (moments.go): the loop is mean-square stable iff ρ(ℒ) < 1
 // (O. L. V. Costa, M. D. Fragoso, R. P. Marques, Discrete-Time Markov
 // Jump Linear Systems, Springer 2005, Theorem 3.9 — from memory); the
-// verdict it leads to is docs/model.md §6.
+// verdict it leads to is estimate/model.md §6.
 //
 // # The test at s
 //

@@ -9,7 +9,7 @@ import (
 
 // Sweep parameters.
 const (
-	SweepLoss       = "loss"        // the extra loss q of docs/model.md §8
+	SweepLoss       = "loss"        // the extra loss q of estimate/model.md §8
 	SweepDelayScale = "delay_scale" // a factor on every network delay
 )
 
@@ -118,7 +118,7 @@ func Sweep(loop *profiles.Loop, param string, values []float64) (*SweepResult, e
 	return res, nil
 }
 
-// SetExtraLoss changes the model's extra loss q (docs/model.md §8) in place;
+// SetExtraLoss changes the model's extra loss q (estimate/model.md §8) in place;
 // the modes are kept, only their probabilities change.
 func (md *Model) SetExtraLoss(q float64) error {
 	if !(q >= 0 && q <= 1) {

@@ -17,7 +17,7 @@
 // Unknown keys are errors that name the key and its line and list the
 // keys accepted there.
 //
-// The sketches below are a reminder; docs/formats.md is the reference for
+// The sketches below are a reminder; profiles/formats.md is the reference for
 // every key of every file (type, unit, default, bounds, meaning), with
 // complete examples.
 //
@@ -99,6 +99,6 @@
 //	decode: …                    # where outputs sit in a sensor datagram (LoadLoop)
 //	trip: …                      # the monitor's safety trip (looptrip.go)
 //
-// The model these numbers enter is described in docs/model.md (the plant
+// The model these numbers enter is described in estimate/model.md (the plant
 // and controller §1 and §3, the network §2).
 package profiles

@@ -106,7 +106,7 @@ func TestBadProfiles(t *testing.T) {
 // laws, and delays that mostly fit a 10 ms control period.
 func TestShippedProfiles(t *testing.T) {
 	const period = 0.01
-	files, err := filepath.Glob("*.yaml")
+	files, err := filepath.Glob("examples/profiles/*.yaml")
 	if err != nil || len(files) < 4 {
 		t.Fatalf("shipped profiles: %v, %v", files, err)
 	}
@@ -156,7 +156,7 @@ func TestShippedProfiles(t *testing.T) {
 		{"agv-corridor.yaml", 3},
 	}
 	for _, s := range shapes {
-		p, err := profiles.Load(s.file)
+		p, err := profiles.Load(filepath.Join("examples", "profiles", s.file))
 		if err != nil {
 			t.Errorf("%s: %v", s.file, err)
 			continue
@@ -347,7 +347,7 @@ var updateCorpus = flag.Bool("update-corpus", false, "rewrite testdata/fuzz/Fuzz
 // the shipped and bad profiles: one entry per file, written with
 // -update-corpus.
 func TestFuzzCorpus(t *testing.T) {
-	shipped, _ := filepath.Glob("*.yaml")
+	shipped, _ := filepath.Glob("examples/profiles/*.yaml")
 	bad, _ := filepath.Glob("testdata/*.bad.yaml")
 	dir := filepath.Join("testdata", "fuzz", "FuzzParse")
 	for _, f := range append(shipped, bad...) {

@@ -66,7 +66,7 @@ type ActuatorPolicy int
 
 const (
 	// HoldLast keeps the last command applied until the next one arrives
-	// (zero-order hold; the default, and the model of docs/model.md §1).
+	// (zero-order hold; the default, and the model of estimate/model.md §1).
 	HoldLast ActuatorPolicy = iota
 	// ZeroUnlessFresh applies each command from its arrival to the end of
 	// its own period only; before a period's command arrives, and through a

@@ -7,7 +7,7 @@ import (
 	"strings"
 )
 
-// parseDecode reads the decode section of a loop file (docs/formats.md, the loop file's decode):
+// parseDecode reads the decode section of a loop file (profiles/formats.md, the loop file's decode):
 //
 //	decode: {format: text, separator: ",", outputs: [{field: 2}], sequence: {field: 0}}
 //	decode: {format: binary, outputs: [{offset: 8, type: float64, order: little}],

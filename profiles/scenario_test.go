@@ -13,7 +13,7 @@ import (
 )
 
 func TestShippedScenarios(t *testing.T) {
-	files, err := filepath.Glob("scenarios/*.yaml")
+	files, err := filepath.Glob("examples/scenarios/*.yaml")
 	if err != nil || len(files) == 0 {
 		t.Fatalf("no shipped scenarios (%v)", err)
 	}
@@ -40,7 +40,7 @@ func TestShippedScenarios(t *testing.T) {
 			}
 		})
 	}
-	s, err := LoadScenario("scenarios/conveyor-qualification.yaml")
+	s, err := LoadScenario("examples/scenarios/conveyor-qualification.yaml")
 	if err != nil {
 		t.Fatal(err)
 	}

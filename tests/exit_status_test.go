@@ -17,7 +17,7 @@ func TestExitStatuses(t *testing.T) {
 		badLoop    = "../profiles/testdata/loops/shape-d.bad.yaml"
 		badProfile = "../profiles/testdata/unknown-key.bad.yaml"
 		unstable   = "../cmd/monitor/testdata/unstable.yaml"
-		good       = "../cmd/monitor/examples/conveyor.yaml"
+		good       = "../profiles/examples/loops/conveyor.yaml"
 		missing    = "no-such-loop.yaml"
 	)
 	cases := []struct {

@@ -1,6 +1,6 @@
 package tests
 
-// docs/formats.md against the loaders. The key lists are read from the
+// profiles/formats.md against the loaders. The key lists are read from the
 // loaders' own source: every call of yamlpos.Field.Mapping (the one way a
 // YAML file's keys are accepted) in profiles/, cmd/impair/links.go and
 // deploy/lab/config.go, the delay kinds' table (delayKinds in
@@ -33,7 +33,7 @@ import (
 	"rigwire/profiles/trace"
 )
 
-const formatsDoc = "../docs/formats.md"
+const formatsDoc = "../profiles/formats.md"
 
 // mappingSections ties each Mapping call, named by its file, its function
 // and its first key ("..." when its keys are computed), to the key table
@@ -44,7 +44,7 @@ var mappingSections = map[string]string{
 	"profiles/load.go parseChannel loss":                  "profile.direction",
 	"profiles/load.go parseStates name":                   "profile.state",
 	"profiles/load.go parseStates ...":                    "", // next: the state names of the file
-	"profiles/tracereplay.go parseTraceChannel file":      "profile.trace",
+	"profiles/tracechannel.go parseTraceChannel file":      "profile.trace",
 	"profiles/delayparse.go parseDelayExtra ...":          "", // the delay kinds' table
 	"profiles/loopload.go parseLoop period":               "loop",
 	"profiles/loopload.go parseLoop on_loss":              "loop.actuator",
@@ -183,18 +183,37 @@ func parseGo(t *testing.T, fset *token.FileSet, path string) *ast.File {
 	return f
 }
 
-// loaderSources are the Go files that read YAML files with Mapping.
+// loaderSources are the Go files that read YAML files with Mapping: every
+// non-test Go file of the repository outside tests/ and the YAML reader
+// itself that calls it, wherever the floor plan puts it.
 func loaderSources(t *testing.T) []string {
 	t.Helper()
-	out := []string{"cmd/impair/links.go", "deploy/lab/config.go"}
-	names, err := filepath.Glob("../profiles/*.go")
+	var out []string
+	err := filepath.WalkDir("..", func(path string, d os.DirEntry, err error) error {
+		if err != nil {
+			return err
+		}
+		rel := filepath.ToSlash(strings.TrimPrefix(path, "../"))
+		if d.IsDir() {
+			if d.Name() == ".git" || rel == "tests" || rel == "profiles/yamlpos" || d.Name() == "testdata" {
+				return filepath.SkipDir
+			}
+			return nil
+		}
+		if !strings.HasSuffix(rel, ".go") || strings.HasSuffix(rel, "_test.go") {
+			return nil
+		}
+		b, err := os.ReadFile(path)
+		if err != nil {
+			return err
+		}
+		if strings.Contains(string(b), ".Mapping(") {
+			out = append(out, rel)
+		}
+		return nil
+	})
 	if err != nil {
 		t.Fatal(err)
-	}
-	for _, n := range names {
-		if !strings.HasSuffix(n, "_test.go") {
-			out = append(out, filepath.ToSlash(strings.TrimPrefix(n, "../")))
-		}
 	}
 	return out
 }
@@ -316,7 +335,7 @@ func delayKindsSource(t *testing.T) (kinds map[string][]string, shift map[string
 func traceMetaKeys(t *testing.T) []string {
 	t.Helper()
 	fset := token.NewFileSet()
-	f := parseGo(t, fset, "profiles/trace.go")
+	f := parseGo(t, fset, "profiles/trace/trace.go")
 	var out []string
 	for _, d := range f.Decls {
 		fn, ok := d.(*ast.FuncDecl)
@@ -373,7 +392,7 @@ func sameKeys(t *testing.T, id string, accepted, documented []string) {
 	}
 }
 
-// TestFormatsDocCoversLoaderKeys checks every key table of docs/formats.md
+// TestFormatsDocCoversLoaderKeys checks every key table of profiles/formats.md
 // against the keys the loaders accept, both ways.
 func TestFormatsDocCoversLoaderKeys(t *testing.T) {
 	keys, kinds, _ := readDocTables(t)
@@ -580,11 +599,11 @@ func TestFormatsDocExamplesLoad(t *testing.T) {
 	})
 }
 
-// TestModelDocCitations checks that every "docs/model.md §N" cited in the
+// TestModelDocCitations checks that every "estimate/model.md §N" cited in the
 // repository's Go sources, reference scripts and documents names a
-// section docs/model.md has.
+// section estimate/model.md has.
 func TestModelDocCitations(t *testing.T) {
-	data, err := os.ReadFile("../docs/model.md")
+	data, err := os.ReadFile("../estimate/model.md")
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -593,7 +612,7 @@ func TestModelDocCitations(t *testing.T) {
 		have[m[1]] = true
 	}
 	if len(have) < 10 {
-		t.Fatalf("docs/model.md: %d numbered sections found, want its §1 … §12", len(have))
+		t.Fatalf("estimate/model.md: %d numbered sections found, want its §1 … §12", len(have))
 	}
 	cite := regexp.MustCompile(`docs/model\.md(?: \(| )((?:§\d+(?:–§\d+)?(?:, | and )?)+)`)
 	num := regexp.MustCompile(`§(\d+)`)
@@ -621,7 +640,7 @@ func TestModelDocCitations(t *testing.T) {
 			for _, n := range num.FindAllStringSubmatch(m[1], -1) {
 				count++
 				if !have[n[1]] {
-					t.Errorf("%s: cites docs/model.md §%s, which docs/model.md does not have", path, n[1])
+					t.Errorf("%s: cites estimate/model.md §%s, which estimate/model.md does not have", path, n[1])
 				}
 			}
 		}
@@ -631,6 +650,6 @@ func TestModelDocCitations(t *testing.T) {
 		t.Fatal(err)
 	}
 	if count == 0 {
-		t.Error("no citation of docs/model.md found; the walk is broken")
+		t.Error("no citation of estimate/model.md found; the walk is broken")
 	}
 }

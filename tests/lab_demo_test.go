@@ -34,7 +34,7 @@ func TestLabDemoAcrossNamespaces(t *testing.T) {
 		tolerance  = 0.15
 		minSamples = 0.9 // of dur / period
 	)
-	loopPath, err := filepath.Abs("examples/rig-pi.yaml")
+	loopPath, err := filepath.Abs("../profiles/examples/checks/rig-pi.yaml")
 	if err != nil {
 		t.Fatal(err)
 	}

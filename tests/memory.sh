@@ -7,7 +7,7 @@
 #   BIN=DIR tests/memory.sh              use DIR/impair and DIR/monitor, built before
 #
 # Builds cmd/impair and cmd/monitor into a temporary directory and runs, all
-# on 127.0.0.1, the simulated rig of tests/examples/mem-1khz.yaml (a booster
+# on 127.0.0.1, the simulated rig of profiles/examples/checks/mem-1khz.yaml (a booster
 # pump's pressure loop, 1 ms period): the rig controller, `impair run` with
 # the loop's profile and --tap to `monitor run`, and the rig node sending a
 # sample every millisecond. It reads VmRSS and VmHWM of the relay and the
@@ -106,8 +106,8 @@ for b in impair monitor; do
 	fi
 done
 
-loop=tests/examples/mem-1khz.yaml
-profile=tests/examples/mem-1khz.profile.yaml
+loop=profiles/examples/checks/mem-1khz.yaml
+profile=profiles/examples/checks/mem-1khz.profile.yaml
 ctl=127.0.0.1:$(free_port)
 relay=127.0.0.1:$(free_port)
 tap=127.0.0.1:$(free_port)

@@ -14,7 +14,7 @@ import (
 	"time"
 )
 
-// TestMemoryFlat runs the simulated rig of examples/mem-1khz.yaml (1 ms
+// TestMemoryFlat runs the simulated rig of ../profiles/examples/checks/mem-1khz.yaml (1 ms
 // period) through `impair run` with its tap feeding `monitor run`, each its
 // own process on loopback, for RIGWIRE_MEMORY_SECONDS (default 60), and
 // fails if the relay's or the monitor's resident set (VmRSS of
@@ -44,7 +44,7 @@ func TestMemoryFlat(t *testing.T) {
 		}
 		total = time.Duration(n) * time.Second
 	}
-	loopPath := "examples/mem-1khz.yaml"
+	loopPath := "../profiles/examples/checks/mem-1khz.yaml"
 	mon, imp := buildCmd(t, "monitor"), buildCmd(t, "impair")
 	dir := t.TempDir()
 	summary := filepath.Join(dir, "summary.json")
@@ -53,7 +53,7 @@ func TestMemoryFlat(t *testing.T) {
 	ctl := start(t, mon, "rig", "controller", "--loop", loopPath, "--listen", ctlAddr)
 	monP := start(t, mon, "run", "--loop", loopPath, "--listen", tapAddr, "--metrics", "off",
 		"--progress", "0", "--summary", summary)
-	relay := start(t, imp, "run", "--profile", "examples/mem-1khz.profile.yaml", "--listen", relayAddr,
+	relay := start(t, imp, "run", "--profile", "../profiles/examples/checks/mem-1khz.profile.yaml", "--listen", relayAddr,
 		"--controller", ctlAddr, "--tap", tapAddr, "--metrics", "off")
 	time.Sleep(300 * time.Millisecond) // the relay, controller and monitor open their sockets
 	node := start(t, mon, "rig", "node", "--loop", loopPath, "--relay", relayAddr, "--seed", "3")

@@ -31,7 +31,7 @@ type monitorRun struct {
 	sender  *net.UDPConn
 }
 
-const monitorLoop = "examples/monitor-text.yaml"
+const monitorLoop = "../profiles/examples/checks/monitor-text.yaml"
 
 func startMonitorRun(t *testing.T, extra ...string) *monitorRun {
 	t.Helper()

@@ -9,7 +9,7 @@ import (
 )
 
 // Monte-Carlo checks of the prediction: the analytic steady E[eᵀe] of
-// estimate.Predict (docs/model.md §4) against a plain simulation of the same
+// estimate.Predict (estimate/model.md §4) against a plain simulation of the same
 // loop (estimate.Simulate, which draws modes and delays from the
 // profile's own Sample methods and samples the plant exactly each
 // period). The runs are independent, so their time averages give an
@@ -28,8 +28,8 @@ func TestPredictAgreesWithMonteCarlo(t *testing.T) {
 		file string
 		seed uint64
 	}{
-		{"iid losses, lognormal and uniform delays", "examples/mc-iid.yaml", 1},
-		{"Gilbert–Elliott command channel, gamma sensor delay", "examples/mc-burst.yaml", 2},
+		{"iid losses, lognormal and uniform delays", "../profiles/examples/checks/mc-iid.yaml", 1},
+		{"Gilbert–Elliott command channel, gamma sensor delay", "../profiles/examples/checks/mc-burst.yaml", 2},
 	}
 	for _, tc := range cases {
 		t.Run(tc.name, func(t *testing.T) {

@@ -58,7 +58,7 @@ func TestProbeFitRecoversRelayProfile(t *testing.T) {
 		shift      = 2e-3
 		pLoss      = 0.02 // per-probe P(lost | previous delivered)
 		rRecover   = 0.25 // per-probe P(delivered | previous lost)
-		loopFile   = "../cmd/monitor/examples/conveyor.yaml"
+		loopFile   = "../profiles/examples/loops/conveyor.yaml"
 		probeBytes = 64
 	)
 	good, bad, err := (fit.LossFit{P: pLoss, R: rRecover}).Dwell(interval)

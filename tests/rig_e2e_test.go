@@ -158,7 +158,7 @@ var (
 // TestRigEndToEnd runs the simulated rig through the relay for three loops
 // and checks the rig's measured E[eᵀe] (from its own sample log, 95 %
 // batch-means interval, 20 batches) against `monitor predict`'s value
-// (docs/model.md §4): the interval widened by relTol of the prediction must
+// (estimate/model.md §4): the interval widened by relTol of the prediction must
 // cover it. relTol holds the loopback stack's own latency, which adds
 // ~0.2–0.4 ms to every τ and biases E[eᵀe] up by a few per cent (estimate
 // doc, "Conventions"), and the short runs' correlation (a few dozen independent stretches
@@ -175,9 +175,9 @@ func TestRigEndToEnd(t *testing.T) {
 		dur        time.Duration
 		wantLate   bool
 	}{
-		{"markov burst channel", "examples/rig-burst.yaml", 40 * time.Second, false},
-		{"sometimes late", "examples/rig-late.yaml", 25 * time.Second, true},
-		{"pi controller with setpoint", "examples/rig-pi.yaml", 40 * time.Second, false},
+		{"markov burst channel", "../profiles/examples/checks/rig-burst.yaml", 40 * time.Second, false},
+		{"sometimes late", "../profiles/examples/checks/rig-late.yaml", 25 * time.Second, true},
+		{"pi controller with setpoint", "../profiles/examples/checks/rig-pi.yaml", 40 * time.Second, false},
 	}
 	monitor := hasMonitorRun(t)
 	for i, tc := range cases {
@@ -245,7 +245,7 @@ func hasMonitorRun(t *testing.T) bool {
 // the monitor's 95 % interval widened by its default 0.1).
 func TestRigServe(t *testing.T) {
 	const sumTol = 1e-9
-	loopPath := "examples/rig-pi.yaml"
+	loopPath := "../profiles/examples/checks/rig-pi.yaml"
 	loop, err := profiles.LoadLoop(loopPath)
 	if err != nil {
 		t.Fatal(err)

@@ -74,7 +74,7 @@ func TestRigPlantFirstOrderStep(t *testing.T) {
 // TestRigPlantInputChangeMidPeriod checks that a command applied τ into a
 // period gives x(t_{k+1}) = Φ x + Γ1(τ) u_old + Γ0(τ) u_new, the sampled
 // model with a fractional input delay (Åström–Wittenmark, 3rd ed., §2.3;
-// docs/model.md §3), with Φ, Γ0, Γ1 from estimate.Discretize and Split.
+// estimate/model.md §3), with Φ, Γ0, Γ1 from estimate.Discretize and Split.
 func TestRigPlantInputChangeMidPeriod(t *testing.T) {
 	const tol = 1e-12
 	// The pick arm's joint: position and speed, a motor with friction.

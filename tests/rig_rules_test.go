@@ -42,7 +42,7 @@ func parseLoop(t *testing.T, src string) *profiles.Loop {
 
 // TestRigActuatorRules drives the rig node from a test controller on a
 // loopback socket: sample k's command is sent back at once for even k and
-// 1.3 periods after t_k for odd k. docs/model.md §1 step 3: a command whose
+// 1.3 periods after t_k for odd k. estimate/model.md §1 step 3: a command whose
 // total delay since t_k is below h is applied, a later one is discarded
 // (late), and a second command for a period already served is discarded.
 func TestRigActuatorRules(t *testing.T) {
@@ -103,7 +103,7 @@ func TestRigActuatorRules(t *testing.T) {
 
 // TestRigControllerRules sends samples to the rig controller: a fresh one
 // gets u = Dc (r − y) back at once with its sequence and sample time
-// (docs/model.md §1 step 2, static controller), one stamped a period or more
+// (estimate/model.md §1 step 2, static controller), one stamped a period or more
 // ago is stale and gets no reply, and one not newer than the last used is
 // discarded. The reply comes no sooner than compute_delay after the sample
 // was sent.
@@ -180,7 +180,7 @@ func TestRigControllerRules(t *testing.T) {
 //
 //	x_{k+1} = Φ x_k + Γ1(τ_k) u_{k−1} + Γ0(τ_k) u_k
 //
-// (Åström–Wittenmark, 3rd ed., §2.3; docs/model.md §3, mode m2), with Φ, Γ0,
+// (Åström–Wittenmark, 3rd ed., §2.3; estimate/model.md §3, mode m2), with Φ, Γ0,
 // Γ1 from estimate.Discretize and Split — the plant must have switched its
 // input exactly when the command arrived. With C = 1 and V = 0, y_k = x_k.
 func TestRigPiecewiseFromLog(t *testing.T) {

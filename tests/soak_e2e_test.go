@@ -38,7 +38,7 @@ type soakResult struct {
 func runSoak(t *testing.T, scenario string, scale string, wall time.Duration, reportDir string) (int, string, *soakResult) {
 	t.Helper()
 	mon := buildCmd(t, "monitor")
-	loop := filepath.Join("examples", "soak-diverter.loop.yaml")
+	loop := filepath.Join("..", "profiles", "examples", "checks", "soak-diverter.loop.yaml")
 	dir := t.TempDir()
 	ctlAddr, relayAddr := freePort(t, "udp"), freePort(t, "udp")
 	summary := filepath.Join(dir, "summary.json")
@@ -86,7 +86,7 @@ func TestSoakPasses(t *testing.T) {
 	}
 	t.Parallel()
 	rep := t.TempDir()
-	code, out, s := runSoak(t, filepath.Join("examples", "soak-diverter.scenario.yaml"), "0.2", 2*time.Minute, rep)
+	code, out, s := runSoak(t, filepath.Join("..", "profiles", "examples", "checks", "soak-diverter.scenario.yaml"), "0.2", 2*time.Minute, rep)
 	if code != 0 {
 		t.Fatalf("monitor soak exited %d, want 0:\n%s", code, out)
 	}
@@ -135,7 +135,7 @@ func TestSoakWrongPredictionFails(t *testing.T) {
 		t.Skip("a two-minute soak")
 	}
 	t.Parallel()
-	code, out, s := runSoak(t, filepath.Join("examples", "soak-diverter-wrong.scenario.yaml"), "0.2", 2*time.Minute, "")
+	code, out, s := runSoak(t, filepath.Join("..", "profiles", "examples", "checks", "soak-diverter-wrong.scenario.yaml"), "0.2", 2*time.Minute, "")
 	if code != 7 {
 		t.Fatalf("monitor soak exited %d, want 7 (a phase failed):\n%s", code, out)
 	}

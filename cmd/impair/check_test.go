@@ -26,7 +26,7 @@ var update = flag.Bool("update", false, "rewrite the golden files in testdata")
 // 0.9375·0.002 + 0.0625·0.25 = 0.0175.
 func TestCheckShipped(t *testing.T) {
 	var out, errOut bytes.Buffer
-	code := dispatch([]string{"check", "--interval", "10ms", "../../profiles/warehouse-wifi.yaml"}, &out, &errOut)
+	code := dispatch([]string{"check", "--interval", "10ms", "../../profiles/examples/profiles/warehouse-wifi.yaml"}, &out, &errOut)
 	if code != 0 {
 		t.Fatalf("exit %d, stderr %q", code, errOut.String())
 	}
@@ -71,9 +71,9 @@ func TestCheckErrors(t *testing.T) {
 		{"missing file", []string{"no-such.yaml"}, "impair check: reading profile: open no-such.yaml: no such file or directory"},
 		{"no profile", nil, "impair check: want one profile, got 0"},
 		{"two profiles", []string{"a.yaml", "b.yaml"}, "impair check: want one profile, got 2"},
-		{"bad interval", []string{"--interval", "0", "../../profiles/switched-cell.yaml"},
+		{"bad interval", []string{"--interval", "0", "../../profiles/examples/profiles/switched-cell.yaml"},
 			`impair check: invalid value "0" for flag -interval: want a duration > 0 and ≤ 1h, got "0"`},
-		{"interval not a duration", []string{"../../profiles/switched-cell.yaml", "--interval", "soon"},
+		{"interval not a duration", []string{"../../profiles/examples/profiles/switched-cell.yaml", "--interval", "soon"},
 			`impair check: invalid value "soon" for flag -interval: want a duration ("3ms") or seconds, got "soon"`},
 	}
 	for _, tt := range tests {
@@ -96,7 +96,7 @@ func TestCheckErrors(t *testing.T) {
 // TestCheckFlagAfterProfile checks that flags may follow the profile.
 func TestCheckFlagAfterProfile(t *testing.T) {
 	var out, errOut bytes.Buffer
-	if code := dispatch([]string{"check", "../../profiles/switched-cell.yaml", "--interval", "1ms"}, &out, &errOut); code != 0 {
+	if code := dispatch([]string{"check", "../../profiles/examples/profiles/switched-cell.yaml", "--interval", "1ms"}, &out, &errOut); code != 0 {
 		t.Fatalf("exit %d: %s", code, errOut.String())
 	}
 	if !strings.Contains(out.String(), "one datagram every 1 ms") {
@@ -111,7 +111,7 @@ func TestCheckFlagAfterProfile(t *testing.T) {
 // must not drift apart.
 func TestCheckLateAgreesWithPrediction(t *testing.T) {
 	const agreeTol = 1e-15 // the same function: equal up to the subtraction
-	files, err := filepath.Glob("../../profiles/*.yaml")
+	files, err := filepath.Glob("../../profiles/examples/profiles/*.yaml")
 	if err != nil || len(files) == 0 {
 		t.Fatalf("no shipped profiles: %v", err)
 	}

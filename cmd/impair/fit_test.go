@@ -72,7 +72,7 @@ func TestFitCommand(t *testing.T) {
 		t.Run(c.name, func(t *testing.T) {
 			out := filepath.Join(dir, strings.TrimPrefix(c.flag, "--")+".yaml")
 			var stdout, stderr bytes.Buffer
-			if code := dispatch([]string{"fit", trace, c.flag, "--out", out, "--loop", "../monitor/examples/conveyor.yaml"}, &stdout, &stderr); code != 0 {
+			if code := dispatch([]string{"fit", trace, c.flag, "--out", out, "--loop", "../../profiles/examples/loops/conveyor.yaml"}, &stdout, &stderr); code != 0 {
 				t.Fatalf("exit %d: %s", code, stderr.String())
 			}
 			for _, want := range []string{"KS D", "Lilliefors", "simplified Gilbert", "chosen: burst channel", "prediction for"} {

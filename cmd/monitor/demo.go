@@ -2,7 +2,6 @@ package main
 
 import (
 	"context"
-	"embed"
 	"fmt"
 	"io"
 	"log/slog"
@@ -16,13 +15,8 @@ import (
 	"rigwire/emulate/rig"
 	"rigwire/estimate/engine"
 	"rigwire/profiles"
+	"rigwire/profiles/examples"
 )
-
-// demoFiles are the demo's loop and profile, built into the command so
-// `go run ./cmd/monitor demo` works from any directory.
-//
-//go:embed examples/demo/diverter.yaml examples/demo/diverter-wifi.yaml
-var demoFiles embed.FS
 
 // demoCaution is printed before the demo starts.
 const demoCaution = "SAFETY: the demo is a simulation — nothing moves. Before you put a real rig\nbehind the relay:\n" + emulate.SafetyCautions
@@ -93,7 +87,7 @@ func cmdDemo(args []string, stdout, stderr io.Writer) error {
 		}
 		defer os.RemoveAll(dir)
 		for _, name := range []string{"diverter.yaml", "diverter-wifi.yaml"} {
-			b, _ := demoFiles.ReadFile("examples/demo/" + name)
+			b, _ := examples.Demo.ReadFile("demo/" + name)
 			if err := os.WriteFile(filepath.Join(dir, name), b, 0o644); err != nil {
 				return err
 			}
@@ -145,7 +139,7 @@ func cmdDemo(args []string, stdout, stderr io.Writer) error {
 	fmt.Fprint(stdout, cautions(demoCaution))
 	loopName := filepath.Base(loop.File)
 	if *loopPath == "" {
-		loopName = "built-in diverter.yaml (cmd/monitor/examples/demo)"
+		loopName = "built-in diverter.yaml (profiles/examples/demo)"
 	}
 	fmt.Fprintf(stdout, "\nloop      %s, period %s, setpoint %v\n", loopName, fmtDuration(loop.Period), loop.Setpoint)
 	fmt.Fprintf(stdout, "network   %s (relay seed %d)\n", prof.Name, b.relay.Seed())

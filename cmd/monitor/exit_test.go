@@ -15,7 +15,7 @@ const (
 	badProfile  = "../../profiles/testdata/unknown-key.bad.yaml"   // an unknown key in a direction
 	badScenario = "../../profiles/testdata/bad-scenarios/unknown-key.bad.yaml"
 	badInline   = "../../profiles/testdata/loops/profile-inline-bad.bad.yaml" // a loop whose inline profile is bad
-	goodLoop    = "examples/conveyor.yaml"
+	goodLoop    = "../../profiles/examples/loops/conveyor.yaml"
 	missing     = "testdata/no-such-file.yaml"
 )
 
@@ -85,7 +85,7 @@ func TestPredictStrict(t *testing.T) {
 		stability string
 		strict    int
 	}{
-		{"stable", "examples/conveyor.yaml", "stable", 0},
+		{"stable", "../../profiles/examples/loops/conveyor.yaml", "stable", 0},
 		{"unstable", "testdata/unstable.yaml", "unstable", 6},
 		{"marginal", "testdata/marginal.yaml", "marginal", 5},
 	}
@@ -120,7 +120,7 @@ func TestPredictStrict(t *testing.T) {
 // a radius below 1 is at or above it, or the reverse.
 func TestVerdictLines(t *testing.T) {
 	num := regexp.MustCompile(`spectral radius ([0-9.e+-]+)`)
-	for _, file := range []string{"examples/conveyor.yaml", "examples/pump.yaml", "testdata/unstable.yaml", "testdata/marginal.yaml"} {
+	for _, file := range []string{"../../profiles/examples/loops/conveyor.yaml", "../../profiles/examples/loops/pump.yaml", "testdata/unstable.yaml", "testdata/marginal.yaml"} {
 		t.Run(filepath.Base(file), func(t *testing.T) {
 			_, out, _ := runMonitor("predict", file, "--no-margin")
 			_, sim, _ := runMonitor("simulate", file, "--periods", "200", "--runs", "2")

@@ -68,7 +68,7 @@ func scrape(url string, prefixes ...string) (map[string]float64, error) {
 // reason in the metrics and the summary, and none is a datagram or a
 // decode failure.
 func TestRunFromDecodesOnlyTheTap(t *testing.T) {
-	const loop = "../../tests/examples/monitor-text.yaml" // setpoint 1.2, text "seq,t,y"
+	const loop = "../../profiles/examples/checks/monitor-text.yaml" // setpoint 1.2, text "seq,t,y"
 	cases := []struct {
 		name       string
 		strangerIP net.IP
@@ -225,7 +225,7 @@ func TestRunFromRefused(t *testing.T) {
 	}
 	for _, c := range cases {
 		t.Run(c.name, func(t *testing.T) {
-			code, _, errOut := runMonitor("run", "--loop", "../../tests/examples/monitor-text.yaml", "--listen", c.listen,
+			code, _, errOut := runMonitor("run", "--loop", "../../profiles/examples/checks/monitor-text.yaml", "--listen", c.listen,
 				"--metrics", "off", "--from", c.from)
 			if code != 2 || !strings.Contains(errOut, c.want) {
 				t.Errorf("status %d, stderr %q; want 2 and %q", code, errOut, c.want)

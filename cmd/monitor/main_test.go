@@ -24,9 +24,9 @@ func TestPredictJSONKeys(t *testing.T) {
 		file   string
 		stable bool
 	}{
-		{"conveyor example", "examples/conveyor.yaml", true},
-		{"pump example", "examples/pump.yaml", true},
-		{"pick arm example", "examples/pick-arm.yaml", true},
+		{"conveyor example", "../../profiles/examples/loops/conveyor.yaml", true},
+		{"pump example", "../../profiles/examples/loops/pump.yaml", true},
+		{"pick arm example", "../../profiles/examples/loops/pick-arm.yaml", true},
 		{"unstable loop", "testdata/unstable.yaml", false},
 	}
 	keys := []string{"mean_square_stable", "stability", "spectral_radius", "spectral_radius_error", "error_mean", "error_second_moment", "error_std", "loss_margin"}
@@ -75,17 +75,17 @@ func TestPredictBadInput(t *testing.T) {
 		{"bad loop file", []string{"predict", "../../profiles/testdata/loops/shape-d.bad.yaml"}, 2,
 			"shape-d.bad.yaml:10: controller.d: want 1×1, got 1×2"},
 		{"missing file", []string{"predict", "testdata/none.yaml"}, 2, "reading loop file: open testdata/none.yaml"},
-		{"strict with vary", []string{"predict", "examples/conveyor.yaml", "--strict", "--vary", "loss=0:0.1:0.1"}, 2, "--strict: only with the single prediction"},
+		{"strict with vary", []string{"predict", "../../profiles/examples/loops/conveyor.yaml", "--strict", "--vary", "loss=0:0.1:0.1"}, 2, "--strict: only with the single prediction"},
 		{"no file", []string{"predict", "--json"}, 2, "want one loop file, got 0 arguments"},
-		{"bad vary", []string{"predict", "examples/conveyor.yaml", "--vary", "jitter=0:1:0.1"}, 2, `unknown parameter "jitter"`},
-		{"vary step", []string{"predict", "examples/conveyor.yaml", "--vary", "loss=0:1:0"}, 2, "step must be > 0"},
-		{"vary loss range", []string{"predict", "examples/conveyor.yaml", "--vary", "loss=0:1.5:0.1"}, 2, "loss must lie in [0, 1]"},
-		{"vary misread as start:step:stop", []string{"predict", "examples/conveyor.yaml", "--vary", "loss=0:0.01:0.3"}, 2, "step 0.3 is larger than the range 0 to 0.01; the order is START:STOP:STEP"},
-		{"plot ext", []string{"predict", "examples/conveyor.yaml", "--vary", "loss=0:0.1:0.1", "--plot", "x.gif"}, 2, "want a file ending in .svg, .png or .pdf"},
-		{"plot alone", []string{"predict", "examples/conveyor.yaml", "--plot", "x.svg"}, 2, "--plot: want --vary or --step"},
-		{"step-to", []string{"predict", "examples/conveyor.yaml", "--step", "3", "--step-to", "1,2"}, 2, "--step-to: want 1 comma-separated numbers"},
-		{"unknown flag", []string{"predict", "examples/conveyor.yaml", "--jsn"}, 2, "flag provided but not defined: -jsn"},
-		{"simulate warmup", []string{"simulate", "examples/conveyor.yaml", "--periods", "10", "--warmup", "10"}, 2, "--warmup: want fewer than --periods"},
+		{"bad vary", []string{"predict", "../../profiles/examples/loops/conveyor.yaml", "--vary", "jitter=0:1:0.1"}, 2, `unknown parameter "jitter"`},
+		{"vary step", []string{"predict", "../../profiles/examples/loops/conveyor.yaml", "--vary", "loss=0:1:0"}, 2, "step must be > 0"},
+		{"vary loss range", []string{"predict", "../../profiles/examples/loops/conveyor.yaml", "--vary", "loss=0:1.5:0.1"}, 2, "loss must lie in [0, 1]"},
+		{"vary misread as start:step:stop", []string{"predict", "../../profiles/examples/loops/conveyor.yaml", "--vary", "loss=0:0.01:0.3"}, 2, "step 0.3 is larger than the range 0 to 0.01; the order is START:STOP:STEP"},
+		{"plot ext", []string{"predict", "../../profiles/examples/loops/conveyor.yaml", "--vary", "loss=0:0.1:0.1", "--plot", "x.gif"}, 2, "want a file ending in .svg, .png or .pdf"},
+		{"plot alone", []string{"predict", "../../profiles/examples/loops/conveyor.yaml", "--plot", "x.svg"}, 2, "--plot: want --vary or --step"},
+		{"step-to", []string{"predict", "../../profiles/examples/loops/conveyor.yaml", "--step", "3", "--step-to", "1,2"}, 2, "--step-to: want 1 comma-separated numbers"},
+		{"unknown flag", []string{"predict", "../../profiles/examples/loops/conveyor.yaml", "--jsn"}, 2, "flag provided but not defined: -jsn"},
+		{"simulate warmup", []string{"simulate", "../../profiles/examples/loops/conveyor.yaml", "--periods", "10", "--warmup", "10"}, 2, "--warmup: want fewer than --periods"},
 		{"unknown command", []string{"forecast"}, 2, `unknown command "forecast"`},
 	}
 	for _, tc := range cases {
@@ -101,7 +101,7 @@ func TestPredictBadInput(t *testing.T) {
 func TestPredictVaryAndStep(t *testing.T) {
 	dir := t.TempDir()
 	plot := filepath.Join(dir, "vary.svg")
-	code, out, errOut := runMonitor("predict", "testdata/../examples/conveyor.yaml", "--vary", "loss=0:0.9:0.1", "--plot", plot)
+	code, out, errOut := runMonitor("predict", "testdata/../../../profiles/examples/loops/conveyor.yaml", "--vary", "loss=0:0.9:0.1", "--plot", plot)
 	if code != 0 {
 		t.Fatalf("exit %d: %s", code, errOut)
 	}
@@ -121,7 +121,7 @@ func TestPredictVaryAndStep(t *testing.T) {
 	if st, err := os.Stat(plot); err != nil || st.Size() == 0 {
 		t.Errorf("plot not written: %v", err)
 	}
-	code, out, errOut = runMonitor("predict", "examples/pump.yaml", "--step", "20", "--plot", filepath.Join(dir, "step.png"))
+	code, out, errOut = runMonitor("predict", "../../profiles/examples/loops/pump.yaml", "--step", "20", "--plot", filepath.Join(dir, "step.png"))
 	if code != 0 {
 		t.Fatalf("exit %d: %s", code, errOut)
 	}
@@ -138,7 +138,7 @@ func TestPredictVaryAndStep(t *testing.T) {
 
 func TestSimulateCommand(t *testing.T) {
 	paths := filepath.Join(t.TempDir(), "paths.csv")
-	code, out, errOut := runMonitor("simulate", "examples/conveyor.yaml", "--periods", "2000", "--runs", "4", "--seed", "3", "--paths", paths)
+	code, out, errOut := runMonitor("simulate", "../../profiles/examples/loops/conveyor.yaml", "--periods", "2000", "--runs", "4", "--seed", "3", "--paths", paths)
 	if code != 0 {
 		t.Fatalf("exit %d: %s", code, errOut)
 	}

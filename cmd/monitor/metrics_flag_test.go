@@ -14,9 +14,9 @@ func TestMetricsAddressRefused(t *testing.T) {
 		name string
 		args []string
 	}{
-		{"run", []string{"run", "--loop", "examples/conveyor.yaml", "--listen", "127.0.0.1:0"}},
-		{"serve", []string{"serve", "--loop", "examples/conveyor.yaml", "--listen", "127.0.0.1:0", "--controller", "127.0.0.1:9"}},
-		{"soak", []string{"soak", "--loop", "examples/conveyor.yaml", "--scenario", "x.yaml", "--simulated-rig"}},
+		{"run", []string{"run", "--loop", "../../profiles/examples/loops/conveyor.yaml", "--listen", "127.0.0.1:0"}},
+		{"serve", []string{"serve", "--loop", "../../profiles/examples/loops/conveyor.yaml", "--listen", "127.0.0.1:0", "--controller", "127.0.0.1:9"}},
+		{"soak", []string{"soak", "--loop", "../../profiles/examples/loops/conveyor.yaml", "--scenario", "x.yaml", "--simulated-rig"}},
 		{"demo", []string{"demo"}},
 	}
 	values := []struct {

@@ -31,9 +31,9 @@ computation is reported as marginal and treated as not stable.
 --step the expected error and its std for N periods after a setpoint step
 from rest. Without --strict the command exits 0 whatever the verdict.
 
-The model is docs/model.md: the rig's timing and the three modes §1, the
+The model is estimate/model.md: the rig's timing and the three modes §1, the
 network §2, the jump system §3, moments and stability §4 and §6, what is
-reported §7, the loss margin §8. The loop file's keys: docs/formats.md.
+reported §7, the loss margin §8. The loop file's keys: profiles/formats.md.
 `
 
 // predictExits are the statuses predict returns.

@@ -17,7 +17,7 @@ func TestRunBadInput(t *testing.T) {
 		want string
 	}{
 		{"no loop", []string{"--listen", "127.0.0.1:0"}, "--loop: required"},
-		{"no listen", []string{"--loop", "examples/conveyor.yaml"}, "--listen: required"},
+		{"no listen", []string{"--loop", "../../profiles/examples/loops/conveyor.yaml"}, "--listen: required"},
 		{"negative tolerance", []string{"--loop", "x.yaml", "--listen", "127.0.0.1:0", "--tolerance", "-0.1"}, "--tolerance: want a number ≥ 0"},
 		{"bad duration", []string{"--loop", "x.yaml", "--listen", "127.0.0.1:0", "--duration", "soon"}, `want a duration ≥ 0`},
 		{"bad window", []string{"--loop", "x.yaml", "--listen", "127.0.0.1:0", "--windows", "1m,-3s"}, `--windows: want comma-separated durations > 0`},
@@ -25,7 +25,7 @@ func TestRunBadInput(t *testing.T) {
 		{"missing file", []string{"--loop", "testdata/none.yaml", "--listen", "127.0.0.1:0"}, "testdata/none.yaml"},
 		{"no decode section", []string{"--loop", "testdata/marginal.yaml", "--listen", "127.0.0.1:0", "--metrics", "off"},
 			"testdata/marginal.yaml: decode: missing"},
-		{"window shorter than two periods", []string{"--loop", "../../tests/examples/monitor-text.yaml", "--listen", "127.0.0.1:0",
+		{"window shorter than two periods", []string{"--loop", "../../profiles/examples/checks/monitor-text.yaml", "--listen", "127.0.0.1:0",
 			"--metrics", "off", "--windows", "25ms", "--no-margin"}, "window 25ms: want at least two periods"},
 		{"stray argument", []string{"loop.yaml"}, `unexpected argument "loop.yaml"`},
 	}

@@ -18,11 +18,11 @@ import (
 // listed once, with all its roles, hashed (SHA-256 recomputed here from
 // the file) and embedded; each phase's source names its overrides.
 func TestSoakInputsAndSources(t *testing.T) {
-	loop, err := profiles.LoadLoop("examples/conveyor.yaml")
+	loop, err := profiles.LoadLoop("../../profiles/examples/loops/conveyor.yaml")
 	if err != nil {
 		t.Fatal(err)
 	}
-	sc, err := profiles.LoadScenario("../../profiles/scenarios/conveyor-qualification.yaml")
+	sc, err := profiles.LoadScenario("../../profiles/examples/scenarios/conveyor-qualification.yaml")
 	if err != nil {
 		t.Fatal(err)
 	}

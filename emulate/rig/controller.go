@@ -36,7 +36,7 @@ type ControllerStats struct {
 	SendError uint64
 }
 
-// Controller is the event-driven controller of docs/model.md §1 step 2. On a
+// Controller is the event-driven controller of estimate/model.md §1 step 2. On a
 // sample k that arrives at T with T − t_k < h (else it is stale and
 // discarded, leaving xc as it is) and is newer than the last one used, it
 // computes, with e_k = r − y_k,
@@ -46,7 +46,7 @@ type ControllerStats struct {
 // waits until T + c (the loop's compute_delay, honoured on a timerfd and a
 // short spin rather than folded into the network delays) and sends
 // "k,t_k,u_k" back to the sample's source. Its own stack and compute
-// latency, a few tens of microseconds, add to τ (docs/model.md §10).
+// latency, a few tens of microseconds, add to τ (estimate/model.md §10).
 type Controller struct {
 	cfg    ControllerConfig
 	log    *slog.Logger

@@ -1,5 +1,5 @@
 // Package rig simulates a networked control rig on real UDP sockets, as
-// docs/model.md §1 describes it: a node that holds the plant, its time-driven
+// estimate/model.md §1 describes it: a node that holds the plant, its time-driven
 // sensor and its hold actuator, and an event-driven controller, so the
 // relay, the monitor and the prediction can be exercised without hardware.
 //

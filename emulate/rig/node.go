@@ -59,7 +59,7 @@ type NodeStats struct {
 }
 
 // Node is the rig's field side: the plant, its time-driven sensor and its
-// actuator, on one UDP socket (docs/model.md §1 steps 1 and 3).
+// actuator, on one UDP socket (estimate/model.md §1 steps 1 and 3).
 //
 // Each period h, at t_k = t₀ + k h on a precise ticker, it advances the
 // plant to t_k with the held input, samples y_k = C x(t_k) + v_k and

@@ -33,7 +33,7 @@ func (l *lockedBuffer) String() string {
 // A node whose samples go to a port nobody listens on (the relay not
 // started yet) says so once, instead of running on in silence.
 func TestNodeWarnsWhenNothingAnswers(t *testing.T) {
-	loop, err := profiles.LoadLoop("../../cmd/monitor/examples/demo/diverter.yaml")
+	loop, err := profiles.LoadLoop("../../profiles/examples/demo/diverter.yaml")
 	if err != nil {
 		t.Fatal(err)
 	}

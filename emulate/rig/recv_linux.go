@@ -16,7 +16,7 @@ import (
 // the datagram wakes that thread straight from the kernel, not through the
 // Go scheduler's poller, which on a busy two-core machine adds tens to
 // hundreds of microseconds per hop — latency that would add to every τ of
-// the loop (docs/model.md §10). SO_RCVTIMEO wakes the read every pollEvery to
+// the loop (estimate/model.md §10). SO_RCVTIMEO wakes the read every pollEvery to
 // look at the stop flag. Writes stay on the net.UDPConn (the descriptor
 // is shared, so they block the writing thread for the few microseconds a
 // UDP send takes, which is what a rig's socket does anyway).

@@ -25,7 +25,7 @@ func RestStart(loop *profiles.Loop) Start {
 var ErrNoSteadyState = errors.New("the loop is not mean-square stable: no steady mean to start from")
 
 // SteadyStart is the loop at the predicted stationary mean E[z] of
-// z = [x; u; xc] (docs/model.md §4, estimate.Model.Steady), so that a run
+// z = [x; u; xc] (estimate/model.md §4, estimate.Model.Steady), so that a run
 // measures the steady state from its first sample instead of a transient
 // from rest. The node and the controller each compute it from the same
 // loop file, so they agree without talking.

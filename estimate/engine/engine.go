@@ -111,7 +111,7 @@ func init() {
 // (estimate.Predict with the loss margin).
 func New(loop *profiles.Loop, pred *estimate.Prediction, opts Options) (*Monitor, error) {
 	if loop.Decode.Format == "" {
-		return nil, fmt.Errorf("%s: decode: missing (the monitor needs to know where the outputs sit in each sensor datagram; see the decode section of docs/formats.md)", loop.File)
+		return nil, fmt.Errorf("%s: decode: missing (the monitor needs to know where the outputs sit in each sensor datagram; see the decode section of profiles/formats.md)", loop.File)
 	}
 	for i, r := range loop.Setpoint {
 		if !(math.Abs(r) <= datagram.MaxOutput) {

@@ -12,7 +12,7 @@ import (
 // x_k = e_kᵀe_k, over the whole run and over sliding windows of the most
 // recent samples. Its memory is fixed at construction whatever the length
 // of the run. It is not safe for concurrent use. The interval and the
-// verdict built on it are described in docs/model.md §9.
+// verdict built on it are described in estimate/model.md §9.
 //
 // # Point estimates
 //

@@ -10,7 +10,7 @@ import (
 
 // Normal is the normal law N(Mu, Sigma²) truncated to [0, ∞): the profile
 // kind "normal" (keys mean, std, shift), whose draws are redrawn while
-// negative (docs/model.md §10). Build it with [NewNormal]; Mu and Sigma are the
+// negative (estimate/model.md §10). Build it with [NewNormal]; Mu and Sigma are the
 // parameters of the untruncated normal, so Mean() is not Mu.
 //
 // With α = −Mu/Sigma, Z = 1 − Φ(α) the mass kept, φ and Φ the standard

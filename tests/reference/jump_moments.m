@@ -1,4 +1,4 @@
-% An independent implementation of the prediction of the model of docs/model.md (§3–§4) in
+% An independent implementation of the prediction of the model of estimate/model.md (§3–§4) in
 % GNU Octave (control package), for the check "second moments agree with
 % an independent implementation to 1e-6 relative on smooth cases". Written
 % from the model of estimate/doc.go alone: c2d for Phi, Gamma and Gamma0(tau) = Gamma(h - tau),
@@ -30,7 +30,7 @@ function L = servo_loop(h, c)
   L.sys = sys;
 end
 
-% Mode matrices (docs/model.md §3, held input). kind 0, 1, 2.
+% Mode matrices (estimate/model.md §3, held input). kind 0, 1, 2.
 function [F, g, HXH] = mode_of(L, kind, tau)
   n = 2; m = 1; nc = 1; p = 1;
   Phi = L.Phi; Gam = L.Gam; Ac = L.Ac; Bc = L.Bc; Cc = L.Cc; Dc = L.Dc; C = L.C; r = L.r;
