@@ -44,7 +44,7 @@ var mappingSections = map[string]string{
 	"profiles/load.go parseChannel loss":                  "profile.direction",
 	"profiles/load.go parseStates name":                   "profile.state",
 	"profiles/load.go parseStates ...":                    "", // next: the state names of the file
-	"profiles/tracechannel.go parseTraceChannel file":      "profile.trace",
+	"profiles/tracechannel.go parseTraceChannel file":     "profile.trace",
 	"profiles/delayparse.go parseDelayExtra ...":          "", // the delay kinds' table
 	"profiles/loopload.go parseLoop period":               "loop",
 	"profiles/loopload.go parseLoop on_loss":              "loop.actuator",

@@ -7,6 +7,7 @@ import (
 	"strings"
 	"text/tabwriter"
 
+	"rigwire/cmd/internal/cli"
 	"rigwire/cmd/internal/exitcode"
 	"rigwire/profiles"
 	"rigwire/profiles/laws"
@@ -34,7 +35,7 @@ const maxCheckInterval = 3600.0
 
 // cmdCheck is `impair check`: validate a profile and describe it.
 func cmdCheck(args []string, stdout, stderr io.Writer) error {
-	fs := newFlags("impair check", checkUsage, checkExits)
+	fs := cli.NewFlags("impair check", checkUsage, checkExits)
 	interval := 0.01
 	fs.Func("interval", "time between datagrams for loss-run figures (default 10ms)", func(s string) error {
 		v, err := yamlpos.ParseDuration(s)
@@ -48,16 +49,16 @@ func cmdCheck(args []string, stdout, stderr io.Writer) error {
 		return nil
 	})
 	// Flags may come before or after the profile.
-	paths, err := parseInterspersed(fs, args)
+	paths, err := fs.ParseInterspersed(args)
 	if err != nil {
 		return err
 	}
 	if len(paths) != 1 {
-		return usagef("want one profile, got %d", len(paths))
+		return cli.Usagef("want one profile, got %d", len(paths))
 	}
 	p, err := profiles.Load(paths[0])
 	if err != nil {
-		return badInput(err)
+		return cli.BadInput(err)
 	}
 	writeCheck(stdout, p, interval)
 	return nil

@@ -11,6 +11,7 @@ import (
 	"syscall"
 	"time"
 
+	"rigwire/cmd/internal/cli"
 	"rigwire/cmd/internal/exitcode"
 )
 
@@ -23,7 +24,7 @@ split the round trip into its two one-way delays. Datagrams that are not
 probes are counted and ignored. Runs until SIGINT or SIGTERM.
 `
 
-var echoExits = exitcode.Help(plainStatuses, map[int]string{
+var echoExits = exitcode.Help(cli.PlainStatuses, map[int]string{
 	exitcode.OK:       "stopped on SIGINT or SIGTERM",
 	exitcode.Failure:  "error while running (the socket)",
 	exitcode.BadInput: "bad usage",
@@ -31,22 +32,22 @@ var echoExits = exitcode.Help(plainStatuses, map[int]string{
 
 // cmdEcho is `impair echo`.
 func cmdEcho(args []string, stdout, stderr io.Writer) error {
-	fs := newFlags("impair echo", echoUsage, echoExits)
-	var listen addrFlag
+	fs := cli.NewFlags("impair echo", echoUsage, echoExits)
+	var listen cli.AddrFlag
 	fs.Var(&listen, "listen", "`HOST:PORT` to answer probes on (required)")
 	if err := fs.Parse(args); err != nil {
 		return err
 	}
 	if fs.NArg() > 0 {
-		return usagef("unexpected argument %q", fs.Arg(0))
+		return cli.Usagef("unexpected argument %q", fs.Arg(0))
 	}
-	if !listen.set {
-		return usagef("--listen: required")
+	if !listen.Given {
+		return cli.Usagef("--listen: required")
 	}
 	log := slog.New(slog.NewTextHandler(stderr, nil))
-	conn, err := net.ListenUDP("udp", net.UDPAddrFromAddrPort(listen.ap))
+	conn, err := net.ListenUDP("udp", net.UDPAddrFromAddrPort(listen.Addr))
 	if err != nil {
-		return fmt.Errorf("--listen %s: %w", listen.ap, err)
+		return fmt.Errorf("--listen %s: %w", listen.Addr, err)
 	}
 	ctx, stop := signal.NotifyContext(context.Background(), syscall.SIGINT, syscall.SIGTERM)
 	defer stop()

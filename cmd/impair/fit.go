@@ -10,6 +10,7 @@ import (
 	"strings"
 	"text/tabwriter"
 
+	"rigwire/cmd/internal/cli"
 	"rigwire/cmd/internal/exitcode"
 	"rigwire/estimate"
 	"rigwire/estimate/fit"
@@ -51,7 +52,7 @@ prediction (monitor predict's figures) of that loop under the fitted
 profile, beside the one under the loop's own profile.
 `
 
-var fitExits = exitcode.Help(plainStatuses, map[int]string{
+var fitExits = exitcode.Help(cli.PlainStatuses, map[int]string{
 	exitcode.OK:       "fitted (the profile was printed or written)",
 	exitcode.Failure:  "error while running (the profile file could not be written)",
 	exitcode.BadInput: "bad usage, a trace or loop file that does not load or validate (the message names file, line and key), or a trace that cannot be fitted (too few delivered probes)",
@@ -65,7 +66,7 @@ type fitFlags struct {
 
 // cmdFit is `impair fit`.
 func cmdFit(args []string, stdout, stderr io.Writer) error {
-	fs := newFlags("impair fit", fitUsage, fitExits)
+	fs := cli.NewFlags("impair fit", fitUsage, fitExits)
 	var f fitFlags
 	fs.BoolVar(&f.oneWay, "one-way", false, "fit the one-way delays (one_way_s)")
 	fs.BoolVar(&f.halve, "halve-rtt", false, "fit half of each round trip")
@@ -74,12 +75,12 @@ func cmdFit(args []string, stdout, stderr io.Writer) error {
 	fs.StringVar(&f.out, "out", "", "write the profile to `FILE`")
 	fs.StringVar(&f.name, "name", "", "the profile's name (default: fitted-<trace>)")
 	fs.StringVar(&f.loop, "loop", "", "also predict the loop `FILE` under the fitted profile")
-	paths, err := parseInterspersed(fs, args)
+	paths, err := fs.ParseInterspersed(args)
 	if err != nil {
 		return err
 	}
 	if len(paths) != 1 {
-		return usagef("want one trace file, got %d", len(paths))
+		return cli.Usagef("want one trace file, got %d", len(paths))
 	}
 	n := 0
 	for _, b := range []bool{f.oneWay, f.halve, f.roundTrip} {
@@ -88,16 +89,16 @@ func cmdFit(args []string, stdout, stderr io.Writer) error {
 		}
 	}
 	if n != 1 {
-		return usagef("want exactly one of --one-way, --halve-rtt, --round-trip (a round trip is halved only when you say so), got %d", n)
+		return cli.Usagef("want exactly one of --one-way, --halve-rtt, --round-trip (a round trip is halved only when you say so), got %d", n)
 	}
 	switch f.direction {
 	case profiles.SensorToController, profiles.ControllerToActuator, "both":
 	default:
-		return usagef("--direction: want sensor_to_controller, controller_to_actuator or both, got %q", f.direction)
+		return cli.Usagef("--direction: want sensor_to_controller, controller_to_actuator or both, got %q", f.direction)
 	}
 	tr, err := trace.LoadTrace(paths[0])
 	if err != nil {
-		return badInput(err)
+		return cli.BadInput(err)
 	}
 	res, err := fitTrace(tr, f)
 	if err != nil {
@@ -133,8 +134,8 @@ type fitResult struct {
 	profile  *profiles.Profile
 }
 
-// fitTrace fits the trace; an error is of the input (usageError,
-// inputError: a trace that cannot be fitted) unless the fitted profile
+// fitTrace fits the trace; an error is of the input (cli.UsageError,
+// cli.InputError: a trace that cannot be fitted) unless the fitted profile
 // does not load, which is a bug.
 func fitTrace(tr *trace.Trace, f fitFlags) (*fitResult, error) {
 	r := &fitResult{trace: tr}
@@ -143,7 +144,7 @@ func fitTrace(tr *trace.Trace, f fitFlags) (*fitResult, error) {
 	case f.oneWay:
 		r.column, r.what = "one_way_s", "one-way delay"
 		if !tr.ClocksSynced {
-			return nil, usagef("%s: --one-way: the trace does not declare synchronised clocks (clocks_synced: true); use --halve-rtt or --round-trip", tr.File)
+			return nil, cli.Usagef("%s: --one-way: the trace does not declare synchronised clocks (clocks_synced: true); use --halve-rtt or --round-trip", tr.File)
 		}
 	case f.halve:
 		r.column, r.what, scale = "rtt_s", "half the round trip", 0.5
@@ -152,7 +153,7 @@ func fitTrace(tr *trace.Trace, f fitFlags) (*fitResult, error) {
 	}
 	delays, lost, err := tr.Fates(r.column)
 	if err != nil {
-		return nil, badInput(err)
+		return nil, cli.BadInput(err)
 	}
 	var kept []float64
 	for i, l := range lost {
@@ -161,13 +162,13 @@ func fitTrace(tr *trace.Trace, f fitFlags) (*fitResult, error) {
 		}
 	}
 	if len(kept) < fit.MinFitSamples {
-		return nil, badInput(fmt.Errorf("%s: %d delivered probes, want at least %d to fit delays", tr.File, len(kept), fit.MinFitSamples))
+		return nil, cli.BadInput(fmt.Errorf("%s: %d delivered probes, want at least %d to fit delays", tr.File, len(kept), fit.MinFitSamples))
 	}
 	if r.delays, err = fit.Delays(kept); err != nil {
-		return nil, badInput(fmt.Errorf("%s: %w", tr.File, err))
+		return nil, cli.BadInput(fmt.Errorf("%s: %w", tr.File, err))
 	}
 	if r.loss, err = fit.Loss(lost); err != nil {
-		return nil, badInput(fmt.Errorf("%s: %w", tr.File, err))
+		return nil, cli.BadInput(fmt.Errorf("%s: %w", tr.File, err))
 	}
 	r.interval = tr.ProbeInterval()
 	if r.loss.Burst && r.interval > 0 {
@@ -298,17 +299,17 @@ func plusMinus(v, se float64) string {
 func printLoopPrediction(w io.Writer, path string, fitted *profiles.Profile) error {
 	loop, err := profiles.LoadLoop(path)
 	if err != nil {
-		return badInput(err)
+		return cli.BadInput(err)
 	}
 	own, err := estimate.Predict(loop, estimate.PredictOptions{SkipMargin: true})
 	if err != nil {
-		return badInput(fmt.Errorf("%s: predicting: %w", path, err))
+		return cli.BadInput(fmt.Errorf("%s: predicting: %w", path, err))
 	}
 	fl := *loop
 	fl.Profile = fitted
 	underFit, err := estimate.Predict(&fl, estimate.PredictOptions{SkipMargin: true})
 	if err != nil {
-		return badInput(fmt.Errorf("%s: predicting under the fitted profile: %w", path, err))
+		return cli.BadInput(fmt.Errorf("%s: predicting under the fitted profile: %w", path, err))
 	}
 	fmt.Fprintf(w, "\nprediction for %s\n", path)
 	tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', 0)

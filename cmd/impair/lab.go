@@ -3,6 +3,7 @@ package main
 import (
 	"io"
 
+	"rigwire/cmd/internal/cli"
 	"rigwire/cmd/internal/exitcode"
 	"rigwire/deploy/lab"
 )
@@ -17,7 +18,7 @@ namespaces in a chain: rw-rig (10.213.1.1) – (10.213.1.2) rw-relay
 Run a program inside one with: ip netns exec rw-relay impair run ...
 `
 
-var labExits = exitcode.Help(plainStatuses, map[int]string{
+var labExits = exitcode.Help(cli.PlainStatuses, map[int]string{
 	exitcode.OK:       "the topology is built (or removed)",
 	exitcode.Failure:  "error while running (an ip command failed; not root?)",
 	exitcode.BadInput: "bad usage, or a topology file that does not load or validate (the message names file, line and key)",
@@ -27,24 +28,24 @@ var labExits = exitcode.Help(plainStatuses, map[int]string{
 func cmdLab(args []string, stdout, stderr io.Writer) error {
 	if len(args) == 0 || (args[0] != "build" && args[0] != "remove") {
 		if len(args) > 0 && (args[0] == "-h" || args[0] == "-help" || args[0] == "--help" || args[0] == "help") {
-			return helpError{Text: labUsage + "\n" + labExits}
+			return cli.Help{Text: labUsage + "\n" + labExits}
 		}
-		return usagef("want build or remove")
+		return cli.Usagef("want build or remove")
 	}
 	verb := args[0]
-	fs := newFlags("impair lab "+verb, labUsage, labExits)
+	fs := cli.NewFlags("impair lab "+verb, labUsage, labExits)
 	config := fs.String("config", "", "topology `FILE` (YAML; default: the three-namespace chain)")
 	if err := fs.Parse(args[1:]); err != nil {
 		return err
 	}
 	if fs.NArg() > 0 {
-		return usagef("unexpected argument %q", fs.Arg(0))
+		return cli.Usagef("unexpected argument %q", fs.Arg(0))
 	}
 	cfg := lab.Default()
 	if *config != "" {
 		var err error
 		if cfg, err = lab.Load(*config); err != nil {
-			return badInput(err)
+			return cli.BadInput(err)
 		}
 	}
 	if verb == "build" {

@@ -21,6 +21,7 @@ package main
 // and record paths must be unique across the file.
 
 import (
+	"errors"
 	"fmt"
 	"net"
 	"net/netip"
@@ -29,6 +30,8 @@ import (
 	"strings"
 	"time"
 
+	"rigwire/cmd/internal/cli"
+	"rigwire/emulate"
 	"rigwire/profiles"
 	"rigwire/profiles/yamlpos"
 )
@@ -98,7 +101,7 @@ func parseLinks(data []byte, file, dir string) (*linksFile, error) {
 		if err != nil {
 			return nil, f.Errorf("want HOST:PORT or \"off\", got %s", f.Got())
 		}
-		if err := checkMetricsAddr(s); err != nil {
+		if err := cli.CheckMetricsAddr(s); err != nil {
 			return nil, f.Errorf("%s", strings.TrimPrefix(err.Error(), "--metrics: "))
 		}
 		lf.Metrics = s
@@ -183,7 +186,7 @@ func parseLink(it yamlpos.Field, dir string) (linkSpec, error) {
 		if err != nil {
 			return f.Errorf("want HOST:PORT, got %s", f.Got())
 		}
-		ap, err := resolveAddr(s)
+		ap, err := cli.ResolveAddr(s)
 		if err != nil {
 			return f.Errorf("%v", err)
 		}
@@ -207,7 +210,7 @@ func parseLink(it yamlpos.Field, dir string) (linkSpec, error) {
 	if f, ok := keys["sensor"]; ok {
 		s, err := f.Text()
 		if err == nil {
-			l.Sensor, err = resolveHostPort(s)
+			l.Sensor, err = cli.ParseSender(s, "the rig's sensor node", cli.ResolveAddr)
 		}
 		if err != nil {
 			return l, f.Errorf("%v", err)
@@ -311,7 +314,7 @@ func resolveHost(s string) (netip.Addr, error) {
 	if s == "" {
 		return netip.Addr{}, fmt.Errorf("want a host, got nothing")
 	}
-	if !lookupNames {
+	if !cli.LookupNames {
 		return netip.Addr{}, fmt.Errorf("want a host address, got %q", s)
 	}
 	ia, err := net.ResolveIPAddr("ip", s)
@@ -323,4 +326,17 @@ func resolveHost(s string) (netip.Addr, error) {
 		return netip.Addr{}, fmt.Errorf("want a host, got %q", s)
 	}
 	return a.Unmap(), nil
+}
+
+// checkFamilies refuses a link whose addresses one socket would have to
+// serve in two families (emulate.CheckFamilies); name spells a key (a
+// flag, or a key of the links file).
+func checkFamilies(l linkSpec, name func(key string) string) error {
+	err := emulate.CheckFamilies(emulate.Config{Listen: l.Listen, Actuator: l.Actuator, Sensor: l.Sensor,
+		Controller: l.Controller, ControllerBind: l.ControllerBind})
+	var fe *emulate.FamilyError
+	if errors.As(err, &fe) {
+		return errors.New(fe.Spell(name))
+	}
+	return err
 }

@@ -4,6 +4,7 @@ import (
 	"bufio"
 	"os"
 	"path/filepath"
+	"rigwire/cmd/internal/cli"
 	"strings"
 	"testing"
 )
@@ -96,8 +97,8 @@ func FuzzParseLinks(f *testing.F) {
 	} {
 		f.Add([]byte(s))
 	}
-	lookupNames = false
-	f.Cleanup(func() { lookupNames = true })
+	cli.LookupNames = false
+	f.Cleanup(func() { cli.LookupNames = true })
 	f.Fuzz(func(t *testing.T, data []byte) {
 		lf, err := parseLinks(data, "fuzz.yaml", "/nowhere")
 		if err == nil && len(lf.Links) == 0 {

@@ -17,7 +17,6 @@
 package main
 
 import (
-	"fmt"
 	"io"
 	"os"
 
@@ -58,36 +57,17 @@ func main() {
 	os.Exit(dispatch(os.Args[1:], os.Stdout, os.Stderr))
 }
 
-// dispatch runs a command and returns its exit status (exitStatus).
+// commands are impair's subcommands.
+var commands = map[string]cli.Command{
+	"run":   cmdRun,
+	"check": cmdCheck,
+	"echo":  cmdEcho,
+	"probe": cmdProbe,
+	"fit":   cmdFit,
+	"lab":   cmdLab,
+}
+
+// dispatch runs a subcommand and returns its exit status (cli.Dispatch).
 func dispatch(args []string, stdout, stderr io.Writer) int {
-	if len(args) == 0 {
-		fmt.Fprint(stderr, usage)
-		return exitcode.BadInput
-	}
-	var err error
-	switch args[0] {
-	case "run":
-		err = cmdRun(args[1:], stdout, stderr)
-	case "check":
-		err = cmdCheck(args[1:], stdout, stderr)
-	case "echo":
-		err = cmdEcho(args[1:], stdout, stderr)
-	case "probe":
-		err = cmdProbe(args[1:], stdout, stderr)
-	case "fit":
-		err = cmdFit(args[1:], stdout, stderr)
-	case "lab":
-		err = cmdLab(args[1:], stdout, stderr)
-	case "help", "-h", "-help", "--help":
-		fmt.Fprint(stdout, usage)
-		return exitcode.OK
-	default:
-		fmt.Fprintf(stderr, "impair: unknown command %q\n%s", args[0], usage)
-		return exitcode.BadInput
-	}
-	name := "impair " + args[0]
-	if args[0] == "lab" && len(args) > 1 && (args[1] == "build" || args[1] == "remove") {
-		name += " " + args[1]
-	}
-	return cli.Status(err, name, stdout, stderr)
+	return cli.Dispatch("impair", usage, commands, map[string][]string{"lab": {"build", "remove"}}, args, stdout, stderr)
 }

@@ -16,6 +16,7 @@ import (
 	"syscall"
 	"time"
 
+	"rigwire/cmd/internal/cli"
 	"rigwire/cmd/internal/exitcode"
 	"rigwire/profiles/trace"
 )
@@ -54,7 +55,7 @@ const traceDoc = `  # rigwire probe trace v1
   reordered  1 when the first reply came after a later probe's first reply
 `
 
-var probeExits = exitcode.Help(plainStatuses, map[int]string{
+var probeExits = exitcode.Help(cli.PlainStatuses, map[int]string{
 	exitcode.OK:       "the trace was written (also after SIGINT/SIGTERM)",
 	exitcode.Failure:  "error while running (the socket, the trace file)",
 	exitcode.BadInput: "bad usage",
@@ -80,8 +81,8 @@ type probeRec struct {
 
 // cmdProbe is `impair probe`.
 func cmdProbe(args []string, stdout, stderr io.Writer) error {
-	fs := newFlags("impair probe", probeUsage, probeExits)
-	var target addrFlag
+	fs := cli.NewFlags("impair probe", probeUsage, probeExits)
+	var target cli.AddrFlag
 	fs.Var(&target, "target", "`HOST:PORT` of the echo, or of a relay in front of it (required)")
 	rate := fs.Float64("rate", 100, "probes per second")
 	size := fs.Int("size", 64, "probe size in bytes (≥ 36)")
@@ -92,11 +93,11 @@ func cmdProbe(args []string, stdout, stderr io.Writer) error {
 	if err := fs.Parse(args); err != nil {
 		return err
 	}
-	fail := usagef
+	fail := cli.Usagef
 	switch {
 	case fs.NArg() > 0:
 		return fail("unexpected argument %q", fs.Arg(0))
-	case !target.set:
+	case !target.Given:
 		return fail("--target: required")
 	case *out == "":
 		return fail("--out: required")
@@ -114,9 +115,9 @@ func cmdProbe(args []string, stdout, stderr io.Writer) error {
 		return fail("--rate × --duration: want at most %d probes, got %d", maxProbes, n)
 	}
 	log := slog.New(slog.NewTextHandler(stderr, nil))
-	conn, err := net.DialUDP("udp", nil, net.UDPAddrFromAddrPort(target.ap))
+	conn, err := net.DialUDP("udp", nil, net.UDPAddrFromAddrPort(target.Addr))
 	if err != nil {
-		return fmt.Errorf("--target %s: %w", target.ap, err)
+		return fmt.Errorf("--target %s: %w", target.Addr, err)
 	}
 	defer conn.Close()
 	fh, err := os.Create(*out)
@@ -128,7 +129,7 @@ func cmdProbe(args []string, stdout, stderr io.Writer) error {
 	ctx, stop := signal.NotifyContext(context.Background(), syscall.SIGINT, syscall.SIGTERM)
 	defer stop()
 	p := &prober{conn: conn, recs: make([]probeRec, n), interval: time.Duration(float64(time.Second) / *rate), size: *size, start: time.Now()}
-	log.Info("probing", "target", target.ap.String(), "rate", *rate, "size", *size, "duration", duration.String(), "probes", n)
+	log.Info("probing", "target", target.Addr.String(), "rate", *rate, "size", *size, "duration", duration.String(), "probes", n)
 
 	var wg sync.WaitGroup
 	wg.Add(1)
@@ -145,7 +146,7 @@ func cmdProbe(args []string, stdout, stderr io.Writer) error {
 	close(progressDone)
 
 	w := bufio.NewWriter(fh)
-	writeTrace(w, p.recs[:sent], *rate, *size, *synced, target.ap.String())
+	writeTrace(w, p.recs[:sent], *rate, *size, *synced, target.Addr.String())
 	if err := w.Flush(); err != nil {
 		return fmt.Errorf("writing %s: %w", *out, err)
 	}

@@ -14,6 +14,7 @@ import (
 	"github.com/prometheus/client_golang/prometheus"
 	"github.com/prometheus/client_golang/prometheus/collectors"
 
+	"rigwire/cmd/internal/cli"
 	"rigwire/cmd/internal/metricsrv"
 	"rigwire/emulate"
 	"rigwire/profiles"
@@ -46,14 +47,14 @@ func openLink(spec linkSpec, opts runOpts, reg prometheus.Registerer, log *slog.
 	if spec.ScenarioPath != "" {
 		sc, err := loadPlayingScenario(spec.ScenarioPath, opts.timeScale)
 		if err != nil {
-			return nil, badInput(err)
+			return nil, cli.BadInput(err)
 		}
 		l.scen = sc
 		first = sc.steps[0].Profile
 	} else {
 		p, err := profiles.Load(spec.ProfilePath)
 		if err != nil {
-			return nil, badInput(err)
+			return nil, cli.BadInput(err)
 		}
 		l.prof, first = p, p
 	}
@@ -65,7 +66,7 @@ func openLink(spec linkSpec, opts runOpts, reg prometheus.Registerer, log *slog.
 	if spec.RecordPath != "" {
 		f, err := openRecord(spec.RecordPath, append([]string{spec.ProfilePath, spec.ScenarioPath}, opts.inputs...))
 		if err != nil {
-			return nil, badInput(err)
+			return nil, cli.BadInput(err)
 		}
 		l.record = f
 	}
@@ -146,7 +147,7 @@ func (l *link) describe(w io.Writer) {
 // runLinks opens every link, serves the metrics, and relays until SIGINT
 // or SIGTERM (a second one abandons what is in flight), or until every
 // scenario has ended with --exit-after-scenario. A link whose files do not
-// load is an inputError; a relay that fails while running is logged and
+// load is an cli.InputError; a relay that fails while running is logged and
 // ends the command with status 1.
 func runLinks(specs []linkSpec, opts runOpts, stderr io.Writer, log *slog.Logger) error {
 	reg := prometheus.NewRegistry()
@@ -167,7 +168,7 @@ func runLinks(specs []linkSpec, opts runOpts, stderr io.Writer, log *slog.Logger
 		if err != nil {
 			closeAll()
 			if !opts.singleLink {
-				err = fmt.Errorf("link %q: %w", s.Name, err) // an inputError stays one
+				err = fmt.Errorf("link %q: %w", s.Name, err) // an cli.InputError stays one
 			}
 			return err
 		}
@@ -307,7 +308,7 @@ func runLinks(specs []linkSpec, opts runOpts, stderr io.Writer, log *slog.Logger
 		}
 	}
 	if code != 0 {
-		return exitError{Code: code} // the reasons are logged above
+		return cli.Exit{Code: code} // the reasons are logged above
 	}
 	log.Info("stopped")
 	return nil

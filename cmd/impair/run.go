@@ -7,6 +7,7 @@ import (
 	"net/netip"
 	"time"
 
+	"rigwire/cmd/internal/cli"
 	"rigwire/cmd/internal/exitcode"
 	"rigwire/emulate"
 )
@@ -64,16 +65,16 @@ link clean or stops its commands (--on-trip). The trip is no emergency
 stop: keep one that does not depend on the link or on rigwire.
 `
 
-var runExits = exitcode.Help(plainStatuses, map[int]string{
+var runExits = exitcode.Help(cli.PlainStatuses, map[int]string{
 	exitcode.OK:       "stopped on SIGINT/SIGTERM, or the scenario ended (--exit-after-scenario)",
 	exitcode.Failure:  "error while running (a socket, the record file, a relay that failed)",
 	exitcode.BadInput: "bad usage, or a profile, scenario or links file that does not load or validate (the message names file, line and key)",
 })
 
 func cmdRun(args []string, stdout, stderr io.Writer) error {
-	fs := newFlags("impair run", runUsage, runExits)
-	var listen, controller, actuator, ctlBind, tap, tripListen addrFlag
-	var sensor hostPortFlag
+	fs := cli.NewFlags("impair run", runUsage, runExits)
+	var listen, controller, actuator, ctlBind, tap, tripListen cli.AddrFlag
+	sensor := cli.SenderFlag{Who: "the rig's sensor node"}
 	profilePath := fs.String("profile", "", "network profile `FILE` (YAML)")
 	scenarioPath := fs.String("scenario", "", "play the scenario `FILE` (YAML) instead of one profile")
 	linksPath := fs.String("links", "", "relay several rigs' links described in `FILE` (YAML) instead of one from flags")
@@ -100,7 +101,7 @@ func cmdRun(args []string, stdout, stderr io.Writer) error {
 	if err := fs.Parse(args); err != nil {
 		return err
 	}
-	fail := usagef
+	fail := cli.Usagef
 	if fs.NArg() > 0 {
 		return fail("unexpected argument %q", fs.Arg(0))
 	}
@@ -127,8 +128,8 @@ func cmdRun(args []string, stdout, stderr io.Writer) error {
 		return fail("--spin: want 0…10ms, got %s", *spin)
 	case !(*timeScale > 0 && *timeScale <= maxTimeScale):
 		return fail("--time-scale: want a factor > 0 and ≤ %d, got %g", maxTimeScale, *timeScale)
-	case checkMetricsAddr(*metricsAddr) != nil:
-		return checkMetricsAddr(*metricsAddr)
+	case cli.CheckMetricsAddr(*metricsAddr) != nil:
+		return cli.CheckMetricsAddr(*metricsAddr)
 	}
 	var level slog.Level
 	if err := level.UnmarshalText([]byte(*logLevel)); err != nil {
@@ -147,7 +148,7 @@ func cmdRun(args []string, stdout, stderr io.Writer) error {
 		}
 		lf, err := loadLinks(*linksPath)
 		if err != nil {
-			return badInput(err)
+			return cli.BadInput(err)
 		}
 		if lf.Metrics != "" && !set["metrics"] {
 			opts.metricsAddr = lf.Metrics
@@ -156,21 +157,21 @@ func cmdRun(args []string, stdout, stderr io.Writer) error {
 		opts.inputs = []string{*linksPath}
 	} else {
 		switch {
-		case !listen.set:
+		case !listen.Given:
 			return fail("--listen: required")
-		case !controller.set:
+		case !controller.Given:
 			return fail("--controller: required")
 		}
 		s := linkSpec{
-			Listen: listen.ap, Controller: controller.ap, Actuator: actuator.ap, Sensor: sensor.ap,
-			ControllerBind: ctlBind.ap, Tap: tap.ap, ProfilePath: *profilePath, ScenarioPath: *scenarioPath,
+			Listen: listen.Addr, Controller: controller.Addr, Actuator: actuator.Addr, Sensor: sensor.Addr,
+			ControllerBind: ctlBind.Addr, Tap: tap.Addr, ProfilePath: *profilePath, ScenarioPath: *scenarioPath,
 			Seed: *seed, SeedSet: set["seed"], RecordPath: *recordPath, RelockAfter: *relockAfter,
 		}
 		if err := checkFamilies(s, func(key string) string { return "--" + key }); err != nil {
 			return fail("%v", err)
 		}
-		if tripListen.set {
-			s.TripListen = tripListen.ap
+		if tripListen.Given {
+			s.TripListen = tripListen.Addr
 			a, ok := parseTripAction(*onTrip)
 			if !ok {
 				return fail("--on-trip: want clean or stop_commands, got %q", *onTrip)

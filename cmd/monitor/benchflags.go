@@ -4,6 +4,7 @@ import (
 	"flag"
 	"time"
 
+	"rigwire/cmd/internal/cli"
 	"rigwire/cmd/internal/exitcode"
 )
 
@@ -39,7 +40,7 @@ type benchFlags struct {
 }
 
 // addBenchFlags registers them on fs with the command's defaults.
-func addBenchFlags(fs *flags, loopHelp, metrics string, every time.Duration) *benchFlags {
+func addBenchFlags(fs *cli.Flags, loopHelp, metrics string, every time.Duration) *benchFlags {
 	return &benchFlags{
 		loop:       fs.String("loop", "", loopHelp),
 		listen:     fs.String("listen", "", "`HOST:PORT` where the sensor node's datagrams arrive (required)"),
@@ -54,30 +55,30 @@ func addBenchFlags(fs *flags, loopHelp, metrics string, every time.Duration) *be
 
 // check is the checks common to both commands, after fs.Parse. With a
 // simulated rig the relay's addresses are the rig's own (not required).
-func (f *benchFlags) check(fs *flags, simulated bool) error {
+func (f *benchFlags) check(fs *cli.Flags, simulated bool) error {
 	switch {
 	case fs.NArg() > 0:
-		return usagef("unexpected argument %q", fs.Arg(0))
+		return cli.Usagef("unexpected argument %q", fs.Arg(0))
 	case *f.loop == "":
-		return usagef("--loop: required")
+		return cli.Usagef("--loop: required")
 	case *f.every < 0:
-		return usagef("--progress: want ≥ 0, got %s", *f.every)
-	case checkMetricsAddr(*f.metrics) != nil:
-		return checkMetricsAddr(*f.metrics)
+		return cli.Usagef("--progress: want ≥ 0, got %s", *f.every)
+	case cli.CheckMetricsAddr(*f.metrics) != nil:
+		return cli.CheckMetricsAddr(*f.metrics)
 	case simulated && (*f.controller != "" || *f.actuator != ""):
-		return usagef("--controller, --actuator: not with --simulated-rig (the simulated rig's own addresses are used)")
+		return cli.Usagef("--controller, --actuator: not with --simulated-rig (the simulated rig's own addresses are used)")
 	case simulated:
 		return nil
 	case *f.listen == "":
-		return usagef("--listen: required")
+		return cli.Usagef("--listen: required")
 	case *f.controller == "":
-		return usagef("--controller: required")
+		return cli.Usagef("--controller: required")
 	}
 	return nil
 }
 
 // seedSet tells whether --seed was given.
-func (f *benchFlags) seedSet(fs *flags) bool {
+func (f *benchFlags) seedSet(fs *cli.Flags) bool {
 	set := false
 	fs.Visit(func(fl *flag.Flag) { set = set || fl.Name == "seed" })
 	return set

@@ -10,6 +10,7 @@ import (
 	"sync"
 	"time"
 
+	"rigwire/cmd/internal/cli"
 	"rigwire/cmd/internal/exitcode"
 	"rigwire/emulate"
 	"rigwire/emulate/rig"
@@ -49,7 +50,7 @@ var demoExits = exitcode.Help(
 // the relay's tap) on loopback UDP sockets, shows the progress once a
 // second, serves the metrics and ends with predicted against measured.
 func cmdDemo(args []string, stdout, stderr io.Writer) error {
-	fs := newFlags("monitor demo", demoHead, demoExits)
+	fs := cli.NewFlags("monitor demo", demoHead, demoExits)
 	cautions := cautionsFlag(fs)
 	var dur durationFlag
 	dur.s = 60
@@ -67,15 +68,15 @@ func cmdDemo(args []string, stdout, stderr io.Writer) error {
 	}
 	switch {
 	case fs.NArg() > 0:
-		return usagef("unexpected argument %q", fs.Arg(0))
+		return cli.Usagef("unexpected argument %q", fs.Arg(0))
 	case dur.s <= 0:
-		return usagef("--duration: want > 0, got %gs", dur.s)
+		return cli.Usagef("--duration: want > 0, got %gs", dur.s)
 	case *tolerance < 0 || *tolerance > 10:
-		return usagef("--tolerance: want 0…10, got %g", *tolerance)
+		return cli.Usagef("--tolerance: want 0…10, got %g", *tolerance)
 	case *every < 0:
-		return usagef("--progress: want ≥ 0, got %s", *every)
-	case checkMetricsAddr(*metrics) != nil:
-		return checkMetricsAddr(*metrics)
+		return cli.Usagef("--progress: want ≥ 0, got %s", *every)
+	case cli.CheckMetricsAddr(*metrics) != nil:
+		return cli.CheckMetricsAddr(*metrics)
 	}
 	log := slog.New(slog.NewTextHandler(stderr, &slog.HandlerOptions{Level: slog.LevelWarn}))
 
@@ -96,12 +97,12 @@ func cmdDemo(args []string, stdout, stderr io.Writer) error {
 	}
 	loop, err := profiles.LoadLoop(path)
 	if err != nil {
-		return badInput(err)
+		return cli.BadInput(err)
 	}
 	var prof *profiles.Profile
 	if *profilePath != "" {
 		if prof, err = profiles.Load(*profilePath); err != nil {
-			return badInput(err)
+			return cli.BadInput(err)
 		}
 	}
 	if prof == nil {
@@ -187,10 +188,10 @@ func cmdDemo(args []string, stdout, stderr io.Writer) error {
 	case engine.VerdictAgree:
 		return nil
 	case engine.VerdictInconclusive:
-		return exitError{Code: code, Msg: "verdict inconclusive: " + s.VerdictReason +
+		return cli.Exit{Code: code, Msg: "verdict inconclusive: " + s.VerdictReason +
 			" (a longer --duration gives the estimate more to go on)"}
 	default:
-		return exitError{Code: code, Msg: fmt.Sprintf("verdict %s: %s", s.Verdict, s.VerdictReason)}
+		return cli.Exit{Code: code, Msg: fmt.Sprintf("verdict %s: %s", s.Verdict, s.VerdictReason)}
 	}
 }
 

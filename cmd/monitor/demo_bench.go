@@ -18,6 +18,7 @@ import (
 	"github.com/prometheus/client_golang/prometheus/collectors"
 	"github.com/prometheus/client_golang/prometheus/promhttp"
 
+	"rigwire/cmd/internal/cli"
 	"rigwire/emulate"
 	"rigwire/estimate"
 	"rigwire/estimate/engine"
@@ -60,11 +61,11 @@ func openBench(cfg benchConfig) (*bench, error) {
 	b := &bench{loop: cfg.loop, log: cfg.log, reg: prometheus.NewRegistry()}
 	var err error
 	if b.pred, err = estimate.Predict(cfg.loop, estimate.PredictOptions{}); err != nil {
-		return nil, badInput(fmt.Errorf("%s: prediction: %w", cfg.loop.File, err))
+		return nil, cli.BadInput(fmt.Errorf("%s: prediction: %w", cfg.loop.File, err))
 	}
 	b.mon, err = engine.New(cfg.loop, b.pred, engine.Options{Tolerance: cfg.tolerance, Warmup: cfg.warmup})
 	if err != nil {
-		return nil, badInput(fmt.Errorf("%s: %w", cfg.loop.File, err))
+		return nil, cli.BadInput(fmt.Errorf("%s: %w", cfg.loop.File, err))
 	}
 	b.reg.MustRegister(collectors.NewGoCollector(), collectors.NewProcessCollector(collectors.ProcessCollectorOpts{}))
 	if err := b.mon.RegisterMetrics(b.reg); err != nil {
@@ -76,15 +77,15 @@ func openBench(cfg benchConfig) (*bench, error) {
 	}
 	rc := emulate.Config{Profile: prof, TapFunc: b.mon.Feed, Metrics: emulate.NewMetrics(b.reg),
 		Seed: cfg.seed, SeedSet: cfg.seedSet, Logger: cfg.log}
-	if rc.Listen, err = resolveAddrPort(cfg.listen); err != nil {
-		return nil, usagef("--listen: %v", err)
+	if rc.Listen, err = cli.ResolveAddr(cfg.listen); err != nil {
+		return nil, cli.Usagef("--listen: %v", err)
 	}
-	if rc.Controller, err = resolveAddrPort(cfg.controller); err != nil {
-		return nil, usagef("--controller: %v", err)
+	if rc.Controller, err = cli.ResolveAddr(cfg.controller); err != nil {
+		return nil, cli.Usagef("--controller: %v", err)
 	}
 	if cfg.actuator != "" {
-		if rc.Actuator, err = resolveAddrPort(cfg.actuator); err != nil {
-			return nil, usagef("--actuator: %v", err)
+		if rc.Actuator, err = cli.ResolveAddr(cfg.actuator); err != nil {
+			return nil, cli.Usagef("--actuator: %v", err)
 		}
 	}
 	if b.relay, err = emulate.New(rc); err != nil {
@@ -129,7 +130,7 @@ func (b *bench) armTrip(trip profiles.Trip) (<-chan struct{}, error) {
 		once.Do(func() { close(tripped) })
 	})
 	if err != nil {
-		return nil, badInput(fmt.Errorf("%s: trip: %w", b.loop.File, err))
+		return nil, cli.BadInput(fmt.Errorf("%s: trip: %w", b.loop.File, err))
 	}
 	return tripped, nil
 }

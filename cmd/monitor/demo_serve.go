@@ -9,6 +9,7 @@ import (
 	"os"
 	"time"
 
+	"rigwire/cmd/internal/cli"
 	"rigwire/cmd/internal/exitcode"
 	"rigwire/emulate"
 	"rigwire/profiles"
@@ -25,7 +26,7 @@ const serveCaution = "SAFETY: the relay will delay and drop the commands that mo
 // summary. A loop with a trip section arms the safety trip; the run then
 // exits 8 when it fired.
 func cmdServe(args []string, stdout, stderr io.Writer) error {
-	fs := newFlags("monitor serve", serveHead, serveExits)
+	fs := cli.NewFlags("monitor serve", serveHead, serveExits)
 	cautions := cautionsFlag(fs)
 	bf := addBenchFlags(fs, "loop `FILE` (YAML, with a decode section; its trip section arms the safety trip) (required)",
 		"127.0.0.1:9472", time.Second)
@@ -41,17 +42,17 @@ func cmdServe(args []string, stdout, stderr io.Writer) error {
 		return err
 	}
 	if *tolerance < 0 || *tolerance > 10 {
-		return usagef("--tolerance: want 0…10, got %g", *tolerance)
+		return cli.Usagef("--tolerance: want 0…10, got %g", *tolerance)
 	}
 	log := slog.New(slog.NewTextHandler(stderr, nil))
 	loop, err := profiles.LoadLoop(*bf.loop)
 	if err != nil {
-		return badInput(err)
+		return cli.BadInput(err)
 	}
 	var prof *profiles.Profile
 	if *profilePath != "" {
 		if prof, err = profiles.Load(*profilePath); err != nil {
-			return badInput(err)
+			return cli.BadInput(err)
 		}
 		l := *loop // predict for the network the relay applies
 		l.Profile, l.ProfileFile = prof, prof.File
@@ -94,7 +95,7 @@ func cmdServe(args []string, stdout, stderr io.Writer) error {
 	}
 	fmt.Fprintln(stderr, verdictLine(s))
 	if s.Trip != nil {
-		return exitError{Code: exitcode.OfTrip(s), Msg: fmt.Sprintf("safety trip: %s %.5g above the bound %.5g; relay action %s",
+		return cli.Exit{Code: exitcode.OfTrip(s), Msg: fmt.Sprintf("safety trip: %s %.5g above the bound %.5g; relay action %s",
 			s.Trip.Reason, s.Trip.Value, s.Trip.Bound, s.Trip.Action)}
 	}
 	return nil

@@ -15,12 +15,11 @@
 //
 // Every command exits with a status of the one table in
 // cmd/internal/exitcode: an error of its flags or of a file it reads
-// (usageError, inputError) is 2, an error while running is 1, and the
-// verdicts have their own codes (exitError).
+// (cli.UsageError, cli.InputError) is 2, an error while running is 1, and the
+// verdicts have their own codes (cli.Exit).
 package main
 
 import (
-	"fmt"
 	"io"
 	"os"
 
@@ -51,62 +50,34 @@ var allStatuses = []int{exitcode.OK, exitcode.Failure, exitcode.BadInput, exitco
 	exitcode.Inconclusive, exitcode.NotStable, exitcode.PhaseFailed, exitcode.Tripped}
 
 func main() {
-	os.Exit(run(os.Args[1:], os.Stdout, os.Stderr))
+	os.Exit(dispatch(os.Args[1:], os.Stdout, os.Stderr))
 }
 
-// run dispatches a subcommand and returns its exit status (see
-// exitStatus).
-func run(args []string, stdout, stderr io.Writer) int {
-	if len(args) == 0 {
-		fmt.Fprint(stderr, usage)
-		return exitcode.BadInput
-	}
-	var err error
-	switch args[0] {
-	case "predict":
-		err = cmdPredict(args[1:], stdout, stderr)
-	case "simulate":
-		err = cmdSimulate(args[1:], stdout, stderr)
-	case "rig":
-		err = cmdRig(args[1:], stdout, stderr)
-	case "demo":
-		err = cmdDemo(args[1:], stdout, stderr)
-	case "serve":
-		err = cmdServe(args[1:], stdout, stderr)
-	case "soak":
-		err = cmdSoak(args[1:], stdout, stderr)
-	case "run":
-		err = cmdRun(args[1:], stdout, stderr)
-	case "-h", "-help", "--help", "help":
-		fmt.Fprint(stdout, usage)
-		return exitcode.OK
-	default:
-		fmt.Fprintf(stderr, "monitor: unknown command %q\n%s", args[0], usage)
-		return exitcode.BadInput
-	}
-	name := args[0]
-	if name == "rig" && len(args) > 1 && (args[1] == "node" || args[1] == "controller") {
-		name += " " + args[1]
-	}
-	return cli.Status(err, "monitor "+name, stdout, stderr)
+// commands are monitor's subcommands.
+var commands = map[string]cli.Command{
+	"predict":  cmdPredict,
+	"simulate": cmdSimulate,
+	"rig":      cmdRig,
+	"demo":     cmdDemo,
+	"serve":    cmdServe,
+	"soak":     cmdSoak,
+	"run":      cmdRun,
+}
+
+// dispatch runs a subcommand and returns its exit status (cli.Dispatch).
+func dispatch(args []string, stdout, stderr io.Writer) int {
+	return cli.Dispatch("monitor", usage, commands, map[string][]string{"rig": {"node", "controller"}}, args, stdout, stderr)
 }
 
 // parseArgs parses flags given before or after the one positional argument
 // (the loop file), as in "monitor predict loop.yaml --json".
-func parseArgs(fs *flags, args []string) (string, error) {
-	var pos []string
-	for {
-		if err := fs.Parse(args); err != nil {
-			return "", err
-		}
-		if fs.NArg() == 0 {
-			break
-		}
-		pos = append(pos, fs.Arg(0))
-		args = fs.Args()[1:]
+func parseArgs(fs *cli.Flags, args []string) (string, error) {
+	pos, err := fs.ParseInterspersed(args)
+	if err != nil {
+		return "", err
 	}
 	if len(pos) != 1 {
-		return "", usagef("want one loop file, got %d arguments", len(pos))
+		return "", cli.Usagef("want one loop file, got %d arguments", len(pos))
 	}
 	return pos[0], nil
 }

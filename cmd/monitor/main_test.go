@@ -11,7 +11,7 @@ import (
 
 func runMonitor(args ...string) (code int, stdout, stderr string) {
 	var o, e bytes.Buffer
-	code = run(args, &o, &e)
+	code = dispatch(args, &o, &e)
 	return code, o.String(), e.String()
 }
 

@@ -16,6 +16,7 @@ import (
 	"gonum.org/v1/plot/vg/vgpdf"
 	"gonum.org/v1/plot/vg/vgsvg"
 
+	"rigwire/cmd/internal/cli"
 	"rigwire/estimate"
 	"rigwire/estimate/report"
 )
@@ -26,7 +27,7 @@ func checkPlotName(name string) error {
 	case ".svg", ".png", ".pdf":
 		return nil
 	}
-	return usagef("--plot: want a file ending in .svg, .png or .pdf, got %q", name)
+	return cli.Usagef("--plot: want a file ending in .svg, .png or .pdf, got %q", name)
 }
 
 // The colours come from the project's palette (report.Palette): the

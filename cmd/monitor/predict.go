@@ -10,6 +10,7 @@ import (
 	"text/tabwriter"
 	"time"
 
+	"rigwire/cmd/internal/cli"
 	"rigwire/cmd/internal/exitcode"
 	"rigwire/estimate"
 	"rigwire/profiles"
@@ -48,7 +49,7 @@ var predictExits = exitcode.Help(
 	})
 
 func cmdPredict(args []string, stdout, stderr io.Writer) error {
-	fs := newFlags("monitor predict", predictHead, predictExits)
+	fs := cli.NewFlags("monitor predict", predictHead, predictExits)
 	asJSON := fs.Bool("json", false, "print one JSON object: mean_square_stable, stability, spectral_radius, spectral_radius_error, error_mean, error_second_moment, error_std, loss_margin, then the period, the actuator's policy and the network states")
 	strict := fs.Bool("strict", false, "exit 6 when the loop is not mean-square stable, 5 when the computation cannot tell (marginal)")
 	vary := fs.String("vary", "", "sweep a parameter and print CSV: loss=START:STOP:STEP or delay_scale=START:STOP:STEP")
@@ -61,16 +62,16 @@ func cmdPredict(args []string, stdout, stderr io.Writer) error {
 		return err
 	}
 	if *vary != "" && *step != 0 {
-		return usagef("--vary and --step: want one of them, got both")
+		return cli.Usagef("--vary and --step: want one of them, got both")
 	}
 	if *strict && (*vary != "" || *step != 0) {
-		return usagef("--strict: only with the single prediction, not with --vary or --step")
+		return cli.Usagef("--strict: only with the single prediction, not with --vary or --step")
 	}
 	if *step < 0 || *step > 1_000_000 {
-		return usagef("--step: want a number of periods in [1, 1000000], got %d", *step)
+		return cli.Usagef("--step: want a number of periods in [1, 1000000], got %d", *step)
 	}
 	if *plotFile != "" && *vary == "" && *step == 0 {
-		return usagef("--plot: want --vary or --step with it")
+		return cli.Usagef("--plot: want --vary or --step with it")
 	}
 	if *plotFile != "" {
 		if err := checkPlotName(*plotFile); err != nil {
@@ -86,7 +87,7 @@ func cmdPredict(args []string, stdout, stderr io.Writer) error {
 	}
 	loop, err := profiles.LoadLoop(path)
 	if err != nil {
-		return badInput(err)
+		return cli.BadInput(err)
 	}
 	switch {
 	case *vary != "":
@@ -95,7 +96,7 @@ func cmdPredict(args []string, stdout, stderr io.Writer) error {
 		if *stepTo != "" {
 			sp, err := parseFloats(*stepTo)
 			if err != nil || len(sp) != len(loop.Setpoint) {
-				return usagef("--step-to: want %d comma-separated numbers (one per output), got %q", len(loop.Setpoint), *stepTo)
+				return cli.Usagef("--step-to: want %d comma-separated numbers (one per output), got %q", len(loop.Setpoint), *stepTo)
 			}
 			loop.Setpoint = sp
 		}
@@ -104,7 +105,7 @@ func cmdPredict(args []string, stdout, stderr io.Writer) error {
 	pr, err := estimate.Predict(loop, estimate.PredictOptions{SkipMargin: *noMargin,
 		MarginProgress: marginProgress(stderr, time.Now())})
 	if err != nil {
-		return badInput(fmt.Errorf("%s: %w", path, err))
+		return cli.BadInput(fmt.Errorf("%s: %w", path, err))
 	}
 	if *asJSON {
 		if err := writeJSON(stdout, loop, pr); err != nil {
@@ -142,15 +143,15 @@ func marginProgress(stderr io.Writer, start time.Time) func(q float64) {
 }
 
 // strictStatus is the --strict verdict: nil when the loop is certified
-// mean-square stable, else an exitError (6 not stable, 5 marginal).
+// mean-square stable, else an cli.Exit (6 not stable, 5 marginal).
 func strictStatus(pr *estimate.Prediction) error {
 	switch estimate.VerdictOf(pr) {
 	case estimate.StabilityStable:
 		return nil
 	case estimate.StabilityMarginal:
-		return exitError{Code: exitcode.Inconclusive, Msg: "--strict: " + estimate.DescribeStability(pr)}
+		return cli.Exit{Code: exitcode.Inconclusive, Msg: "--strict: " + estimate.DescribeStability(pr)}
 	}
-	return exitError{Code: exitcode.NotStable, Msg: "--strict: " + estimate.DescribeStability(pr)}
+	return cli.Exit{Code: exitcode.NotStable, Msg: "--strict: " + estimate.DescribeStability(pr)}
 }
 
 func parseFloats(s string) ([]float64, error) {
@@ -171,7 +172,7 @@ const maxSweepPoints = 10000
 // parseVary reads NAME=START:STOP:STEP.
 func parseVary(s string) (string, []float64, error) {
 	bad := func(why string) error {
-		return usagef("--vary: want loss=START:STOP:STEP or delay_scale=START:STOP:STEP, got %q (%s)", s, why)
+		return cli.Usagef("--vary: want loss=START:STOP:STEP or delay_scale=START:STOP:STEP, got %q (%s)", s, why)
 	}
 	name, spec, ok := strings.Cut(s, "=")
 	if !ok {
@@ -330,7 +331,7 @@ func writeSummary(w io.Writer, path string, loop *profiles.Loop, pr *estimate.Pr
 func predictSweep(loop *profiles.Loop, param string, values []float64, plotFile string, stdout, stderr io.Writer) error {
 	res, err := estimate.Sweep(loop, param, values)
 	if err != nil {
-		return badInput(fmt.Errorf("%s: %w", loop.File, err))
+		return cli.BadInput(fmt.Errorf("%s: %w", loop.File, err))
 	}
 	fmt.Fprintf(stdout, "%s,error_second_moment,spectral_radius,mean_square_stable,stability\n", param)
 	for _, p := range res.Points {
@@ -356,7 +357,7 @@ func predictSweep(loop *profiles.Loop, param string, values []float64, plotFile 
 func predictStep(loop *profiles.Loop, steps int, plotFile string, stdout io.Writer) error {
 	md, err := estimate.Build(loop, estimate.Options{})
 	if err != nil {
-		return badInput(fmt.Errorf("%s: %w", loop.File, err))
+		return cli.BadInput(fmt.Errorf("%s: %w", loop.File, err))
 	}
 	tr := md.Transient(steps)
 	p := len(loop.Setpoint)

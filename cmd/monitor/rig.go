@@ -7,8 +7,6 @@ import (
 	"fmt"
 	"io"
 	"log/slog"
-	"net"
-	"net/netip"
 	"os"
 	"os/signal"
 	"rigwire/cmd/internal/cli"
@@ -51,7 +49,7 @@ Runs until SIGINT or SIGTERM.
 `
 
 // rigExits are the statuses of both rig commands.
-var rigExits = exitcode.Help(plainStatuses, map[int]string{
+var rigExits = exitcode.Help(cli.PlainStatuses, map[int]string{
 	exitcode.OK:       "stopped after --duration or on SIGINT/SIGTERM",
 	exitcode.Failure:  "error while running (a socket, the sample log)",
 	exitcode.BadInput: "bad usage, or a loop file that does not load or validate (the message names file, line and key)",
@@ -61,7 +59,7 @@ var rigExits = exitcode.Help(plainStatuses, map[int]string{
 func cmdRig(args []string, stdout, stderr io.Writer) error {
 	if len(args) == 0 {
 		fmt.Fprint(stderr, rigUsage)
-		return usagef("want node or controller")
+		return cli.Usagef("want node or controller")
 	}
 	switch args[0] {
 	case "node":
@@ -72,43 +70,7 @@ func cmdRig(args []string, stdout, stderr io.Writer) error {
 		fmt.Fprint(stdout, rigUsage+"\n"+rigExits)
 		return nil
 	}
-	return usagef("unknown rig command %q: want node or controller", args[0])
-}
-
-// apFlag is a HOST:PORT flag resolved to one address.
-type apFlag struct {
-	ap  netip.AddrPort
-	set bool
-}
-
-func (f *apFlag) String() string {
-	if !f.set {
-		return ""
-	}
-	return f.ap.String()
-}
-
-func (f *apFlag) Set(s string) error {
-	ap, err := resolveAddrPort(s)
-	if err != nil {
-		return err
-	}
-	f.ap, f.set = ap, true
-	return nil
-}
-
-// resolveAddrPort reads HOST:PORT, resolving a host name (localhost) to
-// its first UDP address.
-func resolveAddrPort(s string) (netip.AddrPort, error) {
-	if ap, err := netip.ParseAddrPort(s); err == nil {
-		return ap, nil
-	}
-	ua, err := net.ResolveUDPAddr("udp", s)
-	if err != nil {
-		return netip.AddrPort{}, fmt.Errorf("want HOST:PORT, got %q", s)
-	}
-	ap := ua.AddrPort()
-	return netip.AddrPortFrom(ap.Addr().Unmap(), ap.Port()), nil
+	return cli.Usagef("unknown rig command %q: want node or controller", args[0])
 }
 
 // durationFlag is a duration flag in the loop files' spelling: a Go
@@ -140,11 +102,11 @@ func rigStart(loop *profiles.Loop, mode string, log *slog.Logger) (rig.Start, er
 		}
 		if err != nil {
 			// The steady state is the prediction's: a loop it cannot use.
-			return st, badInput(fmt.Errorf("%s: %w", loop.File, err))
+			return st, cli.BadInput(fmt.Errorf("%s: %w", loop.File, err))
 		}
 		return st, nil
 	}
-	return rig.Start{}, usagef("--start: want steady or rest, got %q", mode)
+	return rig.Start{}, cli.Usagef("--start: want steady or rest, got %q", mode)
 }
 
 // signalContext ends on SIGINT or SIGTERM.
@@ -153,10 +115,10 @@ func signalContext() (context.Context, context.CancelFunc) {
 }
 
 func cmdRigNode(args []string, stderr io.Writer) error {
-	fs := newFlags("monitor rig node", rigNodeHead, rigExits)
+	fs := cli.NewFlags("monitor rig node", rigNodeHead, rigExits)
 	cautions := cautionsFlag(fs)
 	loopPath := fs.String("loop", "", "loop `FILE` (YAML) the rig simulates (required)")
-	var relay, listen apFlag
+	var relay, listen cli.AddrFlag
 	fs.Var(&relay, "relay", "`HOST:PORT` the samples go to: the relay's --listen, or the controller (required)")
 	fs.Var(&listen, "listen", "local `HOST:PORT` of the node's socket, where commands arrive (default: an ephemeral port)")
 	logPath := fs.String("log", "", "write the sample log (CSV: k, t_k, y, held u, command delay) to `FILE`")
@@ -168,7 +130,7 @@ func cmdRigNode(args []string, stderr io.Writer) error {
 	if err != nil {
 		return err
 	}
-	cfg := rig.NodeConfig{Loop: loop, Listen: listen.ap, Relay: relay.ap, Seed: *seed, Start: st, Logger: log}
+	cfg := rig.NodeConfig{Loop: loop, Listen: listen.Addr, Relay: relay.Addr, Seed: *seed, Start: st, Logger: log}
 	if dur.s > 0 {
 		cfg.Periods = max(1, int(dur.s/loop.Period+0.5))
 	}
@@ -186,7 +148,7 @@ func cmdRigNode(args []string, stderr io.Writer) error {
 	}
 	fmt.Fprint(stderr, cautions(rigCaution))
 	log.Info("rig node running", "loop", loop.File, "listen", node.LocalAddr().String(),
-		"relay", relay.ap.String(), "period", loop.Period, "periods", cfg.Periods, "start", *start, "seed", *seed)
+		"relay", relay.Addr.String(), "period", loop.Period, "periods", cfg.Periods, "start", *start, "seed", *seed)
 	ctx, cancel := signalContext()
 	defer cancel()
 	if err := node.Run(ctx); err != nil {
@@ -204,17 +166,17 @@ func cmdRigNode(args []string, stderr io.Writer) error {
 }
 
 func cmdRigController(args []string, stderr io.Writer) error {
-	fs := newFlags("monitor rig controller", rigControllerHead, rigExits)
+	fs := cli.NewFlags("monitor rig controller", rigControllerHead, rigExits)
 	cautions := cautionsFlag(fs)
 	loopPath := fs.String("loop", "", "loop `FILE` (YAML) whose controller to run (required)")
-	var listen apFlag
+	var listen cli.AddrFlag
 	fs.Var(&listen, "listen", "`HOST:PORT` where samples arrive (required)")
 	start := fs.String("start", "steady", "controller state at start: steady (the predicted mean) or rest")
 	loop, st, log, err := rigSetup(fs, args, loopPath, start, "listen", &listen, stderr)
 	if err != nil {
 		return err
 	}
-	ctl, err := rig.NewController(rig.ControllerConfig{Loop: loop, Listen: listen.ap, Start: st, Logger: log})
+	ctl, err := rig.NewController(rig.ControllerConfig{Loop: loop, Listen: listen.Addr, Start: st, Logger: log})
 	if err != nil {
 		return err
 	}
@@ -235,28 +197,28 @@ func cmdRigController(args []string, stderr io.Writer) error {
 // rigSetup parses a rig command's flags, checks the ones every rig command
 // needs (--loop and the command's required address, named addrName), and
 // loads the loop and its start point.
-func rigSetup(fs *flags, args []string, loopPath, start *string, addrName string, addr *apFlag, stderr io.Writer) (*profiles.Loop, rig.Start, *slog.Logger, error) {
+func rigSetup(fs *cli.Flags, args []string, loopPath, start *string, addrName string, addr *cli.AddrFlag, stderr io.Writer) (*profiles.Loop, rig.Start, *slog.Logger, error) {
 	var st rig.Start
 	if err := fs.Parse(args); err != nil {
 		return nil, st, nil, parseErr(err)
 	}
 	switch {
 	case fs.NArg() > 0:
-		return nil, st, nil, usagef("unexpected argument %q", fs.Arg(0))
+		return nil, st, nil, cli.Usagef("unexpected argument %q", fs.Arg(0))
 	case *loopPath == "":
-		return nil, st, nil, usagef("--loop: required")
-	case !addr.set:
-		return nil, st, nil, usagef("--%s: required", addrName)
+		return nil, st, nil, cli.Usagef("--loop: required")
+	case !addr.Given:
+		return nil, st, nil, cli.Usagef("--%s: required", addrName)
 	}
 	log := slog.New(slog.NewTextHandler(stderr, nil))
 	loop, err := profiles.LoadLoop(*loopPath)
 	if err != nil {
-		return nil, st, nil, badInput(err)
+		return nil, st, nil, cli.BadInput(err)
 	}
 	// The datagram layout comes from the loop's decode section: checked
 	// here, so that NewNode and NewController fail only on their sockets.
 	if _, err := rig.NewLayout(loop); err != nil {
-		return nil, st, nil, badInput(fmt.Errorf("%s: %w", loop.File, err))
+		return nil, st, nil, cli.BadInput(fmt.Errorf("%s: %w", loop.File, err))
 	}
 	st, err = rigStart(loop, *start, log)
 	return loop, st, log, err
@@ -265,22 +227,10 @@ func rigSetup(fs *flags, args []string, loopPath, start *string, addrName string
 // parseErr turns a flag parse error into a usage error; a help request
 // and an error flags.Parse has already classified pass as they are.
 func parseErr(err error) error {
-	var he helpError
-	var ue usageError
+	var he cli.Help
+	var ue cli.UsageError
 	if err == nil || errors.As(err, &he) || errors.As(err, &ue) || errors.Is(err, flag.ErrHelp) {
 		return err
 	}
-	return usageError{Msg: err.Error()}
-}
-
-// hostPortFlag names one sender: HOST or HOST:PORT (cli.ParseSender).
-type hostPortFlag struct{ apFlag }
-
-func (f *hostPortFlag) Set(s string) error {
-	ap, err := cli.ParseSender(s, "the relay's tap", resolveAddrPort)
-	if err != nil {
-		return err
-	}
-	f.ap, f.set = ap, true
-	return nil
+	return cli.UsageError{Msg: err.Error()}
 }

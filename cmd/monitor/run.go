@@ -17,6 +17,7 @@ import (
 	"github.com/prometheus/client_golang/prometheus"
 	"github.com/prometheus/client_golang/prometheus/collectors"
 
+	"rigwire/cmd/internal/cli"
 	"rigwire/cmd/internal/exitcode"
 	"rigwire/cmd/internal/metricsrv"
 	"rigwire/emulate"
@@ -91,9 +92,9 @@ var runExits = exitcode.Help(
 	})
 
 func cmdRun(args []string, stdout, stderr io.Writer) error {
-	fs := newFlags("monitor run", runUsage, runExits)
+	fs := cli.NewFlags("monitor run", runUsage, runExits)
 	cautions := cautionsFlag(fs)
-	var listen apFlag
+	var listen cli.AddrFlag
 	var duration, warmup durationFlag
 	loopPath := fs.String("loop", "", "loop description `FILE` (YAML, with a decode section)")
 	fs.Var(&listen, "listen", "`HOST:PORT` where the sensor datagrams arrive (required)")
@@ -110,9 +111,9 @@ func cmdRun(args []string, stdout, stderr io.Writer) error {
 	fs.Var(&progress, "progress", "status line on stderr every `D` (a duration or seconds; 0: none)")
 	noMargin := fs.Bool("no-margin", false, "skip the loss margin in the prediction")
 	rcvBuf := fs.Int("receive-buffer", 4<<20, "socket receive buffer, `bytes`")
-	var from hostPortFlag
+	from := cli.SenderFlag{Who: "the relay's tap"}
 	fs.Var(&from, "from", "decode only datagrams from `HOST` (any port) or HOST:PORT, the relay's tap socket; others are counted as strangers, never decoded (default: any source)")
-	var tripTo apFlag
+	var tripTo cli.AddrFlag
 	fs.Var(&tripTo, "trip-to", "send the safety trip request to the relay's trip socket at `HOST:PORT` (needs a trip section in the loop)")
 	logLevel := fs.String("log-level", "info", "debug, info, warn or error")
 	if err := fs.Parse(args); err != nil {
@@ -120,24 +121,24 @@ func cmdRun(args []string, stdout, stderr io.Writer) error {
 	}
 	switch {
 	case fs.NArg() > 0:
-		return usagef("unexpected argument %q", fs.Arg(0))
+		return cli.Usagef("unexpected argument %q", fs.Arg(0))
 	case *loopPath == "":
-		return usagef("--loop: required")
-	case !listen.set:
-		return usagef("--listen: required")
+		return cli.Usagef("--loop: required")
+	case !listen.Given:
+		return cli.Usagef("--listen: required")
 	case !(*tolerance >= 0) || math.IsInf(*tolerance, 0):
-		return usagef("--tolerance: want a number ≥ 0, got %g", *tolerance)
+		return cli.Usagef("--tolerance: want a number ≥ 0, got %g", *tolerance)
 	case *minSamples < 20 || *minSamples > 1_000_000_000:
-		return usagef("--min-samples: want 20…1000000000 samples, got %d", *minSamples)
+		return cli.Usagef("--min-samples: want 20…1000000000 samples, got %d", *minSamples)
 	case *maxDatagram < 1 || *maxDatagram > 65535:
-		return usagef("--max-datagram: want 1…65535 bytes, got %d", *maxDatagram)
+		return cli.Usagef("--max-datagram: want 1…65535 bytes, got %d", *maxDatagram)
 	case *rcvBuf < 0 || *rcvBuf > 1<<30:
-		return usagef("--receive-buffer: want 0…1073741824 bytes, got %d", *rcvBuf)
-	case checkMetricsAddr(*metricsAddr) != nil:
-		return checkMetricsAddr(*metricsAddr)
-	case from.set && mixedFamilies(listen.ap.Addr(), from.ap.Addr()):
-		return usagef("--from %s: an IPv%s address, but --listen %s takes IPv%s datagrams only; the tap could never match",
-			from.ap.Addr(), family(from.ap.Addr()), listen.ap, family(listen.ap.Addr()))
+		return cli.Usagef("--receive-buffer: want 0…1073741824 bytes, got %d", *rcvBuf)
+	case cli.CheckMetricsAddr(*metricsAddr) != nil:
+		return cli.CheckMetricsAddr(*metricsAddr)
+	case from.Given && mixedFamilies(listen.Addr.Addr(), from.Addr.Addr()):
+		return cli.Usagef("--from %s: an IPv%s address, but --listen %s takes IPv%s datagrams only; the tap could never match",
+			from.Addr.Addr(), family(from.Addr.Addr()), listen.Addr, family(listen.Addr.Addr()))
 	}
 	wins, err := parseWindows(*windows)
 	if err != nil {
@@ -145,50 +146,50 @@ func cmdRun(args []string, stdout, stderr io.Writer) error {
 	}
 	var level slog.Level
 	if err := level.UnmarshalText([]byte(*logLevel)); err != nil {
-		return usagef("--log-level: want debug, info, warn or error, got %q", *logLevel)
+		return cli.Usagef("--log-level: want debug, info, warn or error, got %q", *logLevel)
 	}
 	log := slog.New(slog.NewTextHandler(stderr, &slog.HandlerOptions{Level: level}))
 
 	loop, err := profiles.LoadLoop(*loopPath)
 	if err != nil {
-		return badInput(err)
+		return cli.BadInput(err)
 	}
 	if loop.Decode.Format == "" {
-		return badInput(fmt.Errorf("%s: decode: missing (where the outputs sit in each sensor datagram)", *loopPath))
+		return cli.BadInput(fmt.Errorf("%s: decode: missing (where the outputs sit in each sensor datagram)", *loopPath))
 	}
 	pred, err := estimate.Predict(loop, estimate.PredictOptions{SkipMargin: *noMargin})
 	if err != nil {
-		return badInput(fmt.Errorf("%s: prediction: %w", *loopPath, err))
+		return cli.BadInput(fmt.Errorf("%s: prediction: %w", *loopPath, err))
 	}
 	mon, err := engine.New(loop, pred, engine.Options{
 		Windows: wins, Warmup: time.Duration(warmup.s * 1e9), Tolerance: *tolerance, MinSamples: *minSamples, MaxDatagram: *maxDatagram,
 	})
 	if err != nil {
-		return badInput(fmt.Errorf("%s: %w", *loopPath, err))
+		return cli.BadInput(fmt.Errorf("%s: %w", *loopPath, err))
 	}
-	if tripTo.set && !loop.Trip.Enabled {
-		return usagef("--trip-to: %s has no trip section (the bounds that fire the trip)", *loopPath)
+	if tripTo.Given && !loop.Trip.Enabled {
+		return cli.Usagef("--trip-to: %s has no trip section (the bounds that fire the trip)", *loopPath)
 	}
 	if loop.Trip.Enabled {
 		var tripConn *net.UDPConn
-		if tripTo.set {
+		if tripTo.Given {
 			// Dialled before the run so that the request leaves at once.
-			if tripConn, err = net.DialUDP("udp", nil, net.UDPAddrFromAddrPort(tripTo.ap)); err != nil {
-				return fmt.Errorf("--trip-to %s: %w", tripTo.ap, err)
+			if tripConn, err = net.DialUDP("udp", nil, net.UDPAddrFromAddrPort(tripTo.Addr)); err != nil {
+				return fmt.Errorf("--trip-to %s: %w", tripTo.Addr, err)
 			}
 			defer tripConn.Close()
 		}
 		if err := mon.SetTrip(loop.Trip, func(ev engine.TripEvent) { sendTrip(tripConn, ev, log) }); err != nil {
-			return badInput(fmt.Errorf("%s: %w", *loopPath, err))
+			return cli.BadInput(fmt.Errorf("%s: %w", *loopPath, err))
 		}
 	}
 
-	if from.set {
-		mon.SetSource(from.ap)
+	if from.Given {
+		mon.SetSource(from.Addr)
 	}
-	conn, err := net.ListenUDP("udp", net.UDPAddrFromAddrPort(listen.ap))
+	conn, err := net.ListenUDP("udp", net.UDPAddrFromAddrPort(listen.Addr))
 	if err != nil {
-		return fmt.Errorf("--listen %s: %w", listen.ap, err)
+		return fmt.Errorf("--listen %s: %w", listen.Addr, err)
 	}
 	if *rcvBuf > 0 {
 		if err := conn.SetReadBuffer(*rcvBuf); err != nil {
@@ -211,17 +212,17 @@ func cmdRun(args []string, stdout, stderr io.Writer) error {
 	fmt.Fprint(stderr, cautions(runCaution))
 	printPrediction(stderr, pred)
 	fromAttr := "any source"
-	if from.set {
-		fromAttr = from.ap.String()
-		if from.ap.Port() == 0 {
-			fromAttr = from.ap.Addr().String() + " (any port)"
+	if from.Given {
+		fromAttr = from.Addr.String()
+		if from.Addr.Port() == 0 {
+			fromAttr = from.Addr.Addr().String() + " (any port)"
 		}
 	}
 	log.Info("monitoring", "loop", *loopPath, "listen", conn.LocalAddr().String(), "from", fromAttr,
 		"decode", loop.Decode.Format, "warmup_samples", mon.WarmupSamples(), "tolerance", *tolerance)
-	if !from.set && !listen.ap.Addr().IsLoopback() {
+	if !from.Given && !listen.Addr.Addr().IsLoopback() {
 		log.Warn("--from not given: datagrams from any host that reaches --listen are decoded; give the relay's address (--from HOST) to count the others as strangers",
-			"listen", listen.ap.String())
+			"listen", listen.Addr.String())
 	}
 
 	// Shutdown order: the signal or the duration ends ctx; Serve closes the
@@ -253,10 +254,10 @@ func cmdRun(args []string, stdout, stderr io.Writer) error {
 	}
 	fmt.Fprintln(stderr, verdictLine(sum))
 	if code := exitcode.OfTrip(sum); code != 0 {
-		return exitError{Code: code}
+		return cli.Exit{Code: code}
 	}
 	if code := exitcode.OfRun(sum, *strict); code != 0 {
-		return exitError{Code: code}
+		return cli.Exit{Code: code}
 	}
 	return nil
 }
@@ -294,7 +295,7 @@ func parseWindows(s string) ([]time.Duration, error) {
 	for _, f := range strings.Split(s, ",") {
 		v, err := yamlpos.ParseDuration(strings.TrimSpace(f))
 		if err != nil || !(v > 0) {
-			return nil, usagef("--windows: want comma-separated durations > 0 (\"1m,10m\"), got %q", f)
+			return nil, cli.Usagef("--windows: want comma-separated durations > 0 (\"1m,10m\"), got %q", f)
 		}
 		out = append(out, time.Duration(v*1e9))
 	}

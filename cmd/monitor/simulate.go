@@ -10,6 +10,7 @@ import (
 	"strings"
 	"time"
 
+	"rigwire/cmd/internal/cli"
 	"rigwire/cmd/internal/exitcode"
 	"rigwire/estimate"
 	"rigwire/profiles"
@@ -24,7 +25,7 @@ measured E[eᵀe] with its standard error across runs beside the prediction.
 `
 
 func cmdSimulate(args []string, stdout, stderr io.Writer) error {
-	fs := newFlags("monitor simulate", simulateHead, exitcode.Help(plainStatuses, map[int]string{
+	fs := cli.NewFlags("monitor simulate", simulateHead, exitcode.Help(cli.PlainStatuses, map[int]string{
 		exitcode.OK:       "the runs were made and printed (whatever the loop's stability)",
 		exitcode.Failure:  "error while running (the paths file could not be written)",
 		exitcode.BadInput: "bad usage, or a loop or profile file that does not load or validate (the message names file, line and key)",
@@ -47,17 +48,17 @@ func cmdSimulate(args []string, stdout, stderr io.Writer) error {
 	}
 	switch {
 	case *periods < 1 || *periods > 100_000_000:
-		return usagef("--periods: want a number in [1, 100000000], got %d", *periods)
+		return cli.Usagef("--periods: want a number in [1, 100000000], got %d", *periods)
 	case *runs < 1 || *runs > 1_000_000:
-		return usagef("--runs: want a number in [1, 1000000], got %d", *runs)
+		return cli.Usagef("--runs: want a number in [1, 1000000], got %d", *runs)
 	case *warmup >= *periods:
-		return usagef("--warmup: want fewer than --periods (%d), got %d", *periods, *warmup)
+		return cli.Usagef("--warmup: want fewer than --periods (%d), got %d", *periods, *warmup)
 	case *pathRuns < 0 || *pathRuns > *runs:
-		return usagef("--path-runs: want a number in [0, --runs], got %d", *pathRuns)
+		return cli.Usagef("--path-runs: want a number in [0, --runs], got %d", *pathRuns)
 	}
 	loop, err := profiles.LoadLoop(path)
 	if err != nil {
-		return badInput(err)
+		return cli.BadInput(err)
 	}
 	keep := 0
 	if *paths != "" {
@@ -76,11 +77,11 @@ func cmdSimulate(args []string, stdout, stderr io.Writer) error {
 		},
 	})
 	if err != nil {
-		return badInput(fmt.Errorf("%s: %w", path, err))
+		return cli.BadInput(fmt.Errorf("%s: %w", path, err))
 	}
 	pr, err := estimate.Predict(loop, estimate.PredictOptions{SkipMargin: true})
 	if err != nil {
-		return badInput(fmt.Errorf("%s: prediction: %w", path, err))
+		return cli.BadInput(fmt.Errorf("%s: prediction: %w", path, err))
 	}
 	if *paths != "" {
 		if err := writePaths(*paths, loop, res, stdout); err != nil {

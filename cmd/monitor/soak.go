@@ -13,6 +13,7 @@ import (
 	"time"
 	"unicode/utf8"
 
+	"rigwire/cmd/internal/cli"
 	"rigwire/cmd/internal/exitcode"
 	"rigwire/emulate"
 	"rigwire/estimate"
@@ -69,7 +70,7 @@ var soakExits = exitcode.Help(
 // status for lab scripts and, with --report, an HTML report and its plots
 // as PNG files.
 func cmdSoak(args []string, stdout, stderr io.Writer) error {
-	fs := newFlags("monitor soak", soakHead, soakExits)
+	fs := cli.NewFlags("monitor soak", soakHead, soakExits)
 	cautions := cautionsFlag(fs)
 	bf := addBenchFlags(fs, "loop `FILE` (YAML, with a decode section; its trip section arms the safety trip) (required)",
 		"127.0.0.1:9475", 5*time.Second)
@@ -86,21 +87,21 @@ func cmdSoak(args []string, stdout, stderr io.Writer) error {
 	}
 	switch {
 	case *scenarioPath == "":
-		return usagef("--scenario: required")
+		return cli.Usagef("--scenario: required")
 	case !(*timeScale > 0 && *timeScale <= 100):
-		return usagef("--time-scale: want 0 < F ≤ 100, got %g", *timeScale)
+		return cli.Usagef("--time-scale: want 0 < F ≤ 100, got %g", *timeScale)
 	case *afterTrip < 0 || *afterTrip > time.Hour:
-		return usagef("--after-trip: want 0…1h, got %s", *afterTrip)
+		return cli.Usagef("--after-trip: want 0…1h, got %s", *afterTrip)
 	}
 	log := slog.New(slog.NewTextHandler(stderr, nil))
 
 	loop, err := profiles.LoadLoop(*bf.loop)
 	if err != nil {
-		return badInput(err)
+		return cli.BadInput(err)
 	}
 	sc, err := profiles.LoadScenario(*scenarioPath)
 	if err != nil {
-		return badInput(err)
+		return cli.BadInput(err)
 	}
 	written := sc // as the file says, for the report's scenario times
 	if *timeScale != 1 {
@@ -108,7 +109,7 @@ func cmdSoak(args []string, stdout, stderr io.Writer) error {
 	}
 	steps, err := sc.Steps()
 	if err != nil {
-		return badInput(fmt.Errorf("%s: %w", sc.File, err))
+		return cli.BadInput(fmt.Errorf("%s: %w", sc.File, err))
 	}
 	first := *loop
 	first.Profile, first.ProfileFile = steps[0].Profile, ""
@@ -156,7 +157,7 @@ func cmdSoak(args []string, stdout, stderr io.Writer) error {
 	if err != nil {
 		stopRelay()
 		<-benchDone
-		return badInput(err)
+		return cli.BadInput(err)
 	}
 	if sim != nil {
 		if err := sim.startNode(b.relay.ListenAddr(), sc.Total(), *bf.seed, log); err != nil {
@@ -274,10 +275,10 @@ func soakExit(s *engine.Summary, code int, playErr error) error {
 	case exitcode.OK:
 		return nil
 	case soakExitTripped:
-		return exitError{Code: code, Msg: fmt.Sprintf("safety trip in phase %q: %s %.5g above the bound %.5g",
+		return cli.Exit{Code: code, Msg: fmt.Sprintf("safety trip in phase %q: %s %.5g above the bound %.5g",
 			s.Trip.Phase, s.Trip.Reason, s.Trip.Value, s.Trip.Bound)}
 	case soakExitFailed:
-		return exitError{Code: code, Msg: "failed phase " + list(engine.PhaseFail)}
+		return cli.Exit{Code: code, Msg: "failed phase " + list(engine.PhaseFail)}
 	case exitcode.Inconclusive:
 		msg := ""
 		if l := list(engine.PhaseInconclusive, engine.PhaseNotRun); l != "" {
@@ -289,9 +290,9 @@ func soakExit(s *engine.Summary, code int, playErr error) error {
 			}
 			msg += "interrupted before the scenario's end: " + playErr.Error()
 		}
-		return exitError{Code: code, Msg: msg}
+		return cli.Exit{Code: code, Msg: msg}
 	}
-	return exitError{Code: code}
+	return cli.Exit{Code: code}
 }
 
 // predictSteps computes the prediction for each distinct profile the steps

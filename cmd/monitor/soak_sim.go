@@ -9,6 +9,7 @@ import (
 	"sync"
 	"time"
 
+	"rigwire/cmd/internal/cli"
 	"rigwire/emulate/rig"
 	"rigwire/profiles"
 )
@@ -35,7 +36,7 @@ func newSimRig(loop *profiles.Loop, log *slog.Logger) (*simRig, error) {
 	}
 	ctl, err := rig.NewController(rig.ControllerConfig{Loop: loop, Start: st, Logger: log})
 	if err != nil {
-		return nil, badInput(fmt.Errorf("%s: simulated rig: %w", loop.File, err))
+		return nil, cli.BadInput(fmt.Errorf("%s: simulated rig: %w", loop.File, err))
 	}
 	s := &simRig{loop: loop, start: st, ctl: ctl}
 	var ctx context.Context
@@ -56,7 +57,7 @@ func (s *simRig) startNode(relay netip.AddrPort, total time.Duration, seed uint6
 	periods := int(math.Ceil(total.Seconds()/s.loop.Period)) + 1
 	node, err := rig.NewNode(rig.NodeConfig{Loop: s.loop, Relay: relay, Periods: periods, Seed: seed, Start: s.start, Logger: log})
 	if err != nil {
-		return badInput(fmt.Errorf("%s: simulated rig: %w", s.loop.File, err))
+		return cli.BadInput(fmt.Errorf("%s: simulated rig: %w", s.loop.File, err))
 	}
 	s.node = node
 	var ctx context.Context

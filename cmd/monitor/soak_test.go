@@ -12,6 +12,7 @@ import (
 	"testing"
 	"time"
 
+	"rigwire/cmd/internal/cli"
 	"rigwire/cmd/internal/exitcode"
 	"rigwire/estimate"
 	"rigwire/estimate/engine"
@@ -124,7 +125,7 @@ func TestSoakTableAndReportTripped(t *testing.T) {
 			t.Errorf("table lacks %s:\n%s", want, table)
 		}
 	}
-	var ee exitError
+	var ee cli.Exit
 	if err := soakExit(s, code, nil); !errors.As(err, &ee) || ee.Code != exitcode.Tripped || !strings.Contains(ee.Msg, `safety trip in phase "outage"`) {
 		t.Errorf("exit %v", err)
 	}
@@ -169,7 +170,7 @@ func TestSoakTableAndReportNotRun(t *testing.T) {
 			t.Errorf("table lacks %s:\n%s", want, table)
 		}
 	}
-	var ee exitError
+	var ee cli.Exit
 	err := soakExit(s, code, errors.New("context canceled"))
 	if !errors.As(err, &ee) || ee.Code != exitcode.Inconclusive ||
 		!strings.Contains(ee.Msg, `could not be judged: "nominal" (only 30 judged samples`) ||
