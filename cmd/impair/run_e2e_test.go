@@ -21,7 +21,7 @@ import (
 	"testing"
 	"time"
 
-	"rigwire/emulate/tripwire"
+	"rigwire/emulate/trip"
 )
 
 func TestMain(m *testing.M) {
@@ -312,9 +312,9 @@ func TestRunTripWire(t *testing.T) {
 	dir := t.TempDir()
 	prof := writeFile(t, dir, "block.yaml", blockProfile)
 	ctl := udp(t, "127.0.0.1")
-	listen, trip := freePort(t), freePort(t)
+	listen, tripSock := freePort(t), freePort(t)
 	p := startImpair(t, "run", "--profile", prof, "--listen", listen, "--controller", ctl.LocalAddr().String(),
-		"--metrics", "127.0.0.1:0", "--trip-listen", trip, "--trip-from", "127.0.0.2", "--on-trip", "clean")
+		"--metrics", "127.0.0.1:0", "--trip-listen", tripSock, "--trip-from", "127.0.0.2", "--on-trip", "clean")
 	url := p.metricsURL()
 	sensor := udp(t, "127.0.0.1")
 	send := func(k int) {
@@ -328,12 +328,12 @@ func TestRunTripWire(t *testing.T) {
 	}
 
 	stranger := udp(t, "127.0.0.1") // not --trip-from
-	sendTo(t, stranger, trip, tripwire.Encode("max_abs_error"))
+	sendTo(t, stranger, tripSock, trip.Encode("max_abs_error"))
 	rig := udp(t, "127.0.0.2")
-	sendTo(t, rig, trip, []byte("rigwire-trip 1 Not A Reason"))
-	sendTo(t, rig, trip, []byte("hello"))
-	sendTo(t, rig, trip, bytes.Repeat([]byte("rigwire-trip 1 x"), 1000)) // oversized
-	sendTo(t, rig, trip, nil)
+	sendTo(t, rig, tripSock, []byte("rigwire-trip 1 Not A Reason"))
+	sendTo(t, rig, tripSock, []byte("hello"))
+	sendTo(t, rig, tripSock, bytes.Repeat([]byte("rigwire-trip 1 x"), 1000)) // oversized
+	sendTo(t, rig, tripSock, nil)
 	waitMetric(t, url, "rigwire_relay_trip_requests_total", 4, `result="malformed"`)
 	m := scrape(t, url)
 	if v, _ := sample(m, "rigwire_relay_trip_requests_total", `result="stranger"`); v != 1 {
@@ -348,7 +348,7 @@ func TestRunTripWire(t *testing.T) {
 	}
 
 	for range 3 { // the monitor sends 3 copies
-		sendTo(t, rig, trip, tripwire.Encode("max_ratio"))
+		sendTo(t, rig, tripSock, trip.Encode("max_ratio"))
 	}
 	waitMetric(t, url, "rigwire_relay_trip_requests_total", 2, `result="repeated"`)
 	m = scrape(t, url)
@@ -508,7 +508,7 @@ func TestRunLinksTripStopCommands(t *testing.T) {
 	if !roundTrip(actA, ctlA, listenA) || !roundTrip(actB, ctlB, listenB) {
 		t.Fatal("commands not forwarded before the trip")
 	}
-	sendTo(t, udp(t, "127.0.0.1"), tripA, tripwire.Encode("max_abs_error"))
+	sendTo(t, udp(t, "127.0.0.1"), tripA, trip.Encode("max_abs_error"))
 	waitMetric(t, url, "rigwire_relay_trip_requests_total", 1, `link="diverter"`, `result="accepted"`)
 	if roundTrip(actA, ctlA, listenA) {
 		t.Error("diverter: a command passed after stop_commands")

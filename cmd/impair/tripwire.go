@@ -9,7 +9,7 @@ import (
 
 	"github.com/prometheus/client_golang/prometheus"
 
-	"rigwire/emulate/tripwire"
+	"rigwire/emulate/trip"
 	"rigwire/profiles"
 )
 
@@ -80,7 +80,7 @@ func (t *tripListener) accepts(src netip.Addr) bool {
 
 // serve handles trip requests until Close; every datagram is counted once.
 func (t *tripListener) serve() {
-	buf := make([]byte, tripwire.MaxLen+1) // a longer datagram reads as MaxLen+1 bytes
+	buf := make([]byte, trip.MaxLen+1) // a longer datagram reads as MaxLen+1 bytes
 	for {
 		n, src, err := t.conn.ReadFromUDPAddrPort(buf)
 		if err != nil {
@@ -101,7 +101,7 @@ func (t *tripListener) handle(p []byte, src netip.AddrPort) {
 		t.log.Debug("trip request from a stranger ignored", "source", src.String())
 		return
 	}
-	reason, err := tripwire.Decode(p)
+	reason, err := trip.Decode(p)
 	if err != nil {
 		t.count.WithLabelValues(tripMalformed).Inc()
 		t.log.Debug("malformed trip request ignored", "source", src.String(), "err", err)

@@ -7,7 +7,7 @@ import (
 	"github.com/prometheus/client_golang/prometheus"
 	"github.com/prometheus/client_golang/prometheus/testutil"
 
-	"rigwire/emulate/tripwire"
+	"rigwire/emulate/trip"
 	"rigwire/profiles"
 )
 
@@ -48,13 +48,13 @@ func TestTripListenerHandle(t *testing.T) {
 	tl := &tripListener{relay: ft, action: profiles.TripStopCommands, count: count, log: discardLogger()}
 	src := netip.MustParseAddrPort("127.0.0.1:5000")
 	tl.handle([]byte("rigwire-trip 1"), src)
-	tl.handle(make([]byte, tripwire.MaxLen+1), src)
-	tl.handle(tripwire.Encode("x"), netip.MustParseAddrPort("192.0.2.1:5000"))
+	tl.handle(make([]byte, trip.MaxLen+1), src)
+	tl.handle(trip.Encode("x"), netip.MustParseAddrPort("192.0.2.1:5000"))
 	if ft.calls != 0 {
 		t.Fatalf("tripped by an invalid request")
 	}
-	tl.handle(tripwire.Encode("max_second_moment"), src)
-	tl.handle(tripwire.Encode("max_second_moment"), src)
+	tl.handle(trip.Encode("max_second_moment"), src)
+	tl.handle(trip.Encode("max_second_moment"), src)
 	if ft.calls != 2 || ft.action != profiles.TripStopCommands || ft.reason != "max_second_moment" {
 		t.Errorf("trip calls %+v", ft)
 	}

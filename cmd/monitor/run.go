@@ -21,7 +21,7 @@ import (
 	"rigwire/cmd/internal/exitcode"
 	"rigwire/cmd/internal/metricsrv"
 	"rigwire/emulate"
-	"rigwire/emulate/tripwire"
+	"rigwire/emulate/trip"
 	"rigwire/estimate"
 	"rigwire/estimate/engine"
 	"rigwire/profiles"
@@ -273,7 +273,7 @@ func sendTrip(conn *net.UDPConn, ev engine.TripEvent, log *slog.Logger) {
 	sent := 0
 	if conn != nil {
 		to = conn.RemoteAddr().String()
-		msg := tripwire.Encode(ev.Reason)
+		msg := trip.Encode(ev.Reason)
 		for range tripCopies {
 			if _, err := conn.Write(msg); err != nil {
 				log.Error("trip request not sent", "to", to, "err", err)

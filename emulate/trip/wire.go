@@ -1,13 +1,14 @@
-// Package tripwire is the wire format of rigwire's safety trip request: the
-// datagram `monitor run --trip-to` sends and `impair run --trip-listen`
-// accepts. It is plain text, one line without a newline:
+// The trip request datagram: what `monitor run --trip-to` sends and
+// `impair run --trip-listen` accepts. It is plain text, one line without a
+// newline:
 //
 //	rigwire-trip 1 <reason>
 //
 // where 1 is the format version and reason is one token of lowercase
 // letters and underscores ("max_abs_error"). A whole datagram is at most
 // MaxLen bytes; anything else is not a trip request.
-package tripwire
+
+package trip
 
 import (
 	"errors"

@@ -1,4 +1,4 @@
-package tripwire
+package trip
 
 import (
 	"bytes"
