@@ -7,6 +7,7 @@ import (
 
 	"github.com/prometheus/client_golang/prometheus"
 
+	"rigwire/emulate/internal/timer"
 	"rigwire/profiles"
 	"rigwire/profiles/laws"
 	"rigwire/profiles/markov"
@@ -18,7 +19,7 @@ func newTestDirection(t testing.TB, ch *markov.Channel, inFlight int) (*directio
 	d := newDirection(dirConfig{
 		name: profiles.SensorToController, ch: ch, seed: 1, stream: 1, out: out,
 		metrics: NewMetrics(prometheus.NewRegistry()), epoch: time.Now(),
-		maxInFlight: inFlight, bufLen: 1500, w: newTimerWaiter(),
+		maxInFlight: inFlight, bufLen: 1500, w: timer.NewPortable(),
 	})
 	return d, out
 }

@@ -10,6 +10,7 @@ import (
 
 	"github.com/prometheus/client_golang/prometheus"
 
+	"rigwire/emulate/internal/timer"
 	"rigwire/profiles/laws"
 	"rigwire/profiles/markov"
 )
@@ -26,7 +27,7 @@ type direction struct {
 	epoch time.Time
 	spin  int64 // ns: how long before a due time the release goroutine spins instead of sleeping
 	lock  bool  // lock the release goroutine to its OS thread (precise waiter)
-	w     waiter
+	w     timer.Waiter
 
 	mu       sync.Mutex
 	chain    *chain
@@ -60,7 +61,7 @@ type dirConfig struct {
 	maxInFlight int
 	bufLen      int
 	spin        time.Duration
-	w           waiter
+	w           timer.Waiter
 	lockThread  bool
 }
 
@@ -175,7 +176,7 @@ func (d *direction) admit(acc []message, dst netip.AddrPort, now int64, imm []me
 // armLocked wakes the release goroutine d.spin before due.
 func (d *direction) armLocked(due, now int64) {
 	d.armedFor = due
-	d.w.arm(time.Duration(due - d.spin - now))
+	d.w.Arm(time.Duration(due - d.spin - now))
 }
 
 func (d *direction) record(x rec) {
@@ -255,9 +256,9 @@ func (d *direction) releaseLoop() {
 					return
 				}
 				d.armedFor = math.MaxInt64
-				d.w.disarm()
+				d.w.Disarm()
 				d.mu.Unlock()
-				d.w.wait()
+				d.w.Wait()
 				continue
 			}
 			due := d.sched.peek().due
@@ -271,14 +272,14 @@ func (d *direction) releaseLoop() {
 				}
 				// Over the spin budget: sleep all the way to the due time.
 				d.armedFor = due
-				d.w.arm(time.Duration(due - now))
+				d.w.Arm(time.Duration(due - now))
 				d.mu.Unlock()
-				d.w.wait()
+				d.w.Wait()
 				continue
 			}
 			d.armLocked(due, now)
 			d.mu.Unlock()
-			d.w.wait()
+			d.w.Wait()
 			continue
 		}
 		d.mu.Unlock()
@@ -379,7 +380,7 @@ func (d *direction) stop(drain bool) {
 		d.abort = true
 	}
 	d.armedFor = 0
-	d.w.arm(0)
+	d.w.Arm(0)
 	d.mu.Unlock()
 }
 

@@ -5,8 +5,9 @@
 //
 // Files are cut by concern: conn*.go batch the sockets, channel.go steps
 // the Markov channel in continuous time, schedule.go orders pending
-// releases, waiter*.go sleeps until the next one, direction.go ties one
-// direction together, relay.go wires two directions, a tap and a recorder
+// releases (the release goroutine sleeps until the next one on a waiter of
+// emulate/internal/timer), direction.go ties one direction together,
+// relay.go wires two directions, a tap and a recorder
 // to the sockets, trip.go is the latched safety trip, play.go plays a
 // scenario's steps, metrics.go and record.go say what happened to every
 // datagram.

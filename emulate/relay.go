@@ -17,6 +17,7 @@ import (
 
 	"github.com/prometheus/client_golang/prometheus"
 
+	"rigwire/emulate/internal/timer"
 	"rigwire/profiles"
 	"rigwire/profiles/markov"
 )
@@ -188,10 +189,10 @@ func New(cfg Config) (*Relay, error) {
 }
 
 func (r *Relay) newDirection(name string, ch *markov.Channel, stream uint64, out batchConn) (*direction, error) {
-	var w waiter = newTimerWaiter()
+	w := timer.NewPortable()
 	precise := !r.cfg.portableTimers
 	if precise {
-		pw, err := newPreciseWaiter()
+		pw, err := timer.NewPrecise()
 		if err != nil {
 			return nil, fmt.Errorf("%s: %w", name, err)
 		}
@@ -407,8 +408,8 @@ func (r *Relay) Run(ctx context.Context, abort <-chan struct{}) error {
 		}
 	}
 	r.closeSockets()
-	r.sc.w.close()
-	r.ca.w.close()
+	r.sc.w.Close()
+	r.ca.w.Close()
 	return errors.Join(errs...)
 }
 

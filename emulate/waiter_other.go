@@ -1,5 +1,0 @@
-//go:build !linux
-
-package emulate
-
-func newPreciseWaiter() (waiter, error) { return newTimerWaiter(), nil }
