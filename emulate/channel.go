@@ -3,6 +3,9 @@ package emulate
 import (
 	"math"
 	"math/rand/v2"
+
+	"github.com/prometheus/client_golang/prometheus"
+
 	"rigwire/profiles/markov"
 )
 
@@ -75,4 +78,24 @@ func (c *chain) at(t int64) int {
 		c.next = c.dwellEnd(c.next)
 	}
 	return c.cur
+}
+
+// setChannelLocked puts the direction on channel ch from time t, in a state
+// drawn from its stationary law, and relabels the state gauges.
+func (d *direction) setChannelLocked(ch *markov.Channel, chainRng *rand.Rand, t int64) {
+	if d.chain != nil {
+		for _, st := range d.chain.ch.States {
+			d.gaugeVec.DeleteLabelValues(d.name, st.Name)
+		}
+		chainRng = d.chain.rng
+	}
+	d.chain = newChain(ch, chainRng, t)
+	d.replay = newReplayCursor(ch)
+	d.gauges = make([]prometheus.Gauge, len(ch.States))
+	for i, st := range ch.States {
+		d.gauges[i] = d.gaugeVec.WithLabelValues(d.name, st.Name)
+		d.gauges[i].Set(0)
+	}
+	d.shown = d.chain.cur
+	d.gauges[d.shown].Set(1)
 }

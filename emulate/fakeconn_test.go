@@ -1,10 +1,20 @@
 package emulate
 
 import (
+	"bytes"
+	"context"
+	"io"
+	"log/slog"
 	"net/netip"
 	"os"
 	"sync"
+	"testing"
 	"time"
+
+	"github.com/prometheus/client_golang/prometheus"
+	"github.com/prometheus/client_golang/prometheus/testutil"
+
+	"rigwire/profiles"
 )
 
 // fakeConn is an in-memory batchConn, after wireguard-go's conn/bindtest:
@@ -98,4 +108,63 @@ func (c *fakeConn) close() error {
 	defer c.mu.Unlock()
 	c.closed = true
 	return nil
+}
+
+var (
+	sensorAddr     = netip.MustParseAddrPort("192.0.2.10:5000") // documentation range; never dialled
+	controllerAddr = netip.MustParseAddrPort("192.0.2.20:6000")
+	tapAddr        = netip.MustParseAddrPort("192.0.2.30:7000")
+	strangerAddr   = netip.MustParseAddrPort("192.0.2.99:9999")
+)
+
+type fakeRig struct {
+	relay              *Relay
+	listen, up, tapped *fakeConn
+	reg                *prometheus.Registry
+	record             *bytes.Buffer
+	cancel             context.CancelFunc
+	abort              chan struct{}
+	done               chan error
+}
+
+// startFake runs a relay on fake sockets with Go timers and no spin, so
+// that testing/synctest's fake clock drives it exactly.
+func startFake(t *testing.T, p *profiles.Profile, mod func(*Config)) *fakeRig {
+	t.Helper()
+	rig := &fakeRig{
+		listen: newFakeConn("127.0.0.1:4000"), up: newFakeConn("127.0.0.1:4001"), tapped: newFakeConn("127.0.0.1:4002"),
+		reg: prometheus.NewRegistry(), record: new(bytes.Buffer), abort: make(chan struct{}), done: make(chan error, 1),
+	}
+	cfg := Config{
+		Profile: p, Listen: rig.listen.addr, Controller: controllerAddr, Tap: tapAddr,
+		Seed: 7, SeedSet: true, SpinSet: true, Spin: 0,
+		Metrics: NewMetrics(rig.reg), Record: rig.record,
+		Logger:         slog.New(slog.NewTextHandler(io.Discard, nil)),
+		portableTimers: true,
+		conns:          &testConns{listen: rig.listen, ctlSide: rig.up, tap: rig.tapped},
+	}
+	if mod != nil {
+		mod(&cfg)
+	}
+	r, err := New(cfg)
+	if err != nil {
+		t.Fatal(err)
+	}
+	rig.relay = r
+	ctx, cancel := context.WithCancel(context.Background())
+	rig.cancel = cancel
+	go func() { rig.done <- r.Run(ctx, rig.abort) }()
+	return rig
+}
+
+func (rig *fakeRig) stop(t *testing.T) {
+	t.Helper()
+	rig.cancel()
+	if err := <-rig.done; err != nil {
+		t.Fatal(err)
+	}
+}
+
+func (rig *fakeRig) count(dir, outcome string) int {
+	return int(testutil.ToFloat64(rig.relay.m.Datagrams.WithLabelValues(dir, outcome)))
 }

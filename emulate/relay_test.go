@@ -9,8 +9,11 @@ import (
 	"math"
 	"net"
 	"net/netip"
+	"strings"
 	"testing"
 	"time"
+
+	"github.com/prometheus/client_golang/prometheus"
 
 	"rigwire/profiles"
 	"rigwire/profiles/laws"
@@ -155,5 +158,60 @@ func TestRelayMixedDelaysOneSocket(t *testing.T) {
 	}
 	if got := <-got; got != n {
 		t.Fatalf("controller got %d of %d", got, n)
+	}
+}
+
+// panicConn fails the way a bug would: its reads panic once trigger is
+// closed.
+type panicConn struct {
+	*fakeConn
+	trigger chan struct{}
+}
+
+func (p panicConn) readBatch([]message) (int, error) {
+	<-p.trigger
+	panic("injected fault")
+}
+
+// A receive goroutine that fails ends the run cleanly: Run returns an
+// error that says so, and every datagram held is released or counted.
+func TestRelayGoroutineFailureEndsRun(t *testing.T) {
+	listen := newFakeConn("127.0.0.1:7000")
+	ctlSide := newFakeConn("127.0.0.1:7001")
+	cfg := Config{
+		Profile: cleanProfile(0.05), Listen: listen.addr, Controller: netip.MustParseAddrPort("127.0.0.1:7100"),
+		Actuator: netip.MustParseAddrPort("127.0.0.1:7200"),
+		Metrics:  NewMetrics(prometheus.NewRegistry()), Logger: slog.New(slog.NewTextHandler(io.Discard, nil)),
+		portableTimers: true,
+		conns:          &testConns{listen: panicConn{listen, make(chan struct{})}, ctlSide: ctlSide},
+	}
+	r, err := New(cfg)
+	if err != nil {
+		t.Fatal(err)
+	}
+	ctlSide.push(cfg.Controller, []byte("held command"))
+	done := make(chan error, 1)
+	go func() { done <- r.Run(context.Background(), nil) }()
+	for deadline := time.Now().Add(5 * time.Second); ; time.Sleep(time.Millisecond) {
+		if _, ca := r.InFlight(); ca == 1 {
+			break
+		}
+		if time.Now().After(deadline) {
+			t.Fatal("the command was never held")
+		}
+	}
+	close(cfg.conns.listen.(panicConn).trigger)
+	select {
+	case err := <-done:
+		if err == nil || !strings.Contains(err.Error(), "injected fault") {
+			t.Fatalf("Run returned %v, want the goroutine's failure", err)
+		}
+	case <-time.After(5 * time.Second):
+		t.Fatal("Run did not end after a goroutine failed")
+	}
+	fwd := outcomeCount(r, profiles.ControllerToActuator, OutcomeForwarded)
+	shut := outcomeCount(r, profiles.ControllerToActuator, OutcomeShutdown)
+	if fwd+shut != 1 {
+		t.Errorf("the held command: forwarded %d, shutdown %d; want it in one of them", fwd, shut)
 	}
 }

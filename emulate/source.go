@@ -1,7 +1,6 @@
 package emulate
 
 import (
-	"fmt"
 	"net/netip"
 	"time"
 )
@@ -129,58 +128,4 @@ func addrText(a netip.AddrPort) string {
 		return a.String()
 	}
 	return "none yet"
-}
-
-// family is 4 or 6: the family of socket that reaches a.
-func family(a netip.Addr) int {
-	if a.Unmap().Is4() {
-		return 4
-	}
-	return 6
-}
-
-// FamilyError is a pair of addresses one socket would have to serve in two
-// families. Key and With name the two addresses as Config's fields do
-// (listen, actuator, sensor, controller, controller_bind); a command
-// respells them as its flags or keys.
-type FamilyError struct {
-	Key  string
-	Addr netip.AddrPort
-	With string
-	Of   netip.AddrPort
-	// Why says which socket serves both.
-	Why string
-}
-
-func (e *FamilyError) Error() string { return e.Spell(func(k string) string { return k }) }
-
-// Spell is the message with the keys spelled by name.
-func (e *FamilyError) Spell(name func(key string) string) string {
-	a := e.Addr.Addr().String()
-	if e.Addr.Port() != 0 {
-		a = e.Addr.String()
-	}
-	return fmt.Sprintf("%s: %s is IPv%d but %s %s is IPv%d (%s); use addresses of one family",
-		name(e.Key), a, family(e.Addr.Addr()), name(e.With), e.Of, family(e.Of.Addr()), e.Why)
-}
-
-// CheckFamilies refuses addresses a socket of another family would have to
-// reach: the listen socket receives from the sensor and sends to the
-// actuator; the controller-facing one sends to the controller. It returns
-// a *FamilyError.
-func CheckFamilies(c Config) error {
-	lf := family(c.Listen.Addr())
-	for _, a := range []struct {
-		key string
-		ap  netip.AddrPort
-	}{{"actuator", c.Actuator}, {"sensor", c.Sensor}} {
-		if a.ap.IsValid() && family(a.ap.Addr()) != lf {
-			return &FamilyError{Key: a.key, Addr: a.ap, With: "listen", Of: c.Listen, Why: "one socket serves both"}
-		}
-	}
-	if c.ControllerBind.IsValid() && family(c.ControllerBind.Addr()) != family(c.Controller.Addr()) {
-		return &FamilyError{Key: "controller_bind", Addr: c.ControllerBind, With: "controller", Of: c.Controller,
-			Why: "that socket sends to the controller"}
-	}
-	return nil
 }

@@ -1,17 +1,13 @@
 package emulate
 
 import (
-	"context"
 	"fmt"
-	"io"
-	"log/slog"
 	"net"
 	"net/netip"
 	"strings"
 	"testing"
 	"time"
 
-	"github.com/prometheus/client_golang/prometheus"
 	"github.com/prometheus/client_golang/prometheus/testutil"
 
 	"rigwire/profiles"
@@ -217,128 +213,5 @@ func TestRelayCommandBeforeAnySensor(t *testing.T) {
 				t.Errorf("%d commands counted %s, want 30", n, OutcomeNoActuator)
 			}
 		})
-	}
-}
-
-// Addresses of two families that one socket would have to serve are
-// refused before anything is opened, with the addresses named.
-func TestRelayMixedFamiliesRefused(t *testing.T) {
-	v4 := netip.MustParseAddrPort("127.0.0.1:0")
-	cases := []struct {
-		name string
-		mod  func(*Config)
-		ok   bool
-		want string
-	}{
-		{name: "IPv6 actuator, IPv4 listen", mod: func(c *Config) { c.Actuator = netip.MustParseAddrPort("[::1]:7000") }, want: "actuator: [::1]:7000 is IPv6"},
-		{name: "IPv6 sensor, IPv4 listen", mod: func(c *Config) { c.Sensor = netip.MustParseAddrPort("[::1]:7000") }, want: "sensor: [::1]:7000 is IPv6"},
-		{name: "IPv4 actuator, IPv6 listen", mod: func(c *Config) {
-			c.Listen = netip.MustParseAddrPort("[::1]:0")
-			c.Actuator = netip.MustParseAddrPort("127.0.0.1:7000")
-		}, want: "actuator: 127.0.0.1:7000 is IPv4"},
-		{name: "IPv6 controller, IPv4 controller-facing socket", mod: func(c *Config) {
-			c.Controller = netip.MustParseAddrPort("[::1]:7100")
-			c.ControllerBind = v4
-		}, want: "but controller [::1]:7100 is IPv6"},
-		{name: "unspecified sensor pin", mod: func(c *Config) { c.Sensor = netip.MustParseAddrPort("0.0.0.0:0") }, want: "no datagram comes from an unspecified address"},
-		{name: "IPv4-mapped actuator with IPv4 listen is IPv4", mod: func(c *Config) {
-			c.Actuator = netip.MustParseAddrPort("[::ffff:127.0.0.1]:7000")
-		}, ok: true},
-	}
-	for _, tc := range cases {
-		t.Run(tc.name, func(t *testing.T) {
-			cfg := Config{Profile: cleanProfile(0), Listen: v4, Controller: netip.MustParseAddrPort("127.0.0.1:7100"),
-				Logger: slog.New(slog.NewTextHandler(io.Discard, nil))}
-			tc.mod(&cfg)
-			r, err := New(cfg)
-			if tc.ok {
-				if err != nil {
-					t.Fatalf("refused: %v", err)
-				}
-				r.closeSockets()
-				return
-			}
-			if err == nil {
-				r.closeSockets()
-				t.Fatal("accepted")
-			}
-			if !strings.Contains(err.Error(), tc.want) {
-				t.Errorf("error %q does not say %q", err, tc.want)
-			}
-		})
-	}
-}
-
-// Addresses the socket cannot reach are spelled so that the kernel refuses
-// them: never a panic (they used to panic in netip's As4).
-func TestSockaddrNeverPanics(t *testing.T) {
-	for _, ap := range []netip.AddrPort{{}, netip.MustParseAddrPort("[::1]:9"), netip.MustParseAddrPort("127.0.0.1:9")} {
-		for _, fam := range []int{4, 6} {
-			c := listenOn(t, map[int]string{4: "127.0.0.1:0", 6: "[::1]:0"}[fam])
-			bc, err := newBatchConn(c)
-			if err != nil {
-				t.Fatal(err)
-			}
-			ms := []message{{buf: []byte("x"), n: 1, addr: ap}}
-			reachable := ap.IsValid() && family(ap.Addr()) == fam
-			if _, err := bc.writeBatch(ms); (err == nil) != reachable {
-				t.Errorf("IPv%d socket to %v: error %v, want one only when unreachable", fam, ap, err)
-			}
-		}
-	}
-}
-
-// panicConn fails the way a bug would: its reads panic once trigger is
-// closed.
-type panicConn struct {
-	*fakeConn
-	trigger chan struct{}
-}
-
-func (p panicConn) readBatch([]message) (int, error) {
-	<-p.trigger
-	panic("injected fault")
-}
-
-// A receive goroutine that fails ends the run cleanly: Run returns an
-// error that says so, and every datagram held is released or counted.
-func TestRelayGoroutineFailureEndsRun(t *testing.T) {
-	listen := newFakeConn("127.0.0.1:7000")
-	ctlSide := newFakeConn("127.0.0.1:7001")
-	cfg := Config{
-		Profile: cleanProfile(0.05), Listen: listen.addr, Controller: netip.MustParseAddrPort("127.0.0.1:7100"),
-		Actuator: netip.MustParseAddrPort("127.0.0.1:7200"),
-		Metrics:  NewMetrics(prometheus.NewRegistry()), Logger: slog.New(slog.NewTextHandler(io.Discard, nil)),
-		portableTimers: true,
-		conns:          &testConns{listen: panicConn{listen, make(chan struct{})}, ctlSide: ctlSide},
-	}
-	r, err := New(cfg)
-	if err != nil {
-		t.Fatal(err)
-	}
-	ctlSide.push(cfg.Controller, []byte("held command"))
-	done := make(chan error, 1)
-	go func() { done <- r.Run(context.Background(), nil) }()
-	for deadline := time.Now().Add(5 * time.Second); ; time.Sleep(time.Millisecond) {
-		if _, ca := r.InFlight(); ca == 1 {
-			break
-		}
-		if time.Now().After(deadline) {
-			t.Fatal("the command was never held")
-		}
-	}
-	close(cfg.conns.listen.(panicConn).trigger)
-	select {
-	case err := <-done:
-		if err == nil || !strings.Contains(err.Error(), "injected fault") {
-			t.Fatalf("Run returned %v, want the goroutine's failure", err)
-		}
-	case <-time.After(5 * time.Second):
-		t.Fatal("Run did not end after a goroutine failed")
-	}
-	fwd := outcomeCount(r, profiles.ControllerToActuator, OutcomeForwarded)
-	shut := outcomeCount(r, profiles.ControllerToActuator, OutcomeShutdown)
-	if fwd+shut != 1 {
-		t.Errorf("the held command: forwarded %d, shutdown %d; want it in one of them", fwd, shut)
 	}
 }
