@@ -3,11 +3,11 @@ package estimate
 import (
 	"fmt"
 	"math"
-	"strconv"
 
 	"gonum.org/v1/gonum/mat"
 
 	"rigwire/profiles"
+	"rigwire/profiles/laws"
 )
 
 // MaxOperatorSide (estimate/model.md §11) is the largest second-moment operator the prediction
@@ -50,7 +50,7 @@ func (s *Sampled) checkFinite() error {
 	}
 	return fmt.Errorf("plant: sampling over one %s period overflows: e^{A·h} or its integrals exceed %.3g "+
 		"(a mode of A grows by more than e^709 per period); shorten the period or check plant.a",
-		fmtSec(s.H), math.MaxFloat64)
+		laws.FormatSeconds(s.H), math.MaxFloat64)
 }
 
 // checkFinite refuses a mode whose matrices overflowed (controller gains
@@ -74,15 +74,4 @@ func allFinite(a mat.Matrix) bool {
 		}
 	}
 	return true
-}
-
-// fmtSec writes seconds for a message ("10ms", "1.5s").
-func fmtSec(s float64) string {
-	switch {
-	case s < 1e-3:
-		return strconv.FormatFloat(s*1e6, 'g', 4, 64) + "µs"
-	case s < 1:
-		return strconv.FormatFloat(s*1e3, 'g', 4, 64) + "ms"
-	}
-	return strconv.FormatFloat(s, 'g', 4, 64) + "s"
 }

@@ -152,7 +152,7 @@ func Build(loop *profiles.Loop, opts Options) (*Model, error) {
 			md.prepareState(&js)
 			if !allFinite(js.opM2) || !allFinite(js.meanF2) || !allFinite(js.sumG2) {
 				return nil, fmt.Errorf("network state %s: the second-moment operator overflows (entries beyond %.3g): the plant or the controller gains are too large for a %s period",
-					js.Name, math.MaxFloat64, fmtSec(h))
+					js.Name, math.MaxFloat64, laws.FormatSeconds(h))
 			}
 			md.States = append(md.States, js)
 		}

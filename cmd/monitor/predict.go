@@ -14,6 +14,7 @@ import (
 	"rigwire/cmd/internal/exitcode"
 	"rigwire/estimate"
 	"rigwire/profiles"
+	"rigwire/profiles/laws"
 )
 
 const predictHead = `usage: monitor predict LOOP.yaml [--json] [--strict] [--no-margin]
@@ -274,19 +275,9 @@ func writeJSON(w io.Writer, loop *profiles.Loop, pr *estimate.Prediction) error 
 	return enc.Encode(out)
 }
 
-func fmtDuration(s float64) string {
-	switch a := math.Abs(s); {
-	case math.IsNaN(s):
-		return "-"
-	case a == 0:
-		return "0"
-	case a < 1e-3:
-		return strconv.FormatFloat(s*1e6, 'g', 4, 64) + "µs"
-	case a < 1:
-		return strconv.FormatFloat(s*1e3, 'g', 4, 64) + "ms"
-	}
-	return strconv.FormatFloat(s, 'g', 4, 64) + "s"
-}
+// fmtDuration writes the times of the predict table: "0" for none, "-"
+// for a mean delay that does not exist.
+var fmtDuration = laws.Seconds{Zero: "0", Missing: "-"}.Format
 
 func writeSummary(w io.Writer, path string, loop *profiles.Loop, pr *estimate.Prediction) {
 	n, m, p, nc := loop.Dims()

@@ -10,8 +10,8 @@ import (
 	"os"
 	"os/signal"
 	"rigwire/cmd/internal/cli"
+	"rigwire/profiles/laws"
 	"rigwire/profiles/yamlpos"
-	"strconv"
 	"syscall"
 
 	"rigwire/cmd/internal/exitcode"
@@ -79,7 +79,7 @@ type durationFlag struct{ s float64 }
 
 // String spells the value in seconds with its unit, as the help's
 // "(default 60s)" shows it once.
-func (f *durationFlag) String() string { return strconv.FormatFloat(f.s, 'g', -1, 64) + "s" }
+func (f *durationFlag) String() string { return laws.Seconds{Unit: "s", Digits: -1}.Format(f.s) }
 func (f *durationFlag) Set(s string) error {
 	v, err := yamlpos.ParseDuration(s)
 	if err != nil || v < 0 {

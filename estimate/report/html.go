@@ -5,7 +5,6 @@ import (
 	"fmt"
 	"html/template"
 	"math"
-	"strconv"
 	"strings"
 	"time"
 )
@@ -235,9 +234,9 @@ func fmtScenarioTime(s float64) string {
 		return fmt.Sprintf("%g min", math.Round(s/60))
 	case s >= 60:
 		m := math.Floor(s / 60)
-		return fmt.Sprintf("%g min %s s", m, strconv.FormatFloat(s-60*m, 'f', -1, 64))
+		return fmt.Sprintf("%g min %s", m, exactSec.Format(s-60*m))
 	}
-	return strconv.FormatFloat(math.Round(s*1000)/1000, 'f', -1, 64) + " s"
+	return exactSec.Format(math.Round(s*1000) / 1000)
 }
 
 // scenarioSpan is "0–3 min" (one unit when both ends are whole minutes)
@@ -251,7 +250,7 @@ func scenarioSpan(a, b float64) string {
 		return fmt.Sprintf("%g–%g min", math.Round(a/60), math.Round(b/60))
 	}
 	if a < 60 && b < 60 {
-		return strconv.FormatFloat(a, 'f', -1, 64) + "–" + strconv.FormatFloat(b, 'f', -1, 64) + " s"
+		return strings.TrimSuffix(exactSec.Format(a), " s") + "–" + exactSec.Format(b)
 	}
 	return fmtScenarioTime(a) + " – " + fmtScenarioTime(b)
 }
@@ -271,9 +270,9 @@ func phaseSpans(ph Phase, scale float64) (scen, wall, span string) {
 	case ph.Verdict == "not_run" && !started:
 		wall = "not run"
 	case started && ended:
-		wall = fmt.Sprintf("%.1f–%.1f s", ph.Start, ph.End)
+		wall = strings.TrimSuffix(tenths.Format(ph.Start), " s") + "–" + tenths.Format(ph.End)
 	case started:
-		wall = fmt.Sprintf("from %.1f s", ph.Start)
+		wall = "from " + tenths.Format(ph.Start)
 	default:
 		wall = "—"
 	}
@@ -285,13 +284,13 @@ func phaseSpans(ph Phase, scale float64) (scen, wall, span string) {
 	case wall == "not run":
 		parts = append(parts, "not run")
 	case started && ended:
-		ran := fmt.Sprintf("ran %.1f s%s", ph.End-ph.Start, at)
+		ran := "ran " + tenths.Format(ph.End-ph.Start) + at
 		if planned := (ph.ScenarioEnd - ph.ScenarioStart) * scale; planned > 0 && ph.End-ph.Start < 0.95*planned {
-			ran += fmt.Sprintf(" of the %.1f s planned", planned)
+			ran += " of the " + tenths.Format(planned) + " planned"
 		}
 		parts = append(parts, ran+" ("+wall+" after the start)")
 	case started:
-		parts = append(parts, "started "+fmt.Sprintf("%.1f s", ph.Start)+" after the start"+at)
+		parts = append(parts, "started "+tenths.Format(ph.Start)+" after the start"+at)
 	}
 	if len(parts) == 0 {
 		return scen, wall, "—"
@@ -346,12 +345,7 @@ func buildNet(ph Phase) *pageNet {
 }
 
 // fmtDelay writes seconds as milliseconds, "—" when unknown.
-func fmtDelay(s float64) string {
-	if math.IsNaN(s) || math.IsInf(s, 0) {
-		return "—"
-	}
-	return strconv.FormatFloat(s*1000, 'g', 4, 64) + " ms"
-}
+func fmtDelay(s float64) string { return delayMs.Format(s) }
 
 func buildProv(pv *Provenance) *pageProv {
 	p := &pageProv{

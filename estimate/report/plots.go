@@ -418,7 +418,7 @@ func addTrip(p *plot.Plot, t *Trip, xlo, xhi, ylo, yhi float64) error {
 	l.Color = tripColor
 	l.Width = vg.Points(1.5)
 	p.Add(l)
-	p.Legend.Add(fmt.Sprintf("safety trip at %.1f s", t.Elapsed), l)
+	p.Legend.Add("safety trip at "+tenths.Format(t.Elapsed), l)
 	return nil
 }
 
@@ -470,9 +470,7 @@ func tripWindowName(w *TripWindow) string {
 	return fmt.Sprintf("trip's own %s over its %s window", what, fmtWindow(w.Seconds))
 }
 
-func fmtWindow(s float64) string {
-	return strconv.FormatFloat(s, 'g', 4, 64) + " s"
-}
+func fmtWindow(s float64) string { return windowSec.Format(s) }
 
 // addTripWindow draws the trip's windowed quantity, its bound, and the
 // value that fired the trip (a marker at the trip's time), all on the

@@ -12,6 +12,7 @@ import (
 	"math"
 	"os"
 	"path/filepath"
+	"rigwire/profiles/laws"
 	"sort"
 	"strings"
 	"time"
@@ -314,12 +315,19 @@ func fmtNum(p *float64) string {
 	return fmt.Sprintf("%.4g", v)
 }
 
-func fmtSeconds(s float64) string {
-	if math.IsNaN(s) || math.IsInf(s, 0) {
-		return "—"
-	}
-	return fmt.Sprintf("%.1f s", s)
-}
+// Times as the report writes them (laws.Seconds): seconds to a tenth
+// ("54.0 s") for times since the start, milliseconds ("8.123 ms") for
+// delays, seconds ("0.5 s") for the trip's window and its sampling, and
+// shortest seconds ("12.25 s") within a scenario time.
+var (
+	tenths    = laws.Seconds{Unit: "s", Fixed: true, Digits: 1, Space: true, Missing: "—"}
+	delayMs   = laws.Seconds{Unit: "ms", Space: true, Missing: "—"}
+	windowSec = laws.Seconds{Unit: "s", Space: true}
+	exactSec  = laws.Seconds{Unit: "s", Fixed: true, Digits: -1, Space: true}
+)
+
+// fmtSeconds writes a time since the start, "—" when unknown.
+func fmtSeconds(s float64) string { return tenths.Format(s) }
 
 // ratio returns measured/predicted when both are finite and predicted ≠ 0.
 func ratio(m, p *float64) (float64, bool) {
