@@ -130,11 +130,11 @@ func binom(n, k int) float64 {
 }
 
 // TestTauRuleSciPy compares with SciPy's quad of the convolution of a
-// shifted lognormal and a gamma (tests/reference/convolution.py; the
+// shifted lognormal and a gamma (estimate/testdata/reference/convolution.py; the
 // command that made convolution.out is in its doc string).
 func TestTauRuleSciPy(t *testing.T) {
 	const sciTol = 1e-9 // relative; SciPy's nested quad asks 1e-12 to 1e-13
-	f, err := os.Open("../tests/reference/convolution.out")
+	f, err := os.Open("testdata/reference/convolution.out")
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -14,14 +14,14 @@ import (
 
 // TestAgainstIndependentOctave compares the prediction with an
 // independent implementation of estimate/model.md §3–§4 in GNU Octave
-// (tests/reference/jump_moments.m; command in its header): vec/kron
+// (estimate/testdata/reference/jump_moments.m; command in its header): vec/kron
 // operators, c2d for Γ0(τ), Octave's adaptive integral of the trapezoid
 // density of the sum of two uniform delays, the Gilbert–Elliott chain by
 // Octave's expm. The bar is 1e-6 relative on smooth cases.
 func TestAgainstIndependentOctave(t *testing.T) {
 	const indepTol = 1e-6
 	want := map[string]float64{}
-	f, err := os.Open("../tests/reference/jump_moments.out")
+	f, err := os.Open("testdata/reference/jump_moments.out")
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -15,9 +15,9 @@ import (
 )
 
 // Reference values from GNU Octave 7.3 with its control package (Debian
-// octave-control), made by tests/reference/constant_delay.m:
+// octave-control), made by estimate/testdata/reference/constant_delay.m:
 //
-//	cd tests/reference && octave --no-gui --quiet constant_delay.m > constant_delay.out
+//	cd estimate/testdata/reference && octave --no-gui --quiet constant_delay.m > constant_delay.out
 //
 // c2d gives Φ, Γ; the fractional delay is the augmented form of
 // Åström–Wittenmark §2.3 built from two more c2d calls; W_d is adaptive
@@ -28,7 +28,7 @@ const octaveTol = 1e-9 // relative to the largest entry of each matrix
 
 func readOctave(t *testing.T) map[string]*mat.Dense {
 	t.Helper()
-	f, err := os.Open("../tests/reference/constant_delay.out")
+	f, err := os.Open("testdata/reference/constant_delay.out")
 	if err != nil {
 		t.Fatal(err)
 	}

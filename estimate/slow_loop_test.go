@@ -18,7 +18,7 @@ import (
 // law of τ sits in a few hundred microseconds at the start of a period a
 // second long. A quadrature spread evenly over [c, h] steps over such a
 // peak and calls every command late. The reference is
-// tests/reference/slow_loop.m (GNU Octave with its control package; the
+// estimate/testdata/reference/slow_loop.m (GNU Octave with its control package; the
 // command is in its header): the second-moment operator on vec(Q) built
 // from the model's three modes with c2d for Γ0(τ), the density of
 // τsc + τca in closed form, integrated adaptively on pieces one standard
@@ -79,7 +79,7 @@ func readReference(t *testing.T, path string) map[string]float64 {
 }
 
 func TestSlowLoopNarrowDelayAgainstOctave(t *testing.T) {
-	ref := readReference(t, "../tests/reference/slow_loop.out")
+	ref := readReference(t, "testdata/reference/slow_loop.out")
 	want := func(k string) float64 {
 		v, ok := ref["slow_loop."+k]
 		if !ok {

@@ -26,7 +26,7 @@ import (
 // measured and reported instead of stopping the test binary.
 
 const (
-	// chainRhoTol: ρ against the SciPy value of tests/reference/chains.py,
+	// chainRhoTol: ρ against the SciPy value of estimate/testdata/reference/chains.py,
 	// the bar of the other independent comparisons.
 	chainRhoTol = 1e-6
 	// chainMomentTol: the steady E[eᵀe] against SciPy, relative.
@@ -57,7 +57,7 @@ const (
 // chainLoop is a row of K unit masses joined by springs k (the first tied
 // to a wall, the last free), each on a mount of stiffness k0, Rayleigh
 // damping αI + βS, a force on mass 1 and its position measured: the plant
-// of tests/reference/chains.py, built the same way so that the matrices
+// of estimate/testdata/reference/chains.py, built the same way so that the matrices
 // agree to the last bit. The controller is u = d e; the network loses and
 // delays (atoms only, so the Monte Carlo reuses its input splits), its
 // command direction i.i.d. or a two-state bursty channel.
@@ -155,7 +155,7 @@ type chainRef struct {
 }
 
 func readChains() ([]chainRef, error) {
-	const path = "../tests/reference/chains.out"
+	const path = "testdata/reference/chains.out"
 	f, err := os.Open(path)
 	if err != nil {
 		return nil, err

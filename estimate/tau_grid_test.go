@@ -34,8 +34,8 @@ import (
 //
 // and E[τ | m2] = E[τ; S < h, S + T + c < h] / P(S < h, S + T + c < h).
 //
-// The reference values are tests/reference/tau_grid.out, written by
-// tests/reference/tau_grid.py (the command is in its docstring): every
+// The reference values are estimate/testdata/reference/tau_grid.out, written by
+// estimate/testdata/reference/tau_grid.py (the command is in its docstring): every
 // mass and first moment by scipy.integrate.quad (QUADPACK, relative
 // tolerance 1e-12) split at the laws' supports, shifts, atoms and quantiles
 // from 1e-30 to 1 − 1e-30, atoms summed exactly, each law built from
@@ -82,7 +82,7 @@ const (
 	tauGridMaxRSSKB = 2 << 20 // 2 GB
 )
 
-const tauGridFile = "../tests/reference/tau_grid.out"
+const tauGridFile = "testdata/reference/tau_grid.out"
 
 // tauGridCase is one line of tau_grid.out.
 type tauGridCase struct {

@@ -584,7 +584,7 @@ def grid():
 
 def main():
     cases = grid()
-    print("# Reference mode probabilities over a grid of delay laws x periods (tests/reference/tau_grid.py).")
+    print("# Reference mode probabilities over a grid of delay laws x periods (estimate/testdata/reference/tau_grid.py).")
     print("# scipy %s, numpy %s, python %s" % (scipy.__version__, np.__version__, sys.version.split()[0]))
     print("# one JSON object per case; times in seconds; masses without losses:")
     print("#   on_time_sc = P(S < h), stale_sc = P(S >= h), m2_mass = P(S < h, S+T+c < h),")

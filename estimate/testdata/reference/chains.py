@@ -188,7 +188,7 @@ def solve(K, k, k0, alpha, beta, d, channel):
 
 
 def main():
-    print("# Chains of lightly damped modes over a lossy, delaying network (tests/reference/chains.py).")
+    print("# Chains of lightly damped modes over a lossy, delaying network (estimate/testdata/reference/chains.py).")
     print("# scipy %s, numpy %s, python %s" % (scipy.__version__, np.__version__, sys.version.split()[0]))
     print("# name K k k0 alpha beta d channel rho e2")
     for name, K, k, k0, alpha, beta, d, channel in LOOPS:
