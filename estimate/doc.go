@@ -2,9 +2,11 @@
 // closed over a lossy, delaying network: mean-square stability, the
 // steady moments of the tracking error and the loss margin. It is pure
 // numerics: it takes a validated [profiles.Loop] and returns numbers or
-// an error that says why it cannot. It also holds the online estimators
-// of the monitor and the goodness-of-fit statistics used to fit and check
-// profiles (ks.go).
+// an error that says why it cannot, and the words a report uses for it
+// ([VerdictOf], [DescribeStability]). The measurements it is compared with
+// are elsewhere: the online estimators in estimate/online, fitting a
+// profile to a probe trace in estimate/fit, the monitor engine that joins
+// them in estimate/engine.
 //
 // The model is described in estimate/model.md, whose numbered sections the
 // code cites as "estimate/model.md §N":
@@ -24,11 +26,19 @@
 //   - §6 deciding stability, certified (stability.go);
 //   - §7 what a prediction reports ([Predict]);
 //   - §8 the loss margin (margin.go);
-//   - §9 the online estimate and the verdict (online.go);
+//   - §9 the online estimate and the verdict (estimate/online,
+//     estimate/engine);
 //   - §10 conventions, §11 limits (limits.go), §12 the published sources
 //     the tests check against.
 //
 // Entry points: [Predict] for the prediction, [Build] for the model itself
 // ([Model.Transient] for a step response, [Model.Radius]), [Sweep] for a
-// curve against extra loss or a delay scale, [Simulate].
+// curve against extra loss or a delay scale, [Simulate] for a seeded
+// Monte Carlo run of the same jump system.
+//
+// Place in the flow: loop file (profiles) → the prediction (here) → the
+// verdict, where the monitor engine (estimate/engine) compares the
+// measured E[eᵀe] with it, and the metrics and reports that show both
+// (`monitor predict`, estimate/report). It touches no socket and no
+// datagram.
 package estimate

@@ -1,16 +1,26 @@
-// Package profiles turns network profile files into validated values: the
-// delay distributions and the Markov-modulated loss channels that the relay
-// draws from and that the prediction takes expectations over; and the loop
-// files and scenarios that the monitor reads.
+// Package profiles reads the files a run starts from and turns them into
+// validated values: network profiles (each direction of a link a
+// [markov.Channel] of loss probabilities and [laws.Delay] laws), loop files
+// (plant, controller, setpoint, compute delay, the network, the layout of
+// the rig's sensor datagrams and the safety trip) and soak scenarios
+// (phases, ramps, checks). Every error names the file, the line and the
+// key.
 //
-// One definition serves both users. A [Delay] can be sampled (fast, without
-// allocation, from a source the caller passes in) and it also exposes its
-// law exactly: the CDF, the density of its absolutely continuous part, its
-// atoms (point masses), its quantile function, its mean and variance, and
-// the interval holding its mass. A [Channel] is a finite set of [State]s,
-// each with its own loss probability and delay law, switching in
-// continuous time with exponential dwell times; a direction with one set of
-// parameters is a one-state channel.
+// One definition serves both users of a profile: the relay samples a
+// delay law per datagram (fast, without allocation) and the prediction
+// takes expectations over the same law exactly (its CDF, density, atoms,
+// quantile, moments). The laws themselves are in profiles/laws, the
+// channels in profiles/markov, probe traces and their replay in
+// profiles/trace, the sensor datagram layout and its decoder in
+// profiles/datagram, and the positioned YAML reader and capped input files
+// every loader uses in profiles/yamlpos; this package holds only the file
+// formats. Every example file of the project is in profiles/examples.
+//
+// Place in the flow: the first stage. Profile, loop and scenario files →
+// profiles (here) → the relay draws each datagram's fate from a profile's
+// channels (emulate); the prediction takes a loop (estimate); the monitor
+// engine decodes the rig's datagrams with the loop's layout and judges
+// against its checks (estimate/engine); a soak steps through a scenario.
 //
 // All times are in seconds, as float64. In files, durations are Go
 // duration strings ("250us", "3ms", "1.5s") or plain numbers of seconds.
@@ -50,30 +60,30 @@
 //
 // Every file the project reads — a profile, a loop, a scenario, a links
 // file, a lab topology, an empirical law's samples, a probe trace — is
-// read through [ReadInputFile] or [OpenInputFile]. Only a regular file is
+// read through [yamlpos.ReadInputFile] or [yamlpos.OpenInputFile]. Only a regular file is
 // read (a symbolic link is followed to one): a named pipe, a directory, a
 // device or a socket is refused with its kind named ("profile x.yaml: not
 // a regular file (a named pipe)"), and a pipe is never opened in a way
 // that could wait for a writer. A file larger than its cap is refused
 // before a byte of it is read:
 //
-//	YAML files (profile, loop, scenario, links, lab topology)   1 MiB   MaxYAMLBytes
-//	empirical samples file (file: of kind empirical)           16 MiB   MaxSamplesBytes
-//	probe trace (impair fit, trace: of a direction)              1 GiB   MaxTraceBytes
+//	YAML files (profile, loop, scenario, links, lab topology)   1 MiB   yamlpos.MaxYAMLBytes
+//	empirical samples file (file: of kind empirical)           16 MiB   yamlpos.MaxSamplesBytes
+//	probe trace (impair fit, trace: of a direction)              1 GiB   yamlpos.MaxTraceBytes
 //
-// A YAML file holds at most [MaxNodes] values (100000, aliases
+// A YAML file holds at most [yamlpos.MaxNodes] values (100000, aliases
 // expanded); the values are counted before the file is parsed, so a file
 // of too many values is refused without building it. An empirical law has
-// at most [MaxSamples] delays (100000), inline or in its file, and every
+// at most [laws.MaxSamples] delays (100000), inline or in its file, and every
 // delay of every source — inline, a samples file, a trace — is finite and
-// in [0, MaxDelay] (1 h); a trace has at most [MaxTraceProbes] probes, the
+// in [0, laws.MaxDelay] (1 h); a trace has at most [trace.MaxTraceProbes] probes, the
 // most `impair probe` sends. A scenario builds one profile per step; its
 // steps together may hold at most [MaxScenarioValues] values (each step
 // counts its profile's YAML values and the delays its laws hold), checked
 // before any step is built.
 //
 // Messages name the file, the line and the key; they quote at most a
-// short, escaped token of the input ([Token]: 40 characters), and never
+// short, escaped token of the input ([yamlpos.Token]: 40 characters), and never
 // repeat a line of a samples or trace file that does not look like a
 // number or a word, so pointing a key at an unrelated file shows none of
 // it.
