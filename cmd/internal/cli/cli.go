@@ -1,14 +1,3 @@
-// Package cli is what both rigwire commands share between parsing their
-// flags and exiting: the kinds of error a subcommand returns, the one
-// function that turns them into an exit status of the table in
-// cmd/internal/exitcode, and a flag set whose -h prints the command's
-// help with its exit statuses.
-//
-// A subcommand returns nil, or one of: a UsageError (a bad flag or
-// argument) or an InputError (a file that does not load or validate, or a
-// loop the prediction cannot use), both status 2; an Exit with its own
-// status (a verdict, a trip); a Help (-h); anything else is an error while
-// running, status 1.
 package cli
 
 import (

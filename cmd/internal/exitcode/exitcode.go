@@ -1,7 +1,3 @@
-// Package exitcode is the one table of exit statuses that every rigwire
-// command uses, so that a lab script can branch on them whatever command
-// it ran. Each command's help lists the statuses it can return, from
-// Help.
 package exitcode
 
 import (

@@ -1,6 +1,3 @@
-// Package metricsrv serves a Prometheus registry at /metrics for rigwire's
-// commands: bound before the command starts its work, so that a busy or bad
-// address is reported at once, and shut down when the command ends.
 package metricsrv
 
 import (
