@@ -15,7 +15,14 @@
 // (RFC 1918) and exist only inside these namespaces; nothing is routed
 // from or to the host's own namespace.
 //
-// [Up] and [Down] are idempotent and print each step; both need root or
-// CAP_NET_ADMIN and CAP_SYS_ADMIN (to mount the namespace files under
-// /run/netns, where `ip netns` finds them too).
+// A topology other than the default is read from a YAML file ([Load],
+// [Parse]; errors name the file, line and key). [Build] and [Remove] are
+// idempotent and print each step; both need root or CAP_NET_ADMIN and
+// CAP_SYS_ADMIN (to mount the namespace files under /run/netns, where
+// `ip netns` finds them too).
+//
+// Place in the flow: beneath it. The lab carries no datagram and computes
+// nothing; it builds the interfaces the flow crosses in a dry run (rig →
+// relay → controller, each in its own namespace), set up by `impair lab
+// build` before the relay, the simulated rig and the monitor start.
 package lab
