@@ -1,11 +1,3 @@
-// Command batchfwd is a baseline for the load script: a UDP forwarder in
-// Go that reads with recvmmsg and writes with sendmmsg (x/net ipv4
-// ReadBatch and WriteBatch), up to -batch datagrams per system call.
-//
-// Datagrams arriving at -listen are sent on to -to from a second,
-// connected socket, as the relay does with a sensor's datagrams; it
-// forwards one way only. It stops on SIGTERM or SIGINT and prints its
-// counters as JSON on stderr.
 package main
 
 import (

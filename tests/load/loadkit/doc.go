@@ -5,4 +5,8 @@
 // latency percentiles.
 //
 // It opens no sockets and reads no flags; the programs beside it do.
+//
+// Place in the flow: outside it. The load tools beside it (udpgen, the
+// baseline forwarders, udpsink, loadrun) measure what the relay (emulate)
+// costs on a datagram's path, and this is what they agree on.
 package loadkit

@@ -1,10 +1,3 @@
-// Command naivefwd is a baseline for the load script: the plainest UDP
-// forwarder in Go, one ReadFrom and one WriteTo per datagram.
-//
-// Datagrams arriving at -listen are sent on to -to from a second socket,
-// as the relay does with a sensor's datagrams; it forwards one way only
-// (the load has no replies). It stops on SIGTERM or SIGINT and prints its
-// counters as JSON on stderr.
 package main
 
 import (
