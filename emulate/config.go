@@ -1,6 +1,7 @@
 package emulate
 
 import (
+	"errors"
 	"fmt"
 	"io"
 	"log/slog"
@@ -8,6 +9,8 @@ import (
 	"time"
 
 	"rigwire/profiles"
+
+	"github.com/prometheus/client_golang/prometheus"
 )
 
 // Config is what a Relay needs. Listen and Controller are required.
@@ -79,6 +82,43 @@ const (
 	DefaultMaxInFlight = 2048
 	DefaultSpin        = 50 * time.Microsecond
 )
+
+// checkAndFill refuses a Config New cannot run (no profile, a missing or
+// unusable address, a negative relock interval, addresses of two families
+// on one socket) and fills in the defaults of the fields left zero.
+func (cfg *Config) checkAndFill() error {
+	if cfg.Profile == nil {
+		return errors.New("relay: no profile")
+	}
+	if !cfg.Listen.IsValid() || !cfg.Controller.IsValid() {
+		return errors.New("relay: the listen and controller addresses are required")
+	}
+	if cfg.Sensor.IsValid() && cfg.Sensor.Addr().IsUnspecified() {
+		return fmt.Errorf("relay: sensor %s: no datagram comes from an unspecified address; want the sensor node's address", cfg.Sensor)
+	}
+	if cfg.RelockAfter < 0 {
+		return fmt.Errorf("relay: relock interval %s: want ≥ 0", cfg.RelockAfter)
+	}
+	if err := CheckFamilies(*cfg); err != nil {
+		return err
+	}
+	if cfg.MaxDatagram <= 0 {
+		cfg.MaxDatagram = DefaultMaxDatagram
+	}
+	if cfg.MaxInFlight <= 0 {
+		cfg.MaxInFlight = DefaultMaxInFlight
+	}
+	if !cfg.SpinSet {
+		cfg.Spin = DefaultSpin
+	}
+	if cfg.Logger == nil {
+		cfg.Logger = slog.Default()
+	}
+	if cfg.Metrics == nil {
+		cfg.Metrics = NewMetrics(prometheus.NewRegistry())
+	}
+	return nil
+}
 
 // family is 4 or 6: the family of socket that reaches a.
 func family(a netip.Addr) int {
