@@ -7,6 +7,7 @@ import (
 
 	"gonum.org/v1/gonum/mat"
 
+	"rigwire/estimate/simstep"
 	"rigwire/profiles"
 	"rigwire/profiles/laws"
 	"rigwire/profiles/markov"
@@ -59,7 +60,10 @@ type SimResult struct {
 // is lost or drawn a delay in turn, and a command with τ ≥ h is late. The
 // plant moves by its exact sampling over the period with the input switch
 // at τ (Φ, Γ0(τ), Γ1(τ) from one matrix exponential per delivered command)
-// and process noise w ~ N(0, W_d); the sensor noise v ~ N(0, V).
+// and process noise w ~ N(0, W_d); the sensor noise v ~ N(0, V). The
+// step's arithmetic (the noise draws, the plant's free motion, the
+// controller's update) is estimate/simstep's, the same the simulated rig
+// (emulate/rig) runs.
 func Simulate(loop *profiles.Loop, opts SimOptions) (*SimResult, error) {
 	if opts.Periods <= opts.Warmup || opts.Warmup < 0 {
 		return nil, fmt.Errorf("periods: want more than the warm-up (%d), got %d", opts.Warmup, opts.Periods)
@@ -110,7 +114,7 @@ type simulator struct {
 	zero           bool
 	phi, gam       *mat.Dense
 	cp             *mat.Dense
-	ac, bc, cc, dc *mat.Dense
+	ctl            profiles.Controller
 	r              []float64
 	wFac, vFac     *mat.Dense // noise factors: L Lᵀ = covariance
 	psc, pca       *mat.Dense
@@ -129,11 +133,11 @@ func newSimulator(md *Model) *simulator {
 	s := &simulator{md: md, n: n, m: m, p: p, nc: nc, h: l.Period, c: l.ComputeDelay,
 		zero: l.Actuator.OnLoss == profiles.ZeroUnlessFresh,
 		phi:  md.lm.samp.Phi, gam: md.lm.samp.Gamma, cp: l.Plant.C,
-		ac: l.Controller.A, bc: l.Controller.B, cc: l.Controller.C, dc: l.Controller.D,
-		r: l.Setpoint, split: map[float64][2]*mat.Dense{},
+		ctl: l.Controller,
+		r:   l.Setpoint, split: map[float64][2]*mat.Dense{},
 	}
-	s.wFac = sqrtFactor(md.lm.samp.Wd)
-	s.vFac = sqrtFactor(l.Plant.V)
+	s.wFac = simstep.Factor(md.lm.samp.Wd)
+	s.vFac = simstep.Factor(l.Plant.V)
 	prof := l.Profile
 	s.psc, s.pca = prof.SensorToController.Transition(l.Period), prof.ControllerToActuator.Transition(l.Period)
 	s.pisc, s.pica = prof.SensorToController.Stationary(), prof.ControllerToActuator.Stationary()
@@ -152,32 +156,6 @@ func newSimulator(md *Model) *simulator {
 	return s
 }
 
-// sqrtFactor returns L with L Lᵀ = a for a symmetric positive
-// semidefinite a, from its eigendecomposition (negative rounding clipped).
-func sqrtFactor(a *mat.Dense) *mat.Dense {
-	n, _ := a.Dims()
-	sym := mat.NewSymDense(n, nil)
-	for i := 0; i < n; i++ {
-		for j := i; j < n; j++ {
-			sym.SetSym(i, j, (a.At(i, j)+a.At(j, i))/2)
-		}
-	}
-	var eig mat.EigenSym
-	l := mat.NewDense(n, n, nil)
-	if !eig.Factorize(sym, true) {
-		return l
-	}
-	var u mat.Dense
-	eig.VectorsTo(&u)
-	vals := eig.Values(nil)
-	for i := 0; i < n; i++ {
-		for j := 0; j < n; j++ {
-			l.Set(i, j, u.At(i, j)*math.Sqrt(math.Max(0, vals[j])))
-		}
-	}
-	return l
-}
-
 func draw(r *rand.Rand, row []float64) int {
 	u := r.Float64()
 	for j, p := range row {
@@ -187,24 +165,6 @@ func draw(r *rand.Rand, row []float64) int {
 		}
 	}
 	return len(row) - 1
-}
-
-func mulVec(a *mat.Dense, x []float64, out []float64, add bool) {
-	if a == nil {
-		return
-	}
-	r, c := a.Dims()
-	for i := 0; i < r; i++ {
-		s := 0.0
-		for j := 0; j < c; j++ {
-			s += a.At(i, j) * x[j]
-		}
-		if add {
-			out[i] += s
-		} else {
-			out[i] = s
-		}
-	}
 }
 
 func (s *simulator) gammas(tau float64) (g0, g1 *mat.Dense) {
@@ -236,11 +196,8 @@ func (s *simulator) run(rng *rand.Rand, periods, warmup int, path *[]PathPoint, 
 	sum := 0.0
 	for k := 0; k < periods; k++ {
 		// Sample: y = C x + v, e = r − y.
-		for i := range std[:p] {
-			std[i] = rng.NormFloat64()
-		}
-		mulVec(s.vFac, std[:p], v, false)
-		mulVec(s.cp, x, e, false)
+		simstep.Noise(v, s.vFac, rng, std)
+		simstep.MulVec(e, s.cp, x, false)
 		ee := 0.0
 		for i := 0; i < p; i++ {
 			e[i] = s.r[i] - e[i] - v[i]
@@ -256,11 +213,7 @@ func (s *simulator) run(rng *rand.Rand, periods, warmup int, path *[]PathPoint, 
 			if tsc < s.h {
 				mode = 1
 				// u_k = Cc xc + Dc e; xc' = Ac xc + Bc e.
-				mulVec(s.dc, e, u, false)
-				mulVec(s.cc, xc, u, true)
-				mulVec(s.ac, xc, xcn, false)
-				mulVec(s.bc, e, xcn, true)
-				copy(xc, xcn)
+				simstep.Controller(s.ctl, xc, xcn, e, u)
 				if rng.Float64() >= s.lossCA[ica] {
 					t := tsc + s.delayCA[ica].Sample(rng) + s.c
 					if t < s.h {
@@ -271,21 +224,17 @@ func (s *simulator) run(rng *rand.Rand, periods, warmup int, path *[]PathPoint, 
 		}
 		counts[mode]++
 		// Plant over the period.
-		for i := range std[:n] {
-			std[i] = rng.NormFloat64()
-		}
-		mulVec(s.wFac, std[:n], xn, false)
-		mulVec(s.phi, x, xn, true)
+		simstep.Plant(xn, s.phi, x, s.wFac, rng, std)
 		switch {
 		case mode == 2:
 			g0, g1 := s.gammas(tau)
-			mulVec(g0, u, xn, true)
+			simstep.MulVec(xn, g0, u, true)
 			if !s.zero {
-				mulVec(g1, uHeld, xn, true)
+				simstep.MulVec(xn, g1, uHeld, true)
 				copy(uHeld, u)
 			}
 		case !s.zero:
-			mulVec(s.gam, uHeld, xn, true)
+			simstep.MulVec(xn, s.gam, uHeld, true)
 		}
 		copy(x, xn)
 		if path != nil {
