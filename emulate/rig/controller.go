@@ -11,8 +11,8 @@ import (
 	"sync"
 	"time"
 
-	"gonum.org/v1/gonum/mat"
-
+	"rigwire/emulate/internal/timer"
+	"rigwire/estimate/simstep"
 	"rigwire/profiles"
 )
 
@@ -104,7 +104,7 @@ func (c *Controller) Stats() ControllerStats {
 // Shutdown order: ctx ends, the receiver is halted, the serve loop ends
 // within pollEvery, the timer and the socket close.
 func (c *Controller) Run(ctx context.Context) error {
-	w, err := newWaiter()
+	w, err := timer.NewPrecise()
 	if err != nil {
 		c.rx.close()
 		c.conn.Close()
@@ -120,7 +120,7 @@ func (c *Controller) Run(ctx context.Context) error {
 	}()
 	err = c.serveLoop(w)
 	close(done)
-	w.close()
+	w.Close()
 	c.rx.close()
 	c.conn.Close()
 	return err
@@ -128,7 +128,7 @@ func (c *Controller) Run(ctx context.Context) error {
 
 // serveLoop is the controller's one goroutine: read, decide, compute,
 // wait, reply; it ends when the receiver is halted.
-func (c *Controller) serveLoop(w *waiter) error {
+func (c *Controller) serveLoop(w timer.Waiter) error {
 	runtime.LockOSThread()
 	defer runtime.UnlockOSThread()
 	l := c.cfg.Loop
@@ -176,16 +176,10 @@ func (c *Controller) serveLoop(w *waiter) error {
 		for i := range e {
 			e[i] = l.Setpoint[i] - y[i]
 		}
-		mulAdd(u, l.Controller.D, e, false)
-		if nc > 0 {
-			mulAdd(u, l.Controller.C, xc, true)
-			mulAdd(xcn, l.Controller.A, xc, false)
-			mulAdd(xcn, l.Controller.B, e, true)
-			copy(xc, xcn)
-		}
+		simstep.Controller(l.Controller, xc, xcn, e, u)
 		out = AppendCommand(out[:0], k, tk, u)
 		if c.cNs > 0 {
-			w.until(arrival + c.cNs)
+			sleepUntil(w, arrival+c.cNs)
 		}
 		_, err = c.conn.WriteToUDPAddrPort(out, src)
 		c.mu.Lock()
@@ -195,21 +189,5 @@ func (c *Controller) serveLoop(w *waiter) error {
 			c.stats.Used++
 		}
 		c.mu.Unlock()
-	}
-}
-
-// mulAdd sets (or adds to) out the product a x.
-func mulAdd(out []float64, a *mat.Dense, x []float64, add bool) {
-	r, cols := a.Dims()
-	for i := 0; i < r; i++ {
-		s := 0.0
-		for j := 0; j < cols; j++ {
-			s += a.At(i, j) * x[j]
-		}
-		if add {
-			out[i] += s
-		} else {
-			out[i] = s
-		}
 	}
 }

@@ -15,6 +15,7 @@ import (
 	"sync"
 	"time"
 
+	"rigwire/emulate/internal/timer"
 	"rigwire/profiles"
 )
 
@@ -193,13 +194,13 @@ func (nd *Node) Samples() int {
 // receive loop is halted and ends within pollEvery, the socket closes,
 // the log flushes.
 func (nd *Node) Run(ctx context.Context) error {
-	w, err := newWaiter()
+	w, err := timer.NewPrecise()
 	if err != nil {
 		nd.rx.close()
 		nd.conn.Close()
 		return fmt.Errorf("rig node: %w", err)
 	}
-	defer w.close()
+	defer w.Close()
 	nd.mu.Lock()
 	nd.t0 = Now() + 20e6 // 20 ms to settle before sample 0
 	nd.xt = nd.t0
@@ -222,12 +223,12 @@ func (nd *Node) Run(ctx context.Context) error {
 
 // tickLoop wakes at each t_k and takes the samples due, until Periods
 // samples have been taken and the last period closed, or ctx ends.
-func (nd *Node) tickLoop(ctx context.Context, w *waiter) {
+func (nd *Node) tickLoop(ctx context.Context, w timer.Waiter) {
 	runtime.LockOSThread()
 	defer runtime.UnlockOSThread()
 	for k := 0; nd.cfg.Periods == 0 || k <= nd.cfg.Periods; k++ {
 		tk := nd.t0 + int64(k)*nd.hNs
-		w.until(tk)
+		sleepUntil(w, tk)
 		if ctx.Err() != nil {
 			break
 		}

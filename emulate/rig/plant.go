@@ -1,12 +1,12 @@
 package rig
 
 import (
-	"math"
 	"math/rand/v2"
 
 	"gonum.org/v1/gonum/mat"
 
 	"rigwire/estimate"
+	"rigwire/estimate/simstep"
 	"rigwire/profiles"
 )
 
@@ -24,13 +24,13 @@ import (
 // so any split of a period gives the same law at the next sample as one
 // step over the whole period. A Plant is not safe for concurrent use.
 type Plant struct {
-	a, b, c, w *mat.Dense
-	n, m, p    int
-	vFac       *mat.Dense // L Lᵀ = V
-	x          []float64
-	rng        *rand.Rand
-	std, tmp   []float64
-	cache      map[int64]*plantStep // by sub-interval in ns
+	a, b, c, w  *mat.Dense
+	n, m, p     int
+	vFac        *mat.Dense // L Lᵀ = V
+	x           []float64
+	rng         *rand.Rand
+	std, tmp, v []float64
+	cache       map[int64]*plantStep // by sub-interval in ns
 }
 
 type plantStep struct {
@@ -48,8 +48,8 @@ func NewPlant(pl profiles.Plant, rng *rand.Rand) *Plant {
 	p, _ := pl.C.Dims()
 	return &Plant{
 		a: pl.A, b: pl.B, c: pl.C, w: pl.W, n: n, m: m, p: p,
-		vFac: sqrtFactor(pl.V), x: make([]float64, n), rng: rng,
-		std: make([]float64, max(n, p)), tmp: make([]float64, n),
+		vFac: simstep.Factor(pl.V), x: make([]float64, n), rng: rng,
+		std: make([]float64, max(n, p)), tmp: make([]float64, n), v: make([]float64, p),
 		cache: map[int64]*plantStep{},
 	}
 }
@@ -65,7 +65,7 @@ func (pt *Plant) step(dtNs int64) *plantStep {
 		return s
 	}
 	d := estimate.Discretize(pt.a, pt.b, pt.w, float64(dtNs)*1e-9)
-	s := &plantStep{phi: d.Phi, gamma: d.Gamma, wFac: sqrtFactor(d.Wd)}
+	s := &plantStep{phi: d.Phi, gamma: d.Gamma, wFac: simstep.Factor(d.Wd)}
 	if len(pt.cache) < maxCachedSteps {
 		pt.cache[dtNs] = s
 	}
@@ -79,72 +79,16 @@ func (pt *Plant) Advance(dtNs int64, u []float64) {
 		return
 	}
 	s := pt.step(dtNs)
-	for i := 0; i < pt.n; i++ {
-		pt.std[i] = pt.rng.NormFloat64()
-	}
-	for i := 0; i < pt.n; i++ {
-		v := 0.0
-		for j := 0; j < pt.n; j++ {
-			v += s.phi.At(i, j)*pt.x[j] + s.wFac.At(i, j)*pt.std[j]
-		}
-		for j := 0; j < pt.m; j++ {
-			v += s.gamma.At(i, j) * u[j]
-		}
-		pt.tmp[i] = v
-	}
+	simstep.Plant(pt.tmp, s.phi, pt.x, s.wFac, pt.rng, pt.std)
+	simstep.MulVec(pt.tmp, s.gamma, u, true)
 	copy(pt.x, pt.tmp)
 }
 
 // Sample returns y = C x + v into y (p entries), with a fresh v ~ N(0, V).
 func (pt *Plant) Sample(y []float64) {
-	for i := 0; i < pt.p; i++ {
-		pt.std[i] = pt.rng.NormFloat64()
+	simstep.Noise(pt.v, pt.vFac, pt.rng, pt.std)
+	simstep.MulVec(y, pt.c, pt.x, false)
+	for i := range y {
+		y[i] += pt.v[i]
 	}
-	for i := 0; i < pt.p; i++ {
-		v := 0.0
-		for j := 0; j < pt.n; j++ {
-			v += pt.c.At(i, j) * pt.x[j]
-		}
-		for j := 0; j < pt.p; j++ {
-			v += pt.vFac.At(i, j) * pt.std[j]
-		}
-		y[i] = v
-	}
-}
-
-// sqrtFactor returns L with L Lᵀ = a for a symmetric positive
-// semidefinite a (nil: zeros), from its eigendecomposition a = U Λ Uᵀ,
-// L = U Λ^{1/2}, negative rounding clipped to zero (a Cholesky factor
-// fails on the singular covariances that noise on only some states gives).
-func sqrtFactor(a *mat.Dense) *mat.Dense {
-	if a == nil {
-		return mat.NewDense(1, 1, nil)
-	}
-	n, _ := a.Dims()
-	l := mat.NewDense(n, n, nil)
-	sym := mat.NewSymDense(n, nil)
-	zero := true
-	for i := 0; i < n; i++ {
-		for j := i; j < n; j++ {
-			v := (a.At(i, j) + a.At(j, i)) / 2
-			sym.SetSym(i, j, v)
-			zero = zero && v == 0
-		}
-	}
-	if zero {
-		return l
-	}
-	var eig mat.EigenSym
-	if !eig.Factorize(sym, true) {
-		return l
-	}
-	var u mat.Dense
-	eig.VectorsTo(&u)
-	vals := eig.Values(nil)
-	for i := 0; i < n; i++ {
-		for j := 0; j < n; j++ {
-			l.Set(i, j, u.At(i, j)*math.Sqrt(math.Max(0, vals[j])))
-		}
-	}
-	return l
 }
