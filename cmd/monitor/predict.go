@@ -1,18 +1,17 @@
 package main
 
 import (
-	"encoding/json"
 	"fmt"
 	"io"
 	"math"
 	"strconv"
 	"strings"
-	"text/tabwriter"
 	"time"
 
 	"rigwire/cmd/internal/cli"
 	"rigwire/cmd/internal/exitcode"
 	"rigwire/estimate"
+	"rigwire/estimate/report"
 	"rigwire/profiles"
 	"rigwire/profiles/laws"
 )
@@ -75,8 +74,8 @@ func cmdPredict(args []string, stdout, stderr io.Writer) error {
 		return cli.Usagef("--plot: want --vary or --step with it")
 	}
 	if *plotFile != "" {
-		if err := checkPlotName(*plotFile); err != nil {
-			return err
+		if err := report.CheckPlotName(*plotFile); err != nil {
+			return cli.Usagef("--plot: %v", err)
 		}
 	}
 	var param string
@@ -109,11 +108,11 @@ func cmdPredict(args []string, stdout, stderr io.Writer) error {
 		return cli.BadInput(fmt.Errorf("%s: %w", path, err))
 	}
 	if *asJSON {
-		if err := writeJSON(stdout, loop, pr); err != nil {
+		if err := report.WritePredictionJSON(stdout, loop, pr); err != nil {
 			return err
 		}
 	} else {
-		writeSummary(stdout, path, loop, pr)
+		report.WritePrediction(stdout, path, loop, pr)
 	}
 	if *strict {
 		return strictStatus(pr)
@@ -215,124 +214,12 @@ func parseVary(s string) (string, []float64, error) {
 	return name, values, nil
 }
 
-// jsonPrediction is the --json output: the verdict, ρ with its error, the
-// error moments and the loss margin first, then the details.
-type jsonPrediction struct {
-	MeanSquareStable  bool        `json:"mean_square_stable"`
-	Stability         string      `json:"stability"`
-	SpectralRadius    float64     `json:"spectral_radius"`
-	RadiusError       *float64    `json:"spectral_radius_error"`
-	ErrorMean         []float64   `json:"error_mean"`
-	ErrorSecondMoment *float64    `json:"error_second_moment"`
-	ErrorStd          *float64    `json:"error_std"`
-	LossMargin        *float64    `json:"loss_margin"`
-	Period            float64     `json:"period_seconds"`
-	Actuator          string      `json:"actuator_on_loss"`
-	States            []jsonState `json:"states"`
-}
-
-type jsonState struct {
-	Name        string   `json:"name"`
-	Probability float64  `json:"probability"`
-	LossSC      float64  `json:"loss_sensor_to_controller"`
-	LossCA      float64  `json:"loss_controller_to_actuator"`
-	PHeld       float64  `json:"p_sample_lost_or_stale"`
-	PLate       float64  `json:"p_command_lost_or_late"`
-	PInTime     float64  `json:"p_command_in_time"`
-	MeanDelay   *float64 `json:"mean_delay_in_time_seconds"`
-}
-
-func finite(v float64) *float64 {
-	if math.IsNaN(v) || math.IsInf(v, 0) {
-		return nil
-	}
-	return &v
-}
-
-func writeJSON(w io.Writer, loop *profiles.Loop, pr *estimate.Prediction) error {
-	out := jsonPrediction{
-		MeanSquareStable: pr.MeanSquareStable,
-		Stability:        estimate.VerdictOf(pr),
-		SpectralRadius:   pr.SpectralRadius,
-		RadiusError:      finite(pr.RadiusError),
-		LossMargin:       finite(pr.LossMargin),
-		Period:           loop.Period,
-		Actuator:         loop.Actuator.OnLoss.String(),
-	}
-	if pr.Error != nil {
-		out.ErrorMean = pr.Error.Mean
-		out.ErrorSecondMoment = finite(pr.Error.SecondMoment)
-		out.ErrorStd = finite(pr.Error.Std)
-	}
-	for _, s := range pr.States {
-		out.States = append(out.States, jsonState{
-			Name: s.Name, Probability: s.Probability, LossSC: s.LossSC, LossCA: s.LossCA,
-			PHeld: s.P0, PLate: s.P1, PInTime: s.P2, MeanDelay: finite(s.MeanDelay),
-		})
-	}
-	enc := json.NewEncoder(w)
-	enc.SetIndent("", "  ")
-	return enc.Encode(out)
-}
-
-// fmtDuration writes the times of the predict table: "0" for none, "-"
-// for a mean delay that does not exist.
-var fmtDuration = laws.Seconds{Zero: "0", Missing: "-"}.Format
-
-func writeSummary(w io.Writer, path string, loop *profiles.Loop, pr *estimate.Prediction) {
-	n, m, p, nc := loop.Dims()
-	fmt.Fprintf(w, "loop      %s\n", path)
-	fmt.Fprintf(w, "          period %s, compute delay %s, %d plant states, %d inputs, %d outputs, %d controller states\n",
-		fmtDuration(loop.Period), fmtDuration(loop.ComputeDelay), n, m, p, nc)
-	name := loop.Profile.Name
-	if name == "" {
-		name = "(unnamed)"
-	}
-	fmt.Fprintf(w, "network   %s, %d joint states; actuator %s on loss\n", name, len(pr.States), loop.Actuator.OnLoss)
-	verdict := estimate.DescribeStability(pr)
-	if estimate.VerdictOf(pr) == estimate.StabilityUnstable {
-		verdict += ": the error's second moment grows without bound"
-	}
-	fmt.Fprintf(w, "verdict   %s\n", verdict)
-	switch {
-	case math.IsNaN(pr.LossMargin):
-	case pr.LossMargin >= 1:
-		fmt.Fprintf(w, "margin    stays stable for any extra loss below 1\n")
-	case pr.LossMargin == 0:
-		fmt.Fprintf(w, "margin    0: not stable already\n")
-	default:
-		fmt.Fprintf(w, "margin    stability is lost at an extra loss of %.4f on every packet of both directions\n", pr.LossMargin)
-	}
-	if e := pr.Error; e != nil {
-		parts := make([]string, len(e.Mean))
-		for i, v := range e.Mean {
-			parts[i] = fmt.Sprintf("%.4g", v)
-		}
-		fmt.Fprintf(w, "error     E[e] = [%s]   E[eᵀe] = %.4g   std = %.4g\n", strings.Join(parts, ", "), e.SecondMoment, e.Std)
-	}
-	fmt.Fprintln(w)
-	tw := tabwriter.NewWriter(w, 2, 8, 2, ' ', 0)
-	fmt.Fprintln(tw, "network state\tshare\tsample lost/stale\tcommand lost/late\tcommand in time\tmean delay in time")
-	for _, s := range pr.States {
-		fmt.Fprintf(tw, "%s\t%.4f\t%.4f\t%.4f\t%.4f\t%s\n", s.Name, s.Probability, s.P0, s.P1, s.P2, fmtDuration(s.MeanDelay))
-	}
-	tw.Flush()
-}
-
 func predictSweep(loop *profiles.Loop, param string, values []float64, plotFile string, stdout, stderr io.Writer) error {
 	res, err := estimate.Sweep(loop, param, values)
 	if err != nil {
 		return cli.BadInput(fmt.Errorf("%s: %w", loop.File, err))
 	}
-	fmt.Fprintf(stdout, "%s,error_second_moment,spectral_radius,mean_square_stable,stability\n", param)
-	for _, p := range res.Points {
-		sm := ""
-		if p.MeanSquareStable {
-			sm = strconv.FormatFloat(p.SecondMoment, 'g', 8, 64)
-		}
-		fmt.Fprintf(stdout, "%s,%s,%s,%v,%s\n", strconv.FormatFloat(p.Value, 'g', 8, 64), sm,
-			estimate.RhoText(p.SpectralRadius, 8), p.MeanSquareStable, pointStability(p))
-	}
+	report.WriteSweepCSV(stdout, res)
 	switch {
 	case res.LostFromStart:
 		fmt.Fprintf(stderr, "monitor predict: not mean-square stable at %s = %g already\n", param, values[0])
@@ -340,7 +227,7 @@ func predictSweep(loop *profiles.Loop, param string, values []float64, plotFile 
 		fmt.Fprintf(stderr, "monitor predict: mean-square stability is lost at %s = %.4g\n", param, res.Boundary)
 	}
 	if plotFile != "" {
-		return plotSweep(res, plotFile)
+		return report.WriteSweepPlot(res, plotFile)
 	}
 	return nil
 }
@@ -351,40 +238,13 @@ func predictStep(loop *profiles.Loop, steps int, plotFile string, stdout io.Writ
 		return cli.BadInput(fmt.Errorf("%s: %w", loop.File, err))
 	}
 	tr := md.Transient(steps)
-	p := len(loop.Setpoint)
-	hdr := []string{"k", "time_seconds"}
-	for i := 0; i < p; i++ {
-		hdr = append(hdr, fmt.Sprintf("error_mean_%d", i))
-	}
-	for i := 0; i < p; i++ {
-		hdr = append(hdr, fmt.Sprintf("error_std_%d", i))
-	}
-	hdr = append(hdr, "error_second_moment")
-	fmt.Fprintln(stdout, strings.Join(hdr, ","))
-	for _, s := range tr {
-		row := []string{strconv.Itoa(s.K), strconv.FormatFloat(s.Time, 'g', 8, 64)}
-		for _, v := range s.Error.Mean {
-			row = append(row, strconv.FormatFloat(v, 'g', 8, 64))
-		}
-		for _, v := range s.Error.OutputStd {
-			row = append(row, strconv.FormatFloat(v, 'g', 8, 64))
-		}
-		row = append(row, strconv.FormatFloat(s.Error.SecondMoment, 'g', 8, 64))
-		fmt.Fprintln(stdout, strings.Join(row, ","))
-	}
+	report.WriteStepCSV(stdout, tr, len(loop.Setpoint))
 	if plotFile != "" {
-		return plotStep(tr, plotFile)
+		return report.WriteStepPlot(tr, plotFile)
 	}
 	return nil
 }
 
-// pointStability is the verdict of one point of a sweep.
-func pointStability(p estimate.SweepPoint) string {
-	if p.Stability != "" {
-		return p.Stability
-	}
-	if p.MeanSquareStable {
-		return estimate.StabilityStable
-	}
-	return estimate.StabilityUnstable
-}
+// fmtDuration writes a time in the commands' lines (laws.Terse): "0"
+// for none, "-" for one that does not exist.
+var fmtDuration = laws.Terse.Format

@@ -1,18 +1,16 @@
 package main
 
 import (
-	"encoding/json"
 	"fmt"
 	"io"
-	"math"
 	"os"
 	"strconv"
-	"strings"
 	"time"
 
 	"rigwire/cmd/internal/cli"
 	"rigwire/cmd/internal/exitcode"
 	"rigwire/estimate"
+	"rigwire/estimate/report"
 	"rigwire/profiles"
 )
 
@@ -88,41 +86,14 @@ func cmdSimulate(args []string, stdout, stderr io.Writer) error {
 			return err
 		}
 	}
+	sim := report.Simulation{Result: res, Prediction: pr, Runs: *runs, Periods: *periods, Warmup: *warmup, Seed: *seed}
 	if *asJSON {
-		out := map[string]any{
-			"error_second_moment": res.SecondMoment,
-			"standard_error":      finite(res.StdErr),
-			"runs":                *runs,
-			"periods":             *periods,
-			"warmup":              *warmup,
-			"seed":                *seed,
-			"mode_counts":         res.ModeCounts,
-			"stability":           estimate.VerdictOf(pr),
-			"predicted_second_moment": func() *float64 {
-				if pr.Error == nil {
-					return nil
-				}
-				return &pr.Error.SecondMoment
-			}(),
-		}
-		enc := json.NewEncoder(stdout)
-		enc.SetIndent("", "  ")
-		return enc.Encode(out)
+		return sim.WriteJSON(stdout)
 	}
 	if *paths == "-" {
 		stdout = stderr // keep the CSV on stdout clean
 	}
-	total := float64(res.ModeCounts[0] + res.ModeCounts[1] + res.ModeCounts[2])
-	fmt.Fprintf(stdout, "simulated  %d runs × %d periods (first %d of each discarded), seed %d\n", *runs, *periods, *warmup, *seed)
-	fmt.Fprintf(stdout, "E[eᵀe]     %.6g ± %.2g (standard error across runs)\n", res.SecondMoment, res.StdErr)
-	if pr.Error != nil {
-		z := (res.SecondMoment - pr.Error.SecondMoment) / res.StdErr
-		fmt.Fprintf(stdout, "predicted  %.6g (difference %.2f standard errors)\n", pr.Error.SecondMoment, z)
-	} else {
-		fmt.Fprintf(stdout, "predicted  %s: a finite-length average means little\n", estimate.DescribeStability(pr))
-	}
-	fmt.Fprintf(stdout, "modes      sample lost/stale %.4f, command lost/late %.4f, in time %.4f\n",
-		float64(res.ModeCounts[0])/total, float64(res.ModeCounts[1])/total, float64(res.ModeCounts[2])/total)
+	sim.WriteText(stdout)
 	return nil
 }
 
@@ -140,27 +111,7 @@ func writePaths(name string, loop *profiles.Loop, res *estimate.SimResult, stdou
 		}()
 		w = f
 	}
-	hdr := []string{"run", "k", "time_seconds", "mode", "state", "delay_seconds"}
-	for i := range loop.Setpoint {
-		hdr = append(hdr, fmt.Sprintf("error_%d", i))
-	}
-	fmt.Fprintln(w, strings.Join(hdr, ","))
-	for r, path := range res.Paths {
-		for _, pt := range path {
-			row := []string{strconv.Itoa(r), strconv.Itoa(pt.K), strconv.FormatFloat(float64(pt.K)*loop.Period, 'g', 8, 64),
-				strconv.Itoa(pt.Mode), strconv.Itoa(pt.State), ""}
-			if !math.IsNaN(pt.Tau) {
-				row[5] = strconv.FormatFloat(pt.Tau, 'g', 8, 64)
-			}
-			for _, v := range pt.Error {
-				row = append(row, strconv.FormatFloat(v, 'g', 8, 64))
-			}
-			if _, err := fmt.Fprintln(w, strings.Join(row, ",")); err != nil {
-				return err
-			}
-		}
-	}
-	return nil
+	return report.WritePathsCSV(w, loop, res)
 }
 
 // optionalCount is a count flag whose default is computed from other

@@ -1,7 +1,6 @@
 package report
 
 import (
-	"bytes"
 	"fmt"
 	"image/color"
 	"math"
@@ -15,8 +14,6 @@ import (
 	"gonum.org/v1/plot/text"
 	"gonum.org/v1/plot/vg"
 	"gonum.org/v1/plot/vg/draw"
-	"gonum.org/v1/plot/vg/vgimg"
-	"gonum.org/v1/plot/vg/vgsvg"
 )
 
 // Colours, from the project's palette (palette.go): what was measured in
@@ -81,40 +78,6 @@ func drawFigure(p *plot.Plot, dc draw.Canvas) {
 		styleLegend(&leg)
 		leg.Draw(strip)
 	}
-}
-
-// render draws p on a PNG canvas. A panic inside the plotting library is
-// turned into an error so that one odd plot never costs the whole report.
-func render(p *plot.Plot) (png []byte, err error) {
-	defer func() {
-		if r := recover(); r != nil {
-			png, err = nil, fmt.Errorf("drawing failed: %v", r)
-		}
-	}()
-	c := vgimg.New(plotWidth, plotHeight+legendHeight(p))
-	drawFigure(p, draw.New(c))
-	var buf bytes.Buffer
-	if _, err := (vgimg.PngCanvas{Canvas: c}).WriteTo(&buf); err != nil {
-		return nil, fmt.Errorf("encoding PNG: %w", err)
-	}
-	return buf.Bytes(), nil
-}
-
-// renderSVG draws p as SVG, laid out as render lays out the PNG (the
-// tests read the SVG's coordinates).
-func renderSVG(p *plot.Plot) (svg []byte, err error) {
-	defer func() {
-		if r := recover(); r != nil {
-			svg, err = nil, fmt.Errorf("drawing failed: %v", r)
-		}
-	}()
-	c := vgsvg.New(plotWidth, plotHeight+legendHeight(p))
-	drawFigure(p, draw.New(c))
-	var buf bytes.Buffer
-	if _, err := c.WriteTo(&buf); err != nil {
-		return nil, fmt.Errorf("encoding SVG: %w", err)
-	}
-	return buf.Bytes(), nil
 }
 
 // finish renders p into f, or records why it could not.

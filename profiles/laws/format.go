@@ -37,6 +37,10 @@ type Seconds struct {
 // Compact is FormatSeconds' form: "12.5ms", "1.5s", "0s".
 var Compact = Seconds{Zero: "0s"}
 
+// Terse is the compact form for tables and status lines: "0" for none,
+// "-" for a time that does not exist.
+var Terse = Seconds{Zero: "0", Missing: "-"}
+
 // FormatSeconds writes a time in seconds in the unit that suits it (µs,
 // ms, s) with up to four significant digits, for descriptions of laws and
 // the messages about them (Compact).

@@ -1,47 +1,39 @@
-package main
+package report
 
 import (
 	"fmt"
 	"image/color"
 	"math"
-	"os"
-	"path/filepath"
-	"strings"
 
 	"gonum.org/v1/plot"
 	"gonum.org/v1/plot/plotter"
 	"gonum.org/v1/plot/vg"
-	"gonum.org/v1/plot/vg/draw"
-	"gonum.org/v1/plot/vg/vgimg"
-	"gonum.org/v1/plot/vg/vgpdf"
-	"gonum.org/v1/plot/vg/vgsvg"
 
-	"rigwire/cmd/internal/cli"
 	"rigwire/estimate"
-	"rigwire/estimate/report"
 )
 
-// checkPlotName accepts the formats gonum/plot writes that suit a report.
-func checkPlotName(name string) error {
-	switch strings.ToLower(filepath.Ext(name)) {
-	case ".svg", ".png", ".pdf":
-		return nil
+// CheckPlotName accepts the file names a prediction plot may have: the
+// formats that suit a report (.svg, .png or .pdf).
+func CheckPlotName(name string) error {
+	if _, ok := plotFormat(name); !ok {
+		return fmt.Errorf("want a file ending in .svg, .png or .pdf, got %q", name)
 	}
-	return cli.Usagef("--plot: want a file ending in .svg, .png or .pdf, got %q", name)
+	return nil
 }
 
-// The colours come from the project's palette (report.Palette): the
-// curve in teal, what is lost (the stability boundary, ρ = 1) in brick.
+// The colours of a prediction plot, from the palette: the curve in
+// teal, what is lost (the stability boundary, ρ = 1) in brick, the
+// spectral radius in slate.
 var (
-	curveColor    = report.Teal
-	boundaryColor = report.Brick
-	radiusColor   = report.Slate
+	curveColor  = Teal
+	lostColor   = Brick
+	radiusColor = Slate
 )
 
+// Panel heights of the prediction plots (their width is plotWidth).
 const (
-	plotWidth = 16 * vg.Centimeter
-	// plotTick is the size of tick labels and legends.
-	plotTick = 9
+	sweepPanelHeight = 8 * vg.Centimeter
+	stepPanelHeight  = 10 * vg.Centimeter
 )
 
 // sweepAxisLabel is what the swept parameter means, as the x axis says it.
@@ -66,22 +58,14 @@ func sweepParamName(param string) string {
 	return param
 }
 
+// newPredictPlot is newPlot with its legend inside the data area, at
+// the top left (the plots leave room for it above the curves).
 func newPredictPlot(title, x, y string) *plot.Plot {
-	p := plot.New()
-	p.Title.Text = title
-	p.X.Label.Text = x
-	p.Y.Label.Text = y
-	p.X.Tick.Marker = report.NiceTicks{}
-	p.Y.Tick.Marker = report.NiceTicks{}
-	p.X.Tick.Label.Font.Size = vg.Points(plotTick)
-	p.Y.Tick.Label.Font.Size = vg.Points(plotTick)
-	p.X.Label.TextStyle.Font.Size = vg.Points(10)
-	p.Y.Label.TextStyle.Font.Size = vg.Points(10)
-	p.Legend.TextStyle.Font.Size = vg.Points(plotTick)
+	p := newPlot(title, x, y)
+	p.Legend.TextStyle.Font.Size = vg.Points(labelSize)
 	p.Legend.Top, p.Legend.Left = true, true
 	p.Legend.XOffs, p.Legend.YOffs = vg.Points(6), -vg.Points(4)
 	p.Legend.Padding = vg.Points(2)
-	p.Add(plotter.NewGrid())
 	return p
 }
 
@@ -120,15 +104,15 @@ func sweepPlots(res *estimate.SweepResult) (top, bottom *plot.Plot, err error) {
 		}
 	}
 	xlo, xhi := res.Points[0].Value, res.Points[len(res.Points)-1].Value
-	xlo, xhi = report.LinPad(xlo, xhi, 0.02)
-	ylo, yhi := report.LogPad(ymin, ymax, 0.08)
+	xlo, xhi = LinPad(xlo, xhi, 0.02)
+	ylo, yhi := LogPad(ymin, ymax, 0.08)
 	if len(pts) == 0 {
 		ylo, yhi = 1e-3, 1
 	}
 	// Room at the top for the legend.
 	yhi *= math.Pow(yhi/ylo, 0.35)
 	top.Y.Scale = plot.LogScale{}
-	top.Y.Tick.Marker = report.LogTicks{}
+	top.Y.Tick.Marker = LogTicks{}
 	if len(pts) > 0 {
 		line, err := plotter.NewLine(pts)
 		if err != nil {
@@ -149,13 +133,13 @@ func sweepPlots(res *estimate.SweepResult) (top, bottom *plot.Plot, err error) {
 		bottom.Add(line)
 		bottom.Legend.Add("spectral radius ρ of the second-moment operator", line)
 	}
-	rlo, rhi := report.LinPad(rmin, rmax, 0.08)
+	rlo, rhi := LinPad(rmin, rmax, 0.08)
 	rhi += 0.35 * (rhi - rlo)
 	one, err := plotter.NewLine(plotter.XYs{{X: xlo, Y: 1}, {X: xhi, Y: 1}})
 	if err != nil {
 		return nil, nil, err
 	}
-	one.Color = boundaryColor
+	one.Color = lostColor
 	one.Width = vg.Points(1.2)
 	one.Dashes = []vg.Length{vg.Points(2), vg.Points(2)}
 	bottom.Add(one)
@@ -167,13 +151,13 @@ func sweepPlots(res *estimate.SweepResult) (top, bottom *plot.Plot, err error) {
 			x = res.Points[0].Value
 			what = fmt.Sprintf("not stable from %s = %.4g on", name, x)
 		}
-		b, err := vline(x, ylo, yhi, boundaryColor)
+		b, err := vline(x, ylo, yhi, lostColor)
 		if err != nil {
 			return nil, nil, err
 		}
 		top.Add(b)
 		top.Legend.Add(what, b)
-		b2, err := vline(x, rlo, rhi, boundaryColor)
+		b2, err := vline(x, rlo, rhi, lostColor)
 		if err != nil {
 			return nil, nil, err
 		}
@@ -184,8 +168,9 @@ func sweepPlots(res *estimate.SweepResult) (top, bottom *plot.Plot, err error) {
 	return top, bottom, nil
 }
 
-// plotSweep writes the sweep's two panels to file.
-func plotSweep(res *estimate.SweepResult, file string) error {
+// WriteSweepPlot writes a --vary sweep's two panels to file (.svg, .png
+// or .pdf, as CheckPlotName accepts).
+func WriteSweepPlot(res *estimate.SweepResult, file string) error {
 	if len(res.Points) == 0 {
 		return fmt.Errorf("writing plot: no points")
 	}
@@ -193,7 +178,7 @@ func plotSweep(res *estimate.SweepResult, file string) error {
 	if err != nil {
 		return fmt.Errorf("writing plot: %w", err)
 	}
-	return saveStack(file, []*plot.Plot{top, bottom}, 8*vg.Centimeter)
+	return writeStack(file, []*plot.Plot{top, bottom}, sweepPanelHeight)
 }
 
 // stepPlot draws each output's expected error with its ±1 std band.
@@ -203,7 +188,7 @@ func stepPlot(tr []estimate.Step) (*plot.Plot, error) {
 	outputs := len(tr[0].Error.Mean)
 	ylo, yhi := math.Inf(1), math.Inf(-1)
 	for j := 0; j < outputs; j++ {
-		c := report.Series(j)
+		c := Series(j)
 		var mean, band plotter.XYs
 		for _, s := range tr {
 			m, sd := s.Error.Mean[j], s.Error.OutputStd[j]
@@ -219,7 +204,7 @@ func stepPlot(tr []estimate.Step) (*plot.Plot, error) {
 		if err != nil {
 			return nil, err
 		}
-		poly.Color = report.Band(c, 0x40)
+		poly.Color = Band(c, 0x40)
 		poly.LineStyle.Width = 0
 		p.Add(poly)
 		line, err := plotter.NewLine(mean)
@@ -239,15 +224,16 @@ func stepPlot(tr []estimate.Step) (*plot.Plot, error) {
 	if !(yhi > ylo) || math.IsInf(yhi-ylo, 0) {
 		ylo, yhi = -1, 1
 	}
-	ylo, yhi = report.LinPad(ylo, yhi, 0.05)
+	ylo, yhi = LinPad(ylo, yhi, 0.05)
 	yhi += 0.3 * (yhi - ylo) // room for the legend
 	p.Y.Min, p.Y.Max = ylo, yhi
-	p.X.Min, p.X.Max = report.LinPad(tr[0].Time, tr[len(tr)-1].Time, 0.01)
+	p.X.Min, p.X.Max = LinPad(tr[0].Time, tr[len(tr)-1].Time, 0.01)
 	return p, nil
 }
 
-// plotStep writes the step response plot to file.
-func plotStep(tr []estimate.Step, file string) error {
+// WriteStepPlot writes a --step response's plot to file (.svg, .png or
+// .pdf, as CheckPlotName accepts).
+func WriteStepPlot(tr []estimate.Step, file string) error {
 	if len(tr) == 0 {
 		return fmt.Errorf("writing plot: no steps")
 	}
@@ -255,47 +241,5 @@ func plotStep(tr []estimate.Step, file string) error {
 	if err != nil {
 		return fmt.Errorf("writing plot: %w", err)
 	}
-	return saveStack(file, []*plot.Plot{p}, 10*vg.Centimeter)
-}
-
-// saveStack draws plots one above the other, each panelHeight high, as
-// the file's extension says (.svg, .png or .pdf), their data areas
-// aligned so that the panels share their x positions.
-func saveStack(file string, plots []*plot.Plot, panelHeight vg.Length) (err error) {
-	defer func() {
-		if r := recover(); r != nil {
-			err = fmt.Errorf("writing plot: drawing failed: %v", r)
-		}
-	}()
-	total := panelHeight * vg.Length(len(plots))
-	var canvas vg.CanvasWriterTo
-	switch strings.ToLower(filepath.Ext(file)) {
-	case ".svg":
-		canvas = vgsvg.New(plotWidth, total)
-	case ".pdf":
-		canvas = vgpdf.New(plotWidth, total)
-	default:
-		canvas = vgimg.PngCanvas{Canvas: vgimg.New(plotWidth, total)}
-	}
-	grid := make([][]*plot.Plot, len(plots))
-	for i, p := range plots {
-		grid[i] = []*plot.Plot{p}
-	}
-	tiles := draw.Tiles{Rows: len(plots), Cols: 1, PadY: vg.Points(4), PadTop: vg.Points(2), PadBottom: vg.Points(2)}
-	cs := plot.Align(grid, tiles, draw.New(canvas))
-	for i, p := range plots {
-		p.Draw(cs[i][0])
-	}
-	f, err := os.Create(file)
-	if err != nil {
-		return fmt.Errorf("writing plot: %w", err)
-	}
-	if _, err := canvas.WriteTo(f); err != nil {
-		f.Close()
-		return fmt.Errorf("writing plot %s: %w", file, err)
-	}
-	if err := f.Close(); err != nil {
-		return fmt.Errorf("writing plot %s: %w", file, err)
-	}
-	return nil
+	return writeStack(file, []*plot.Plot{p}, stepPanelHeight)
 }

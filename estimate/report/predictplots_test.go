@@ -1,4 +1,4 @@
-package main
+package report
 
 import (
 	"math"
@@ -59,7 +59,7 @@ func has(texts []string, s string) bool {
 func TestVaryPlot(t *testing.T) {
 	res := sweepOfOurs()
 	file := filepath.Join(t.TempDir(), "vary.svg")
-	if err := plotSweep(res, file); err != nil {
+	if err := WriteSweepPlot(res, file); err != nil {
 		t.Fatal(err)
 	}
 	texts := svgTexts(t, file)
@@ -109,7 +109,7 @@ func TestStepPlot(t *testing.T) {
 		tr = append(tr, s)
 	}
 	file := filepath.Join(t.TempDir(), "step.svg")
-	if err := plotStep(tr, file); err != nil {
+	if err := WriteStepPlot(tr, file); err != nil {
 		t.Fatal(err)
 	}
 	texts := svgTexts(t, file)

@@ -1,0 +1,259 @@
+package report
+
+import (
+	"encoding/json"
+	"fmt"
+	"io"
+	"math"
+	"strconv"
+	"strings"
+	"text/tabwriter"
+
+	"rigwire/estimate"
+	"rigwire/profiles"
+	"rigwire/profiles/laws"
+)
+
+// The prediction as monitor predict and monitor simulate print it: the
+// text summary, the JSON object, the CSV of a --vary sweep, of a --step
+// response and of simulated paths.
+
+// jsonPrediction is monitor predict's --json output: the verdict, ρ with its error, the
+// error moments and the loss margin first, then the details.
+type jsonPrediction struct {
+	MeanSquareStable  bool        `json:"mean_square_stable"`
+	Stability         string      `json:"stability"`
+	SpectralRadius    float64     `json:"spectral_radius"`
+	RadiusError       *float64    `json:"spectral_radius_error"`
+	ErrorMean         []float64   `json:"error_mean"`
+	ErrorSecondMoment *float64    `json:"error_second_moment"`
+	ErrorStd          *float64    `json:"error_std"`
+	LossMargin        *float64    `json:"loss_margin"`
+	Period            float64     `json:"period_seconds"`
+	Actuator          string      `json:"actuator_on_loss"`
+	States            []jsonState `json:"states"`
+}
+
+type jsonState struct {
+	Name        string   `json:"name"`
+	Probability float64  `json:"probability"`
+	LossSC      float64  `json:"loss_sensor_to_controller"`
+	LossCA      float64  `json:"loss_controller_to_actuator"`
+	PHeld       float64  `json:"p_sample_lost_or_stale"`
+	PLate       float64  `json:"p_command_lost_or_late"`
+	PInTime     float64  `json:"p_command_in_time"`
+	MeanDelay   *float64 `json:"mean_delay_in_time_seconds"`
+}
+
+// finite is &v, or nil when v is NaN or infinite (null in JSON).
+func finite(v float64) *float64 {
+	if math.IsNaN(v) || math.IsInf(v, 0) {
+		return nil
+	}
+	return &v
+}
+
+// WritePredictionJSON writes the prediction as one indented JSON object
+// (monitor predict --json): the verdict, ρ with its error, the error
+// moments and the loss margin first, then the details; a value that is
+// not a number is null.
+func WritePredictionJSON(w io.Writer, loop *profiles.Loop, pr *estimate.Prediction) error {
+	out := jsonPrediction{
+		MeanSquareStable: pr.MeanSquareStable,
+		Stability:        estimate.VerdictOf(pr),
+		SpectralRadius:   pr.SpectralRadius,
+		RadiusError:      finite(pr.RadiusError),
+		LossMargin:       finite(pr.LossMargin),
+		Period:           loop.Period,
+		Actuator:         loop.Actuator.OnLoss.String(),
+	}
+	if pr.Error != nil {
+		out.ErrorMean = pr.Error.Mean
+		out.ErrorSecondMoment = finite(pr.Error.SecondMoment)
+		out.ErrorStd = finite(pr.Error.Std)
+	}
+	for _, s := range pr.States {
+		out.States = append(out.States, jsonState{
+			Name: s.Name, Probability: s.Probability, LossSC: s.LossSC, LossCA: s.LossCA,
+			PHeld: s.P0, PLate: s.P1, PInTime: s.P2, MeanDelay: finite(s.MeanDelay),
+		})
+	}
+	enc := json.NewEncoder(w)
+	enc.SetIndent("", "  ")
+	return enc.Encode(out)
+}
+
+// fmtDuration writes the times of the prediction: "0" for none, "-"
+// for a mean delay that does not exist.
+var fmtDuration = laws.Terse.Format
+
+// WritePrediction writes the prediction as monitor predict prints it: the
+// loop, the network, the verdict, the loss margin and the error moments,
+// then a table of the joint network states.
+func WritePrediction(w io.Writer, path string, loop *profiles.Loop, pr *estimate.Prediction) {
+	n, m, p, nc := loop.Dims()
+	fmt.Fprintf(w, "loop      %s\n", path)
+	fmt.Fprintf(w, "          period %s, compute delay %s, %d plant states, %d inputs, %d outputs, %d controller states\n",
+		fmtDuration(loop.Period), fmtDuration(loop.ComputeDelay), n, m, p, nc)
+	name := loop.Profile.Name
+	if name == "" {
+		name = "(unnamed)"
+	}
+	fmt.Fprintf(w, "network   %s, %d joint states; actuator %s on loss\n", name, len(pr.States), loop.Actuator.OnLoss)
+	verdict := estimate.DescribeStability(pr)
+	if estimate.VerdictOf(pr) == estimate.StabilityUnstable {
+		verdict += ": the error's second moment grows without bound"
+	}
+	fmt.Fprintf(w, "verdict   %s\n", verdict)
+	switch {
+	case math.IsNaN(pr.LossMargin):
+	case pr.LossMargin >= 1:
+		fmt.Fprintf(w, "margin    stays stable for any extra loss below 1\n")
+	case pr.LossMargin == 0:
+		fmt.Fprintf(w, "margin    0: not stable already\n")
+	default:
+		fmt.Fprintf(w, "margin    stability is lost at an extra loss of %.4f on every packet of both directions\n", pr.LossMargin)
+	}
+	if e := pr.Error; e != nil {
+		parts := make([]string, len(e.Mean))
+		for i, v := range e.Mean {
+			parts[i] = fmt.Sprintf("%.4g", v)
+		}
+		fmt.Fprintf(w, "error     E[e] = [%s]   E[eᵀe] = %.4g   std = %.4g\n", strings.Join(parts, ", "), e.SecondMoment, e.Std)
+	}
+	fmt.Fprintln(w)
+	tw := tabwriter.NewWriter(w, 2, 8, 2, ' ', 0)
+	fmt.Fprintln(tw, "network state\tshare\tsample lost/stale\tcommand lost/late\tcommand in time\tmean delay in time")
+	for _, s := range pr.States {
+		fmt.Fprintf(tw, "%s\t%.4f\t%.4f\t%.4f\t%.4f\t%s\n", s.Name, s.Probability, s.P0, s.P1, s.P2, fmtDuration(s.MeanDelay))
+	}
+	tw.Flush()
+}
+
+// WriteSweepCSV writes a --vary sweep as CSV: the parameter's value,
+// E[eᵀe] (empty where not mean-square stable), ρ, whether stable and the
+// verdict, one row per point.
+func WriteSweepCSV(w io.Writer, res *estimate.SweepResult) {
+	fmt.Fprintf(w, "%s,error_second_moment,spectral_radius,mean_square_stable,stability\n", res.Param)
+	for _, p := range res.Points {
+		sm := ""
+		if p.MeanSquareStable {
+			sm = strconv.FormatFloat(p.SecondMoment, 'g', 8, 64)
+		}
+		fmt.Fprintf(w, "%s,%s,%s,%v,%s\n", strconv.FormatFloat(p.Value, 'g', 8, 64), sm,
+			estimate.RhoText(p.SpectralRadius, 8), p.MeanSquareStable, pointStability(p))
+	}
+}
+
+// WriteStepCSV writes a --step response as CSV: k, its time, each
+// output's expected error, each output's std, and E[eᵀe].
+func WriteStepCSV(w io.Writer, tr []estimate.Step, outputs int) {
+	p := outputs
+	hdr := []string{"k", "time_seconds"}
+	for i := 0; i < p; i++ {
+		hdr = append(hdr, fmt.Sprintf("error_mean_%d", i))
+	}
+	for i := 0; i < p; i++ {
+		hdr = append(hdr, fmt.Sprintf("error_std_%d", i))
+	}
+	hdr = append(hdr, "error_second_moment")
+	fmt.Fprintln(w, strings.Join(hdr, ","))
+	for _, s := range tr {
+		row := []string{strconv.Itoa(s.K), strconv.FormatFloat(s.Time, 'g', 8, 64)}
+		for _, v := range s.Error.Mean {
+			row = append(row, strconv.FormatFloat(v, 'g', 8, 64))
+		}
+		for _, v := range s.Error.OutputStd {
+			row = append(row, strconv.FormatFloat(v, 'g', 8, 64))
+		}
+		row = append(row, strconv.FormatFloat(s.Error.SecondMoment, 'g', 8, 64))
+		fmt.Fprintln(w, strings.Join(row, ","))
+	}
+}
+
+// pointStability is the verdict of one point of a sweep.
+func pointStability(p estimate.SweepPoint) string {
+	if p.Stability != "" {
+		return p.Stability
+	}
+	if p.MeanSquareStable {
+		return estimate.StabilityStable
+	}
+	return estimate.StabilityUnstable
+}
+
+// Simulation is a Monte-Carlo run of the loop's jump system beside its
+// prediction, as monitor simulate prints it.
+type Simulation struct {
+	Result                *estimate.SimResult
+	Prediction            *estimate.Prediction
+	Runs, Periods, Warmup int
+	Seed                  uint64
+}
+
+// WriteJSON writes the simulation as one indented JSON object.
+func (s Simulation) WriteJSON(w io.Writer) error {
+	out := map[string]any{
+		"error_second_moment": s.Result.SecondMoment,
+		"standard_error":      finite(s.Result.StdErr),
+		"runs":                s.Runs,
+		"periods":             s.Periods,
+		"warmup":              s.Warmup,
+		"seed":                s.Seed,
+		"mode_counts":         s.Result.ModeCounts,
+		"stability":           estimate.VerdictOf(s.Prediction),
+		"predicted_second_moment": func() *float64 {
+			if s.Prediction.Error == nil {
+				return nil
+			}
+			return &s.Prediction.Error.SecondMoment
+		}(),
+	}
+	enc := json.NewEncoder(w)
+	enc.SetIndent("", "  ")
+	return enc.Encode(out)
+}
+
+// WriteText writes the simulation as lines of text: the runs, the
+// measured E[eᵀe] with its standard error, the prediction and the shares
+// of the three modes.
+func (s Simulation) WriteText(w io.Writer) {
+	total := float64(s.Result.ModeCounts[0] + s.Result.ModeCounts[1] + s.Result.ModeCounts[2])
+	fmt.Fprintf(w, "simulated  %d runs × %d periods (first %d of each discarded), seed %d\n", s.Runs, s.Periods, s.Warmup, s.Seed)
+	fmt.Fprintf(w, "E[eᵀe]     %.6g ± %.2g (standard error across runs)\n", s.Result.SecondMoment, s.Result.StdErr)
+	if s.Prediction.Error != nil {
+		z := (s.Result.SecondMoment - s.Prediction.Error.SecondMoment) / s.Result.StdErr
+		fmt.Fprintf(w, "predicted  %.6g (difference %.2f standard errors)\n", s.Prediction.Error.SecondMoment, z)
+	} else {
+		fmt.Fprintf(w, "predicted  %s: a finite-length average means little\n", estimate.DescribeStability(s.Prediction))
+	}
+	fmt.Fprintf(w, "modes      sample lost/stale %.4f, command lost/late %.4f, in time %.4f\n",
+		float64(s.Result.ModeCounts[0])/total, float64(s.Result.ModeCounts[1])/total, float64(s.Result.ModeCounts[2])/total)
+}
+
+// WritePathsCSV writes the simulated sample paths as CSV: run, k, time,
+// mode, network state, the delay (empty when none) and each output's
+// error.
+func WritePathsCSV(w io.Writer, loop *profiles.Loop, res *estimate.SimResult) error {
+	hdr := []string{"run", "k", "time_seconds", "mode", "state", "delay_seconds"}
+	for i := range loop.Setpoint {
+		hdr = append(hdr, fmt.Sprintf("error_%d", i))
+	}
+	fmt.Fprintln(w, strings.Join(hdr, ","))
+	for r, path := range res.Paths {
+		for _, pt := range path {
+			row := []string{strconv.Itoa(r), strconv.Itoa(pt.K), strconv.FormatFloat(float64(pt.K)*loop.Period, 'g', 8, 64),
+				strconv.Itoa(pt.Mode), strconv.Itoa(pt.State), ""}
+			if !math.IsNaN(pt.Tau) {
+				row[5] = strconv.FormatFloat(pt.Tau, 'g', 8, 64)
+			}
+			for _, v := range pt.Error {
+				row = append(row, strconv.FormatFloat(v, 'g', 8, 64))
+			}
+			if _, err := fmt.Fprintln(w, strings.Join(row, ",")); err != nil {
+				return err
+			}
+		}
+	}
+	return nil
+}
