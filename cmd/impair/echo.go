@@ -2,17 +2,16 @@ package main
 
 import (
 	"context"
-	"errors"
 	"fmt"
 	"io"
 	"log/slog"
 	"net"
 	"os/signal"
 	"syscall"
-	"time"
 
 	"rigwire/cmd/internal/cli"
 	"rigwire/cmd/internal/exitcode"
+	"rigwire/emulate/probe"
 )
 
 const echoUsage = `usage: impair echo --listen HOST:PORT
@@ -53,38 +52,10 @@ func cmdEcho(args []string, stdout, stderr io.Writer) error {
 	defer stop()
 	go func() {
 		<-ctx.Done()
-		conn.Close() // ends echoLoop with net.ErrClosed
+		conn.Close() // ends probe.Echo
 	}()
 	log.Info("echoing probes", "listen", conn.LocalAddr().String())
-	answered, ignored, err := echoLoop(conn)
+	answered, ignored, err := probe.Echo(conn)
 	log.Info("echo stopped", "answered", answered, "ignored", ignored)
 	return err
-}
-
-// echoLoop answers probes on conn until it is closed.
-func echoLoop(conn *net.UDPConn) (answered, ignored uint64, err error) {
-	buf := make([]byte, 65536)
-	for {
-		n, from, err := conn.ReadFromUDPAddrPort(buf)
-		recv := time.Now().UnixNano()
-		if err != nil {
-			if errors.Is(err, net.ErrClosed) {
-				return answered, ignored, nil
-			}
-			return answered, ignored, fmt.Errorf("reading: %w", err)
-		}
-		if _, err := readProbe(buf[:n]); err != nil {
-			ignored++
-			continue
-		}
-		stampEcho(buf[:n], recv, time.Now().UnixNano())
-		if _, err := conn.WriteToUDPAddrPort(buf[:n], from); err != nil {
-			if errors.Is(err, net.ErrClosed) {
-				return answered, ignored, nil
-			}
-			ignored++ // the kernel refused (e.g. ICMP unreachable reported): keep answering others
-			continue
-		}
-		answered++
-	}
 }

@@ -194,25 +194,6 @@ func TestProbeEchoBadFlags(t *testing.T) {
 	}
 }
 
-// TestProbeWire: the probe datagram layout round-trips and rejects what
-// is not a probe.
-func TestProbeWire(t *testing.T) {
-	b := make([]byte, 64)
-	putProbe(b, probeStamp{seq: 7, sent: 1e18})
-	stampEcho(b, 1e18+5, 1e18+9)
-	got, err := readProbe(b)
-	if err != nil || got != (probeStamp{seq: 7, sent: 1e18, echoed: 1e18 + 5, reply: 1e18 + 9}) {
-		t.Errorf("got %+v, %v", got, err)
-	}
-	if _, err := readProbe(b[:probeHeader-1]); err == nil {
-		t.Error("a short datagram read as a probe")
-	}
-	b[0] = 'X'
-	if _, err := readProbe(b); err == nil {
-		t.Error("a datagram without the magic read as a probe")
-	}
-}
-
 // TestFitNoLosses: a trace without losses (or whose only loss is its last
 // probe) says nothing about r = P(delivered | previous lost); the fit
 // says so instead of printing NaN.
