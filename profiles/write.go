@@ -1,0 +1,135 @@
+package profiles
+
+import (
+	"fmt"
+	"io"
+	"regexp"
+	"strconv"
+	"strings"
+)
+
+// Draft is a network profile to write: what Write puts in a profile file
+// that Load reads back. Each direction left nil is left out of the file
+// (no loss and no delay). It spells delay laws as the file does, by kind
+// and keys, so it writes any parametric law the format has.
+type Draft struct {
+	// Comments are written first, each as a "# " line.
+	Comments             []string
+	Name                 string
+	SensorToController   *DraftChannel
+	ControllerToActuator *DraftChannel
+}
+
+// DraftChannel is one direction: either States (a Markov channel), or,
+// when States is empty, one state's Loss and Delay.
+type DraftChannel struct {
+	Loss   float64
+	Delay  DraftDelay
+	States []DraftState
+}
+
+// DraftState is one state of a Markov channel. Next is left out: a
+// two-state channel needs none, and Write refuses more states.
+type DraftState struct {
+	Name      string
+	MeanDwell float64 // seconds
+	Loss      float64
+	Delay     DraftDelay
+}
+
+// DraftDelay is a delay law as the profile file spells it: its kind
+// ("gamma") and its keys ("shape", "scale", "shift") with their values,
+// seconds for times.
+type DraftDelay struct {
+	Kind   string
+	Keys   []string
+	Values []float64
+}
+
+// Write writes d as a profile file: its comments, "# times in seconds",
+// the name, then each direction given. Numbers are written with six
+// significant digits (what Load reads back is d rounded so), times in
+// seconds. A draft the format cannot hold (an unknown kind, keys and
+// values that do not pair, a Markov channel of other than two states) is
+// refused before anything is written.
+func Write(w io.Writer, d Draft) error {
+	if err := d.check(); err != nil {
+		return err
+	}
+	var b strings.Builder
+	for _, c := range d.Comments {
+		fmt.Fprintf(&b, "# %s\n", c)
+	}
+	b.WriteString("# times in seconds\n")
+	fmt.Fprintf(&b, "name: %s\n", strconv.Quote(d.Name))
+	for _, dir := range []struct {
+		name string
+		c    *DraftChannel
+	}{{SensorToController, d.SensorToController}, {ControllerToActuator, d.ControllerToActuator}} {
+		if dir.c == nil {
+			continue
+		}
+		fmt.Fprintf(&b, "%s:\n", dir.name)
+		if len(dir.c.States) == 0 {
+			fmt.Fprintf(&b, "  loss: %s\n  delay: %s\n", draftNum(dir.c.Loss), dir.c.Delay.yaml())
+			continue
+		}
+		b.WriteString("  states:\n")
+		for _, s := range dir.c.States {
+			fmt.Fprintf(&b, "    - {name: %s, mean_dwell: %s, loss: %s, delay: %s}\n", s.Name, draftNum(s.MeanDwell), draftNum(s.Loss), s.Delay.yaml())
+		}
+	}
+	_, err := io.WriteString(w, b.String())
+	return err
+}
+
+// check refuses what the format cannot hold.
+func (d Draft) check() error {
+	for _, dir := range []struct {
+		name string
+		c    *DraftChannel
+	}{{SensorToController, d.SensorToController}, {ControllerToActuator, d.ControllerToActuator}} {
+		if dir.c == nil {
+			continue
+		}
+		if n := len(dir.c.States); n != 0 && n != 2 {
+			return fmt.Errorf("writing profile: %s: want one state or two, got %d states", dir.name, n)
+		}
+		delays := []DraftDelay{dir.c.Delay}
+		if len(dir.c.States) > 0 {
+			delays = nil
+			for _, s := range dir.c.States {
+				if !draftStateName.MatchString(s.Name) {
+					return fmt.Errorf("writing profile: %s: state name %q: want a letter, then letters, digits, _ and -", dir.name, s.Name)
+				}
+				delays = append(delays, s.Delay)
+			}
+		}
+		for _, dl := range delays {
+			if _, ok := delayKinds[dl.Kind]; !ok {
+				return fmt.Errorf("writing profile: %s: unknown delay kind %q", dir.name, dl.Kind)
+			}
+			if len(dl.Keys) != len(dl.Values) {
+				return fmt.Errorf("writing profile: %s: delay %s: %d keys, %d values", dir.name, dl.Kind, len(dl.Keys), len(dl.Values))
+			}
+		}
+	}
+	return nil
+}
+
+// yaml is the law as a flow mapping: {kind: gamma, shape: 3, scale: 0.002}.
+func (dl DraftDelay) yaml() string {
+	var b strings.Builder
+	fmt.Fprintf(&b, "{kind: %s", dl.Kind)
+	for i, k := range dl.Keys {
+		fmt.Fprintf(&b, ", %s: %s", k, draftNum(dl.Values[i]))
+	}
+	b.WriteString("}")
+	return b.String()
+}
+
+// draftStateName is a state name Write can leave unquoted.
+var draftStateName = regexp.MustCompile(`^[A-Za-z][A-Za-z0-9_-]*$`)
+
+// draftNum writes a number with six significant digits.
+func draftNum(x float64) string { return strconv.FormatFloat(x, 'g', 6, 64) }
