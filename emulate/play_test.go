@@ -9,6 +9,7 @@ import (
 
 	"github.com/prometheus/client_golang/prometheus/testutil"
 
+	"rigwire/emulate/trip"
 	"rigwire/profiles"
 	"rigwire/profiles/laws"
 )
@@ -124,7 +125,7 @@ func TestPlayAfterTrip(t *testing.T) {
 			{At: 0, Profile: constSC(2 * time.Millisecond)},
 			{At: 100 * time.Millisecond, Profile: &profiles.Profile{SensorToController: oneState(1, nil), ControllerToActuator: oneState(1, nil)}},
 		}
-		time.AfterFunc(50*time.Millisecond, func() { rig.relay.Trip(profiles.TripClean, "test") })
+		time.AfterFunc(50*time.Millisecond, func() { rig.relay.Trip(trip.Clean, "test") })
 		start := time.Now()
 		if err := rig.relay.Play(context.Background(), []string{"only"}, steps, 300*time.Millisecond, nil); err != nil {
 			t.Fatal(err)

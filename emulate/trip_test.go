@@ -9,6 +9,7 @@ import (
 
 	"github.com/prometheus/client_golang/prometheus/testutil"
 
+	"rigwire/emulate/trip"
 	"rigwire/profiles"
 	"rigwire/profiles/laws"
 )
@@ -63,10 +64,10 @@ func TestTripClean(t *testing.T) {
 		if got := testutil.ToFloat64(rig.relay.m.Tripped); got != 0 {
 			t.Errorf("tripped gauge %v before the trip, want 0", got)
 		}
-		if !rig.relay.Trip(profiles.TripClean, "test") {
+		if !rig.relay.Trip(trip.Clean, "test") {
 			t.Fatal("first Trip returned false")
 		}
-		if rig.relay.Trip(profiles.TripStopCommands, "again") {
+		if rig.relay.Trip(trip.StopCommands, "again") {
 			t.Error("second Trip returned true")
 		}
 		if !rig.relay.Tripped() || testutil.ToFloat64(rig.relay.m.Tripped) != 1 {
@@ -146,10 +147,10 @@ func TestTripStopCommands(t *testing.T) {
 		if held == 0 || held+dropped != n {
 			t.Fatalf("held %d, dropped %d of %d", held, dropped, n)
 		}
-		if !rig.relay.Trip(profiles.TripStopCommands, "test") {
+		if !rig.relay.Trip(trip.StopCommands, "test") {
 			t.Fatal("first Trip returned false")
 		}
-		if rig.relay.Trip(profiles.TripClean, "again") {
+		if rig.relay.Trip(trip.Clean, "again") {
 			t.Error("second Trip returned true")
 		}
 		if _, h := rig.relay.InFlight(); h != 0 {
@@ -204,7 +205,7 @@ func TestTripFromTapAndAfterwards(t *testing.T) {
 			c.TapFunc = func(payload []byte, _ time.Time) {
 				taps++
 				if string(payload) == "trip" {
-					relay.Trip(profiles.TripClean, "from the tap")
+					relay.Trip(trip.Clean, "from the tap")
 				}
 			}
 		})

@@ -1,6 +1,7 @@
 package profiles
 
 import (
+	"rigwire/emulate/trip"
 	"rigwire/profiles/datagram"
 
 	"gonum.org/v1/gonum/mat"
@@ -41,7 +42,7 @@ type Loop struct {
 	Decode datagram.Layout
 	// Trip is the safety trip the monitor judges on every sample (key
 	// trip); Trip.Enabled is false when the loop file has none.
-	Trip Trip
+	Trip trip.Rule
 }
 
 // Plant is the continuous-time plant dx = (A x + B u) dt + dw with

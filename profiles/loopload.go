@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"math"
 	"path/filepath"
+	"rigwire/emulate/trip"
 	"rigwire/profiles/laws"
 	"rigwire/profiles/yamlpos"
 
@@ -140,9 +141,11 @@ func parseLoop(root yamlpos.Field, dir string) (*Loop, error) {
 		}
 	}
 	if f := keys["trip"]; !f.IsNull() {
-		if err := parseTrip(f, &l.Trip, l.Period); err != nil {
+		t, err := trip.Parse(f, l.Period)
+		if err != nil {
 			return nil, err
 		}
+		l.Trip = t
 	}
 	return l, nil
 }

@@ -53,7 +53,7 @@ var mappingSections = map[string]string{
 	"profiles/loopdecodeparse.go parseDecode format":      "loop.decode",
 	"profiles/loopdecodeparse.go parseDecodeField field":  "loop.decode.text",
 	"profiles/loopdecodeparse.go parseDecodeField offset": "loop.decode.binary",
-	"profiles/looptrip.go parseTrip max_abs_error":        "loop.trip",
+	"emulate/trip/rule.go Parse max_abs_error":            "loop.trip",
 	"profiles/scenario.go parseScenario name":             "scenario",
 	"profiles/scenario.go parsePhase name":                "scenario.phase",
 	"profiles/scenario.go parseCheck tolerance":           "scenario.check",

@@ -32,7 +32,7 @@ import (
 
 	"rigwire/cmd/internal/cli"
 	"rigwire/emulate"
-	"rigwire/profiles"
+	"rigwire/emulate/trip"
 	"rigwire/profiles/yamlpos"
 )
 
@@ -61,7 +61,7 @@ type linkSpec struct {
 	// addresses only).
 	TripListen netip.AddrPort
 	TripFrom   netip.Addr
-	OnTrip     profiles.TripAction
+	OnTrip     trip.Action
 }
 
 // linksFile is a parsed links file.
@@ -270,7 +270,7 @@ func parseLink(it yamlpos.Field, dir string) (linkSpec, error) {
 	}
 	if f, ok := keys["on_trip"]; ok {
 		s, _ := f.Text()
-		a, ok := parseTripAction(s)
+		a, ok := trip.ParseAction(s)
 		if !ok {
 			return l, f.Errorf("want clean or stop_commands, got %s", f.Got())
 		}
@@ -293,17 +293,6 @@ func parseLink(it yamlpos.Field, dir string) (linkSpec, error) {
 		}
 	}
 	return l, nil
-}
-
-// parseTripAction reads clean or stop_commands.
-func parseTripAction(s string) (profiles.TripAction, bool) {
-	switch s {
-	case profiles.TripClean.String():
-		return profiles.TripClean, true
-	case profiles.TripStopCommands.String():
-		return profiles.TripStopCommands, true
-	}
-	return 0, false
 }
 
 // resolveHost turns a host (an address or a name) into one address.

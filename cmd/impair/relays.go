@@ -17,6 +17,7 @@ import (
 	"rigwire/cmd/internal/cli"
 	"rigwire/cmd/internal/metricsrv"
 	"rigwire/emulate"
+	"rigwire/emulate/trip"
 	"rigwire/profiles"
 )
 
@@ -35,7 +36,7 @@ type link struct {
 	reloads chan struct{}
 	prof    *profiles.Profile // the profile (nil with a scenario)
 	scen    *playingScenario  // nil with a profile
-	trip    *tripListener     // nil without a trip socket
+	trip    *trip.Listener    // nil without a trip socket
 }
 
 // openLink loads a link's profile or scenario and opens its relay and its
@@ -59,10 +60,6 @@ func openLink(spec linkSpec, opts runOpts, reg prometheus.Registerer, log *slog.
 		l.prof, first = p, p
 	}
 	l.metrics = emulate.NewMetrics(reg)
-	var tripCount *prometheus.CounterVec
-	if spec.TripListen.IsValid() {
-		tripCount = newTripMetrics(reg)
-	}
 	if spec.RecordPath != "" {
 		f, err := openRecord(spec.RecordPath, append([]string{spec.ProfilePath, spec.ScenarioPath}, opts.inputs...))
 		if err != nil {
@@ -88,12 +85,12 @@ func openLink(spec linkSpec, opts runOpts, reg prometheus.Registerer, log *slog.
 	}
 	l.relay = relay
 	if spec.TripListen.IsValid() {
-		t, err := openTripListener(spec.TripListen, spec.TripFrom, spec.OnTrip, tripCount, log)
+		t, err := trip.Listen(trip.ListenConfig{Addr: spec.TripListen, From: spec.TripFrom, Action: spec.OnTrip,
+			Target: relay, Registerer: reg, Logger: log})
 		if err != nil {
 			l.close()
 			return nil, err
 		}
-		t.relay = relay
 		l.trip = t
 	}
 	return l, nil
@@ -199,7 +196,7 @@ func runLinks(specs []linkSpec, opts runOpts, stderr io.Writer, log *slog.Logger
 	}
 
 	if opts.cautionsRead {
-		fmt.Fprint(stderr, emulate.SafetyReminder)
+		fmt.Fprint(stderr, trip.Reminder)
 	} else {
 		fmt.Fprint(stderr, safetyCaution)
 	}
@@ -255,7 +252,7 @@ func runLinks(specs []linkSpec, opts runOpts, stderr io.Writer, log *slog.Logger
 	nScenarios := 0
 	for i, l := range links {
 		if l.trip != nil {
-			go l.trip.serve()
+			go l.trip.Serve()
 		}
 		wg.Add(1)
 		go func() {

@@ -10,10 +10,11 @@ import (
 	"rigwire/cmd/internal/cli"
 	"rigwire/cmd/internal/exitcode"
 	"rigwire/emulate"
+	"rigwire/emulate/trip"
 )
 
 // safetyCaution is printed before any datagram is relayed.
-const safetyCaution = "SAFETY: the relay will delay and drop the commands that move your rig.\n" + emulate.SafetyCautions
+const safetyCaution = "SAFETY: the relay will delay and drop the commands that move your rig.\n" + trip.Cautions
 
 // runOpts are the settings of `impair run` shared by all its links.
 type runOpts struct {
@@ -172,7 +173,7 @@ func cmdRun(args []string, stdout, stderr io.Writer) error {
 		}
 		if tripListen.Given {
 			s.TripListen = tripListen.Addr
-			a, ok := parseTripAction(*onTrip)
+			a, ok := trip.ParseAction(*onTrip)
 			if !ok {
 				return fail("--on-trip: want clean or stop_commands, got %q", *onTrip)
 			}

@@ -2,7 +2,7 @@ package main
 
 import (
 	"rigwire/cmd/internal/cli"
-	"rigwire/emulate"
+	"rigwire/emulate/trip"
 )
 
 // cautionsFlag registers --cautions-read on fs and returns what to print:
@@ -12,7 +12,7 @@ func cautionsFlag(fs *cli.Flags) func(full string) string {
 	read := fs.Bool("cautions-read", false, "print the safety cautions as one line (you have read them)")
 	return func(full string) string {
 		if *read {
-			return emulate.SafetyReminder
+			return trip.Reminder
 		}
 		return full
 	}

@@ -12,15 +12,15 @@ import (
 
 	"rigwire/cmd/internal/cli"
 	"rigwire/cmd/internal/exitcode"
-	"rigwire/emulate"
 	"rigwire/emulate/rig"
+	"rigwire/emulate/trip"
 	"rigwire/estimate/engine"
 	"rigwire/profiles"
 	"rigwire/profiles/examples"
 )
 
 // demoCaution is printed before the demo starts.
-const demoCaution = "SAFETY: the demo is a simulation — nothing moves. Before you put a real rig\nbehind the relay:\n" + emulate.SafetyCautions
+const demoCaution = "SAFETY: the demo is a simulation — nothing moves. Before you put a real rig\nbehind the relay:\n" + trip.Cautions
 
 const demoHead = `usage: monitor demo [--duration 60s] [--loop LOOP --profile FILE] [--metrics HOST:PORT]
                    [--tolerance X] [--seed S] [--warmup D] [--progress D]

@@ -20,6 +20,7 @@ import (
 
 	"rigwire/cmd/internal/cli"
 	"rigwire/emulate"
+	"rigwire/emulate/trip"
 	"rigwire/estimate"
 	"rigwire/estimate/engine"
 	"rigwire/profiles"
@@ -117,16 +118,16 @@ func openBench(cfg benchConfig) (*bench, error) {
 // crossing the relay takes the trip's action at once (before its next
 // datagram), the trip is logged, and the returned channel closes. Without
 // a trip section the channel never closes.
-func (b *bench) armTrip(trip profiles.Trip) (<-chan struct{}, error) {
+func (b *bench) armTrip(rule trip.Rule) (<-chan struct{}, error) {
 	tripped := make(chan struct{})
-	if !trip.Enabled {
+	if !rule.Enabled {
 		return tripped, nil
 	}
 	var once sync.Once
-	err := b.mon.SetTrip(trip, func(ev engine.TripEvent) {
-		b.relay.Trip(trip.Action, ev.Reason)
+	err := b.mon.SetTrip(rule, func(ev trip.Event) {
+		b.relay.Trip(rule.Action, ev.Reason)
 		b.log.Warn("safety trip", "reason", ev.Reason, "value", ev.Value, "bound", ev.Bound,
-			"phase", ev.Phase, "action", trip.Action.String())
+			"phase", ev.Phase, "action", rule.Action.String())
 		once.Do(func() { close(tripped) })
 	})
 	if err != nil {

@@ -11,12 +11,12 @@ import (
 
 	"rigwire/cmd/internal/cli"
 	"rigwire/cmd/internal/exitcode"
-	"rigwire/emulate"
+	"rigwire/emulate/trip"
 	"rigwire/profiles"
 )
 
 // serveCaution is printed before serve relays the rig's datagrams.
-const serveCaution = "SAFETY: the relay will delay and drop the commands that move your rig.\n" + emulate.SafetyCautions
+const serveCaution = "SAFETY: the relay will delay and drop the commands that move your rig.\n" + trip.Cautions
 
 // cmdServe is the relay and the monitor of one rig in one process: the
 // relay engine impairs the rig's link with the profile and hands each

@@ -15,13 +15,13 @@ import (
 	"syscall"
 
 	"rigwire/cmd/internal/exitcode"
-	"rigwire/emulate"
 	"rigwire/emulate/rig"
+	"rigwire/emulate/trip"
 	"rigwire/profiles"
 )
 
 // rigCaution is printed by the simulated rig's commands before they start.
-const rigCaution = "SAFETY: this is a simulated rig — no hardware moves. Before you point the\nsame profile at a real rig:\n" + emulate.SafetyCautions
+const rigCaution = "SAFETY: this is a simulated rig — no hardware moves. Before you point the\nsame profile at a real rig:\n" + trip.Cautions
 
 const rigUsage = `usage: monitor rig node --loop LOOP --relay HOST:PORT [--listen HOST:PORT] [--log FILE] [--duration D] [--seed S] [--start steady|rest]
        monitor rig controller --loop LOOP --listen HOST:PORT [--start steady|rest]

@@ -20,7 +20,6 @@ import (
 	"rigwire/cmd/internal/cli"
 	"rigwire/cmd/internal/exitcode"
 	"rigwire/cmd/internal/metricsrv"
-	"rigwire/emulate"
 	"rigwire/emulate/trip"
 	"rigwire/estimate"
 	"rigwire/estimate/engine"
@@ -30,7 +29,7 @@ import (
 
 // runCaution is printed when `monitor run` starts (same family as the
 // relay's caution).
-const runCaution = "SAFETY: the monitor only watches; it does not stop the rig.\n" + emulate.SafetyCautions
+const runCaution = "SAFETY: the monitor only watches; it does not stop the rig.\n" + trip.Cautions
 
 const runUsage = `usage: monitor run --loop LOOP.yaml --listen HOST:PORT [--metrics HOST:PORT] [--duration D]
                    [--summary FILE] [--tolerance X] [--min-samples N] [--warmup D]
@@ -179,7 +178,7 @@ func cmdRun(args []string, stdout, stderr io.Writer) error {
 			}
 			defer tripConn.Close()
 		}
-		if err := mon.SetTrip(loop.Trip, func(ev engine.TripEvent) { sendTrip(tripConn, ev, log) }); err != nil {
+		if err := mon.SetTrip(loop.Trip, func(ev trip.Event) { sendTrip(tripConn, ev, log) }); err != nil {
 			return cli.BadInput(fmt.Errorf("%s: %w", *loopPath, err))
 		}
 	}
@@ -262,25 +261,13 @@ func cmdRun(args []string, stdout, stderr io.Writer) error {
 	return nil
 }
 
-// tripCopies is how many copies of a trip request go out: the control
-// path may lose datagrams, and the relay counts the extra ones as repeated
-// (common practice for a one-shot command over UDP).
-const tripCopies = 3
-
 // sendTrip logs the trip and, when conn is not nil, sends the trip request.
-func sendTrip(conn *net.UDPConn, ev engine.TripEvent, log *slog.Logger) {
+func sendTrip(conn *net.UDPConn, ev trip.Event, log *slog.Logger) {
 	to := "nowhere (no --trip-to)"
 	sent := 0
 	if conn != nil {
 		to = conn.RemoteAddr().String()
-		msg := trip.Encode(ev.Reason)
-		for range tripCopies {
-			if _, err := conn.Write(msg); err != nil {
-				log.Error("trip request not sent", "to", to, "err", err)
-				continue
-			}
-			sent++
-		}
+		sent = trip.Send(conn, ev.Reason, log)
 	}
 	log.Warn("SAFETY TRIP fired", "reason", ev.Reason, "value", ev.Value, "bound", ev.Bound,
 		"phase", ev.Phase, "action", ev.Action, "request_to", to, "copies_sent", sent)

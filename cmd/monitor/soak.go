@@ -15,7 +15,7 @@ import (
 
 	"rigwire/cmd/internal/cli"
 	"rigwire/cmd/internal/exitcode"
-	"rigwire/emulate"
+	"rigwire/emulate/trip"
 	"rigwire/estimate"
 	"rigwire/estimate/engine"
 	"rigwire/profiles"
@@ -24,7 +24,7 @@ import (
 // soakCaution is printed before a soak relays the rig's datagrams.
 const soakCaution = "SAFETY: the relay will delay and drop the commands that move your rig, following the\n" +
 	"scenario's phases (outages included). The loop file's trip section is a software guard only.\n" +
-	emulate.SafetyCautions
+	trip.Cautions
 
 // Exit statuses of `monitor soak` beyond 0, 1 and 2.
 const (

@@ -14,6 +14,7 @@ import (
 
 	"rigwire/cmd/internal/exitcode"
 	"rigwire/cmd/internal/metricsrv"
+	"rigwire/emulate/trip"
 	"rigwire/estimate/engine"
 	"rigwire/estimate/report"
 	"rigwire/profiles"
@@ -537,7 +538,7 @@ func (r *soakRecorder) sampleTripWindow() {
 
 // tripWindow is the trip's windowed quantity for the report: the ratio
 // when the trip judges one (or fired on it), else the second moment.
-func (r *soakRecorder) tripWindow(t profiles.Trip, ev *engine.TripEvent) *report.TripWindow {
+func (r *soakRecorder) tripWindow(t trip.Rule, ev *trip.Event) *report.TripWindow {
 	r.mu.Lock()
 	defer r.mu.Unlock()
 	if len(r.twPoints) == 0 {
@@ -546,9 +547,9 @@ func (r *soakRecorder) tripWindow(t profiles.Trip, ev *engine.TripEvent) *report
 	w := &report.TripWindow{Quantity: "second_moment", Bound: t.MaxSecondMoment, Every: r.twEvery,
 		Seconds: t.Window}
 	if w.Seconds == 0 {
-		w.Seconds = engine.DefaultTripWindow.Seconds()
+		w.Seconds = trip.DefaultWindow
 	}
-	if (t.MaxRatio > 0 && (ev == nil || ev.Reason != engine.TripSecondMoment)) || t.MaxSecondMoment == 0 {
+	if (t.MaxRatio > 0 && (ev == nil || ev.Reason != trip.ReasonSecondMoment)) || t.MaxSecondMoment == 0 {
 		w.Quantity, w.Bound = "ratio", t.MaxRatio
 	}
 	for _, p := range r.twPoints {

@@ -14,6 +14,7 @@ import (
 
 	"rigwire/cmd/internal/cli"
 	"rigwire/cmd/internal/exitcode"
+	"rigwire/emulate/trip"
 	"rigwire/estimate"
 	"rigwire/estimate/engine"
 	"rigwire/estimate/report"
@@ -95,7 +96,7 @@ func writeReport(t *testing.T, s *engine.Summary, code int, verdict string) stri
 // it never ran. The table, the exit and the report all show it.
 func TestSoakTableAndReportTripped(t *testing.T) {
 	r := newSoakRig(t)
-	if err := r.m.SetTrip(profiles.Trip{MaxAbsError: 0.5}, nil); err != nil {
+	if err := r.m.SetTrip(trip.Rule{MaxAbsError: 0.5}, nil); err != nil {
 		t.Fatal(err)
 	}
 	r.m.PlanPhases([]string{"nominal", "outage", "recovery"})

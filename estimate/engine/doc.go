@@ -32,8 +32,8 @@
 //	m.UpdatePrediction(pred)            // a ramp's step: later samples compare with pred
 //	m.EndPhases(interrupted)            // closes the running phase at the end of the soak (cut short when interrupted)
 //	ps := m.Phases()                    // []PhaseResult, judged: pass, fail, inconclusive, not_run; the running one "running"
-//	err = m.SetTrip(loop.Trip, fire)    // fire(TripEvent) once, from Feed, outside the monitor's lock
-//	ev := m.Tripped()                   // *TripEvent, nil until it fires
+//	err = m.SetTrip(loop.Trip, fire)    // fire(trip.Event) once, from Feed, outside the monitor's lock
+//	ev := m.Tripped()                   // *trip.Event, nil until it fires
 //	h := m.History()                    // []Point, at most 4096, every Options.HistoryEvery (doubling)
 //
 // A phase's predicted value is the mean of the predicted E[eᵀe] in force

@@ -7,6 +7,7 @@ import (
 	"sync"
 	"time"
 
+	"rigwire/emulate/trip"
 	"rigwire/estimate"
 	"rigwire/estimate/online"
 	"rigwire/profiles"
@@ -204,7 +205,7 @@ func (m *Monitor) Feed(payload []byte, at time.Time) {
 
 // feed is Feed under the lock; it returns the trip event when this sample
 // fired the trip.
-func (m *Monitor) feed(payload []byte, at time.Time) (*TripEvent, func(TripEvent)) {
+func (m *Monitor) feed(payload []byte, at time.Time) (*trip.Event, func(trip.Event)) {
 	m.mu.Lock()
 	defer m.mu.Unlock()
 	m.datagrams++
@@ -233,9 +234,9 @@ func (m *Monitor) feed(payload []byte, at time.Time) (*TripEvent, func(TripEvent
 		x += m.e[i] * m.e[i]
 	}
 	// Safety does not wait for the warm-up or a phase's settling.
-	var ev *TripEvent
+	var ev *trip.Event
 	tripped := m.trip.event != nil // before this sample
-	if m.trip.armed && !tripped {
+	if m.trip.det.Armed() && !tripped {
 		ev = m.checkTrip(x, seq, hasSeq, at)
 	}
 	if m.decoded <= m.warmupN {

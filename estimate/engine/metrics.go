@@ -8,6 +8,7 @@ import (
 
 	"github.com/prometheus/client_golang/prometheus"
 
+	"rigwire/emulate/trip"
 	"rigwire/estimate/online"
 	"rigwire/profiles/datagram"
 )
@@ -234,7 +235,7 @@ func (c *collector) Collect(ch chan<- prometheus.Metric) {
 		active = 1
 	}
 	gauge(d.tripActive, active)
-	for _, r := range tripReasons {
+	for _, r := range trip.Reasons {
 		var n int64
 		if m.trip.event != nil && m.trip.event.Reason == r {
 			n = 1

@@ -6,6 +6,7 @@ import (
 	"testing"
 	"time"
 
+	"rigwire/emulate/trip"
 	"rigwire/estimate"
 	"rigwire/profiles"
 )
@@ -148,7 +149,7 @@ func TestPhaseCutByTrip(t *testing.T) {
 	c := &clock{t: time.Unix(0, 0)}
 	m := newClocked(t, c, Options{})
 	f := &phaseFeeder{m: m, c: c}
-	if err := m.SetTrip(profiles.Trip{MaxAbsError: 0.5}, nil); err != nil {
+	if err := m.SetTrip(trip.Rule{MaxAbsError: 0.5}, nil); err != nil {
 		t.Fatal(err)
 	}
 	m.PlanPhases([]string{"calm", "storm", "after", "cool-down"})

@@ -6,6 +6,7 @@ import (
 	"strings"
 	"time"
 
+	"rigwire/emulate/trip"
 	"rigwire/estimate"
 	"rigwire/estimate/online"
 	"rigwire/profiles/datagram"
@@ -69,7 +70,7 @@ type Summary struct {
 	// Phases are the soak's phases (StartPhase), in order.
 	Phases []PhaseResult `json:"phases,omitempty"`
 	// Trip is the safety trip's event when it fired.
-	Trip *TripEvent `json:"trip,omitempty"`
+	Trip *trip.Event `json:"trip,omitempty"`
 }
 
 // Predicted is the prediction in the summary.

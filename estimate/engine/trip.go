@@ -1,63 +1,28 @@
 package engine
 
 import (
-	"fmt"
-	"math"
 	"time"
 
-	"rigwire/profiles"
+	"rigwire/emulate/trip"
 )
 
-// Reasons of a safety trip.
-const (
-	TripAbsError     = "abs_error"
-	TripSecondMoment = "second_moment"
-	TripRatio        = "ratio"
-)
+// The safety trip's bounds, its windowed mean and its event are the trip
+// package's (trip.Rule, trip.Detector, trip.Event); what stays here is
+// the hook that needs the monitor's own state: the error vector of the
+// sample just decoded, the prediction in force, the sequence number, the
+// running phase (which the trip cuts short), the latch and the monitor's
+// lock, outside which fire is called.
 
-// tripReasons are the reasons in metric order.
-var tripReasons = []string{TripAbsError, TripSecondMoment, TripRatio}
-
-// DefaultTripWindow is the trip's window when the loop leaves it 0.
-const DefaultTripWindow = time.Second
-
-// TripEvent is the safety trip's firing.
-type TripEvent struct {
-	// Reason is "abs_error", "second_moment" or "ratio".
-	Reason string `json:"reason"`
-	// Value crossed Bound: |e_i|, the windowed mean of eᵀe, or that mean
-	// over the predicted E[eᵀe].
-	Value float64 `json:"value"`
-	Bound float64 `json:"bound"`
-	// Sequence is the sample's sequence number; null when the datagrams
-	// carry none.
-	Sequence *uint64 `json:"sequence"`
-	// At is the sample's arrival; Elapsed seconds since the monitor
-	// started.
-	At      time.Time `json:"at"`
-	Elapsed float64   `json:"elapsed_seconds"`
-	// Phase is the running phase's name, "" outside phases.
-	Phase string `json:"phase"`
-	// Action is what the relay is to do (profiles.TripAction's spelling).
-	Action string `json:"action"`
-}
-
-// tripState is the safety trip: its bounds and the ring of the last
-// ring-length x_k = e_kᵀe_k.
+// tripState is the monitor's side of the safety trip.
 type tripState struct {
-	armed bool
-	cfg   profiles.Trip
-	fire  func(TripEvent)
-	ring  []float64
-	head  int
-	full  bool
-	sum   float64 // Σ ring, recomputed at each wrap
-	event *TripEvent
+	det   *trip.Detector // nil: no trip set
+	fire  func(trip.Event)
+	event *trip.Event
 }
 
 // SetTrip arms the safety trip t: from the next sample on, Feed checks
 // every decoded sample (warm-up and settling included; duplicates and
-// stale samples are not samples) against
+// stale samples are not samples) with a trip.Detector against
 //
 //   - MaxAbsError: any output's |e_i| above it;
 //   - MaxSecondMoment: the mean of eᵀe over the last ⌈Window/period⌉
@@ -66,43 +31,26 @@ type tripState struct {
 //     (CurrentPrediction) above it, when that prediction is mean-square
 //     stable and the window is full.
 //
-// A bound 0 is not checked; Window 0 is 1 s. The trip is latched: it
-// fires once (the first bound crossed, in the order above), records the
-// event (Tripped, Summary) and calls fire (may be nil) from Feed after
-// the monitor's lock is released, so fire may call the monitor or the
-// relay. SetTrip again re-arms with new bounds and an empty window but
-// does not clear an event already fired. Each check is O(1) and does not
-// allocate.
-func (m *Monitor) SetTrip(t profiles.Trip, fire func(TripEvent)) error {
-	for _, b := range []struct {
-		key string
-		v   float64
-	}{{"max_abs_error", t.MaxAbsError}, {"max_second_moment", t.MaxSecondMoment}, {"max_ratio", t.MaxRatio}, {"window", t.Window}} {
-		if !(b.v >= 0) || math.IsInf(b.v, 0) {
-			return fmt.Errorf("trip: %s: want a number ≥ 0, got %g", b.key, b.v)
-		}
-	}
-	if t.Window == 0 {
-		t.Window = DefaultTripWindow.Seconds()
-	}
-	st := tripState{cfg: t, fire: fire, armed: t.MaxAbsError > 0 || t.MaxSecondMoment > 0 || t.MaxRatio > 0}
-	if t.MaxSecondMoment > 0 || t.MaxRatio > 0 {
-		n := math.Ceil(t.Window/m.loop.Period - 1e-9) // 1e-9: 0.2 s / 20 ms is 10, not 10.000…1
-		if n < 2 || n > 1<<26 {
-			return fmt.Errorf("trip: window %gs: want at least two periods (%gs each) and at most 2²⁶, got %g samples",
-				t.Window, m.loop.Period, n)
-		}
-		st.ring = make([]float64, int(n))
+// A bound 0 is not checked; Window 0 is trip.DefaultWindow. The trip is
+// latched: it fires once (the first bound crossed, in the order above),
+// records the event (Tripped, Summary) and calls fire (may be nil) from
+// Feed after the monitor's lock is released, so fire may call the monitor
+// or the relay. SetTrip again re-arms with new bounds and an empty window
+// but does not clear an event already fired. Each check is O(1) and does
+// not allocate.
+func (m *Monitor) SetTrip(t trip.Rule, fire func(trip.Event)) error {
+	det, err := trip.NewDetector(t, m.loop.Period)
+	if err != nil {
+		return err
 	}
 	m.mu.Lock()
 	defer m.mu.Unlock()
-	st.event = m.trip.event
-	m.trip = st
+	m.trip = tripState{det: det, fire: fire, event: m.trip.event}
 	return nil
 }
 
 // Tripped returns the trip's event, nil while it has not fired.
-func (m *Monitor) Tripped() *TripEvent {
+func (m *Monitor) Tripped() *trip.Event {
 	m.mu.Lock()
 	defer m.mu.Unlock()
 	if m.trip.event == nil {
@@ -114,49 +62,13 @@ func (m *Monitor) Tripped() *TripEvent {
 
 // checkTrip takes one sample's x = eᵀe (m.e holds e) under the lock and
 // returns the event when it fires the trip.
-func (m *Monitor) checkTrip(x float64, seq uint64, hasSeq bool, at time.Time) *TripEvent {
-	t := &m.trip
-	if b := t.cfg.MaxAbsError; b > 0 {
-		for _, v := range m.e {
-			if math.Abs(v) > b {
-				return m.tripFired(TripAbsError, math.Abs(v), b, seq, hasSeq, at)
-			}
-		}
-	}
-	if t.ring == nil {
+func (m *Monitor) checkTrip(x float64, seq uint64, hasSeq bool, at time.Time) *trip.Event {
+	c, fired := m.trip.det.Check(m.e, x, m.curPr)
+	if !fired {
 		return nil
 	}
-	t.sum += x - t.ring[t.head]
-	t.ring[t.head] = x
-	t.head++
-	if t.head == len(t.ring) {
-		// Recompute the sum exactly at each wrap so that rounding does
-		// not drift over a long run (O(1) per sample on average).
-		t.head, t.full = 0, true
-		s := 0.0
-		for _, v := range t.ring {
-			s += v
-		}
-		t.sum = s
-	}
-	if !t.full {
-		return nil
-	}
-	mean := t.sum / float64(len(t.ring))
-	if b := t.cfg.MaxSecondMoment; b > 0 && mean > b {
-		return m.tripFired(TripSecondMoment, mean, b, seq, hasSeq, at)
-	}
-	if b := t.cfg.MaxRatio; b > 0 && !math.IsNaN(m.curPr) && m.curPr > 0 {
-		if r := mean / m.curPr; r > b {
-			return m.tripFired(TripRatio, r, b, seq, hasSeq, at)
-		}
-	}
-	return nil
-}
-
-func (m *Monitor) tripFired(reason string, v, bound float64, seq uint64, hasSeq bool, at time.Time) *TripEvent {
-	ev := &TripEvent{Reason: reason, Value: v, Bound: bound, At: at, Elapsed: at.Sub(m.started).Seconds(),
-		Action: m.trip.cfg.Action.String()}
+	ev := &trip.Event{Reason: c.Reason, Value: c.Value, Bound: c.Bound, At: at, Elapsed: at.Sub(m.started).Seconds(),
+		Action: m.trip.det.Rule().Action.String()}
 	if hasSeq {
 		ev.Sequence = &seq
 	}
@@ -166,4 +78,27 @@ func (m *Monitor) tripFired(reason string, v, bound float64, seq uint64, hasSeq 
 	}
 	m.trip.event = ev
 	return ev
+}
+
+// TripWindow returns the trip window's state (trip.Window: the windowed
+// mean, with the prediction in force and whether the trip fired); ok is
+// false when the trip judges no windowed bound (no trip, or only
+// max_abs_error).
+func (m *Monitor) TripWindow() (w trip.Window, ok bool) {
+	m.mu.Lock()
+	defer m.mu.Unlock()
+	w, ok = m.trip.det.Window()
+	if !ok {
+		return trip.Window{}, false
+	}
+	w.Predicted, w.Fired = m.curPr, m.trip.event != nil
+	return w, true
+}
+
+// Started is when the monitor started: the origin of every elapsed time
+// it reports (history points, phases, the trip).
+func (m *Monitor) Started() time.Time {
+	m.mu.Lock()
+	defer m.mu.Unlock()
+	return m.started
 }

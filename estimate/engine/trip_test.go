@@ -10,6 +10,7 @@ import (
 	"github.com/prometheus/client_golang/prometheus"
 	"github.com/prometheus/client_golang/prometheus/testutil"
 
+	"rigwire/emulate/trip"
 	"rigwire/profiles"
 )
 
@@ -18,9 +19,9 @@ import (
 func TestTripAbsError(t *testing.T) {
 	c := &clock{t: time.Unix(0, 0)}
 	m := newClocked(t, c, Options{Warmup: time.Second})
-	var got []TripEvent
+	var got []trip.Event
 	var inFire *Summary
-	if err := m.SetTrip(profiles.Trip{Enabled: true, MaxAbsError: 0.5, Action: profiles.TripStopCommands}, func(ev TripEvent) {
+	if err := m.SetTrip(trip.Rule{Enabled: true, MaxAbsError: 0.5, Action: trip.StopCommands}, func(ev trip.Event) {
 		got = append(got, ev)
 		inFire = m.Summary() // would deadlock under the lock
 	}); err != nil {
@@ -33,14 +34,14 @@ func TestTripAbsError(t *testing.T) {
 			t.Fatalf("fired at sample %d (|e| %v)", k, e)
 		}
 	}
-	if len(got) != 1 || got[0].Reason != TripAbsError || got[0].Sequence == nil || *got[0].Sequence != 5 ||
+	if len(got) != 1 || got[0].Reason != trip.ReasonAbsError || got[0].Sequence == nil || *got[0].Sequence != 5 ||
 		math.Abs(got[0].Value-0.6) > 1e-12 || got[0].Bound != 0.5 || got[0].Action != "stop_commands" {
 		t.Fatalf("events %+v", got)
 	}
 	if inFire == nil || inFire.Trip == nil {
 		t.Errorf("summary from fire: %+v", inFire)
 	}
-	if m.Tripped() == nil || m.Tripped().Reason != TripAbsError {
+	if m.Tripped() == nil || m.Tripped().Reason != trip.ReasonAbsError {
 		t.Errorf("Tripped %+v", m.Tripped())
 	}
 }
@@ -51,8 +52,8 @@ func TestTripSecondMomentBruteForce(t *testing.T) {
 	for seed := range uint64(20) {
 		c := &clock{t: time.Unix(0, 0)}
 		m := newClocked(t, c, Options{})
-		var ev *TripEvent
-		if err := m.SetTrip(profiles.Trip{MaxSecondMoment: 0.05, Window: 0.07}, func(e TripEvent) { ev = &e }); err != nil {
+		var ev *trip.Event
+		if err := m.SetTrip(trip.Rule{MaxSecondMoment: 0.05, Window: 0.07}, func(e trip.Event) { ev = &e }); err != nil {
 			t.Fatal(err)
 		}
 		const w = 7 // 70 ms at 10 ms
@@ -76,7 +77,7 @@ func TestTripSecondMomentBruteForce(t *testing.T) {
 			}
 			feedErr(m, k, e, c.t)
 		}
-		if want < 0 || ev == nil || ev.Reason != TripSecondMoment || int(*ev.Sequence) != want {
+		if want < 0 || ev == nil || ev.Reason != trip.ReasonSecondMoment || int(*ev.Sequence) != want {
 			t.Fatalf("seed %d: fired %+v, brute force at %d", seed, ev, want)
 		}
 	}
@@ -88,7 +89,7 @@ func TestTripRatio(t *testing.T) {
 	m := newClocked(t, c, Options{})
 	m.UpdatePrediction(stablePred(0.01))
 	fired := 0
-	if err := m.SetTrip(profiles.Trip{MaxRatio: 2, Window: 0.05}, func(TripEvent) { fired++ }); err != nil {
+	if err := m.SetTrip(trip.Rule{MaxRatio: 2, Window: 0.05}, func(trip.Event) { fired++ }); err != nil {
 		t.Fatal(err)
 	}
 	// Five samples of x = 0.01 (ratio 1), then x = 0.04: the mean after
@@ -100,14 +101,14 @@ func TestTripRatio(t *testing.T) {
 		feedErr(m, k, 0.2, c.t)
 	}
 	ev := m.Tripped()
-	if fired != 1 || ev == nil || ev.Reason != TripRatio || *ev.Sequence != 6 || ev.Bound != 2 {
+	if fired != 1 || ev == nil || ev.Reason != trip.ReasonRatio || *ev.Sequence != 6 || ev.Bound != 2 {
 		t.Fatalf("fired %d, %+v", fired, ev)
 	}
 	// Not with an unstable prediction.
 	m2 := newClocked(t, c, Options{})
 	m2.StartPhase(0, "p", stablePred(0.01), 0, profiles.Check{})
 	m2.UpdatePrediction(nil)
-	m2.SetTrip(profiles.Trip{MaxRatio: 2, Window: 0.05}, nil)
+	m2.SetTrip(trip.Rule{MaxRatio: 2, Window: 0.05}, nil)
 	for k := 0; k < 50; k++ {
 		feedErr(m2, k, 1, c.t)
 	}
@@ -118,12 +119,12 @@ func TestTripRatio(t *testing.T) {
 
 func TestSetTripValidates(t *testing.T) {
 	m := newClocked(t, &clock{}, Options{})
-	for _, tr := range []profiles.Trip{{MaxSecondMoment: 1, Window: 0.01}, {MaxAbsError: -1}, {MaxRatio: math.NaN()}} {
+	for _, tr := range []trip.Rule{{MaxSecondMoment: 1, Window: 0.01}, {MaxAbsError: -1}, {MaxRatio: math.NaN()}} {
 		if err := m.SetTrip(tr, nil); err == nil {
 			t.Errorf("%+v accepted", tr)
 		}
 	}
-	if err := m.SetTrip(profiles.Trip{MaxAbsError: 1, Window: 0.01}, nil); err != nil {
+	if err := m.SetTrip(trip.Rule{MaxAbsError: 1, Window: 0.01}, nil); err != nil {
 		t.Errorf("abs bound with a short window: %v", err)
 	}
 }
@@ -132,7 +133,7 @@ func TestSetTripValidates(t *testing.T) {
 func TestFeedDoesNotAllocateWithTrip(t *testing.T) {
 	m := newClocked(t, &clock{t: time.Unix(0, 0)}, Options{})
 	m.StartPhase(0, "p", nil, time.Second, profiles.Check{})
-	if err := m.SetTrip(profiles.Trip{MaxAbsError: 10, MaxSecondMoment: 10, MaxRatio: 1e6, Window: 0.05}, func(TripEvent) {}); err != nil {
+	if err := m.SetTrip(trip.Rule{MaxAbsError: 10, MaxSecondMoment: 10, MaxRatio: 1e6, Window: 0.05}, func(trip.Event) {}); err != nil {
 		t.Fatal(err)
 	}
 	payloads := [][]byte{[]byte("1,0.75\n"), []byte("2,0.85\n"), []byte("1,zz")}
@@ -152,7 +153,7 @@ func TestTripAndPhaseMetrics(t *testing.T) {
 	if err := m.RegisterMetrics(reg); err != nil {
 		t.Fatal(err)
 	}
-	m.SetTrip(profiles.Trip{MaxAbsError: 0.5}, nil)
+	m.SetTrip(trip.Rule{MaxAbsError: 0.5}, nil)
 	m.StartPhase(0, "calm", nil, 0, profiles.Check{MinSamples: 2})
 	feedErr(m, 0, 0.1, c.t)
 	feedErr(m, 1, 0.1, c.t)

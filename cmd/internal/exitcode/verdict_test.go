@@ -3,6 +3,7 @@ package exitcode
 import (
 	"testing"
 
+	"rigwire/emulate/trip"
 	"rigwire/estimate/engine"
 )
 
@@ -32,7 +33,7 @@ func TestSoakExitCode(t *testing.T) {
 	for _, c := range cases {
 		s := &engine.Summary{Phases: c.phases}
 		if c.trip {
-			s.Trip = &engine.TripEvent{}
+			s.Trip = &trip.Event{}
 		}
 		if got := OfSoak(s); got != c.want {
 			t.Errorf("%s: %d, want %d", c.name, got, c.want)

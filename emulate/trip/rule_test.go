@@ -1,8 +1,11 @@
-package profiles
+package trip_test
 
 import (
 	"strings"
 	"testing"
+
+	"rigwire/emulate/trip"
+	"rigwire/profiles"
 )
 
 // tripLoop is a small valid loop; trip sections are appended to it.
@@ -12,23 +15,23 @@ controller: {d: [[2]]}
 profile: {sensor_to_controller: {loss: 0.01}}
 `
 
-func TestParseTrip(t *testing.T) {
+func TestParse(t *testing.T) {
 	cases := []struct {
 		name string
 		trip string
-		want Trip
+		want trip.Rule
 	}{
-		{"none", "", Trip{}},
+		{"none", "", trip.Rule{}},
 		{"abs only, defaults", "trip: {max_abs_error: 0.4}\n",
-			Trip{Enabled: true, MaxAbsError: 0.4, Window: 1, Action: TripClean}},
+			trip.Rule{Enabled: true, MaxAbsError: 0.4, Window: 1, Action: trip.Clean}},
 		{"all keys", "trip:\n  max_abs_error: 0.4\n  max_second_moment: 0.05\n  max_ratio: 4\n  window: 250ms\n  action: stop_commands\n",
-			Trip{Enabled: true, MaxAbsError: 0.4, MaxSecondMoment: 0.05, MaxRatio: 4, Window: 0.25, Action: TripStopCommands}},
+			trip.Rule{Enabled: true, MaxAbsError: 0.4, MaxSecondMoment: 0.05, MaxRatio: 4, Window: 0.25, Action: trip.StopCommands}},
 		{"window in seconds, exactly 2 periods", "trip: {max_ratio: 1.5, window: 0.02, action: clean}\n",
-			Trip{Enabled: true, MaxRatio: 1.5, Window: 0.02, Action: TripClean}},
+			trip.Rule{Enabled: true, MaxRatio: 1.5, Window: 0.02, Action: trip.Clean}},
 	}
 	for _, c := range cases {
 		t.Run(c.name, func(t *testing.T) {
-			l, err := ParseLoop([]byte(tripLoop+c.trip), "loop.yaml", "")
+			l, err := profiles.ParseLoop([]byte(tripLoop+c.trip), "loop.yaml", "")
 			if err != nil {
 				t.Fatal(err)
 			}
@@ -39,7 +42,7 @@ func TestParseTrip(t *testing.T) {
 	}
 }
 
-func TestParseTripBad(t *testing.T) {
+func TestParseBad(t *testing.T) {
 	cases := []struct {
 		trip, want string
 	}{
@@ -56,7 +59,7 @@ func TestParseTripBad(t *testing.T) {
 		{"trip: [1]\n", `loop.yaml:5: trip: want a mapping, got a sequence`},
 	}
 	for _, c := range cases {
-		_, err := ParseLoop([]byte(tripLoop+c.trip), "loop.yaml", "")
+		_, err := profiles.ParseLoop([]byte(tripLoop+c.trip), "loop.yaml", "")
 		if err == nil {
 			t.Errorf("%q: loaded, want %s", c.trip, c.want)
 			continue
@@ -67,7 +70,7 @@ func TestParseTripBad(t *testing.T) {
 	}
 	// A long period: the default window of 1s is under 2 periods.
 	long := strings.Replace(tripLoop, "period: 10ms", "period: 600ms", 1)
-	_, err := ParseLoop([]byte(long+"trip: {max_abs_error: 1}\n"), "loop.yaml", "")
+	_, err := profiles.ParseLoop([]byte(long+"trip: {max_abs_error: 1}\n"), "loop.yaml", "")
 	want := `loop.yaml:5: trip: the default window (1s) is shorter than 2 periods (1.2s); give window: ≥ 1.2s`
 	if err == nil || err.Error() != want {
 		t.Errorf("got %v\nwant %s", err, want)
