@@ -40,7 +40,7 @@ type direction struct {
 	abort    bool // end now; what is scheduled is counted as shutdown
 	// tripped: the safety trip fired; the channel no longer changes.
 	tripped bool
-	// stopNew: every new datagram is dropped as tripped (TripStopCommands).
+	// stopNew: every new datagram is dropped as tripped (trip.StopCommands).
 	stopNew bool
 	// lossRun counts the consecutive datagrams the profile dropped so far.
 	lossRun int

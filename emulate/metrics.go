@@ -19,7 +19,7 @@ const (
 	// OutcomeShutdown: still in the schedule when a forced stop came.
 	OutcomeShutdown = "shutdown"
 	// OutcomeTripped: a command dropped, on arrival or while held, because
-	// the safety trip stopped commands (TripStopCommands).
+	// the safety trip stopped commands (trip.StopCommands).
 	OutcomeTripped = "tripped"
 	// OutcomeNoActuator: a command that arrived before the relay knew where
 	// the actuator is (no Actuator given and no sensor datagram yet).

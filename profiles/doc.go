@@ -107,7 +107,7 @@
 //	actuator: {on_loss: hold}    # hold (default) or zero
 //	profile: demo-profile.yaml   # a path relative to this file, or inline
 //	decode: …                    # where outputs sit in a sensor datagram (LoadLoop)
-//	trip: …                      # the monitor's safety trip (looptrip.go)
+//	trip: …                      # the monitor's safety trip (read by emulate/trip.Parse)
 //
 // The model these numbers enter is described in estimate/model.md (the plant
 // and controller §1 and §3, the network §2).
