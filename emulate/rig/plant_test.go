@@ -1,4 +1,4 @@
-package tests
+package rig_test
 
 import (
 	"math"
