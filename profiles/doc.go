@@ -4,7 +4,8 @@
 // (plant, controller, setpoint, compute delay, the network, the layout of
 // the rig's sensor datagrams and the safety trip) and soak scenarios
 // (phases, ramps, checks). Every error names the file, the line and the
-// key.
+// key. It also writes profile files ([Draft], [Write]; `impair fit` makes
+// them).
 //
 // One definition serves both users of a profile: the relay samples a
 // delay law per datagram (fast, without allocation) and the prediction
