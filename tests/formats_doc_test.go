@@ -2,7 +2,7 @@ package tests
 
 // profiles/formats.md against the loaders. The key lists are read from the
 // loaders' own source: every call of yamlpos.Field.Mapping (the one way a
-// YAML file's keys are accepted) in profiles/, cmd/impair/links.go and
+// YAML file's keys are accepted) in profiles/, emulate/links/file.go and
 // deploy/lab/config.go, the delay kinds' table (delayKinds in
 // profiles/delayparse.go) and the trace's metadata switch; the CSV
 // columns from the exported lists (trace.TraceColumns,
@@ -58,8 +58,8 @@ var mappingSections = map[string]string{
 	"profiles/scenario.go parsePhase name":                "scenario.phase",
 	"profiles/scenario.go parseCheck tolerance":           "scenario.check",
 	"profiles/scenario.go parseRampEnds from":             "scenario.ramp",
-	"cmd/impair/links.go parseLinks metrics":              "links",
-	"cmd/impair/links.go parseLink name":                  "links.link",
+	"emulate/links/file.go Parse metrics":                 "links",
+	"emulate/links/file.go parseLink name":                "links.link",
 	"deploy/lab/config.go Parse namespaces":               "lab",
 	"deploy/lab/config.go Parse a":                        "lab.link",
 }

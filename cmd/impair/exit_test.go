@@ -12,7 +12,7 @@ import (
 const (
 	badProfile  = "../../profiles/testdata/unknown-key.bad.yaml" // an unknown key in a direction
 	badScenario = "../../profiles/testdata/bad-scenarios/unknown-key.bad.yaml"
-	badLinks    = "testdata/bad-links/unknown-key.yaml"
+	badLinks    = "../../emulate/links/testdata/bad-links/unknown-key.yaml"
 	goodProfile = "../../profiles/examples/profiles/switched-cell.yaml"
 	missing     = "testdata/no-such-file.yaml"
 )

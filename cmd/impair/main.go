@@ -13,7 +13,13 @@
 //	impair lab build|remove [--config FILE]
 //
 // Every command exits with a status of the one table in
-// cmd/internal/exitcode (see exit.go).
+// cmd/internal/exitcode.
+//
+// Place in the flow: the relay's command line. It only reads flags, wires
+// the libraries and turns their errors into exit statuses: run →
+// emulate/links (the links file, one relay per link: emulate, its trip
+// socket: emulate/trip), check → profiles/summary, probe and echo →
+// emulate/probe, fit → estimate/fit and profiles.Write, lab → deploy/lab.
 package main
 
 import (

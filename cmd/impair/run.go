@@ -4,31 +4,25 @@ import (
 	"flag"
 	"io"
 	"log/slog"
-	"net/netip"
 	"time"
 
 	"rigwire/cmd/internal/cli"
 	"rigwire/cmd/internal/exitcode"
 	"rigwire/emulate"
+	"rigwire/emulate/endpoint"
+	"rigwire/emulate/links"
 	"rigwire/emulate/trip"
 )
 
 // safetyCaution is printed before any datagram is relayed.
 const safetyCaution = "SAFETY: the relay will delay and drop the commands that move your rig.\n" + trip.Cautions
 
-// runOpts are the settings of `impair run` shared by all its links.
+// runOpts are the settings of `impair run`: those every link shares
+// (emulate/links) and the command's own.
 type runOpts struct {
-	metricsAddr       string
-	maxDatagram       int
-	maxInFlight       int
-	spin              time.Duration
-	timeScale         float64
-	exitAfterScenario bool
-	singleLink        bool // flags, not a links file: metrics without a link label
-	cautionsRead      bool // the safety cautions as one line
-	// inputs are input files of the run besides each link's profile or
-	// scenario (the links file): no record may overwrite them.
-	inputs []string
+	links        links.Options
+	metricsAddr  string
+	cautionsRead bool // the safety cautions as one line
 }
 
 // MaxTimeScale bounds --time-scale.
@@ -136,10 +130,10 @@ func cmdRun(args []string, stdout, stderr io.Writer) error {
 	if err := level.UnmarshalText([]byte(*logLevel)); err != nil {
 		return fail("--log-level: want debug, info, warn or error, got %q", *logLevel)
 	}
-	opts := runOpts{metricsAddr: *metricsAddr, maxDatagram: *maxDatagram, maxInFlight: *maxInFlight,
-		spin: *spin, timeScale: *timeScale, exitAfterScenario: *exitAfter, cautionsRead: *cautionsRead}
+	opts := runOpts{metricsAddr: *metricsAddr, cautionsRead: *cautionsRead, links: links.Options{MaxDatagram: *maxDatagram,
+		MaxInFlight: *maxInFlight, Spin: *spin, TimeScale: *timeScale, ExitAfterScenario: *exitAfter}}
 
-	var specs []linkSpec
+	var specs []links.Spec
 	if *linksPath != "" {
 		for _, name := range []string{"listen", "controller", "actuator", "sensor", "controller-bind", "tap",
 			"trip-listen", "trip-from", "on-trip", "record", "seed", "relock-after"} {
@@ -147,7 +141,7 @@ func cmdRun(args []string, stdout, stderr io.Writer) error {
 				return fail("--%s: not with --links (give it per link in %s)", name, *linksPath)
 			}
 		}
-		lf, err := loadLinks(*linksPath)
+		lf, err := links.Load(*linksPath)
 		if err != nil {
 			return cli.BadInput(err)
 		}
@@ -155,7 +149,7 @@ func cmdRun(args []string, stdout, stderr io.Writer) error {
 			opts.metricsAddr = lf.Metrics
 		}
 		specs = lf.Links
-		opts.inputs = []string{*linksPath}
+		opts.links.Inputs, opts.links.Labelled = []string{*linksPath}, true
 	} else {
 		switch {
 		case !listen.Given:
@@ -163,12 +157,12 @@ func cmdRun(args []string, stdout, stderr io.Writer) error {
 		case !controller.Given:
 			return fail("--controller: required")
 		}
-		s := linkSpec{
+		s := links.Spec{
 			Listen: listen.Addr, Controller: controller.Addr, Actuator: actuator.Addr, Sensor: sensor.Addr,
 			ControllerBind: ctlBind.Addr, Tap: tap.Addr, ProfilePath: *profilePath, ScenarioPath: *scenarioPath,
 			Seed: *seed, SeedSet: set["seed"], RecordPath: *recordPath, RelockAfter: *relockAfter,
 		}
-		if err := checkFamilies(s, func(key string) string { return "--" + key }); err != nil {
+		if err := links.CheckFamilies(s, func(key string) string { return "--" + key }); err != nil {
 			return fail("%v", err)
 		}
 		if tripListen.Given {
@@ -179,7 +173,7 @@ func cmdRun(args []string, stdout, stderr io.Writer) error {
 			}
 			s.OnTrip = a
 			if *tripFrom != "" {
-				from, err := resolveHost(*tripFrom)
+				from, err := endpoint.ResolveHost(*tripFrom)
 				if err != nil {
 					return fail("--trip-from: %v", err)
 				}
@@ -192,8 +186,7 @@ func cmdRun(args []string, stdout, stderr io.Writer) error {
 				}
 			}
 		}
-		specs = []linkSpec{s}
-		opts.singleLink = true
+		specs = []links.Spec{s}
 	}
 	if set["time-scale"] || *exitAfter {
 		hasScenario := false
@@ -210,12 +203,4 @@ func cmdRun(args []string, stdout, stderr io.Writer) error {
 	}
 	log := slog.New(slog.NewTextHandler(stderr, &slog.HandlerOptions{Level: level}))
 	return runLinks(specs, opts, stderr, log)
-}
-
-// addrOr is an address for the log, or def when it is not set.
-func addrOr(a netip.AddrPort, def string) string {
-	if a.IsValid() {
-		return a.String()
-	}
-	return def
 }

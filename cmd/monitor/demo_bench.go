@@ -20,6 +20,7 @@ import (
 
 	"rigwire/cmd/internal/cli"
 	"rigwire/emulate"
+	"rigwire/emulate/endpoint"
 	"rigwire/emulate/trip"
 	"rigwire/estimate"
 	"rigwire/estimate/engine"
@@ -78,14 +79,14 @@ func openBench(cfg benchConfig) (*bench, error) {
 	}
 	rc := emulate.Config{Profile: prof, TapFunc: b.mon.Feed, Metrics: emulate.NewMetrics(b.reg),
 		Seed: cfg.seed, SeedSet: cfg.seedSet, Logger: cfg.log}
-	if rc.Listen, err = cli.ResolveAddr(cfg.listen); err != nil {
+	if rc.Listen, err = endpoint.Resolve(cfg.listen); err != nil {
 		return nil, cli.Usagef("--listen: %v", err)
 	}
-	if rc.Controller, err = cli.ResolveAddr(cfg.controller); err != nil {
+	if rc.Controller, err = endpoint.Resolve(cfg.controller); err != nil {
 		return nil, cli.Usagef("--controller: %v", err)
 	}
 	if cfg.actuator != "" {
-		if rc.Actuator, err = cli.ResolveAddr(cfg.actuator); err != nil {
+		if rc.Actuator, err = endpoint.Resolve(cfg.actuator); err != nil {
 			return nil, cli.Usagef("--actuator: %v", err)
 		}
 	}

@@ -5,11 +5,10 @@ import (
 	"flag"
 	"fmt"
 	"io"
-	"net"
-	"strconv"
 	"strings"
 
 	"rigwire/cmd/internal/exitcode"
+	"rigwire/emulate/endpoint"
 )
 
 // Status prints what err says, prefixed with the command's name cmd, and
@@ -134,28 +133,12 @@ func (f *Flags) HelpText() string {
 	return b.String()
 }
 
-// CheckMetricsAddr checks a --metrics value: "off", or HOST:PORT with a
-// host and a port number (whether it can be bound is found out when it is
-// bound). An empty value (an unset variable in an env file; blanks alone
-// too) and an empty host (":9471", which would bind every interface) are
-// refused, each with how to turn metrics off: the endpoint is reachable
-// from other hosts only when an address such as 0.0.0.0 or [::] says so.
+// CheckMetricsAddr checks a --metrics value as endpoint.CheckMetrics
+// does ("off", or HOST:PORT with a host and a port number); a refused one
+// is bad usage whose message names the flag.
 func CheckMetricsAddr(s string) error {
-	if s == "off" {
-		return nil
-	}
-	if strings.TrimSpace(s) == "" {
-		return Usagef("--metrics: empty; want HOST:PORT (such as 127.0.0.1:9471), or \"off\" for no metrics endpoint")
-	}
-	host, port, err := net.SplitHostPort(s)
-	if err == nil {
-		_, err = strconv.ParseUint(port, 10, 16)
-	}
-	if err != nil {
-		return Usagef("--metrics: want HOST:PORT or \"off\", got %q", s)
-	}
-	if host == "" {
-		return Usagef("--metrics: %q has no host; give one (127.0.0.1 for this machine only, 0.0.0.0 or [::] for every interface), or \"off\" for no metrics endpoint", s)
+	if err := endpoint.CheckMetrics(s); err != nil {
+		return Usagef("--metrics: %v", err)
 	}
 	return nil
 }

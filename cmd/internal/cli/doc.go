@@ -12,9 +12,10 @@
 //   - a flag set ([Flags]) whose -h prints the command's help with its
 //     exit statuses, and that takes flags before and after positional
 //     arguments ([Flags.ParseInterspersed]);
-//   - one address parser ([ResolveAddr], [AddrFlag]) and one parser of a
-//     flag or key that names one sender ([ParseSender], [SenderFlag]), and
-//     the check of a --metrics address ([CheckMetricsAddr]).
+//   - the flags of an address ([AddrFlag]) and of one sender
+//     ([SenderFlag]), and the check of a --metrics address
+//     ([CheckMetricsAddr]), which read them with emulate/endpoint, the one
+//     address parser of flags and files (a links file's keys too).
 //
 // Place in the flow: none of its own. It sits at the edge of the commands
 // (cmd/impair, cmd/monitor): flags and arguments in, exit status out; the

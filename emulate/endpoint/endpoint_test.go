@@ -1,4 +1,4 @@
-package cli
+package endpoint
 
 import (
 	"net/netip"

@@ -1,4 +1,4 @@
-package main
+package links
 
 import (
 	"os"
@@ -35,7 +35,7 @@ func TestLinksFileNotRegular(t *testing.T) {
 	for _, c := range cases {
 		t.Run(c.name, func(t *testing.T) {
 			done := make(chan error, 1)
-			go func() { _, err := loadLinks(c.path); done <- err }()
+			go func() { _, err := Load(c.path); done <- err }()
 			select {
 			case err := <-done:
 				if err == nil || !strings.Contains(err.Error(), c.want) {

@@ -1,16 +1,16 @@
-package main
+package links
 
 import (
 	"bufio"
 	"os"
 	"path/filepath"
-	"rigwire/cmd/internal/cli"
+	"rigwire/emulate/endpoint"
 	"strings"
 	"testing"
 )
 
 // Every file in testdata/bad-links starts with "# want: SUBSTRING", a part
-// of the error loadLinks must return for it.
+// of the error Load must return for it.
 func TestBadLinks(t *testing.T) {
 	files, err := filepath.Glob("testdata/bad-links/*.yaml")
 	if err != nil || len(files) == 0 {
@@ -19,7 +19,7 @@ func TestBadLinks(t *testing.T) {
 	for _, f := range files {
 		t.Run(filepath.Base(f), func(t *testing.T) {
 			want := fixtureWant(t, f)
-			_, err := loadLinks(f)
+			_, err := Load(f)
 			if err == nil {
 				t.Fatalf("loaded; want an error with %q", want)
 			}
@@ -68,7 +68,7 @@ links:
 	if err := os.WriteFile(path, []byte(data), 0o644); err != nil {
 		t.Fatal(err)
 	}
-	lf, err := loadLinks(path)
+	lf, err := Load(path)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -97,10 +97,10 @@ func FuzzParseLinks(f *testing.F) {
 	} {
 		f.Add([]byte(s))
 	}
-	cli.LookupNames = false
-	f.Cleanup(func() { cli.LookupNames = true })
+	endpoint.LookupNames = false
+	f.Cleanup(func() { endpoint.LookupNames = true })
 	f.Fuzz(func(t *testing.T, data []byte) {
-		lf, err := parseLinks(data, "fuzz.yaml", "/nowhere")
+		lf, err := Parse(data, "fuzz.yaml", "/nowhere")
 		if err == nil && len(lf.Links) == 0 {
 			t.Fatal("accepted a file without links")
 		}

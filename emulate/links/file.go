@@ -1,44 +1,22 @@
-package main
-
-// The links file of `impair run --links FILE`: several rigs' links relayed
-// by one process, with one metrics endpoint where every link's relay
-// metrics carry the constant label link="NAME".
-//
-//	metrics: 127.0.0.1:9471          # optional; the --metrics flag overrides it
-//	links:
-//	  - name: conveyor               # required, unique, [a-z0-9_-]+
-//	    listen: 127.0.0.1:7001       # required
-//	    controller: 127.0.0.1:7101   # required
-//	    actuator: 127.0.0.1:7201     # optional, like the flags: sensor, relock_after, controller_bind, tap
-//	    profile: conveyor.yaml       # exactly one of profile and scenario
-//	    scenario: conveyor-soak.yaml #   (paths relative to this file)
-//	    seed: 11                     # optional
-//	    record: conveyor.csv         # optional
-//	    trip_listen: 127.0.0.1:7401  # optional, with on_trip (clean|stop_commands)
-//	    trip_from: 127.0.0.1         #   and trip_from (default: loopback only)
-//
-// Names, the local ports the process binds (listen, controller_bind, trip_listen)
-// and record paths must be unique across the file.
+package links
 
 import (
 	"errors"
 	"fmt"
-	"net"
 	"net/netip"
 	"path/filepath"
 	"regexp"
-	"strings"
 	"time"
 
-	"rigwire/cmd/internal/cli"
 	"rigwire/emulate"
+	"rigwire/emulate/endpoint"
 	"rigwire/emulate/trip"
 	"rigwire/profiles/yamlpos"
 )
 
-// linkSpec is one rig's link as the relay process runs it: from the flags
+// Spec is one rig's link as the relay process runs it: from the flags
 // of `impair run` (Name "") or from one entry of a links file.
-type linkSpec struct {
+type Spec struct {
 	Name string // "" in single-link mode: metrics without a link label
 	Line int    // line of the entry in the links file (0: flags)
 
@@ -64,11 +42,11 @@ type linkSpec struct {
 	OnTrip     trip.Action
 }
 
-// linksFile is a parsed links file.
-type linksFile struct {
+// File is a parsed links file.
+type File struct {
 	File    string
 	Metrics string // "" when not given
-	Links   []linkSpec
+	Links   []Spec
 }
 
 var linkName = regexp.MustCompile(`^[a-z0-9_-]+$`)
@@ -76,17 +54,19 @@ var linkName = regexp.MustCompile(`^[a-z0-9_-]+$`)
 // maxLinks bounds the links of one file (each holds sockets and goroutines).
 const maxLinks = 256
 
-// loadLinks reads and validates a links file. Paths inside it are relative
+// Load reads and validates a links file. Paths inside it are relative
 // to its directory. Errors read "file:line: key: what was expected".
-func loadLinks(path string) (*linksFile, error) {
+func Load(path string) (*File, error) {
 	data, err := yamlpos.ReadInputFile(path, "links file", yamlpos.MaxYAMLBytes)
 	if err != nil {
 		return nil, err
 	}
-	return parseLinks(data, path, filepath.Dir(path))
+	return Parse(data, path, filepath.Dir(path))
 }
 
-func parseLinks(data []byte, file, dir string) (*linksFile, error) {
+// Parse validates a links file held in memory: file names it in
+// messages, dir is the directory its relative paths are resolved against.
+func Parse(data []byte, file, dir string) (*File, error) {
 	root, err := yamlpos.Document(file, data)
 	if err != nil {
 		return nil, err
@@ -95,14 +75,14 @@ func parseLinks(data []byte, file, dir string) (*linksFile, error) {
 	if err != nil {
 		return nil, err
 	}
-	lf := &linksFile{File: file}
+	lf := &File{File: file}
 	if f, ok := keys["metrics"]; ok {
 		s, err := f.Text()
 		if err != nil {
 			return nil, f.Errorf("want HOST:PORT or \"off\", got %s", f.Got())
 		}
-		if err := cli.CheckMetricsAddr(s); err != nil {
-			return nil, f.Errorf("%s", strings.TrimPrefix(err.Error(), "--metrics: "))
+		if err := endpoint.CheckMetrics(s); err != nil {
+			return nil, f.Errorf("%v", err)
 		}
 		lf.Metrics = s
 	}
@@ -160,13 +140,13 @@ func parseLinks(data []byte, file, dir string) (*linksFile, error) {
 	return lf, nil
 }
 
-func parseLink(it yamlpos.Field, dir string) (linkSpec, error) {
+func parseLink(it yamlpos.Field, dir string) (Spec, error) {
 	keys, err := it.Mapping("name", "listen", "controller", "actuator", "sensor", "relock_after", "controller_bind", "tap",
 		"profile", "scenario", "seed", "record", "trip_listen", "trip_from", "on_trip")
 	if err != nil {
-		return linkSpec{}, err
+		return Spec{}, err
 	}
-	l := linkSpec{Line: it.Line()}
+	l := Spec{Line: it.Line()}
 	f, ok := keys["name"]
 	if !ok {
 		return l, it.Errorf("name: missing (a unique name of a-z, 0-9, _ and -)")
@@ -186,7 +166,7 @@ func parseLink(it yamlpos.Field, dir string) (linkSpec, error) {
 		if err != nil {
 			return f.Errorf("want HOST:PORT, got %s", f.Got())
 		}
-		ap, err := cli.ResolveAddr(s)
+		ap, err := endpoint.Resolve(s)
 		if err != nil {
 			return f.Errorf("%v", err)
 		}
@@ -210,7 +190,7 @@ func parseLink(it yamlpos.Field, dir string) (linkSpec, error) {
 	if f, ok := keys["sensor"]; ok {
 		s, err := f.Text()
 		if err == nil {
-			l.Sensor, err = cli.ParseSender(s, "the rig's sensor node", cli.ResolveAddr)
+			l.Sensor, err = endpoint.ParseSender(s, "the rig's sensor node", endpoint.Resolve)
 		}
 		if err != nil {
 			return l, f.Errorf("%v", err)
@@ -227,7 +207,7 @@ func parseLink(it yamlpos.Field, dir string) (linkSpec, error) {
 		}
 		l.RelockAfter = d
 	}
-	if err := checkFamilies(l, func(key string) string { return key }); err != nil {
+	if err := CheckFamilies(l, func(key string) string { return key }); err != nil {
 		return l, it.Errorf("%v", err)
 	}
 	if l.Controller.Port() == 0 {
@@ -279,7 +259,7 @@ func parseLink(it yamlpos.Field, dir string) (linkSpec, error) {
 	if f, ok := keys["trip_from"]; ok {
 		s, err := f.Text()
 		if err == nil {
-			l.TripFrom, err = resolveHost(s)
+			l.TripFrom, err = endpoint.ResolveHost(s)
 		}
 		if err != nil {
 			return l, f.Errorf("want a host (an address or a name), got %s", f.Got())
@@ -295,32 +275,10 @@ func parseLink(it yamlpos.Field, dir string) (linkSpec, error) {
 	return l, nil
 }
 
-// resolveHost turns a host (an address or a name) into one address.
-func resolveHost(s string) (netip.Addr, error) {
-	if a, err := netip.ParseAddr(s); err == nil {
-		return a.Unmap(), nil
-	}
-	if s == "" {
-		return netip.Addr{}, fmt.Errorf("want a host, got nothing")
-	}
-	if !cli.LookupNames {
-		return netip.Addr{}, fmt.Errorf("want a host address, got %q", s)
-	}
-	ia, err := net.ResolveIPAddr("ip", s)
-	if err != nil {
-		return netip.Addr{}, fmt.Errorf("want a host: %w", err)
-	}
-	a, ok := netip.AddrFromSlice(ia.IP)
-	if !ok {
-		return netip.Addr{}, fmt.Errorf("want a host, got %q", s)
-	}
-	return a.Unmap(), nil
-}
-
-// checkFamilies refuses a link whose addresses one socket would have to
+// CheckFamilies refuses a link whose addresses one socket would have to
 // serve in two families (emulate.CheckFamilies); name spells a key (a
 // flag, or a key of the links file).
-func checkFamilies(l linkSpec, name func(key string) string) error {
+func CheckFamilies(l Spec, name func(key string) string) error {
 	err := emulate.CheckFamilies(emulate.Config{Listen: l.Listen, Actuator: l.Actuator, Sensor: l.Sensor,
 		Controller: l.Controller, ControllerBind: l.ControllerBind})
 	var fe *emulate.FamilyError
