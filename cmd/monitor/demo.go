@@ -160,7 +160,7 @@ func cmdDemo(args []string, stdout, stderr io.Writer) error {
 	// Shutdown order: the node stops after its last period (or on a
 	// signal), then the relay drains and the progress stops, then the
 	// controller.
-	sigCtx, stopSignals := signalContext()
+	sigCtx, stopSignals := cli.SignalContext()
 	defer stopSignals()
 	relayCtx, stopRelay := context.WithCancel(context.Background())
 	ctlCtx, stopCtl := context.WithCancel(context.Background())

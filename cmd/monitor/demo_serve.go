@@ -70,7 +70,7 @@ func cmdServe(args []string, stdout, stderr io.Writer) error {
 	fmt.Fprint(stderr, cautions(serveCaution))
 	log.Info("relaying and monitoring", "loop", loop.File, "listen", b.relay.ListenAddr().String(),
 		"controller", *bf.controller, "metrics", b.url, "seed", b.relay.Seed())
-	ctx, cancel := signalContext()
+	ctx, cancel := cli.SignalContext()
 	defer cancel()
 	if dur.s > 0 {
 		var stop context.CancelFunc
@@ -93,7 +93,7 @@ func cmdServe(args []string, stdout, stderr io.Writer) error {
 	} else if err := os.WriteFile(*bf.summary, out, 0o644); err != nil {
 		return fmt.Errorf("--summary: %w", err)
 	}
-	fmt.Fprintln(stderr, verdictLine(s))
+	fmt.Fprintln(stderr, s.VerdictLine())
 	if s.Trip != nil {
 		return cli.Exit{Code: exitcode.OfTrip(s), Msg: fmt.Sprintf("safety trip: %s %.5g above the bound %.5g; relay action %s",
 			s.Trip.Reason, s.Trip.Value, s.Trip.Bound, s.Trip.Action)}

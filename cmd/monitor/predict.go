@@ -13,7 +13,6 @@ import (
 	"rigwire/estimate"
 	"rigwire/estimate/report"
 	"rigwire/profiles"
-	"rigwire/profiles/laws"
 )
 
 const predictHead = `usage: monitor predict LOOP.yaml [--json] [--strict] [--no-margin]
@@ -244,7 +243,3 @@ func predictStep(loop *profiles.Loop, steps int, plotFile string, stdout io.Writ
 	}
 	return nil
 }
-
-// fmtDuration writes a time in the commands' lines (laws.Terse): "0"
-// for none, "-" for one that does not exist.
-var fmtDuration = laws.Terse.Format

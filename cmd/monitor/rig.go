@@ -1,19 +1,12 @@
 package main
 
 import (
-	"context"
-	"errors"
-	"flag"
 	"fmt"
 	"io"
 	"log/slog"
 	"os"
-	"os/signal"
-	"rigwire/cmd/internal/cli"
-	"rigwire/profiles/laws"
-	"rigwire/profiles/yamlpos"
-	"syscall"
 
+	"rigwire/cmd/internal/cli"
 	"rigwire/cmd/internal/exitcode"
 	"rigwire/emulate/rig"
 	"rigwire/emulate/trip"
@@ -73,47 +66,6 @@ func cmdRig(args []string, stdout, stderr io.Writer) error {
 	return cli.Usagef("unknown rig command %q: want node or controller", args[0])
 }
 
-// durationFlag is a duration flag in the loop files' spelling: a Go
-// duration or a plain number of seconds.
-type durationFlag struct{ s float64 }
-
-// String spells the value in seconds with its unit, as the help's
-// "(default 60s)" shows it once.
-func (f *durationFlag) String() string { return laws.Seconds{Unit: "s", Digits: -1}.Format(f.s) }
-func (f *durationFlag) Set(s string) error {
-	v, err := yamlpos.ParseDuration(s)
-	if err != nil || v < 0 {
-		return fmt.Errorf("want a duration ≥ 0 (\"90s\", \"2m\" or seconds), got %q", s)
-	}
-	f.s = v
-	return nil
-}
-
-// rigStart reads --start for a loop.
-func rigStart(loop *profiles.Loop, mode string, log *slog.Logger) (rig.Start, error) {
-	switch mode {
-	case "rest":
-		return rig.RestStart(loop), nil
-	case "steady":
-		st, err := rig.SteadyStart(loop)
-		if err == rig.ErrNoSteadyState {
-			log.Warn("starting at rest", "reason", err.Error())
-			return rig.RestStart(loop), nil
-		}
-		if err != nil {
-			// The steady state is the prediction's: a loop it cannot use.
-			return st, cli.BadInput(fmt.Errorf("%s: %w", loop.File, err))
-		}
-		return st, nil
-	}
-	return rig.Start{}, cli.Usagef("--start: want steady or rest, got %q", mode)
-}
-
-// signalContext ends on SIGINT or SIGTERM.
-func signalContext() (context.Context, context.CancelFunc) {
-	return signal.NotifyContext(context.Background(), os.Interrupt, syscall.SIGTERM)
-}
-
 func cmdRigNode(args []string, stderr io.Writer) error {
 	fs := cli.NewFlags("monitor rig node", rigNodeHead, rigExits)
 	cautions := cautionsFlag(fs)
@@ -149,7 +101,7 @@ func cmdRigNode(args []string, stderr io.Writer) error {
 	fmt.Fprint(stderr, cautions(rigCaution))
 	log.Info("rig node running", "loop", loop.File, "listen", node.LocalAddr().String(),
 		"relay", relay.Addr.String(), "period", loop.Period, "periods", cfg.Periods, "start", *start, "seed", *seed)
-	ctx, cancel := signalContext()
+	ctx, cancel := cli.SignalContext()
 	defer cancel()
 	if err := node.Run(ctx); err != nil {
 		return err
@@ -183,7 +135,7 @@ func cmdRigController(args []string, stderr io.Writer) error {
 	fmt.Fprint(stderr, cautions(rigCaution))
 	log.Info("rig controller running", "loop", loop.File, "listen", ctl.LocalAddr().String(),
 		"compute_delay", loop.ComputeDelay, "start", *start)
-	ctx, cancel := signalContext()
+	ctx, cancel := cli.SignalContext()
 	defer cancel()
 	if err := ctl.Run(ctx); err != nil {
 		return err
@@ -222,15 +174,4 @@ func rigSetup(fs *cli.Flags, args []string, loopPath, start *string, addrName st
 	}
 	st, err = rigStart(loop, *start, log)
 	return loop, st, log, err
-}
-
-// parseErr turns a flag parse error into a usage error; a help request
-// and an error flags.Parse has already classified pass as they are.
-func parseErr(err error) error {
-	var he cli.Help
-	var ue cli.UsageError
-	if err == nil || errors.As(err, &he) || errors.As(err, &ue) || errors.Is(err, flag.ErrHelp) {
-		return err
-	}
-	return cli.UsageError{Msg: err.Error()}
 }

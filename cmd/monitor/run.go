@@ -1,17 +1,11 @@
 package main
 
 import (
-	"context"
-	"encoding/json"
 	"fmt"
 	"io"
 	"log/slog"
 	"math"
 	"net"
-	"net/netip"
-	"os"
-	"path/filepath"
-	"strings"
 	"time"
 
 	"github.com/prometheus/client_golang/prometheus"
@@ -23,8 +17,8 @@ import (
 	"rigwire/emulate/trip"
 	"rigwire/estimate"
 	"rigwire/estimate/engine"
+	"rigwire/estimate/report"
 	"rigwire/profiles"
-	"rigwire/profiles/yamlpos"
 )
 
 // runCaution is printed when `monitor run` starts (same family as the
@@ -169,19 +163,11 @@ func cmdRun(args []string, stdout, stderr io.Writer) error {
 	if tripTo.Given && !loop.Trip.Enabled {
 		return cli.Usagef("--trip-to: %s has no trip section (the bounds that fire the trip)", *loopPath)
 	}
-	if loop.Trip.Enabled {
-		var tripConn *net.UDPConn
-		if tripTo.Given {
-			// Dialled before the run so that the request leaves at once.
-			if tripConn, err = net.DialUDP("udp", nil, net.UDPAddrFromAddrPort(tripTo.Addr)); err != nil {
-				return fmt.Errorf("--trip-to %s: %w", tripTo.Addr, err)
-			}
-			defer tripConn.Close()
-		}
-		if err := mon.SetTrip(loop.Trip, func(ev trip.Event) { sendTrip(tripConn, ev, log) }); err != nil {
-			return cli.BadInput(fmt.Errorf("%s: %w", *loopPath, err))
-		}
+	closeTrip, err := armRunTrip(mon, loop, tripTo, log)
+	if err != nil {
+		return err
 	}
+	defer closeTrip()
 
 	if from.Given {
 		mon.SetSource(from.Addr)
@@ -209,7 +195,7 @@ func cmdRun(args []string, stdout, stderr io.Writer) error {
 	defer srv.Close()
 
 	fmt.Fprint(stderr, cautions(runCaution))
-	printPrediction(stderr, pred)
+	report.WritePredictionLine(stderr, pred)
 	fromAttr := "any source"
 	if from.Given {
 		fromAttr = from.Addr.String()
@@ -224,34 +210,26 @@ func cmdRun(args []string, stdout, stderr io.Writer) error {
 			"listen", listen.Addr.String())
 	}
 
-	// Shutdown order: the signal or the duration ends ctx; Serve closes the
-	// socket and returns; the progress goroutine ends with ctx; then the
+	// Shutdown order: the signal or the duration ends the serving; Serve
+	// closes the socket and returns; the status lines stop; then the
 	// metrics server stops and the summary is written from the final
 	// state.
-	ctx, cancel := signalContext()
+	ctx, cancel := cli.SignalContext()
 	defer cancel()
-	if duration.s > 0 {
-		var c2 context.CancelFunc
-		ctx, c2 = context.WithTimeout(ctx, time.Duration(duration.s*1e9))
-		defer c2()
-	}
-	progDone := make(chan struct{})
-	go func() {
-		defer close(progDone)
-		showProgress(ctx, mon, time.Duration(progress.s*1e9), stderr)
-	}()
-	serveErr := mon.Serve(ctx, conn)
+	serveErr := mon.ServeFor(ctx, conn, time.Duration(duration.s*1e9), time.Duration(progress.s*1e9), stderr)
 	cancel()
-	<-progDone
 	srv.Close()
 	sum := mon.Summary()
-	if err := writeRunSummary(*summaryPath, sum, stdout); err != nil {
-		return err
+	if err := engine.WriteSummary(stdout, *summaryPath, sum); err != nil {
+		if *summaryPath == "" || *summaryPath == "-" {
+			return err
+		}
+		return fmt.Errorf("--summary: %w", err)
 	}
 	if serveErr != nil {
 		return fmt.Errorf("receiving: %w", serveErr)
 	}
-	fmt.Fprintln(stderr, verdictLine(sum))
+	fmt.Fprintln(stderr, sum.VerdictLine())
 	if code := exitcode.OfTrip(sum); code != 0 {
 		return cli.Exit{Code: code}
 	}
@@ -259,130 +237,4 @@ func cmdRun(args []string, stdout, stderr io.Writer) error {
 		return cli.Exit{Code: code}
 	}
 	return nil
-}
-
-// sendTrip logs the trip and, when conn is not nil, sends the trip request.
-func sendTrip(conn *net.UDPConn, ev trip.Event, log *slog.Logger) {
-	to := "nowhere (no --trip-to)"
-	sent := 0
-	if conn != nil {
-		to = conn.RemoteAddr().String()
-		sent = trip.Send(conn, ev.Reason, log)
-	}
-	log.Warn("SAFETY TRIP fired", "reason", ev.Reason, "value", ev.Value, "bound", ev.Bound,
-		"phase", ev.Phase, "action", ev.Action, "request_to", to, "copies_sent", sent)
-}
-
-// parseWindows reads --windows.
-func parseWindows(s string) ([]time.Duration, error) {
-	if strings.TrimSpace(s) == "" || s == "none" {
-		return []time.Duration{}, nil
-	}
-	var out []time.Duration
-	for _, f := range strings.Split(s, ",") {
-		v, err := yamlpos.ParseDuration(strings.TrimSpace(f))
-		if err != nil || !(v > 0) {
-			return nil, cli.Usagef("--windows: want comma-separated durations > 0 (\"1m,10m\"), got %q", f)
-		}
-		out = append(out, time.Duration(v*1e9))
-	}
-	return out, nil
-}
-
-func printPrediction(w io.Writer, pr *estimate.Prediction) {
-	if !pr.MeanSquareStable || pr.Error == nil {
-		fmt.Fprintf(w, "predicted: %s; no predicted E[eᵀe] to compare with\n", estimate.DescribeStability(pr))
-		return
-	}
-	fmt.Fprintf(w, "predicted: E[eᵀe] = %.6g, %s", pr.Error.SecondMoment, estimate.DescribeStability(pr))
-	if !math.IsNaN(pr.LossMargin) {
-		fmt.Fprintf(w, ", loss margin %.4f", pr.LossMargin)
-	}
-	fmt.Fprintln(w)
-}
-
-// showProgress writes a status line every interval until ctx ends.
-func showProgress(ctx context.Context, mon *engine.Monitor, every time.Duration, w io.Writer) {
-	if every == 0 {
-		<-ctx.Done()
-		return
-	}
-	t := time.NewTicker(every)
-	defer t.Stop()
-	for {
-		select {
-		case <-ctx.Done():
-			return
-		case <-t.C:
-			fmt.Fprintln(w, mon.Progress().String())
-		}
-	}
-}
-
-// verdictLine is the run's verdict with the numbers behind it and why.
-func verdictLine(s *engine.Summary) string {
-	f := func(p *float64) string {
-		if p == nil {
-			return "-"
-		}
-		return fmt.Sprintf("%.6g", *p)
-	}
-	return fmt.Sprintf("verdict %s: measured E[eᵀe] %s, %g %% CI [%s, %s] from %d samples; predicted %s; tolerance %g — %s",
-		s.Verdict, f(s.ErrorSecondMoment), 100*s.Level, f(s.CILow), f(s.CIHigh), s.Samples, f(s.PredictedSecondMoment), s.Tolerance,
-		s.VerdictReason)
-}
-
-// writeRunSummary writes the JSON summary to path (atomically, through a
-// temporary file in the same directory) or to stdout.
-func writeRunSummary(path string, s *engine.Summary, stdout io.Writer) error {
-	data, err := json.MarshalIndent(s, "", "  ")
-	if err != nil {
-		return err
-	}
-	data = append(data, '\n')
-	if path == "" || path == "-" {
-		_, err := stdout.Write(data)
-		return err
-	}
-	tmp, err := os.CreateTemp(filepath.Dir(path), ".summary-*")
-	if err != nil {
-		return fmt.Errorf("--summary: %w", err)
-	}
-	if err := tmp.Chmod(0o644); err != nil {
-		tmp.Close()
-		os.Remove(tmp.Name())
-		return fmt.Errorf("--summary: %w", err)
-	}
-	if _, err := tmp.Write(data); err != nil {
-		tmp.Close()
-		os.Remove(tmp.Name())
-		return fmt.Errorf("--summary: %w", err)
-	}
-	if err := tmp.Close(); err != nil {
-		os.Remove(tmp.Name())
-		return fmt.Errorf("--summary: %w", err)
-	}
-	if err := os.Rename(tmp.Name(), path); err != nil {
-		os.Remove(tmp.Name())
-		return fmt.Errorf("--summary: %w", err)
-	}
-	return nil
-}
-
-// mixedFamilies reports whether a socket bound to listen can never
-// receive from src: one is IPv4 and the other IPv6, and listen is not an
-// unspecified address (which a dual-stack socket serves for both).
-func mixedFamilies(listen, src netip.Addr) bool {
-	if listen.IsUnspecified() {
-		return false
-	}
-	return listen.Unmap().Is4() != src.Unmap().Is4()
-}
-
-// family is "4" or "6".
-func family(a netip.Addr) string {
-	if a.Unmap().Is4() {
-		return "4"
-	}
-	return "6"
 }

@@ -4,7 +4,6 @@ import (
 	"fmt"
 	"io"
 	"os"
-	"strconv"
 	"time"
 
 	"rigwire/cmd/internal/cli"
@@ -112,27 +111,4 @@ func writePaths(name string, loop *profiles.Loop, res *estimate.SimResult, stdou
 		w = f
 	}
 	return report.WritePathsCSV(w, loop, res)
-}
-
-// optionalCount is a count flag whose default is computed from other
-// flags: unset, the help shows only the usage's own "(default: …)".
-type optionalCount struct {
-	n   int
-	set bool
-}
-
-func (c *optionalCount) String() string {
-	if c == nil || !c.set {
-		return ""
-	}
-	return strconv.Itoa(c.n)
-}
-
-func (c *optionalCount) Set(s string) error {
-	v, err := strconv.Atoi(s)
-	if err != nil || v < 0 {
-		return fmt.Errorf("want a whole number ≥ 0, got %q", s)
-	}
-	c.n, c.set = v, true
-	return nil
 }

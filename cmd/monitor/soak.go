@@ -2,22 +2,17 @@ package main
 
 import (
 	"context"
-	"encoding/json"
 	"fmt"
 	"io"
 	"log/slog"
-	"math"
-	"os"
-	"path/filepath"
 	"strings"
 	"time"
-	"unicode/utf8"
 
 	"rigwire/cmd/internal/cli"
 	"rigwire/cmd/internal/exitcode"
 	"rigwire/emulate/trip"
-	"rigwire/estimate"
 	"rigwire/estimate/engine"
+	"rigwire/estimate/report"
 	"rigwire/profiles"
 )
 
@@ -136,7 +131,7 @@ func cmdSoak(args []string, stdout, stderr io.Writer) error {
 		"loop", loop.File, "listen", b.relay.ListenAddr().String(), "controller", *bf.controller, "metrics", b.url,
 		"seed", b.relay.Seed())
 
-	ctx, cancel := signalContext()
+	ctx, cancel := cli.SignalContext()
 	defer cancel()
 	relayCtx, stopRelay := context.WithCancel(ctx)
 	defer stopRelay()
@@ -146,14 +141,14 @@ func cmdSoak(args []string, stdout, stderr io.Writer) error {
 	}
 	// The report's per-phase counts: the relay's counters at each phase
 	// start, at the trip and at the end, and the trip's own window.
-	rec := newSoakRecorder(b)
+	rec := report.NewRecorder(b.mon, b.relay.Stats)
 	benchDone := make(chan error, 1)
 	// The relay runs from here, on the first phase's profile, while the
 	// phases are predicted: a rig that already sends finds it listening.
 	go func() { benchDone <- b.run(relayCtx, stderr, 0) }()
 	log.Info("relaying on the first phase's profile while the scenario's steps are predicted; the scenario starts when they are ready",
 		"steps", len(steps))
-	preds, err := predictSteps(loop, steps, stderr)
+	preds, err := engine.PredictSteps(loop, steps, stderr)
 	if err != nil {
 		stopRelay()
 		<-benchDone
@@ -167,16 +162,11 @@ func cmdSoak(args []string, stdout, stderr io.Writer) error {
 		}
 	}
 
-	onStep := func(st profiles.ScenarioStep) {
-		ph := sc.Phases[st.Phase]
-		if st.Frac == 0 {
-			rec.phaseStart(st.Phase)
-			b.mon.StartPhase(st.Phase, ph.Name, preds[st.Predict], ph.Settle, ph.Check)
-			log.Info("phase", "index", st.Phase+1, "of", len(sc.Phases), "name", ph.Name, "duration", ph.Duration.String())
-			return
-		}
-		b.mon.UpdatePrediction(preds[st.Predict])
-	}
+	onStep := b.mon.StepFunc(sc, preds, func(k int) {
+		rec.PhaseStart(k)
+		ph := sc.Phases[k]
+		log.Info("phase", "index", k+1, "of", len(sc.Phases), "name", ph.Name, "duration", ph.Duration.String())
+	})
 	playDone := make(chan error, 1)
 	started := time.Now()
 	go func() { playDone <- b.relay.Play(ctx, names, steps, sc.Total(), onStep) }()
@@ -187,7 +177,7 @@ func cmdSoak(args []string, stdout, stderr io.Writer) error {
 		defer t.Stop()
 		tick = t.C
 	}
-	twTick := time.NewTicker(tripWindowEvery)
+	twTick := time.NewTicker(report.TripWindowEvery)
 	defer twTick.Stop()
 	var playErr error
 	var afterTripC <-chan time.Time
@@ -199,15 +189,15 @@ wait:
 			finished = playErr == nil
 			break wait
 		case <-tripped:
-			rec.tripped()
+			rec.Tripped()
 			tripped = nil
 			afterTripC = time.After(*afterTrip)
 		case <-afterTripC:
 			break wait
 		case <-tick:
-			fmt.Fprintln(stderr, soakProgress(sc, b.mon, time.Since(started)))
+			fmt.Fprintln(stderr, report.SoakProgress(sc, b.mon, time.Since(started)))
 		case <-twTick.C:
-			rec.sampleTripWindow()
+			rec.SampleTripWindow()
 		}
 	}
 	if sim != nil {
@@ -217,8 +207,8 @@ wait:
 	if err := <-benchDone; err != nil {
 		return err
 	}
-	rec.sampleTripWindow()
-	rec.finish()
+	rec.SampleTripWindow()
+	rec.Finish()
 	b.mon.EndPhases(!finished)
 	s := b.mon.Summary()
 	code := exitcode.OfSoak(s)
@@ -229,177 +219,7 @@ wait:
 			code = exitcode.Inconclusive
 		}
 	}
-	run := &soakRun{b: b, loop: loop, written: written, played: sc, steps: steps, timeScale: *timeScale,
-		started: started, ended: time.Now(), rec: rec}
-	prov := soakProvenance(run)
-	out, err := json.MarshalIndent(soakSummary{Summary: s, Provenance: prov}, "", "  ")
-	if err != nil {
-		return err
-	}
-	out = append(out, '\n')
-	if *bf.summary == "" {
-		if _, err := stdout.Write(out); err != nil {
-			return err
-		}
-	} else if err := os.WriteFile(*bf.summary, out, 0o644); err != nil {
-		return fmt.Errorf("--summary: %w", err)
-	}
-	soakTable(stderr, s)
-	if *reportDir != "" {
-		files, err := writeSoakReport(*reportDir, run, s, prov, code)
-		if err != nil {
-			return fmt.Errorf("--report: %w", err)
-		}
-		fmt.Fprintf(stderr, "report: %s\n", filepath.Join(*reportDir, "report.html"))
-		log.Debug("report files", "files", files)
-	}
-	return soakExit(s, code, playErr)
-}
-
-// soakExit is the soak's exit: nil for 0, else the status with a message
-// naming the trip, the failed phases, or the phases that could not be
-// judged.
-func soakExit(s *engine.Summary, code int, playErr error) error {
-	list := func(verdicts ...string) string {
-		var out []string
-		for _, p := range s.Phases {
-			for _, v := range verdicts {
-				if p.Verdict == v {
-					out = append(out, fmt.Sprintf("%q (%s)", p.Name, p.Reason))
-				}
-			}
-		}
-		return strings.Join(out, ", ")
-	}
-	switch code {
-	case exitcode.OK:
-		return nil
-	case soakExitTripped:
-		return cli.Exit{Code: code, Msg: fmt.Sprintf("safety trip in phase %q: %s %.5g above the bound %.5g",
-			s.Trip.Phase, s.Trip.Reason, s.Trip.Value, s.Trip.Bound)}
-	case soakExitFailed:
-		return cli.Exit{Code: code, Msg: "failed phase " + list(engine.PhaseFail)}
-	case exitcode.Inconclusive:
-		msg := ""
-		if l := list(engine.PhaseInconclusive, engine.PhaseNotRun); l != "" {
-			msg = "no phase failed, but these could not be judged: " + l
-		}
-		if playErr != nil {
-			if msg != "" {
-				msg += "; "
-			}
-			msg += "interrupted before the scenario's end: " + playErr.Error()
-		}
-		return cli.Exit{Code: code, Msg: msg}
-	}
-	return cli.Exit{Code: code}
-}
-
-// predictSteps computes the prediction for each distinct profile the steps
-// predict with, showing how far it is.
-func predictSteps(loop *profiles.Loop, steps []profiles.ScenarioStep, progress io.Writer) (map[*profiles.Profile]*estimate.Prediction, error) {
-	preds := map[*profiles.Profile]*estimate.Prediction{}
-	var todo []*profiles.Profile
-	for _, st := range steps {
-		if _, ok := preds[st.Predict]; !ok {
-			preds[st.Predict] = nil
-			todo = append(todo, st.Predict)
-		}
-	}
-	last := time.Now()
-	for i, p := range todo {
-		l := *loop
-		l.Profile, l.ProfileFile = p, ""
-		pr, err := estimate.Predict(&l, estimate.PredictOptions{SkipMargin: true})
-		if err != nil {
-			return nil, fmt.Errorf("%s: prediction for step %d of the scenario: %w", loop.File, i+1, err)
-		}
-		preds[p] = pr
-		if time.Since(last) > time.Second || i+1 == len(todo) && len(todo) > 20 {
-			fmt.Fprintf(progress, "predicting: %d of %d scenario steps\n", i+1, len(todo))
-			last = time.Now()
-		}
-	}
-	return preds, nil
-}
-
-// soakProgress is the status line: phase, scenario time and the measurement.
-func soakProgress(sc *profiles.Scenario, mon *engine.Monitor, elapsed time.Duration) string {
-	phases := mon.Phases()
-	cur := "-"
-	if n := len(phases); n > 0 {
-		p := phases[n-1]
-		cur = fmt.Sprintf("phase %d/%d %s", p.Index+1, len(sc.Phases), p.Name)
-		if p.ErrorSecondMoment != nil && p.PredictedSecondMoment != nil {
-			cur += fmt.Sprintf(" (phase E[eᵀe] %.4g, predicted %.4g)", *p.ErrorSecondMoment, *p.PredictedSecondMoment)
-		}
-	}
-	total := sc.Total()
-	pct := 100 * math.Min(1, elapsed.Seconds()/total.Seconds())
-	return fmt.Sprintf("soak %s: %s of %s (%.0f %%), %s | %s", sc.Name, elapsed.Round(time.Second), total, pct, cur,
-		strings.TrimSpace(mon.Progress().String()))
-}
-
-// soakTable prints one line per phase: verdict, samples, measured with
-// its interval, predicted, a note (cut short by the trip, the prediction
-// outside the interval of a bound-only check) and the reason; then the
-// trip and what "inconclusive" means.
-func soakTable(w io.Writer, s *engine.Summary) {
-	val := func(p *float64) string {
-		if p == nil {
-			return "-"
-		}
-		return fmt.Sprintf("%.4g", *p)
-	}
-	noteWidth := len("note")
-	for _, p := range s.Phases {
-		noteWidth = max(noteWidth, utf8.RuneCountInString(phaseNote(p)))
-	}
-	fmt.Fprintf(w, "\n%-16s %-12s %8s %-12s %-22s %-12s %-*s %s\n", "phase", "verdict", "samples", "E[eᵀe]",
-		fmt.Sprintf("%g %% CI", 100*s.Level), "predicted", noteWidth, "note", "reason")
-	inconclusive := false
-	for _, p := range s.Phases {
-		ci := "-"
-		if p.CILow != nil && p.CIHigh != nil {
-			ci = fmt.Sprintf("[%.4g, %.4g]", *p.CILow, *p.CIHigh)
-		}
-		fmt.Fprintf(w, "%-16s %-12s %8d %-12s %-22s %-12s %-*s %s\n", p.Name, phaseVerdictText(p.Verdict), p.Samples,
-			val(p.ErrorSecondMoment), ci, val(p.PredictedSecondMoment), noteWidth, phaseNote(p), p.Reason)
-		inconclusive = inconclusive || p.Verdict == engine.PhaseInconclusive
-	}
-	if s.Trip != nil {
-		fmt.Fprintf(w, "\nsafety trip: %s %.5g above %.5g in phase %q after %.3fs; relay action %s; %d later samples not judged\n",
-			s.Trip.Reason, s.Trip.Value, s.Trip.Bound, s.Trip.Phase, s.Trip.Elapsed, s.Trip.Action, s.AfterTripSamples)
-	}
-	if inconclusive {
-		fmt.Fprintf(w, "\ninconclusive: the data could not tell agreement from disagreement; the rule: %s\n", engine.VerdictRule)
-	}
-}
-
-// phaseVerdictText is a phase's verdict as the table and the report show
-// it ("not run" for not_run).
-func phaseVerdictText(v string) string {
-	if v == engine.PhaseNotRun {
-		return "not run"
-	}
-	return v
-}
-
-// phaseNote is the table's note for a phase: how it was cut short, and a
-// prediction outside the measured interval of a check on the bound only.
-func phaseNote(p engine.PhaseResult) string {
-	var notes []string
-	switch p.CutShort {
-	case engine.CutByTrip:
-		notes = append(notes, fmt.Sprintf("cut by trip (%d after it)", p.AfterTripSamples))
-	case engine.CutInterrupt:
-		notes = append(notes, "cut short (interrupted)")
-	}
-	if p.PredictionOutside {
-		notes = append(notes, "prediction outside interval")
-	}
-	if len(notes) == 0 {
-		return "-"
-	}
-	return strings.Join(notes, "; ")
+	run := &report.Soak{Loop: loop, Written: written, Played: sc, Steps: steps, TimeScale: *timeScale,
+		Started: started, Ended: time.Now(), Seed: b.relay.Seed(), Monitor: b.mon, Recorder: rec}
+	return finishSoak(run, s, code, playErr, *bf.summary, *reportDir, stdout, stderr, log)
 }

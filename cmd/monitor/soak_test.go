@@ -74,7 +74,7 @@ func (r *soakRig) feed(n int, e float64) {
 // writeSoakReport does, without a relay, and returns its HTML as text.
 func writeReport(t *testing.T, s *engine.Summary, code int, verdict string) string {
 	t.Helper()
-	d := &report.Data{Title: "Soak: pump", Verdict: verdict, ExitCode: code, Phases: reportPhases(s.Phases)}
+	d := &report.Data{Title: "Soak: pump", Verdict: verdict, ExitCode: code, Phases: report.Phases(s.Phases)}
 	if tr := s.Trip; tr != nil {
 		d.Trip = &report.Trip{Reason: tr.Reason, Value: tr.Value, Bound: tr.Bound, Elapsed: tr.Elapsed, Phase: tr.Phase, Action: tr.Action}
 	}
@@ -114,7 +114,7 @@ func TestSoakTableAndReportTripped(t *testing.T) {
 	}
 
 	var tb bytes.Buffer
-	soakTable(&tb, s)
+	report.PhaseTable(&tb, s)
 	table := tb.String()
 	for _, want := range []*regexp.Regexp{
 		regexp.MustCompile(`(?m)^nominal\s+pass\s+40\s+0\.04\s+\[0\.04, 0\.04\]\s+0\.04\s+-\s+prediction 0\.04 inside`),
@@ -159,7 +159,7 @@ func TestSoakTableAndReportNotRun(t *testing.T) {
 		t.Fatalf("soak exit %d, want %d", code, exitcode.Inconclusive)
 	}
 	var tb bytes.Buffer
-	soakTable(&tb, s)
+	report.PhaseTable(&tb, s)
 	table := tb.String()
 	for _, want := range []*regexp.Regexp{
 		regexp.MustCompile(`(?m)^nominal\s+inconclusive\s+30\s+.*cut short \(interrupted\)\s+only 30 judged samples, want ≥ 400; cut short: the soak was interrupted$`),

@@ -130,6 +130,21 @@ func WritePrediction(w io.Writer, path string, loop *profiles.Loop, pr *estimate
 	tw.Flush()
 }
 
+// WritePredictionLine writes the prediction in one line, as monitor run
+// and the in-process commands print it before they measure: E[eᵀe], the
+// stability and the loss margin, or why there is nothing to compare with.
+func WritePredictionLine(w io.Writer, pr *estimate.Prediction) {
+	if !pr.MeanSquareStable || pr.Error == nil {
+		fmt.Fprintf(w, "predicted: %s; no predicted E[eᵀe] to compare with\n", estimate.DescribeStability(pr))
+		return
+	}
+	fmt.Fprintf(w, "predicted: E[eᵀe] = %.6g, %s", pr.Error.SecondMoment, estimate.DescribeStability(pr))
+	if !math.IsNaN(pr.LossMargin) {
+		fmt.Fprintf(w, ", loss margin %.4f", pr.LossMargin)
+	}
+	fmt.Fprintln(w)
+}
+
 // WriteSweepCSV writes a --vary sweep as CSV: the parameter's value,
 // E[eᵀe] (empty where not mean-square stable), ρ, whether stable and the
 // verdict, one row per point.

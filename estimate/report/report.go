@@ -12,12 +12,13 @@ import (
 	"math"
 	"os"
 	"path/filepath"
-	"rigwire/profiles/laws"
 	"sort"
 	"strings"
 	"time"
 
 	"gonum.org/v1/plot"
+
+	"rigwire/profiles/laws"
 )
 
 // Data is everything one soak report shows.

@@ -1,4 +1,4 @@
-package main
+package report
 
 import (
 	"crypto/sha256"
@@ -10,7 +10,6 @@ import (
 	"testing"
 
 	"rigwire/estimate/engine"
-	"rigwire/estimate/report"
 	"rigwire/profiles"
 )
 
@@ -26,8 +25,8 @@ func TestSoakInputsAndSources(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	ins := soakInputs(loop, sc)
-	roles := map[string]report.Input{}
+	ins := SoakInputs(loop, sc)
+	roles := map[string]Input{}
 	for _, in := range ins {
 		roles[in.Role] = in
 		b, err := os.ReadFile(in.Path)
@@ -67,9 +66,9 @@ func TestSoakInputsAndSources(t *testing.T) {
 // provenance beside them.
 func TestSoakSummaryProvenance(t *testing.T) {
 	s := &engine.Summary{Samples: 12, Verdict: "agree", Phases: []engine.PhaseResult{{Name: "nominal"}}}
-	prov := &report.Provenance{Version: "(devel)", Revision: "abc", CommandLine: []string{"monitor", "soak"}, TimeScale: 0.3,
-		Inputs: []report.Input{report.InputFromBytes("loop", "l.yaml", []byte("period: 10ms\n"))}}
-	b, err := json.Marshal(soakSummary{Summary: s, Provenance: prov})
+	prov := &Provenance{Version: "(devel)", Revision: "abc", CommandLine: []string{"monitor", "soak"}, TimeScale: 0.3,
+		Inputs: []Input{InputFromBytes("loop", "l.yaml", []byte("period: 10ms\n"))}}
+	b, err := json.Marshal(SoakSummary{Summary: s, Provenance: prov})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -92,13 +91,13 @@ func TestSoakSummaryProvenance(t *testing.T) {
 func TestHistMedian(t *testing.T) {
 	cases := []struct {
 		name string
-		h    report.Histogram
+		h    Histogram
 		want float64
 	}{
-		{"uniform", report.Histogram{Upper: []float64{0.001, 0.002, 0.003, 0.004, math.Inf(1)}, Counts: []float64{25, 25, 25, 25, 0}}, 0.002},
-		{"one bucket", report.Histogram{Upper: []float64{0.001, 0.002, math.Inf(1)}, Counts: []float64{0, 10, 0}}, 0.0015},
-		{"overflow", report.Histogram{Upper: []float64{0.001, math.Inf(1)}, Counts: []float64{1, 9}}, math.NaN()},
-		{"empty", report.Histogram{Upper: []float64{0.001}, Counts: []float64{0}}, math.NaN()},
+		{"uniform", Histogram{Upper: []float64{0.001, 0.002, 0.003, 0.004, math.Inf(1)}, Counts: []float64{25, 25, 25, 25, 0}}, 0.002},
+		{"one bucket", Histogram{Upper: []float64{0.001, 0.002, math.Inf(1)}, Counts: []float64{0, 10, 0}}, 0.0015},
+		{"overflow", Histogram{Upper: []float64{0.001, math.Inf(1)}, Counts: []float64{1, 9}}, math.NaN()},
+		{"empty", Histogram{Upper: []float64{0.001}, Counts: []float64{0}}, math.NaN()},
 	}
 	const tol = 1e-12
 	for _, c := range cases {
