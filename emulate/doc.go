@@ -38,7 +38,9 @@
 //   - control.go: changes of channel while running: Reload, the scenario
 //     steps Play applies, and the clean channel the safety trip puts a
 //     direction on (Trip itself is in trip.go).
-//   - play.go: a scenario's steps in time.
+//   - play.go: a scenario's steps in time; scenarioplay.go: a scenario
+//     file ready to play (ScenarioPlan: scaled, steps built, phases
+//     printed, a progress line while it plays).
 //   - metrics.go, stats.go, record.go: what became of every datagram, as
 //     Prometheus metrics, as a snapshot of the same counters, and as one
 //     record line each.
