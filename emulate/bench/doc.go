@@ -5,8 +5,9 @@
 // them. It delivers a [Bench]: the prediction it measures against, the
 // relay's and the monitor's resolved addresses, one Prometheus registry
 // with both's metrics (served by whoever runs the bench), a typed snapshot
-// of the relay's counts ([emulate.Stats]) and the side-by-side report of
-// predicted against measured.
+// of the relay's counts ([emulate.Stats]), the safety trip armed from the
+// monitor to the relay (rules and detection are emulate/trip's), and the
+// side-by-side report of predicted against measured.
 //
 // Place in the flow: loop and profile (profiles) → prediction (estimate) →
 // bench: relay (emulate) → in-process tap → monitor engine
