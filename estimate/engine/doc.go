@@ -20,9 +20,11 @@
 //	m.SetSource(tap)                    // optional: Serve decodes only datagrams from tap (port 0: any port of
 //	                                    // its address); the others are counted as strangers, never decoded
 //	err = m.Serve(ctx, conn)            // or: read datagrams from a net.PacketConn until ctx ends
+//	err = m.ServeFor(ctx, conn, d, every, w) // Serve for d (0: until ctx ends), a status line on w every interval
 //	p := m.Progress()                   // Progress{Elapsed, Samples, Measured, CILow, CIHigh, Predicted}; p.String() for a status line
 //	s := m.Summary()                    // Summary: the JSON summary of `monitor run` (json tags), with Verdict,
-//	                                    // VerdictReason and VerdictRule
+//	                                    // VerdictReason and VerdictRule; s.VerdictLine() says it in one line
+//	err = engine.WriteSummary(stdout, path, s) // indented JSON to stdout ("" or "-") or atomically to path
 //
 // Soaks, the safety trip and the history:
 //
@@ -30,6 +32,8 @@
 //	m.StartPhase(i, name, pred, settle, check) // closes the running phase, starts phase i (fresh estimate;
 //	                                           // samples arriving before now+settle are not judged)
 //	m.UpdatePrediction(pred)            // a ramp's step: later samples compare with pred
+//	preds, err := engine.PredictSteps(loop, steps, progress) // one prediction per distinct profile a scenario's steps predict with
+//	relay.Play(ctx, names, steps, total, m.StepFunc(sc, preds, atPhase)) // StartPhase / UpdatePrediction at each step
 //	m.EndPhases(interrupted)            // closes the running phase at the end of the soak (cut short when interrupted)
 //	ps := m.Phases()                    // []PhaseResult, judged: pass, fail, inconclusive, not_run; the running one "running"
 //	err = m.SetTrip(loop.Trip, fire)    // fire(trip.Event) once, from Feed, outside the monitor's lock

@@ -1,8 +1,3 @@
-// Package report writes a soak run's report as one self-contained HTML file
-// (plots embedded as data: URIs, CSS inline, no scripts, no outside assets)
-// plus the same plots as PNG files to attach to an e-mail.
-//
-// The caller converts its run results into Data; Write does the rest.
 package report
 
 import (
