@@ -6,6 +6,7 @@ import (
 	"strconv"
 
 	"rigwire/profiles"
+	"rigwire/profiles/laws"
 	"rigwire/profiles/trace"
 )
 
@@ -97,7 +98,7 @@ const BothDirections = "both"
 func (r *TraceFit) Draft(name, direction string) profiles.Draft {
 	best := r.Delays[0]
 	d := profiles.Draft{Name: name, Comments: []string{
-		fmt.Sprintf("fitted by impair fit from %s: %d probes, %s, probe interval %s s", filepath.Base(r.Trace.File), r.Loss.N, r.What, num(r.Interval)),
+		fmt.Sprintf("fitted by impair fit from %s: %d probes, %s, probe interval %s", filepath.Base(r.Trace.File), r.Loss.N, r.What, traceSeconds.Format(r.Interval)),
 		fmt.Sprintf("delay: %s chosen by AIC; KS D = %.4f, p = %.3g (conservative: parameters estimated)", best.Kind, best.KS, best.KSP),
 	}}
 	if r.DwellOK {
@@ -121,6 +122,11 @@ func (r *TraceFit) Draft(name, direction string) profiles.Draft {
 	}
 	return d
 }
+
+// traceSeconds writes the fit's times (the probe interval, the burst
+// channel's dwells) with the one seconds formatter: in seconds, six
+// significant digits as the profile's numbers, a space before the unit.
+var traceSeconds = laws.Seconds{Unit: "s", Digits: 6, Space: true}
 
 // num writes a number with 6 significant digits.
 func num(x float64) string { return strconv.FormatFloat(x, 'g', 6, 64) }

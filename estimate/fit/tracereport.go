@@ -13,7 +13,7 @@ import (
 // its parameters and standard errors, log-likelihood, AIC and KS check,
 // then the two loss models side by side and the one chosen.
 func (r *TraceFit) WriteReport(w io.Writer) {
-	fmt.Fprintf(w, "trace %s: %d probes, %d lost, probe interval %s s\n", r.Trace.File, r.Loss.N, r.Loss.Lost, num(r.Interval))
+	fmt.Fprintf(w, "trace %s: %d probes, %d lost, probe interval %s\n", r.Trace.File, r.Loss.N, r.Loss.Lost, traceSeconds.Format(r.Interval))
 	fmt.Fprintf(w, "\ndelays: %s (%s), %d samples; maximum likelihood, chosen by AIC = 2k − 2 ln L\n", r.What, r.Column, r.Loss.N-r.Loss.Lost)
 	tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', 0)
 	fmt.Fprintln(tw, "kind\tparameters (± standard error)\tln L\tAIC\tΔAIC\tKS D\tKS p")
@@ -57,7 +57,7 @@ func (r *TraceFit) WriteReport(w io.Writer) {
 	if l.Burst {
 		fmt.Fprintf(w, "  chosen: burst channel; long-run loss %.4g, mean burst %.3g probes", l.LongRunLoss, l.MeanBurst)
 		if r.DwellOK {
-			fmt.Fprintf(w, "; mean dwell good %s s, burst %s s", num(r.Good), num(r.Bad))
+			fmt.Fprintf(w, "; mean dwell good %s, burst %s", traceSeconds.Format(r.Good), traceSeconds.Format(r.Bad))
 		}
 		fmt.Fprintln(w)
 	} else {
