@@ -9,6 +9,8 @@ import (
 	"net"
 	"sync"
 	"time"
+
+	"rigwire/profiles/laws"
 )
 
 // Record is what the prober knows of one probe.
@@ -160,6 +162,11 @@ func (p *prober) receiveLoop() {
 	}
 }
 
+// progressSeconds writes the time since the start in the progress line
+// with the one seconds formatter: seconds with one decimal ("12.3s"),
+// right-aligned in six characters by the line's format.
+var progressSeconds = laws.Seconds{Unit: "s", Fixed: true, Digits: 1}
+
 // progressLoop reports on w each second until done closes.
 func (p *prober) progressLoop(w io.Writer, done <-chan struct{}) {
 	t := time.NewTicker(time.Second)
@@ -173,7 +180,7 @@ func (p *prober) progressLoop(w io.Writer, done <-chan struct{}) {
 			sent, replies := p.sent, p.replies
 			p.mu.Unlock()
 			pending := 100 * float64(sent-replies) / math.Max(1, float64(sent))
-			fmt.Fprintf(w, "probe: %5.1fs  %d sent  %d replies  %.2f %% not (yet) answered\n", time.Since(p.start).Seconds(), sent, replies, pending)
+			fmt.Fprintf(w, "probe: %6s  %d sent  %d replies  %.2f %% not (yet) answered\n", progressSeconds.Format(time.Since(p.start).Seconds()), sent, replies, pending)
 		}
 	}
 }
