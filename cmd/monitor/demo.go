@@ -130,7 +130,7 @@ func cmdDemo(args []string, stdout, stderr io.Writer) error {
 		return err
 	}
 	periods := max(1, int(dur.s/loop.Period+0.5))
-	node, err := rig.NewNode(rig.NodeConfig{Loop: loop, Relay: b.relay.ListenAddr(), Periods: periods,
+	node, err := rig.NewNode(rig.NodeConfig{Loop: loop, Relay: b.Addrs().Listen, Periods: periods,
 		Seed: *seed, Start: st, Logger: log})
 	if err != nil {
 		ctl.Run(canceled())
@@ -145,7 +145,7 @@ func cmdDemo(args []string, stdout, stderr io.Writer) error {
 	fmt.Fprintf(stdout, "\nloop      %s, period %s, setpoint %v\n", loopName, fmtDuration(loop.Period), loop.Setpoint)
 	fmt.Fprintf(stdout, "network   %s (relay seed %d)\n", prof.Name, b.relay.Seed())
 	fmt.Fprintf(stdout, "sockets   rig node %s → relay %s → controller %s, and back; the monitor taps the relay\n",
-		node.LocalAddr(), b.relay.ListenAddr(), ctl.LocalAddr())
+		node.LocalAddr(), b.Addrs().Listen, ctl.LocalAddr())
 	if b.url != "" {
 		fmt.Fprintf(stdout, "metrics   %s (relay and monitor)\n", b.url)
 	}
@@ -180,7 +180,7 @@ func cmdDemo(args []string, stdout, stderr io.Writer) error {
 		}
 	}
 	s := b.mon.Summary()
-	b.report(stdout, s)
+	b.WriteReport(stdout, s)
 	ns, cs := node.Stats(), ctl.Stats()
 	fmt.Fprintf(stdout, "rig:\n  %-24s samples %d, commands applied %d, late %d, sent late by the host (overruns) %d\n", "node", ns.Samples, ns.Applied, ns.Late, ns.Overruns)
 	fmt.Fprintf(stdout, "  %-24s samples used %d, stale %d\n", "controller", cs.Used, cs.Stale)
