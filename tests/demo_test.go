@@ -18,7 +18,7 @@ import (
 // times; over 60 simulated runs of that length (estimate.Simulate and the
 // engine's rule, tolerance 0.1) 31 agreed, 23 were inconclusive and 6 were
 // above or below. The verdict's statistics are tested in
-// cmd/monitor/engine (TestVerdictRates); here the plumbing is.
+// estimate/engine (TestVerdictRates); here the plumbing is.
 func TestDemo(t *testing.T) {
 	metrics := freePort(t, "tcp")
 	url := "http://" + metrics + "/metrics"
