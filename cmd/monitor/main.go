@@ -17,6 +17,15 @@
 // cmd/internal/exitcode: an error of its flags or of a file it reads
 // (cli.UsageError, cli.InputError) is 2, an error while running is 1, and the
 // verdicts have their own codes (cli.Exit).
+//
+// Place in the flow: the measuring side's command line. It only reads
+// flags, wires the libraries and turns their results into exit statuses:
+// predict and simulate → estimate (the prediction, the Monte Carlo) and
+// estimate/report (their text, CSV, JSON and plots); run → estimate/engine
+// on the relay's tap (trip requests through emulate/trip); rig →
+// emulate/rig; demo, serve and soak → emulate/bench (relay and monitor in
+// one process), soak's phases through estimate/engine and its report
+// through estimate/report.
 package main
 
 import (

@@ -127,4 +127,12 @@
 // sum squares of each sample's eᵀe, which stay finite under that bound,
 // so one absurd value never makes a run's estimate or interval infinite
 // or NaN.
+//
+// Place in the flow: profile → relay → tap → this engine → verdict →
+// metrics and report. It takes each sensor datagram the relay's tap sends
+// (Serve) or hands it in process (Feed), decodes it (profiles/datagram),
+// feeds the estimators (estimate/online), compares them with the
+// prediction (estimate), fires the safety trip (emulate/trip) and gives
+// the summary and the metrics; estimate/report draws what it measured,
+// the commands turn its verdicts into exit statuses.
 package engine
