@@ -1,0 +1,172 @@
+package tests
+
+import (
+	"bufio"
+	"go/parser"
+	"go/token"
+	"os"
+	"path/filepath"
+	"slices"
+	"strings"
+	"testing"
+)
+
+// The floor plan: the folders are the pipeline and cmd/ only wires it
+// (README.md, "How it fits together"; DEVELOPERS.md, the table). These
+// checks keep it so as the code grows.
+
+// topLevel is what the repository's top level holds, and nothing else
+// (besides .git and files git ignores).
+var topLevel = []string{".ci", ".gitignore", "DEVELOPERS.md", "README.md", "cmd", "deploy", "emulate",
+	"estimate", "go.mod", "go.sum", "profiles", "tests"}
+
+// Limits of the floor plan.
+const (
+	maxCmdShare       = 0.20 // of the repository's non-test Go lines under cmd/
+	maxCommandFileLen = 250  // lines of one non-test file of a command
+)
+
+// goFiles lists the repository's Go files (relative, slash-separated),
+// skipping .git and testdata.
+func goFiles(t *testing.T) []string {
+	t.Helper()
+	var out []string
+	err := filepath.WalkDir("..", func(path string, d os.DirEntry, err error) error {
+		if err != nil {
+			return err
+		}
+		if d.IsDir() {
+			if n := d.Name(); n == ".git" || n == "testdata" {
+				return filepath.SkipDir
+			}
+			return nil
+		}
+		if strings.HasSuffix(path, ".go") {
+			out = append(out, filepath.ToSlash(strings.TrimPrefix(path, "../")))
+		}
+		return nil
+	})
+	if err != nil {
+		t.Fatal(err)
+	}
+	return out
+}
+
+func countLines(t *testing.T, rel string) int {
+	t.Helper()
+	f, err := os.Open(filepath.Join("..", rel))
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer f.Close()
+	n := 0
+	sc := bufio.NewScanner(f)
+	sc.Buffer(make([]byte, 1<<20), 1<<20)
+	for sc.Scan() {
+		n++
+	}
+	if err := sc.Err(); err != nil {
+		t.Fatal(err)
+	}
+	return n
+}
+
+func TestLayoutTopLevel(t *testing.T) {
+	entries, err := os.ReadDir("..")
+	if err != nil {
+		t.Fatal(err)
+	}
+	var got []string
+	for _, e := range entries {
+		if n := e.Name(); n != ".git" && !ignoredTopLevel(n) {
+			got = append(got, n)
+		}
+	}
+	for _, n := range got {
+		if !slices.Contains(topLevel, n) {
+			t.Errorf("top level holds %q: the top level is %v; put it under the folder whose job it serves", n, topLevel)
+		}
+	}
+	for _, n := range topLevel {
+		if !slices.Contains(got, n) {
+			t.Errorf("top level lacks %q", n)
+		}
+	}
+}
+
+// ignoredTopLevel is what .gitignore keeps out of the repository at the
+// top (built binaries, a local bin/), so a working tree passes too.
+func ignoredTopLevel(name string) bool {
+	return name == "bin" || name == "impair" || name == "monitor" || strings.HasSuffix(name, ".test") ||
+		strings.HasSuffix(name, ".prof")
+}
+
+func TestLayoutCommandsOnlyWire(t *testing.T) {
+	var all, cmd int
+	for _, f := range goFiles(t) {
+		if strings.HasSuffix(f, "_test.go") {
+			continue
+		}
+		n := countLines(t, f)
+		all += n
+		if strings.HasPrefix(f, "cmd/") {
+			cmd += n
+		}
+		if (strings.HasPrefix(f, "cmd/impair/") || strings.HasPrefix(f, "cmd/monitor/")) && strings.Count(f, "/") == 2 && n > maxCommandFileLen {
+			t.Errorf("%s: %d lines; a command file holds flags and wiring, at most %d lines", f, n, maxCommandFileLen)
+		}
+	}
+	share := float64(cmd) / float64(all)
+	t.Logf("cmd/ holds %d of %d non-test Go lines (%.1f %%)", cmd, all, 100*share)
+	if share > maxCmdShare {
+		t.Errorf("cmd/ holds %.1f %% of the non-test Go lines, want at most %.0f %%: library code belongs under the folder whose job it serves", 100*share, 100*maxCmdShare)
+	}
+}
+
+// Every package has a doc comment that says what it delivers and where it
+// sits in the flow ("Place in the flow:"); under cmd/ only the two
+// commands are main packages, and every other package is in cmd/internal.
+func TestLayoutPackages(t *testing.T) {
+	dirs := map[string][]string{}
+	for _, f := range goFiles(t) {
+		if strings.HasSuffix(f, "_test.go") {
+			continue
+		}
+		dirs[filepath.ToSlash(filepath.Dir(f))] = append(dirs[filepath.ToSlash(filepath.Dir(f))], f)
+	}
+	for dir, files := range dirs {
+		fset := token.NewFileSet()
+		var name, doc string
+		for _, f := range files {
+			af, err := parser.ParseFile(fset, filepath.Join("..", f), nil, parser.PackageClauseOnly|parser.ParseComments)
+			if err != nil {
+				t.Fatal(err)
+			}
+			name = af.Name.Name
+			if af.Doc != nil {
+				doc += af.Doc.Text()
+			}
+		}
+		if dir == "." {
+			t.Errorf("Go files at the top level: %v", files)
+			continue
+		}
+		if doc == "" {
+			t.Errorf("%s: package %s has no doc comment", dir, name)
+		} else if !strings.Contains(doc, "Place in the flow") {
+			t.Errorf("%s: package %s's doc comment does not say its place in the flow (\"Place in the flow: …\")", dir, name)
+		}
+		if strings.HasPrefix(dir, "cmd/") {
+			switch {
+			case dir == "cmd/impair" || dir == "cmd/monitor":
+				if name != "main" {
+					t.Errorf("%s: package %s, want main", dir, name)
+				}
+			case !strings.HasPrefix(dir, "cmd/internal/"):
+				t.Errorf("%s: package %s under cmd/ outside cmd/internal: a library belongs under the folder whose job it serves", dir, name)
+			case name == "main":
+				t.Errorf("%s: a main package under cmd/internal", dir)
+			}
+		}
+	}
+}
