@@ -297,7 +297,7 @@ func TestDashboardColoursFromPalette(t *testing.T) {
 	}
 	for _, c := range colours {
 		if !ours[strings.ToLower(c)] {
-			t.Errorf("dashboard colour %q is not in the palette of cmd/monitor/report", c)
+			t.Errorf("dashboard colour %q is not in the palette of estimate/report", c)
 		}
 	}
 	t.Logf("%d colours checked", len(colours))

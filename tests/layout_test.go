@@ -6,6 +6,7 @@ import (
 	"go/token"
 	"os"
 	"path/filepath"
+	"regexp"
 	"slices"
 	"strings"
 	"testing"
@@ -167,6 +168,96 @@ func TestLayoutPackages(t *testing.T) {
 			case name == "main":
 				t.Errorf("%s: a main package under cmd/internal", dir)
 			}
+		}
+	}
+}
+
+// markdownSection returns the text of the markdown section that starts with
+// heading, up to the next heading of the same level.
+func markdownSection(t *testing.T, doc, heading string) string {
+	t.Helper()
+	b, err := os.ReadFile(filepath.Join("..", doc))
+	if err != nil {
+		t.Fatal(err)
+	}
+	s := string(b)
+	i := strings.Index(s, "\n"+heading+"\n")
+	if i < 0 {
+		t.Fatalf("%s: no section %q", doc, heading)
+	}
+	s = s[i+len(heading)+2:]
+	if j := strings.Index(s, "\n## "); j >= 0 {
+		s = s[:j]
+	}
+	return s
+}
+
+var (
+	repoPath = regexp.MustCompile(`\b(?:profiles|emulate|estimate|cmd|deploy|tests)(?:/[a-z0-9_]+)+(?:\.[a-z]+)?\b`)
+	goFile   = regexp.MustCompile(`(?:^|[^/a-z0-9_])([a-z0-9_]+\*?\.go)\b`) // a file name, not the end of a path
+)
+
+// TestLayoutDocumented: the README's "How it fits together" names only
+// paths and files that exist; DEVELOPERS.md's table names every package,
+// and only folders and files that exist.
+func TestLayoutDocumented(t *testing.T) {
+	exists := func(rel string) bool {
+		_, err := os.Stat(filepath.Join("..", rel))
+		return err == nil
+	}
+	fileSomewhere := map[string]bool{}
+	for _, f := range goFiles(t) {
+		fileSomewhere[filepath.Base(f)] = true
+	}
+	fileExists := func(dir, name string) bool {
+		if strings.Contains(name, "*") {
+			m, _ := filepath.Glob(filepath.Join("..", dir, name))
+			return len(m) > 0
+		}
+		if dir == "" {
+			return fileSomewhere[name]
+		}
+		return exists(filepath.Join(dir, name))
+	}
+
+	readme := markdownSection(t, "README.md", "## How it fits together")
+	for _, p := range repoPath.FindAllString(readme, -1) {
+		if !exists(p) {
+			t.Errorf("README.md, How it fits together: %s does not exist", p)
+		}
+	}
+	for _, m := range goFile.FindAllStringSubmatch(readme, -1) {
+		if !fileExists("", m[1]) {
+			t.Errorf("README.md, How it fits together: no file %s in the tree", m[1])
+		}
+	}
+
+	table := markdownSection(t, "DEVELOPERS.md", "## Where things live")
+	rows := map[string]bool{}
+	for _, line := range strings.Split(table, "\n") {
+		if !strings.HasPrefix(line, "| `") {
+			continue
+		}
+		cells := strings.SplitN(line, "|", 4)
+		dir := strings.Trim(strings.TrimSpace(cells[1]), "`")
+		rows[dir] = true
+		if st, err := os.Stat(filepath.Join("..", dir)); err != nil || !st.IsDir() {
+			t.Errorf("DEVELOPERS.md: the table names %s, which is not a folder", dir)
+			continue
+		}
+		for _, m := range goFile.FindAllStringSubmatch(cells[2], -1) {
+			if !fileExists(dir, m[1]) {
+				t.Errorf("DEVELOPERS.md: the row of %s names %s, which is not in it", dir, m[1])
+			}
+		}
+	}
+	pkgs := map[string]bool{}
+	for _, f := range goFiles(t) {
+		pkgs[filepath.ToSlash(filepath.Dir(f))] = true
+	}
+	for dir := range pkgs {
+		if !rows[dir] {
+			t.Errorf("DEVELOPERS.md: the table has no row for the package in %s", dir)
 		}
 	}
 }
