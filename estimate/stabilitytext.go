@@ -11,7 +11,7 @@ import (
 	"strconv"
 )
 
-// Of is the prediction's verdict: StabilityStable,
+// VerdictOf is the prediction's verdict: StabilityStable,
 // StabilityMarginal or StabilityUnstable. A prediction without one (an
 // older computation) is stable when MeanSquareStable, else unstable.
 func VerdictOf(pr *Prediction) string {

@@ -1,13 +1,10 @@
 package main
 
 import (
-	"context"
 	"fmt"
 	"io"
 	"log/slog"
 	"net"
-	"os/signal"
-	"syscall"
 
 	"rigwire/cmd/internal/cli"
 	"rigwire/cmd/internal/exitcode"
@@ -48,7 +45,7 @@ func cmdEcho(args []string, stdout, stderr io.Writer) error {
 	if err != nil {
 		return fmt.Errorf("--listen %s: %w", listen.Addr, err)
 	}
-	ctx, stop := signal.NotifyContext(context.Background(), syscall.SIGINT, syscall.SIGTERM)
+	ctx, stop := cli.SignalContext()
 	defer stop()
 	go func() {
 		<-ctx.Done()

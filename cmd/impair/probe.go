@@ -2,15 +2,12 @@ package main
 
 import (
 	"bufio"
-	"context"
 	"fmt"
 	"io"
 	"log/slog"
 	"math"
 	"net"
 	"os"
-	"os/signal"
-	"syscall"
 	"time"
 
 	"rigwire/cmd/internal/cli"
@@ -113,7 +110,7 @@ func cmdProbe(args []string, stdout, stderr io.Writer) error {
 	}
 	defer fh.Close()
 
-	ctx, stop := signal.NotifyContext(context.Background(), syscall.SIGINT, syscall.SIGTERM)
+	ctx, stop := cli.SignalContext()
 	defer stop()
 	log.Info("probing", "target", target.Addr.String(), "rate", *rate, "size", *size, "duration", duration.String(), "probes", n)
 	recs, err := probe.Run(ctx, probe.Config{Conn: conn, Count: n, Interval: time.Duration(float64(time.Second) / *rate),

@@ -143,7 +143,7 @@ func cmdDemo(args []string, stdout, stderr io.Writer) error {
 		loopName = "built-in diverter.yaml (profiles/examples/demo)"
 	}
 	fmt.Fprintf(stdout, "\nloop      %s, period %s, setpoint %v\n", loopName, fmtDuration(loop.Period), loop.Setpoint)
-	fmt.Fprintf(stdout, "network   %s (relay seed %d)\n", prof.Name, b.relay.Seed())
+	fmt.Fprintf(stdout, "network   %s (relay seed %d)\n", prof.Name, b.Relay.Seed())
 	fmt.Fprintf(stdout, "sockets   rig node %s → relay %s → controller %s, and back; the monitor taps the relay\n",
 		node.LocalAddr(), b.Addrs().Listen, ctl.LocalAddr())
 	if b.url != "" {
@@ -179,7 +179,7 @@ func cmdDemo(args []string, stdout, stderr io.Writer) error {
 			return err
 		}
 	}
-	s := b.mon.Summary()
+	s := b.Monitor.Summary()
 	b.WriteReport(stdout, s)
 	ns, cs := node.Stats(), ctl.Stats()
 	fmt.Fprintf(stdout, "rig:\n  %-24s samples %d, commands applied %d, late %d, sent late by the host (overruns) %d\n", "node", ns.Samples, ns.Applied, ns.Late, ns.Overruns)

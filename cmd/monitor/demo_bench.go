@@ -10,12 +10,10 @@ import (
 
 	"rigwire/cmd/internal/cli"
 	"rigwire/cmd/internal/metricsrv"
-	"rigwire/emulate"
 	ebench "rigwire/emulate/bench"
 	"rigwire/emulate/endpoint"
 	"rigwire/emulate/trip"
 	"rigwire/estimate"
-	"rigwire/estimate/engine"
 	"rigwire/profiles"
 )
 
@@ -24,11 +22,9 @@ import (
 // endpoint the command serves its registry on.
 type bench struct {
 	*ebench.Bench
-	relay *emulate.Relay
-	mon   *engine.Monitor
-	pred  *estimate.Prediction
-	srv   *metricsrv.Server
-	url   string // "" without an endpoint
+	pred *estimate.Prediction
+	srv  *metricsrv.Server
+	url  string // "" without an endpoint
 }
 
 type benchConfig struct {
@@ -72,7 +68,7 @@ func openBench(cfg benchConfig) (*bench, error) {
 	if err != nil {
 		return nil, badInput(err)
 	}
-	b := &bench{Bench: eb, relay: eb.Relay, mon: eb.Monitor, pred: eb.Prediction}
+	b := &bench{Bench: eb, pred: eb.Prediction}
 	if cfg.metrics != "off" {
 		b.srv, err = metricsrv.Start(cfg.metrics, eb.Registry, cfg.log)
 		if err != nil && cfg.metricsNote != nil {

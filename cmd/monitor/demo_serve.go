@@ -68,8 +68,8 @@ func cmdServe(args []string, stdout, stderr io.Writer) error {
 		return err
 	}
 	fmt.Fprint(stderr, cautions(serveCaution))
-	log.Info("relaying and monitoring", "loop", loop.File, "listen", b.relay.ListenAddr().String(),
-		"controller", *bf.controller, "metrics", b.url, "seed", b.relay.Seed())
+	log.Info("relaying and monitoring", "loop", loop.File, "listen", b.Relay.ListenAddr().String(),
+		"controller", *bf.controller, "metrics", b.url, "seed", b.Relay.Seed())
 	ctx, cancel := cli.SignalContext()
 	defer cancel()
 	if dur.s > 0 {
@@ -80,7 +80,7 @@ func cmdServe(args []string, stdout, stderr io.Writer) error {
 	if err := b.run(ctx, stderr, *bf.every); err != nil {
 		return err
 	}
-	s := b.mon.Summary()
+	s := b.Monitor.Summary()
 	out, err := json.MarshalIndent(s, "", "  ")
 	if err != nil {
 		return err

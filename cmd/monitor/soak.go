@@ -126,10 +126,10 @@ func cmdSoak(args []string, stdout, stderr io.Writer) error {
 	for i, p := range sc.Phases {
 		names[i] = p.Name
 	}
-	b.mon.PlanPhases(names)
+	b.Monitor.PlanPhases(names)
 	log.Info("soak", "scenario", sc.File, "phases", strings.Join(names, ","), "duration", sc.Total().String(),
-		"loop", loop.File, "listen", b.relay.ListenAddr().String(), "controller", *bf.controller, "metrics", b.url,
-		"seed", b.relay.Seed())
+		"loop", loop.File, "listen", b.Relay.ListenAddr().String(), "controller", *bf.controller, "metrics", b.url,
+		"seed", b.Relay.Seed())
 
 	ctx, cancel := cli.SignalContext()
 	defer cancel()
@@ -141,7 +141,7 @@ func cmdSoak(args []string, stdout, stderr io.Writer) error {
 	}
 	// The report's per-phase counts: the relay's counters at each phase
 	// start, at the trip and at the end, and the trip's own window.
-	rec := report.NewRecorder(b.mon, b.relay.Stats)
+	rec := report.NewRecorder(b.Monitor, b.Relay.Stats)
 	benchDone := make(chan error, 1)
 	// The relay runs from here, on the first phase's profile, while the
 	// phases are predicted: a rig that already sends finds it listening.
@@ -155,21 +155,21 @@ func cmdSoak(args []string, stdout, stderr io.Writer) error {
 		return cli.BadInput(err)
 	}
 	if sim != nil {
-		if err := sim.startNode(b.relay.ListenAddr(), sc.Total(), *bf.seed, log); err != nil {
+		if err := sim.startNode(b.Relay.ListenAddr(), sc.Total(), *bf.seed, log); err != nil {
 			stopRelay()
 			<-benchDone
 			return err
 		}
 	}
 
-	onStep := b.mon.StepFunc(sc, preds, func(k int) {
+	onStep := b.Monitor.StepFunc(sc, preds, func(k int) {
 		rec.PhaseStart(k)
 		ph := sc.Phases[k]
 		log.Info("phase", "index", k+1, "of", len(sc.Phases), "name", ph.Name, "duration", ph.Duration.String())
 	})
 	playDone := make(chan error, 1)
 	started := time.Now()
-	go func() { playDone <- b.relay.Play(ctx, names, steps, sc.Total(), onStep) }()
+	go func() { playDone <- b.Relay.Play(ctx, names, steps, sc.Total(), onStep) }()
 
 	var tick <-chan time.Time
 	if *bf.every > 0 {
@@ -195,7 +195,7 @@ wait:
 		case <-afterTripC:
 			break wait
 		case <-tick:
-			fmt.Fprintln(stderr, report.SoakProgress(sc, b.mon, time.Since(started)))
+			fmt.Fprintln(stderr, report.SoakProgress(sc, b.Monitor, time.Since(started)))
 		case <-twTick.C:
 			rec.SampleTripWindow()
 		}
@@ -209,8 +209,8 @@ wait:
 	}
 	rec.SampleTripWindow()
 	rec.Finish()
-	b.mon.EndPhases(!finished)
-	s := b.mon.Summary()
+	b.Monitor.EndPhases(!finished)
+	s := b.Monitor.Summary()
 	code := exitcode.OfSoak(s)
 	if !finished && s.Trip == nil {
 		// Interrupted before the end: the phases not played are not run.
@@ -220,6 +220,6 @@ wait:
 		}
 	}
 	run := &report.Soak{Loop: loop, Written: written, Played: sc, Steps: steps, TimeScale: *timeScale,
-		Started: started, Ended: time.Now(), Seed: b.relay.Seed(), Monitor: b.mon, Recorder: rec}
+		Started: started, Ended: time.Now(), Seed: b.Relay.Seed(), Monitor: b.Monitor, Recorder: rec}
 	return finishSoak(run, s, code, playErr, *bf.summary, *reportDir, stdout, stderr, log)
 }

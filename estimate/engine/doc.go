@@ -1,6 +1,6 @@
 // Package engine measures a running loop: it decodes the rig's sensor
 // datagrams with the loop's decode section, forms e = setpoint − y, feeds
-// the online estimators of package estimate (whole run and sliding
+// the online estimators (estimate/online: whole run and sliding
 // windows, batch-means confidence intervals) and compares them with the
 // prediction. `monitor run`, the demo and an in-process relay (through
 // emulate.Config.TapFunc) all use it.
