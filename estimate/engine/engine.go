@@ -198,16 +198,27 @@ func (m *Monitor) MaxDatagram() int { return m.opts.MaxDatagram }
 // safe from any goroutine (it fits emulate.Config.TapFunc). When the trip
 // fires, Feed calls its fire function after releasing the monitor's lock.
 func (m *Monitor) Feed(payload []byte, at time.Time) {
-	if ev, fire := m.feed(payload, at); ev != nil && fire != nil {
+	m.feedFrom(netip.AddrPort{}, payload, at)
+}
+
+// feedFrom is Feed of a datagram from src: when src is valid (Serve) and
+// a source is set (SetSource), a datagram from anyone else is counted as
+// a stranger and not decoded. The source check and the feed take the
+// lock once.
+func (m *Monitor) feedFrom(src netip.AddrPort, payload []byte, at time.Time) {
+	if ev, fire := m.feed(src, payload, at); ev != nil && fire != nil {
 		fire(*ev)
 	}
 }
 
-// feed is Feed under the lock; it returns the trip event when this sample
-// fired the trip.
-func (m *Monitor) feed(payload []byte, at time.Time) (*trip.Event, func(trip.Event)) {
+// feed is feedFrom under the lock; it returns the trip event when this
+// sample fired the trip.
+func (m *Monitor) feed(src netip.AddrPort, payload []byte, at time.Time) (*trip.Event, func(trip.Event)) {
 	m.mu.Lock()
 	defer m.mu.Unlock()
+	if src.IsValid() && m.stranger(src) {
+		return nil, nil
+	}
 	m.datagrams++
 	m.last = at
 	if len(payload) > m.opts.MaxDatagram {

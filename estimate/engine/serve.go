@@ -10,7 +10,8 @@ import (
 // Serve reads datagrams from conn and feeds them to the monitor until ctx
 // ends (it then closes conn) or conn fails. Its buffer is one datagram
 // longer than MaxDatagram, so that a longer datagram (truncated by the
-// read) is seen as oversized; nothing is allocated per datagram, and
+// read) is seen as oversized; nothing is allocated per datagram, the
+// source check (SetSource) and the feed take the monitor's lock once, and
 // memory stays fixed whatever the rate: a flood costs CPU, and the kernel
 // drops what the socket buffer cannot hold.
 func (m *Monitor) Serve(ctx context.Context, conn *net.UDPConn) error {
@@ -29,10 +30,7 @@ func (m *Monitor) Serve(ctx context.Context, conn *net.UDPConn) error {
 			}
 			return err
 		}
-		if !m.fromSource(src) {
-			continue
-		}
-		m.Feed(buf[:n], m.now())
+		m.feedFrom(src, buf[:n], m.now())
 	}
 }
 
@@ -59,14 +57,12 @@ func (m *Monitor) SetSource(src netip.AddrPort) {
 	m.source = netip.AddrPortFrom(src.Addr().Unmap(), src.Port())
 }
 
-// fromSource reports whether a datagram from src is to be fed, counting
-// it as a stranger when not.
-func (m *Monitor) fromSource(src netip.AddrPort) bool {
-	m.mu.Lock()
-	defer m.mu.Unlock()
+// stranger reports whether a datagram from src is not from the source
+// set with SetSource, counting it by reason when so. Under the lock.
+func (m *Monitor) stranger(src netip.AddrPort) bool {
 	pin := m.source
 	if !pin.IsValid() {
-		return true
+		return false
 	}
 	switch a := src.Addr().Unmap(); {
 	case a != pin.Addr():
@@ -74,9 +70,9 @@ func (m *Monitor) fromSource(src netip.AddrPort) bool {
 	case pin.Port() != 0 && src.Port() != pin.Port():
 		m.strangers[StrangerOtherPort]++
 	default:
-		return true
+		return false
 	}
-	return false
+	return true
 }
 
 // Source is the source set with SetSource (zero: every source).

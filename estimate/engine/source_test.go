@@ -103,3 +103,31 @@ func TestServeTakesOnlyItsSource(t *testing.T) {
 		})
 	}
 }
+
+// The datagram path Serve takes (feedFrom: the source check and the feed
+// under one lock) allocates nothing, for the pinned source's datagrams
+// as for a stranger's.
+func TestServePathDoesNotAllocate(t *testing.T) {
+	tap := netip.MustParseAddrPort("127.0.0.1:40000")
+	cases := []struct {
+		name string
+		src  netip.AddrPort
+	}{
+		{"the source", tap},
+		{"another host", netip.MustParseAddrPort("127.0.0.2:40000")},
+		{"another port", netip.MustParseAddrPort("127.0.0.1:40001")},
+	}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			m, err := New(testLoop(t, textDecode), stablePred(0.0025), Options{})
+			if err != nil {
+				t.Fatal(err)
+			}
+			m.SetSource(tap)
+			payload, now := []byte("1,0.8\n"), time.Now()
+			if n := testing.AllocsPerRun(1000, func() { m.feedFrom(c.src, payload, now) }); n != 0 {
+				t.Errorf("%v allocations per datagram", n)
+			}
+		})
+	}
+}
