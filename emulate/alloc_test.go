@@ -1,6 +1,10 @@
 package emulate
 
 import (
+	"io"
+	"log/slog"
+	"math"
+	"net"
 	"net/netip"
 	"testing"
 	"time"
@@ -112,6 +116,89 @@ func BenchmarkRelayLoopback(b *testing.B) {
 					}
 				}
 				sent += w
+			}
+		})
+	}
+}
+
+// nopConn is a batchConn that takes every write and has nothing to read:
+// the sockets of a relay whose batches a test hands in itself.
+type nopConn struct{ addr netip.AddrPort }
+
+func (c *nopConn) readBatch([]message) (int, error)     { return 0, net.ErrClosed }
+func (c *nopConn) writeBatch(ms []message) (int, error) { return len(ms), nil }
+func (c *nopConn) localAddr() netip.AddrPort            { return c.addr }
+func (c *nopConn) setReadDeadline(time.Time) error      { return nil }
+func (c *nopConn) close() error                         { return nil }
+
+// The whole per-batch path of both receive loops, from the read buffers
+// on: the size check, the sensor lock or the controller check, the
+// actuator's address from the lock, admit, the sends at once, the tap (a
+// socket and a function), the record, and for held datagrams the release
+// goroutine's pop, send and return to the pool. Rejected datagrams
+// (oversized, strangers) ride in every batch. The first batch, which
+// locks the sensor source and logs the first stranger, is AllocsPerRun's
+// warm-up.
+func TestReceivePathDoesNotAllocate(t *testing.T) {
+	for _, c := range []struct {
+		name  string
+		delay laws.Delay
+	}{
+		{"sent at once", nil},
+		{"held", laws.Constant{Value: 0.001}},
+	} {
+		t.Run(c.name, func(t *testing.T) {
+			p := &profiles.Profile{SensorToController: oneState(0.1, c.delay), ControllerToActuator: oneState(0.1, c.delay)}
+			r, err := New(Config{
+				Profile: p, Listen: netip.MustParseAddrPort("127.0.0.1:4000"), Controller: controllerAddr,
+				Tap: tapAddr, TapFunc: func([]byte, time.Time) {}, Record: io.Discard,
+				Seed: 1, SeedSet: true, MaxDatagram: 100,
+				Logger:         slog.New(slog.NewTextHandler(io.Discard, nil)),
+				portableTimers: true,
+				conns:          &testConns{listen: &nopConn{}, ctlSide: &nopConn{}, tap: &nopConn{}},
+			})
+			if err != nil {
+				t.Fatal(err)
+			}
+			defer r.rec.close()
+			sensor := &side{in: r.listen, dir: r.sc, sensor: true}
+			command := &side{in: r.up, dir: r.ca, from: controllerAddr}
+			fill := func(b *rxBatch, from netip.AddrPort) int {
+				const n = 16
+				for i := range n {
+					b.ms[i].n, b.ms[i].trunc, b.ms[i].addr = 64, false, from
+				}
+				b.ms[0].addr = strangerAddr
+				b.ms[1].n = 101 // oversized
+				return n
+			}
+			sb, cb := r.newRxBatch(), r.newRxBatch()
+			var held [batchSize]*packet
+			var out [batchSize]message
+			release := func(d *direction) {
+				for {
+					d.mu.Lock()
+					k := d.popDueLocked(math.MaxInt64, held[:])
+					d.mu.Unlock()
+					if k == 0 {
+						return
+					}
+					d.sendPopped(held[:k], out[:k])
+				}
+			}
+			allocs := testing.AllocsPerRun(200, func() {
+				r.handleBatch(sensor, sb, fill(sb, sensorAddr))
+				r.handleBatch(command, cb, fill(cb, controllerAddr))
+				release(r.sc)
+				release(r.ca)
+			})
+			if allocs != 0 {
+				t.Errorf("%v allocations per pair of batches, want 0", allocs)
+			}
+			s := r.Stats()
+			if s.SensorToController.Forwarded == 0 || s.ControllerToActuator.Forwarded == 0 ||
+				s.SensorToController.Stranger == 0 || s.ControllerToActuator.Oversized == 0 || s.TapSent == 0 {
+				t.Errorf("the batches did not take every path: %+v", s)
 			}
 		})
 	}
