@@ -3,7 +3,6 @@ package emulate
 import (
 	"math"
 	"testing"
-	"time"
 
 	"github.com/prometheus/client_golang/prometheus"
 	dto "github.com/prometheus/client_model/go"
@@ -63,31 +62,6 @@ func TestReplayInOrder(t *testing.T) {
 			}
 		}
 	})
-}
-
-// TestReplayDoesNotAllocate: the replay path keeps the hot path free of
-// allocations (DEVELOPERS.md, "The relay's hot path").
-func TestReplayDoesNotAllocate(t *testing.T) {
-	d, _ := newTestDirection(t, replayChannel(t, trace.AtEndLoop), 256)
-	batch := make([]message, 8)
-	for i := range batch {
-		batch[i] = message{buf: make([]byte, 1500), n: 64, addr: sensorAddr}
-	}
-	imm := make([]message, 0, batchSize)
-	meta := make([]immediate, 0, batchSize)
-	now := int64(0)
-	allocs := testing.AllocsPerRun(200, func() {
-		now += int64(time.Millisecond)
-		imm, meta = d.admit(batch, controllerAddr, now, imm[:0], meta[:0])
-		d.mu.Lock()
-		for d.sched.len() > 0 {
-			d.pool.put(d.sched.pop())
-		}
-		d.mu.Unlock()
-	})
-	if allocs != 0 {
-		t.Errorf("%v allocations per batch, want 0", allocs)
-	}
 }
 
 // lossRunHist is the loss-run histogram of d's direction.

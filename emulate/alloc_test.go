@@ -15,6 +15,7 @@ import (
 	"rigwire/profiles"
 	"rigwire/profiles/laws"
 	"rigwire/profiles/markov"
+	"rigwire/profiles/trace"
 )
 
 // newTestDirection is a direction on a fake socket, outside any relay.
@@ -28,8 +29,9 @@ func newTestDirection(t testing.TB, ch *markov.Channel, inFlight int) (*directio
 	return d, out
 }
 
-// The per-datagram path (draw, copy into the pool, schedule, release) must
-// not allocate: DEVELOPERS.md, "The relay's hot path".
+// The per-datagram path (draw or replayed fate, copy into the pool,
+// schedule, release) must not allocate: DEVELOPERS.md, "The relay's hot
+// path".
 func TestHotPathDoesNotAllocate(t *testing.T) {
 	lawsByName := map[string]laws.Delay{
 		"constant":  laws.Constant{Value: 0.002},
@@ -41,7 +43,7 @@ func TestHotPathDoesNotAllocate(t *testing.T) {
 		{Name: "clear", MeanDwell: 0.05, Loss: 0.01, Delay: laws.Constant{Value: 0.001}, Jump: []float64{0, 1}},
 		{Name: "fading", MeanDwell: 0.01, Loss: 0.4, Delay: lawsByName["lognormal"], Jump: []float64{1, 0}},
 	}}
-	chans := map[string]*markov.Channel{"markov": two}
+	chans := map[string]*markov.Channel{"markov": two, "replay": replayChannel(t, trace.AtEndLoop)}
 	for k, law := range lawsByName {
 		chans[k] = oneState(0.05, law)
 	}
