@@ -103,9 +103,12 @@ func (d *Layout) Output(payload []byte, y []float64) (seq uint64, hasSeq bool, e
 		}
 		return s, true, nil
 	}
-	sep := []byte(d.Separator)
-	if len(sep) == 0 {
-		sep = comma
+	// The separator's bytes, read in place: a conversion would copy a
+	// separator longer than the compiler's stack buffer (32 bytes) to the
+	// heap on every datagram.
+	sep := comma
+	if d.Separator != "" {
+		sep = unsafe.Slice(unsafe.StringData(d.Separator), len(d.Separator))
 	}
 	for i, f := range d.Outputs {
 		b, ok := textField(payload, sep, f.Field)

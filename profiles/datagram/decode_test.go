@@ -160,16 +160,25 @@ func TestDecodeCases(t *testing.T) {
 
 func TestDecodeDoesNotAllocate(t *testing.T) {
 	text := &Layout{Format: "text", Separator: ",", Outputs: []Field{{Field: 2}}, Sequence: &Field{Field: 0}}
+	// A separator longer than the 32 bytes a []byte(string) conversion
+	// keeps on the stack.
+	longSep := " <-- a separator of forty bytes, or so --> "
+	long := &Layout{Format: "text", Separator: longSep, Outputs: []Field{{Field: 1}}}
+	longGood := []byte("17" + longSep + "0.5")
 	bin := binDecode("float64", "big", 4, "uint32", "little", 0)
 	good, garbage := []byte("17,0.5,1.5e-3\n"), []byte("17,zz,1.5q")
 	b := make([]byte, 12)
 	y := make([]float64, 1)
+	if _, _, err := long.Output(longGood, y); err != nil || y[0] != 0.5 {
+		t.Fatalf("long separator: err %v, y %v; want 0.5", err, y)
+	}
 	for name, f := range map[string]func(){
-		"text":         func() { text.Output(good, y) },
-		"text garbage": func() { text.Output(garbage, y) },
-		"text short":   func() { text.Output(good[:3], y) },
-		"binary":       func() { bin.Output(b, y) },
-		"binary short": func() { bin.Output(b[:5], y) },
+		"text":           func() { text.Output(good, y) },
+		"text garbage":   func() { text.Output(garbage, y) },
+		"text short":     func() { text.Output(good[:3], y) },
+		"long separator": func() { long.Output(longGood, y) },
+		"binary":         func() { bin.Output(b, y) },
+		"binary short":   func() { bin.Output(b[:5], y) },
 	} {
 		if n := testing.AllocsPerRun(100, f); n != 0 {
 			t.Errorf("%s: %v allocations per datagram, want 0", name, n)
