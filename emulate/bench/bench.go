@@ -111,22 +111,24 @@ func (b *Bench) Stats() emulate.Stats { return b.Relay.Stats() }
 
 // Run relays until ctx ends, writing the monitor's progress line to
 // progress every period (0: never); then drains the relay (what it holds
-// leaves at its due time) and returns the relay's error.
+// leaves at its due time) and returns the relay's error. A relay that
+// fails (emulate.Relay.Run) ends Run at once, before ctx ends.
 func (b *Bench) Run(ctx context.Context, progress io.Writer, every time.Duration) error {
 	errc := make(chan error, 1)
 	go func() { errc <- b.Relay.Run(ctx, nil) }()
-	if every > 0 {
-		tick := time.NewTicker(every)
-	loop:
-		for {
-			select {
-			case <-ctx.Done():
-				break loop
-			case <-tick.C:
-				fmt.Fprintln(progress, b.Monitor.Progress().String())
-			}
-		}
-		tick.Stop()
+	if every <= 0 {
+		return <-errc
 	}
-	return <-errc
+	tick := time.NewTicker(every)
+	defer tick.Stop()
+	for {
+		select {
+		case <-ctx.Done():
+			return <-errc
+		case err := <-errc:
+			return err
+		case <-tick.C:
+			fmt.Fprintln(progress, b.Monitor.Progress().String())
+		}
+	}
 }

@@ -8,11 +8,13 @@ import (
 	"log/slog"
 	"net/netip"
 	"regexp"
+	"strings"
 	"sync"
 	"testing"
 	"time"
 
 	"rigwire/emulate/rig"
+	"rigwire/emulate/trip"
 	"rigwire/profiles"
 )
 
@@ -167,5 +169,46 @@ func settle(t *testing.T, b *Bench, ctl *rig.Controller) {
 		} else {
 			calm = 0
 		}
+	}
+}
+
+// A relay that fails ends Run with its error while the progress line is
+// on, without waiting for ctx to end. The fault is injected in the trip
+// hook, which the relay's receive goroutine calls through the tap, as a
+// bug there would.
+func TestBenchRunEndsWhenRelayFails(t *testing.T) {
+	loop, err := profiles.LoadLoop(demoLoop)
+	if err != nil {
+		t.Fatal(err)
+	}
+	_, ctlAddr := udp(t)
+	b, err := Open(Config{Loop: loop, Listen: netip.MustParseAddrPort("127.0.0.1:0"), Controller: ctlAddr, Logger: quiet()})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := b.Monitor.SetTrip(trip.Rule{Enabled: true, MaxAbsError: 0.5}, func(trip.Event) { panic("injected fault") }); err != nil {
+		t.Fatal(err)
+	}
+	ctx, cancel := context.WithTimeout(context.Background(), 30*time.Second) // only if Run never returns on its own
+	defer cancel()
+	done := make(chan error, 1)
+	go func() { done <- b.Run(ctx, io.Discard, 10*time.Millisecond) }()
+	layout, err := rig.NewLayout(loop)
+	if err != nil {
+		t.Fatal(err)
+	}
+	node, _ := udp(t)
+	// The setpoint is 0.3 rad: 1.3 rad is 1 rad off, beyond the bound.
+	for k, y := range []float64{0.31, 1.3} {
+		if _, err := node.WriteToUDPAddrPort(layout.AppendSample(nil, uint64(k), int64(k)*1e7, []float64{y}), b.Addrs().Listen); err != nil {
+			t.Fatal(err)
+		}
+	}
+	err = <-done
+	if err == nil || !strings.Contains(err.Error(), "injected fault") {
+		t.Fatalf("Run returned %v, want the relay's failure", err)
+	}
+	if ctx.Err() != nil {
+		t.Errorf("Run returned only once ctx had ended (%v), not when the relay failed", ctx.Err())
 	}
 }
