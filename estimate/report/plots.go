@@ -81,6 +81,12 @@ func drawFigure(p *plot.Plot, dc draw.Canvas) {
 }
 
 // finish renders p into f, or records why it could not.
+// failed marks f as not drawn because drawing its plot failed with err.
+func (f *figure) failed(err error) *figure {
+	f.NoData = "drawing failed: " + err.Error()
+	return f
+}
+
 func finish(f *figure, p *plot.Plot) *figure {
 	png, err := render(p)
 	if err != nil {
@@ -181,6 +187,32 @@ func (s *span) add(v float64) {
 }
 
 func (s span) empty() bool { return s.lo > s.hi }
+
+// yValues gathers the values a plot's y axis must show: their span and
+// the smallest positive one (a logarithmic axis's floor).
+type yValues struct {
+	span
+	minPos float64 // +Inf before a positive value
+}
+
+func newYValues() yValues { return yValues{span: newSpan(), minPos: math.Inf(1)} }
+
+func (y *yValues) add(v float64) {
+	y.span.add(v)
+	if v > 0 {
+		y.minPos = math.Min(y.minPos, v)
+	}
+}
+
+// axis is the axis for the values (chooseY), the top fraction headroom
+// of its height left free.
+func (y yValues) axis(headroom float64) yAxis {
+	minPos := y.minPos
+	if math.IsInf(minPos, 1) {
+		minPos = 0
+	}
+	return chooseY(y.span, minPos, headroom)
+}
 
 // widened returns a non-degenerate range.
 func (s span) widened() (float64, float64) {
@@ -435,13 +467,44 @@ func tripWindowName(w *TripWindow) string {
 
 func fmtWindow(s float64) string { return windowSec.Format(s) }
 
-// addTripWindow draws the trip's windowed quantity, its bound, and the
-// value that fired the trip (a marker at the trip's time), all on the
-// axis ax; it adds their values to ys.
+// drawnTripValue reports whether a point of the trip's windowed quantity
+// is drawn: positive and finite (a log axis has no room for the others).
+func drawnTripValue(v float64) bool { return v > 0 && !math.IsInf(v, 0) }
+
+// addTripValues adds to ys what addTripLines draws of the trip's window
+// w: its drawn points, its bound, and the value that fired the trip.
+func addTripValues(ys *yValues, d *Data, w *TripWindow) {
+	for _, pt := range w.Points {
+		if drawnTripValue(pt.Value) {
+			ys.add(pt.Value)
+		}
+	}
+	if w.Bound > 0 {
+		ys.add(w.Bound)
+	}
+	if t := d.Trip; t != nil && t.Value > 0 && t.Reason == tripReason(w.Quantity) {
+		ys.add(t.Value)
+	}
+}
+
+// addTripLines draws the trip's windowed quantity (addTripWindow) and, when
+// the trip has one, its bound, named by its key in the loop file.
+func addTripLines(p *plot.Plot, d *Data, w *TripWindow, xlo, xhi float64, key string) error {
+	if err := addTripWindow(p, d, w); err != nil {
+		return err
+	}
+	if w.Bound > 0 {
+		return addBound(p, w.Bound, xlo, xhi, tripColor, fmt.Sprintf("trip bound %s %.4g", key, w.Bound))
+	}
+	return nil
+}
+
+// addTripWindow draws the trip's windowed quantity and the value that
+// fired the trip (a marker at the trip's time).
 func addTripWindow(p *plot.Plot, d *Data, w *TripWindow) error {
 	var seg segmenter
 	for _, pt := range w.Points {
-		if math.IsNaN(pt.Value) || math.IsInf(pt.Value, 0) || pt.Value <= 0 {
+		if !drawnTripValue(pt.Value) {
 			seg.gap()
 			continue
 		}
@@ -505,44 +568,24 @@ func secondMomentFigure(d *Data) *figure {
 			"a band is clipped at the axis's floor.",
 	}
 	hist := sortedHistory(d.History)
-	xs, ys := newSpan(), newSpan()
-	minPos := math.Inf(1)
-	addY := func(v float64) {
-		ys.add(v)
-		if v > 0 {
-			minPos = math.Min(minPos, v)
-		}
-	}
+	xs, ys := newSpan(), newYValues()
 	for _, pt := range hist {
 		for _, p := range []*float64{pt.Measured, pt.CILow, pt.CIHigh, pt.Predicted} {
 			if v, ok := val(p); ok {
 				xs.add(pt.Elapsed)
-				addY(v)
+				ys.add(v)
 			}
 		}
 	}
 	tw := tripWindowFor(d, "second_moment")
 	if tw != nil {
-		for _, pt := range tw.Points {
-			if pt.Value > 0 && !math.IsInf(pt.Value, 0) {
-				addY(pt.Value)
-			}
-		}
-		if tw.Bound > 0 {
-			addY(tw.Bound)
-		}
-		if d.Trip != nil && d.Trip.Value > 0 && d.Trip.Reason == "second_moment" {
-			addY(d.Trip.Value)
-		}
+		addTripValues(&ys, d, tw)
 	}
 	if xs.empty() {
 		f.NoData = "no measured or predicted value in the history"
 		return f
 	}
-	if math.IsInf(minPos, 1) {
-		minPos = 0
-	}
-	ax := chooseY(ys, minPos, headroom)
+	ax := ys.axis(headroom)
 	var meas, pred segmenter
 	var bandSegs [][2]plotter.XYs
 	var lo, hi plotter.XYs
@@ -595,8 +638,7 @@ func secondMomentFigure(d *Data) *figure {
 		}
 		pg, err := plotter.NewPolygon(poly)
 		if err != nil {
-			f.NoData = "drawing failed: " + err.Error()
-			return f
+			return f.failed(err)
 		}
 		pg.Color = bandColor
 		pg.LineStyle.Width = 0
@@ -612,28 +654,19 @@ func secondMomentFigure(d *Data) *figure {
 		}
 	}
 	if th, err := addSegments(p, meas.done(), measuredColor, nil); err != nil {
-		f.NoData = "drawing failed: " + err.Error()
-		return f
+		return f.failed(err)
 	} else if th != nil {
 		p.Legend.Add("measured E[eᵀe] (the estimator's window)", th)
 	}
 	if th, err := addSegments(p, pred.done(), predictedColor, []vg.Length{vg.Points(6), vg.Points(3)}); err != nil {
-		f.NoData = "drawing failed: " + err.Error()
-		return f
+		return f.failed(err)
 	} else if th != nil {
 		p.Legend.Add("predicted E[eᵀe] in force", th)
 	}
 	xlo, xhi := timeRange(d, xs)
 	if tw != nil {
-		if err := addTripWindow(p, d, tw); err != nil {
-			f.NoData = "drawing failed: " + err.Error()
-			return f
-		}
-		if tw.Bound > 0 {
-			if err := addBound(p, tw.Bound, xlo, xhi, tripColor, fmt.Sprintf("trip bound max_second_moment %.4g", tw.Bound)); err != nil {
-				f.NoData = "drawing failed: " + err.Error()
-				return f
-			}
+		if err := addTripLines(p, d, tw, xlo, xhi, "max_second_moment"); err != nil {
+			return f.failed(err)
 		}
 		f.Caption += " The ochre line is the quantity the safety trip compared with its bound: the mean of eᵀe " +
 			"over the trip's own window of " + fmtWindow(tw.Seconds) + ", sampled every " + fmtWindow(tw.Every) + "."
@@ -645,12 +678,10 @@ func secondMomentFigure(d *Data) *figure {
 // time, fixes its axes and renders it.
 func finishTimePlot(f *figure, p *plot.Plot, d *Data, hist []Point, xlo, xhi float64, ax yAxis) *figure {
 	if err := addBoundaries(p, boundaries(d, hist, xlo, xhi), ax.Lo, ax.Hi); err != nil {
-		f.NoData = "drawing failed: " + err.Error()
-		return f
+		return f.failed(err)
 	}
 	if err := addTrip(p, d.Trip, xlo, xhi, ax.Lo, ax.Hi); err != nil {
-		f.NoData = "drawing failed: " + err.Error()
-		return f
+		return f.failed(err)
 	}
 	p.X.Min, p.X.Max = xlo, xhi
 	ax.apply(p)
@@ -666,44 +697,29 @@ func ratioFigure(d *Data) *figure {
 	}
 	hist := sortedHistory(d.History)
 	var seg segmenter
-	xs, ys := newSpan(), newSpan()
-	minPos := math.Inf(1)
-	addY := func(v float64) {
-		ys.add(v)
-		if v > 0 {
-			minPos = math.Min(minPos, v)
-		}
-	}
+	xs, ys := newSpan(), newYValues()
 	for _, pt := range hist {
 		if r, ok := ratio(pt.Measured, pt.Predicted); ok {
 			xs.add(pt.Elapsed)
-			addY(r)
+			ys.add(r)
 		}
 	}
 	tw := tripWindowFor(d, "ratio")
 	if tw != nil {
+		// The trip's ratio is data of this plot too: its times count.
 		for _, pt := range tw.Points {
-			if pt.Value > 0 && !math.IsInf(pt.Value, 0) {
+			if drawnTripValue(pt.Value) {
 				xs.add(pt.Elapsed)
-				addY(pt.Value)
 			}
 		}
-		if tw.Bound > 0 {
-			addY(tw.Bound)
-		}
-		if d.Trip != nil && d.Trip.Value > 0 && d.Trip.Reason == "ratio" {
-			addY(d.Trip.Value)
-		}
+		addTripValues(&ys, d, tw)
 	}
 	if xs.empty() {
 		f.NoData = "no point has both a measured and a non-zero predicted value"
 		return f
 	}
-	addY(1)
-	if math.IsInf(minPos, 1) {
-		minPos = 0
-	}
-	ax := chooseY(ys, minPos, headroom)
+	ys.add(1)
+	ax := ys.axis(headroom)
 	for _, pt := range hist {
 		if r, ok := ratio(pt.Measured, pt.Predicted); ok && (!ax.Log || r > 0) {
 			seg.add(pt.Elapsed, r)
@@ -714,25 +730,16 @@ func ratioFigure(d *Data) *figure {
 	p := newPlot(f.Title, timeAxisLabel(d), "measured / predicted")
 	xlo, xhi := timeRange(d, xs)
 	if err := addBound(p, 1, xlo, xhi, boundaryColor, "1 (as predicted)"); err != nil {
-		f.NoData = "drawing failed: " + err.Error()
-		return f
+		return f.failed(err)
 	}
 	if th, err := addSegments(p, seg.done(), measuredColor, nil); err != nil {
-		f.NoData = "drawing failed: " + err.Error()
-		return f
+		return f.failed(err)
 	} else if th != nil {
 		p.Legend.Add("measured / predicted (the estimator's window)", th)
 	}
 	if tw != nil {
-		if err := addTripWindow(p, d, tw); err != nil {
-			f.NoData = "drawing failed: " + err.Error()
-			return f
-		}
-		if tw.Bound > 0 {
-			if err := addBound(p, tw.Bound, xlo, xhi, tripColor, fmt.Sprintf("trip bound max_ratio %.4g", tw.Bound)); err != nil {
-				f.NoData = "drawing failed: " + err.Error()
-				return f
-			}
+		if err := addTripLines(p, d, tw, xlo, xhi, "max_ratio"); err != nil {
+			return f.failed(err)
 		}
 		f.Caption += " The ochre line is the very ratio the safety trip compared with its bound (brick, dotted): " +
 			"the mean of eᵀe over the trip's own window of " + fmtWindow(tw.Seconds) + " over the prediction in force, " +
@@ -825,19 +832,12 @@ func phasesFigure(d *Data) *figure {
 		f.NoData = "no phases"
 		return f
 	}
-	ys := newSpan()
-	minPos := math.Inf(1)
-	addY := func(v float64) {
-		ys.add(v)
-		if v > 0 {
-			minPos = math.Min(minPos, v)
-		}
-	}
+	ys := newYValues()
 	any := false
 	for _, ph := range d.Phases {
 		for _, p := range []*float64{ph.Measured, ph.CILow, ph.CIHigh, ph.Predicted} {
 			if v, ok := val(p); ok {
-				addY(v)
+				ys.add(v)
 				any = true
 			}
 		}
@@ -847,10 +847,7 @@ func phasesFigure(d *Data) *figure {
 		return f
 	}
 	ys.add(0)
-	if math.IsInf(minPos, 1) {
-		minPos = 0
-	}
-	ax := chooseY(ys, minPos, 0.15)
+	ax := ys.axis(0.15)
 	meas, pred := newRects(measuredColor), newRects(predictedColor)
 	wh := &whiskers{line: draw.LineStyle{Color: Ink, Width: vg.Points(1)}}
 	names := make([]string, len(d.Phases))
