@@ -8,6 +8,7 @@ import (
 	"path/filepath"
 	"rigwire/profiles/laws"
 	"rigwire/profiles/yamlpos"
+	"slices"
 	"sort"
 	"strconv"
 	"strings"
@@ -22,6 +23,15 @@ type delayKind struct {
 	required []string
 	shift    bool // whether `shift` is allowed
 	build    func(k map[string]yamlpos.Field, dir string, depth int) (laws.Delay, error)
+}
+
+// lawKeys are the keys a law of the kind takes besides kind: its own,
+// then shift where allowed.
+func (k delayKind) lawKeys() []string {
+	if k.shift {
+		return append(slices.Clip(k.keys), "shift")
+	}
+	return k.keys
 }
 
 // maxMixtureDepth bounds mixtures of mixtures (and so what aliases can
@@ -139,11 +149,7 @@ func parseDelayExtra(f yamlpos.Field, dir string, depth int, extra ...string) (l
 		return nil, nil, kf.Errorf("unknown kind %s (want one of %s)", yamlpos.Token(name), strings.Join(DelayKinds(), ", "))
 	}
 	// Second pass: only the kind's keys.
-	allowed := append([]string{"kind"}, kind.keys...)
-	if kind.shift {
-		allowed = append(allowed, "shift")
-	}
-	allowed = append(allowed, extra...)
+	allowed := append(append([]string{"kind"}, kind.lawKeys()...), extra...)
 	if _, err := f.Mapping(allowed...); err != nil {
 		var pe *yamlpos.Error
 		if e, ok := err.(*yamlpos.Error); ok {

@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"io"
 	"regexp"
+	"slices"
 	"strconv"
 	"strings"
 )
@@ -49,9 +50,10 @@ type DraftDelay struct {
 // Write writes d as a profile file: its comments, "# times in seconds",
 // the name, then each direction given. Numbers are written with six
 // significant digits (what Load reads back is d rounded so), times in
-// seconds. A draft the format cannot hold (an unknown kind, keys and
-// values that do not pair, a Markov channel of other than two states) is
-// refused before anything is written.
+// seconds. A draft the format cannot hold (an unknown kind, or one whose
+// keys hold lists, a key the kind does not take or a required key left
+// out, keys and values that do not pair, a Markov channel of other than
+// two states) is refused before anything is written.
 func Write(w io.Writer, d Draft) error {
 	if err := d.check(); err != nil {
 		return err
@@ -62,13 +64,7 @@ func Write(w io.Writer, d Draft) error {
 	}
 	b.WriteString("# times in seconds\n")
 	fmt.Fprintf(&b, "name: %s\n", strconv.Quote(d.Name))
-	for _, dir := range []struct {
-		name string
-		c    *DraftChannel
-	}{{SensorToController, d.SensorToController}, {ControllerToActuator, d.ControllerToActuator}} {
-		if dir.c == nil {
-			continue
-		}
+	for _, dir := range d.directions() {
 		fmt.Fprintf(&b, "%s:\n", dir.name)
 		if len(dir.c.States) == 0 {
 			fmt.Fprintf(&b, "  loss: %s\n  delay: %s\n", draftNum(dir.c.Loss), dir.c.Delay.yaml())
@@ -83,15 +79,26 @@ func Write(w io.Writer, d Draft) error {
 	return err
 }
 
+// draftDirection is one direction a draft gives, with its name.
+type draftDirection struct {
+	name string
+	c    *DraftChannel
+}
+
+// directions are the directions d gives, in the file's order.
+func (d Draft) directions() []draftDirection {
+	var out []draftDirection
+	for _, dir := range []draftDirection{{SensorToController, d.SensorToController}, {ControllerToActuator, d.ControllerToActuator}} {
+		if dir.c != nil {
+			out = append(out, dir)
+		}
+	}
+	return out
+}
+
 // check refuses what the format cannot hold.
 func (d Draft) check() error {
-	for _, dir := range []struct {
-		name string
-		c    *DraftChannel
-	}{{SensorToController, d.SensorToController}, {ControllerToActuator, d.ControllerToActuator}} {
-		if dir.c == nil {
-			continue
-		}
+	for _, dir := range d.directions() {
 		if n := len(dir.c.States); n != 0 && n != 2 {
 			return fmt.Errorf("writing profile: %s: want one state or two, got %d states", dir.name, n)
 		}
@@ -106,12 +113,36 @@ func (d Draft) check() error {
 			}
 		}
 		for _, dl := range delays {
-			if _, ok := delayKinds[dl.Kind]; !ok {
-				return fmt.Errorf("writing profile: %s: unknown delay kind %q", dir.name, dl.Kind)
+			if err := dl.check(); err != nil {
+				return fmt.Errorf("writing profile: %s: %w", dir.name, err)
 			}
-			if len(dl.Keys) != len(dl.Values) {
-				return fmt.Errorf("writing profile: %s: delay %s: %d keys, %d values", dir.name, dl.Kind, len(dl.Keys), len(dl.Values))
-			}
+		}
+	}
+	return nil
+}
+
+// check holds the law to the parser's table of kinds (delayKinds): a
+// known kind whose keys hold numbers, its keys among the kind's (shift
+// where the kind takes one), its required keys given, one value a key.
+func (dl DraftDelay) check() error {
+	kind, ok := delayKinds[dl.Kind]
+	if !ok {
+		return fmt.Errorf("unknown delay kind %q", dl.Kind)
+	}
+	if dl.Kind == "empirical" || dl.Kind == "mixture" {
+		return fmt.Errorf("delay: kind %s holds lists or a file, not numbers; a draft spells parametric laws only", dl.Kind)
+	}
+	if len(dl.Keys) != len(dl.Values) {
+		return fmt.Errorf("delay %s: %d keys, %d values", dl.Kind, len(dl.Keys), len(dl.Values))
+	}
+	for _, k := range dl.Keys {
+		if !slices.Contains(kind.lawKeys(), k) {
+			return fmt.Errorf("delay: unknown key %q for kind %s (want one of: %s)", k, dl.Kind, strings.Join(kind.lawKeys(), ", "))
+		}
+	}
+	for _, k := range kind.required {
+		if !slices.Contains(dl.Keys, k) {
+			return fmt.Errorf("delay: missing %s for kind %s", k, dl.Kind)
 		}
 	}
 	return nil

@@ -133,6 +133,14 @@ func TestWriteRefuses(t *testing.T) {
 		{"keys and values", Draft{SensorToController: &DraftChannel{Delay: DraftDelay{Kind: "constant", Keys: []string{"value"}}}}, "1 keys, 0 values"},
 		{"three states", Draft{ControllerToActuator: &DraftChannel{States: []DraftState{{Name: "a", Delay: ok}, {Name: "b", Delay: ok}, {Name: "c", Delay: ok}}}}, "want one state or two, got 3 states"},
 		{"state name", Draft{SensorToController: &DraftChannel{States: []DraftState{{Name: "a b", Delay: ok}, {Name: "c", Delay: ok}}}}, `state name "a b"`},
+		{"key of another kind", Draft{SensorToController: &DraftChannel{Delay: DraftDelay{Kind: "gamma", Keys: []string{"shape", "mean"}, Values: []float64{2, 0.001}}}},
+			`unknown key "mean" for kind gamma (want one of: shape, scale, shift)`},
+		{"shift where the kind takes none", Draft{SensorToController: &DraftChannel{Delay: DraftDelay{Kind: "pareto", Keys: []string{"shape", "scale", "shift"}, Values: []float64{2, 0.001, 0.001}}}},
+			`unknown key "shift" for kind pareto (want one of: shape, scale)`},
+		{"required key left out", Draft{ControllerToActuator: &DraftChannel{Delay: DraftDelay{Kind: "lognormal", Keys: []string{"median"}, Values: []float64{0.003}}}},
+			"controller_to_actuator: delay: missing sigma for kind lognormal"},
+		{"kind of lists", Draft{SensorToController: &DraftChannel{Delay: DraftDelay{Kind: "mixture", Keys: []string{"parts"}, Values: []float64{1}}}},
+			"kind mixture holds lists or a file"},
 	}
 	for _, c := range cases {
 		t.Run(c.name, func(t *testing.T) {
