@@ -12,7 +12,6 @@ import (
 	"time"
 
 	"github.com/prometheus/client_golang/prometheus"
-	"github.com/prometheus/client_golang/prometheus/testutil"
 
 	"rigwire/profiles"
 )
@@ -133,7 +132,7 @@ func startFake(t *testing.T, p *profiles.Profile, mod func(*Config)) *fakeRig {
 	t.Helper()
 	rig := &fakeRig{
 		listen: newFakeConn("127.0.0.1:4000"), up: newFakeConn("127.0.0.1:4001"), tapped: newFakeConn("127.0.0.1:4002"),
-		reg: prometheus.NewRegistry(), record: new(bytes.Buffer), abort: make(chan struct{}), done: make(chan error, 1),
+		reg: prometheus.NewRegistry(), record: new(bytes.Buffer), abort: make(chan struct{}),
 	}
 	cfg := Config{
 		Profile: p, Listen: rig.listen.addr, Controller: controllerAddr, Tap: tapAddr,
@@ -143,17 +142,7 @@ func startFake(t *testing.T, p *profiles.Profile, mod func(*Config)) *fakeRig {
 		portableTimers: true,
 		conns:          &testConns{listen: rig.listen, ctlSide: rig.up, tap: rig.tapped},
 	}
-	if mod != nil {
-		mod(&cfg)
-	}
-	r, err := New(cfg)
-	if err != nil {
-		t.Fatal(err)
-	}
-	rig.relay = r
-	ctx, cancel := context.WithCancel(context.Background())
-	rig.cancel = cancel
-	go func() { rig.done <- r.Run(ctx, rig.abort) }()
+	rig.relay, rig.cancel, rig.done = runRelay(t, cfg, mod, rig.abort)
 	return rig
 }
 
@@ -166,5 +155,5 @@ func (rig *fakeRig) stop(t *testing.T) {
 }
 
 func (rig *fakeRig) count(dir, outcome string) int {
-	return int(testutil.ToFloat64(rig.relay.m.Datagrams.WithLabelValues(dir, outcome)))
+	return outcomeCount(rig.relay, dir, outcome)
 }

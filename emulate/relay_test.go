@@ -59,6 +59,18 @@ func startLoopback(t testing.TB, p *profiles.Profile, mod func(*Config)) *loopba
 		Seed:       1, SeedSet: true,
 		Logger: slog.New(slog.NewTextHandler(io.Discard, nil)),
 	}
+	rig.relay, rig.cancel, rig.done = runRelay(t, cfg, mod, nil)
+	t.Cleanup(func() {
+		rig.cancel()
+		<-rig.done
+	})
+	return rig
+}
+
+// runRelay opens a relay on cfg, changed by mod when not nil, and runs it
+// until the returned cancel is called; Run's error comes on done.
+func runRelay(t testing.TB, cfg Config, mod func(*Config), abort <-chan struct{}) (r *Relay, cancel context.CancelFunc, done chan error) {
+	t.Helper()
 	if mod != nil {
 		mod(&cfg)
 	}
@@ -66,16 +78,10 @@ func startLoopback(t testing.TB, p *profiles.Profile, mod func(*Config)) *loopba
 	if err != nil {
 		t.Fatal(err)
 	}
-	rig.relay = r
 	ctx, cancel := context.WithCancel(context.Background())
-	rig.cancel = cancel
-	rig.done = make(chan error, 1)
-	go func() { rig.done <- r.Run(ctx, nil) }()
-	t.Cleanup(func() {
-		cancel()
-		<-rig.done
-	})
-	return rig
+	done = make(chan error, 1)
+	go func() { done <- r.Run(ctx, abort) }()
+	return r, cancel, done
 }
 
 func (rig *loopbackRig) stop(t *testing.T) {
