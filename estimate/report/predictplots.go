@@ -135,15 +135,9 @@ func sweepPlots(res *estimate.SweepResult) (top, bottom *plot.Plot, err error) {
 	}
 	rlo, rhi := LinPad(rmin, rmax, 0.08)
 	rhi += 0.35 * (rhi - rlo)
-	one, err := plotter.NewLine(plotter.XYs{{X: xlo, Y: 1}, {X: xhi, Y: 1}})
-	if err != nil {
+	if err := addBound(bottom, 1, xlo, xhi, lostColor, "ρ = 1: mean-square stability is lost above it"); err != nil {
 		return nil, nil, err
 	}
-	one.Color = lostColor
-	one.Width = vg.Points(1.2)
-	one.Dashes = []vg.Length{vg.Points(2), vg.Points(2)}
-	bottom.Add(one)
-	bottom.Legend.Add("ρ = 1: mean-square stability is lost above it", one)
 	if !math.IsNaN(res.Boundary) || res.LostFromStart {
 		x := res.Boundary
 		what := fmt.Sprintf("stability lost at %s = %.4g", name, x)
