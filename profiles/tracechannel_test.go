@@ -13,7 +13,11 @@ import (
 // i.i.d. loss at the trace's loss rate.
 func TestTraceProfile(t *testing.T) {
 	dir := t.TempDir()
-	if err := os.WriteFile(filepath.Join(dir, "wifi.csv"), []byte(goodTrace), 0o644); err != nil {
+	good, err := os.ReadFile("trace/testdata/wifi.csv") // the trace package's own
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := os.WriteFile(filepath.Join(dir, "wifi.csv"), good, 0o644); err != nil {
 		t.Fatal(err)
 	}
 	if err := os.WriteFile(filepath.Join(dir, "bad.csv"), []byte("seq,send_s,status\n0,0,maybe\n"), 0o644); err != nil {
@@ -53,12 +57,3 @@ func TestTraceProfile(t *testing.T) {
 		})
 	}
 }
-
-const goodTrace = `# rigwire probe trace v1
-# interval_s: 0.002
-# clocks_synced: true
-seq,send_s,status,rtt_s,one_way_s,back_s,copies,reordered
-0,0.000010,delivered,0.004,0.003,0.001,1,0
-1,0.002010,lost,,,,0,0
-2,0.004010,delivered,0.005,0.0035,0.0015,2,1
-`

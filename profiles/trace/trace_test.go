@@ -1,22 +1,26 @@
 package trace
 
 import (
+	"bytes"
 	"errors"
+	"os"
 	"strings"
 	"testing"
 )
 
-const goodTrace = `# rigwire probe trace v1
-# interval_s: 0.002
-# clocks_synced: true
-seq,send_s,status,rtt_s,one_way_s,back_s,copies,reordered
-0,0.000010,delivered,0.004,0.003,0.001,1,0
-1,0.002010,lost,,,,0,0
-2,0.004010,delivered,0.005,0.0035,0.0015,2,1
-`
+// goodTrace is a trace of three probes, one lost and one reordered
+// (testdata/wifi.csv; the profile loader's tests replay it too).
+func goodTrace(t testing.TB) []byte {
+	t.Helper()
+	b, err := os.ReadFile("testdata/wifi.csv")
+	if err != nil {
+		t.Fatal(err)
+	}
+	return b
+}
 
 func TestReadTrace(t *testing.T) {
-	tr, err := ReadTrace(strings.NewReader(goodTrace), "wifi.csv")
+	tr, err := ReadTrace(bytes.NewReader(goodTrace(t)), "wifi.csv")
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -85,7 +89,7 @@ func TestFatesNeedsDelay(t *testing.T) {
 // FuzzReadTrace: whatever the bytes, the reader either returns a trace
 // whose probes are valid or a positioned error; it never panics.
 func FuzzReadTrace(f *testing.F) {
-	f.Add([]byte(goodTrace))
+	f.Add(goodTrace(f))
 	f.Add([]byte("seq,send_s,status\n0,0,lost\n"))
 	f.Add([]byte("# interval_s: 1e-3\nseq,send_s,status,rtt_s\n0,0,delivered,1e-3\n1,1e-3,deliv"))
 	f.Fuzz(func(t *testing.T, data []byte) {
