@@ -3,7 +3,7 @@ package profiles
 import "rigwire/profiles/markov"
 
 // Profile is a validated network profile: the two directions of one rig's
-// link, each a [Channel].
+// link, each a [markov.Channel].
 type Profile struct {
 	// Name is free text from the file.
 	Name string

@@ -822,7 +822,7 @@ func (s *Scenario) checkValues() error {
 }
 
 // treeSize counts the values of a YAML tree with its aliases expanded
-// (Document has already bounded it).
+// (yamlpos.Document has already bounded it).
 func treeSize(n *yaml.Node) int64 {
 	n = yamlpos.Resolve(n)
 	if n == nil {

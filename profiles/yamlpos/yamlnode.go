@@ -5,8 +5,9 @@ package yamlpos
 // caught (yaml.v3 loses KnownFields inside custom unmarshalers, go-yaml
 // issue #460, so keys are checked on the node instead).
 //
-// They serve the profile loader here and any other file of the project that
-// is read the same way (the loop description). A typical decoder:
+// Every YAML file of the project is read with them: the profile, loop and
+// scenario files (profiles), the links file (emulate/links) and the lab
+// topology (deploy/lab). A typical decoder:
 //
 //	root, err := yamlpos.Document("loop.yaml", data)
 //	if err != nil {
@@ -207,6 +208,8 @@ func NodeField(file, path string, n *yaml.Node) Field {
 	return Field{File: file, Path: path, Node: Resolve(n)}
 }
 
+// Resolve returns the value n stands for: a document's content, an
+// alias's target (aliases of aliases followed); nil for an empty document.
 func Resolve(n *yaml.Node) *yaml.Node {
 	for range 64 { // aliases of aliases; yaml.v3 rejects cycles already
 		if n == nil {
