@@ -3,7 +3,9 @@ package datagram
 import "encoding/binary"
 
 // Layout says where a rig's outputs sit in each sensor datagram (loop file
-// key decode), for the monitor's run command.
+// key decode), for the monitor engine (estimate/engine), which decodes
+// the tapped datagrams in monitor run and on the in-process bench (serve,
+// soak, demo).
 type Layout struct {
 	// Format is "text" (fields split by Separator) or "binary" (fixed
 	// offsets); "" when the loop file has no decode section.
