@@ -313,13 +313,16 @@ func fmtNum(p *float64) string {
 
 // Times as the report writes them (laws.Seconds): seconds to a tenth
 // ("54.0 s") for times since the start, milliseconds ("8.123 ms") for
-// delays, seconds ("0.5 s") for the trip's window and its sampling, and
-// shortest seconds ("12.25 s") within a scenario time.
+// delays, seconds ("0.5 s") for the trip's window and its sampling and
+// for a state's mean dwell, shortest seconds ("12.25 s") within a
+// scenario time, and seconds to the millisecond, no space ("0.800s"),
+// for the trip's time in the phase table.
 var (
 	tenths    = laws.Seconds{Unit: "s", Fixed: true, Digits: 1, Space: true, Missing: "—"}
 	delayMs   = laws.Seconds{Unit: "ms", Space: true, Missing: "—"}
 	windowSec = laws.Seconds{Unit: "s", Space: true}
 	exactSec  = laws.Seconds{Unit: "s", Fixed: true, Digits: -1, Space: true}
+	tripAtSec = laws.Seconds{Unit: "s", Fixed: true, Digits: 3}
 )
 
 // fmtSeconds writes a time since the start, "—" when unknown.

@@ -194,7 +194,7 @@ func channelText(ch *markov.Channel) string {
 	}
 	parts := make([]string, len(ch.States))
 	for i, s := range ch.States {
-		parts[i] = fmt.Sprintf("%s (%s, mean dwell %.4g s)", s.Name, state(s), s.MeanDwell)
+		parts[i] = fmt.Sprintf("%s (%s, mean dwell %s)", s.Name, state(s), windowSec.Format(s.MeanDwell))
 	}
 	return fmt.Sprintf("%d states: %s", len(ch.States), strings.Join(parts, "; "))
 }

@@ -60,8 +60,8 @@ func PhaseTable(w io.Writer, s *engine.Summary) {
 		inconclusive = inconclusive || p.Verdict == engine.PhaseInconclusive
 	}
 	if s.Trip != nil {
-		fmt.Fprintf(w, "\nsafety trip: %s %.5g above %.5g in phase %q after %.3fs; relay action %s; %d later samples not judged\n",
-			s.Trip.Reason, s.Trip.Value, s.Trip.Bound, s.Trip.Phase, s.Trip.Elapsed, s.Trip.Action, s.AfterTripSamples)
+		fmt.Fprintf(w, "\nsafety trip: %s %.5g above %.5g in phase %q after %s; relay action %s; %d later samples not judged\n",
+			s.Trip.Reason, s.Trip.Value, s.Trip.Bound, s.Trip.Phase, tripAtSec.Format(s.Trip.Elapsed), s.Trip.Action, s.AfterTripSamples)
 	}
 	if inconclusive {
 		fmt.Fprintf(w, "\ninconclusive: the data could not tell agreement from disagreement; the rule: %s\n", engine.VerdictRule)
