@@ -25,7 +25,6 @@ import (
 // step over the whole period. A Plant is not safe for concurrent use.
 type Plant struct {
 	a, b, c, w  *mat.Dense
-	n, m, p     int
 	vFac        *mat.Dense // L Lᵀ = V
 	x           []float64
 	rng         *rand.Rand
@@ -44,10 +43,9 @@ const maxCachedSteps = 64
 
 // NewPlant returns the loop's plant at x = 0 with its own seeded noise.
 func NewPlant(pl profiles.Plant, rng *rand.Rand) *Plant {
-	n, m := pl.B.Dims()
-	p, _ := pl.C.Dims()
+	p, n := pl.C.Dims()
 	return &Plant{
-		a: pl.A, b: pl.B, c: pl.C, w: pl.W, n: n, m: m, p: p,
+		a: pl.A, b: pl.B, c: pl.C, w: pl.W,
 		vFac: simstep.Factor(pl.V), x: make([]float64, n), rng: rng,
 		std: make([]float64, max(n, p)), tmp: make([]float64, n), v: make([]float64, p),
 		cache: map[int64]*plantStep{},
