@@ -59,8 +59,8 @@ const (
 //	piece Q × atom a:   ∫₀^{F_Q(b−a)} T_j(t(Q(u) + a + c)) du
 //	piece Q × piece R:  ∫₀^{F_Q(b−r₀)} ∫₀^{F_R(b−Q(u))} T_j(t(Q(u) + R(v) + c)) dv du
 //
-// (r₀ the start of R's support), by adaptive Gauss–Kronrod quadrature
-// (quad.go), the outer integral split where b − Q(u) meets the ends of
+// (r₀ the start of R's support), by tanh–sinh quadrature
+// (tanhsinh.go), the outer integral split where b − Q(u) meets the ends of
 // R's support. The integrands are bounded and smooth whatever the shape of
 // the densities, so a singular start, a peak a thousand times narrower
 // than the period or a heavy tail costs no more than a smooth law. The

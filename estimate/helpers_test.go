@@ -67,8 +67,8 @@ func scalarDeadbeat(a, h float64, prof *profiles.Profile, policy profiles.Actuat
 
 // servo is a smooth test loop: a DC motor position plant
 // (A = [[0, 1], [0, −2]], B = [0; 3], C = [1, 0]) with process and sensor
-// noise, a PI-like dynamic controller, setpoint 0.5 — the example of the
-// loop format of profiles/doc.go, with a profile of the caller's.
+// noise, a PI-like dynamic controller, setpoint 0.5 — the loop of
+// profiles/testdata/loops/good.yaml, with a profile of the caller's.
 func servo(prof *profiles.Profile, c float64) *profiles.Loop {
 	return &profiles.Loop{
 		Period: 0.01,

@@ -19,7 +19,7 @@
 //	                                    // safe from any goroutine, payload not retained
 //	m.SetSource(tap)                    // optional: Serve decodes only datagrams from tap (port 0: any port of
 //	                                    // its address); the others are counted as strangers, never decoded
-//	err = m.Serve(ctx, conn)            // or: read datagrams from a net.PacketConn until ctx ends
+//	err = m.Serve(ctx, conn)            // or: read datagrams from a *net.UDPConn until ctx ends
 //	err = m.ServeFor(ctx, conn, d, every, w) // Serve for d (0: until ctx ends), a status line on w every interval
 //	p := m.Progress()                   // Progress{Elapsed, Samples, Measured, CILow, CIHigh, Predicted}; p.String() for a status line
 //	s := m.Summary()                    // Summary: the JSON summary of `monitor run` (json tags), with Verdict,

@@ -30,7 +30,7 @@ type DelayFit struct {
 	K      int
 	AIC    float64
 	// KS is the Kolmogorov–Smirnov statistic of the sample against the
-	// fitted law and KSP its p-value by [KSPValue]. The parameters were
+	// fitted law and KSP its p-value by [laws.KSPValue]. The parameters were
 	// estimated from the same sample, so the p-value is conservative (too
 	// large): the Lilliefors effect (H. W. Lilliefors, JASA 62(318),
 	// 1967).
