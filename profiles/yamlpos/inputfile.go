@@ -18,6 +18,7 @@ import (
 	"io/fs"
 	"os"
 	"strconv"
+	"strings"
 	"syscall"
 )
 
@@ -242,42 +243,31 @@ func Token(s string) string {
 // repeats a line of a file that is not a delay list at all (no line of a
 // password or configuration file passes).
 func ShownNumber(s string) string {
-	if s == "" {
-		return "nothing"
-	}
-	if len(s) <= 24 {
-		ok := true
-		for _, r := range s {
-			if !(r == '.' || r == '+' || r == '-' || r == '_' || r == 'µ' || r == 'μ' || ('0' <= r && r <= '9') || ('a' <= r && r <= 'z') || ('A' <= r && r <= 'Z')) {
-				ok = false
-				break
-			}
-		}
-		if ok {
-			return Token(s)
-		}
-	}
-	return "text that is not a number"
+	return shown(s, "text that is not a number", func(r rune) bool {
+		return r == '.' || r == '+' || r == '-' || r == '_' || r == 'µ' || r == 'μ' || isWordRune(r)
+	})
 }
 
 // ShownWord is like ShownNumber for a field that should have been a word
 // (a column name, a status): quoted when it is a short word of letters,
 // digits and underscores.
 func ShownWord(s string) string {
+	return shown(s, "text that is not one", func(r rune) bool { return r == '_' || isWordRune(r) })
+}
+
+// shown quotes s when it is at most 24 bytes of runes that fit; else it
+// is other.
+func shown(s, other string, fits func(rune) bool) string {
 	if s == "" {
 		return "nothing"
 	}
-	if len(s) <= 24 {
-		ok := true
-		for _, r := range s {
-			if !(r == '_' || ('0' <= r && r <= '9') || ('a' <= r && r <= 'z') || ('A' <= r && r <= 'Z')) {
-				ok = false
-				break
-			}
-		}
-		if ok {
-			return Token(s)
-		}
+	if len(s) <= 24 && !strings.ContainsFunc(s, func(r rune) bool { return !fits(r) }) {
+		return Token(s)
 	}
-	return "text that is not one"
+	return other
+}
+
+// isWordRune is an ASCII letter or digit.
+func isWordRune(r rune) bool {
+	return ('0' <= r && r <= '9') || ('a' <= r && r <= 'z') || ('A' <= r && r <= 'Z')
 }
