@@ -1,14 +1,16 @@
 package fit
 
 import (
+	"cmp"
 	"errors"
 	"fmt"
 	"math"
-	"rigwire/profiles/laws"
 	"slices"
 
 	"gonum.org/v1/gonum/mat"
 	"gonum.org/v1/gonum/mathext"
+
+	"rigwire/profiles/laws"
 )
 
 // DelayFit is the maximum-likelihood fit of one delay kind to a sample.
@@ -116,15 +118,9 @@ func Delays(xs []float64) ([]DelayFit, error) {
 	if len(fits) == 0 {
 		return nil, fmt.Errorf("fitting delays: no kind could be fitted")
 	}
-	slices.SortStableFunc(fits, func(a, b DelayFit) int {
-		switch {
-		case a.AIC < b.AIC:
-			return -1
-		case a.AIC > b.AIC:
-			return 1
-		}
-		return 0
-	})
+	// Every AIC is finite (fitKind drops a kind without a finite
+	// likelihood), so cmp.Compare orders them as < does.
+	slices.SortStableFunc(fits, func(a, b DelayFit) int { return cmp.Compare(a.AIC, b.AIC) })
 	return fits, nil
 }
 
