@@ -24,23 +24,49 @@ import (
 
 var metricName = regexp.MustCompile(`\brigwire_[a-z0-9_]+`)
 
-// queryStrings collects the PromQL of a dashboard: every "expr" of a panel
-// target and every "query" of a template variable.
-func queryStrings(v any, into *[]string) {
-	switch v := v.(type) {
-	case map[string]any:
-		for k, x := range v {
-			if s, ok := x.(string); ok && (k == "expr" || k == "query") {
-				*into = append(*into, s)
+const dashboardFile = "../deploy/dashboard/rigwire-bench.json"
+
+// readDashboard returns the shipped dashboard's JSON.
+func readDashboard(t *testing.T) any {
+	t.Helper()
+	data, err := os.ReadFile(dashboardFile)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var dash any
+	if err := json.Unmarshal(data, &dash); err != nil {
+		t.Fatalf("%s: %v", filepath.Base(dashboardFile), err)
+	}
+	return dash
+}
+
+// stringsAt collects, anywhere in a JSON value, the strings held by the
+// given keys.
+func stringsAt(v any, keys ...string) []string {
+	var out []string
+	var walk func(v any)
+	walk = func(v any) {
+		switch v := v.(type) {
+		case map[string]any:
+			for k, x := range v {
+				if s, ok := x.(string); ok && slices.Contains(keys, k) {
+					out = append(out, s)
+				}
+				walk(x)
 			}
-			queryStrings(x, into)
-		}
-	case []any:
-		for _, x := range v {
-			queryStrings(x, into)
+		case []any:
+			for _, x := range v {
+				walk(x)
+			}
 		}
 	}
+	walk(v)
+	return out
 }
+
+// queryStrings is the PromQL of a dashboard: every "expr" of a panel
+// target and every "query" of a template variable.
+func queryStrings(dash any) []string { return stringsAt(dash, "expr", "query") }
 
 // beltLoop is a small loop of our own (a belt's speed, first order, under
 // proportional control) with a decode section, for the monitor's metrics.
@@ -146,16 +172,7 @@ func known(served map[string]bool, name string) bool {
 func TestDeployedQueriesUseServedMetrics(t *testing.T) {
 	served := servedNames(t)
 
-	var dashQueries []string
-	data, err := os.ReadFile("../deploy/dashboard/rigwire-bench.json")
-	if err != nil {
-		t.Fatal(err)
-	}
-	var dash any
-	if err := json.Unmarshal(data, &dash); err != nil {
-		t.Fatalf("rigwire-bench.json: %v", err)
-	}
-	queryStrings(dash, &dashQueries)
+	dashQueries := queryStrings(readDashboard(t))
 
 	var rules struct {
 		Groups []struct {
@@ -165,7 +182,7 @@ func TestDeployedQueriesUseServedMetrics(t *testing.T) {
 			} `yaml:"rules"`
 		} `yaml:"groups"`
 	}
-	data, err = os.ReadFile(promDir + "/rigwire.rules.yml")
+	data, err := os.ReadFile(promDir + "/rigwire.rules.yml")
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -221,16 +238,7 @@ var dashboardVars = strings.NewReplacer(`$relay_job`, `.*`, `$monitor_job`, `.*`
 // substituted, is a recording rule that promtool check rules accepts.
 func TestDashboardQueriesParse(t *testing.T) {
 	promtool := needTool(t, "promtool", "prometheus")
-	data, err := os.ReadFile("../deploy/dashboard/rigwire-bench.json")
-	if err != nil {
-		t.Fatal(err)
-	}
-	var dash any
-	if err := json.Unmarshal(data, &dash); err != nil {
-		t.Fatalf("rigwire-bench.json: %v", err)
-	}
-	var queries []string
-	queryStrings(dash, &queries)
+	queries := queryStrings(readDashboard(t))
 	type rule struct {
 		Record string `yaml:"record"`
 		Expr   string `yaml:"expr"`
@@ -256,24 +264,6 @@ func TestDashboardQueriesParse(t *testing.T) {
 	t.Logf("%d queries parse", len(rules))
 }
 
-// colourStrings collects every colour the dashboard sets: "fixedColor"
-// and the "color" of a value mapping.
-func colourStrings(v any, into *[]string) {
-	switch v := v.(type) {
-	case map[string]any:
-		for k, x := range v {
-			if s, ok := x.(string); ok && (k == "fixedColor" || k == "color") {
-				*into = append(*into, s)
-			}
-			colourStrings(x, into)
-		}
-	case []any:
-		for _, x := range v {
-			colourStrings(x, into)
-		}
-	}
-}
-
 // The colours the dashboard sets are the project's own palette (the one
 // the soak report and the prediction plots draw with), never a plotting
 // library's default cycle.
@@ -282,16 +272,9 @@ func TestDashboardColoursFromPalette(t *testing.T) {
 	for _, c := range append(slices.Clone(report.Palette), report.Ink, report.Mist) {
 		ours[fmt.Sprintf("#%02x%02x%02x", c.R, c.G, c.B)] = true
 	}
-	data, err := os.ReadFile("../deploy/dashboard/rigwire-bench.json")
-	if err != nil {
-		t.Fatal(err)
-	}
-	var dash any
-	if err := json.Unmarshal(data, &dash); err != nil {
-		t.Fatalf("rigwire-bench.json: %v", err)
-	}
-	var colours []string
-	colourStrings(dash, &colours)
+	// Every colour the dashboard sets: "fixedColor" and the "color" of a
+	// value mapping.
+	colours := stringsAt(readDashboard(t), "fixedColor", "color")
 	if len(colours) == 0 {
 		t.Fatal("the dashboard sets no colour")
 	}
