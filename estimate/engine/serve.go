@@ -75,6 +75,16 @@ func (m *Monitor) stranger(src netip.AddrPort) bool {
 	return true
 }
 
+// strangerTotal is the datagrams counted as strangers, every reason
+// together. Under the lock.
+func (m *Monitor) strangerTotal() int64 {
+	var n int64
+	for _, c := range m.strangers {
+		n += c
+	}
+	return n
+}
+
 // Source is the source set with SetSource (zero: every source).
 func (m *Monitor) Source() netip.AddrPort {
 	m.mu.Lock()

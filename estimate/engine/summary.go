@@ -145,7 +145,7 @@ func (m *Monitor) Summary() *Summary {
 		Effective: finite(st.EffectiveSamples), Batches: st.Batches, BatchSize: st.BatchSize,
 		BatchesMerged: st.Merged, BatchCorrelation: finite(st.BatchCorrelation), BatchCorrelationZ: finite(st.BatchCorrelationZ),
 		CIMethod: CIMethod, AfterTripSamples: m.afterTrip,
-		Datagrams: m.datagrams, Strangers: m.strangers[StrangerOtherHost] + m.strangers[StrangerOtherPort], Gaps: m.seq.Counts.Gaps, Late: m.seq.Counts.Late,
+		Datagrams: m.datagrams, Strangers: m.strangerTotal(), Gaps: m.seq.Counts.Gaps, Late: m.seq.Counts.Late,
 		Duplicates: m.seq.Counts.Duplicates, Stale: m.seq.Counts.Stale, Restarts: m.seq.Counts.Restarts,
 		DecodeFailures: map[string]int64{}, SkippedWarmup: m.skipped,
 		WarmupSeconds: float64(m.skipped) * m.loop.Period,
@@ -205,9 +205,7 @@ func (m *Monitor) Progress() Progress {
 	for _, f := range m.failures {
 		p.Rejected += f
 	}
-	for _, n := range m.strangers {
-		p.Strangers += n
-	}
+	p.Strangers = m.strangerTotal()
 	return p
 }
 
