@@ -1,7 +1,6 @@
 package tests
 
 import (
-	"fmt"
 	"net"
 	"os"
 	"os/exec"
@@ -125,23 +124,8 @@ func TestSystemdEnvWiresTheTrip(t *testing.T) {
 	}
 
 	dir := t.TempDir()
-	block := filepath.Join(dir, "profile.yaml")
-	if err := os.WriteFile(block, []byte("name: block\nsensor_to_controller: {loss: 1}\n"), 0o644); err != nil {
-		t.Fatal(err)
-	}
-	loopSrc, err := os.ReadFile(monitorLoop)
-	if err != nil {
-		t.Fatal(err)
-	}
-	loop := filepath.Join(dir, "loop.yaml")
-	if err := os.WriteFile(loop, append(loopSrc, []byte("trip: {max_abs_error: 0.5}\n")...), 0o644); err != nil {
-		t.Fatal(err)
-	}
-	ctl, err := net.ListenUDP("udp4", &net.UDPAddr{IP: net.IPv4(127, 0, 0, 1)})
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer ctl.Close()
+	block, loop := tripFiles(t, dir)
+	ctl := udpLoopback(t)
 
 	moved := map[string]string{}
 	move := func(addr, network string) string {
@@ -180,24 +164,12 @@ func TestSystemdEnvWiresTheTrip(t *testing.T) {
 	mon := start(t, buildCmd(t, "monitor"), append(append([]string{"run"}, monArgs...), "--progress", "0", "--no-margin")...)
 	waitHTTP(t, "http://"+flagValue(monArgs, "metrics")+"/metrics", mon)
 
-	sensor, err := net.ListenUDP("udp4", &net.UDPAddr{IP: net.IPv4(127, 0, 0, 1)})
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer sensor.Close()
+	sensor := udpLoopback(t)
 	relayAddr, err := net.ResolveUDPAddr("udp4", flagValue(relayArgs, "listen"))
 	if err != nil {
 		t.Fatal(err)
 	}
-	// y = 0 against the setpoint 1.2: |e| = 1.2 > 0.5 trips at once.
-	send := func(from, n int) {
-		for k := from; k < from+n; k++ {
-			if _, err := sensor.WriteToUDP([]byte(fmt.Sprintf("%d,%.3f,0", k, float64(k)*0.02)), relayAddr); err != nil {
-				t.Fatal(err)
-			}
-		}
-	}
-	send(0, 5)
+	tripSamples(t, sensor, relayAddr, 0, 5)
 	deadline := time.Now().Add(20 * time.Second)
 	for scrape(t, relayURL)["rigwire_relay_tripped"][""] != 1 {
 		if time.Now().After(deadline) {
@@ -209,17 +181,8 @@ func TestSystemdEnvWiresTheTrip(t *testing.T) {
 	if s := scrape(t, relayURL)["rigwire_relay_sensor_source_info"]; len(s) != 1 {
 		t.Errorf("sensor source %v, want the pinned node only", s)
 	}
-	send(5, 10)
-	buf := make([]byte, 256)
-	got := 0
-	for got < 10 {
-		ctl.SetReadDeadline(time.Now().Add(3 * time.Second))
-		if _, _, err := ctl.ReadFromUDP(buf); err != nil {
-			break
-		}
-		got++
-	}
-	if got != 10 {
+	tripSamples(t, sensor, relayAddr, 5, 10)
+	if got := arrivals(ctl, 10, 3*time.Second); got != 10 {
 		t.Errorf("after the trip (--on-trip %s) the controller got %d of 10", flagValue(relayArgs, "on-trip"), got)
 	}
 	mon.signal(t, syscall.SIGTERM)

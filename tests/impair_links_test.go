@@ -11,6 +11,53 @@ import (
 	"time"
 )
 
+// tripFiles writes, in dir, the files the trip-wire tests run on: a
+// profile that drops every sensor datagram (loss 1) and the monitor's
+// check loop with a trip at |e| > 0.5, which its samples with y = 0
+// against the setpoint 1.2 cross at once (tripSamples).
+func tripFiles(t *testing.T, dir string) (profile, loop string) {
+	t.Helper()
+	profile = filepath.Join(dir, "block.yaml")
+	if err := os.WriteFile(profile, []byte("name: block\nsensor_to_controller: {loss: 1}\n"), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	loopSrc, err := os.ReadFile(monitorLoop)
+	if err != nil {
+		t.Fatal(err)
+	}
+	loop = filepath.Join(dir, "loop.yaml")
+	if err := os.WriteFile(loop, append(loopSrc, []byte("trip: {max_abs_error: 0.5}\n")...), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	return profile, loop
+}
+
+// tripSamples sends samples from … from+n−1 of the check loop with y = 0
+// (|e| = 1.2 > 0.5: each one trips) from c to addr.
+func tripSamples(t *testing.T, c *net.UDPConn, addr *net.UDPAddr, from, n int) {
+	t.Helper()
+	for k := from; k < from+n; k++ {
+		if _, err := c.WriteToUDP([]byte(fmt.Sprintf("%d,%.3f,0", k, float64(k)*0.02)), addr); err != nil {
+			t.Fatal(err)
+		}
+	}
+}
+
+// arrivals reads datagrams from c until want have come (0: no bound) or
+// none came for quiet, and returns how many came.
+func arrivals(c *net.UDPConn, want int, quiet time.Duration) int {
+	buf := make([]byte, 256)
+	n := 0
+	for want == 0 || n < want {
+		c.SetReadDeadline(time.Now().Add(quiet))
+		if _, _, err := c.ReadFromUDP(buf); err != nil {
+			break
+		}
+		n++
+	}
+	return n
+}
+
 // The monitor's safety trip reaches the relay over the trip wire: `monitor
 // run --trip-to` sends "rigwire-trip 1 abs_error" (three copies) to
 // `impair run --trip-listen`; the relay, which dropped every sensor
@@ -19,24 +66,8 @@ import (
 func TestMonitorTripsRelay(t *testing.T) {
 	impair, monitor := buildCmd(t, "impair"), buildCmd(t, "monitor")
 	dir := t.TempDir()
-	block := filepath.Join(dir, "block.yaml")
-	if err := os.WriteFile(block, []byte("name: block\nsensor_to_controller: {loss: 1}\n"), 0o644); err != nil {
-		t.Fatal(err)
-	}
-	loopSrc, err := os.ReadFile(monitorLoop)
-	if err != nil {
-		t.Fatal(err)
-	}
-	loop := filepath.Join(dir, "loop.yaml")
-	if err := os.WriteFile(loop, append(loopSrc, []byte("trip: {max_abs_error: 0.5}\n")...), 0o644); err != nil {
-		t.Fatal(err)
-	}
-
-	ctl, err := net.ListenUDP("udp4", &net.UDPAddr{IP: net.IPv4(127, 0, 0, 1)})
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer ctl.Close()
+	block, loop := tripFiles(t, dir)
+	ctl := udpLoopback(t)
 	relayListen, trip, relayMetrics := freePort(t, "udp"), freePort(t, "udp"), freePort(t, "tcp")
 	relay := start(t, impair, "run", "--profile", block, "--listen", relayListen, "--controller", ctl.LocalAddr().String(),
 		"--metrics", relayMetrics, "--trip-listen", trip, "--on-trip", "clean")
@@ -49,11 +80,7 @@ func TestMonitorTripsRelay(t *testing.T) {
 		"--summary", summary, "--progress", "0", "--no-margin", "--trip-to", trip)
 	waitHTTP(t, "http://"+monMetrics+"/metrics", mon)
 
-	sensor, err := net.ListenUDP("udp4", &net.UDPAddr{IP: net.IPv4(127, 0, 0, 1)})
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer sensor.Close()
+	sensor := udpLoopback(t)
 	relayAddr, _ := net.ResolveUDPAddr("udp4", relayListen)
 	monAddr, _ := net.ResolveUDPAddr("udp4", monListen)
 	sendRelay := func(n int) {
@@ -63,29 +90,12 @@ func TestMonitorTripsRelay(t *testing.T) {
 			}
 		}
 	}
-	received := func(want int, quiet time.Duration) int {
-		buf := make([]byte, 256)
-		n := 0
-		for want == 0 || n < want {
-			ctl.SetReadDeadline(time.Now().Add(quiet))
-			if _, _, err := ctl.ReadFromUDP(buf); err != nil {
-				break
-			}
-			n++
-		}
-		return n
-	}
 	sendRelay(10)
-	if n := received(0, 300*time.Millisecond); n != 0 {
+	if n := arrivals(ctl, 0, 300*time.Millisecond); n != 0 {
 		t.Fatalf("loss 1 forwarded %d before the trip", n)
 	}
 
-	// y = 0 against the setpoint 1.2: |e| = 1.2 > 0.5 trips at once.
-	for k := range 5 {
-		if _, err := sensor.WriteToUDP([]byte(fmt.Sprintf("%d,%.3f,0", k, float64(k)*0.02)), monAddr); err != nil {
-			t.Fatal(err)
-		}
-	}
+	tripSamples(t, sensor, monAddr, 0, 5)
 	deadline := time.Now().Add(20 * time.Second)
 	for {
 		s := scrape(t, relayURL)["rigwire_relay_trip_requests_total"]
@@ -101,7 +111,7 @@ func TestMonitorTripsRelay(t *testing.T) {
 		time.Sleep(20 * time.Millisecond)
 	}
 	sendRelay(10)
-	if n := received(10, 3*time.Second); n != 10 {
+	if n := arrivals(ctl, 10, 3*time.Second); n != 10 {
 		t.Errorf("after the trip the controller got %d of 10", n)
 	}
 
