@@ -18,6 +18,7 @@ import (
 	"go/parser"
 	"go/token"
 	"os"
+	"path"
 	"path/filepath"
 	"regexp"
 	"slices"
@@ -189,31 +190,17 @@ func parseGo(t *testing.T, fset *token.FileSet, path string) *ast.File {
 func loaderSources(t *testing.T) []string {
 	t.Helper()
 	var out []string
-	err := filepath.WalkDir("..", func(path string, d os.DirEntry, err error) error {
+	for _, rel := range goFiles(t) {
+		if strings.HasSuffix(rel, "_test.go") || strings.HasPrefix(rel, "tests/") || strings.HasPrefix(rel, "profiles/yamlpos/") {
+			continue
+		}
+		b, err := os.ReadFile(filepath.Join("..", rel))
 		if err != nil {
-			return err
-		}
-		rel := filepath.ToSlash(strings.TrimPrefix(path, "../"))
-		if d.IsDir() {
-			if d.Name() == ".git" || rel == "tests" || rel == "profiles/yamlpos" || d.Name() == "testdata" {
-				return filepath.SkipDir
-			}
-			return nil
-		}
-		if !strings.HasSuffix(rel, ".go") || strings.HasSuffix(rel, "_test.go") {
-			return nil
-		}
-		b, err := os.ReadFile(path)
-		if err != nil {
-			return err
+			t.Fatal(err)
 		}
 		if strings.Contains(string(b), ".Mapping(") {
 			out = append(out, rel)
 		}
-		return nil
-	})
-	if err != nil {
-		t.Fatal(err)
 	}
 	return out
 }
@@ -480,13 +467,9 @@ func TestFormatsDocCoversLoaderKeys(t *testing.T) {
 // containing after, within the "## " part headed section.
 func docExample(t *testing.T, text, section, after string) string {
 	t.Helper()
-	i := strings.Index(text, "\n"+section+"\n")
-	if i < 0 {
+	part, ok := markdownSection(text, section)
+	if !ok {
 		t.Fatalf("%s: no part %q", formatsDoc, section)
-	}
-	part := text[i+1:]
-	if j := strings.Index(part[len(section):], "\n## "); j >= 0 {
-		part = part[:len(section)+j]
 	}
 	k := strings.Index(part, after)
 	if k < 0 {
@@ -617,38 +600,30 @@ func TestModelDocCitations(t *testing.T) {
 	cite := regexp.MustCompile(`(?:estimate/)?model\.md(?: \(| )((?:§\d+(?:–§\d+)?(?:, | and )?)+)`)
 	num := regexp.MustCompile(`§(\d+)`)
 	count := 0
-	err = filepath.WalkDir("..", func(path string, d os.DirEntry, err error) error {
-		if err != nil {
-			return err
-		}
-		if d.IsDir() {
-			rel := filepath.ToSlash(path)
-			if name := d.Name(); name != ".." && (strings.HasPrefix(name, ".") || name == "testdata" && rel != "../estimate/testdata") {
-				return filepath.SkipDir
-			}
-			return nil
-		}
-		switch filepath.Ext(path) {
+	// Hidden folders and test data are left out, but for estimate's, which
+	// holds the reference scripts.
+	skip := func(dir string) bool {
+		name := path.Base(dir)
+		return strings.HasPrefix(name, ".") || name == "testdata" && dir != "estimate/testdata"
+	}
+	for _, rel := range repoFiles(t, skip) {
+		switch path.Ext(rel) {
 		case ".go", ".m", ".py", ".md":
 		default:
-			return nil
+			continue
 		}
-		b, err := os.ReadFile(path)
+		b, err := os.ReadFile(filepath.Join("..", rel))
 		if err != nil {
-			return err
+			t.Fatal(err)
 		}
 		for _, m := range cite.FindAllStringSubmatch(string(b), -1) {
 			for _, n := range num.FindAllStringSubmatch(m[1], -1) {
 				count++
 				if !have[n[1]] {
-					t.Errorf("%s: cites estimate/model.md §%s, which estimate/model.md does not have", path, n[1])
+					t.Errorf("%s: cites estimate/model.md §%s, which estimate/model.md does not have", rel, n[1])
 				}
 			}
 		}
-		return nil
-	})
-	if err != nil {
-		t.Fatal(err)
 	}
 	if count == 0 {
 		t.Error("no citation of estimate/model.md found; the walk is broken")

@@ -5,6 +5,7 @@ import (
 	"go/parser"
 	"go/token"
 	"os"
+	"path"
 	"path/filepath"
 	"regexp"
 	"slices"
@@ -27,28 +28,42 @@ const (
 	maxCommandFileLen = 250  // lines of one non-test file of a command
 )
 
-// goFiles lists the repository's Go files (relative, slash-separated),
-// skipping .git and testdata.
-func goFiles(t *testing.T) []string {
+// repoFiles lists the repository's files (relative to its root,
+// slash-separated), leaving out .git and every folder skip says (given
+// its relative path). The checks of the tree and of its documents all
+// walk it with this.
+func repoFiles(t *testing.T, skip func(dir string) bool) []string {
 	t.Helper()
 	var out []string
-	err := filepath.WalkDir("..", func(path string, d os.DirEntry, err error) error {
+	err := filepath.WalkDir("..", func(p string, d os.DirEntry, err error) error {
 		if err != nil {
 			return err
 		}
+		rel := filepath.ToSlash(strings.TrimPrefix(p, "../"))
 		if d.IsDir() {
-			if n := d.Name(); n == ".git" || n == "testdata" {
+			if p != ".." && (d.Name() == ".git" || skip(rel)) {
 				return filepath.SkipDir
 			}
 			return nil
 		}
-		if strings.HasSuffix(path, ".go") {
-			out = append(out, filepath.ToSlash(strings.TrimPrefix(path, "../")))
-		}
+		out = append(out, rel)
 		return nil
 	})
 	if err != nil {
 		t.Fatal(err)
+	}
+	return out
+}
+
+// goFiles lists the repository's Go files (relative, slash-separated),
+// skipping testdata.
+func goFiles(t *testing.T) []string {
+	t.Helper()
+	var out []string
+	for _, f := range repoFiles(t, func(dir string) bool { return path.Base(dir) == "testdata" }) {
+		if strings.HasSuffix(f, ".go") {
+			out = append(out, f)
+		}
 	}
 	return out
 }
@@ -172,22 +187,33 @@ func TestLayoutPackages(t *testing.T) {
 	}
 }
 
-// markdownSection returns the text of the markdown section that starts with
-// heading, up to the next heading of the same level.
-func markdownSection(t *testing.T, doc, heading string) string {
+// markdownSection returns the text under the heading line of a markdown
+// text, up to the next "## " heading; ok is false when text has no such
+// heading. The layout's and the formats' checks both read documents with
+// it.
+func markdownSection(text, heading string) (section string, ok bool) {
+	i := strings.Index(text, "\n"+heading+"\n")
+	if i < 0 {
+		return "", false
+	}
+	section = text[i+len(heading)+2:]
+	if j := strings.Index(section, "\n## "); j >= 0 {
+		section = section[:j]
+	}
+	return section, true
+}
+
+// docSection is the section under heading of the repository's document
+// doc (markdownSection).
+func docSection(t *testing.T, doc, heading string) string {
 	t.Helper()
 	b, err := os.ReadFile(filepath.Join("..", doc))
 	if err != nil {
 		t.Fatal(err)
 	}
-	s := string(b)
-	i := strings.Index(s, "\n"+heading+"\n")
-	if i < 0 {
+	s, ok := markdownSection(string(b), heading)
+	if !ok {
 		t.Fatalf("%s: no section %q", doc, heading)
-	}
-	s = s[i+len(heading)+2:]
-	if j := strings.Index(s, "\n## "); j >= 0 {
-		s = s[:j]
 	}
 	return s
 }
@@ -220,7 +246,7 @@ func TestLayoutDocumented(t *testing.T) {
 		return exists(filepath.Join(dir, name))
 	}
 
-	readme := markdownSection(t, "README.md", "## How it fits together")
+	readme := docSection(t, "README.md", "## How it fits together")
 	for _, p := range repoPath.FindAllString(readme, -1) {
 		if !exists(p) {
 			t.Errorf("README.md, How it fits together: %s does not exist", p)
@@ -232,7 +258,7 @@ func TestLayoutDocumented(t *testing.T) {
 		}
 	}
 
-	table := markdownSection(t, "DEVELOPERS.md", "## Where things live")
+	table := docSection(t, "DEVELOPERS.md", "## Where things live")
 	rows := map[string]bool{}
 	for _, line := range strings.Split(table, "\n") {
 		if !strings.HasPrefix(line, "| `") {
