@@ -2,8 +2,9 @@ package tests
 
 // profiles/formats.md against the loaders. The key lists are read from the
 // loaders' own source: every call of yamlpos.Field.Mapping (the one way a
-// YAML file's keys are accepted) in profiles/, emulate/links/file.go and
-// deploy/lab/config.go, the delay kinds' table (delayKinds in
+// YAML file's keys are accepted) in every loader, wherever it sits
+// (profiles/, emulate/trip/rule.go, emulate/links/file.go,
+// deploy/lab/config.go), the delay kinds' table (delayKinds in
 // profiles/delayparse.go) and the trace's metadata switch; the CSV
 // columns from the exported lists (trace.TraceColumns,
 // emulate.RecordColumns). Each key table of the reference is marked with
