@@ -9,6 +9,7 @@ import (
 	"strings"
 	"testing"
 
+	"rigwire/emulate"
 	"rigwire/estimate/engine"
 	"rigwire/profiles"
 )
@@ -109,10 +110,10 @@ func TestHistMedian(t *testing.T) {
 		})
 	}
 	// Counts between two snapshots.
-	a := delaySnap{upper: []float64{0.001, math.Inf(1)}, cum: []float64{3, 5}}
-	b := delaySnap{upper: []float64{0.001, math.Inf(1)}, cum: []float64{10, 15}}
-	h, ok := diffHistogram(a, b)
-	if !ok || h.Counts[0] != 7 || h.Counts[1] != 3 {
+	a := emulate.Histogram{Count: 5, Buckets: []emulate.Bucket{{UpperBound: 0.001, Count: 3}}}
+	b := emulate.Histogram{Count: 15, Buckets: []emulate.Bucket{{UpperBound: 0.001, Count: 10}}}
+	h := bucketCounts(a, b)
+	if len(h.Counts) != 2 || h.Counts[0] != 7 || h.Counts[1] != 3 || !math.IsInf(h.Upper[1], 1) {
 		t.Errorf("diff %v, want [7 3]", h.Counts)
 	}
 }

@@ -11,20 +11,11 @@ import (
 	"rigwire/profiles"
 )
 
-// netSnap is the relay's counters at one moment: per direction, the
-// datagrams by outcome and the delay histogram (cumulative counts by
-// upper bound, sum and count).
+// netSnap is the relay's counters at one moment, with the order in which
+// it was taken among the recorder's marks.
 type netSnap struct {
-	seq      int
-	outcomes map[string]map[string]float64
-	delay    map[string]delaySnap
-}
-
-type delaySnap struct {
-	upper []float64 // increasing; the last is +Inf
-	cum   []float64 // cumulative counts
-	sum   float64
-	count float64
+	seq int
+	st  emulate.Stats
 }
 
 // Recorder keeps the relay's counters at each phase's start, at the
@@ -65,27 +56,7 @@ func NewRecorder(mon *engine.Monitor, stats func() emulate.Stats) *Recorder {
 }
 
 // snap reads the relay's counters now.
-func (r *Recorder) snap() *netSnap {
-	st := r.stats()
-	s := &netSnap{outcomes: map[string]map[string]float64{}, delay: map[string]delaySnap{}}
-	for _, d := range st.Directions() {
-		oc := map[string]float64{}
-		for _, o := range d.Outcomes() {
-			oc[o.Outcome] = float64(o.Count)
-		}
-		s.outcomes[d.Direction] = oc
-		var ds delaySnap
-		for _, b := range d.Delay.Buckets {
-			ds.upper = append(ds.upper, b.UpperBound)
-			ds.cum = append(ds.cum, float64(b.Count))
-		}
-		ds.upper = append(ds.upper, math.Inf(1))
-		ds.cum = append(ds.cum, float64(d.Delay.Count))
-		ds.sum, ds.count = d.Delay.Sum, float64(d.Delay.Count)
-		s.delay[d.Direction] = ds
-	}
-	return s
-}
+func (r *Recorder) snap() *netSnap { return &netSnap{st: r.stats()} }
 
 func (r *Recorder) mark(s *netSnap) *netSnap {
 	r.seq++
@@ -209,48 +180,52 @@ func (r *Recorder) phaseMeasure(k int) []DirectionMeasure {
 		return nil
 	}
 	var out []DirectionMeasure
-	for _, dir := range []string{profiles.SensorToController, profiles.ControllerToActuator} {
-		m := DirectionMeasure{Direction: dir, DelayMedian: math.NaN()}
-		for outcome, v := range to.outcomes[dir] {
-			n := int64(math.Round(v - from.outcomes[dir][outcome]))
-			m.Datagrams += n
-			switch outcome {
-			case "forwarded":
-			case "dropped":
-				m.Dropped += n
-			default:
-				m.Other += n
-			}
+	fromDirs, toDirs := from.st.Directions(), to.st.Directions()
+	for i, dir := range []string{profiles.SensorToController, profiles.ControllerToActuator} {
+		a, b := fromDirs[i], toDirs[i]
+		m := DirectionMeasure{Direction: dir,
+			Datagrams: int64(b.Read()) - int64(a.Read()),
+			Dropped:   int64(b.Dropped) - int64(a.Dropped),
+			Delays:    int64(b.Delay.Count) - int64(a.Delay.Count),
+			DelaySum:  b.Delay.Sum - a.Delay.Sum,
 		}
-		a, b := from.delay[dir], to.delay[dir]
-		m.Delays = int64(math.Round(b.count - a.count))
-		m.DelaySum = b.sum - a.sum
-		if h, ok := diffHistogram(a, b); ok {
-			m.DelayMedian = histMedian(h)
-		}
+		m.Other = m.Datagrams - m.Dropped - (int64(b.Forwarded) - int64(a.Forwarded))
+		m.DelayMedian = histMedian(bucketCounts(a.Delay, b.Delay))
 		out = append(out, m)
 	}
 	return out
 }
 
-// diffHistogram is the non-cumulative histogram of the delays between two
-// snapshots.
-func diffHistogram(a, b delaySnap) (Histogram, bool) {
-	if len(b.upper) == 0 {
-		return Histogram{}, false
+// bucketCounts is the non-cumulative histogram of what the relay's
+// histogram b counted since a (a zero a: since the start), its overflow
+// bucket (+Inf) last; a differs from b only when both have the same
+// buckets.
+func bucketCounts(a, b emulate.Histogram) Histogram {
+	// cum is h's cumulative count at bucket i, the overflow bucket's
+	// (every observation) after the last.
+	cum := func(h emulate.Histogram, i int) float64 {
+		if i < len(h.Buckets) {
+			return float64(h.Buckets[i].Count)
+		}
+		return float64(h.Count)
 	}
+	since := len(a.Buckets) == len(b.Buckets)
 	var h Histogram
 	prev := 0.0
-	for i, u := range b.upper {
-		c := b.cum[i]
-		if i < len(a.cum) && len(a.upper) == len(b.upper) {
-			c -= a.cum[i]
+	for i := 0; i <= len(b.Buckets); i++ {
+		u := math.Inf(1)
+		if i < len(b.Buckets) {
+			u = b.Buckets[i].UpperBound
+		}
+		c := cum(b, i)
+		if since {
+			c -= cum(a, i)
 		}
 		h.Upper = append(h.Upper, u)
 		h.Counts = append(h.Counts, math.Max(c-prev, 0))
 		prev = c
 	}
-	return h, true
+	return h
 }
 
 // histMedian reads the median off a histogram, linear within its bucket
@@ -291,14 +266,10 @@ func (r *Recorder) delays() (during, after map[string]Histogram) {
 	if cut == nil {
 		return during, after
 	}
-	for dir, ds := range cut.delay {
-		if h, ok := diffHistogram(delaySnap{}, ds); ok {
-			during[dir] = h
-		}
+	for i, d := range cut.st.Directions() {
+		during[d.Direction] = bucketCounts(emulate.Histogram{}, d.Delay)
 		if r.trip != nil && r.end != nil {
-			if h, ok := diffHistogram(ds, r.end.delay[dir]); ok {
-				after[dir] = h
-			}
+			after[d.Direction] = bucketCounts(d.Delay, r.end.st.Directions()[i].Delay)
 		}
 	}
 	return during, after
@@ -309,17 +280,7 @@ func (r *Recorder) delays() (during, after map[string]Histogram) {
 func (r *Recorder) LossRuns() map[string]Histogram {
 	out := map[string]Histogram{}
 	for _, d := range r.stats().Directions() {
-		var h Histogram
-		prev := 0.0
-		for _, b := range d.LossRuns.Buckets {
-			c := float64(b.Count)
-			h.Upper = append(h.Upper, b.UpperBound)
-			h.Counts = append(h.Counts, c-prev)
-			prev = c
-		}
-		h.Upper = append(h.Upper, math.Inf(1))
-		h.Counts = append(h.Counts, float64(d.LossRuns.Count)-prev)
-		out[d.Direction] = h
+		out[d.Direction] = bucketCounts(emulate.Histogram{}, d.LossRuns)
 	}
 	return out
 }
