@@ -3,7 +3,6 @@ package emulate
 import (
 	"io"
 	"log/slog"
-	"math"
 	"net"
 	"net/netip"
 	"testing"
@@ -177,22 +176,11 @@ func TestReceivePathDoesNotAllocate(t *testing.T) {
 			sb, cb := r.newRxBatch(), r.newRxBatch()
 			var held [batchSize]*packet
 			var out [batchSize]message
-			release := func(d *direction) {
-				for {
-					d.mu.Lock()
-					k := d.popDueLocked(math.MaxInt64, held[:])
-					d.mu.Unlock()
-					if k == 0 {
-						return
-					}
-					d.sendPopped(held[:k], out[:k])
-				}
-			}
 			allocs := testing.AllocsPerRun(200, func() {
 				r.handleBatch(sensor, sb, fill(sb, sensorAddr))
 				r.handleBatch(command, cb, fill(cb, controllerAddr))
-				release(r.sc)
-				release(r.ca)
+				releaseAll(r.sc, held[:], out[:])
+				releaseAll(r.ca, held[:], out[:])
 			})
 			if allocs != 0 {
 				t.Errorf("%v allocations per pair of batches, want 0", allocs)

@@ -2,7 +2,6 @@ package emulate
 
 import (
 	"encoding/binary"
-	"math"
 	"net/netip"
 	"testing"
 
@@ -67,12 +66,8 @@ func fuzzBody(t *testing.T, stream []byte) {
 		r.handleBatch(s, rx, 1)
 		pushed[which&1]++
 		if which&0x80 != 0 { // now and then, release everything scheduled
-			for _, d := range []*direction{r.sc, r.ca} {
-				d.mu.Lock()
-				k := d.popDueLocked(math.MaxInt64, batch[:])
-				d.mu.Unlock()
-				d.sendPopped(batch[:k], out[:k])
-			}
+			releaseAll(r.sc, batch[:], out[:])
+			releaseAll(r.ca, batch[:], out[:])
 		}
 	}
 	for i, d := range []*direction{r.sc, r.ca} {

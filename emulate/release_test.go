@@ -2,6 +2,7 @@ package emulate
 
 import (
 	"fmt"
+	"math"
 	"math/rand/v2"
 	"testing"
 	"testing/synctest"
@@ -56,6 +57,21 @@ func TestReleaseOnTime(t *testing.T) {
 			t.Errorf("forwarded counter %d, want 3", got)
 		}
 	})
+}
+
+// releaseAll sends everything d holds, due or not, as its release
+// goroutine would send what is due; batch and out are scratch of the same
+// length.
+func releaseAll(d *direction, batch []*packet, out []message) {
+	for {
+		d.mu.Lock()
+		k := d.popDueLocked(math.MaxInt64, batch)
+		d.mu.Unlock()
+		if k == 0 {
+			return
+		}
+		d.sendPopped(batch[:k], out[:k])
+	}
 }
 
 // stepDelays is a delay law for tests that returns its delays in turn.
