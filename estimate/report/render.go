@@ -16,7 +16,7 @@ import (
 )
 
 // The one render path of every plot rigwire draws: the soak report's
-// figures (render, renderSVG) and monitor predict's --plot files
+// figures (renderFigure) and monitor predict's --plot files
 // (writeStack) are drawn by paint on a canvas of plotWidth, in the
 // palette of palette.go, with the axes of axes.go.
 
@@ -66,10 +66,6 @@ func recoverDrawing(err *error) {
 // render draws a report figure's plot as PNG: the plot above, its legend
 // in a strip below.
 func render(p *plot.Plot) ([]byte, error) { return renderFigure("png", p) }
-
-// renderSVG draws p as SVG, laid out as render lays out the PNG (the
-// tests read the SVG's coordinates).
-func renderSVG(p *plot.Plot) ([]byte, error) { return renderFigure("svg", p) }
 
 func renderFigure(format string, p *plot.Plot) (b []byte, err error) {
 	defer recoverDrawing(&err)

@@ -209,13 +209,14 @@ func overlap(p, q [4][2]float64, slack float64) bool {
 	return true
 }
 
-// figureSVG renders a report figure as SVG, laid out as its PNG.
+// figureSVG renders a report figure as SVG, laid out as its PNG (the
+// tests read the SVG's coordinates).
 func figureSVG(t *testing.T, f *figure) []byte {
 	t.Helper()
 	if f.plot == nil {
 		t.Fatalf("%s: not drawn (%s)", f.Title, f.NoData)
 	}
-	b, err := renderSVG(f.plot)
+	b, err := renderFigure("svg", f.plot)
 	if err != nil {
 		t.Fatal(err)
 	}
