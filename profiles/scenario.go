@@ -822,17 +822,10 @@ func (s *Scenario) checkValues() error {
 }
 
 // treeSize counts the values of a YAML tree with its aliases expanded
-// (yamlpos.Document has already bounded it).
+// (yamlpos.TreeSize; yamlpos.Document has already bounded the tree).
 func treeSize(n *yaml.Node) int64 {
-	n = yamlpos.Resolve(n)
-	if n == nil {
-		return 0
-	}
-	c := int64(1)
-	for _, k := range n.Content {
-		c += treeSize(k)
-	}
-	return c
+	c, _ := yamlpos.TreeSize(n, math.MaxInt)
+	return int64(c)
 }
 
 // heldDelays counts the delays the profile's laws hold (empirical

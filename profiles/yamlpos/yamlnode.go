@@ -134,12 +134,11 @@ func Document(file string, data []byte) (Field, error) {
 // (see Field.CheckSize).
 const MaxNodes = 100_000
 
-// CheckSize returns an error when the field's tree, counted with every
-// alias expanded, holds more than limit nodes: a small file whose aliases
-// refer to aliases can stand for an enormous tree ("billion laughs"), and
-// decoders that walk it would never finish. The walk stops at the limit.
-func (f Field) CheckSize(limit int) error {
-	count := 0
+// TreeSize counts the values of n's tree with every alias expanded. The
+// count stops, with ok false, once it passes limit or the tree is more
+// than 1000 levels deep; a tree of a document Document returned is
+// neither, so its count with limit math.MaxInt is exact.
+func TreeSize(n *yaml.Node, limit int) (count int, ok bool) {
 	var walk func(n *yaml.Node, depth int) bool
 	walk = func(n *yaml.Node, depth int) bool {
 		n = Resolve(n)
@@ -157,7 +156,16 @@ func (f Field) CheckSize(limit int) error {
 		}
 		return true
 	}
-	if !walk(f.Node, 0) {
+	ok = walk(n, 0)
+	return count, ok
+}
+
+// CheckSize returns an error when the field's tree, counted with every
+// alias expanded, holds more than limit nodes: a small file whose aliases
+// refer to aliases can stand for an enormous tree ("billion laughs"), and
+// decoders that walk it would never finish. The walk stops at the limit.
+func (f Field) CheckSize(limit int) error {
+	if _, ok := TreeSize(f.Node, limit); !ok {
 		return f.Errorf("want at most %d values with aliases expanded, got more", limit)
 	}
 	return nil

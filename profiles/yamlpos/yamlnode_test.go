@@ -141,3 +141,34 @@ func TestDocumentErrors(t *testing.T) {
 		})
 	}
 }
+
+// TreeSize counts every value once per place it stands, aliases
+// expanded, and stops past its limit.
+func TestTreeSize(t *testing.T) {
+	const unlimited = 1 << 40
+	cases := []struct {
+		name      string
+		data      string
+		limit     int
+		wantCount int
+		wantOK    bool
+	}{
+		{"scalar", "3ms\n", unlimited, 1, true},
+		{"mapping, its keys and values", "a: 1\nb: [2, 3]\n", unlimited, 7, true},
+		{"alias counted where it stands", "a: &x [1, 2]\nb: *x\n", unlimited, 9, true},
+		{"at the limit", "a: 1\nb: [2, 3]\n", 7, 7, true},
+		{"past the limit", "a: 1\nb: [2, 3]\n", 6, 7, false},
+	}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			root, err := Document("x.yaml", []byte(c.data))
+			if err != nil {
+				t.Fatal(err)
+			}
+			n, ok := TreeSize(root.Node, c.limit)
+			if n != c.wantCount || ok != c.wantOK {
+				t.Errorf("TreeSize = %d, %v; want %d, %v", n, ok, c.wantCount, c.wantOK)
+			}
+		})
+	}
+}
