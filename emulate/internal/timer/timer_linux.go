@@ -11,14 +11,16 @@ import (
 
 // Slack is how late a precise Waiter may wake on a locked OS thread: a
 // caller that must be on time sleeps until Slack before its deadline and
-// spins the rest (a timerfd read wakes within about 0.1 ms; measured, see
-// DEVELOPERS.md, "The relay's hot path").
+// spins the rest. A timerfd read on a locked OS thread wakes within about
+// 0.1 ms, where a Go timer rounds waits under 1 ms up to about 1 ms
+// (DEVELOPERS.md, "The relay's hot path").
 const Slack = 100 * time.Microsecond
 
 // timerfd sleeps on a Linux timerfd (CLOCK_MONOTONIC) with a plain
-// blocking read. The goroutine that waits locks itself to its OS thread,
-// so the wake-up comes straight from the kernel's high-resolution timer
-// rather than through the Go scheduler's millisecond-resolution poller.
+// blocking read. The goroutine that waits is locked to its OS thread (its
+// caller's doing, see NewPrecise), so the wake-up comes straight from the
+// kernel's high-resolution timer rather than through the Go scheduler's
+// millisecond-resolution poller.
 type timerfd struct {
 	fd  int
 	buf [8]byte
