@@ -76,42 +76,32 @@ func loaders(dir string) []struct {
 	name string
 	load func(path string) error
 } {
-	ref := func(text string) func(string) error {
+	profile := func(p string) error { _, err := Load(p); return err }
+	loop := func(p string) error { _, err := LoadLoop(p); return err }
+	scenario := func(p string) error { _, err := LoadScenario(p); return err }
+	// via loads, with load, a file named name that refers to the file
+	// under test (text's %q).
+	via := func(name, text string, load func(string) error) func(string) error {
 		return func(path string) error {
-			p := filepath.Join(dir, "ref.yaml")
-			if err := os.WriteFile(p, []byte(fmt.Sprintf(text, path)), 0o644); err != nil {
+			p := filepath.Join(dir, name)
+			if err := os.WriteFile(p, fmt.Appendf(nil, text, path), 0o644); err != nil {
 				return err
 			}
-			_, err := Load(p)
-			return err
+			return load(p)
 		}
 	}
 	return []struct {
 		name string
 		load func(path string) error
 	}{
-		{"profile", func(p string) error { _, err := Load(p); return err }},
-		{"loop", func(p string) error { _, err := LoadLoop(p); return err }},
-		{"scenario", func(p string) error { _, err := LoadScenario(p); return err }},
+		{"profile", profile},
+		{"loop", loop},
+		{"scenario", scenario},
 		{"trace", func(p string) error { _, err := trace.LoadTrace(p); return err }},
-		{"empirical file", ref("sensor_to_controller:\n  delay: {kind: empirical, file: %q}\n")},
-		{"trace in a profile", ref("sensor_to_controller:\n  trace: {file: %q}\n")},
-		{"profile of a scenario", func(p string) error {
-			s := filepath.Join(dir, "ref-scenario.yaml")
-			if err := os.WriteFile(s, []byte(fmt.Sprintf("profile: %q\nphases:\n  - {name: a, duration: 1s}\n", p)), 0o644); err != nil {
-				return err
-			}
-			_, err := LoadScenario(s)
-			return err
-		}},
-		{"profile of a loop", func(p string) error {
-			l := filepath.Join(dir, "ref-loop.yaml")
-			if err := os.WriteFile(l, []byte(fmt.Sprintf("period: 10ms\nplant: {a: [[0]], b: [[1]], c: [[1]]}\ncontroller: {d: [[-1]]}\nprofile: %q\n", p)), 0o644); err != nil {
-				return err
-			}
-			_, err := LoadLoop(l)
-			return err
-		}},
+		{"empirical file", via("ref.yaml", "sensor_to_controller:\n  delay: {kind: empirical, file: %q}\n", profile)},
+		{"trace in a profile", via("ref.yaml", "sensor_to_controller:\n  trace: {file: %q}\n", profile)},
+		{"profile of a scenario", via("ref-scenario.yaml", "profile: %q\nphases:\n  - {name: a, duration: 1s}\n", scenario)},
+		{"profile of a loop", via("ref-loop.yaml", "period: 10ms\nplant: {a: [[0]], b: [[1]], c: [[1]]}\ncontroller: {d: [[-1]]}\nprofile: %q\n", loop)},
 	}
 }
 
