@@ -3,7 +3,8 @@ package report
 import "image/color"
 
 // The project's palette, defined once and used by every plot rigwire
-// draws (the soak report here, monitor predict's --plot in cmd/monitor).
+// draws (the soak report's figures and monitor predict's --plot files,
+// both drawn in this package).
 // Our own selection: a dark teal, a brick red, an ochre and a slate grey,
 // then a plum for a fifth series. They differ in lightness as well as in
 // hue (teal and slate are dark, brick mid, ochre light), so that they stay

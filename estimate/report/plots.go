@@ -39,9 +39,9 @@ const (
 	labelSize = 9
 )
 
-// layout draws p on c with its legend in a strip below the plot (never
-// over the data or the phase names). It returns the total height the
-// figure needs for a plot of plotHeight.
+// legendHeight is the height of the strip below a plot of plotHeight in
+// which drawFigure puts p's legend (never over the data or the phase
+// names); 0 when p has no legend.
 func legendHeight(p *plot.Plot) vg.Length {
 	l := p.Legend
 	styleLegend(&l)
@@ -80,13 +80,13 @@ func drawFigure(p *plot.Plot, dc draw.Canvas) {
 	}
 }
 
-// finish renders p into f, or records why it could not.
 // failed marks f as not drawn because drawing its plot failed with err.
 func (f *figure) failed(err error) *figure {
 	f.NoData = "drawing failed: " + err.Error()
 	return f
 }
 
+// finish renders p into f, or records why it could not.
 func finish(f *figure, p *plot.Plot) *figure {
 	png, err := render(p)
 	if err != nil {
