@@ -5,6 +5,8 @@ import (
 	"rigwire/profiles/markov"
 	"rigwire/profiles/trace"
 	"rigwire/profiles/yamlpos"
+	"slices"
+	"strings"
 )
 
 // parseTraceChannel reads `trace: {file, column, at_end}` (f is the trace
@@ -36,12 +38,8 @@ func parseTraceChannel(f yamlpos.Field, others map[string]yamlpos.Field, dir str
 		if column, err = g.Text(); err != nil {
 			return nil, err
 		}
-		valid := false
-		for _, c := range trace.TraceDelayColumns {
-			valid = valid || c == column
-		}
-		if !valid {
-			return nil, g.Errorf("want one of rtt_s, one_way_s, back_s, got %s", g.Got())
+		if !slices.Contains(trace.TraceDelayColumns, column) {
+			return nil, g.Errorf("want one of %s, got %s", strings.Join(trace.TraceDelayColumns, ", "), g.Got())
 		}
 	}
 	atEnd := trace.AtEndLoop
