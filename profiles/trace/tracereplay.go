@@ -22,8 +22,8 @@ const (
 //	  trace: {file: wifi.csv, column: one_way_s, at_end: loop}
 //
 // (column default one_way_s, at_end default loop). A direction with a
-// trace is a one-state Channel whose State has Loss = the trace's loss
-// rate and Delay = this Replay.
+// trace is a one-state markov.Channel whose state has Loss = the trace's
+// loss rate and Delay = this Replay, and whose Replay field is set.
 //
 // As a Delay (what the prediction and `impair check` see), a Replay is the
 // empirical law of the trace's delivered delays, the same as kind
