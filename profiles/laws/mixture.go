@@ -1,6 +1,7 @@
 package laws
 
 import (
+	"cmp"
 	"fmt"
 	"math"
 	"math/rand/v2"
@@ -71,15 +72,8 @@ func mergeAtoms(atoms []Atom) []Atom {
 	if len(atoms) == 0 {
 		return nil
 	}
-	slices.SortFunc(atoms, func(a, b Atom) int {
-		switch {
-		case a.At < b.At:
-			return -1
-		case a.At > b.At:
-			return 1
-		}
-		return 0
-	})
+	// Atoms sit at finite delays, so cmp.Compare orders them as < does.
+	slices.SortFunc(atoms, func(a, b Atom) int { return cmp.Compare(a.At, b.At) })
 	out := atoms[:1]
 	for _, a := range atoms[1:] {
 		if last := &out[len(out)-1]; last.At == a.At {
