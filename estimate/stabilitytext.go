@@ -29,7 +29,7 @@ func VerdictOf(pr *Prediction) string {
 // allows more: enough to compare loops, few enough to read.
 const shownDigits = 5
 
-// Radius writes ρ and its error as "0.99899 ± 2e-09". The digits of ρ
+// RadiusText writes ρ and its error as "0.99899 ± 2e-09". The digits of ρ
 // stop at the decade of its error (digits below it are noise), and at
 // shownDigits significant digits unless more are needed to show on which
 // side of 1 ρ lies (a stable ρ of 0.9999999 is not printed as 1). A
@@ -60,7 +60,7 @@ func RadiusText(rho, rhoErr float64, verdict string) string {
 	return s
 }
 
-// Value writes ρ with at least digits significant digits, and more when
+// RhoText writes ρ with at least digits significant digits, and more when
 // needed to show on which side of 1 it lies (for tables and CSV, where no
 // error is printed beside it).
 func RhoText(rho float64, digits int) string {
@@ -90,7 +90,7 @@ func sameSide(s string, rho float64) bool {
 	return sign(v) == sign(rho)
 }
 
-// Describe is the verdict in words with ρ:
+// DescribeStability is the verdict in words with ρ:
 //
 //	mean-square stable (spectral radius 0.99899 ± 2e-09, below 1)
 //	NOT mean-square stable (spectral radius 1.0213 ± 1e-09, at or above 1)
