@@ -97,15 +97,7 @@ func verdictText(v string) string {
 	case "":
 		return "NO VERDICT"
 	}
-	return strings.ToUpper(phaseVerdict(v))
-}
-
-// phaseVerdict is a verdict as a reader reads it: "not run" for not_run.
-func phaseVerdict(v string) string {
-	if v == "not_run" {
-		return "not run"
-	}
-	return v
+	return strings.ToUpper(PhaseVerdictText(v))
 }
 
 func fmtFloat(v float64) string {
@@ -175,7 +167,7 @@ func buildPage(d *Data, figs []*figure) page {
 			Measured:     meas,
 			Predicted:    fmtNum(ph.Predicted),
 			Ratio:        r,
-			Verdict:      orDash(phaseVerdict(ph.Verdict)),
+			Verdict:      orDash(PhaseVerdictText(ph.Verdict)),
 			Class:        verdictClass(ph.Verdict),
 			Note:         ph.Note,
 			Reason:       ph.Reason,

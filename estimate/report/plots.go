@@ -860,7 +860,7 @@ func phasesFigure(d *Data) *figure {
 			name = fmt.Sprintf("phase %d", ph.Index+1)
 		}
 		names[i] = fmt.Sprintf("%d %s", i+1, shorten(name, 16))
-		v := strings.ToUpper(phaseVerdict(ph.Verdict))
+		v := strings.ToUpper(PhaseVerdictText(ph.Verdict))
 		if v == "" {
 			v = "NO VERDICT"
 		}

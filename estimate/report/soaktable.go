@@ -68,8 +68,8 @@ func PhaseTable(w io.Writer, s *engine.Summary) {
 	}
 }
 
-// PhaseVerdictText is a phase's verdict as the table and the report show
-// it ("not run" for not_run).
+// PhaseVerdictText is a verdict as a reader reads it, in the table, the
+// report's page and its plots: "not run" for not_run.
 func PhaseVerdictText(v string) string {
 	if v == engine.PhaseNotRun {
 		return "not run"
