@@ -222,7 +222,7 @@ func fmtScenarioTime(s float64) string {
 		return "—"
 	case s == 0:
 		return "0"
-	case s >= 60 && math.Abs(s/60-math.Round(s/60)) < 1e-9:
+	case s >= 60 && wholeMinutes(s):
 		return fmt.Sprintf("%g min", math.Round(s/60))
 	case s >= 60:
 		m := math.Floor(s / 60)
@@ -231,14 +231,17 @@ func fmtScenarioTime(s float64) string {
 	return exactSec.Format(math.Round(s*1000) / 1000)
 }
 
+// wholeMinutes reports whether s seconds are a whole number of minutes
+// (to rounding).
+func wholeMinutes(s float64) bool { return math.Abs(s/60-math.Round(s/60)) < 1e-9 }
+
 // scenarioSpan is "0–3 min" (one unit when both ends are whole minutes)
 // or "3 min – 3 min 30 s".
 func scenarioSpan(a, b float64) string {
 	if math.IsNaN(a) || math.IsNaN(b) {
 		return "—"
 	}
-	whole := func(v float64) bool { return math.Abs(v/60-math.Round(v/60)) < 1e-9 }
-	if whole(a) && whole(b) && b > 0 {
+	if wholeMinutes(a) && wholeMinutes(b) && b > 0 {
 		return fmt.Sprintf("%g–%g min", math.Round(a/60), math.Round(b/60))
 	}
 	if a < 60 && b < 60 {
