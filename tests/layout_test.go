@@ -287,3 +287,38 @@ func TestLayoutDocumented(t *testing.T) {
 		}
 	}
 }
+
+// markdownLink is a link of a markdown document: its target, up to an
+// anchor.
+var markdownLink = regexp.MustCompile(`\]\(([^)#\s]*)(?:#[^)]*)?\)`)
+
+// TestDocumentLinks: every link of the repository's markdown documents to
+// a file of the repository names one that exists, relative to the
+// document (documents move with the floor plan; their links must follow).
+func TestDocumentLinks(t *testing.T) {
+	docs, links := 0, 0
+	for _, doc := range repoFiles(t, func(dir string) bool { return strings.HasPrefix(path.Base(dir), ".") || path.Base(dir) == "testdata" }) {
+		if path.Ext(doc) != ".md" {
+			continue
+		}
+		docs++
+		b, err := os.ReadFile(filepath.Join("..", doc))
+		if err != nil {
+			t.Fatal(err)
+		}
+		for _, m := range markdownLink.FindAllStringSubmatch(string(b), -1) {
+			target := m[1]
+			if target == "" || strings.Contains(target, "://") || strings.HasPrefix(target, "mailto:") {
+				continue
+			}
+			links++
+			if _, err := os.Stat(filepath.Join("..", path.Dir(doc), target)); err != nil {
+				t.Errorf("%s: the link to %s names no file (relative to %s)", doc, target, path.Dir(doc))
+			}
+		}
+	}
+	if docs == 0 {
+		t.Error("no markdown document found; the walk is broken")
+	}
+	t.Logf("%d links of %d documents checked", links, docs)
+}
