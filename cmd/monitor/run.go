@@ -14,6 +14,7 @@ import (
 	"rigwire/cmd/internal/cli"
 	"rigwire/cmd/internal/exitcode"
 	"rigwire/cmd/internal/metricsrv"
+	"rigwire/emulate/endpoint"
 	"rigwire/emulate/trip"
 	"rigwire/estimate"
 	"rigwire/estimate/engine"
@@ -196,14 +197,7 @@ func cmdRun(args []string, stdout, stderr io.Writer) error {
 
 	fmt.Fprint(stderr, cautions(runCaution))
 	report.WritePredictionLine(stderr, pred)
-	fromAttr := "any source"
-	if from.Given {
-		fromAttr = from.Addr.String()
-		if from.Addr.Port() == 0 {
-			fromAttr = from.Addr.Addr().String() + " (any port)"
-		}
-	}
-	log.Info("monitoring", "loop", *loopPath, "listen", conn.LocalAddr().String(), "from", fromAttr,
+	log.Info("monitoring", "loop", *loopPath, "listen", conn.LocalAddr().String(), "from", endpoint.SenderText(from.Addr, "any source"),
 		"decode", loop.Decode.Format, "warmup_samples", mon.WarmupSamples(), "tolerance", *tolerance)
 	if !from.Given && !listen.Addr.Addr().IsLoopback() {
 		log.Warn("--from not given: datagrams from any host that reaches --listen are decoded; give the relay's address (--from HOST) to count the others as strangers",

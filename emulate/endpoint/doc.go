@@ -1,7 +1,8 @@
 // Package endpoint reads the network addresses a run is given, the same
 // way wherever they are written — a flag of impair or monitor, or a key
 // of a links file: HOST:PORT of a socket to bind or send to ([Resolve]),
-// HOST or HOST:PORT of the one sender a socket believes ([ParseSender]),
+// HOST or HOST:PORT of the one sender a socket believes ([ParseSender],
+// spelled back for the log by [SenderText]),
 // a host alone ([ResolveHost]) and the metrics endpoint's address
 // ([CheckMetrics]). Host names are looked up unless [LookupNames] is off;
 // IPv4-mapped addresses are unmapped, as sockets report sources.

@@ -43,11 +43,11 @@ func Resolve(s string) (netip.AddrPort, error) {
 // when only the host is given (any port of that host). An empty value (an
 // unset variable in an env file), a port without a host and an
 // unspecified address (0.0.0.0, ::) are refused: none names a sender, and
-// a pin on one would let nothing in. resolve turns a HOST:PORT with a host
-// name into an address (nil: addresses only). who names the sender in
-// the messages ("the relay's tap"). IPv4-mapped addresses are unmapped,
-// as sockets report sources.
-func ParseSender(s, who string, resolve func(hostPort string) (netip.AddrPort, error)) (netip.AddrPort, error) {
+// a pin on one would let nothing in. A host name is looked up as Resolve
+// does (unless LookupNames is off). who names the sender in the messages
+// ("the relay's tap"). IPv4-mapped addresses are unmapped, as sockets
+// report sources.
+func ParseSender(s, who string) (netip.AddrPort, error) {
 	want := "want HOST or HOST:PORT of " + who + " (such as 127.0.0.1 or 10.0.0.5:7000)"
 	if strings.TrimSpace(s) == "" {
 		return netip.AddrPort{}, fmt.Errorf("empty; %s; leave the flag out to take any source", want)
@@ -60,17 +60,26 @@ func ParseSender(s, who string, resolve func(hostPort string) (netip.AddrPort, e
 	} else {
 		hostPort = net.JoinHostPort(s, "0")
 	}
-	ap, err := netip.ParseAddrPort(hostPort)
-	if err != nil && resolve != nil {
-		ap, err = resolve(hostPort)
-	}
+	ap, err := Resolve(hostPort)
 	switch {
 	case err != nil || !ap.Addr().IsValid():
 		return netip.AddrPort{}, fmt.Errorf("%s, got %q", want, s)
 	case ap.Addr().IsUnspecified():
 		return netip.AddrPort{}, fmt.Errorf("%q is no sender's address; %s", s, want)
 	}
-	return netip.AddrPortFrom(ap.Addr().Unmap(), ap.Port()), nil
+	return ap, nil
+}
+
+// SenderText spells a sender ParseSender read, for a log line: HOST:PORT,
+// "HOST (any port)" for port 0, or none when p is not set (no pin).
+func SenderText(p netip.AddrPort, none string) string {
+	switch {
+	case !p.IsValid():
+		return none
+	case p.Port() == 0:
+		return p.Addr().String() + " (any port)"
+	}
+	return p.String()
 }
 
 // ResolveHost turns a host (an address or a name) into one address

@@ -190,7 +190,7 @@ func parseLink(it yamlpos.Field, dir string) (Spec, error) {
 	if f, ok := keys["sensor"]; ok {
 		s, err := f.Text()
 		if err == nil {
-			l.Sensor, err = endpoint.ParseSender(s, "the rig's sensor node", endpoint.Resolve)
+			l.Sensor, err = endpoint.ParseSender(s, "the rig's sensor node")
 		}
 		if err != nil {
 			return l, f.Errorf("%v", err)

@@ -13,6 +13,7 @@ import (
 	"github.com/prometheus/client_golang/prometheus"
 
 	"rigwire/emulate"
+	"rigwire/emulate/endpoint"
 	"rigwire/emulate/trip"
 	"rigwire/profiles"
 )
@@ -214,7 +215,7 @@ func (l *link) describe(w io.Writer) {
 	l.log.Info("relaying",
 		what, file, "listen", l.relay.ListenAddr().String(),
 		"controller_bind", l.relay.ControllerBindAddr().String(), "controller", l.spec.Controller.String(),
-		"actuator", addrOr(l.spec.Actuator, "the sensor source"), "sensor", sensorText(l.spec.Sensor),
+		"actuator", addrOr(l.spec.Actuator, "the sensor source"), "sensor", endpoint.SenderText(l.spec.Sensor, "the first source to send"),
 		"tap", addrOr(l.spec.Tap, "none"), "trip", trip, "seed", l.relay.Seed())
 	if !l.spec.Sensor.IsValid() && !l.spec.Listen.Addr().IsLoopback() {
 		l.log.Warn("the listen address is reachable from other hosts and no sensor is pinned: the first source to send becomes the rig's sensor and receives its commands; pin the rig's sensor node with --sensor (sensor: in a links file)",
@@ -354,15 +355,4 @@ func addrOr(a netip.AddrPort, def string) string {
 		return a.String()
 	}
 	return def
-}
-
-// sensorText is the sensor pin for the log.
-func sensorText(p netip.AddrPort) string {
-	switch {
-	case !p.IsValid():
-		return "the first source to send"
-	case p.Port() == 0:
-		return p.Addr().String() + " (any port)"
-	}
-	return p.String()
 }

@@ -39,7 +39,7 @@ type SenderFlag struct {
 }
 
 func (a *SenderFlag) Set(s string) error {
-	ap, err := endpoint.ParseSender(s, a.Who, endpoint.Resolve)
+	ap, err := endpoint.ParseSender(s, a.Who)
 	if err != nil {
 		return err
 	}
