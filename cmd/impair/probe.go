@@ -13,6 +13,7 @@ import (
 	"rigwire/cmd/internal/cli"
 	"rigwire/cmd/internal/exitcode"
 	"rigwire/emulate/probe"
+	"rigwire/profiles/trace"
 )
 
 const probeUsage = `usage: impair probe --target HOST:PORT --rate R --size B --duration D
@@ -55,10 +56,10 @@ var probeExits = exitcode.Help(cli.PlainStatuses, map[int]string{
 	exitcode.BadInput: "bad usage",
 })
 
-// Bounds of the probe flags.
+// Bounds of the probe flags; a run sends at most trace.MaxTraceProbes
+// probes, the most a trace holds.
 const (
 	maxProbeRate  = 100000.0
-	maxProbes     = 10_000_000
 	maxProbeWait  = time.Minute
 	maxProbeBytes = 65507
 )
@@ -95,8 +96,8 @@ func cmdProbe(args []string, stdout, stderr io.Writer) error {
 		return fail("--wait: want 0…1m, got %s", *wait)
 	}
 	n := int(math.Ceil(duration.Seconds() * *rate))
-	if n > maxProbes {
-		return fail("--rate × --duration: want at most %d probes, got %d", maxProbes, n)
+	if n > trace.MaxTraceProbes {
+		return fail("--rate × --duration: want at most %d probes, got %d", trace.MaxTraceProbes, n)
 	}
 	log := slog.New(slog.NewTextHandler(stderr, nil))
 	conn, err := net.DialUDP("udp", nil, net.UDPAddrFromAddrPort(target.Addr))
