@@ -25,7 +25,7 @@ type runOpts struct {
 	cautionsRead bool // the safety cautions as one line
 }
 
-// MaxTimeScale bounds --time-scale.
+// maxTimeScale bounds --time-scale.
 const maxTimeScale = 100
 
 const runUsage = `usage: impair run --profile FILE --listen HOST:PORT --controller HOST:PORT [flags]
@@ -117,7 +117,7 @@ func cmdRun(args []string, stdout, stderr io.Writer) error {
 		return fail("--max-datagram: want 1…65535 bytes, got %d", *maxDatagram)
 	case *maxInFlight < 1 || *maxInFlight > 1<<20:
 		return fail("--max-in-flight: want 1…1048576, got %d", *maxInFlight)
-	case *relockAfter < 0 || *relockAfter > time.Hour:
+	case *relockAfter < 0 || *relockAfter > links.MaxRelockAfter:
 		return fail("--relock-after: want 0 (never) … 1h, got %s", *relockAfter)
 	case *spin < 0 || *spin > 10*time.Millisecond:
 		return fail("--spin: want 0…10ms, got %s", *spin)

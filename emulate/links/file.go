@@ -31,7 +31,7 @@ type Spec struct {
 	RecordPath string
 
 	// RelockAfter lets a new source replace a sensor node silent this long
-	// (0: never; emulate.Config.RelockAfter).
+	// (0: never; emulate.Config.RelockAfter), at most MaxRelockAfter.
 	RelockAfter time.Duration
 
 	// TripListen, when valid, is where trip requests are accepted;
@@ -53,6 +53,10 @@ var linkName = regexp.MustCompile(`^[a-z0-9_-]+$`)
 
 // maxLinks bounds the links of one file (each holds sockets and goroutines).
 const maxLinks = 256
+
+// MaxRelockAfter bounds a link's relock interval (relock_after, impair
+// run --relock-after).
+const MaxRelockAfter = time.Hour
 
 // Load reads and validates a links file. Paths inside it are relative
 // to its directory. Errors read "file:line: key: what was expected".
@@ -202,7 +206,7 @@ func parseLink(it yamlpos.Field, dir string) (Spec, error) {
 		if err == nil {
 			d, err = time.ParseDuration(s)
 		}
-		if err != nil || d < 0 || d > time.Hour {
+		if err != nil || d < 0 || d > MaxRelockAfter {
 			return l, f.Errorf("want a duration from 0 (never) to 1h, such as 2s, got %s", f.Got())
 		}
 		l.RelockAfter = d
