@@ -47,8 +47,7 @@ commands:
 
 Run "impair <command> -h" for a command's flags and the statuses it returns.
 
-` + exitcode.Help([]int{exitcode.OK, exitcode.Failure, exitcode.BadInput, exitcode.Above, exitcode.Below,
-	exitcode.Inconclusive, exitcode.NotStable, exitcode.PhaseFailed, exitcode.Tripped},
+` + exitcode.Help(exitcode.All,
 	map[int]string{
 		exitcode.Above:        "(monitor) measured E[eᵀe] above the prediction",
 		exitcode.Below:        "(monitor) measured E[eᵀe] below the prediction",

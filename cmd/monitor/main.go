@@ -6,7 +6,7 @@
 //	monitor run --loop LOOP.yaml --listen HOST:PORT [--metrics HOST:PORT] [--duration D] [--summary FILE]
 //
 // run receives the rig's sensor datagrams and estimates E[eᵀe] online
-// beside the prediction (package engine).
+// beside the prediction (estimate/engine).
 //
 // predict computes what theory says of the sampled-data jump system
 // (package estimate: mean-square stability, the spectral radius of the
@@ -52,11 +52,7 @@ commands:
 
 run "monitor COMMAND -h" for the flags of a command and the statuses it returns
 
-` + exitcode.Help(allStatuses, nil)
-
-// allStatuses is the whole table, for the top-level usage.
-var allStatuses = []int{exitcode.OK, exitcode.Failure, exitcode.BadInput, exitcode.Above, exitcode.Below,
-	exitcode.Inconclusive, exitcode.NotStable, exitcode.PhaseFailed, exitcode.Tripped}
+` + exitcode.Help(exitcode.All, nil)
 
 func main() {
 	os.Exit(dispatch(os.Args[1:], os.Stdout, os.Stderr))

@@ -36,6 +36,9 @@ const (
 	Tripped = 8
 )
 
+// All is the whole table in order, for a command's top-level usage.
+var All = []int{OK, Failure, BadInput, Above, Below, Inconclusive, NotStable, PhaseFailed, Tripped}
+
 var meaning = map[int]string{
 	OK:           "success",
 	Failure:      "error while running",
