@@ -64,7 +64,7 @@ func cmdDemo(args []string, stdout, stderr io.Writer) error {
 	fs.Var(&warmup, "warmup", "skip the first samples of this long in the measurement (default 0: the rig starts at the predicted steady mean)")
 	every := fs.Duration("progress", time.Second, "print a progress line this often (0: never)")
 	if err := fs.Parse(args); err != nil {
-		return parseErr(err)
+		return err
 	}
 	switch {
 	case fs.NArg() > 0:

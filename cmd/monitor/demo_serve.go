@@ -36,7 +36,7 @@ func cmdServe(args []string, stdout, stderr io.Writer) error {
 	fs.Var(&dur, "duration", "stop after `D` (default: run until SIGINT/SIGTERM)")
 	fs.Var(&warmup, "warmup", "skip the samples of the first `D` in the measurement")
 	if err := fs.Parse(args); err != nil {
-		return parseErr(err)
+		return err
 	}
 	if err := bf.check(fs, false); err != nil {
 		return err

@@ -1,13 +1,11 @@
 package main
 
 // The plumbing every monitor command shares: the flags of the safety
-// cautions, of durations and of counts with a computed default, parse
-// errors, the sliding windows, the address families of --listen and
-// --from, the simulated rig's start and the times of the commands' lines.
+// cautions, of durations and of counts with a computed default, the
+// sliding windows, the address families of --listen and --from, the
+// simulated rig's start and the times of the commands' lines.
 
 import (
-	"errors"
-	"flag"
 	"fmt"
 	"log/slog"
 	"net/netip"
@@ -70,17 +68,6 @@ func rigStart(loop *profiles.Loop, mode string, log *slog.Logger) (rig.Start, er
 		return st, nil
 	}
 	return rig.Start{}, cli.Usagef("--start: want steady or rest, got %q", mode)
-}
-
-// parseErr turns a flag parse error into a usage error; a help request
-// and an error flags.Parse has already classified pass as they are.
-func parseErr(err error) error {
-	var he cli.Help
-	var ue cli.UsageError
-	if err == nil || errors.As(err, &he) || errors.As(err, &ue) || errors.Is(err, flag.ErrHelp) {
-		return err
-	}
-	return cli.UsageError{Msg: err.Error()}
 }
 
 // parseWindows reads --windows.

@@ -152,7 +152,7 @@ func cmdRigController(args []string, stderr io.Writer) error {
 func rigSetup(fs *cli.Flags, args []string, loopPath, start *string, addrName string, addr *cli.AddrFlag, stderr io.Writer) (*profiles.Loop, rig.Start, *slog.Logger, error) {
 	var st rig.Start
 	if err := fs.Parse(args); err != nil {
-		return nil, st, nil, parseErr(err)
+		return nil, st, nil, err
 	}
 	switch {
 	case fs.NArg() > 0:

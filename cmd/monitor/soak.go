@@ -75,7 +75,7 @@ func cmdSoak(args []string, stdout, stderr io.Writer) error {
 	afterTrip := fs.Duration("after-trip", 5*time.Second, "keep relaying (as the trip action says) this long after a trip before ending")
 	simulated := fs.Bool("simulated-rig", false, "run the simulated rig (node and controller) in this process on loopback instead of a real one")
 	if err := fs.Parse(args); err != nil {
-		return parseErr(err)
+		return err
 	}
 	if err := bf.check(fs, *simulated); err != nil {
 		return err
