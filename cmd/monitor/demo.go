@@ -122,7 +122,7 @@ func cmdDemo(args []string, stdout, stderr io.Writer) error {
 	if err != nil {
 		return err
 	}
-	b, err := openBench(benchConfig{loop: loop, profile: prof, listen: "127.0.0.1:0",
+	b, err := openBench(benchConfig{loop: loop, listen: "127.0.0.1:0",
 		controller: ctl.LocalAddr().String(), metrics: *metrics, tolerance: *tolerance,
 		warmup: time.Duration(warmup.s * float64(time.Second)), log: log, metricsNote: stdout})
 	if err != nil {
@@ -149,11 +149,11 @@ func cmdDemo(args []string, stdout, stderr io.Writer) error {
 	if b.url != "" {
 		fmt.Fprintf(stdout, "metrics   %s (relay and monitor)\n", b.url)
 	}
-	if b.pred.MeanSquareStable && b.pred.Error != nil {
+	if b.Prediction.MeanSquareStable && b.Prediction.Error != nil {
 		fmt.Fprintf(stdout, "predicted E[eᵀe] %.5g (mean-square stable, spectral radius %.4f, loss margin %.4f)\n",
-			b.pred.Error.SecondMoment, b.pred.SpectralRadius, b.pred.LossMargin)
+			b.Prediction.Error.SecondMoment, b.Prediction.SpectralRadius, b.Prediction.LossMargin)
 	} else {
-		fmt.Fprintf(stdout, "predicted: not mean-square stable (spectral radius %.4f)\n", b.pred.SpectralRadius)
+		fmt.Fprintf(stdout, "predicted: not mean-square stable (spectral radius %.4f)\n", b.Prediction.SpectralRadius)
 	}
 	fmt.Fprintf(stdout, "running for %s…\n\n", fmtDuration(dur.s))
 

@@ -13,7 +13,6 @@ import (
 	ebench "rigwire/emulate/bench"
 	"rigwire/emulate/endpoint"
 	"rigwire/emulate/trip"
-	"rigwire/estimate"
 	"rigwire/profiles"
 )
 
@@ -22,15 +21,13 @@ import (
 // endpoint the command serves its registry on.
 type bench struct {
 	*ebench.Bench
-	pred *estimate.Prediction
-	srv  *metricsrv.Server
-	url  string // "" without an endpoint
+	srv *metricsrv.Server
+	url string // "" without an endpoint
 }
 
 type benchConfig struct {
-	loop        *profiles.Loop
-	profile     *profiles.Profile // the relay's; nil: the loop's own
-	listen      string            // the relay's sensor-side socket
+	loop        *profiles.Loop // its profile is the relay's, and the prediction is for it
+	listen      string         // the relay's sensor-side socket
 	controller  string
 	actuator    string // "": the latest sensor source
 	metrics     string // "off": no endpoint
@@ -47,11 +44,6 @@ type benchConfig struct {
 func openBench(cfg benchConfig) (*bench, error) {
 	bc := ebench.Config{Loop: cfg.loop, Tolerance: cfg.tolerance, Warmup: cfg.warmup,
 		Seed: cfg.seed, SeedSet: cfg.seedSet, Logger: cfg.log}
-	if cfg.profile != nil && cfg.profile != cfg.loop.Profile {
-		l := *cfg.loop // the relay applies cfg.profile, and the prediction is for it
-		l.Profile = cfg.profile
-		bc.Loop = &l
-	}
 	var err error
 	if bc.Listen, err = endpoint.Resolve(cfg.listen); err != nil {
 		return nil, cli.Usagef("--listen: %v", err)
@@ -68,7 +60,7 @@ func openBench(cfg benchConfig) (*bench, error) {
 	if err != nil {
 		return nil, badInput(err)
 	}
-	b := &bench{Bench: eb, pred: eb.Prediction}
+	b := &bench{Bench: eb}
 	if cfg.metrics != "off" {
 		b.srv, err = metricsrv.Start(cfg.metrics, eb.Registry, cfg.log)
 		if err != nil && cfg.metricsNote != nil {

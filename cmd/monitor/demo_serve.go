@@ -58,7 +58,7 @@ func cmdServe(args []string, stdout, stderr io.Writer) error {
 		l.Profile, l.ProfileFile = prof, prof.File
 		loop = &l
 	}
-	b, err := openBench(benchConfig{loop: loop, profile: prof, listen: *bf.listen, controller: *bf.controller,
+	b, err := openBench(benchConfig{loop: loop, listen: *bf.listen, controller: *bf.controller,
 		actuator: *bf.actuator, metrics: *bf.metrics, tolerance: *tolerance,
 		warmup: time.Duration(warmup.s * float64(time.Second)), seed: *bf.seed, seedSet: bf.seedSet(fs), log: log})
 	if err != nil {

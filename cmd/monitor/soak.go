@@ -116,7 +116,7 @@ func cmdSoak(args []string, stdout, stderr io.Writer) error {
 		defer sim.stop()
 		*bf.listen, *bf.controller = "127.0.0.1:0", sim.ctl.LocalAddr().String()
 	}
-	b, err := openBench(benchConfig{loop: &first, profile: steps[0].Profile, listen: *bf.listen, controller: *bf.controller,
+	b, err := openBench(benchConfig{loop: &first, listen: *bf.listen, controller: *bf.controller,
 		actuator: *bf.actuator, metrics: *bf.metrics, seed: *bf.seed, seedSet: bf.seedSet(fs), log: log, metricsNote: stderr})
 	if err != nil {
 		return err
