@@ -2,11 +2,9 @@ package main
 
 import (
 	"context"
-	"encoding/json"
 	"fmt"
 	"io"
 	"log/slog"
-	"os"
 	"time"
 
 	"rigwire/cmd/internal/cli"
@@ -81,17 +79,8 @@ func cmdServe(args []string, stdout, stderr io.Writer) error {
 		return err
 	}
 	s := b.Monitor.Summary()
-	out, err := json.MarshalIndent(s, "", "  ")
-	if err != nil {
+	if err := writeSummary(stdout, *bf.summary, s); err != nil {
 		return err
-	}
-	out = append(out, '\n')
-	if *bf.summary == "" {
-		if _, err := stdout.Write(out); err != nil {
-			return err
-		}
-	} else if err := os.WriteFile(*bf.summary, out, 0o644); err != nil {
-		return fmt.Errorf("--summary: %w", err)
 	}
 	fmt.Fprintln(stderr, s.VerdictLine())
 	if s.Trip != nil {

@@ -3,10 +3,12 @@ package main
 // The plumbing every monitor command shares: the flags of the safety
 // cautions, of durations and of counts with a computed default, the
 // sliding windows, the address families of --listen and --from, the
-// simulated rig's start and the times of the commands' lines.
+// JSON summary's file, the simulated rig's start and the times of the
+// commands' lines.
 
 import (
 	"fmt"
+	"io"
 	"log/slog"
 	"net/netip"
 	"strconv"
@@ -16,6 +18,7 @@ import (
 	"rigwire/cmd/internal/cli"
 	"rigwire/emulate/rig"
 	"rigwire/emulate/trip"
+	"rigwire/estimate/engine"
 	"rigwire/profiles"
 	"rigwire/profiles/laws"
 	"rigwire/profiles/yamlpos"
@@ -48,6 +51,17 @@ func (f *durationFlag) Set(s string) error {
 	}
 	f.s = v
 	return nil
+}
+
+// writeSummary writes a run's JSON summary v as engine.WriteSummary does:
+// to stdout when path is "" or "-", else whole to the file or not at all.
+// A file that cannot be written is named by its flag.
+func writeSummary(stdout io.Writer, path string, v any) error {
+	err := engine.WriteSummary(stdout, path, v)
+	if err != nil && path != "" && path != "-" {
+		return fmt.Errorf("--summary: %w", err)
+	}
+	return err
 }
 
 // rigStart reads --start for a loop.

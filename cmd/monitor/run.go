@@ -214,11 +214,8 @@ func cmdRun(args []string, stdout, stderr io.Writer) error {
 	cancel()
 	srv.Close()
 	sum := mon.Summary()
-	if err := engine.WriteSummary(stdout, *summaryPath, sum); err != nil {
-		if *summaryPath == "" || *summaryPath == "-" {
-			return err
-		}
-		return fmt.Errorf("--summary: %w", err)
+	if err := writeSummary(stdout, *summaryPath, sum); err != nil {
+		return err
 	}
 	if serveErr != nil {
 		return fmt.Errorf("receiving: %w", serveErr)

@@ -1,7 +1,6 @@
 package main
 
 import (
-	"encoding/json"
 	"fmt"
 	"io"
 	"log/slog"
@@ -24,17 +23,8 @@ import (
 func finishSoak(run *report.Soak, s *engine.Summary, code int, playErr error, summaryPath, reportDir string,
 	stdout, stderr io.Writer, log *slog.Logger) error {
 	prov := soakProvenance(run)
-	out, err := json.MarshalIndent(report.SoakSummary{Summary: s, Provenance: prov}, "", "  ")
-	if err != nil {
+	if err := writeSummary(stdout, summaryPath, report.SoakSummary{Summary: s, Provenance: prov}); err != nil {
 		return err
-	}
-	out = append(out, '\n')
-	if summaryPath == "" {
-		if _, err := stdout.Write(out); err != nil {
-			return err
-		}
-	} else if err := os.WriteFile(summaryPath, out, 0o644); err != nil {
-		return fmt.Errorf("--summary: %w", err)
 	}
 	report.PhaseTable(stderr, s)
 	if reportDir != "" {
