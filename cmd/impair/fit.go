@@ -142,7 +142,7 @@ func cmdFit(args []string, stdout, stderr io.Writer) error {
 
 // printLoopPrediction prints the loop's prediction under its own profile
 // and under the fitted one. The loop file and the predictions are input:
-// their errors are inputErrors.
+// their errors are bad input (cli.InputError).
 func printLoopPrediction(w io.Writer, path string, fitted *profiles.Profile) error {
 	loop, err := profiles.LoadLoop(path)
 	if err != nil {
