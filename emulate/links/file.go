@@ -18,6 +18,7 @@ import (
 // of `impair run` (Name "") or from one entry of a links file.
 type Spec struct {
 	Name string // "" in single-link mode: metrics without a link label
+	File string // the links file ("": flags)
 	Line int    // line of the entry in the links file (0: flags)
 
 	Listen, Controller, Actuator, Sensor, ControllerBind, Tap netip.AddrPort
@@ -113,6 +114,7 @@ func Parse(data []byte, file, dir string) (*File, error) {
 		if err != nil {
 			return nil, err
 		}
+		l.File = file
 		if prev, dup := names[l.Name]; dup {
 			return nil, it.Errorf("name: %q already names the link at line %d", l.Name, prev)
 		}

@@ -85,6 +85,9 @@ links:
 	if b.Name != "pick-arm_2" || b.ScenarioPath != "/abs/soak.yaml" || b.ProfilePath != "" || b.SeedSet || b.TripListen.IsValid() {
 		t.Errorf("second link: %+v", b)
 	}
+	if a.File != path || b.File != path || a.Line != 3 || b.Line != 14 {
+		t.Errorf("entries at %s:%d and %s:%d, want %s:3 and :14", a.File, a.Line, b.File, b.Line, path)
+	}
 }
 
 // FuzzParseLinks: any file is accepted or rejected with a positioned

@@ -75,7 +75,9 @@ type link struct {
 // relay and its trip socket, registering their metrics on reg (with the
 // link label when opts.Labelled). A file that does not load is an
 // *InputError; on any error what was opened is closed and records are
-// abandoned. Nothing is relayed before Relay.
+// abandoned. With opts.Labelled an error names the link, and the links
+// file and line of its entry ("rigs.yaml:4: link "pump": record …").
+// Nothing is relayed before Relay.
 func Open(specs []Spec, opts Options, reg prometheus.Registerer, log *slog.Logger) (*Run, error) {
 	r := &Run{opts: opts, log: log}
 	for _, s := range specs {
@@ -87,8 +89,11 @@ func Open(specs []Spec, opts Options, reg prometheus.Registerer, log *slog.Logge
 		l, err := openLink(s, opts, lreg, llog)
 		if err != nil {
 			r.Close()
-			if opts.Labelled {
-				err = fmt.Errorf("link %q: %w", s.Name, err) // an InputError stays one
+			switch {
+			case opts.Labelled && s.File != "":
+				err = fmt.Errorf("%s:%d: link %q: %w", s.File, s.Line, s.Name, err) // an InputError stays one
+			case opts.Labelled:
+				err = fmt.Errorf("link %q: %w", s.Name, err)
 			}
 			return nil, err
 		}

@@ -89,7 +89,8 @@ func TestRunRelaysOneLink(t *testing.T) {
 
 // TestOpenInputErrors: a profile that does not load and a record path
 // that names an input of the run are errors of the input (InputError),
-// named by link when the links are labelled; nothing is left at the
+// named by link when the links are labelled, and by the links file and
+// the entry's line when they come from one; nothing is left at the
 // record's path.
 func TestOpenInputErrors(t *testing.T) {
 	dir := t.TempDir()
@@ -103,6 +104,10 @@ func TestOpenInputErrors(t *testing.T) {
 	}{
 		{"missing profile", func(s Spec) Spec { s.ProfilePath = filepath.Join(dir, "none.yaml"); return s }, false, "none.yaml"},
 		{"missing profile, labelled", func(s Spec) Spec { s.ProfilePath = filepath.Join(dir, "none.yaml"); return s }, true, `link "pump": `},
+		{"record over the profile, from a links file", func(s Spec) Spec {
+			s.File, s.Line, s.ProfilePath, s.RecordPath = "rigs.yaml", 4, prof, prof
+			return s
+		}, true, `rigs.yaml:4: link "pump": record ` + prof + `: that is an input of the run`},
 		{"record over the profile", func(s Spec) Spec { s.ProfilePath, s.RecordPath = prof, prof; return s }, false, "that is an input of the run"},
 	}
 	for _, c := range cases {
