@@ -60,8 +60,7 @@ func cmdRig(args []string, stdout, stderr io.Writer) error {
 	case "controller":
 		return cmdRigController(args[1:], stderr)
 	case "-h", "-help", "--help", "help":
-		fmt.Fprint(stdout, rigUsage+"\n"+rigExits)
-		return nil
+		return cli.Help{Text: rigUsage + "\n" + rigExits}
 	}
 	return cli.Usagef("unknown rig command %q: want node or controller", args[0])
 }
