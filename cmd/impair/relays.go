@@ -52,7 +52,7 @@ func runLinks(specs []links.Spec, opts runOpts, stderr io.Writer, log *slog.Logg
 	if opts.cautionsRead {
 		fmt.Fprint(stderr, trip.Reminder)
 	} else {
-		fmt.Fprint(stderr, safetyCaution)
+		fmt.Fprint(stderr, trip.RelayCaution)
 	}
 	run.Describe(stderr)
 

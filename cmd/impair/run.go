@@ -14,9 +14,6 @@ import (
 	"rigwire/emulate/trip"
 )
 
-// safetyCaution is printed before any datagram is relayed.
-const safetyCaution = "SAFETY: the relay will delay and drop the commands that move your rig.\n" + trip.Cautions
-
 // runOpts are the settings of `impair run`: those every link shares
 // (emulate/links) and the command's own.
 type runOpts struct {

@@ -13,9 +13,6 @@ import (
 	"rigwire/profiles"
 )
 
-// serveCaution is printed before serve relays the rig's datagrams.
-const serveCaution = "SAFETY: the relay will delay and drop the commands that move your rig.\n" + trip.Cautions
-
 // cmdServe is the relay and the monitor of one rig in one process: the
 // relay engine impairs the rig's link with the profile and hands each
 // sensor datagram, before impairment, to the monitor engine in process (no
@@ -65,7 +62,7 @@ func cmdServe(args []string, stdout, stderr io.Writer) error {
 	if _, err := b.armTrip(loop.Trip); err != nil {
 		return err
 	}
-	fmt.Fprint(stderr, cautions(serveCaution))
+	fmt.Fprint(stderr, cautions(trip.RelayCaution))
 	log.Info("relaying and monitoring", "loop", loop.File, "listen", b.Relay.ListenAddr().String(),
 		"controller", *bf.controller, "metrics", b.url, "seed", b.Relay.Seed())
 	ctx, cancel := cli.SignalContext()

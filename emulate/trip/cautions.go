@@ -12,6 +12,10 @@ const Cautions = `  - Keep an emergency stop that does not depend on the emulate
   - Local machine-safety rules and qualified personnel have the last word.
 `
 
+// RelayCaution is what a command prints before its relay forwards a rig's
+// datagrams (impair run, monitor serve): the headline, then Cautions.
+const RelayCaution = "SAFETY: the relay will delay and drop the commands that move your rig.\n" + Cautions
+
 // Reminder is the one line a command prints instead of the cautions once
 // the operator has said they were read (a flag of the command): the
 // cautions still hold, shortened, never gone.

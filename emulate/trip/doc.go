@@ -29,8 +29,10 @@
 //     rigwire_relay_trip_requests_total{result} (accepted, repeated,
 //     malformed, stranger);
 //   - the safety cautions every command that starts a run prints
-//     (Cautions, or Reminder once the operator has read them): the trip is
-//     a software guard, never the emergency stop.
+//     (Cautions under the command's headline, RelayCaution for a command
+//     whose relay forwards the rig's datagrams, or Reminder once the
+//     operator has read them): the trip is a software guard, never the
+//     emergency stop.
 //
 // The relay's action is emulate.Relay.Trip, a Target: latched, it takes
 // effect before the next datagram is admitted. With Clean both directions
