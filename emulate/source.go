@@ -3,6 +3,8 @@ package emulate
 import (
 	"net/netip"
 	"time"
+
+	"rigwire/emulate/endpoint"
 )
 
 // sourceLock decides which source at the listen socket is the rig's sensor
@@ -87,7 +89,7 @@ func (r *Relay) lockChanged(src netip.AddrPort, c lockChange) {
 	switch why {
 	case lockFirst:
 		r.log.Info("sensor source locked: other sources at the listen socket are strangers",
-			"sensor", src.String(), "pin", pinText(r.cfg.Sensor))
+			"sensor", src.String(), "pin", endpoint.SenderText(r.cfg.Sensor, "none (the first source to send)"))
 	default:
 		r.log.Warn("sensor source changed: the previous one was silent for the relock interval",
 			"sensor", src.String(), "previous", prev.String(), "silent", c.silent.Round(time.Millisecond).String())
@@ -102,7 +104,7 @@ func (r *Relay) strangerSeen(src netip.AddrPort, now int64) {
 		return
 	}
 	l.warned = true
-	attrs := []any{"stranger", src.String(), "sensor", addrText(l.locked), "pin", pinText(r.cfg.Sensor)}
+	attrs := []any{"stranger", src.String(), "sensor", addrText(l.locked), "pin", endpoint.SenderText(r.cfg.Sensor, "none (the first source to send)")}
 	if l.locked.IsValid() && l.candidate(src) {
 		silent := time.Duration(now - l.lastHeard)
 		attrs = append(attrs, "sensor_silent", silent.Round(time.Millisecond).String())
@@ -111,16 +113,6 @@ func (r *Relay) strangerSeen(src netip.AddrPort, now int64) {
 		}
 	}
 	r.log.Warn("datagrams from a stranger at the listen socket: counted, not forwarded (further strangers only counted)", attrs...)
-}
-
-func pinText(p netip.AddrPort) string {
-	switch {
-	case !p.IsValid():
-		return "none (the first source to send)"
-	case p.Port() == 0:
-		return p.Addr().String() + " (any port)"
-	}
-	return p.String()
 }
 
 func addrText(a netip.AddrPort) string {
