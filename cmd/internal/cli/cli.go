@@ -6,6 +6,7 @@ import (
 	"fmt"
 	"io"
 	"strings"
+	"time"
 
 	"rigwire/cmd/internal/exitcode"
 	"rigwire/emulate/endpoint"
@@ -92,7 +93,8 @@ func (e Help) Is(target error) bool { return target == flag.ErrHelp }
 
 // Flags is a command's flag set with its help. Parse turns -h into a Help
 // carrying the help (the head, the flags, the exit statuses) and a bad
-// flag into a UsageError; the flag package itself prints nothing.
+// flag into a UsageError that says what the flag takes; the flag package
+// itself prints nothing.
 type Flags struct {
 	*flag.FlagSet
 	head  string // synopsis and description, ending in a newline
@@ -117,7 +119,47 @@ func (f *Flags) Parse(args []string) error {
 	case errors.Is(err, flag.ErrHelp):
 		return Help{f.HelpText()}
 	}
-	return UsageError{err.Error()}
+	return UsageError{f.explain(err.Error())}
+}
+
+// explain says what a flag of the flag package's own kinds (a number, a
+// duration, a boolean) takes when the package refused its value with
+// "parse error" alone: `invalid value "soon" for flag -wait: want a
+// duration such as "500ms", "2s" or "1m30s"`. Other messages pass as
+// they are.
+func (f *Flags) explain(msg string) string {
+	head, ok := strings.CutSuffix(msg, ": parse error")
+	if !ok {
+		return msg
+	}
+	i := strings.LastIndex(head, " -") // the flag's name ends the head
+	if i < 0 {
+		return msg
+	}
+	fl := f.Lookup(head[i+2:])
+	if fl == nil {
+		return msg
+	}
+	g, ok := fl.Value.(flag.Getter)
+	if !ok {
+		return msg
+	}
+	var want string
+	switch g.Get().(type) {
+	case time.Duration:
+		want = `a duration such as "500ms", "2s" or "1m30s"`
+	case int, int64:
+		want = "a whole number"
+	case uint, uint64:
+		want = "a whole number ≥ 0"
+	case float64:
+		want = "a number"
+	case bool:
+		want = "true or false"
+	default:
+		return msg
+	}
+	return head + ": want " + want
 }
 
 // HelpText is the command's help text.

@@ -4,6 +4,7 @@ import (
 	"errors"
 	"strings"
 	"testing"
+	"time"
 
 	"rigwire/cmd/internal/exitcode"
 )
@@ -51,6 +52,48 @@ func TestCheckMetricsAddr(t *testing.T) {
 			}
 			if code := Status(err, "x", &strings.Builder{}, &strings.Builder{}); code != exitcode.BadInput {
 				t.Errorf("status %d, want %d (bad usage)", code, exitcode.BadInput)
+			}
+		})
+	}
+}
+
+// TestParseSaysWhatAFlagTakes: a value the flag package refuses for one of
+// its own kinds with "parse error" alone is bad usage that says what the
+// flag takes; the messages of other refusals pass unchanged.
+func TestParseSaysWhatAFlagTakes(t *testing.T) {
+	newFlags := func() *Flags {
+		f := NewFlags("x", "usage: x\n", "")
+		f.Duration("wait", time.Second, "how long to wait")
+		f.Int("count", 1, "how many")
+		f.Uint64("seed", 0, "seed")
+		f.Float64("rate", 1, "per second")
+		f.Bool("strict", false, "strict")
+		f.String("name", "", "a name")
+		var a AddrFlag
+		f.Var(&a, "listen", "`HOST:PORT`")
+		return f
+	}
+	cases := []struct {
+		name string
+		args []string
+		want string
+	}{
+		{"duration", []string{"--wait", "soon"}, `invalid value "soon" for flag -wait: want a duration such as "500ms", "2s" or "1m30s"`},
+		{"duration, plain seconds", []string{"-wait=10"}, `invalid value "10" for flag -wait: want a duration such as "500ms", "2s" or "1m30s"`},
+		{"whole number", []string{"--count", "2.5"}, `invalid value "2.5" for flag -count: want a whole number`},
+		{"whole number ≥ 0", []string{"--seed", "-1"}, `invalid value "-1" for flag -seed: want a whole number ≥ 0`},
+		{"number", []string{"--rate", "fast"}, `invalid value "fast" for flag -rate: want a number`},
+		{"boolean", []string{"--strict=maybe"}, `invalid boolean value "maybe" for -strict: want true or false`},
+		{"out of range, as the flag package says", []string{"--count", "99999999999999999999"}, `invalid value "99999999999999999999" for flag -count: value out of range`},
+		{"a flag's own message", []string{"--listen", "x"}, `invalid value "x" for flag -listen: want HOST:PORT, got "x"`},
+		{"unknown flag", []string{"--nope"}, "flag provided but not defined: -nope"},
+	}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			err := newFlags().Parse(c.args)
+			var ue UsageError
+			if !errors.As(err, &ue) || err.Error() != c.want {
+				t.Errorf("got  %v\nwant a usage error %s", err, c.want)
 			}
 		})
 	}
