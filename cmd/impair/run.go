@@ -3,7 +3,6 @@ package main
 import (
 	"flag"
 	"io"
-	"log/slog"
 	"time"
 
 	"rigwire/cmd/internal/cli"
@@ -88,7 +87,7 @@ func cmdRun(args []string, stdout, stderr io.Writer) error {
 	maxDatagram := fs.Int("max-datagram", emulate.DefaultMaxDatagram, "longest datagram accepted, `bytes`")
 	maxInFlight := fs.Int("max-in-flight", emulate.DefaultMaxInFlight, "datagrams held at most per direction")
 	spin := fs.Duration("spin", emulate.DefaultSpin, "spin this long before each release instead of sleeping (0: never)")
-	logLevel := fs.String("log-level", "info", "debug, info, warn or error")
+	logger := fs.LogLevel()
 	cautionsRead := fs.Bool("cautions-read", false, "print the safety cautions as one line (you have read them)")
 	if err := fs.Parse(args); err != nil {
 		return err
@@ -123,9 +122,9 @@ func cmdRun(args []string, stdout, stderr io.Writer) error {
 	case cli.CheckMetricsAddr(*metricsAddr) != nil:
 		return cli.CheckMetricsAddr(*metricsAddr)
 	}
-	var level slog.Level
-	if err := level.UnmarshalText([]byte(*logLevel)); err != nil {
-		return fail("--log-level: want debug, info, warn or error, got %q", *logLevel)
+	log, err := logger(stderr)
+	if err != nil {
+		return err
 	}
 	opts := runOpts{metricsAddr: *metricsAddr, cautionsRead: *cautionsRead, links: links.Options{MaxDatagram: *maxDatagram,
 		MaxInFlight: *maxInFlight, Spin: *spin, TimeScale: *timeScale, ExitAfterScenario: *exitAfter}}
@@ -198,6 +197,5 @@ func cmdRun(args []string, stdout, stderr io.Writer) error {
 			return fail("%s: only with a scenario (--scenario, or scenario in the links file)", name)
 		}
 	}
-	log := slog.New(slog.NewTextHandler(stderr, &slog.HandlerOptions{Level: level}))
 	return runLinks(specs, opts, stderr, log)
 }

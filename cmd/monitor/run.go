@@ -3,7 +3,6 @@ package main
 import (
 	"fmt"
 	"io"
-	"log/slog"
 	"math"
 	"net"
 	"time"
@@ -109,7 +108,7 @@ func cmdRun(args []string, stdout, stderr io.Writer) error {
 	fs.Var(&from, "from", "decode only datagrams from `HOST` (any port) or HOST:PORT, the relay's tap socket; others are counted as strangers, never decoded (default: any source)")
 	var tripTo cli.AddrFlag
 	fs.Var(&tripTo, "trip-to", "send the safety trip request to the relay's trip socket at `HOST:PORT` (needs a trip section in the loop)")
-	logLevel := fs.String("log-level", "info", "debug, info, warn or error")
+	logger := fs.LogLevel()
 	if err := fs.Parse(args); err != nil {
 		return err
 	}
@@ -138,11 +137,10 @@ func cmdRun(args []string, stdout, stderr io.Writer) error {
 	if err != nil {
 		return err
 	}
-	var level slog.Level
-	if err := level.UnmarshalText([]byte(*logLevel)); err != nil {
-		return cli.Usagef("--log-level: want debug, info, warn or error, got %q", *logLevel)
+	log, err := logger(stderr)
+	if err != nil {
+		return err
 	}
-	log := slog.New(slog.NewTextHandler(stderr, &slog.HandlerOptions{Level: level}))
 
 	loop, err := profiles.LoadLoop(*loopPath)
 	if err != nil {

@@ -5,6 +5,7 @@ import (
 	"flag"
 	"fmt"
 	"io"
+	"log/slog"
 	"strings"
 	"time"
 
@@ -173,6 +174,20 @@ func (f *Flags) HelpText() string {
 	b.WriteString("\n")
 	b.WriteString(f.exits)
 	return b.String()
+}
+
+// LogLevel registers --log-level (debug, info, warn or error; default
+// info) and returns what makes the command's text logger on w at that
+// level, or refuses the level as bad usage naming the flag.
+func (f *Flags) LogLevel() func(w io.Writer) (*slog.Logger, error) {
+	s := f.String("log-level", "info", "debug, info, warn or error")
+	return func(w io.Writer) (*slog.Logger, error) {
+		var level slog.Level
+		if err := level.UnmarshalText([]byte(*s)); err != nil {
+			return nil, Usagef("--log-level: want debug, info, warn or error, got %q", *s)
+		}
+		return slog.New(slog.NewTextHandler(w, &slog.HandlerOptions{Level: level})), nil
+	}
 }
 
 // CheckMetricsAddr checks a --metrics value as endpoint.CheckMetrics

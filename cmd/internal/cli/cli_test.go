@@ -1,7 +1,10 @@
 package cli
 
 import (
+	"context"
 	"errors"
+	"io"
+	"log/slog"
 	"strings"
 	"testing"
 	"time"
@@ -94,6 +97,49 @@ func TestParseSaysWhatAFlagTakes(t *testing.T) {
 			var ue UsageError
 			if !errors.As(err, &ue) || err.Error() != c.want {
 				t.Errorf("got  %v\nwant a usage error %s", err, c.want)
+			}
+		})
+	}
+}
+
+// TestLogLevel: --log-level sets the logger's level; a word other than
+// debug, info, warn or error is bad usage naming the flag.
+func TestLogLevel(t *testing.T) {
+	cases := []struct {
+		name, arg string
+		enabled   slog.Level // the lowest level the logger writes
+		err       string
+	}{
+		{"default", "", slog.LevelInfo, ""},
+		{"debug", "debug", slog.LevelDebug, ""},
+		{"warn", "warn", slog.LevelWarn, ""},
+		{"unknown", "loud", 0, `--log-level: want debug, info, warn or error, got "loud"`},
+	}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			f := NewFlags("x", "usage: x\n", "")
+			logger := f.LogLevel()
+			var args []string
+			if c.arg != "" {
+				args = []string{"--log-level", c.arg}
+			}
+			if err := f.Parse(args); err != nil {
+				t.Fatal(err)
+			}
+			log, err := logger(io.Discard)
+			if c.err != "" {
+				var ue UsageError
+				if !errors.As(err, &ue) || err.Error() != c.err {
+					t.Fatalf("got %v, want a usage error %s", err, c.err)
+				}
+				return
+			}
+			if err != nil {
+				t.Fatal(err)
+			}
+			ctx := context.Background()
+			if !log.Enabled(ctx, c.enabled) || log.Enabled(ctx, c.enabled-1) {
+				t.Errorf("logger writes from another level than %s", c.enabled)
 			}
 		})
 	}
