@@ -10,8 +10,10 @@
 //     anything else is an error while running, status 1 (the table is
 //     cmd/internal/exitcode);
 //   - a flag set ([Flags]) whose -h prints the command's help with its
-//     exit statuses, and that takes flags before and after positional
-//     arguments ([Flags.ParseInterspersed]);
+//     exit statuses, whose refused values say what the flag takes, that
+//     takes flags before and after positional arguments
+//     ([Flags.ParseInterspersed]), and whose --log-level makes the
+//     command's logger ([Flags.LogLevel]);
 //   - the flags of an address ([AddrFlag]) and of one sender
 //     ([SenderFlag]), and the check of a --metrics address
 //     ([CheckMetricsAddr]), which read them with emulate/endpoint, the one
