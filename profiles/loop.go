@@ -36,6 +36,10 @@ type Loop struct {
 	ProfileFile string
 	// Actuator says what the actuator does between commands.
 	Actuator Actuator
+	// Timing is the loop's timing policy (key timing): how old a sample
+	// the controller still uses and how old a command the actuator still
+	// applies. The zero value is today's one-period rule; use Horizons.
+	Timing Timing
 	// Decode says where the outputs sit in each sensor datagram. Its
 	// Format is "" when the loop file has no decode section (enough for
 	// predict, not for monitor run).
@@ -89,6 +93,43 @@ func (p ActuatorPolicy) String() string {
 type Actuator struct {
 	// OnLoss is the policy (key on_loss: hold | zero).
 	OnLoss ActuatorPolicy
+}
+
+// Timing is the timing policy of estimate/model.md §13. Ages are counted
+// from the sample's time t_k, in whole periods h:
+//
+//   - the controller uses a sample whose age on arrival is below
+//     SampleHorizon·h and whose sequence number is above the last sample
+//     it used (older and duplicate samples are dropped);
+//   - the actuator applies a command whose age on arrival (since the
+//     time of the sample it answers, whose sequence number it carries) is
+//     below CommandHorizon·h and whose sequence number is above the last
+//     command it applied (older and duplicate commands are dropped).
+//
+// Horizons of 1 are the default and the rule of estimate/model.md §1: a
+// sample or a command a period old or more is stale or late.
+type Timing struct {
+	// SampleHorizon is the controller's horizon in periods; 0 means 1.
+	SampleHorizon int
+	// CommandHorizon is the actuator's horizon in periods; 0 means 1.
+	// Never below SampleHorizon in a loaded loop.
+	CommandHorizon int
+}
+
+// MaxHorizon is the largest horizon, in periods, a loop file may give.
+const MaxHorizon = 16
+
+// Horizons returns the controller's and the actuator's horizons in
+// periods, 1 for a horizon the loop file leaves out.
+func (l *Loop) Horizons() (sample, command int) {
+	sample, command = l.Timing.SampleHorizon, l.Timing.CommandHorizon
+	if sample < 1 {
+		sample = 1
+	}
+	if command < 1 {
+		command = 1
+	}
+	return sample, command
 }
 
 // Dims returns the loop's dimensions: plant states n, inputs m, outputs
