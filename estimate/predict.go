@@ -32,6 +32,45 @@ type Prediction struct {
 	States []StateReport
 	// Moments are the steady state moments; nil when not stable.
 	Moments *Moments
+	// Timing is what the loop's timing policy does (estimate/model.md
+	// §13): the horizons, how the prediction was computed and how old the
+	// command the actuator runs on is. Never nil.
+	Timing *TimingReport
+}
+
+// Prediction methods (TimingReport.Method).
+const (
+	// MethodExact: the moments of the jump linear system, exact up to
+	// quadrature (estimate/model.md §4, §13).
+	MethodExact = "exact"
+	// MethodMonteCarlo: the exact chain is too large (estimate/model.md
+	// §13); the moments are a seeded Monte Carlo estimate from the same
+	// rules, with their standard error, and stability is not certified.
+	MethodMonteCarlo = "monte_carlo"
+)
+
+// TimingReport is what the timing policy does to the loop
+// (estimate/model.md §13).
+type TimingReport struct {
+	// SampleHorizon and CommandHorizon are the policy's horizons in
+	// periods (1 and 1 for the rule of estimate/model.md §1).
+	SampleHorizon, CommandHorizon int
+	// Method is MethodExact or MethodMonteCarlo.
+	Method string
+	// Reason says why the method is Monte Carlo ("" when exact).
+	Reason string
+	// CommandAge[d], d = 0 … CommandHorizon−1, is the stationary share of
+	// periods that end with the actuator running on a command whose
+	// sample was taken d periods before the period began (0: this
+	// period's own sample).
+	CommandAge []float64
+	// Stale is the share of periods that end with the actuator holding a
+	// command CommandHorizon periods old or more (no fresher one arrived
+	// within the horizon). Stale + Σ CommandAge = 1.
+	Stale float64
+	// SecondMomentStdErr is the Monte Carlo standard error of
+	// Error.SecondMoment (0 when the method is exact).
+	SecondMomentStdErr float64
 }
 
 // StateReport describes one joint network state of the prediction.
