@@ -37,6 +37,12 @@ type Model struct {
 	opts   Options
 	// marginProgress is PredictOptions.MarginProgress.
 	marginProgress func(q float64)
+	// long is the chain of a command horizon above one period
+	// (estimate/model.md §13), nil for the model of §1–§4. With it, Pi is
+	// the law of the chain's states and thetaPi that of the network's.
+	long     *longChain
+	thetaPi  []float64
+	buildErr error // a rebuild at another extra loss failed
 }
 
 // JointState is one state of the joint chain (sensor direction state,
@@ -124,6 +130,15 @@ func Build(loop *profiles.Loop, opts Options) (*Model, error) {
 		}
 	}
 
+	switch ns, na := loop.Horizons(); {
+	case ns > 1:
+		return nil, fmt.Errorf("%w: a sample horizon of %d periods lets samples overtake each other before the controller, which correlates the commands in flight (estimate/model.md §13)", ErrNoExactChain, ns)
+	case na > 1:
+		if err := md.buildLong(na); err != nil {
+			return nil, err
+		}
+		return md, nil
+	}
 	deg := chebDegree(samp, loop.ComputeDelay)
 	cache := map[float64]mode{} // m2 at each distinct τ, shared between states
 	for i, s := range sc.States {
@@ -207,6 +222,13 @@ func scaledCopy(a *mat.Dense, s float64) *mat.Dense {
 //	P(m1) = 1 − P(m0) − P(m2).
 func (md *Model) setLoss(q float64) {
 	md.opts.ExtraLoss = q
+	if md.long != nil {
+		// The extra loss enters the long chain's arrival laws, not only
+		// its mode probabilities: rebuild it.
+		_, na := md.Loop.Horizons()
+		md.buildErr = md.buildLong(na)
+		return
+	}
 	for k := range md.States {
 		js := &md.States[k]
 		js.LossSC = js.baseSC + (1-js.baseSC)*q

@@ -67,6 +67,9 @@ func (md *Model) baseOps() (m0, m1 *mat.Dense) {
 // Q ↦ (Σ_i P_ij E_i[F Q_i Fᵀ])_j (estimate/model.md §4) on the stacked svec(Q_j),
 // a square matrix of side N·nz(nz+1)/2 for N joint states.
 func (md *Model) SecondMomentOperator() *mat.Dense {
+	if md.long != nil {
+		return md.longSecondOp()
+	}
 	m0, m1 := md.baseOps()
 	N, d := len(md.States), md.symDim()
 	big := mat.NewDense(N*d, N*d, nil)
@@ -87,6 +90,9 @@ func (md *Model) SecondMomentOperator() *mat.Dense {
 // FirstMomentOperator returns the matrix of q ↦ (Σ_i P_ij E_i[F] q_i)_j
 // on the stacked q_j (side N·nz).
 func (md *Model) FirstMomentOperator() *mat.Dense {
+	if md.long != nil {
+		return md.longFirstOp()
+	}
 	N, nz := len(md.States), md.lm.nz
 	big := mat.NewDense(N*nz, N*nz, nil)
 	for i := 0; i < N; i++ {
@@ -165,6 +171,9 @@ func (md *Model) Steady() (*Moments, error) {
 	if !md.MeanSquareStable() {
 		return nil, ErrNotStable
 	}
+	if md.long != nil {
+		return md.longSteady()
+	}
 	N, nz, d := len(md.States), md.lm.nz, md.symDim()
 	// First moments.
 	a1 := md.FirstMomentOperator()
@@ -213,7 +222,7 @@ func (md *Model) Steady() (*Moments, error) {
 }
 
 func (md *Model) collect(qs [][]float64, x []float64) *Moments {
-	N, nz, d := len(md.States), md.lm.nz, md.symDim()
+	N, nz, d := md.nStates(), md.lm.nz, md.symDim()
 	out := &Moments{Mean: make([]float64, nz), Second: mat.NewSymDense(nz, nil)}
 	for i := 0; i < N; i++ {
 		qi := append([]float64(nil), qs[i]...)
@@ -294,6 +303,9 @@ type Step struct {
 // recursions of estimate/model.md §4 forward; step 0 is the instant of the step.
 // It needs no stability: an unstable loop's moments grow.
 func (md *Model) Transient(steps int) []Step {
+	if md.long != nil {
+		return md.longTransient(steps)
+	}
 	N, nz, d := len(md.States), md.lm.nz, md.symDim()
 	m0, m1 := md.baseOps()
 	ops := make([]*mat.Dense, N)

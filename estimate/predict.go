@@ -126,13 +126,13 @@ func Predict(loop *profiles.Loop, opts PredictOptions) (*Prediction, error) {
 
 // Predict is Predict for a model already built.
 func (md *Model) Predict(margin bool) (*Prediction, error) {
-	pr := &Prediction{LossMargin: math.NaN()}
+	pr := &Prediction{LossMargin: math.NaN(), Timing: md.timingReport()}
 	rad := md.Radius()
 	pr.SpectralRadius, pr.RadiusError, pr.Stability = rad.Value, rad.Error, rad.Stability
 	pr.MeanSquareStable = rad.Stability == StabilityStable
 	for i, js := range md.States {
 		pr.States = append(pr.States, StateReport{
-			Name: js.Name, Probability: md.Pi[i], LossSC: js.LossSC, LossCA: js.LossCA,
+			Name: js.Name, Probability: md.stateProb(i), LossSC: js.LossSC, LossCA: js.LossCA,
 			P0: js.P0, P1: js.P1, P2: js.P2, MeanDelay: js.MeanDelayM2,
 		})
 	}

@@ -382,7 +382,7 @@ func (ly *lyapunov) verdict(est, lo, hi float64) Radius {
 // Radius returns ρ of the second-moment operator with its certified
 // bracket and the stability verdict.
 func (md *Model) Radius() Radius {
-	return newLyapunov(md.SecondMomentOperator(), md.lm.nz, len(md.States)).radius()
+	return newLyapunov(md.SecondMomentOperator(), md.lm.nz, md.nStates()).radius()
 }
 
 // SpectralRadius is Radius().Value.
@@ -395,7 +395,10 @@ func (md *Model) SpectralRadius() float64 { return md.Radius().Value }
 // One LU factorisation, far cheaper than the radius, so the loss-margin
 // scan uses it.
 func (md *Model) MeanSquareStable() bool {
-	ly := newLyapunov(md.SecondMomentOperator(), md.lm.nz, len(md.States))
+	if md.buildErr != nil {
+		return false
+	}
+	ly := newLyapunov(md.SecondMomentOperator(), md.lm.nz, md.nStates())
 	if ly.norm < 1 {
 		return true
 	}
