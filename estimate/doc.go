@@ -29,7 +29,16 @@
 //   - §9 the online estimate and the verdict (estimate/online,
 //     estimate/engine);
 //   - §10 conventions, §11 limits (limits.go), §12 the published sources
-//     the tests check against.
+//     the tests check against;
+//   - §13 delays of several periods: the loop file's timing policy
+//     (commands applied newest-first within a horizon of Na periods), the
+//     chain of the network state and the age of the command in force,
+//     every arrival inside a period at its own offset, the per-period
+//     input integrals as products of the pending commands' arrival CDFs
+//     (longlaw.go, longperiod.go) turned into moment-matched modes
+//     (longchain.go, long.go); and when the exact chain is not built (a
+//     sample horizon above one period, or too large a chain), a Monte
+//     Carlo answer from the same rules, marked as such.
 //
 // Entry points: [Predict] for the prediction, [Build] for the model itself
 // ([Model.Transient] for a step response, [Model.Radius]), [Sweep] for a

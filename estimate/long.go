@@ -59,10 +59,17 @@ func (md *Model) buildLong(na int) error {
 				return fmt.Errorf("network state %s: controller_to_actuator: %w", js.Name, err)
 			}
 			top := float64(na) * h
-			tl, err := newTotalLaw(psc, pca, h, loop.ComputeDelay, top, js.OnTimeSC)
-			if err != nil {
-				return fmt.Errorf("network state %s: %w", js.Name, err)
+			k := len(per)
+			if k >= len(md.longLaws) {
+				// The arrival laws do not depend on the losses: built once,
+				// kept for rebuilds at another extra loss (setLoss).
+				tl, err := newTotalLaw(psc, pca, h, loop.ComputeDelay, top, js.OnTimeSC)
+				if err != nil {
+					return fmt.Errorf("network state %s: %w", js.Name, err)
+				}
+				md.longLaws = append(md.longLaws, thetaLaws{tl: tl, grid: newPeriodGrid(tl, na, loop.Plant.A, loop.Plant.B, h)})
 			}
+			tl, grid := md.longLaws[k].tl, md.longLaws[k].grid
 			used := (1 - js.LossSC) * js.OnTimeSC
 			inTime := tl.cdf(top, true)
 			js.P0 = 1 - used
@@ -73,7 +80,7 @@ func (md *Model) buildLong(na int) error {
 				js.MeanDelayM2 = tl.meanBelow(top) / inTime
 			}
 			md.States = append(md.States, js)
-			per = append(per, thetaLaws{js: js, tl: tl, grid: newPeriodGrid(tl, na, loop.Plant.A, loop.Plant.B, h), used: used, pa: js.LossCA})
+			per = append(per, thetaLaws{js: js, tl: tl, grid: grid, used: used, pa: js.LossCA})
 		}
 	}
 	lc, err := md.buildLongChain(ly, per)

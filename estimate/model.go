@@ -42,7 +42,8 @@ type Model struct {
 	// the law of the chain's states and thetaPi that of the network's.
 	long     *longChain
 	thetaPi  []float64
-	buildErr error // a rebuild at another extra loss failed
+	longLaws []thetaLaws // per network state: arrival law and grid, kept across rebuilds
+	buildErr error       // a rebuild at another extra loss failed
 }
 
 // JointState is one state of the joint chain (sensor direction state,
