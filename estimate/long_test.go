@@ -70,3 +70,76 @@ func TestLongChainReproducesOnePeriod(t *testing.T) {
 		})
 	}
 }
+
+// scalarIntegrator is x' = x + u·(time applied)/h: an integrator plant
+// dx/dt = u/h, y = x, under a static controller u = K e, setpoint r, with
+// the given noise, horizon and profile: the loop x_{k+1} = x_k − K x_{k−d}
+// when every command takes d periods.
+func scalarIntegrator(K, r, w, v float64, na int, prof *profiles.Profile) *profiles.Loop {
+	const h = 0.01
+	return &profiles.Loop{Period: h,
+		Plant:      profiles.Plant{A: dense([]float64{0}), B: dense([]float64{1 / h}), C: dense([]float64{1}), W: dense([]float64{w}), V: dense([]float64{v})},
+		Controller: profiles.Controller{D: dense([]float64{K})}, Setpoint: []float64{r},
+		Profile: prof,
+		Timing:  profiles.Timing{SampleHorizon: 1, CommandHorizon: na}}
+}
+
+// TestLongChainAcrossLaws runs the long-delay model over the shapes a
+// profile may give, against a 10 ms period and a four-period horizon:
+// atoms on and off the period grid, a singular start, a peak far narrower
+// than the period, a heavy tail, an atom beside a density, every command
+// late, every command lost. Each must give a finite answer whose command
+// ages add up to one (the internal checks of estimate/model.md §13 —
+// probabilities, Σ M = Γ — run on every period and would refuse it).
+func TestLongChainAcrossLaws(t *testing.T) {
+	ms := 1e-3
+	cases := []struct {
+		name string
+		ca   *profiles.Profile
+	}{
+		{"constant 25 ms (between periods)", profile(nil, iidChannel(0.05, must(laws.NewConstant(25*ms))))},
+		{"constant 20 ms (on the grid)", profile(nil, iidChannel(0, must(laws.NewConstant(20*ms))))},
+		{"gamma shape 0.4 (singular start)", profile(nil, iidChannel(0.1, must(laws.NewGamma(0.4, 20*ms, 1*ms))))},
+		{"lognormal peak 1000× narrower than h", profile(nil, iidChannel(0, must(laws.NewLognormal(17*ms, 0.0005, 0))))},
+		{"pareto heavy tail", profile(nil, iidChannel(0.02, must(laws.NewPareto(1.2, 5*ms))))},
+		{"atom beside a density", profile(iidChannel(0.01, must(laws.NewUniform(0, 3*ms))), iidChannel(0.05, must(laws.NewMixture([]float64{0.3, 0.7}, []laws.Delay{must(laws.NewConstant(12*ms)), must(laws.NewExponential(10*ms, 5*ms))}))))},
+		{"empirical with repeats", profile(nil, iidChannel(0, must(laws.NewEmpirical([]float64{4 * ms, 14 * ms, 14 * ms, 27 * ms, 33 * ms, 38 * ms}, 0))))},
+		{"every command late", profile(nil, iidChannel(0, must(laws.NewConstant(45*ms))))},
+		{"every command lost", profile(nil, iidChannel(1, must(laws.NewConstant(5*ms))))},
+		{"burst channel, long delays in the bad state", profile(twoState(2, 0, must(laws.NewConstant(1*ms)), 1, 0.5, must(laws.NewUniform(1*ms, 9*ms))), twoState(3, 0.01, must(laws.NewLognormal(12*ms, 0.3, 0)), 0.5, 0.3, must(laws.NewGamma(2, 8*ms, 15*ms))))},
+	}
+	for _, tc := range cases {
+		t.Run(tc.name, func(t *testing.T) {
+			loop := scalarIntegrator(0.2, 1, 1e-4, 1e-6, 4, tc.ca)
+			pr, err := Predict(loop, PredictOptions{SkipMargin: true})
+			if err != nil {
+				t.Fatal(err)
+			}
+			if math.IsNaN(pr.SpectralRadius) || math.IsInf(pr.SpectralRadius, 0) {
+				t.Fatalf("ρ = %g", pr.SpectralRadius)
+			}
+			tr := pr.Timing
+			sum := tr.Stale
+			for _, a := range tr.CommandAge {
+				if a < -1e-12 || a > 1+1e-12 {
+					t.Errorf("age share %g outside [0, 1]", a)
+				}
+				sum += a
+			}
+			if math.Abs(sum-1) > 1e-9 {
+				t.Errorf("age shares add up to %.12g, want 1: %+v", sum, tr)
+			}
+			if pr.MeanSquareStable && (pr.Error == nil || !(pr.Error.SecondMoment > 0) || math.IsInf(pr.Error.SecondMoment, 0)) {
+				t.Errorf("stable but E[eᵀe] = %+v", pr.Error)
+			}
+			t.Logf("ρ %.6g %s E[eᵀe] %v ages %.4g stale %.4g", pr.SpectralRadius, pr.Stability, errOf(pr), tr.CommandAge, tr.Stale)
+		})
+	}
+}
+
+func errOf(pr *Prediction) float64 {
+	if pr.Error == nil {
+		return math.NaN()
+	}
+	return pr.Error.SecondMoment
+}
