@@ -36,8 +36,16 @@ var loopErrors = map[string]string{
 	"shape-c.bad.yaml":               `:5: plant.c: want 2 columns (plant.a is 2×2), got 1×3`,
 	"shape-d.bad.yaml":               `:10: controller.d: want 1×1, got 1×2`,
 	"square-a.bad.yaml":              `:2: plant.a: want a square matrix, got 1×2`,
-	"unknown-key.bad.yaml":           `:3: unknown key "controler" (want one of: period, plant, controller, setpoint, compute_delay, profile, actuator, decode, trip)`,
+	"unknown-key.bad.yaml":           `:3: unknown key "controler" (want one of: period, plant, controller, setpoint, compute_delay, profile, actuator, timing, decode, trip)`,
 	"unknown-plant-key.bad.yaml":     `:6: plant: unknown key "noise" (want one of: a, b, c, process_noise, sensor_noise)`,
+	"timing-fraction.bad.yaml":       `:5: timing.command_horizon: want a whole number of periods from 1 to 16, got "2.5"`,
+	"timing-zero.bad.yaml":           `:5: timing.command_horizon: want a whole number of periods from 1 to 16, got "0"`,
+	"timing-too-long.bad.yaml":       `:5: timing.command_horizon: want a whole number of periods from 1 to 16, got "17"`,
+	"timing-order.bad.yaml":          `:7: timing.command_horizon: want a command horizon of at least the sample horizon (3 periods): a command is never younger than the sample it answers, got 2`,
+	"timing-text.bad.yaml":           `:5: timing.sample_horizon: want a whole number of periods from 1 to 16, got "two"`,
+	"timing-unknown.bad.yaml":        `:5: timing: unknown key "command_horizons" (want one of: sample_horizon, command_horizon)`,
+	"timing-zero-actuator.bad.yaml":  `:6: timing.command_horizon: want 1 with actuator.on_loss: zero (that actuator drops every command at the end of its own period), got 3`,
+	"timing-sample-only.bad.yaml":    `:5: timing: want a command horizon of at least the sample horizon (3 periods): a command is never younger than the sample it answers, got 1`,
 }
 
 func TestLoadLoopBad(t *testing.T) {
@@ -157,4 +165,31 @@ func FuzzParseLoop(f *testing.F) {
 			t.Errorf("period %g compute delay %g", l.Period, l.ComputeDelay)
 		}
 	})
+}
+
+// TestLoopTiming: the timing section's horizons, and the defaults of a
+// loop file without it (estimate/model.md §13).
+func TestLoopTiming(t *testing.T) {
+	const base = "period: 10ms\nplant: {a: [[-1]], b: [[1]], c: [[1]]}\ncontroller: {d: [[1]]}\nprofile: {name: x}\n"
+	cases := []struct {
+		name, extra string
+		ns, na      int
+	}{
+		{"absent", "", 1, 1},
+		{"command only", "timing: {command_horizon: 4}\n", 1, 4},
+		{"both", "timing: {sample_horizon: 2, command_horizon: 5}\n", 2, 5},
+		{"empty mapping", "timing: {}\n", 1, 1},
+		{"the largest", "timing: {sample_horizon: 16, command_horizon: 16}\n", 16, 16},
+	}
+	for _, tc := range cases {
+		t.Run(tc.name, func(t *testing.T) {
+			l, err := ParseLoop([]byte(base+tc.extra), "loop.yaml", "")
+			if err != nil {
+				t.Fatal(err)
+			}
+			if ns, na := l.Horizons(); ns != tc.ns || na != tc.na {
+				t.Errorf("horizons %d, %d; want %d, %d", ns, na, tc.ns, tc.na)
+			}
+		})
+	}
 }

@@ -48,7 +48,7 @@ const psdTolerance = 1e-12
 
 func parseLoop(root yamlpos.Field, dir string) (*Loop, error) {
 	keys, err := root.Mapping("period", "plant", "controller", "setpoint", "compute_delay",
-		"profile", "actuator", "decode", "trip")
+		"profile", "actuator", "timing", "decode", "trip")
 	if err != nil {
 		return nil, err
 	}
@@ -133,6 +133,11 @@ func parseLoop(root yamlpos.Field, dir string) (*Loop, error) {
 			default:
 				return nil, ol.Errorf("want hold or zero, got %s", ol.Got())
 			}
+		}
+	}
+	if f := keys["timing"]; !f.IsZero() {
+		if err := parseTiming(f, l); err != nil {
+			return nil, err
 		}
 	}
 	if f := keys["decode"]; !f.IsZero() {
@@ -272,5 +277,49 @@ func parseController(f yamlpos.Field, c *Controller, n, m, p int) error {
 	} else {
 		c.D = mat.NewDense(m, p, nil)
 	}
+	return nil
+}
+
+// parseTiming reads the loop's timing policy (key timing; estimate/model.md
+// §13): two horizons in whole periods, the command's no shorter than the
+// sample's, and more than one period only for a holding actuator.
+func parseTiming(f yamlpos.Field, l *Loop) error {
+	keys, err := f.Mapping("sample_horizon", "command_horizon")
+	if err != nil {
+		return err
+	}
+	horizon := func(k string) (int, error) {
+		g := keys[k]
+		if g.IsNull() {
+			return 1, nil
+		}
+		n, err := g.Int()
+		if err != nil {
+			return 0, g.Errorf("want a whole number of periods from 1 to %d, got %s", MaxHorizon, g.Got())
+		}
+		if n < 1 || n > MaxHorizon {
+			return 0, g.Errorf("want a whole number of periods from 1 to %d, got %s", MaxHorizon, g.Got())
+		}
+		return n, nil
+	}
+	ns, err := horizon("sample_horizon")
+	if err != nil {
+		return err
+	}
+	na, err := horizon("command_horizon")
+	if err != nil {
+		return err
+	}
+	if na < ns {
+		g := keys["command_horizon"]
+		if g.IsNull() {
+			g = f
+		}
+		return g.Errorf("want a command horizon of at least the sample horizon (%d periods): a command is never younger than the sample it answers, got %d", ns, na)
+	}
+	if na > 1 && l.Actuator.OnLoss == ZeroUnlessFresh {
+		return keys["command_horizon"].Errorf("want 1 with actuator.on_loss: zero (that actuator drops every command at the end of its own period), got %d", na)
+	}
+	l.Timing = Timing{SampleHorizon: ns, CommandHorizon: na}
 	return nil
 }
