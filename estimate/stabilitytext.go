@@ -96,8 +96,20 @@ func sameSide(s string, rho float64) bool {
 //	NOT mean-square stable (spectral radius 1.0213 ± 1e-09, at or above 1)
 //	MARGINAL: the spectral radius 1 ± 1e-06 cannot be told apart from 1 at the
 //	accuracy of the computation; treated as not stable (no steady moments)
+//
+// A Monte Carlo prediction (estimate/model.md §13) has no spectral radius:
+// its verdict says that it was judged by simulation and is not certified.
 func DescribeStability(pr *Prediction) string {
 	v := VerdictOf(pr)
+	if pr.Timing != nil && pr.Timing.Method == MethodMonteCarlo {
+		switch v {
+		case StabilityStable:
+			return "mean-square stable by simulation (not certified: " + pr.Timing.Reason + ")"
+		case StabilityMarginal:
+			return "UNDECIDED by simulation: the second moment did not settle within the runs (not certified: " + pr.Timing.Reason + "); treated as not stable"
+		}
+		return "NOT mean-square stable by simulation: the second moment grows (" + pr.Timing.Reason + ")"
+	}
 	r := RadiusText(pr.SpectralRadius, pr.RadiusError, v)
 	switch v {
 	case StabilityStable:
