@@ -65,8 +65,20 @@ type JointState struct {
 }
 
 // Build turns a validated loop into its jump linear system. It fails
-// only on a loop the loader would have refused.
+// on a loop the loader would have refused, on one too large to predict
+// (§11), and with ErrNoExactChain on a timing policy the exact model does
+// not cover (§13).
 func Build(loop *profiles.Loop, opts Options) (*Model, error) {
+	md, err := buildBase(loop, opts)
+	if err != nil {
+		return nil, err
+	}
+	return md.buildModes()
+}
+
+// buildBase checks the options and sets what every model and the Monte
+// Carlo share: the sampled plant, the loop matrices, the network chain.
+func buildBase(loop *profiles.Loop, opts Options) (*Model, error) {
 	if opts.DelayScale == 0 {
 		opts.DelayScale = 1
 	}
@@ -130,6 +142,14 @@ func Build(loop *profiles.Loop, opts Options) (*Model, error) {
 			md.Pi = append(md.Pi, a*b)
 		}
 	}
+	return md, nil
+}
+
+// buildModes builds the jump system's modes on a base model.
+func (md *Model) buildModes() (*Model, error) {
+	loop, opts, samp := md.Loop, md.opts, md.lm.samp
+	h := loop.Period
+	sc, ca := loop.Profile.SensorToController, loop.Profile.ControllerToActuator
 
 	switch ns, na := loop.Horizons(); {
 	case ns > 1:

@@ -46,8 +46,18 @@ type SimResult struct {
 	StdErr float64
 	// RunMeans are the runs' time averages.
 	RunMeans []float64
-	// ModeCounts counts the periods in each mode over all runs.
+	// ModeCounts counts the periods in each mode over all runs (a
+	// one-period horizon only).
 	ModeCounts [3]int
+	// ErrorMean is the time average of e_k after the warm-up over all
+	// runs, per output.
+	ErrorMean []float64
+	// CommandAge[d] is the share of periods (after the warm-up) that end
+	// with the actuator running on a command d periods old, d below the
+	// command horizon; Stale the share that end on an older one or none
+	// (estimate/model.md §13, as TimingReport).
+	CommandAge []float64
+	Stale      float64
 	Paths      [][]PathPoint
 }
 
@@ -71,12 +81,15 @@ func Simulate(loop *profiles.Loop, opts SimOptions) (*SimResult, error) {
 	if opts.Runs < 1 {
 		return nil, fmt.Errorf("runs: want at least 1, got %d", opts.Runs)
 	}
-	md, err := Build(loop, opts.Options) // for the chain and the scaled delays
+	md, err := buildBase(loop, opts.Options) // for the chain and the scaled delays
 	if err != nil {
 		return nil, err
 	}
 	sim := newSimulator(md)
-	res := &SimResult{}
+	ns, na := loop.Horizons()
+	_, _, p, _ := loop.Dims()
+	res := &SimResult{ErrorMean: make([]float64, p)}
+	ages := make([]int, na+1)
 	for r := 0; r < opts.Runs; r++ {
 		rng := rand.New(rand.NewPCG(opts.Seed, uint64(r)))
 		var path *[]PathPoint
@@ -84,7 +97,12 @@ func Simulate(loop *profiles.Loop, opts SimOptions) (*SimResult, error) {
 			res.Paths = append(res.Paths, nil)
 			path = &res.Paths[len(res.Paths)-1]
 		}
-		m := sim.run(rng, opts.Periods, opts.Warmup, path, &res.ModeCounts)
+		var m float64
+		if ns == 1 && na == 1 {
+			m = sim.run(rng, opts.Periods, opts.Warmup, path, &res.ModeCounts, res.ErrorMean)
+		} else {
+			m = sim.runLong(rng, opts.Periods, opts.Warmup, ns, na, res.ErrorMean, ages)
+		}
 		res.RunMeans = append(res.RunMeans, m)
 		if opts.Progress != nil {
 			opts.Progress(r+1, opts.Runs)
@@ -95,6 +113,22 @@ func Simulate(loop *profiles.Loop, opts SimOptions) (*SimResult, error) {
 		sum += m
 	}
 	res.SecondMoment = sum / float64(len(res.RunMeans))
+	counted := float64(opts.Runs * (opts.Periods - opts.Warmup))
+	for i := range res.ErrorMean {
+		res.ErrorMean[i] /= counted
+	}
+	res.CommandAge = make([]float64, na)
+	if ns == 1 && na == 1 {
+		// One period: a period ends on its own command when it was
+		// delivered in time (mode 2), else on a stale one.
+		ages[0] = res.ModeCounts[2]
+		ages[1] = res.ModeCounts[0] + res.ModeCounts[1]
+		counted = float64(ages[0] + ages[1])
+	}
+	for d := 0; d < na; d++ {
+		res.CommandAge[d] = float64(ages[d]) / counted
+	}
+	res.Stale = float64(ages[na]) / counted
 	if len(res.RunMeans) > 1 {
 		ss := 0.0
 		for _, m := range res.RunMeans {
@@ -180,7 +214,7 @@ func (s *simulator) gammas(tau float64) (g0, g1 *mat.Dense) {
 
 // run simulates one run and returns its time average of eᵀe after the
 // warm-up.
-func (s *simulator) run(rng *rand.Rand, periods, warmup int, path *[]PathPoint, counts *[3]int) float64 {
+func (s *simulator) run(rng *rand.Rand, periods, warmup int, path *[]PathPoint, counts *[3]int, errSum []float64) float64 {
 	n, m, p, nc := s.n, s.m, s.p, s.nc
 	x := make([]float64, n)
 	uHeld := make([]float64, m)
@@ -205,6 +239,9 @@ func (s *simulator) run(rng *rand.Rand, periods, warmup int, path *[]PathPoint, 
 		}
 		if k >= warmup {
 			sum += ee
+			for i := range errSum {
+				errSum[i] += e[i]
+			}
 		}
 		// Network and controller.
 		mode, tau := 0, math.NaN()
