@@ -102,7 +102,7 @@ func TestLongChainAcrossLaws(t *testing.T) {
 		{"gamma shape 0.4 (singular start)", profile(nil, iidChannel(0.1, must(laws.NewGamma(0.4, 20*ms, 1*ms))))},
 		{"lognormal peak 1000× narrower than h", profile(nil, iidChannel(0, must(laws.NewLognormal(17*ms, 0.0005, 0))))},
 		{"pareto heavy tail", profile(nil, iidChannel(0.02, must(laws.NewPareto(1.2, 5*ms))))},
-		{"atom beside a density", profile(iidChannel(0.01, must(laws.NewUniform(0, 3*ms))), iidChannel(0.05, must(laws.NewMixture([]float64{0.3, 0.7}, []laws.Delay{must(laws.NewConstant(12*ms)), must(laws.NewExponential(10*ms, 5*ms))}))))},
+		{"atom beside a density", profile(iidChannel(0.01, must(laws.NewUniform(0, 3*ms))), iidChannel(0.05, must(laws.NewMixture([]float64{0.3, 0.7}, []laws.Delay{must(laws.NewConstant(12 * ms)), must(laws.NewExponential(10*ms, 5*ms))}))))},
 		{"empirical with repeats", profile(nil, iidChannel(0, must(laws.NewEmpirical([]float64{4 * ms, 14 * ms, 14 * ms, 27 * ms, 33 * ms, 38 * ms}, 0))))},
 		{"every command late", profile(nil, iidChannel(0, must(laws.NewConstant(45*ms))))},
 		{"every command lost", profile(nil, iidChannel(1, must(laws.NewConstant(5*ms))))},
