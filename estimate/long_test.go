@@ -2,6 +2,7 @@ package estimate
 
 import (
 	"math"
+	"strings"
 	"testing"
 
 	"rigwire/profiles"
@@ -142,4 +143,51 @@ func errOf(pr *Prediction) float64 {
 		return math.NaN()
 	}
 	return pr.Error.SecondMoment
+}
+
+// TestSampleHorizonFallsBackToMonteCarlo: a sample horizon above one
+// period has no exact chain (estimate/model.md §13); the prediction is a
+// Monte Carlo from the same rules, marked as such, with a standard error,
+// no spectral radius and a verdict in words that says it is not
+// certified. A loop far beyond its stable gains is not called stable.
+func TestSampleHorizonFallsBackToMonteCarlo(t *testing.T) {
+	if testing.Short() {
+		t.Skip("Monte Carlo: seconds")
+	}
+	const h = 0.01
+	prof := profile(iidChannel(0.05, must(laws.NewUniform(0.2*h, 1.8*h))), iidChannel(0.05, must(laws.NewUniform(0, 0.8*h))))
+	loop := scalarIntegrator(0.3, 1, 0.02, 1e-4, 3, prof)
+	loop.Timing.SampleHorizon = 2
+	pr, err := Predict(loop, PredictOptions{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	tr := pr.Timing
+	if tr.Method != MethodMonteCarlo || !strings.Contains(tr.Reason, "sample horizon of 2 periods") {
+		t.Errorf("method %q, reason %q", tr.Method, tr.Reason)
+	}
+	if !pr.MeanSquareStable || pr.Error == nil || !(tr.SecondMomentStdErr > 0) || tr.SecondMomentStdErr > 0.05*pr.Error.SecondMoment {
+		t.Fatalf("stable %v, error %+v, standard error %g", pr.MeanSquareStable, pr.Error, tr.SecondMomentStdErr)
+	}
+	if !math.IsNaN(pr.SpectralRadius) || !math.IsNaN(pr.LossMargin) {
+		t.Errorf("ρ %g, loss margin %g: want both not computed (NaN)", pr.SpectralRadius, pr.LossMargin)
+	}
+	if d := DescribeStability(pr); !strings.Contains(d, "by simulation (not certified") {
+		t.Errorf("words: %q", d)
+	}
+	sum := tr.Stale
+	for _, a := range tr.CommandAge {
+		sum += a
+	}
+	if math.Abs(sum-1) > 1e-12 || len(tr.CommandAge) != 3 || len(pr.States) != 1 {
+		t.Errorf("ages %v stale %g, states %d", tr.CommandAge, tr.Stale, len(pr.States))
+	}
+	loop.Controller.D = dense([]float64{3})
+	pr, err = Predict(loop, PredictOptions{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if pr.MeanSquareStable || pr.Error != nil {
+		t.Errorf("gain 3 over a delayed integrator called stable: %+v", pr.Error)
+	}
 }

@@ -5,6 +5,7 @@ import (
 	"math"
 
 	"rigwire/profiles"
+	"rigwire/profiles/laws"
 )
 
 // Prediction is what theory says of a loop over its network (package
@@ -117,6 +118,9 @@ type PredictOptions struct {
 // This is what the monitor calls.
 func Predict(loop *profiles.Loop, opts PredictOptions) (*Prediction, error) {
 	md, err := Build(loop, opts.Options)
+	if errors.Is(err, ErrNoExactChain) {
+		return predictByMonteCarlo(loop, opts.Options, err)
+	}
 	if err != nil {
 		return nil, err
 	}
@@ -154,4 +158,91 @@ func (md *Model) Predict(margin bool) (*Prediction, error) {
 		pr.LossMargin = md.LossMarginProgress(md.marginProgress)
 	}
 	return pr, nil
+}
+
+// The Monte Carlo a prediction falls back to (estimate/model.md §13): runs
+// of mcPeriods periods after a warm-up of mcWarmup, seeded, so that the
+// same loop always gets the same answer.
+const (
+	mcRuns, mcPeriods, mcWarmup = 10, 40000, 4000
+	mcSeed                      = 1
+	// mcSettled is the largest standard error, relative to the estimate,
+	// at which the second moment counts as settled (stable by
+	// simulation); beyond it the simulation cannot tell (marginal).
+	mcSettled = 0.1
+	// mcDiverged is the size of E[eᵀe] taken as growth without bound.
+	mcDiverged = 1e100
+)
+
+// predictByMonteCarlo answers a loop that has no exact chain by simulating
+// the same rules (Simulate): the steady error moments are the runs'
+// averages, the stability verdict is the simulation's (not certified), and
+// the spectral radius and the loss margin are not computed (NaN).
+func predictByMonteCarlo(loop *profiles.Loop, opts Options, why error) (*Prediction, error) {
+	ns, na := loop.Horizons()
+	sim, err := Simulate(loop, SimOptions{Options: opts, Periods: mcPeriods, Warmup: mcWarmup, Runs: mcRuns, Seed: mcSeed})
+	if err != nil {
+		return nil, err
+	}
+	pr := &Prediction{LossMargin: math.NaN(), SpectralRadius: math.NaN(), RadiusError: math.NaN(),
+		Timing: &TimingReport{SampleHorizon: ns, CommandHorizon: na, Method: MethodMonteCarlo, Reason: why.Error(),
+			CommandAge: sim.CommandAge, Stale: sim.Stale, SecondMomentStdErr: sim.StdErr}}
+	md, err := buildBase(loop, opts)
+	if err != nil {
+		return nil, err
+	}
+	for i, st := range md.baseStates() {
+		st.Probability = md.Pi[i]
+		pr.States = append(pr.States, st)
+	}
+	m, se := sim.SecondMoment, sim.StdErr
+	switch {
+	case math.IsNaN(m) || math.IsInf(m, 0) || m > mcDiverged || math.IsNaN(se):
+		pr.Stability = StabilityUnstable
+	case se > mcSettled*m:
+		pr.Stability = StabilityMarginal
+	default:
+		pr.Stability, pr.MeanSquareStable = StabilityStable, true
+		st := ErrorStats{Mean: sim.ErrorMean, SecondMoment: m, OutputStd: make([]float64, len(sim.ErrorMean))}
+		sq := 0.0
+		for j, e := range sim.ErrorMean {
+			sq += e * e
+			st.OutputStd[j] = math.Sqrt(math.Max(0, sim.ErrorSquare[j]-e*e))
+		}
+		st.Std = math.Sqrt(math.Max(0, m-sq))
+		pr.Error = &st
+	}
+	return pr, nil
+}
+
+// baseStates describes each joint network state without the modes: its
+// losses, P(m0) (the sample lost or too old for the controller), P(m2) (a
+// used sample's command arriving within the command horizon, taking the
+// sample's delay below the sample horizon; samples overtaken before the
+// controller are not discounted) and the rest as P(m1).
+func (md *Model) baseStates() []StateReport {
+	loop, q := md.Loop, md.opts.ExtraLoss
+	ns, na := loop.Horizons()
+	h := loop.Period
+	sc, ca := loop.Profile.SensorToController, loop.Profile.ControllerToActuator
+	var out []StateReport
+	for i, s := range sc.States {
+		for j, a := range ca.States {
+			dsc := scaleDelay(s.Delay, md.opts.DelayScale)
+			dca := scaleDelay(a.Delay, md.opts.DelayScale)
+			st := StateReport{Name: stateName(sc, i) + "/" + stateName(ca, j), MeanDelay: math.NaN()}
+			st.LossSC, st.LossCA = s.Loss+(1-s.Loss)*q, a.Loss+(1-a.Loss)*q
+			onTime := laws.ProbBelow(dsc, float64(ns)*h)
+			st.P0 = 1 - (1-st.LossSC)*onTime
+			if psc, err := splitLaw(dsc); err == nil {
+				if pca, err := splitLaw(dca); err == nil {
+					tl := &totalLaw{sc: psc, ca: pca, h: float64(ns) * h, c: loop.ComputeDelay, top: float64(na) * h, onTime: onTime, q: newTauIntegrator(1)}
+					st.P2 = (1 - st.P0) * (1 - st.LossCA) * tl.cdf(float64(na)*h, true)
+				}
+			}
+			st.P1 = math.Max(0, 1-st.P0-st.P2)
+			out = append(out, st)
+		}
+	}
+	return out
 }

@@ -49,9 +49,9 @@ type SimResult struct {
 	// ModeCounts counts the periods in each mode over all runs (a
 	// one-period horizon only).
 	ModeCounts [3]int
-	// ErrorMean is the time average of e_k after the warm-up over all
-	// runs, per output.
-	ErrorMean []float64
+	// ErrorMean and ErrorSquare are the time averages of e_k and of its
+	// entries squared after the warm-up over all runs, per output.
+	ErrorMean, ErrorSquare []float64
 	// CommandAge[d] is the share of periods (after the warm-up) that end
 	// with the actuator running on a command d periods old, d below the
 	// command horizon; Stale the share that end on an older one or none
@@ -88,7 +88,8 @@ func Simulate(loop *profiles.Loop, opts SimOptions) (*SimResult, error) {
 	sim := newSimulator(md)
 	ns, na := loop.Horizons()
 	_, _, p, _ := loop.Dims()
-	res := &SimResult{ErrorMean: make([]float64, p)}
+	res := &SimResult{}
+	errAcc := make([]float64, 2*p) // Σ e, then Σ e²
 	ages := make([]int, na+1)
 	for r := 0; r < opts.Runs; r++ {
 		rng := rand.New(rand.NewPCG(opts.Seed, uint64(r)))
@@ -99,9 +100,9 @@ func Simulate(loop *profiles.Loop, opts SimOptions) (*SimResult, error) {
 		}
 		var m float64
 		if ns == 1 && na == 1 {
-			m = sim.run(rng, opts.Periods, opts.Warmup, path, &res.ModeCounts, res.ErrorMean)
+			m = sim.run(rng, opts.Periods, opts.Warmup, path, &res.ModeCounts, errAcc)
 		} else {
-			m = sim.runLong(rng, opts.Periods, opts.Warmup, ns, na, res.ErrorMean, ages)
+			m = sim.runLong(rng, opts.Periods, opts.Warmup, ns, na, errAcc, ages)
 		}
 		res.RunMeans = append(res.RunMeans, m)
 		if opts.Progress != nil {
@@ -114,8 +115,10 @@ func Simulate(loop *profiles.Loop, opts SimOptions) (*SimResult, error) {
 	}
 	res.SecondMoment = sum / float64(len(res.RunMeans))
 	counted := float64(opts.Runs * (opts.Periods - opts.Warmup))
-	for i := range res.ErrorMean {
-		res.ErrorMean[i] /= counted
+	res.ErrorMean, res.ErrorSquare = make([]float64, p), make([]float64, p)
+	for i := 0; i < p; i++ {
+		res.ErrorMean[i] = errAcc[i] / counted
+		res.ErrorSquare[i] = errAcc[p+i] / counted
 	}
 	res.CommandAge = make([]float64, na)
 	if ns == 1 && na == 1 {
@@ -239,8 +242,9 @@ func (s *simulator) run(rng *rand.Rand, periods, warmup int, path *[]PathPoint, 
 		}
 		if k >= warmup {
 			sum += ee
-			for i := range errSum {
+			for i := 0; i < p; i++ {
 				errSum[i] += e[i]
+				errSum[p+i] += e[i] * e[i]
 			}
 		}
 		// Network and controller.

@@ -84,8 +84,9 @@ func (s *simulator) runLong(rng *rand.Rand, periods, warmup, ns, na int, errSum 
 		}
 		if k >= warmup {
 			sum += ee
-			for i := range errSum {
+			for i := 0; i < p; i++ {
 				errSum[i] += e[i]
+				errSum[p+i] += e[i] * e[i]
 			}
 		}
 		if rng.Float64() >= s.lossSC[isc] {
