@@ -7,6 +7,7 @@ package main
 // commands' lines.
 
 import (
+	"errors"
 	"fmt"
 	"io"
 	"log/slog"
@@ -71,7 +72,7 @@ func rigStart(loop *profiles.Loop, mode string, log *slog.Logger) (rig.Start, er
 		return rig.RestStart(loop), nil
 	case "steady":
 		st, err := rig.SteadyStart(loop)
-		if err == rig.ErrNoSteadyState {
+		if errors.Is(err, rig.ErrNoSteadyState) || errors.Is(err, rig.ErrNoExactSteady) {
 			log.Warn("starting at rest", "reason", err.Error())
 			return rig.RestStart(loop), nil
 		}

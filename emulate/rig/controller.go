@@ -30,15 +30,16 @@ type ControllerConfig struct {
 // ControllerStats count what the controller did.
 type ControllerStats struct {
 	Used      uint64 // samples used: a command was sent for each
-	Stale     uint64 // samples arriving h or more after t_k (discarded)
-	Duplicate uint64 // samples not newer than the last one used (discarded)
+	Stale     uint64 // samples arriving sample_horizon·h or more after t_k (discarded)
+	Duplicate uint64 // samples not newer than the last one used: repeated, or overtaken on the way (discarded)
 	Malformed uint64 // datagrams that do not decode as samples
 	SendError uint64
 }
 
 // Controller is the event-driven controller of estimate/model.md §1 step 2. On a
-// sample k that arrives at T with T − t_k < h (else it is stale and
-// discarded, leaving xc as it is) and is newer than the last one used, it
+// sample k that arrives at T with T − t_k < Ns·h (Ns the loop's sample
+// horizon, 1 by default; else it is stale and discarded, leaving xc as it
+// is) and is newer than the last one used (estimate/model.md §13), it
 // computes, with e_k = r − y_k,
 //
 //	u_k = Cc xc + Dc e_k,   xc ← Ac xc + Bc e_k,
@@ -53,7 +54,7 @@ type Controller struct {
 	conn   *net.UDPConn
 	rx     receiver
 	layout Layout
-	hNs    int64
+	nsNs   int64 // the sample horizon, Ns·h
 	cNs    int64
 
 	mu    sync.Mutex
@@ -83,8 +84,9 @@ func NewController(cfg ControllerConfig) (*Controller, error) {
 	if err != nil {
 		return nil, fmt.Errorf("rig controller: %w", err)
 	}
+	ns, _ := cfg.Loop.Horizons()
 	return &Controller{cfg: cfg, log: cfg.Logger, conn: conn, rx: newReceiver(conn), layout: layout,
-		hNs: int64(cfg.Loop.Period*1e9 + 0.5), cNs: int64(cfg.Loop.ComputeDelay*1e9 + 0.5)}, nil
+		nsNs: int64(ns) * int64(cfg.Loop.Period*1e9+0.5), cNs: int64(cfg.Loop.ComputeDelay*1e9 + 0.5)}, nil
 }
 
 // LocalAddr is where the controller listens.
@@ -162,7 +164,7 @@ func (c *Controller) serveLoop(w timer.Waiter) error {
 			c.stats.Malformed++
 			c.mu.Unlock()
 			continue
-		case arrival-tk >= c.hNs:
+		case arrival-tk >= c.nsNs:
 			c.stats.Stale++
 			c.mu.Unlock()
 			continue

@@ -49,9 +49,10 @@ const NoCommandWarnAfter = 2 * time.Second
 type NodeStats struct {
 	Samples   uint64 // sample datagrams sent
 	SendError uint64 // sample datagrams the socket refused
-	Applied   uint64 // commands applied within their period
-	Late      uint64 // commands arriving h or more after their sample (discarded)
-	Duplicate uint64 // a second command for a period already served (discarded)
+	Applied   uint64 // commands applied (newer than the last applied, within the horizon)
+	Late      uint64 // commands arriving command_horizon·h or more after their sample (discarded)
+	Duplicate uint64 // a command for the sample of the last one applied, again (discarded)
+	Older     uint64 // a command older than the last one applied, overtaken on the way (discarded)
 	Malformed uint64 // datagrams that are not commands, or for samples never taken
 	// Overruns are samples sent a quarter period or more after t_k: the
 	// host stalled the node (a loaded machine), and the loop saw extra
@@ -65,10 +66,13 @@ type NodeStats struct {
 // Each period h, at t_k = t₀ + k h on a precise ticker, it advances the
 // plant to t_k with the held input, samples y_k = C x(t_k) + v_k and
 // sends one datagram (Layout). A command for sample k arriving at T is
-// applied at T if T − t_k < h — the plant is advanced to T with the old
-// input and continues with u_k — and discarded as late otherwise. With the
-// loop's actuator policy "zero" the input falls to zero at every t_k
-// before the period's command arrives.
+// applied at T if T − t_k < Na·h (Na the loop's command horizon, 1 by
+// default) and k is above the last command applied — the plant is
+// advanced to T with the old input and continues with u_k — and discarded
+// otherwise, as late, duplicate or older (estimate/model.md §13). Several
+// commands may be applied within one period, each at its own arrival.
+// With the loop's actuator policy "zero" the input falls to zero at every
+// t_k before the period's command arrives.
 //
 // Events are taken in time order: a command that arrives after t_{k+1}
 // but is read before the ticker has woken first closes period k (takes
@@ -81,17 +85,18 @@ type Node struct {
 	rx     receiver
 	layout Layout
 	hNs    int64
+	naNs   int64 // the command horizon, Na·h
 	zero   bool
 
-	mu      sync.Mutex
-	plant   *Plant    // guarded by mu
-	u       []float64 // input held now; guarded by mu
-	xt      int64     // time of the plant state; guarded by mu
-	t0      int64     // time of sample 0; guarded by mu
-	next    int       // next sample to take; guarded by mu
-	row     logRow    // the open period's log row; guarded by mu
-	applied bool      // a command has been applied in the open period; guarded by mu
-	stats   NodeStats // guarded by mu
+	mu          sync.Mutex
+	plant       *Plant    // guarded by mu
+	u           []float64 // input held now; guarded by mu
+	xt          int64     // time of the plant state; guarded by mu
+	t0          int64     // time of sample 0; guarded by mu
+	next        int       // next sample to take; guarded by mu
+	row         logRow    // the open period's log row; guarded by mu
+	lastApplied int64     // sequence of the last command applied, −1: none; guarded by mu
+	stats       NodeStats // guarded by mu
 	// silentWarned: the node has warned that no command came back
 	// (NoCommandWarnAfter); guarded by mu.
 	silentWarned bool
@@ -129,13 +134,16 @@ func NewNode(cfg NodeConfig) (*Node, error) {
 	}
 	nd := &Node{
 		cfg: cfg, log: cfg.Logger, conn: conn, layout: layout,
-		hNs:   int64(cfg.Loop.Period*1e9 + 0.5),
-		zero:  cfg.Loop.Actuator.OnLoss == profiles.ZeroUnlessFresh,
-		plant: NewPlant(cfg.Loop.Plant, rand.New(rand.NewPCG(cfg.Seed, 0x6e6f6465))),
-		u:     append([]float64(nil), cfg.Start.U...),
-		y:     make([]float64, p),
-		buf:   make([]byte, 0, 512),
+		hNs:         int64(cfg.Loop.Period*1e9 + 0.5),
+		lastApplied: -1,
+		zero:        cfg.Loop.Actuator.OnLoss == profiles.ZeroUnlessFresh,
+		plant:       NewPlant(cfg.Loop.Plant, rand.New(rand.NewPCG(cfg.Seed, 0x6e6f6465))),
+		u:           append([]float64(nil), cfg.Start.U...),
+		y:           make([]float64, p),
+		buf:         make([]byte, 0, 512),
 	}
+	_, na := cfg.Loop.Horizons()
+	nd.naNs = int64(na) * nd.hNs
 	nd.rx = newReceiver(conn)
 	nd.plant.SetState(cfg.Start.X)
 	nd.row = logRow{y: make([]float64, p), u: make([]float64, m), k: -1}
@@ -282,7 +290,6 @@ func (nd *Node) catchUpLocked(now int64) {
 		nd.row.k, nd.row.t, nd.row.tau = k, tk, -1
 		copy(nd.row.y, nd.y)
 		copy(nd.row.u, nd.u)
-		nd.applied = false
 		nd.next++
 	}
 }
@@ -325,16 +332,20 @@ func (nd *Node) receiveLoop() {
 		switch {
 		case perr != nil || k >= uint64(nd.next):
 			nd.stats.Malformed++
-		case int(k) != nd.row.k || now-nd.sampleTime(int(k)) >= nd.hNs:
+		case now-nd.sampleTime(int(k)) >= nd.naNs:
 			nd.stats.Late++
-		case nd.applied:
+		case int64(k) == nd.lastApplied:
 			nd.stats.Duplicate++
+		case int64(k) < nd.lastApplied:
+			nd.stats.Older++
 		default:
 			nd.plant.Advance(now-nd.xt, nd.u)
 			nd.xt = now
 			copy(nd.u, u)
-			nd.applied = true
-			nd.row.tau = now - nd.sampleTime(int(k))
+			nd.lastApplied = int64(k)
+			if int(k) == nd.row.k {
+				nd.row.tau = now - nd.sampleTime(int(k))
+			}
 			nd.stats.Applied++
 		}
 		nd.mu.Unlock()

@@ -305,3 +305,122 @@ func FuzzRigDatagrams(f *testing.F) {
 		rig.ParseCommand(b, u)
 	})
 }
+
+// TestRigActuatorHorizon drives the node of a loop with a three-period
+// command horizon (estimate/model.md §13) from a test controller that
+// answers sample k after 1.2 h (k ≡ 0 mod 4), 0.6 h (k ≡ 1: both land in
+// period k+1, two input changes in one period), at once (k ≡ 3, sent
+// twice: the second is a duplicate), and for k ≡ 2 after 2.3 h, by which
+// time command k+1 has been applied (older, dropped), or, when k ≡ 6 mod
+// 8, after 3.2 h (late, dropped). Per 8 periods: 6 applied, 1 older, 1
+// late, 2 duplicates; the end of the run cuts the last few.
+func TestRigActuatorHorizon(t *testing.T) {
+	loop := parseLoop(t, rulesLoop+"timing: {command_horizon: 3}\n")
+	ctl := udpLoopback(t)
+	const periods = 48
+	node, err := rig.NewNode(rig.NodeConfig{Loop: loop, Relay: apOf(ctl), Periods: periods, Seed: 1})
+	if err != nil {
+		t.Fatal(err)
+	}
+	layout, err := rig.NewLayout(loop)
+	if err != nil {
+		t.Fatal(err)
+	}
+	done := make(chan error, 1)
+	go func() { done <- node.Run(context.Background()) }()
+	buf := make([]byte, 512)
+	y := make([]float64, 1)
+	hNs := int64(loop.Period * 1e9)
+	for i := 0; i < periods; i++ {
+		ctl.SetReadDeadline(time.Now().Add(5 * time.Second))
+		n, src, err := ctl.ReadFromUDPAddrPort(buf)
+		if err != nil {
+			t.Fatal(err)
+		}
+		k, tk, err := layout.ParseSample(buf[:n], y)
+		if err != nil {
+			t.Fatalf("sample %q: %v", buf[:n], err)
+		}
+		cmd := rig.AppendCommand(nil, k, tk, []float64{float64(k)})
+		var after int64 // tenths of a period after t_k
+		switch {
+		case k%4 == 0:
+			after = 12
+		case k%4 == 1:
+			after = 6
+		case k%8 == 6:
+			after = 32
+		case k%4 == 2:
+			after = 23
+		default:
+			ctl.WriteToUDPAddrPort(cmd, src)
+			ctl.WriteToUDPAddrPort(cmd, src) // a duplicate
+			continue
+		}
+		go func() {
+			time.Sleep(time.Duration(tk + after*hNs/10 - rig.Now()))
+			ctl.WriteToUDPAddrPort(cmd, src)
+		}()
+	}
+	if err := <-done; err != nil {
+		t.Fatal(err)
+	}
+	s := node.Stats()
+	const cycles, slack = periods / 8, 4
+	if s.Applied > 6*cycles || s.Applied < 6*cycles-slack || s.Older < cycles-1 || s.Older > cycles ||
+		s.Late < cycles-2 || s.Late > cycles || s.Duplicate < 2*cycles-2 || s.Duplicate > 2*cycles {
+		t.Errorf("applied %d, older %d, late %d, duplicate %d; want %d (≥ %d), %d, %d, %d",
+			s.Applied, s.Older, s.Late, s.Duplicate, 6*cycles, 6*cycles-slack, cycles, cycles, 2*cycles)
+	}
+}
+
+// TestRigControllerSampleHorizon: with a sample horizon of two periods
+// the controller uses a sample up to 2 h old if it is newer than the last
+// used, and drops an overtaken one (estimate/model.md §13).
+func TestRigControllerSampleHorizon(t *testing.T) {
+	loop := parseLoop(t, rulesLoop+"timing: {sample_horizon: 2, command_horizon: 2}\n")
+	ctl, err := rig.NewController(rig.ControllerConfig{Loop: loop})
+	if err != nil {
+		t.Fatal(err)
+	}
+	ctx, cancel := context.WithCancel(context.Background())
+	done := make(chan error, 1)
+	go func() { done <- ctl.Run(ctx) }()
+	defer func() { cancel(); <-done }()
+	layout, _ := rig.NewLayout(loop)
+	node := udpLoopback(t)
+	hNs := int64(loop.Period * 1e9)
+	now := rig.Now()
+	send := func(k uint64, age int64) {
+		b := layout.AppendSample(nil, k, now-age, []float64{0.2})
+		node.WriteToUDPAddrPort(b, ctl.LocalAddr())
+	}
+	send(10, 15*hNs/10) // 1.5 periods old: used
+	send(12, 0)         // used
+	send(11, 5*hNs/10)  // overtaken by 12: dropped
+	send(13, 25*hNs/10) // 2.5 periods old: stale
+	buf := make([]byte, 512)
+	var got []uint64
+	for len(got) < 2 {
+		node.SetReadDeadline(time.Now().Add(2 * time.Second))
+		n, _, err := node.ReadFromUDPAddrPort(buf)
+		if err != nil {
+			t.Fatalf("replies %v: %v", got, err)
+		}
+		k, _, err := rig.ParseCommand(buf[:n], make([]float64, 1))
+		if err != nil {
+			t.Fatal(err)
+		}
+		got = append(got, k)
+	}
+	deadline := time.Now().Add(2 * time.Second)
+	for time.Now().Before(deadline) {
+		if s := ctl.Stats(); s.Used == 2 && s.Duplicate == 1 && s.Stale == 1 {
+			break
+		}
+		time.Sleep(5 * time.Millisecond)
+	}
+	if s := ctl.Stats(); got[0] != 10 || got[1] != 12 || s.Used != 2 || s.Duplicate != 1 || s.Stale != 1 {
+		t.Errorf("replies %v, stats %+v; want [10 12], used 2, duplicate (overtaken) 1, stale 1", got, s)
+	}
+}
