@@ -112,7 +112,7 @@ func cmdRigNode(args []string, stderr io.Writer) error {
 	}
 	s := node.Stats()
 	log.Info("rig node stopped", "samples", s.Samples, "applied", s.Applied, "late", s.Late,
-		"duplicate", s.Duplicate, "malformed", s.Malformed, "send_errors", s.SendError, "overruns", s.Overruns)
+		"duplicate", s.Duplicate, "older", s.Older, "malformed", s.Malformed, "send_errors", s.SendError, "overruns", s.Overruns)
 	return nil
 }
 
