@@ -375,6 +375,9 @@ func TestMonitorRunFloodAndPromtool(t *testing.T) {
 		`rigwire_monitor_predicted_mean_square_stable 1`,
 		`rigwire_monitor_predicted_spectral_radius `,
 		`rigwire_monitor_predicted_loss_margin `,
+		`rigwire_monitor_predicted_command_age_ratio{age="0"} `,
+		`rigwire_monitor_predicted_command_age_ratio{age="stale"} `,
+		`rigwire_monitor_predicted_method{method="exact"} 1`,
 		`rigwire_monitor_sample_gaps_total `,
 		`rigwire_monitor_decode_failures_total{reason="too_short"}`,
 	} {

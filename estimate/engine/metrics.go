@@ -42,6 +42,7 @@ type descs struct {
 	failures, skipped                                                  *prometheus.Desc
 	phase, phaseSecond, phasePredicted, phasePassed, tripActive, trips *prometheus.Desc
 	phaseInconclusive, afterTrip                                       *prometheus.Desc
+	commandAge, method                                                 *prometheus.Desc
 	batches, predictedInForce, phaseCILow, phaseCIHigh, phaseTolerance *prometheus.Desc
 	// all are the descriptors above, for Describe.
 	all []*prometheus.Desc
@@ -67,8 +68,10 @@ func newDescs() *descs {
 		predicted:         d("predicted_error_second_moment", "Predicted steady E[eᵀe] the run's verdict and the windows compare with (NaN when not mean-square stable)."),
 		predictedInForce:  d("predicted_error_second_moment_in_force", "Predicted steady E[eᵀe] in force now: during a soak the running phase's (the ramp step's during a ramp), else the run's (NaN when not mean-square stable)."),
 		stable:            d("predicted_mean_square_stable", "1 when the prediction says the loop is mean-square stable, else 0."),
-		radius:            d("predicted_spectral_radius", "Spectral radius of the second-moment operator (stable below 1)."),
+		radius:            d("predicted_spectral_radius", "Spectral radius of the second-moment operator (stable below 1; NaN when not computed: a Monte Carlo prediction)."),
 		margin:            d("predicted_loss_margin", "Extra loss on every packet at which mean-square stability is lost (1: none)."),
+		commandAge:        d("predicted_command_age_ratio", "Predicted share of periods that end with the actuator running on a command this many periods old (0: the period's own sample), or on one older than the loop's command horizon (stale).", "age"),
+		method:            d("predicted_method", "1 for the method of the prediction: exact (the jump linear system) or monte_carlo (simulated from the same rules: the timing policy has no exact model; not certified).", "method"),
 		tolerance:         d("tolerance_ratio", "Relative widening of the interval by the verdict in force: the running soak phase's tolerance check, else the run's --tolerance."),
 		samples:           d("samples_total", "Samples estimated (decoded, not duplicates, after the warm-up)."),
 		datagrams:         d("datagrams_total", "Datagrams received."),
@@ -157,6 +160,14 @@ func (c *collector) Collect(ch chan<- prometheus.Metric) {
 		radius, margin = m.pred.SpectralRadius, m.pred.LossMargin
 	}
 	gauge(d.stable, stable)
+	if m.pred != nil && m.pred.Timing != nil {
+		tr := m.pred.Timing
+		for i, a := range tr.CommandAge {
+			gauge(d.commandAge, a, strconv.Itoa(i))
+		}
+		gauge(d.commandAge, tr.Stale, "stale")
+		gauge(d.method, 1, tr.Method)
+	}
 	gauge(d.radius, radius)
 	gauge(d.margin, margin)
 	gauge(d.tolerance, m.toleranceInForce())

@@ -23,7 +23,7 @@ import (
 type jsonPrediction struct {
 	MeanSquareStable  bool        `json:"mean_square_stable"`
 	Stability         string      `json:"stability"`
-	SpectralRadius    float64     `json:"spectral_radius"`
+	SpectralRadius    *float64    `json:"spectral_radius"`
 	RadiusError       *float64    `json:"spectral_radius_error"`
 	ErrorMean         []float64   `json:"error_mean"`
 	ErrorSecondMoment *float64    `json:"error_second_moment"`
@@ -31,7 +31,20 @@ type jsonPrediction struct {
 	LossMargin        *float64    `json:"loss_margin"`
 	Period            float64     `json:"period_seconds"`
 	Actuator          string      `json:"actuator_on_loss"`
+	Timing            *jsonTiming `json:"timing"`
 	States            []jsonState `json:"states"`
+}
+
+// jsonTiming is the timing policy's part of the prediction
+// (estimate/model.md §13).
+type jsonTiming struct {
+	SampleHorizon  int       `json:"sample_horizon_periods"`
+	CommandHorizon int       `json:"command_horizon_periods"`
+	Method         string    `json:"method"`
+	Reason         string    `json:"method_reason,omitempty"`
+	CommandAge     []float64 `json:"command_age_shares"`
+	Stale          float64   `json:"command_stale_share"`
+	StdErr         *float64  `json:"error_second_moment_standard_error,omitempty"`
 }
 
 type jsonState struct {
@@ -61,11 +74,18 @@ func WritePredictionJSON(w io.Writer, loop *profiles.Loop, pr *estimate.Predicti
 	out := jsonPrediction{
 		MeanSquareStable: pr.MeanSquareStable,
 		Stability:        estimate.VerdictOf(pr),
-		SpectralRadius:   pr.SpectralRadius,
+		SpectralRadius:   finite(pr.SpectralRadius),
 		RadiusError:      finite(pr.RadiusError),
 		LossMargin:       finite(pr.LossMargin),
 		Period:           loop.Period,
 		Actuator:         loop.Actuator.OnLoss.String(),
+	}
+	if tr := pr.Timing; tr != nil {
+		out.Timing = &jsonTiming{SampleHorizon: tr.SampleHorizon, CommandHorizon: tr.CommandHorizon, Method: tr.Method,
+			Reason: tr.Reason, CommandAge: tr.CommandAge, Stale: tr.Stale}
+		if tr.Method == estimate.MethodMonteCarlo {
+			out.Timing.StdErr = finite(tr.SecondMomentStdErr)
+		}
 	}
 	if pr.Error != nil {
 		out.ErrorMean = pr.Error.Mean
@@ -100,6 +120,7 @@ func WritePrediction(w io.Writer, path string, loop *profiles.Loop, pr *estimate
 		name = "(unnamed)"
 	}
 	fmt.Fprintf(w, "network   %s, %d joint states; actuator %s on loss\n", name, len(pr.States), loop.Actuator.OnLoss)
+	writeTiming(w, pr.Timing)
 	verdict := estimate.DescribeStability(pr)
 	if estimate.VerdictOf(pr) == estimate.StabilityUnstable {
 		verdict += ": the error's second moment grows without bound"
@@ -120,6 +141,20 @@ func WritePrediction(w io.Writer, path string, loop *profiles.Loop, pr *estimate
 			parts[i] = fmt.Sprintf("%.4g", v)
 		}
 		fmt.Fprintf(w, "error     E[e] = [%s]   E[eᵀe] = %.4g   std = %.4g\n", strings.Join(parts, ", "), e.SecondMoment, e.Std)
+		if tr := pr.Timing; tr != nil && tr.Method == estimate.MethodMonteCarlo {
+			fmt.Fprintf(w, "          a Monte Carlo estimate: E[eᵀe] ± %.2g (standard error), not the exact moments\n", tr.SecondMomentStdErr)
+		}
+	}
+	if tr := pr.Timing; tr != nil && len(tr.CommandAge) > 0 {
+		parts := make([]string, 0, len(tr.CommandAge)+1)
+		for d, a := range tr.CommandAge {
+			unit := "periods"
+			if d == 1 {
+				unit = "period"
+			}
+			parts = append(parts, fmt.Sprintf("%d %s %.1f %%", d, unit, 100*a))
+		}
+		fmt.Fprintf(w, "command   the actuator ends a period on a command %s old; holds a stale one %.1f %%\n", strings.Join(parts, ", "), 100*tr.Stale)
 	}
 	fmt.Fprintln(w)
 	tw := tabwriter.NewWriter(w, 2, 8, 2, ' ', 0)
@@ -216,6 +251,8 @@ func (s Simulation) WriteJSON(w io.Writer) error {
 		"warmup":              s.Warmup,
 		"seed":                s.Seed,
 		"mode_counts":         s.Result.ModeCounts,
+		"command_age_shares":  s.Result.CommandAge,
+		"command_stale_share": s.Result.Stale,
 		"stability":           estimate.VerdictOf(s.Prediction),
 		"predicted_second_moment": func() *float64 {
 			if s.Prediction.Error == nil {
@@ -233,7 +270,6 @@ func (s Simulation) WriteJSON(w io.Writer) error {
 // measured E[eᵀe] with its standard error, the prediction and the shares
 // of the three modes.
 func (s Simulation) WriteText(w io.Writer) {
-	total := float64(s.Result.ModeCounts[0] + s.Result.ModeCounts[1] + s.Result.ModeCounts[2])
 	fmt.Fprintf(w, "simulated  %d runs × %d periods (first %d of each discarded), seed %d\n", s.Runs, s.Periods, s.Warmup, s.Seed)
 	fmt.Fprintf(w, "E[eᵀe]     %.6g ± %.2g (standard error across runs)\n", s.Result.SecondMoment, s.Result.StdErr)
 	if s.Prediction.Error != nil {
@@ -242,8 +278,25 @@ func (s Simulation) WriteText(w io.Writer) {
 	} else {
 		fmt.Fprintf(w, "predicted  %s: a finite-length average means little\n", estimate.DescribeStability(s.Prediction))
 	}
-	fmt.Fprintf(w, "modes      sample lost/stale %.4f, command lost/late %.4f, in time %.4f\n",
-		float64(s.Result.ModeCounts[0])/total, float64(s.Result.ModeCounts[1])/total, float64(s.Result.ModeCounts[2])/total)
+	if total := float64(s.Result.ModeCounts[0] + s.Result.ModeCounts[1] + s.Result.ModeCounts[2]); total > 0 {
+		fmt.Fprintf(w, "modes      sample lost/stale %.4f, command lost/late %.4f, in time %.4f\n",
+			float64(s.Result.ModeCounts[0])/total, float64(s.Result.ModeCounts[1])/total, float64(s.Result.ModeCounts[2])/total)
+	}
+	if len(s.Result.CommandAge) > 0 {
+		parts := make([]string, len(s.Result.CommandAge))
+		for d, a := range s.Result.CommandAge {
+			parts[d] = fmt.Sprintf("%d: %.4f", d, a)
+		}
+		line := fmt.Sprintf("command    age at a period's end %s, stale %.4f", strings.Join(parts, ", "), s.Result.Stale)
+		if tr := s.Prediction.Timing; tr != nil && len(tr.CommandAge) == len(s.Result.CommandAge) {
+			pp := make([]string, len(tr.CommandAge))
+			for d, a := range tr.CommandAge {
+				pp[d] = fmt.Sprintf("%.4f", a)
+			}
+			line += fmt.Sprintf(" (predicted %s, stale %.4f)", strings.Join(pp, ", "), tr.Stale)
+		}
+		fmt.Fprintln(w, line)
+	}
 }
 
 // WritePathsCSV writes the simulated sample paths as CSV: run, k, time,
@@ -271,4 +324,18 @@ func WritePathsCSV(w io.Writer, loop *profiles.Loop, res *estimate.SimResult) er
 		}
 	}
 	return nil
+}
+
+// writeTiming writes the timing policy's lines: the horizons when they are
+// not the one-period rule, and the method when it is not exact
+// (estimate/model.md §13).
+func writeTiming(w io.Writer, tr *estimate.TimingReport) {
+	if tr == nil || (tr.SampleHorizon <= 1 && tr.CommandHorizon <= 1 && tr.Method == estimate.MethodExact) {
+		return
+	}
+	fmt.Fprintf(w, "timing    the controller uses samples younger than %d period(s), the actuator applies commands younger than %d period(s), newest first\n",
+		tr.SampleHorizon, tr.CommandHorizon)
+	if tr.Method == estimate.MethodMonteCarlo {
+		fmt.Fprintf(w, "method    MONTE CARLO from the same rules, not the exact jump linear system: %s\n", tr.Reason)
+	}
 }
