@@ -13,6 +13,7 @@ type immediate struct {
 	delay float64
 	due   int64
 	state string
+	seq   uint64 // arrival number
 }
 
 // admit draws the fate of the datagrams in acc, all read at time now, and
@@ -31,16 +32,18 @@ func (d *direction) admit(acc []message, dst netip.AddrPort, now int64, imm []me
 	stateName := st.Name
 	for i := range acc {
 		m := &acc[i]
+		d.arrivals++
+		seq := d.arrivals
 		if d.stopNew {
 			d.m.outcome[oTripped].Inc()
-			d.record(rec{arrival: now, outcome: oTripped, state: stateName})
+			d.record(rec{arrival: now, outcome: oTripped, state: stateName, seq: seq})
 			continue
 		}
 		lost, delay := d.fateLocked(st)
 		if lost {
 			d.lossRun++
 			d.m.outcome[oDropped].Inc()
-			d.record(rec{arrival: now, outcome: oDropped, state: stateName})
+			d.record(rec{arrival: now, outcome: oDropped, state: stateName, seq: seq})
 			continue
 		}
 		if d.lossRun > 0 {
@@ -51,17 +54,17 @@ func (d *direction) admit(acc []message, dst netip.AddrPort, now int64, imm []me
 		due := now + int64(delay*1e9)
 		if due <= now {
 			imm = append(imm, message{buf: m.buf, n: m.n, addr: dst})
-			meta = append(meta, immediate{delay: delay, due: due, state: stateName})
+			meta = append(meta, immediate{delay: delay, due: due, state: stateName, seq: seq})
 			continue
 		}
 		p := d.pool.get()
 		if p == nil {
 			d.m.outcome[oOverflow].Inc()
-			d.record(rec{arrival: now, outcome: oOverflow, state: stateName, delay: delay, due: due, drawn: true})
+			d.record(rec{arrival: now, outcome: oOverflow, state: stateName, delay: delay, due: due, drawn: true, seq: seq})
 			continue
 		}
 		p.n = copy(p.buf, m.buf[:m.n])
-		p.dst, p.arrival, p.due, p.delay, p.state = dst, now, due, delay, stateName
+		p.dst, p.arrival, p.due, p.delay, p.state, p.seq = dst, now, due, delay, stateName, seq
 		d.sched.push(p)
 		if d.sched.peek() == p && due < d.armedFor {
 			d.armLocked(due, now)

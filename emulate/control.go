@@ -66,7 +66,7 @@ func (d *direction) trip(stop bool) {
 	for d.sched.len() > 0 {
 		p := d.sched.pop()
 		d.m.outcome[oTripped].Inc()
-		d.record(rec{arrival: p.arrival, due: p.due, delay: p.delay, drawn: true, outcome: oTripped, state: p.state})
+		d.record(rec{arrival: p.arrival, due: p.due, delay: p.delay, drawn: true, outcome: oTripped, state: p.state, seq: p.seq})
 		d.pool.put(p)
 	}
 	d.m.inFlight.Set(float64(d.pool.inUse()))

@@ -4,6 +4,7 @@ import (
 	"math"
 	"math/rand/v2"
 	"sync"
+	"sync/atomic"
 	"time"
 
 	"github.com/prometheus/client_golang/prometheus"
@@ -44,6 +45,13 @@ type direction struct {
 	stopNew bool
 	// lossRun counts the consecutive datagrams the profile dropped so far.
 	lossRun int
+	// arrivals numbers the datagrams read, 1, 2, … in arrival order (the
+	// record's arrival_seq).
+	arrivals uint64
+	// released is the highest arrival number forwarded so far: a datagram
+	// forwarded with a lower one was overtaken (settle). Read and set by
+	// the receive and the release goroutines, hence atomic.
+	released atomic.Uint64
 }
 
 type dirConfig struct {

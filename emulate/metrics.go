@@ -53,6 +53,9 @@ type Metrics struct {
 	// SensorSource: 1 for the source the relay takes for the sensor node.
 	SensorSource        *prometheus.GaugeVec   // source
 	SensorSourceChanges *prometheus.CounterVec // reason: first, quiet
+	// Reordered: datagrams released after one of the same direction that
+	// arrived later than they did (overtaken on the way).
+	Reordered *prometheus.CounterVec // direction
 }
 
 // scenarioClock is what the scenario elapsed-time gauge reads.
@@ -157,13 +160,17 @@ func NewMetrics(reg prometheus.Registerer) *Metrics {
 			Help: "Times the relay took a source for the sensor node, by reason: first (the first to send), quiet (the previous one had been silent for the relock interval).",
 		}, []string{"reason"}),
 	}
+	m.Reordered = prometheus.NewCounterVec(prometheus.CounterOpts{
+		Name: "rigwire_relay_reordered_datagrams_total",
+		Help: "Datagrams released after a datagram of the same direction that arrived later (overtaken: released out of arrival order), by direction; forwarded datagrams only, so they are also counted as forwarded.",
+	}, []string{"direction"})
 	m.ScenarioElapsed = prometheus.NewGaugeFunc(prometheus.GaugeOpts{
 		Name: "rigwire_relay_scenario_elapsed_seconds",
 		Help: "Wall-clock seconds since the scenario started playing (its phases' times are scaled by the time scale); its length once it has ended; 0 before.",
 	}, m.scenario.elapsed)
 	reg.MustRegister(m.Datagrams, m.Bytes, m.Delay, m.Lateness, m.InFlight,
 		m.ChannelState, m.Tap, m.RecordLost, m.Reloads, m.LossRuns, m.Tripped,
-		m.ScenarioPhase, m.ScenarioSteps, m.ScenarioElapsed, m.SensorSource, m.SensorSourceChanges)
+		m.ScenarioPhase, m.ScenarioSteps, m.ScenarioElapsed, m.SensorSource, m.SensorSourceChanges, m.Reordered)
 	m.SensorSourceChanges.WithLabelValues(lockFirst)
 	m.SensorSourceChanges.WithLabelValues(lockQuiet)
 	for _, o := range []string{"sent", OutcomeSendError} {
@@ -184,6 +191,8 @@ type dirMetrics struct {
 	lateness prometheus.Observer
 	inFlight prometheus.Gauge
 	lossRuns prometheus.Observer
+	// reordered counts forwarded datagrams released after a later arrival.
+	reordered prometheus.Counter
 }
 
 type outcomeID int
@@ -207,11 +216,12 @@ var outcomeIndex = [...]string{oForwarded: OutcomeForwarded, oDropped: OutcomeDr
 
 func (m *Metrics) forDirection(dir string) *dirMetrics {
 	dm := &dirMetrics{
-		bytes:    m.Bytes.WithLabelValues(dir),
-		delay:    m.Delay.WithLabelValues(dir),
-		lateness: m.Lateness.WithLabelValues(dir),
-		inFlight: m.InFlight.WithLabelValues(dir),
-		lossRuns: m.LossRuns.WithLabelValues(dir),
+		bytes:     m.Bytes.WithLabelValues(dir),
+		delay:     m.Delay.WithLabelValues(dir),
+		lateness:  m.Lateness.WithLabelValues(dir),
+		inFlight:  m.InFlight.WithLabelValues(dir),
+		lossRuns:  m.LossRuns.WithLabelValues(dir),
+		reordered: m.Reordered.WithLabelValues(dir),
 	}
 	for i, o := range outcomeIndex {
 		dm.outcome[i] = m.Datagrams.WithLabelValues(dir, o)

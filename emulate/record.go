@@ -11,22 +11,25 @@ import (
 
 // RecordHeader opens every record file. The format is ours:
 //
-//	# rigwire relay record v1
+//	# rigwire relay record v2
 //	# times in seconds on the relay's monotonic clock since it started
-//	arrival_s,direction,state,decision,delay_s,due_s,release_s
+//	arrival_s,direction,state,decision,delay_s,due_s,release_s,arrival_seq
 //
 // then one line per datagram, written when its fate is settled (so lines
-// are in order of settlement, not of arrival). decision is one of the
+// are in order of settlement, not of arrival: sorting a direction's lines
+// by arrival_seq, which numbers its datagrams 1, 2, … as they were read,
+// gives their arrival order exactly, even for datagrams read in one batch
+// at the same arrival_s). decision is one of the
 // Outcome constants; state is the direction's channel state at arrival
 // (empty for datagrams rejected before any draw); delay_s and due_s are
 // empty when no delay was drawn, release_s unless the datagram was
 // forwarded. Times carry nine decimals (nanoseconds).
-const RecordHeader = "# rigwire relay record v1\n" +
+const RecordHeader = "# rigwire relay record v2\n" +
 	"# times in seconds on the relay's monotonic clock since it started\n" +
-	"arrival_s,direction,state,decision,delay_s,due_s,release_s\n"
+	"arrival_s,direction,state,decision,delay_s,due_s,release_s,arrival_seq\n"
 
 // RecordColumns are the record file's column names, in order.
-var RecordColumns = []string{"arrival_s", "direction", "state", "decision", "delay_s", "due_s", "release_s"}
+var RecordColumns = []string{"arrival_s", "direction", "state", "decision", "delay_s", "due_s", "release_s", "arrival_seq"}
 
 type rec struct {
 	arrival, due, release int64
@@ -34,7 +37,8 @@ type rec struct {
 	dir                   string
 	state                 string
 	outcome               outcomeID
-	drawn                 bool // delay and due are set
+	drawn                 bool   // delay and due are set
+	seq                   uint64 // arrival number in its direction (admit); 0 for a datagram refused before admission (stranger, oversized, no actuator)
 }
 
 // recorder writes records from a bounded ring on a goroutine of its own, so
@@ -139,6 +143,10 @@ func (r *recorder) write(x *rec) error {
 	b = append(b, ',')
 	if x.outcome == oForwarded {
 		b = appendSeconds(b, x.release)
+	}
+	b = append(b, ',')
+	if x.seq > 0 {
+		b = strconv.AppendUint(b, x.seq, 10)
 	}
 	b = append(b, '\n')
 	r.line = b

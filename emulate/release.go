@@ -19,7 +19,7 @@ func (d *direction) sendImmediate(imm []message, meta []immediate, arrival int64
 	}
 	t := d.now()
 	d.sendAll(imm, func(i int, ok bool) {
-		d.settle(ok, imm[i].n, arrival, meta[i].due, meta[i].delay, t, meta[i].state)
+		d.settle(ok, imm[i].n, arrival, meta[i].due, meta[i].delay, t, meta[i].state, meta[i].seq)
 	})
 }
 
@@ -40,10 +40,22 @@ func (d *direction) sendAll(ms []message, done func(i int, ok bool)) {
 	}
 }
 
-// settle accounts for one datagram the relay tried to send at time t.
-func (d *direction) settle(ok bool, n int, arrival, due int64, delay float64, t int64, state string) {
-	r := rec{arrival: arrival, due: due, delay: delay, drawn: true, release: t, state: state}
+// settle accounts for one datagram the relay tried to send at time t; seq
+// is its arrival number, by which a datagram released after a later
+// arrival is counted as reordered.
+func (d *direction) settle(ok bool, n int, arrival, due int64, delay float64, t int64, state string, seq uint64) {
+	r := rec{arrival: arrival, due: due, delay: delay, drawn: true, release: t, state: state, seq: seq}
 	if ok {
+		for {
+			top := d.released.Load()
+			if seq < top {
+				d.m.reordered.Inc()
+				break
+			}
+			if d.released.CompareAndSwap(top, seq) {
+				break
+			}
+		}
 		d.m.outcome[oForwarded].Inc()
 		d.m.bytes.Add(float64(n))
 		d.m.lateness.Observe(float64(t-due) / 1e9)
@@ -133,7 +145,7 @@ func (d *direction) sendPopped(batch []*packet, out []message) {
 	t := d.now()
 	d.sendAll(out, func(i int, ok bool) {
 		p := batch[i]
-		d.settle(ok, p.n, p.arrival, p.due, p.delay, t, p.state)
+		d.settle(ok, p.n, p.arrival, p.due, p.delay, t, p.state, p.seq)
 	})
 	d.mu.Lock()
 	for i := range batch {
@@ -149,7 +161,7 @@ func (d *direction) abortLocked() {
 	for d.sched.len() > 0 {
 		p := d.sched.pop()
 		d.m.outcome[oShutdown].Inc()
-		d.record(rec{arrival: p.arrival, due: p.due, delay: p.delay, drawn: true, outcome: oShutdown, state: p.state})
+		d.record(rec{arrival: p.arrival, due: p.due, delay: p.delay, drawn: true, outcome: oShutdown, state: p.state, seq: p.seq})
 		d.pool.put(p)
 	}
 	d.m.inFlight.Set(0)

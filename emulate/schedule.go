@@ -13,6 +13,7 @@ type packet struct {
 	due     int64 // ns on the relay clock
 	delay   float64
 	state   string // channel state at arrival
+	seq     uint64 // arrival number in its direction
 }
 
 // schedule is a min-heap of pending packets keyed on due time, after the

@@ -47,6 +47,9 @@ type DirectionStats struct {
 	NoActuator uint64 // a command before the actuator's address was known
 	// ForwardedBytes: payload bytes released.
 	ForwardedBytes uint64
+	// Reordered: forwarded datagrams released after a datagram of the same
+	// direction that arrived later (overtaken; also counted as Forwarded).
+	Reordered uint64
 	// InFlight: datagrams held now, waiting for their release time.
 	InFlight int
 	// Delay: the delays drawn (seconds); Lateness: actual minus due
@@ -152,6 +155,7 @@ func (dm *dirMetrics) stats(name string) DirectionStats {
 		*d.outcome(outcomeID(i)) = counterValue(c)
 	}
 	d.ForwardedBytes = counterValue(dm.bytes)
+	d.Reordered = counterValue(dm.reordered)
 	d.InFlight = int(metricValue(dm.inFlight).GetGauge().GetValue())
 	d.Delay = histogramValue(dm.delay)
 	d.Lateness = histogramValue(dm.lateness)

@@ -138,6 +138,8 @@ func compareWithMetrics(t *testing.T, s Stats, fams []*dto.MetricFamily) {
 				}
 			case "rigwire_relay_forwarded_bytes_total":
 				eq(d.Direction+" bytes", d.ForwardedBytes, v)
+			case "rigwire_relay_reordered_datagrams_total":
+				eq(d.Direction+" reordered", d.Reordered, v)
 			case "rigwire_relay_in_flight":
 				eq(d.Direction+" in flight", uint64(d.InFlight), m.GetGauge().GetValue())
 			case "rigwire_relay_delay_seconds":
@@ -168,7 +170,7 @@ func compareWithMetrics(t *testing.T, s Stats, fams []*dto.MetricFamily) {
 	// Per direction: the outcomes, bytes, in flight and three histograms;
 	// then tap (2), record lost, reloads (3), steps, source changes (2),
 	// tripped.
-	want := 2*(len(outcomeIndex)+5) + 2 + 1 + 3 + 1 + 2 + 1
+	want := 2*(len(outcomeIndex)+6) + 2 + 1 + 3 + 1 + 2 + 1
 	if len(compared) != want {
 		t.Errorf("compared %d series, want %d: %v", len(compared), want, compared)
 	}

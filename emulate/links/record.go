@@ -66,8 +66,10 @@ func checkRecordPath(path string, inputs []string) error {
 	}
 	defer f.Close()
 	first, _ := bufio.NewReader(io.LimitReader(f, 256)).ReadString('\n')
+	// Any version of the relay's record is the relay's own.
 	header, _, _ := strings.Cut(emulate.RecordHeader, "\n")
-	if strings.TrimRight(first, "\r\n") != header {
+	header = strings.TrimRight(header, "0123456789")
+	if !strings.HasPrefix(strings.TrimRight(first, "\r\n"), header) {
 		return fmt.Errorf("record %s: exists and is not a relay record (its first line is not %q); the relay overwrites only its own records: remove it or choose another path", path, header)
 	}
 	return nil
