@@ -7,7 +7,9 @@ import (
 
 	"gonum.org/v1/gonum/mat"
 
+	"rigwire/profiles"
 	"rigwire/profiles/laws"
+	"rigwire/profiles/markov"
 )
 
 // errChainTooLarge marks a loop whose exact long-delay chain exceeds
@@ -318,4 +320,23 @@ func (md *Model) stateProb(i int) float64 {
 		return md.thetaPi[i]
 	}
 	return md.Pi[i]
+}
+
+// MeanCommandAge is the long-run mean age of a command on arrival,
+// E[τsc] + c + E[τca] in seconds, with every network delay multiplied by
+// scale (a --vary delay_scale point): what a delay scale means in periods
+// (estimate/model.md §13). Losses and the horizons are not counted; a law
+// without a mean gives +Inf.
+func MeanCommandAge(loop *profiles.Loop, scale float64) float64 {
+	mean := func(ch *markov.Channel) float64 {
+		pi := ch.Stationary()
+		m := 0.0
+		for i, s := range ch.States {
+			if pi[i] > 0 {
+				m += pi[i] * s.Delay.Mean()
+			}
+		}
+		return m
+	}
+	return scale*(mean(loop.Profile.SensorToController)+mean(loop.Profile.ControllerToActuator)) + loop.ComputeDelay
 }

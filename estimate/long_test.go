@@ -191,3 +191,45 @@ func TestSampleHorizonFallsBackToMonteCarlo(t *testing.T) {
 		t.Errorf("gain 3 over a delayed integrator called stable: %+v", pr.Error)
 	}
 }
+
+// TestLongChainMarginAndSweep: the loss margin (estimate/model.md §8) and
+// the delay-scale sweep work on the long-delay chain, which is rebuilt at
+// each extra loss: stable just below the margin, not at it; the sweep's
+// boundary between a stable and an unstable point, and the mean command
+// age there above one period (a loop that tolerates delays of several
+// periods).
+func TestLongChainMarginAndSweep(t *testing.T) {
+	const h = 0.01
+	loop := scalarIntegrator(0.35, 1, 0.02, 1e-4, 6, profile(iidChannel(0.02, must(laws.NewUniform(0, 0.5*h))), iidChannel(0.05, must(laws.NewLognormal(0.8*h, 0.4, 0.2*h)))))
+	md, err := Build(loop, Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	m := md.LossMargin()
+	if !(m > 0 && m < 1) {
+		t.Fatalf("loss margin %g, want inside (0, 1) for this loop", m)
+	}
+	for _, c := range []struct {
+		q    float64
+		want bool
+	}{{m - 2e-4, true}, {m, false}} {
+		mq, err := Build(loop, Options{ExtraLoss: c.q})
+		if err != nil {
+			t.Fatal(err)
+		}
+		if got := mq.MeanSquareStable(); got != c.want {
+			t.Errorf("extra loss %.5f (margin %.5f): stable %v, want %v", c.q, m, got, c.want)
+		}
+	}
+	res, err := Sweep(loop, SweepDelayScale, []float64{1, 2, 3, 4, 6})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if math.IsNaN(res.Boundary) || res.LostFromStart {
+		t.Fatalf("no boundary in the sweep: %+v", res.Points)
+	}
+	if age := MeanCommandAge(loop, res.Boundary) / h; !(age > 1) {
+		t.Errorf("stability lost at delay scale %.4g, a mean command age of %.2f periods; want more than one", res.Boundary, age)
+	}
+	t.Logf("loss margin %.4f; delay scale boundary %.4g (mean command age %.2f periods)", m, res.Boundary, MeanCommandAge(loop, res.Boundary)/h)
+}

@@ -224,6 +224,11 @@ func predictSweep(loop *profiles.Loop, param string, values []float64, plotFile 
 		fmt.Fprintf(stderr, "monitor predict: not mean-square stable at %s = %g already\n", param, values[0])
 	case !math.IsNaN(res.Boundary):
 		fmt.Fprintf(stderr, "monitor predict: mean-square stability is lost at %s = %.4g\n", param, res.Boundary)
+		if param == estimate.SweepDelayScale {
+			_, na := loop.Horizons()
+			fmt.Fprintf(stderr, "monitor predict: there a command's mean age on arrival (τsc + c + τca) is %.2f periods; the actuator's horizon is %d\n",
+				estimate.MeanCommandAge(loop, res.Boundary)/loop.Period, na)
+		}
 	}
 	if plotFile != "" {
 		return report.WriteSweepPlot(res, plotFile)
