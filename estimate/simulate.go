@@ -31,7 +31,7 @@ type SimOptions struct {
 type PathPoint struct {
 	K     int
 	Error []float64 // e_k = r − y_k
-	Mode  int       // 0, 1, 2 as in estimate/model.md §1
+	Mode  int       // 0, 1, 2 as in estimate/model.md §1; −1 with horizons above one period (§13), which have no such modes
 	Tau   float64   // total delay of a delivered command (mode 2), else NaN
 	State int       // joint network state index
 }
@@ -102,7 +102,7 @@ func Simulate(loop *profiles.Loop, opts SimOptions) (*SimResult, error) {
 		if ns == 1 && na == 1 {
 			m = sim.run(rng, opts.Periods, opts.Warmup, path, &res.ModeCounts, errAcc)
 		} else {
-			m = sim.runLong(rng, opts.Periods, opts.Warmup, ns, na, errAcc, ages)
+			m = sim.runLong(rng, opts.Periods, opts.Warmup, ns, na, errAcc, ages, path)
 		}
 		res.RunMeans = append(res.RunMeans, m)
 		if opts.Progress != nil {

@@ -57,7 +57,7 @@ type longRun struct {
 // state is drawn per period; a packet takes the state of the period it is
 // sent in. It adds to ages the periods that end with the command in
 // force d periods old (d < na) or older (ages[na]).
-func (s *simulator) runLong(rng *rand.Rand, periods, warmup, ns, na int, errSum []float64, ages []int) float64 {
+func (s *simulator) runLong(rng *rand.Rand, periods, warmup, ns, na int, errSum []float64, ages []int, path *[]PathPoint) float64 {
 	n, m, p := s.n, s.m, s.p
 	h := s.h
 	x := make([]float64, n)
@@ -133,6 +133,10 @@ func (s *simulator) runLong(rng *rand.Rand, periods, warmup, ns, na int, errSum 
 		}
 		lr.commands = compact(lr.commands)
 		copy(x, xn)
+		if path != nil {
+			*path = append(*path, PathPoint{K: k, Error: append([]float64(nil), e...), Mode: -1, Tau: math.NaN(),
+				State: isc*len(s.ca) + ica})
+		}
 		if k >= warmup {
 			d := k - lastApplied
 			if lastApplied < 0 || d >= na {
