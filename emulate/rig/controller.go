@@ -159,16 +159,17 @@ func (c *Controller) serveLoop(w timer.Waiter) error {
 			k, tk, perr = c.layout.ParseSample(buf[:n], y)
 		}
 		c.mu.Lock()
-		switch {
-		case perr != nil:
+		if perr != nil {
 			c.stats.Malformed++
 			c.mu.Unlock()
 			continue
-		case arrival-tk >= c.nsNs:
+		}
+		switch judge(arrival-tk, c.nsNs, int64(k), last) {
+		case expired:
 			c.stats.Stale++
 			c.mu.Unlock()
 			continue
-		case int64(k) <= last:
+		case repeated, overtaken:
 			c.stats.Duplicate++
 			c.mu.Unlock()
 			continue

@@ -11,16 +11,21 @@
 // sends one text datagram per sample (wire.go: sequence, sample time,
 // outputs, laid out as the loop's decode section says) and applies a
 // command the moment it arrives if its total delay since t_k is below the
-// loop's command horizon (h unless the loop file's timing section says
-// more) and it answers a newer sample than the last command applied, else
-// discards it as late, duplicate or older — so several commands may
-// change the input within one period, each at its arrival
-// (estimate/model.md §13). It can write a sample log, one row per period
-// (SampleLogHeader, in node.go). The controller (controller.go) runs the
-// loop's discrete controller on each sample younger than its sample
-// horizon and newer than the last one it used, waits the loop's compute
-// delay and replies at once. Each end reads its socket
-// with a blocking read on a thread of its own (recv*.go).
+// loop's command horizon Na·h (Na = 1 unless the loop file's timing
+// section says more) and it answers a newer sample than the last command
+// applied, else discards it as late, duplicate or older — so several
+// commands may change the input within one period, each at its arrival,
+// and the plant is integrated exactly between them (estimate/model.md
+// §13). It can write a sample log, one row per sample with the delay at
+// which that sample's command was applied, up to Na·h (SampleLogHeader,
+// in node.go). The controller (controller.go) runs the loop's discrete
+// controller on each sample younger than its sample horizon Ns·h and
+// newer than the last one it used (else discards it as stale, or as a
+// duplicate or overtaken one), waits the loop's compute delay and replies
+// at once. Both ends judge an arrival by the same rule (policy.go); with
+// horizons of one period it is the rule of estimate/model.md §1. Each end
+// reads its socket with a blocking read on a thread of its own
+// (recv*.go).
 //
 // What the rig uses of estimate, and why. The rig's plant is the sampled
 // plant model the prediction is built on, so that a measured run and the

@@ -88,13 +88,16 @@ type Node struct {
 	naNs   int64 // the command horizon, Na·h
 	zero   bool
 
-	mu          sync.Mutex
-	plant       *Plant    // guarded by mu
-	u           []float64 // input held now; guarded by mu
-	xt          int64     // time of the plant state; guarded by mu
-	t0          int64     // time of sample 0; guarded by mu
-	next        int       // next sample to take; guarded by mu
-	row         logRow    // the open period's log row; guarded by mu
+	mu    sync.Mutex
+	plant *Plant    // guarded by mu
+	u     []float64 // input held now; guarded by mu
+	xt    int64     // time of the plant state; guarded by mu
+	t0    int64     // time of sample 0; guarded by mu
+	next  int       // next sample to take; guarded by mu
+	// rows are the sample log's rows still open, a ring of Na (the
+	// command horizon): row k sits at k mod Na until command k can no
+	// longer arrive in time (t_{k+Na}), then it is written; guarded by mu.
+	rows        []logRow
 	lastApplied int64     // sequence of the last command applied, −1: none; guarded by mu
 	stats       NodeStats // guarded by mu
 	// silentWarned: the node has warned that no command came back
@@ -146,7 +149,10 @@ func NewNode(cfg NodeConfig) (*Node, error) {
 	nd.naNs = int64(na) * nd.hNs
 	nd.rx = newReceiver(conn)
 	nd.plant.SetState(cfg.Start.X)
-	nd.row = logRow{y: make([]float64, p), u: make([]float64, m), k: -1}
+	nd.rows = make([]logRow, na)
+	for i := range nd.rows {
+		nd.rows[i] = logRow{y: make([]float64, p), u: make([]float64, m), k: -1}
+	}
 	if cfg.Log != nil {
 		nd.slog = newSampleLog(cfg.Log, p, m)
 	}
@@ -245,15 +251,15 @@ func (nd *Node) tickLoop(ctx context.Context, w timer.Waiter) {
 		nd.mu.Unlock()
 	}
 	nd.mu.Lock()
-	nd.closeRowLocked()
+	nd.flushRowsLocked()
 	nd.mu.Unlock()
 }
 
 func (nd *Node) sampleTime(k int) int64 { return nd.t0 + int64(k)*nd.hNs }
 
 // catchUpLocked takes every sample due by now: the plant is advanced to
-// each t_k with the held input, the previous period's log row is closed,
-// and sample k is sent.
+// each t_k with the held input, the log row of sample k − Na (whose
+// command can no longer arrive in time) is written, and sample k is sent.
 func (nd *Node) catchUpLocked(now int64) {
 	for {
 		k := nd.next
@@ -263,11 +269,13 @@ func (nd *Node) catchUpLocked(now int64) {
 		}
 		nd.plant.Advance(tk-nd.xt, nd.u)
 		nd.xt = tk
-		nd.closeRowLocked()
 		if nd.cfg.Periods > 0 && k == nd.cfg.Periods {
+			nd.flushRowsLocked()
 			nd.next++ // the end: no sample, the last period is closed
 			return
 		}
+		row := &nd.rows[k%len(nd.rows)]
+		nd.writeRowLocked(row)
 		if nd.zero {
 			clear(nd.u)
 		}
@@ -275,7 +283,7 @@ func (nd *Node) catchUpLocked(now int64) {
 		if now-tk >= nd.hNs/4 {
 			nd.stats.Overruns++
 		}
-		if !nd.silentWarned && nd.stats.Applied+nd.stats.Late+nd.stats.Duplicate == 0 &&
+		if !nd.silentWarned && nd.stats.Applied+nd.stats.Late+nd.stats.Duplicate+nd.stats.Older == 0 &&
 			int64(k)*nd.hNs >= int64(NoCommandWarnAfter) {
 			nd.silentWarned = true
 			nd.log.Warn("rig node: no command has come back yet: is the relay (or the controller) running and listening there? The node keeps sending and holds its input",
@@ -287,21 +295,32 @@ func (nd *Node) catchUpLocked(now int64) {
 		} else {
 			nd.stats.Samples++
 		}
-		nd.row.k, nd.row.t, nd.row.tau = k, tk, -1
-		copy(nd.row.y, nd.y)
-		copy(nd.row.u, nd.u)
+		row.k, row.t, row.tau = k, tk, -1
+		copy(row.y, nd.y)
+		copy(row.u, nd.u)
 		nd.next++
 	}
 }
 
-func (nd *Node) closeRowLocked() {
-	if nd.row.k < 0 {
+// writeRowLocked writes an open log row (none when r.k < 0) and empties it.
+func (nd *Node) writeRowLocked(r *logRow) {
+	if r.k < 0 {
 		return
 	}
 	if nd.slog != nil {
-		nd.slog.write(&nd.row)
+		nd.slog.write(r)
 	}
-	nd.row.k = -1
+	r.k = -1
+}
+
+// flushRowsLocked writes every open log row, oldest first: the run ends.
+func (nd *Node) flushRowsLocked() {
+	na := len(nd.rows)
+	for k := max(0, nd.next-na); k < nd.next; k++ {
+		if r := &nd.rows[k%na]; r.k == k {
+			nd.writeRowLocked(r)
+		}
+	}
 }
 
 // receiveLoop reads commands until the receiver is halted.
@@ -329,32 +348,51 @@ func (nd *Node) receiveLoop() {
 		nd.mu.Lock()
 		now := max(Now(), nd.xt)
 		nd.catchUpLocked(now)
-		switch {
-		case perr != nil || k >= uint64(nd.next):
+		if perr != nil {
 			nd.stats.Malformed++
-		case now-nd.sampleTime(int(k)) >= nd.naNs:
-			nd.stats.Late++
-		case int64(k) == nd.lastApplied:
-			nd.stats.Duplicate++
-		case int64(k) < nd.lastApplied:
-			nd.stats.Older++
-		default:
-			nd.plant.Advance(now-nd.xt, nd.u)
-			nd.xt = now
-			copy(nd.u, u)
-			nd.lastApplied = int64(k)
-			if int(k) == nd.row.k {
-				nd.row.tau = now - nd.sampleTime(int(k))
-			}
-			nd.stats.Applied++
+		} else {
+			nd.commandLocked(k, u, now)
 		}
 		nd.mu.Unlock()
 	}
 }
 
-// logRow is one period of the sample log.
+// commandLocked applies the timing policy to command k, arrived at
+// now ≥ the plant's time, after the samples due by now were taken: applied
+// at once — the plant advanced to now with the old input, then holding
+// u — or counted as late, duplicate or older; a command for a sample not
+// taken yet is malformed. Its age runs from t_k as the node itself took
+// sample k (the t_k the command carries is not trusted), so that a
+// command can never look younger than it is.
+func (nd *Node) commandLocked(seq uint64, u []float64, now int64) {
+	if seq >= uint64(nd.next) {
+		nd.stats.Malformed++
+		return
+	}
+	k := int(seq)
+	age := now - nd.sampleTime(k)
+	switch judge(age, nd.naNs, int64(k), nd.lastApplied) {
+	case expired:
+		nd.stats.Late++
+	case repeated:
+		nd.stats.Duplicate++
+	case overtaken:
+		nd.stats.Older++
+	default:
+		nd.plant.Advance(now-nd.xt, nd.u)
+		nd.xt = now
+		copy(nd.u, u)
+		nd.lastApplied = int64(k)
+		if r := &nd.rows[k%len(nd.rows)]; r.k == k {
+			r.tau = age
+		}
+		nd.stats.Applied++
+	}
+}
+
+// logRow is one sample of the sample log.
 type logRow struct {
-	k   int
+	k   int // −1: the row is empty
 	t   int64
 	y   []float64
 	u   []float64 // input held at t_k
@@ -364,8 +402,15 @@ type logRow struct {
 // SampleLogHeader names the sample log's columns, for p outputs and m
 // inputs: k, the sample time t_k (seconds, CLOCK_MONOTONIC), the outputs
 // y_k as sent, the input the actuator held at t_k, and the delay after
-// t_k at which command k was applied (empty when none was: lost, stale or
-// late).
+// t_k at which command k was applied (empty when none was: lost, stale,
+// late, duplicate or overtaken, or still on its way when the run ended).
+// That delay is below the command horizon Na·h, so it may span several
+// periods: row k is written once t_{k+Na} has passed (or the run ends),
+// and rows come in order of k. The log says when the input changed: the
+// changes within period k are the commands j whose t_j + delay falls in
+// [t_k, t_{k+1}), in that order, and the input held at t_{k+1} is the
+// last of them; the value of a command replaced within the period it
+// arrived in is not logged (the controller that sent it knows it).
 func SampleLogHeader(p, m int) string {
 	b := []byte("k,t_seconds")
 	for i := 1; i <= p; i++ {
