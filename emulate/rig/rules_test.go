@@ -4,6 +4,7 @@ import (
 	"bytes"
 	"context"
 	"math"
+	"sort"
 	"strconv"
 	"strings"
 	"testing"
@@ -313,12 +314,14 @@ func FuzzRigDatagrams(f *testing.F) {
 // twice: the second is a duplicate), and for k ≡ 2 after 2.3 h, by which
 // time command k+1 has been applied (older, dropped), or, when k ≡ 6 mod
 // 8, after 3.2 h (late, dropped). Per 8 periods: 6 applied, 1 older, 1
-// late, 2 duplicates; the end of the run cuts the last few.
+// late, 2 duplicates; the end of the run cuts the last few. Command k
+// carries u = k, so the node's sample log replays exactly (replayLog).
 func TestRigActuatorHorizon(t *testing.T) {
 	loop := parseLoop(t, rulesLoop+"timing: {command_horizon: 3}\n")
 	ctl := udpLoopback(t)
 	const periods = 48
-	node, err := rig.NewNode(rig.NodeConfig{Loop: loop, Relay: apOf(ctl), Periods: periods, Seed: 1})
+	var log bytes.Buffer
+	node, err := rig.NewNode(rig.NodeConfig{Loop: loop, Relay: apOf(ctl), Periods: periods, Seed: 1, Log: &log})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -366,12 +369,110 @@ func TestRigActuatorHorizon(t *testing.T) {
 		t.Fatal(err)
 	}
 	s := node.Stats()
-	const cycles, slack = periods / 8, 4
-	if s.Applied > 6*cycles || s.Applied < 6*cycles-slack || s.Older < cycles-1 || s.Older > cycles ||
-		s.Late < cycles-2 || s.Late > cycles || s.Duplicate < 2*cycles-2 || s.Duplicate > 2*cycles {
-		t.Errorf("applied %d, older %d, late %d, duplicate %d; want %d (≥ %d), %d, %d, %d",
-			s.Applied, s.Older, s.Late, s.Duplicate, 6*cycles, 6*cycles-slack, cycles, cycles, 2*cycles)
+	// The end of the run cuts up to endCut of the 10 arrivals per cycle; a
+	// stalled host (a loaded machine) can push a reply past the next one
+	// or past its horizon, moving up to stall of them from applied to
+	// older or late. The exact rules at exact instants are
+	// TestNodeTimingPolicyExact's.
+	const cycles, endCut, stall = periods / 8, 4, 3
+	within := func(got uint64, lo, hi int) bool { return int(got) >= lo && int(got) <= hi }
+	if !within(s.Applied+s.Older+s.Late+s.Duplicate, 10*cycles-endCut, 10*cycles) ||
+		!within(s.Applied, 6*cycles-endCut-stall, 6*cycles) || !within(s.Older, cycles-1, cycles+stall) ||
+		!within(s.Late, cycles-2, cycles+stall) || !within(s.Duplicate, 2*cycles-2, 2*cycles) {
+		t.Errorf("applied %d, older %d, late %d, duplicate %d; want %d, %d, %d, %d (within what the end of the run and a stall change)",
+			s.Applied, s.Older, s.Late, s.Duplicate, 6*cycles, cycles, cycles, 2*cycles)
 	}
+	// A command the node applies after its last period (a stalled host
+	// delays the last replies) is counted but in no row of the log.
+	const afterEnd = 2
+	applied, multi := replayLog(t, loop, log.String(), func(k int) float64 { return float64(k) })
+	if applied > int(s.Applied) || applied < int(s.Applied)-afterEnd || multi < cycles-1 {
+		t.Errorf("the log holds %d applied commands (the node counted %d) and %d periods with several input changes, want ≥ %d",
+			applied, s.Applied, multi, cycles-1)
+	}
+}
+
+// replayLog checks a noise-free scalar node's sample log (C = 1, V = 0:
+// y_k = x(t_k)) against the sampled model with every input change at its
+// own offset a_e within the period:
+//
+//	x(t_{k+1}) = Φ x(t_k) + Γ u(t_k) + Σ_e Γ0(a_e) (u_e − u_{e−1}),
+//	Γ0(a) = ∫₀^{h−a} e^{As} ds B
+//
+// (Åström–Wittenmark, Computer-Controlled Systems, 3rd ed., §2.3, the
+// zero-order hold with an input delay, one term per change;
+// estimate/model.md §13), Φ, Γ, Γ0 from estimate.Discretize and Split.
+// Command j was applied at t_j + its logged delay and carries u = uOf(j);
+// the input the log holds at t_{k+1} must be the last applied. It returns
+// how many commands the log says were applied and in how many periods
+// the input changed more than once.
+func replayLog(t *testing.T, loop *profiles.Loop, log string, uOf func(k int) float64) (applied, multi int) {
+	t.Helper()
+	const tol = 1e-9 // the log prints floats to round trip, times to the ns
+	ns := func(f string) int64 {
+		v, err := strconv.ParseInt(strings.Replace(f, ".", "", 1), 10, 64)
+		if err != nil || !strings.Contains(f, ".") || len(f)-strings.Index(f, ".") != 10 {
+			t.Fatalf("log time %q: want seconds with nine decimals", f)
+		}
+		return v
+	}
+	lines := strings.Split(strings.TrimSpace(log), "\n")
+	if lines[0] != rig.SampleLogHeader(1, 1) {
+		t.Fatalf("header %q", lines[0])
+	}
+	type row struct {
+		t    int64
+		y, u float64
+	}
+	type change struct {
+		at int64
+		u  float64
+	}
+	var rows []row
+	var changes []change
+	for i, l := range lines[1:] {
+		f := strings.Split(l, ",")
+		if k, err := strconv.Atoi(f[0]); err != nil || k != i {
+			t.Fatalf("log row %d is %q: rows must come in order of k", i, l)
+		}
+		var r row
+		r.t = ns(f[1])
+		r.y, _ = strconv.ParseFloat(f[2], 64)
+		r.u, _ = strconv.ParseFloat(f[3], 64)
+		rows = append(rows, r)
+		if f[4] != "" {
+			changes = append(changes, change{r.t + ns(f[4]), uOf(i)})
+		}
+	}
+	sort.Slice(changes, func(i, j int) bool { return changes[i].at < changes[j].at })
+	applied = len(changes)
+	s := estimate.Discretize(loop.Plant.A, loop.Plant.B, nil, loop.Period)
+	phi, gam := s.Phi.At(0, 0), s.Gamma.At(0, 0)
+	e := 0
+	for k := 0; k+1 < len(rows); k++ {
+		r, next := rows[k], rows[k+1]
+		want, u, n := phi*r.y+gam*r.u, r.u, 0
+		for ; e < len(changes) && changes[e].at < next.t; e++ {
+			c := changes[e]
+			if c.at < r.t {
+				t.Fatalf("a command applied at %d ns, before t_%d = %d but after t_%d", c.at, k, r.t, k-1)
+			}
+			g0, _ := s.Split(float64(c.at-r.t) * 1e-9)
+			want += g0.At(0, 0) * (c.u - u)
+			u = c.u
+			n++
+		}
+		if n > 1 {
+			multi++
+		}
+		if next.u != u {
+			t.Errorf("u(t_%d) = %g in the log, want %g, the last command applied before", k+1, next.u, u)
+		}
+		if math.Abs(next.y-want) > tol {
+			t.Errorf("y[%d] = %.15g, want %.15g from y[%d], u(t_%d) = %g and %d changes", k+1, next.y, want, k, k, r.u, n)
+		}
+	}
+	return applied, multi
 }
 
 // TestRigControllerSampleHorizon: with a sample horizon of two periods
