@@ -15,6 +15,8 @@ import (
 	"syscall"
 	"testing"
 	"time"
+
+	"rigwire/emulate"
 )
 
 // Two rigs in one links file, each the other's stranger: each link
@@ -189,7 +191,7 @@ func TestRunRecordSafety(t *testing.T) {
 			t.Fatalf("exit status %d", code)
 		}
 		b, _ := os.ReadFile(rec)
-		if !strings.HasPrefix(string(b), "# rigwire relay record v1\n") || strings.Contains(string(b), "an earlier run") {
+		if !strings.HasPrefix(string(b), emulate.RecordHeader) || strings.Contains(string(b), "an earlier run") {
 			t.Errorf("record after the run: %q", b)
 		}
 	})
