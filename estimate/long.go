@@ -124,44 +124,34 @@ func (tl *totalLaw) meanBelow(x float64) float64 {
 // longSecondOp is ℒ on the stacked svec(Q_j) of the long chain:
 // block (j, i) = Σ over i's groups leading to j's part of P_θθ' Σ w F⊗F.
 func (md *Model) longSecondOp() *mat.Dense {
+	return md.longStacked(md.symDim(), func(g *longGroup) *mat.Dense { return g.op })
+}
+
+// longFirstOp is the first-moment operator of the long chain: the same
+// blocks with Σ w F.
+func (md *Model) longFirstOp() *mat.Dense {
+	return md.longStacked(md.lm.nz, func(g *longGroup) *mat.Dense { return g.meanF })
+}
+
+// longStacked assembles an operator over the chain's states from each
+// group's d×d block: block (j, i) = Σ over the groups of state i that lead
+// to j's part of P_θθ' · block(g), with θ, θ' the network states of i, j.
+func (md *Model) longStacked(d int, block func(*longGroup) *mat.Dense) *mat.Dense {
 	lc := md.long
-	d := md.symDim()
 	N := len(lc.groups)
 	big := mat.NewDense(N*d, N*d, nil)
 	for i, gs := range lc.groups {
 		th := i % lc.nTheta
-		for _, g := range gs {
+		for gi := range gs {
+			b := block(&gs[gi])
 			for th2 := 0; th2 < lc.nTheta; th2++ {
 				pij := lc.theta.At(th, th2)
 				if pij == 0 {
 					continue
 				}
-				j := g.to*lc.nTheta + th2
+				j := gs[gi].to*lc.nTheta + th2
 				blk := big.Slice(j*d, (j+1)*d, i*d, (i+1)*d).(*mat.Dense)
-				blk.Add(blk, scaledCopy(g.op, pij))
-			}
-		}
-	}
-	return big
-}
-
-// longFirstOp is the first-moment operator of the long chain.
-func (md *Model) longFirstOp() *mat.Dense {
-	lc := md.long
-	nz := md.lm.nz
-	N := len(lc.groups)
-	big := mat.NewDense(N*nz, N*nz, nil)
-	for i, gs := range lc.groups {
-		th := i % lc.nTheta
-		for _, g := range gs {
-			for th2 := 0; th2 < lc.nTheta; th2++ {
-				pij := lc.theta.At(th, th2)
-				if pij == 0 {
-					continue
-				}
-				j := g.to*lc.nTheta + th2
-				blk := big.Slice(j*nz, (j+1)*nz, i*nz, (i+1)*nz).(*mat.Dense)
-				blk.Add(blk, scaledCopy(g.meanF, pij))
+				blk.Add(blk, scaledCopy(b, pij))
 			}
 		}
 	}

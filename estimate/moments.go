@@ -131,25 +131,7 @@ func (md *Model) meanG(i int) []float64 {
 // constTerm returns E_i[F q gᵀ + g qᵀ Fᵀ + π (g gᵀ + H Ξ Hᵀ)] for state i
 // with first moment q and probability pi.
 func (md *Model) constTerm(i int, q []float64, pi float64) *mat.Dense {
-	nz := md.lm.nz
-	out := mat.NewDense(nz, nz, nil)
-	qv := mat.NewVecDense(nz, q)
-	fq := mat.NewVecDense(nz, nil)
-	for _, wm := range md.modes(i) {
-		if wm.w == 0 {
-			continue
-		}
-		fq.MulVec(wm.F, qv)
-		for a := 0; a < nz; a++ {
-			ga, fa := wm.G.AtVec(a), fq.AtVec(a)
-			for b := 0; b < nz; b++ {
-				gb, fb := wm.G.AtVec(b), fq.AtVec(b)
-				v := fa*gb + ga*fb + pi*(ga*gb+wm.HXH.At(a, b))
-				out.Set(a, b, out.At(a, b)+wm.w*v)
-			}
-		}
-	}
-	return out
+	return constTermOf(md.modes(i), md.lm.nz, q, pi)
 }
 
 // Moments are first and second moments of the loop state z = [x; u; xc]

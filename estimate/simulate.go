@@ -215,6 +215,27 @@ func (s *simulator) gammas(tau float64) (g0, g1 *mat.Dense) {
 	return g0, g1
 }
 
+// sample takes the period's sample, y = C x + v, into e = r − y (v is
+// scratch for the sensor noise, std for the normal draws) and, when
+// counted, adds eᵀe to sum and e and its squares to acc (p entries each).
+func (s *simulator) sample(rng *rand.Rand, x, e, v, std []float64, counted bool, sum *float64, acc []float64) {
+	p := len(e)
+	simstep.Noise(v, s.vFac, rng, std)
+	simstep.MulVec(e, s.cp, x, false)
+	ee := 0.0
+	for i := 0; i < p; i++ {
+		e[i] = s.r[i] - e[i] - v[i]
+		ee += e[i] * e[i]
+	}
+	if counted {
+		*sum += ee
+		for i := 0; i < p; i++ {
+			acc[i] += e[i]
+			acc[p+i] += e[i] * e[i]
+		}
+	}
+}
+
 // run simulates one run and returns its time average of eᵀe after the
 // warm-up.
 func (s *simulator) run(rng *rand.Rand, periods, warmup int, path *[]PathPoint, counts *[3]int, errSum []float64) float64 {
@@ -232,21 +253,7 @@ func (s *simulator) run(rng *rand.Rand, periods, warmup int, path *[]PathPoint, 
 	ica := draw(rng, s.pica)
 	sum := 0.0
 	for k := 0; k < periods; k++ {
-		// Sample: y = C x + v, e = r − y.
-		simstep.Noise(v, s.vFac, rng, std)
-		simstep.MulVec(e, s.cp, x, false)
-		ee := 0.0
-		for i := 0; i < p; i++ {
-			e[i] = s.r[i] - e[i] - v[i]
-			ee += e[i] * e[i]
-		}
-		if k >= warmup {
-			sum += ee
-			for i := 0; i < p; i++ {
-				errSum[i] += e[i]
-				errSum[p+i] += e[i] * e[i]
-			}
-		}
+		s.sample(rng, x, e, v, std, k >= warmup, &sum, errSum)
 		// Network and controller.
 		mode, tau := 0, math.NaN()
 		if rng.Float64() >= s.lossSC[isc] {

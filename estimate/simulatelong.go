@@ -74,21 +74,7 @@ func (s *simulator) runLong(rng *rand.Rand, periods, warmup, ns, na int, errSum 
 	ica := draw(rng, s.pica)
 	sum := 0.0
 	for k := 0; k < periods; k++ {
-		// Sample: y = C x + v, e = r − y.
-		simstep.Noise(v, s.vFac, rng, std)
-		simstep.MulVec(e, s.cp, x, false)
-		ee := 0.0
-		for i := 0; i < p; i++ {
-			e[i] = s.r[i] - e[i] - v[i]
-			ee += e[i] * e[i]
-		}
-		if k >= warmup {
-			sum += ee
-			for i := 0; i < p; i++ {
-				errSum[i] += e[i]
-				errSum[p+i] += e[i] * e[i]
-			}
-		}
+		s.sample(rng, x, e, v, std, k >= warmup, &sum, errSum)
 		if rng.Float64() >= s.lossSC[isc] {
 			if tau := s.delaySC[isc].Sample(rng); tau < float64(ns)*h {
 				lr.samples = addFlight(lr.samples, k, tau, e, h)
