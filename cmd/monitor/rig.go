@@ -140,7 +140,7 @@ func cmdRigController(args []string, stderr io.Writer) error {
 		return err
 	}
 	s := ctl.Stats()
-	log.Info("rig controller stopped", "used", s.Used, "stale", s.Stale, "duplicate", s.Duplicate,
+	log.Info("rig controller stopped", "used", s.Used, "stale", s.Stale, "duplicate", s.Duplicate, "older", s.Older,
 		"malformed", s.Malformed, "send_errors", s.SendError)
 	return nil
 }

@@ -31,7 +31,8 @@ type ControllerConfig struct {
 type ControllerStats struct {
 	Used      uint64 // samples used: a command was sent for each
 	Stale     uint64 // samples arriving sample_horizon·h or more after t_k (discarded)
-	Duplicate uint64 // samples not newer than the last one used: repeated, or overtaken on the way (discarded)
+	Duplicate uint64 // samples with the sequence number of the last one used, again (discarded)
+	Older     uint64 // samples older than the last one used: overtaken on the way (discarded)
 	Malformed uint64 // datagrams that do not decode as samples
 	SendError uint64
 }
@@ -169,8 +170,12 @@ func (c *Controller) serveLoop(w timer.Waiter) error {
 			c.stats.Stale++
 			c.mu.Unlock()
 			continue
-		case repeated, overtaken:
+		case repeated:
 			c.stats.Duplicate++
+			c.mu.Unlock()
+			continue
+		case overtaken:
+			c.stats.Older++
 			c.mu.Unlock()
 			continue
 		}

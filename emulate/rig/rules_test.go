@@ -170,8 +170,8 @@ func TestRigControllerRules(t *testing.T) {
 	for deadline := time.Now().Add(time.Second); s.Used < 2 && time.Now().Before(deadline); s = ctl.Stats() {
 		time.Sleep(time.Millisecond)
 	}
-	if s.Used != 2 || s.Stale != 1 || s.Duplicate != 1 {
-		t.Errorf("used %d, stale %d, duplicate %d; want 2, 1, 1", s.Used, s.Stale, s.Duplicate)
+	if s.Used != 2 || s.Stale != 1 || s.Older != 1 || s.Duplicate != 0 {
+		t.Errorf("used %d, stale %d, older %d, duplicate %d; want 2, 1, 1, 0", s.Used, s.Stale, s.Older, s.Duplicate)
 	}
 }
 
@@ -516,12 +516,12 @@ func TestRigControllerSampleHorizon(t *testing.T) {
 	}
 	deadline := time.Now().Add(2 * time.Second)
 	for time.Now().Before(deadline) {
-		if s := ctl.Stats(); s.Used == 2 && s.Duplicate == 1 && s.Stale == 1 {
+		if s := ctl.Stats(); s.Used == 2 && s.Older == 1 && s.Stale == 1 {
 			break
 		}
 		time.Sleep(5 * time.Millisecond)
 	}
-	if s := ctl.Stats(); got[0] != 10 || got[1] != 12 || s.Used != 2 || s.Duplicate != 1 || s.Stale != 1 {
-		t.Errorf("replies %v, stats %+v; want [10 12], used 2, duplicate (overtaken) 1, stale 1", got, s)
+	if s := ctl.Stats(); got[0] != 10 || got[1] != 12 || s.Used != 2 || s.Older != 1 || s.Duplicate != 0 || s.Stale != 1 {
+		t.Errorf("replies %v, stats %+v; want [10 12], used 2, older (overtaken) 1, stale 1", got, s)
 	}
 }
