@@ -35,6 +35,12 @@ type rigRun struct {
 // summary.
 func startRig(t *testing.T, loopPath string, dur time.Duration, seed string, monitor bool) *rigRun {
 	t.Helper()
+	return startRigWith(t, loopPath, dur, seed, monitor, nil)
+}
+
+// startRigWith is startRig with extra flags for monitor run.
+func startRigWith(t *testing.T, loopPath string, dur time.Duration, seed string, monitor bool, monitorArgs []string) *rigRun {
+	t.Helper()
 	loop, err := profiles.LoadLoop(loopPath)
 	if err != nil {
 		t.Fatal(err)
@@ -58,8 +64,9 @@ func startRig(t *testing.T, loopPath string, dur time.Duration, seed string, mon
 	if monitor {
 		tapAddr := freePort(t, "udp")
 		r.summary = filepath.Join(dir, "summary.json")
-		monP = start(t, mon, "run", "--loop", loopPath, "--listen", tapAddr, "--metrics", freePort(t, "tcp"),
-			"--summary", r.summary)
+		args := append([]string{"run", "--loop", loopPath, "--listen", tapAddr, "--metrics", freePort(t, "tcp"),
+			"--summary", r.summary}, monitorArgs...)
+		monP = start(t, mon, args...)
 		relayArgs = append(relayArgs, "--tap", tapAddr)
 	}
 	relay := start(t, imp, relayArgs...)

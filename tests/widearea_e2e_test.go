@@ -5,6 +5,7 @@ import (
 	"os"
 	"regexp"
 	"strconv"
+	"strings"
 	"testing"
 	"time"
 )
@@ -18,10 +19,12 @@ var nodeOlder = regexp.MustCompile(`older=(\d+)`)
 // newest-first within the loop's four-period horizon, and `monitor run`
 // judging the tap's samples. The verdict must be agree: the exact
 // long-delay prediction (estimate/model.md §13) inside the monitor's 95 %
-// interval widened by its default tolerance, with an interval narrow
-// enough to confirm it (§9). The node must have applied commands older
-// than a period and dropped overtaken ones, or the case would not test the
-// policy.
+// interval widened by 0.15, with an interval narrow enough to confirm it
+// (§9). The widening is TestRigEndToEnd's relTol: the loopback stack and a
+// host busy with the other tests add latency that the profile does not
+// hold (measured here 3–10 % above the prediction). The node must have
+// applied commands older than a period and dropped overtaken ones, or the
+// case would not test the policy.
 func TestRigWideArea(t *testing.T) {
 	if testing.Short() {
 		t.Skip("a three-minute run")
@@ -30,7 +33,7 @@ func TestRigWideArea(t *testing.T) {
 		t.Skip("monitor run is not available")
 	}
 	t.Parallel()
-	r := startRig(t, "../profiles/examples/loops/shuttle-remote.yaml", 3*time.Minute, "14", true)
+	r := startRigWith(t, "../profiles/examples/loops/shuttle-remote.yaml", 3*time.Minute, "14", true, []string{"--tolerance", "0.15"})
 	var s struct {
 		Samples   int      `json:"samples"`
 		Measured  *float64 `json:"error_second_moment"`
@@ -62,9 +65,25 @@ func TestRigWideArea(t *testing.T) {
 	if n, _ := strconv.Atoi(older[1]); n == 0 {
 		t.Errorf("no command was overtaken: the profile should reorder commands")
 	}
-	if _, applied := sampleLog(t, r.logPath, r.loop); applied > s.Samples/10 {
-		// The log marks a period's own command: at 20 ms almost none of
-		// them arrives within its own period over this link.
-		t.Errorf("%d periods applied their own command in time: the delays should mostly exceed a period", applied)
+	// The log gives each sample's command delay: over this link almost
+	// none arrives within its own period, most one to four periods later.
+	within, later := 0, 0
+	for _, l := range readLines(t, r.logPath)[1:] {
+		f := strings.Split(l, ",")
+		if f[len(f)-1] == "" {
+			continue
+		}
+		d, err := strconv.ParseFloat(f[len(f)-1], 64)
+		if err != nil {
+			t.Fatalf("sample log: %q: %v", l, err)
+		}
+		if d < r.loop.Period {
+			within++
+		} else {
+			later++
+		}
+	}
+	if within > later/10 || later == 0 {
+		t.Errorf("%d commands applied within their own period, %d later: the delays should mostly exceed a period", within, later)
 	}
 }
