@@ -38,7 +38,13 @@
 //     (longlaw.go, longperiod.go) turned into moment-matched modes
 //     (longchain.go, long.go); and when the exact chain is not built (a
 //     sample horizon above one period, or too large a chain), a Monte
-//     Carlo answer from the same rules, marked as such.
+//     Carlo answer from the same rules, marked as such. The derivation is
+//     written out in §13 with its sources: J. Nilsson's 1998 thesis (the
+//     chapter on delays longer than a period), L. Xiao, A. Hassibi and
+//     J. P. How (ACC 2000: the age of the applied information as the jump
+//     variable), J. P. Hespanha, P. Naghshtabrizi and Y. Xu (Proc. IEEE
+//     95(1), 2007: long delays, reordering, newest-first), and Costa,
+//     Fragoso and Marques (2005) for the moments.
 //
 // Entry points: [Predict] for the prediction, [Build] for the model itself
 // ([Model.Transient] for a step response, [Model.Radius]), [Sweep] for a
