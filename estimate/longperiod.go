@@ -41,6 +41,17 @@ type periodGrid struct {
 	kern   [][]float64 // g(s) = e^{A(h−s)} B at each node, as vec (row-major n×m)
 	cum    [][]float64 // chebCumulative matrix
 	cw     []float64
+	cumM   *mat.Dense // cum as a matrix, for cumulate's products
+	// windows caches, per slot d, the total law where slot d's window
+	// begins and ends and at every node: they do not depend on the losses,
+	// so a rebuild at another extra loss reuses them (slot).
+	windows map[int]*slotWindow
+}
+
+// slotWindow is the total law seen from slot d's window [d h, (d+1) h).
+type slotWindow struct {
+	f0, end float64   // F(d h−), F(((d+1) h ∧ top)−)
+	at      []float64 // F at d h + s for every node s; −1 beyond top
 }
 
 const intPoints = 32
@@ -68,6 +79,10 @@ func newPeriodGrid(tl *totalLaw, na int, a, b *mat.Dense, h float64) *periodGrid
 	norm := mat.Norm(a, math.Inf(1))
 	pg := &periodGrid{h: h}
 	pg.cum, pg.cw = chebCumulative(intPoints)
+	pg.cumM = mat.NewDense(intPoints, intPoints, nil)
+	for r, row := range pg.cum {
+		pg.cumM.SetRow(r, row)
+	}
 	t := chebNodes(intPoints)
 	n, m := b.Dims()
 	for i := 0; i+1 < len(pts); i++ {
@@ -110,29 +125,48 @@ func newPeriodGrid(tl *totalLaw, na int, a, b *mat.Dense, h float64) *periodGrid
 // the probability that a command not arrived by the period's start is on
 // its way and will not be lost, before conditioning (see longChain).
 func (pg *periodGrid) slot(tl *totalLaw, d int, kappa float64) slotLaw {
-	h := pg.h
-	sl := slotLaw{d: d, kappa: kappa}
-	if d > 0 {
-		sl.f0 = tl.cdf(float64(d)*h, true)
-	}
+	win := pg.window(tl, d)
+	sl := slotLaw{d: d, kappa: kappa, f0: win.f0}
 	sl.den = 1 - kappa*sl.f0
+	sl.vals = make([]float64, len(pg.s))
 	if !(sl.den > 0) || kappa == 0 {
-		sl.vals = make([]float64, len(pg.s))
 		return sl
 	}
-	end := tl.cdf(math.Min(float64(d+1)*h, tl.top), true)
-	sl.gh = clamp01(kappa * (end - sl.f0) / sl.den)
-	sl.vals = make([]float64, len(pg.s))
-	base := float64(d) * h
-	for k, s := range pg.s {
-		x := base + s
-		if x >= tl.top {
+	sl.gh = clamp01(kappa * (win.end - sl.f0) / sl.den)
+	for k, f := range win.at {
+		if f < 0 {
 			sl.vals[k] = sl.gh
 			continue
 		}
-		sl.vals[k] = clamp01(math.Min(sl.gh, kappa*(tl.at(x)-sl.f0)/sl.den))
+		sl.vals[k] = clamp01(math.Min(sl.gh, kappa*(f-sl.f0)/sl.den))
 	}
 	return sl
+}
+
+// window returns (and caches) the total law over slot d's window.
+func (pg *periodGrid) window(tl *totalLaw, d int) *slotWindow {
+	if w, ok := pg.windows[d]; ok {
+		return w
+	}
+	h := pg.h
+	w := &slotWindow{at: make([]float64, len(pg.s))}
+	if d > 0 {
+		w.f0 = tl.cdf(float64(d)*h, true)
+	}
+	w.end = tl.cdf(math.Min(float64(d+1)*h, tl.top), true)
+	base := float64(d) * h
+	for k, s := range pg.s {
+		if x := base + s; x < tl.top {
+			w.at[k] = tl.at(x)
+		} else {
+			w.at[k] = -1
+		}
+	}
+	if pg.windows == nil {
+		pg.windows = map[int]*slotWindow{}
+	}
+	pg.windows[d] = w
+	return w
 }
 
 func clamp01(x float64) float64 { return math.Max(0, math.Min(1, x)) }
@@ -329,31 +363,44 @@ func (pg *periodGrid) periodOutcomes(slots []slotLaw, nm int, gamma []float64) (
 }
 
 // cumulate sets out[k] = ∫₀^{s_k} g(s) f(s) (m(s)) ds at every node, m nil
-// meaning 1.
+// meaning 1: within each sub-interval the cumulative integration matrix
+// applied to the integrand's values (one matrix product for all
+// sub-intervals and entries), plus the integrals of the sub-intervals
+// before it.
 func (pg *periodGrid) cumulate(f, m []float64, out [][]float64, nm int) {
+	nsub := len(pg.lo)
+	vals := mat.NewDense(intPoints, nsub*nm, nil)
+	raw := vals.RawMatrix()
+	for iv := 0; iv < nsub; iv++ {
+		off := iv * intPoints
+		for j := 0; j < intPoints; j++ {
+			w := f[off+j]
+			if m != nil {
+				w *= m[off+j]
+			}
+			row := raw.Data[j*raw.Stride+iv*nm:]
+			for i, g := range pg.kern[off+j] {
+				row[i] = w * g
+			}
+		}
+	}
+	var local mat.Dense
+	local.Mul(pg.cumM, vals)
+	lr := local.RawMatrix()
 	base := make([]float64, nm)
-	tmp := make([]float64, intPoints)
-	for iv := range pg.lo {
+	for iv := 0; iv < nsub; iv++ {
 		half := (pg.hi[iv] - pg.lo[iv]) / 2
 		off := iv * intPoints
+		for r := 0; r < intPoints; r++ {
+			row := lr.Data[r*lr.Stride+iv*nm:]
+			for i := 0; i < nm; i++ {
+				out[off+r][i] = base[i] + half*row[i]
+			}
+		}
 		for i := 0; i < nm; i++ {
-			for j := 0; j < intPoints; j++ {
-				v := f[off+j] * pg.kern[off+j][i]
-				if m != nil {
-					v *= m[off+j]
-				}
-				tmp[j] = v
-			}
-			for r := 0; r < intPoints; r++ {
-				s := 0.0
-				for j, v := range tmp {
-					s += pg.cum[r][j] * v
-				}
-				out[off+r][i] = base[i] + half*s
-			}
 			s := 0.0
-			for j, v := range tmp {
-				s += pg.cw[j] * v
+			for j := 0; j < intPoints; j++ {
+				s += pg.cw[j] * raw.Data[j*raw.Stride+iv*nm+i]
 			}
 			base[i] += half * s
 		}
