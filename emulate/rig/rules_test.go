@@ -3,6 +3,7 @@ package rig_test
 import (
 	"bytes"
 	"context"
+	"io"
 	"math"
 	"sort"
 	"strconv"
@@ -48,48 +49,16 @@ func parseLoop(t *testing.T, src string) *profiles.Loop {
 // (late), and a second command for a period already served is discarded.
 func TestRigActuatorRules(t *testing.T) {
 	loop := parseLoop(t, rulesLoop)
-	ctl := udpLoopback(t)
 	const periods = 40
-	node, err := rig.NewNode(rig.NodeConfig{Loop: loop, Relay: apOf(ctl), Periods: periods, Seed: 1})
-	if err != nil {
-		t.Fatal(err)
-	}
-	layout, err := rig.NewLayout(loop)
-	if err != nil {
-		t.Fatal(err)
-	}
-	done := make(chan error, 1)
-	go func() { done <- node.Run(context.Background()) }()
-	buf := make([]byte, 512)
-	y := make([]float64, 1)
-	hNs := int64(loop.Period * 1e9)
-	for i := 0; i < periods; i++ {
-		ctl.SetReadDeadline(time.Now().Add(5 * time.Second))
-		n, src, err := ctl.ReadFromUDPAddrPort(buf)
-		if err != nil {
-			t.Fatal(err)
+	s := driveNode(t, loop, periods, nil, func(uint64) float64 { return 0.5 }, func(k uint64) []int64 {
+		switch {
+		case k%2 == 1:
+			return []int64{13}
+		case k%4 == 0:
+			return []int64{0, 0} // the second is a duplicate
 		}
-		k, tk, err := layout.ParseSample(buf[:n], y)
-		if err != nil {
-			t.Fatalf("sample %q: %v", buf[:n], err)
-		}
-		cmd := rig.AppendCommand(nil, k, tk, []float64{0.5})
-		if k%2 == 1 {
-			go func() {
-				time.Sleep(time.Duration(tk + 13*hNs/10 - rig.Now()))
-				ctl.WriteToUDPAddrPort(cmd, src)
-			}()
-			continue
-		}
-		ctl.WriteToUDPAddrPort(cmd, src)
-		if k%4 == 0 {
-			ctl.WriteToUDPAddrPort(cmd, src) // a duplicate
-		}
-	}
-	if err := <-done; err != nil {
-		t.Fatal(err)
-	}
-	s := node.Stats()
+		return []int64{0}
+	})
 	// The last odd command comes after the node has stopped reading. An
 	// immediate reply is late only if the host stalls for a period (a
 	// loaded machine): allow a few, and count duplicates only of applied
@@ -318,57 +287,21 @@ func FuzzRigDatagrams(f *testing.F) {
 // carries u = k, so the node's sample log replays exactly (replayLog).
 func TestRigActuatorHorizon(t *testing.T) {
 	loop := parseLoop(t, rulesLoop+"timing: {command_horizon: 3}\n")
-	ctl := udpLoopback(t)
 	const periods = 48
 	var log bytes.Buffer
-	node, err := rig.NewNode(rig.NodeConfig{Loop: loop, Relay: apOf(ctl), Periods: periods, Seed: 1, Log: &log})
-	if err != nil {
-		t.Fatal(err)
-	}
-	layout, err := rig.NewLayout(loop)
-	if err != nil {
-		t.Fatal(err)
-	}
-	done := make(chan error, 1)
-	go func() { done <- node.Run(context.Background()) }()
-	buf := make([]byte, 512)
-	y := make([]float64, 1)
-	hNs := int64(loop.Period * 1e9)
-	for i := 0; i < periods; i++ {
-		ctl.SetReadDeadline(time.Now().Add(5 * time.Second))
-		n, src, err := ctl.ReadFromUDPAddrPort(buf)
-		if err != nil {
-			t.Fatal(err)
-		}
-		k, tk, err := layout.ParseSample(buf[:n], y)
-		if err != nil {
-			t.Fatalf("sample %q: %v", buf[:n], err)
-		}
-		cmd := rig.AppendCommand(nil, k, tk, []float64{float64(k)})
-		var after int64 // tenths of a period after t_k
+	s := driveNode(t, loop, periods, &log, func(k uint64) float64 { return float64(k) }, func(k uint64) []int64 {
 		switch {
 		case k%4 == 0:
-			after = 12
+			return []int64{12}
 		case k%4 == 1:
-			after = 6
+			return []int64{6}
 		case k%8 == 6:
-			after = 32
+			return []int64{32}
 		case k%4 == 2:
-			after = 23
-		default:
-			ctl.WriteToUDPAddrPort(cmd, src)
-			ctl.WriteToUDPAddrPort(cmd, src) // a duplicate
-			continue
+			return []int64{23}
 		}
-		go func() {
-			time.Sleep(time.Duration(tk + after*hNs/10 - rig.Now()))
-			ctl.WriteToUDPAddrPort(cmd, src)
-		}()
-	}
-	if err := <-done; err != nil {
-		t.Fatal(err)
-	}
-	s := node.Stats()
+		return []int64{0, 0} // the second is a duplicate
+	})
 	// The end of the run cuts up to endCut of the 10 arrivals per cycle; a
 	// stalled host (a loaded machine) can push a reply past the next one
 	// or past its horizon, moving up to stall of them from applied to
@@ -524,4 +457,53 @@ func TestRigControllerSampleHorizon(t *testing.T) {
 	if s := ctl.Stats(); got[0] != 10 || got[1] != 12 || s.Used != 2 || s.Older != 1 || s.Duplicate != 0 || s.Stale != 1 {
 		t.Errorf("replies %v, stats %+v; want [10 12], used 2, older (overtaken) 1, stale 1", got, s)
 	}
+}
+
+// driveNode runs a node of loop for periods samples, writing its sample
+// log to log (nil: none), against a test controller on a loopback socket
+// that answers sample k with the command u(k) after each delay replies(k)
+// lists, in tenths of a period after t_k (0: at once, in order), and
+// returns the node's counts once it has stopped.
+func driveNode(t *testing.T, loop *profiles.Loop, periods int, log io.Writer, u func(k uint64) float64, replies func(k uint64) []int64) rig.NodeStats {
+	t.Helper()
+	ctl := udpLoopback(t)
+	node, err := rig.NewNode(rig.NodeConfig{Loop: loop, Relay: apOf(ctl), Periods: periods, Seed: 1, Log: log})
+	if err != nil {
+		t.Fatal(err)
+	}
+	layout, err := rig.NewLayout(loop)
+	if err != nil {
+		t.Fatal(err)
+	}
+	done := make(chan error, 1)
+	go func() { done <- node.Run(context.Background()) }()
+	buf := make([]byte, 512)
+	y := make([]float64, 1)
+	hNs := int64(loop.Period * 1e9)
+	for i := 0; i < periods; i++ {
+		ctl.SetReadDeadline(time.Now().Add(5 * time.Second))
+		n, src, err := ctl.ReadFromUDPAddrPort(buf)
+		if err != nil {
+			t.Fatal(err)
+		}
+		k, tk, err := layout.ParseSample(buf[:n], y)
+		if err != nil {
+			t.Fatalf("sample %q: %v", buf[:n], err)
+		}
+		cmd := rig.AppendCommand(nil, k, tk, []float64{u(k)})
+		for _, after := range replies(k) {
+			if after == 0 {
+				ctl.WriteToUDPAddrPort(cmd, src)
+				continue
+			}
+			go func() {
+				time.Sleep(time.Duration(tk + after*hNs/10 - rig.Now()))
+				ctl.WriteToUDPAddrPort(cmd, src)
+			}()
+		}
+	}
+	if err := <-done; err != nil {
+		t.Fatal(err)
+	}
+	return node.Stats()
 }
