@@ -9,7 +9,6 @@ import (
 
 	"rigwire/profiles"
 	"rigwire/profiles/laws"
-	"rigwire/profiles/markov"
 )
 
 // errChainTooLarge marks a loop whose exact long-delay chain exceeds
@@ -318,15 +317,6 @@ func (md *Model) stateProb(i int) float64 {
 // (estimate/model.md §13). Losses and the horizons are not counted; a law
 // without a mean gives +Inf.
 func MeanCommandAge(loop *profiles.Loop, scale float64) float64 {
-	mean := func(ch *markov.Channel) float64 {
-		pi := ch.Stationary()
-		m := 0.0
-		for i, s := range ch.States {
-			if pi[i] > 0 {
-				m += pi[i] * s.Delay.Mean()
-			}
-		}
-		return m
-	}
-	return scale*(mean(loop.Profile.SensorToController)+mean(loop.Profile.ControllerToActuator)) + loop.ComputeDelay
+	p := loop.Profile
+	return scale*(p.SensorToController.LongRunMeanDelay()+p.ControllerToActuator.LongRunMeanDelay()) + loop.ComputeDelay
 }

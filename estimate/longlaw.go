@@ -4,6 +4,8 @@ import (
 	"fmt"
 	"math"
 	"sort"
+
+	"rigwire/profiles/laws"
 )
 
 // The law of a command's total age on arrival, for the long-delay model
@@ -92,7 +94,7 @@ func newTotalLaw(sc, ca lawParts, h, c, top, onTime float64) (*totalLaw, error) 
 			mid := (p.lo + p.hi) / 2
 			work = append(work, chebPiece{lo: p.lo, hi: mid}, chebPiece{lo: mid, hi: p.hi})
 			if len(tl.pieces)+len(work) > maxCDFPieces {
-				return nil, fmt.Errorf("the law of the total delay τsc + c + τca cannot be resolved to %.0e in %d pieces on [0, %s]", cdfTol, maxCDFPieces, fmtSec(top))
+				return nil, fmt.Errorf("the law of the total delay τsc + c + τca cannot be resolved to %.0e in %d pieces on [0, %s]", cdfTol, maxCDFPieces, laws.FormatSeconds(top))
 			}
 			continue
 		}
@@ -251,5 +253,3 @@ func chebCumulative(n int) (cum [][]float64, w []float64) {
 	}
 	return cum, w
 }
-
-func fmtSec(x float64) string { return fmt.Sprintf("%.6gs", x) }

@@ -131,6 +131,21 @@ func (c *Channel) LongRunLoss() float64 {
 	return s
 }
 
+// LongRunMeanDelay is the mean delay of a datagram the channel keeps, in
+// the long run: Σ π_i E[delay | state i], the states weighted by their
+// stationary law (the loss is not counted). A state whose law has no mean
+// makes it +Inf.
+func (c *Channel) LongRunMeanDelay() float64 {
+	pi := c.Stationary()
+	s := 0.0
+	for i, st := range c.States {
+		if pi[i] > 0 {
+			s += pi[i] * st.Delay.Mean()
+		}
+	}
+	return s
+}
+
 // lossPairs returns, for datagrams sent every interval seconds with the
 // chain in its stationary law, P(L_k = 1) = π·ℓ, P(L_k = 1, L_k+1 = 1) =
 // π diag(ℓ) P ℓ and P(L_k = 1, L_k+1 = 0) = π diag(ℓ) P (1 − ℓ), where

@@ -123,6 +123,12 @@ func TestStationaryThreeState(t *testing.T) {
 	if got := c.LongRunLoss(); math.Abs(got-want) > 1e-15 {
 		t.Errorf("LongRunLoss = %v, want %v", got, want)
 	}
+	// The same weights on the delays' means (constant laws: their values).
+	c.States[0].Delay, c.States[1].Delay, c.States[2].Delay = laws.Constant{Value: 0.001}, laws.Constant{Value: 0.004}, laws.Constant{Value: 0.02}
+	wantDelay := pi[0]*0.001 + pi[1]*0.004 + pi[2]*0.02
+	if got := c.LongRunMeanDelay(); math.Abs(got-wantDelay) > 1e-15 {
+		t.Errorf("LongRunMeanDelay = %v, want %v", got, wantDelay)
+	}
 }
 
 // TestLossRuns checks MeanLossBurst and LagOneLoss on cases with closed
