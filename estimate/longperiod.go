@@ -222,6 +222,45 @@ func (pg *periodGrid) periodOutcomes(slots []slotLaw, nm int, gamma []float64) (
 		c1[k] = make([]float64, nm)
 		c2[k] = make([]float64, nm)
 	}
+	// condition sets As, Bt and the constant factor to the probability
+	// that D(s) = a, D(t) = b and D(h) = d*, for s < t, as a product over
+	// the slots of one factor each (the interval in which each must
+	// arrive): As the factors in s, Bt those in t, the slot b ≠ a —
+	// arrived in (s, t] — left out for the caller, who expands G_b(t) −
+	// G_b(s) (with b = a, slot a is judged at s alone). With b < 0 there
+	// is no condition at t: every factor goes into As.
+	condition := func(a, b, dstar int) float64 {
+		for k := range As {
+			As[k], Bt[k] = 1, 1
+		}
+		bt := Bt
+		if b < 0 {
+			bt = As
+		}
+		mul := func(dst []float64, f func(k int) float64) {
+			for k := range dst {
+				dst[k] *= f(k)
+			}
+		}
+		cst := 1.0
+		for e := 1; e < L; e++ {
+			switch {
+			case e == a:
+				mul(As, func(k int) float64 { return G(e, k) })
+			case e == b:
+				// arrived in (s, t]: G(t) − G(s), expanded by the caller
+			case e == dstar:
+				mul(bt, func(k int) float64 { return gh(e) - G(e, k) })
+			case newer(e, dstar):
+				cst *= 1 - gh(e)
+			case b >= 0 && newer(e, b):
+				mul(bt, func(k int) float64 { return 1 - G(e, k) })
+			case newer(e, a):
+				mul(As, func(k int) float64 { return 1 - G(e, k) })
+			}
+		}
+		return cst
+	}
 	var outs []outcome
 	total := 0.0
 	for dstar := 0; dstar < L; dstar++ {
@@ -241,28 +280,7 @@ func (pg *periodGrid) periodOutcomes(slots []slotLaw, nm int, gamma []float64) (
 			if newer(a, dstar) {
 				continue
 			}
-			cst := 1.0
-			for k := range As {
-				As[k] = 1
-			}
-			for e := 1; e < L; e++ {
-				switch {
-				case e == a:
-					for k := range As {
-						As[k] *= G(e, k)
-					}
-				case e == dstar:
-					for k := range As {
-						As[k] *= gh(e) - G(e, k)
-					}
-				case newer(e, dstar):
-					cst *= 1 - gh(e)
-				case newer(e, a):
-					for k := range As {
-						As[k] *= 1 - G(e, k)
-					}
-				}
-			}
+			cst := condition(a, -1, dstar)
 			for k := 0; k < N; k++ {
 				wk := pg.w[k] * As[k] * cst
 				for i, g := range pg.kern[k] {
@@ -284,34 +302,7 @@ func (pg *periodGrid) periodOutcomes(slots []slotLaw, nm int, gamma []float64) (
 				if a != b {
 					mixed = b
 				}
-				cst := 1.0
-				for k := range As {
-					As[k], Bt[k] = 1, 1
-				}
-				for e := 1; e < L; e++ {
-					switch {
-					case e == a:
-						for k := range As {
-							As[k] *= G(e, k)
-						}
-					case e == b:
-						// mixed: G(t) − G(s), expanded below
-					case e == dstar:
-						for k := range Bt {
-							Bt[k] *= gh(e) - G(e, k)
-						}
-					case newer(e, dstar):
-						cst *= 1 - gh(e)
-					case newer(e, b):
-						for k := range Bt {
-							Bt[k] *= 1 - G(e, k)
-						}
-					case newer(e, a):
-						for k := range As {
-							As[k] *= 1 - G(e, k)
-						}
-					}
-				}
+				cst := condition(a, b, dstar)
 				if cst == 0 {
 					continue
 				}
