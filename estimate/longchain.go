@@ -271,14 +271,9 @@ func (md *Model) buildLongChain(ly longLayout, per []thetaLaws) (*longChain, err
 	for d := 0; d < ly.na; d++ {
 		rows[d] = md.slotRows(ly, d)
 	}
-	gamma := append([]float64(nil), md.lm.samp.Gamma.RawMatrix().Data...)
-	if md.lm.samp.Gamma.RawMatrix().Stride != ly.m {
-		gamma = gamma[:0]
-		for i := 0; i < ly.n; i++ {
-			for j := 0; j < ly.m; j++ {
-				gamma = append(gamma, md.lm.samp.Gamma.At(i, j))
-			}
-		}
+	gamma := make([]float64, 0, ly.n*ly.m) // Γ row by row, as vec M_e
+	for r := 0; r < ly.n; r++ {
+		gamma = append(gamma, mat.Row(nil, r, md.lm.samp.Gamma)...)
 	}
 	nm := ly.n * ly.m
 	lc.groups = make([][]longGroup, N)
@@ -286,15 +281,16 @@ func (md *Model) buildLongChain(ly longLayout, per []thetaLaws) (*longChain, err
 		for th, tlw := range per {
 			byPart := map[int]*longGroup{}
 			var order []int
-			branches := []struct {
+			// A controller with memory splits the period on whether its
+			// sample is used; a static one need not (its command is a
+			// function of the sample alone).
+			type branch struct {
 				used bool
 				p    float64
-			}{{true, 1}}
+			}
+			branches := []branch{{true, 1}}
 			if !lc.lumped {
-				branches = []struct {
-					used bool
-					p    float64
-				}{{true, tlw.used}, {false, 1 - tlw.used}}
+				branches = []branch{{true, tlw.used}, {false, 1 - tlw.used}}
 			}
 			for _, br := range branches {
 				if br.p == 0 {
