@@ -24,9 +24,13 @@ import (
 // (empty for datagrams rejected before any draw); delay_s and due_s are
 // empty when no delay was drawn, release_s unless the datagram was
 // forwarded. Times carry nine decimals (nanoseconds).
-const RecordHeader = "# rigwire relay record v2\n" +
+const RecordHeader = RecordMagic + "2\n" +
 	"# times in seconds on the relay's monotonic clock since it started\n" +
 	"arrival_s,direction,state,decision,delay_s,due_s,release_s,arrival_seq\n"
+
+// RecordMagic begins the first line of every version of the record (its
+// version number follows): what tells a relay record from another file.
+const RecordMagic = "# rigwire relay record v"
 
 // RecordColumns are the record file's column names, in order.
 var RecordColumns = []string{"arrival_s", "direction", "state", "decision", "delay_s", "due_s", "release_s", "arrival_seq"}

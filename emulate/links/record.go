@@ -18,7 +18,7 @@ import (
 // up (commit): a start that fails leaves an earlier record as it was.
 //
 // The path may not name one of the run's input files, nor an existing file
-// that is not a record (its first line is not the record header's): a
+// that is not a record (its first line does not begin with the record magic): a
 // record never overwrites a profile, a trace or anything else by mistake.
 type recordFile struct {
 	path string
@@ -67,10 +67,8 @@ func checkRecordPath(path string, inputs []string) error {
 	defer f.Close()
 	first, _ := bufio.NewReader(io.LimitReader(f, 256)).ReadString('\n')
 	// Any version of the relay's record is the relay's own.
-	header, _, _ := strings.Cut(emulate.RecordHeader, "\n")
-	header = strings.TrimRight(header, "0123456789")
-	if !strings.HasPrefix(strings.TrimRight(first, "\r\n"), header) {
-		return fmt.Errorf("record %s: exists and is not a relay record (its first line is not %q); the relay overwrites only its own records: remove it or choose another path", path, header)
+	if !strings.HasPrefix(first, emulate.RecordMagic) {
+		return fmt.Errorf("record %s: exists and is not a relay record (its first line does not begin %q); the relay overwrites only its own records: remove it or choose another path", path, emulate.RecordMagic)
 	}
 	return nil
 }
