@@ -18,9 +18,18 @@ type packet struct {
 
 // schedule is a min-heap of pending packets keyed on due time, after the
 // container/heap priority-queue example, written out for *packet so that
-// pushes and pops neither box nor allocate. Ties are not ordered.
+// pushes and pops neither box nor allocate. Packets due at the same
+// instant leave in arrival order (a batch read at once shares one arrival
+// time, so a constant delay gives equal due times): a link that does not
+// reorder must not reorder them.
 type schedule struct {
 	h []*packet
+}
+
+// before says whether a leaves before b: earlier due time, then earlier
+// arrival.
+func before(a, b *packet) bool {
+	return a.due < b.due || (a.due == b.due && a.seq < b.seq)
 }
 
 func (s *schedule) len() int      { return len(s.h) }
@@ -31,7 +40,7 @@ func (s *schedule) push(p *packet) {
 	i := len(s.h) - 1
 	for i > 0 {
 		parent := (i - 1) / 2
-		if s.h[parent].due <= s.h[i].due {
+		if !before(s.h[i], s.h[parent]) {
 			break
 		}
 		s.h[parent], s.h[i] = s.h[i], s.h[parent]
@@ -52,10 +61,10 @@ func (s *schedule) pop() *packet {
 			break
 		}
 		m := l
-		if r := l + 1; r < n && s.h[r].due < s.h[l].due {
+		if r := l + 1; r < n && before(s.h[r], s.h[l]) {
 			m = r
 		}
-		if s.h[i].due <= s.h[m].due {
+		if !before(s.h[m], s.h[i]) {
 			break
 		}
 		s.h[i], s.h[m] = s.h[m], s.h[i]
