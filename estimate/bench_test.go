@@ -46,9 +46,9 @@ func bigLoop() *profiles.Loop {
 		Controller: profiles.Controller{
 			A: dense([]float64{1}), B: dense([]float64{0.01}), C: dense([]float64{0.5}), D: dense([]float64{0.8}),
 		},
-		Setpoint:     []float64{1},
-		ComputeDelay: 0.5 * ms,
-		Profile:      profile(twoState(3, 0.01, lg, 0.3, 0.3, ga), twoState(2, 0.01, ex, 0.2, 0.4, un)),
+		Setpoint: []float64{1},
+		Compute:  laws.Constant{Value: 0.5 * ms},
+		Profile:  profile(twoState(3, 0.01, lg, 0.3, 0.3, ga), twoState(2, 0.01, ex, 0.2, 0.4, un)),
 	}
 }
 

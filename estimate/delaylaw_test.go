@@ -134,19 +134,7 @@ func binom(n, k int) float64 {
 // command that made convolution.out is in its doc string).
 func TestTauRuleSciPy(t *testing.T) {
 	const sciTol = 1e-9 // relative; SciPy's nested quad asks 1e-12 to 1e-13
-	f, err := os.Open("testdata/reference/convolution.out")
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer f.Close()
-	want := map[string]float64{}
-	sc := bufio.NewScanner(f)
-	for sc.Scan() {
-		fs := strings.Fields(sc.Text())
-		if len(fs) == 2 && !strings.HasPrefix(fs[0], "#") {
-			want[fs[0]], _ = strconv.ParseFloat(fs[1], 64)
-		}
-	}
+	want := readNamedValues(t, "testdata/reference/convolution.out")
 	dsc := must(laws.NewLognormal(2*ms, 0.5, 0.5*ms))
 	dca := must(laws.NewGamma(2, 1*ms, 0))
 	const h, c = 8 * ms, 1 * ms
@@ -166,6 +154,31 @@ func TestTauRuleSciPy(t *testing.T) {
 			t.Errorf("E[Sᵏ; S < 7ms], k=%d: rule %.15g, SciPy %.15g", k, got, w)
 		}
 	}
+}
+
+// readNamedValues reads a reference file's "name value" lines ("#"
+// lines are comments).
+func readNamedValues(t *testing.T, path string) map[string]float64 {
+	t.Helper()
+	f, err := os.Open(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer f.Close()
+	want := map[string]float64{}
+	sc := bufio.NewScanner(f)
+	for sc.Scan() {
+		fs := strings.Fields(sc.Text())
+		if len(fs) != 2 || strings.HasPrefix(fs[0], "#") {
+			continue
+		}
+		v, err := strconv.ParseFloat(fs[1], 64)
+		if err != nil {
+			t.Fatalf("%s: %s: %v", path, fs[0], err)
+		}
+		want[fs[0]] = v
+	}
+	return want
 }
 
 // TestTauRuleManyAtoms checks the Chebyshev path for resampled

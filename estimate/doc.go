@@ -44,7 +44,13 @@
 //     J. P. How (ACC 2000: the age of the applied information as the jump
 //     variable), J. P. Hespanha, P. Naghshtabrizi and Y. Xu (Proc. IEEE
 //     95(1), 2007: long delays, reordering, newest-first), and Costa,
-//     Fragoso and Marques (2005) for the moments.
+//     Fragoso and Marques (2005) for the moments;
+//   - §14 a compute delay drawn from a law: only c + τca matters to
+//     either model, so the law's varying part is convolved into the
+//     command direction's delay (sumlaw.go) and both models run on it
+//     unchanged; the convolution of independent laws as in W. Feller,
+//     An Introduction to Probability Theory and Its Applications, vol. II
+//     (1971), §V.4.
 //
 // Entry points: [Predict] for the prediction, [Build] for the model itself
 // ([Model.Transient] for a step response, [Model.Radius]), [Sweep] for a

@@ -83,8 +83,8 @@ func servo(prof *profiles.Profile, c float64) *profiles.Loop {
 			A: dense([]float64{1}), B: dense([]float64{0.01}),
 			C: dense([]float64{5}), D: dense([]float64{12}),
 		},
-		Setpoint:     []float64{0.5},
-		ComputeDelay: c,
-		Profile:      prof,
+		Setpoint: []float64{0.5},
+		Compute:  laws.Constant{Value: c},
+		Profile:  prof,
 	}
 }

@@ -94,6 +94,14 @@ func (lp *lawParts) add(d laws.Delay, w, scale, shift float64) error {
 		return lp.add(x.d, w, scale*x.s, shift)
 	case *trace.Replay:
 		return lp.add(x.Delay, w, scale, shift)
+	case *sumLaw:
+		for _, a := range x.parts.atoms {
+			lp.atoms = append(lp.atoms, laws.Atom{At: shift + scale*a.At, Mass: w * a.Mass})
+		}
+		for _, p := range x.parts.pieces {
+			lp.pieces = append(lp.pieces, piece{w: w * p.w, scale: scale * p.scale, shift: shift + scale*p.shift, base: p.base})
+		}
+		return nil
 	}
 	atoms := d.Atoms()
 	mass := 0.0
@@ -142,8 +150,13 @@ func (lp *lawParts) probSumBelow(y, b float64) float64 {
 	return s
 }
 
-// features lists where the law's parts begin and end and its atoms: the
-// points where an integrand built on its CDF may kink or jump.
+// interiorFeatures is a piece's law with points inside its support where
+// its CDF may kink or be singular (a convolution: sumlaw.go).
+type interiorFeatures interface{ interior() []float64 }
+
+// features lists where the law's parts begin and end, their interior
+// kinks and its atoms: the points where an integrand built on its CDF may
+// kink or jump.
 func (lp *lawParts) features() []float64 {
 	var out []float64
 	for _, a := range lp.atoms {
@@ -154,6 +167,11 @@ func (lp *lawParts) features() []float64 {
 		out = append(out, lo)
 		if !math.IsInf(hi, 1) {
 			out = append(out, hi)
+		}
+		if k, ok := p.base.(interiorFeatures); ok {
+			for _, x := range k.interior() {
+				out = append(out, p.shift+p.scale*x)
+			}
 		}
 	}
 	return out

@@ -45,8 +45,11 @@ func (md *Model) buildLong(na int) error {
 	for i, s := range sc.States {
 		for j, a := range ca.States {
 			dsc := scaleDelay(s.Delay, opts.DelayScale)
-			dca := scaleDelay(a.Delay, opts.DelayScale)
 			js := JointState{Name: stateName(sc, i) + "/" + stateName(ca, j)}
+			dca, err := md.commandLaw(j, a.Delay, float64(na)*h)
+			if err != nil {
+				return fmt.Errorf("network state %s: %w", js.Name, err)
+			}
 			js.baseSC, js.baseCA = s.Loss, a.Loss
 			js.LossSC = s.Loss + (1-s.Loss)*q
 			js.LossCA = a.Loss + (1-a.Loss)*q
@@ -64,7 +67,7 @@ func (md *Model) buildLong(na int) error {
 			if k >= len(md.longLaws) {
 				// The arrival laws do not depend on the losses: built once,
 				// kept for rebuilds at another extra loss (setLoss).
-				tl, err := newTotalLaw(psc, pca, h, loop.ComputeDelay, top, js.OnTimeSC)
+				tl, err := newTotalLaw(psc, pca, h, loop.ComputeFloor(), top, js.OnTimeSC)
 				if err != nil {
 					return fmt.Errorf("network state %s: %w", js.Name, err)
 				}
@@ -312,11 +315,11 @@ func (md *Model) stateProb(i int) float64 {
 }
 
 // MeanCommandAge is the long-run mean age of a command on arrival,
-// E[τsc] + c + E[τca] in seconds, with every network delay multiplied by
+// E[τsc] + E[c] + E[τca] in seconds, with every network delay multiplied by
 // scale (a --vary delay_scale point): what a delay scale means in periods
 // (estimate/model.md §13). Losses and the horizons are not counted; a law
 // without a mean gives +Inf.
 func MeanCommandAge(loop *profiles.Loop, scale float64) float64 {
 	p := loop.Profile
-	return scale*(p.SensorToController.LongRunMeanDelay()+p.ControllerToActuator.LongRunMeanDelay()) + loop.ComputeDelay
+	return scale*(p.SensorToController.LongRunMeanDelay()+p.ControllerToActuator.LongRunMeanDelay()) + loop.ComputeMean()
 }

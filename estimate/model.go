@@ -42,8 +42,9 @@ type Model struct {
 	// the law of the chain's states and thetaPi that of the network's.
 	long     *longChain
 	thetaPi  []float64
-	longLaws []thetaLaws // per network state: arrival law and grid, kept across rebuilds
-	buildErr error       // a rebuild at another extra loss failed
+	longLaws []thetaLaws  // per network state: arrival law and grid, kept across rebuilds
+	cmdLaws  []laws.Delay // per command-direction state: its delay plus the compute delay's varying part
+	buildErr error        // a rebuild at another extra loss failed
 }
 
 // JointState is one state of the joint chain (sensor direction state,
@@ -160,17 +161,20 @@ func (md *Model) buildModes() (*Model, error) {
 		}
 		return md, nil
 	}
-	deg := chebDegree(samp, loop.ComputeDelay)
+	c0 := loop.ComputeFloor()
+	deg := chebDegree(samp, c0)
 	cache := map[float64]mode{} // m2 at each distinct τ, shared between states
 	for i, s := range sc.States {
 		for j, a := range ca.States {
 			dsc := scaleDelay(s.Delay, opts.DelayScale)
-			dca := scaleDelay(a.Delay, opts.DelayScale)
 			js := JointState{Name: stateName(sc, i) + "/" + stateName(ca, j)}
+			dca, err := md.commandLaw(j, a.Delay, h)
+			if err != nil {
+				return nil, fmt.Errorf("network state %s: %w", js.Name, err)
+			}
 			js.baseSC, js.baseCA = s.Loss, a.Loss
 			js.OnTimeSC = laws.ProbBelow(dsc, h)
-			var err error
-			if js.nodes, err = tauRule(dsc, dca, h, loop.ComputeDelay, deg); err != nil {
+			if js.nodes, err = tauRule(dsc, dca, h, c0, deg); err != nil {
 				return nil, fmt.Errorf("network state %s: %w", js.Name, err)
 			}
 			for _, nd := range js.nodes {
@@ -195,6 +199,31 @@ func (md *Model) buildModes() (*Model, error) {
 	}
 	md.setLoss(opts.ExtraLoss)
 	return md, nil
+}
+
+// commandLaw is the delay from the controller's receipt of a sample to
+// the actuator's receipt of its command, less the compute delay's lowest
+// value c₀ (which the models carry as a shift): the command direction's
+// delay in its state j, scaled by the delay scale, plus c − c₀ when the
+// compute delay varies (sumlaw.go, estimate/model.md §14). limit is the
+// command horizon. Built once per state and model.
+func (md *Model) commandLaw(j int, d laws.Delay, limit float64) (laws.Delay, error) {
+	loop := md.Loop
+	d = scaleDelay(d, md.opts.DelayScale)
+	if loop.ComputeConstant() {
+		return d, nil
+	}
+	if md.cmdLaws == nil {
+		md.cmdLaws = make([]laws.Delay, len(loop.Profile.ControllerToActuator.States))
+	}
+	if md.cmdLaws[j] == nil {
+		s, err := addLaws(loop.Compute, -loop.ComputeFloor(), d, limit)
+		if err != nil {
+			return nil, fmt.Errorf("controller_to_actuator: %w", err)
+		}
+		md.cmdLaws[j] = s
+	}
+	return md.cmdLaws[j], nil
 }
 
 // stateName is a channel state's name, "iid" for a one-state channel

@@ -98,9 +98,9 @@ func octaveLoops() map[string]struct {
 			W: dense([]float64{0.1, 0, 0}, []float64{0, 0.1, 0}, []float64{0, 0, 0.2}),
 			V: dense([]float64{1e-4, 0}, []float64{0, 2e-4}),
 		},
-		Controller:   profiles.Controller{D: dense([]float64{0.5, 0}, []float64{0, 0.8})},
-		Setpoint:     []float64{1, -0.5},
-		ComputeDelay: 0.005,
+		Controller: profiles.Controller{D: dense([]float64{0.5, 0}, []float64{0, 0.8})},
+		Setpoint:   []float64{1, -0.5},
+		Compute:    laws.Constant{Value: 0.005},
 		Profile: profile(iidChannel(0, laws.Constant{Value: 0.01}),
 			iidChannel(0, laws.Constant{Value: 0.005})),
 	}

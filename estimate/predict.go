@@ -229,14 +229,14 @@ func (md *Model) baseStates() []StateReport {
 	for i, s := range sc.States {
 		for j, a := range ca.States {
 			dsc := scaleDelay(s.Delay, md.opts.DelayScale)
-			dca := scaleDelay(a.Delay, md.opts.DelayScale)
 			st := StateReport{Name: stateName(sc, i) + "/" + stateName(ca, j), MeanDelay: math.NaN()}
+			dca, cerr := md.commandLaw(j, a.Delay, float64(na)*h)
 			st.LossSC, st.LossCA = s.Loss+(1-s.Loss)*q, a.Loss+(1-a.Loss)*q
 			onTime := laws.ProbBelow(dsc, float64(ns)*h)
 			st.P0 = 1 - (1-st.LossSC)*onTime
-			if psc, err := splitLaw(dsc); err == nil {
+			if psc, err := splitLaw(dsc); err == nil && cerr == nil {
 				if pca, err := splitLaw(dca); err == nil {
-					tl := &totalLaw{sc: psc, ca: pca, h: float64(ns) * h, c: loop.ComputeDelay, top: float64(na) * h, onTime: onTime, q: newTauIntegrator(1)}
+					tl := &totalLaw{sc: psc, ca: pca, h: float64(ns) * h, c: loop.ComputeFloor(), top: float64(na) * h, onTime: onTime, q: newTauIntegrator(1)}
 					st.P2 = (1 - st.P0) * (1 - st.LossCA) * tl.cdf(float64(na)*h, true)
 				}
 			}

@@ -147,7 +147,8 @@ func Simulate(loop *profiles.Loop, opts SimOptions) (*SimResult, error) {
 type simulator struct {
 	md             *Model
 	n, m, p, nc    int
-	h, c           float64
+	h              float64
+	comp           laws.Delay // the compute delay c, drawn for every command
 	zero           bool
 	phi, gam       *mat.Dense
 	cp             *mat.Dense
@@ -167,11 +168,14 @@ type simulator struct {
 func newSimulator(md *Model) *simulator {
 	l := md.Loop
 	n, m, p, nc := l.Dims()
-	s := &simulator{md: md, n: n, m: m, p: p, nc: nc, h: l.Period, c: l.ComputeDelay,
+	s := &simulator{md: md, n: n, m: m, p: p, nc: nc, h: l.Period, comp: l.Compute,
 		zero: l.Actuator.OnLoss == profiles.ZeroUnlessFresh,
 		phi:  md.lm.samp.Phi, gam: md.lm.samp.Gamma, cp: l.Plant.C,
 		ctl: l.Controller,
 		r:   l.Setpoint, split: map[float64][2]*mat.Dense{},
+	}
+	if s.comp == nil {
+		s.comp = laws.Constant{Value: 0}
 	}
 	s.wFac = simstep.Factor(md.lm.samp.Wd)
 	s.vFac = simstep.Factor(l.Plant.V)
@@ -263,7 +267,7 @@ func (s *simulator) run(rng *rand.Rand, periods, warmup int, path *[]PathPoint, 
 				// u_k = Cc xc + Dc e; xc' = Ac xc + Bc e.
 				simstep.Controller(s.ctl, xc, xcn, e, u)
 				if rng.Float64() >= s.lossCA[ica] {
-					t := tsc + s.delayCA[ica].Sample(rng) + s.c
+					t := tsc + s.delayCA[ica].Sample(rng) + s.comp.Sample(rng)
 					if t < s.h {
 						mode, tau = 2, t
 					}

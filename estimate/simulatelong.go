@@ -91,7 +91,7 @@ func (s *simulator) runLong(rng *rand.Rand, periods, warmup, ns, na int, errSum 
 			u := make([]float64, m)
 			simstep.Controller(s.ctl, xc, xcn, f.val, u)
 			if rng.Float64() >= s.lossCA[ica] {
-				if tau := f.tau + s.c + s.delayCA[ica].Sample(rng); tau < float64(na)*h {
+				if tau := f.tau + s.comp.Sample(rng) + s.delayCA[ica].Sample(rng); tau < float64(na)*h {
 					lr.commands = addFlight(lr.commands, f.seq, tau, u, h)
 				}
 			}

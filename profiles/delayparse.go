@@ -109,6 +109,18 @@ func ParseDelay(f yamlpos.Field, dir string) (laws.Delay, error) {
 	return parseDelay(f, dir, 0)
 }
 
+// ParseDelayText reads a delay law written on one line, in the profile
+// format's YAML ("4ms", "{kind: gamma, shape: 4, scale: 0.5ms}"), as a
+// command-line flag gives it: what names the flag in errors, dir resolves
+// an empirical file's relative path.
+func ParseDelayText(text, what, dir string) (laws.Delay, error) {
+	root, err := yamlpos.Document(what, []byte(text))
+	if err != nil {
+		return nil, err
+	}
+	return ParseDelay(root, dir)
+}
+
 func parseDelay(f yamlpos.Field, dir string, depth int) (laws.Delay, error) {
 	d, _, err := parseDelayExtra(f, dir, depth)
 	return d, err

@@ -3,6 +3,7 @@ package profiles
 import (
 	"rigwire/emulate/trip"
 	"rigwire/profiles/datagram"
+	"rigwire/profiles/laws"
 
 	"gonum.org/v1/gonum/mat"
 )
@@ -15,7 +16,7 @@ import (
 //
 //	Plant.A n×n, Plant.B n×m, Plant.C p×n, Plant.W n×n, Plant.V p×p,
 //	Controller.A nc×nc, Controller.B nc×p, Controller.C m×nc, Controller.D m×p,
-//	len(Setpoint) = p, 0 ≤ ComputeDelay < Period.
+//	len(Setpoint) = p, Compute non-nil with its lowest value in [0, Period).
 //
 // A static controller (u = D e) has nc = 0 and nil A, B, C.
 type Loop struct {
@@ -27,8 +28,12 @@ type Loop struct {
 	Controller Controller
 	// Setpoint is the constant reference r (p entries; zeros by default).
 	Setpoint []float64
-	// ComputeDelay is the fixed delay c added to every command, seconds.
-	ComputeDelay float64
+	// Compute is the law of c, the controller's computing time and any
+	// stack latency the rig adds, drawn afresh for every command and added
+	// to its delay (key compute_delay: a duration for a constant, or any
+	// delay law of the profile format). Never nil; a constant 0 by
+	// default. ComputeFloor and ComputeConstant read it.
+	Compute laws.Delay
 	// Profile is the network the loop runs over; never nil.
 	Profile *Profile
 	// ProfileFile is the resolved path of the profile file, "" when the
@@ -141,4 +146,32 @@ func (l *Loop) Dims() (n, m, p, nc int) {
 		nc, _ = l.Controller.A.Dims()
 	}
 	return n, m, p, nc
+}
+
+// ComputeFloor is the lowest value of the compute law: its constant part,
+// the whole of it when it is a constant.
+func (l *Loop) ComputeFloor() float64 {
+	if l.Compute == nil {
+		return 0
+	}
+	lo, _ := l.Compute.Support()
+	return lo
+}
+
+// ComputeConstant says whether the compute law is one value (c =
+// ComputeFloor for every command).
+func (l *Loop) ComputeConstant() bool {
+	if l.Compute == nil {
+		return true
+	}
+	lo, hi := l.Compute.Support()
+	return lo == hi
+}
+
+// ComputeMean is the compute law's mean, E[c].
+func (l *Loop) ComputeMean() float64 {
+	if l.Compute == nil {
+		return 0
+	}
+	return l.Compute.Mean()
 }

@@ -17,6 +17,8 @@ var loopErrors = map[string]string{
 	"actuator-policy.bad.yaml":       `:4: actuator.on_loss: want hold or zero, got "brake"`,
 	"asymmetric-noise.bad.yaml":      `:6: plant.process_noise: want a symmetric matrix, got [0][1] = 0.5 but [1][0] = 0.2`,
 	"compute-delay.bad.yaml":         `:4: compute_delay: want a duration below the period (10ms), got "10ms"`,
+	"compute-law-late.bad.yaml":      `:4: compute_delay: want a law whose lowest value is below the period (10ms), got uniform 12ms…14ms, lowest 12ms`,
+	"compute-law-shape.bad.yaml":     `:6: compute_delay.shape: want a number in [0.1, 10000], got "-2"`,
 	"controller-b.bad.yaml":          `:5: controller.b: want 2×1, got 1×1`,
 	"controller-partial.bad.yaml":    `:3: controller: want a, b and c together (a dynamic controller), got no b`,
 	"decode-format.bad.yaml":         `:5: decode.format: want text or binary, got "json"`,
@@ -93,7 +95,7 @@ func TestLoadLoopGood(t *testing.T) {
 		got, want float64
 	}{
 		{"period", l.Period, 0.01},
-		{"compute_delay", l.ComputeDelay, 0.0005},
+		{"compute_delay", l.ComputeFloor(), 0.0005},
 		{"plant.a[1][1]", l.Plant.A.At(1, 1), -2},
 		{"plant.process_noise[1][1]", l.Plant.W.At(1, 1), 0.04},
 		{"plant.sensor_noise", l.Plant.V.At(0, 0), 1e-6},
@@ -161,8 +163,8 @@ func FuzzParseLoop(f *testing.F) {
 				t.Errorf("controller.b %d×%d", r, c)
 			}
 		}
-		if !(l.Period > 0) || l.ComputeDelay < 0 || l.ComputeDelay >= l.Period || l.Profile == nil {
-			t.Errorf("period %g compute delay %g", l.Period, l.ComputeDelay)
+		if !(l.Period > 0) || l.ComputeFloor() < 0 || l.ComputeFloor() >= l.Period || l.Profile == nil {
+			t.Errorf("period %g compute delay %g", l.Period, l.ComputeFloor())
 		}
 	})
 }
@@ -191,5 +193,31 @@ func TestLoopTiming(t *testing.T) {
 				t.Errorf("horizons %d, %d; want %d, %d", ns, na, tc.ns, tc.na)
 			}
 		})
+	}
+}
+
+// TestLoadLoopComputeLaw: compute_delay takes any delay law of the
+// profile format; the loop keeps the law, its floor (lowest value) and
+// mean, and a duration stays a constant.
+func TestLoadLoopComputeLaw(t *testing.T) {
+	l, err := LoadLoop("testdata/loops/compute-law.yaml")
+	if err != nil {
+		t.Fatal(err)
+	}
+	if l.ComputeConstant() {
+		t.Errorf("a gamma compute law taken as a constant")
+	}
+	if got := l.ComputeFloor(); got != 0.0003 {
+		t.Errorf("floor %g, want the shift 0.3ms", got)
+	}
+	if got, want := l.ComputeMean(), 0.0003+4*0.0005; math.Abs(got-want) > 1e-15 {
+		t.Errorf("mean %g, want %g", got, want)
+	}
+	g, err := LoadLoop("testdata/loops/good.yaml")
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !g.ComputeConstant() || g.ComputeFloor() != 0.0005 || g.ComputeMean() != 0.0005 {
+		t.Errorf("good.yaml: compute %v: want the constant 0.5ms", g.Compute)
 	}
 }

@@ -80,15 +80,13 @@ func parseLoop(root yamlpos.Field, dir string) (*Loop, error) {
 		}
 		l.Setpoint = v
 	}
+	l.Compute = laws.Constant{Value: 0}
 	if f := keys["compute_delay"]; !f.IsNull() {
-		c, err := f.DurationIn(0, math.Inf(1))
+		c, err := parseCompute(f, dir, l.Period)
 		if err != nil {
 			return nil, err
 		}
-		if c >= l.Period {
-			return nil, f.Errorf("want a duration below the period (%s), got %s", laws.FormatSeconds(l.Period), f.Got())
-		}
-		l.ComputeDelay = c
+		l.Compute = c
 	}
 	pf := keys["profile"]
 	switch {
@@ -322,4 +320,28 @@ func parseTiming(f yamlpos.Field, l *Loop) error {
 	}
 	l.Timing = Timing{SampleHorizon: ns, CommandHorizon: na}
 	return nil
+}
+
+// parseCompute reads compute_delay: a duration (a constant, as it always
+// was) or any delay law of the profile format. Its lowest value must be
+// below the period; a law that reaches beyond it makes those commands late.
+func parseCompute(f yamlpos.Field, dir string, period float64) (laws.Delay, error) {
+	if f.Node != nil && f.Node.Kind == yaml.ScalarNode {
+		c, err := f.DurationIn(0, math.Inf(1))
+		if err != nil {
+			return nil, err
+		}
+		if c >= period {
+			return nil, f.Errorf("want a duration below the period (%s), got %s", laws.FormatSeconds(period), f.Got())
+		}
+		return laws.Constant{Value: c}, nil
+	}
+	d, err := ParseDelay(f, dir)
+	if err != nil {
+		return nil, err
+	}
+	if lo, _ := d.Support(); lo >= period {
+		return nil, f.Errorf("want a law whose lowest value is below the period (%s), got %s, lowest %s", laws.FormatSeconds(period), laws.Describe(d), laws.FormatSeconds(lo))
+	}
+	return d, nil
 }
