@@ -10,7 +10,9 @@ import (
 	"rigwire/cmd/internal/exitcode"
 	"rigwire/emulate/rig"
 	"rigwire/emulate/trip"
+	"rigwire/estimate/report"
 	"rigwire/profiles"
+	"rigwire/profiles/laws"
 )
 
 // rigCaution is printed by the simulated rig's commands before they start.
@@ -123,21 +125,47 @@ func cmdRigController(args []string, stderr io.Writer) error {
 	var listen cli.AddrFlag
 	fs.Var(&listen, "listen", "`HOST:PORT` where samples arrive (required)")
 	start := fs.String("start", "steady", "controller state at start: steady (the predicted mean) or rest")
+	computeText := fs.String("compute", "", "draw the controller's computing time for every sample from `LAW` (a duration or a delay law in the profile format, e.g. \"{kind: gamma, shape: 4, scale: 0.5ms}\"; default: the loop's compute_delay): a slow, jittery controller the loop file does not know about")
+	seed := fs.Uint64("seed", 1, "seed of the computing-time draws")
+	logPath := fs.String("log", "", "write one CSV line per command sent to `FILE`: seq,arrival_s,sent_s,compute_s")
 	loop, st, log, err := rigSetup(fs, args, loopPath, start, "listen", &listen, stderr)
 	if err != nil {
 		return err
 	}
-	ctl, err := rig.NewController(rig.ControllerConfig{Loop: loop, Listen: listen.Addr, Start: st, Logger: log})
+	cfg := rig.ControllerConfig{Loop: loop, Listen: listen.Addr, Start: st, Logger: log, Seed: *seed}
+	if *computeText != "" {
+		if cfg.Compute, err = profiles.ParseDelayText(*computeText, "--compute", "."); err != nil {
+			return err
+		}
+	}
+	var logFile *os.File
+	if *logPath != "" {
+		if logFile, err = os.Create(*logPath); err != nil {
+			return fmt.Errorf("--log: %w", err)
+		}
+		defer logFile.Close()
+		cfg.Log = logFile
+	}
+	ctl, err := rig.NewController(cfg)
 	if err != nil {
 		return err
 	}
+	comp := report.ComputeText(loop)
+	if cfg.Compute != nil {
+		comp = laws.Describe(cfg.Compute) + " (--compute; the loop file says " + comp + ")"
+	}
 	fmt.Fprint(stderr, cautions(rigCaution))
 	log.Info("rig controller running", "loop", loop.File, "listen", ctl.LocalAddr().String(),
-		"compute_delay", loop.ComputeDelay, "start", *start)
+		"compute_delay", comp, "start", *start)
 	ctx, cancel := cli.SignalContext()
 	defer cancel()
 	if err := ctl.Run(ctx); err != nil {
 		return err
+	}
+	if logFile != nil {
+		if err := logFile.Close(); err != nil {
+			return fmt.Errorf("--log: %w", err)
+		}
 	}
 	s := ctl.Stats()
 	log.Info("rig controller stopped", "used", s.Used, "stale", s.Stale, "duplicate", s.Duplicate, "older", s.Older,

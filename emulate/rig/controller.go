@@ -1,19 +1,24 @@
 package rig
 
 import (
+	"bufio"
 	"context"
 	"errors"
 	"fmt"
+	"io"
 	"log/slog"
+	"math/rand/v2"
 	"net"
 	"net/netip"
 	"runtime"
+	"strconv"
 	"sync"
 	"time"
 
 	"rigwire/emulate/internal/timer"
 	"rigwire/estimate/simstep"
 	"rigwire/profiles"
+	"rigwire/profiles/laws"
 )
 
 // ControllerConfig is what a Controller needs. Loop is required.
@@ -25,7 +30,23 @@ type ControllerConfig struct {
 	// Start.XC is the initial controller state (nil: zeros).
 	Start  Start
 	Logger *slog.Logger
+	// Compute is the law of the controller's computing time, drawn afresh
+	// for every sample (nil: the loop's compute_delay). A rig whose
+	// computing time differs from what its loop file says is how the
+	// bench's calibration is tested: a slow, jittery controller.
+	Compute laws.Delay
+	// Seed seeds the computing-time draws.
+	Seed uint64
+	// Log, when set, receives one CSV line per command sent
+	// (ControllerLogHeader): the controller's own account of its timing.
+	Log io.Writer
 }
+
+// ControllerLogHeader heads the controller's log: per command, the
+// sample's sequence number, its arrival at the controller, the command's
+// send time (both seconds on the rig clock, Now) and the computing time
+// drawn.
+const ControllerLogHeader = "seq,arrival_s,sent_s,compute_s\n"
 
 // ControllerStats count what the controller did.
 type ControllerStats struct {
@@ -45,8 +66,9 @@ type ControllerStats struct {
 //
 //	u_k = Cc xc + Dc e_k,   xc ← Ac xc + Bc e_k,
 //
-// waits until T + c (the loop's compute_delay, honoured on a timerfd and a
-// short spin rather than folded into the network delays) and sends
+// waits until T + c (c drawn for this sample from the loop's compute_delay
+// or the configured Compute law, honoured on a timerfd and a short spin
+// rather than folded into the network delays) and sends
 // "k,t_k,u_k" back to the sample's source. Its own stack and compute
 // latency, a few tens of microseconds, add to τ (estimate/model.md §10).
 type Controller struct {
@@ -56,7 +78,9 @@ type Controller struct {
 	rx     receiver
 	layout Layout
 	nsNs   int64 // the sample horizon, Ns·h
-	cNs    int64
+	comp   laws.Delay
+	rng    *rand.Rand
+	logw   *bufio.Writer
 
 	mu    sync.Mutex
 	stats ControllerStats // guarded by mu
@@ -86,8 +110,20 @@ func NewController(cfg ControllerConfig) (*Controller, error) {
 		return nil, fmt.Errorf("rig controller: %w", err)
 	}
 	ns, _ := cfg.Loop.Horizons()
-	return &Controller{cfg: cfg, log: cfg.Logger, conn: conn, rx: newReceiver(conn), layout: layout,
-		nsNs: int64(ns) * int64(cfg.Loop.Period*1e9+0.5), cNs: int64(cfg.Loop.ComputeDelay*1e9 + 0.5)}, nil
+	c := &Controller{cfg: cfg, log: cfg.Logger, conn: conn, rx: newReceiver(conn), layout: layout,
+		nsNs: int64(ns) * int64(cfg.Loop.Period*1e9+0.5), comp: cfg.Compute,
+		rng: rand.New(rand.NewPCG(cfg.Seed, 0x636f6d70))}
+	if c.comp == nil {
+		c.comp = cfg.Loop.Compute
+	}
+	if c.comp == nil {
+		c.comp = laws.Constant{Value: 0}
+	}
+	if cfg.Log != nil {
+		c.logw = bufio.NewWriter(cfg.Log)
+		c.logw.WriteString(ControllerLogHeader)
+	}
+	return c, nil
 }
 
 // LocalAddr is where the controller listens.
@@ -122,6 +158,11 @@ func (c *Controller) Run(ctx context.Context) error {
 		c.rx.halt()
 	}()
 	err = c.serveLoop(w)
+	if c.logw != nil {
+		if ferr := c.logw.Flush(); ferr != nil && err == nil {
+			err = fmt.Errorf("rig controller: log: %w", ferr)
+		}
+	}
 	close(done)
 	w.Close()
 	c.rx.close()
@@ -141,6 +182,7 @@ func (c *Controller) serveLoop(w timer.Waiter) error {
 	y, e, u := make([]float64, p), make([]float64, p), make([]float64, m)
 	buf := make([]byte, 4096)
 	out := make([]byte, 0, 256)
+	var logBuf []byte
 	last := int64(-1)
 	for {
 		n, src, err := c.rx.recv(buf)
@@ -186,10 +228,24 @@ func (c *Controller) serveLoop(w timer.Waiter) error {
 		}
 		simstep.Controller(l.Controller, xc, xcn, e, u)
 		out = AppendCommand(out[:0], k, tk, u)
-		if c.cNs > 0 {
-			sleepUntil(w, arrival+c.cNs)
+		comp := c.comp.Sample(c.rng)
+		if cNs := int64(comp*1e9 + 0.5); cNs > 0 {
+			sleepUntil(w, arrival+cNs)
 		}
 		_, err = c.conn.WriteToUDPAddrPort(out, src)
+		if c.logw != nil {
+			sent := Now()
+			lb := strconv.AppendUint(logBuf[:0], k, 10)
+			lb = append(lb, ',')
+			lb = appendSeconds(lb, arrival)
+			lb = append(lb, ',')
+			lb = appendSeconds(lb, sent)
+			lb = append(lb, ',')
+			lb = strconv.AppendFloat(lb, comp, 'g', 9, 64)
+			lb = append(lb, '\n')
+			logBuf = lb
+			c.logw.Write(lb)
+		}
 		c.mu.Lock()
 		if err != nil {
 			c.stats.SendError++

@@ -129,8 +129,8 @@ func TestRigControllerRules(t *testing.T) {
 			if k != tc.k || gotTk != tk || u[0] != want {
 				t.Errorf("reply k=%d t=%d u=%g, want k=%d t=%d u=%g", k, gotTk, u[0], tc.k, tk, want)
 			}
-			if d := got - sent; d < int64(loop.ComputeDelay*1e9) {
-				t.Errorf("reply after %dns, before the compute delay %gs", d, loop.ComputeDelay)
+			if d := got - sent; d < int64(loop.ComputeFloor()*1e9) {
+				t.Errorf("reply after %dns, before the compute delay %gs", d, loop.ComputeFloor())
 			}
 		})
 	}

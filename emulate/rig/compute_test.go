@@ -1,0 +1,87 @@
+package rig_test
+
+import (
+	"bytes"
+	"context"
+	"sort"
+	"strconv"
+	"strings"
+	"testing"
+	"time"
+
+	"rigwire/emulate/rig"
+	"rigwire/profiles/laws"
+)
+
+// TestRigControllerJitteryCompute runs the controller with a computing
+// time drawn from a gamma law (mean 2 ms, the slow, jittery controller
+// the calibration is tested with) and its log: one line per command,
+// each command sent no sooner than its drawn computing time after its
+// sample arrived and, on an idle loopback, within a millisecond of it;
+// and the drawn times follow the law (Kolmogorov–Smirnov at α = 0.001;
+// A. N. Kolmogorov 1933, N. Smirnov 1948, the statistic's law as
+// profiles/laws/ks.go computes it).
+func TestRigControllerJitteryCompute(t *testing.T) {
+	loop := parseLoop(t, rulesLoop)
+	law, err := laws.NewGamma(4, 0.0005, 0)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var logBuf bytes.Buffer
+	ctl, err := rig.NewController(rig.ControllerConfig{Loop: loop, Compute: law, Seed: 9, Log: &logBuf})
+	if err != nil {
+		t.Fatal(err)
+	}
+	ctx, cancel := context.WithCancel(context.Background())
+	done := make(chan error, 1)
+	go func() { done <- ctl.Run(ctx) }()
+	layout, _ := rig.NewLayout(loop)
+	sensor := udpLoopback(t)
+	const n = 300
+	buf := make([]byte, 256)
+	for k := uint64(1); k <= n; k++ {
+		sensor.WriteToUDPAddrPort(layout.AppendSample(nil, k, rig.Now(), []float64{0.1}), ctl.LocalAddr())
+		sensor.SetReadDeadline(time.Now().Add(time.Second))
+		if _, _, err := sensor.ReadFromUDPAddrPort(buf); err != nil {
+			t.Fatalf("sample %d: %v", k, err)
+		}
+	}
+	cancel()
+	if err := <-done; err != nil {
+		t.Fatal(err)
+	}
+	lines := strings.Split(strings.TrimSpace(logBuf.String()), "\n")
+	if lines[0]+"\n" != rig.ControllerLogHeader || len(lines) != n+1 {
+		t.Fatalf("log: header %q and %d lines, want %q and %d", lines[0], len(lines)-1, rig.ControllerLogHeader, n)
+	}
+	var drawn []float64
+	slow := 0
+	for i, line := range lines[1:] {
+		f := strings.Split(line, ",")
+		if len(f) != 4 {
+			t.Fatalf("log line %d: %q", i+2, line)
+		}
+		k, err0 := strconv.ParseUint(f[0], 10, 64)
+		arr, err1 := strconv.ParseFloat(f[1], 64)
+		sent, err2 := strconv.ParseFloat(f[2], 64)
+		c, err3 := strconv.ParseFloat(f[3], 64)
+		if err0 != nil || err1 != nil || err2 != nil || err3 != nil || k != uint64(i+1) {
+			t.Fatalf("log line %d: %q", i+2, line)
+		}
+		if sent-arr < c-1e-6 {
+			t.Errorf("seq %d: sent %.6fs after arrival, before its computing time %.6fs", k, sent-arr, c)
+		}
+		if sent-arr > c+0.001 {
+			slow++
+		}
+		drawn = append(drawn, c)
+	}
+	if slow > n/20 { // a loaded machine may stall a few
+		t.Errorf("%d of %d commands left more than 1 ms after their computing time", slow, n)
+	}
+	sort.Float64s(drawn)
+	d := laws.KSStatistic(drawn, law.CDF)
+	if p := laws.KSPValue(d, len(drawn)); p < 0.001 {
+		t.Errorf("drawn computing times against %s: KS D = %.4f, p = %.2g", laws.Describe(law), d, p)
+	}
+}
