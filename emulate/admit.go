@@ -14,6 +14,7 @@ type immediate struct {
 	due   int64
 	state string
 	seq   uint64 // arrival number
+	pair  pairNote
 }
 
 // admit draws the fate of the datagrams in acc, all read at time now, and
@@ -34,16 +35,17 @@ func (d *direction) admit(acc []message, dst netip.AddrPort, now int64, imm []me
 		m := &acc[i]
 		d.arrivals++
 		seq := d.arrivals
+		pn := d.pairNote(m.buf[:m.n], now)
 		if d.stopNew {
 			d.m.outcome[oTripped].Inc()
-			d.record(rec{arrival: now, outcome: oTripped, state: stateName, seq: seq})
+			d.record(rec{arrival: now, outcome: oTripped, state: stateName, seq: seq, pair: pn})
 			continue
 		}
 		lost, delay := d.fateLocked(st)
 		if lost {
 			d.lossRun++
 			d.m.outcome[oDropped].Inc()
-			d.record(rec{arrival: now, outcome: oDropped, state: stateName, seq: seq})
+			d.record(rec{arrival: now, outcome: oDropped, state: stateName, seq: seq, pair: pn})
 			continue
 		}
 		if d.lossRun > 0 {
@@ -54,17 +56,17 @@ func (d *direction) admit(acc []message, dst netip.AddrPort, now int64, imm []me
 		due := now + int64(delay*1e9)
 		if due <= now {
 			imm = append(imm, message{buf: m.buf, n: m.n, addr: dst})
-			meta = append(meta, immediate{delay: delay, due: due, state: stateName, seq: seq})
+			meta = append(meta, immediate{delay: delay, due: due, state: stateName, seq: seq, pair: pn})
 			continue
 		}
 		p := d.pool.get()
 		if p == nil {
 			d.m.outcome[oOverflow].Inc()
-			d.record(rec{arrival: now, outcome: oOverflow, state: stateName, delay: delay, due: due, drawn: true, seq: seq})
+			d.record(rec{arrival: now, outcome: oOverflow, state: stateName, delay: delay, due: due, drawn: true, seq: seq, pair: pn})
 			continue
 		}
 		p.n = copy(p.buf, m.buf[:m.n])
-		p.dst, p.arrival, p.due, p.delay, p.state, p.seq = dst, now, due, delay, stateName, seq
+		p.dst, p.arrival, p.due, p.delay, p.state, p.seq, p.pair = dst, now, due, delay, stateName, seq, pn
 		d.sched.push(p)
 		if d.sched.peek() == p && due < d.armedFor {
 			d.armLocked(due, now)

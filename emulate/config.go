@@ -62,6 +62,10 @@ type Config struct {
 	// sleeping and spins (default 50µs; 0 never spins).
 	Spin    time.Duration
 	SpinSet bool
+	// Pairing, when set, pairs each command with the sample it answers and
+	// measures the controller's turnaround (pair.go); both layouts need a
+	// sequence field.
+	Pairing *Pairing
 	// Record, when set, receives one line per datagram (RecordHeader).
 	Record io.Writer
 	// Metrics, when nil, are created on a private registry.

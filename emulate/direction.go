@@ -52,6 +52,39 @@ type direction struct {
 	// forwarded with a lower one was overtaken (settle). Read and set by
 	// the receive and the release goroutines, hence atomic.
 	released atomic.Uint64
+	// pair, when set, pairs commands with samples (pair.go); pairSide says
+	// which this direction carries.
+	pair     *pairer
+	pairSide int8
+}
+
+// The sides of a pairing.
+const (
+	pairNone int8 = iota
+	pairSamples
+	pairCommands
+)
+
+// pairNote is what the pairing learnt of one datagram, for the record:
+// the tag of the sample it is or answers (sequence + 1; 0: none) and, for
+// a command paired with its sample, its turnaround in ns.
+type pairNote struct {
+	tag    uint64
+	turn   int64
+	paired bool
+}
+
+// pairNote reads a datagram's sequence for the pairing, and for a command
+// observes its turnaround.
+func (d *direction) pairNote(payload []byte, now int64) pairNote {
+	switch d.pairSide {
+	case pairSamples:
+		return pairNote{tag: d.pair.sampleTag(payload)}
+	case pairCommands:
+		tag, turn := d.pair.command(payload, now)
+		return pairNote{tag: tag, turn: turn, paired: turn >= 0}
+	}
+	return pairNote{}
 }
 
 type dirConfig struct {
@@ -68,6 +101,8 @@ type dirConfig struct {
 	spin        time.Duration
 	w           timer.Waiter
 	lockThread  bool
+	pair        *pairer
+	pairSide    int8
 }
 
 func newDirection(c dirConfig) *direction {
@@ -84,6 +119,8 @@ func newDirection(c dirConfig) *direction {
 		pool:     newPool(c.maxInFlight, c.bufLen),
 		armedFor: math.MaxInt64,
 		gaugeVec: c.metrics.ChannelState,
+		pair:     c.pair,
+		pairSide: c.pairSide,
 	}
 	d.sched.h = make([]*packet, 0, c.maxInFlight)
 	d.m.inFlight.Set(0)

@@ -56,6 +56,12 @@ type Metrics struct {
 	// Reordered: datagrams released after one of the same direction that
 	// arrived later than they did (overtaken on the way).
 	Reordered *prometheus.CounterVec // direction
+	// Turnaround: for each command paired with its sample (Pairing), the
+	// time from the sample's release to the controller to the command's
+	// arrival at the relay.
+	Turnaround prometheus.Histogram
+	// PairingFailures: datagrams that could not be paired, by reason.
+	PairingFailures *prometheus.CounterVec // reason
 }
 
 // scenarioClock is what the scenario elapsed-time gauge reads.
@@ -164,13 +170,23 @@ func NewMetrics(reg prometheus.Registerer) *Metrics {
 		Name: "rigwire_relay_reordered_datagrams_total",
 		Help: "Datagrams released after a datagram of the same direction that arrived later (overtaken: released out of arrival order), by direction; forwarded datagrams only, so they are also counted as forwarded.",
 	}, []string{"direction"})
+	m.Turnaround = prometheus.NewHistogram(prometheus.HistogramOpts{
+		Name:    "rigwire_relay_controller_turnaround_seconds",
+		Help:    "For each command paired with the sample it answers: from the relay's release of that sample to the controller to the command's arrival at the relay (the controller's computing time plus both hops to it). Only with a pairing (impair run --loop).",
+		Buckets: prometheus.ExponentialBucketsRange(10e-6, 1, 34),
+	})
+	m.PairingFailures = prometheus.NewCounterVec(prometheus.CounterOpts{
+		Name: "rigwire_relay_pairing_failures_total",
+		Help: "Datagrams the relay could not pair, by reason: sample_without_sequence (a sensor datagram whose sequence does not decode), command_without_sequence (likewise a command), sample_not_released (a command for a sample the relay has not sent to the controller, or not recently).",
+	}, []string{"reason"})
 	m.ScenarioElapsed = prometheus.NewGaugeFunc(prometheus.GaugeOpts{
 		Name: "rigwire_relay_scenario_elapsed_seconds",
 		Help: "Wall-clock seconds since the scenario started playing (its phases' times are scaled by the time scale); its length once it has ended; 0 before.",
 	}, m.scenario.elapsed)
 	reg.MustRegister(m.Datagrams, m.Bytes, m.Delay, m.Lateness, m.InFlight,
 		m.ChannelState, m.Tap, m.RecordLost, m.Reloads, m.LossRuns, m.Tripped,
-		m.ScenarioPhase, m.ScenarioSteps, m.ScenarioElapsed, m.SensorSource, m.SensorSourceChanges, m.Reordered)
+		m.ScenarioPhase, m.ScenarioSteps, m.ScenarioElapsed, m.SensorSource, m.SensorSourceChanges, m.Reordered,
+		m.Turnaround, m.PairingFailures)
 	m.SensorSourceChanges.WithLabelValues(lockFirst)
 	m.SensorSourceChanges.WithLabelValues(lockQuiet)
 	for _, o := range []string{"sent", OutcomeSendError} {

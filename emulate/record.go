@@ -11,9 +11,9 @@ import (
 
 // RecordHeader opens every record file. The format is ours:
 //
-//	# rigwire relay record v2
+//	# rigwire relay record v3
 //	# times in seconds on the relay's monotonic clock since it started
-//	arrival_s,direction,state,decision,delay_s,due_s,release_s,arrival_seq
+//	arrival_s,direction,state,decision,delay_s,due_s,release_s,arrival_seq,sample_seq,turnaround_s
 //
 // then one line per datagram, written when its fate is settled (so lines
 // are in order of settlement, not of arrival: sorting a direction's lines
@@ -23,17 +23,21 @@ import (
 // Outcome constants; state is the direction's channel state at arrival
 // (empty for datagrams rejected before any draw); delay_s and due_s are
 // empty when no delay was drawn, release_s unless the datagram was
-// forwarded. Times carry nine decimals (nanoseconds).
-const RecordHeader = RecordMagic + "2\n" +
+// forwarded. With a pairing (Config.Pairing), sample_seq is the sequence
+// number a sensor datagram carries, or the one of the sample a command
+// answers, and turnaround_s, on a command paired with its sample, the time
+// from that sample's release to the controller to the command's arrival;
+// both are empty otherwise. Times carry nine decimals (nanoseconds).
+const RecordHeader = RecordMagic + "3\n" +
 	"# times in seconds on the relay's monotonic clock since it started\n" +
-	"arrival_s,direction,state,decision,delay_s,due_s,release_s,arrival_seq\n"
+	"arrival_s,direction,state,decision,delay_s,due_s,release_s,arrival_seq,sample_seq,turnaround_s\n"
 
 // RecordMagic begins the first line of every version of the record (its
 // version number follows): what tells a relay record from another file.
 const RecordMagic = "# rigwire relay record v"
 
 // RecordColumns are the record file's column names, in order.
-var RecordColumns = []string{"arrival_s", "direction", "state", "decision", "delay_s", "due_s", "release_s", "arrival_seq"}
+var RecordColumns = []string{"arrival_s", "direction", "state", "decision", "delay_s", "due_s", "release_s", "arrival_seq", "sample_seq", "turnaround_s"}
 
 type rec struct {
 	arrival, due, release int64
@@ -43,6 +47,7 @@ type rec struct {
 	outcome               outcomeID
 	drawn                 bool   // delay and due are set
 	seq                   uint64 // arrival number in its direction (admit); 0 for a datagram refused before admission (stranger, oversized, no actuator)
+	pair                  pairNote
 }
 
 // recorder writes records from a bounded ring on a goroutine of its own, so
@@ -151,6 +156,14 @@ func (r *recorder) write(x *rec) error {
 	b = append(b, ',')
 	if x.seq > 0 {
 		b = strconv.AppendUint(b, x.seq, 10)
+	}
+	b = append(b, ',')
+	if x.pair.tag > 0 {
+		b = strconv.AppendUint(b, x.pair.tag-1, 10)
+	}
+	b = append(b, ',')
+	if x.pair.paired {
+		b = appendSeconds(b, x.pair.turn)
 	}
 	b = append(b, '\n')
 	r.line = b

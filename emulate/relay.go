@@ -31,6 +31,7 @@ type Relay struct {
 	tap    batchConn // nil without Tap
 	rec    *recorder
 	sc, ca *direction
+	pair   *pairer // nil without Config.Pairing
 
 	// sensorSrc is the locked sensor source (zero until the first
 	// datagram; guarded by srcMu): the command side sends to it when no
@@ -77,6 +78,13 @@ func New(cfg Config) (*Relay, error) {
 		}
 		r.rec = rec
 	}
+	if cfg.Pairing != nil {
+		if err := cfg.Pairing.check(); err != nil {
+			r.closeSockets()
+			return nil, err
+		}
+		r.pair = newPairer(*cfg.Pairing, r.m)
+	}
 	var err error
 	if r.sc, err = r.newDirection(profiles.SensorToController, cfg.Profile.SensorToController, 1, r.up); err == nil {
 		r.ca, err = r.newDirection(profiles.ControllerToActuator, cfg.Profile.ControllerToActuator, 3, r.listen)
@@ -103,6 +111,7 @@ func (r *Relay) newDirection(name string, ch *markov.Channel, stream uint64, out
 		metrics: r.m, rec: r.rec, epoch: r.epoch,
 		maxInFlight: r.cfg.MaxInFlight, bufLen: r.cfg.MaxDatagram,
 		spin: r.cfg.Spin, w: w, lockThread: precise,
+		pair: r.pair, pairSide: pairSideOf(r.pair, name),
 	}), nil
 }
 

@@ -18,8 +18,13 @@ func (d *direction) sendImmediate(imm []message, meta []immediate, arrival int64
 		return
 	}
 	t := d.now()
+	if d.pairSide == pairSamples {
+		for i := range meta {
+			d.pair.released(meta[i].pair.tag, t)
+		}
+	}
 	d.sendAll(imm, func(i int, ok bool) {
-		d.settle(ok, imm[i].n, arrival, meta[i].due, meta[i].delay, t, meta[i].state, meta[i].seq)
+		d.settle(ok, imm[i].n, arrival, meta[i].due, meta[i].delay, t, meta[i].state, meta[i].seq, meta[i].pair)
 	})
 }
 
@@ -43,8 +48,8 @@ func (d *direction) sendAll(ms []message, done func(i int, ok bool)) {
 // settle accounts for one datagram the relay tried to send at time t; seq
 // is its arrival number, by which a datagram released after a later
 // arrival is counted as reordered.
-func (d *direction) settle(ok bool, n int, arrival, due int64, delay float64, t int64, state string, seq uint64) {
-	r := rec{arrival: arrival, due: due, delay: delay, drawn: true, release: t, state: state, seq: seq}
+func (d *direction) settle(ok bool, n int, arrival, due int64, delay float64, t int64, state string, seq uint64, pn pairNote) {
+	r := rec{arrival: arrival, due: due, delay: delay, drawn: true, release: t, state: state, seq: seq, pair: pn}
 	if ok {
 		for {
 			top := d.released.Load()
@@ -143,9 +148,14 @@ func (d *direction) sendPopped(batch []*packet, out []message) {
 		out[i] = message{buf: p.buf, n: p.n, addr: p.dst}
 	}
 	t := d.now()
+	if d.pairSide == pairSamples {
+		for _, p := range batch {
+			d.pair.released(p.pair.tag, t)
+		}
+	}
 	d.sendAll(out, func(i int, ok bool) {
 		p := batch[i]
-		d.settle(ok, p.n, p.arrival, p.due, p.delay, t, p.state, p.seq)
+		d.settle(ok, p.n, p.arrival, p.due, p.delay, t, p.state, p.seq, p.pair)
 	})
 	d.mu.Lock()
 	for i := range batch {
@@ -161,7 +171,7 @@ func (d *direction) abortLocked() {
 	for d.sched.len() > 0 {
 		p := d.sched.pop()
 		d.m.outcome[oShutdown].Inc()
-		d.record(rec{arrival: p.arrival, due: p.due, delay: p.delay, drawn: true, outcome: oShutdown, state: p.state, seq: p.seq})
+		d.record(rec{arrival: p.arrival, due: p.due, delay: p.delay, drawn: true, outcome: oShutdown, state: p.state, seq: p.seq, pair: p.pair})
 		d.pool.put(p)
 	}
 	d.m.inFlight.Set(0)

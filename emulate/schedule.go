@@ -14,6 +14,7 @@ type packet struct {
 	delay   float64
 	state   string // channel state at arrival
 	seq     uint64 // arrival number in its direction
+	pair    pairNote
 }
 
 // schedule is a min-heap of pending packets keyed on due time, after the

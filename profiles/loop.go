@@ -49,6 +49,11 @@ type Loop struct {
 	// Format is "" when the loop file has no decode section (enough for
 	// predict, not for monitor run).
 	Decode datagram.Layout
+	// CommandDecode says where a command datagram carries the sequence
+	// number of the sample it answers (key command_decode; Format "" when
+	// absent): with Decode's sequence, what lets the relay pair each
+	// command with its sample and measure the controller's turnaround.
+	CommandDecode datagram.Layout
 	// Trip is the safety trip the monitor judges on every sample (key
 	// trip); Trip.Enabled is false when the loop file has none.
 	Trip trip.Rule

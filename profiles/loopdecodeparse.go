@@ -21,27 +21,8 @@ func parseDecode(f yamlpos.Field, d *datagram.Layout, p int) error {
 	if err != nil {
 		return err
 	}
-	if keys["format"].IsZero() {
-		return missing(f, "format")
-	}
-	if d.Format, err = keys["format"].Text(); err != nil {
+	if err := parseFormat(f, keys, d); err != nil {
 		return err
-	}
-	if d.Format != "text" && d.Format != "binary" {
-		return keys["format"].Errorf("want text or binary, got %s", keys["format"].Got())
-	}
-	if sep := keys["separator"]; !sep.IsNull() {
-		if d.Format != "text" {
-			return sep.Errorf("only for format text")
-		}
-		if d.Separator, err = sep.Text(); err != nil {
-			return err
-		}
-		if d.Separator == "" {
-			return sep.Errorf("want a non-empty separator")
-		}
-	} else if d.Format == "text" {
-		d.Separator = ","
 	}
 	if keys["outputs"].IsZero() {
 		return missing(f, "outputs")
@@ -66,6 +47,61 @@ func parseDecode(f yamlpos.Field, d *datagram.Layout, p int) error {
 			return err
 		}
 		d.Sequence = &df
+	}
+	return nil
+}
+
+// parseCommandDecode reads the command_decode section: where a command
+// datagram carries the sequence number of the sample it answers, so that
+// the relay can pair each command with its sample (profiles/formats.md):
+//
+//	command_decode: {format: text, sequence: {field: 0}}
+//
+// The sequence is required; the command's values are not decoded.
+func parseCommandDecode(f yamlpos.Field, d *datagram.Layout) error {
+	keys, err := f.Mapping("format", "separator", "sequence")
+	if err != nil {
+		return err
+	}
+	if err := parseFormat(f, keys, d); err != nil {
+		return err
+	}
+	s := keys["sequence"]
+	if s.IsNull() {
+		return missing(f, "sequence")
+	}
+	df, err := parseDecodeField(s, d.Format, true)
+	if err != nil {
+		return err
+	}
+	d.Sequence = &df
+	return nil
+}
+
+// parseFormat reads a decode section's format and separator.
+func parseFormat(f yamlpos.Field, keys map[string]yamlpos.Field, d *datagram.Layout) error {
+	var err error
+	if keys["format"].IsZero() {
+		return missing(f, "format")
+	}
+	if d.Format, err = keys["format"].Text(); err != nil {
+		return err
+	}
+	if d.Format != "text" && d.Format != "binary" {
+		return keys["format"].Errorf("want text or binary, got %s", keys["format"].Got())
+	}
+	if sep := keys["separator"]; !sep.IsNull() {
+		if d.Format != "text" {
+			return sep.Errorf("only for format text")
+		}
+		if d.Separator, err = sep.Text(); err != nil {
+			return err
+		}
+		if d.Separator == "" {
+			return sep.Errorf("want a non-empty separator")
+		}
+	} else if d.Format == "text" {
+		d.Separator = ","
 	}
 	return nil
 }

@@ -48,7 +48,7 @@ const psdTolerance = 1e-12
 
 func parseLoop(root yamlpos.Field, dir string) (*Loop, error) {
 	keys, err := root.Mapping("period", "plant", "controller", "setpoint", "compute_delay",
-		"profile", "actuator", "timing", "decode", "trip")
+		"profile", "actuator", "timing", "decode", "command_decode", "trip")
 	if err != nil {
 		return nil, err
 	}
@@ -140,6 +140,11 @@ func parseLoop(root yamlpos.Field, dir string) (*Loop, error) {
 	}
 	if f := keys["decode"]; !f.IsZero() {
 		if err := parseDecode(f, &l.Decode, p); err != nil {
+			return nil, err
+		}
+	}
+	if f := keys["command_decode"]; !f.IsZero() {
+		if err := parseCommandDecode(f, &l.CommandDecode); err != nil {
 			return nil, err
 		}
 	}

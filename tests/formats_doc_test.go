@@ -42,29 +42,30 @@ const formatsDoc = "../profiles/formats.md"
 // of the reference that documents it. "" marks calls whose keys are not
 // fixed names: they are checked another way (see the test).
 var mappingSections = map[string]string{
-	"profiles/load.go parseProfile name":                  "profile",
-	"profiles/load.go parseChannel loss":                  "profile.direction",
-	"profiles/load.go parseStates name":                   "profile.state",
-	"profiles/load.go parseStates ...":                    "", // next: the state names of the file
-	"profiles/tracechannel.go parseTraceChannel file":     "profile.trace",
-	"profiles/delayparse.go parseDelayExtra ...":          "", // the delay kinds' table
-	"profiles/loopload.go parseLoop period":               "loop",
-	"profiles/loopload.go parseLoop on_loss":              "loop.actuator",
-	"profiles/loopload.go parseTiming sample_horizon":     "loop.timing",
-	"profiles/loopload.go parsePlant a":                   "loop.plant",
-	"profiles/loopload.go parseController a":              "loop.controller",
-	"profiles/loopdecodeparse.go parseDecode format":      "loop.decode",
-	"profiles/loopdecodeparse.go parseDecodeField field":  "loop.decode.text",
-	"profiles/loopdecodeparse.go parseDecodeField offset": "loop.decode.binary",
-	"emulate/trip/rule.go Parse max_abs_error":            "loop.trip",
-	"profiles/scenario.go parseScenario name":             "scenario",
-	"profiles/scenario.go parsePhase name":                "scenario.phase",
-	"profiles/scenario.go parseCheck tolerance":           "scenario.check",
-	"profiles/scenario.go parseRampEnds from":             "scenario.ramp",
-	"emulate/links/file.go Parse metrics":                 "links",
-	"emulate/links/file.go parseLink name":                "links.link",
-	"deploy/lab/config.go Parse namespaces":               "lab",
-	"deploy/lab/config.go Parse a":                        "lab.link",
+	"profiles/load.go parseProfile name":                    "profile",
+	"profiles/load.go parseChannel loss":                    "profile.direction",
+	"profiles/load.go parseStates name":                     "profile.state",
+	"profiles/load.go parseStates ...":                      "", // next: the state names of the file
+	"profiles/tracechannel.go parseTraceChannel file":       "profile.trace",
+	"profiles/delayparse.go parseDelayExtra ...":            "", // the delay kinds' table
+	"profiles/loopload.go parseLoop period":                 "loop",
+	"profiles/loopload.go parseLoop on_loss":                "loop.actuator",
+	"profiles/loopload.go parseTiming sample_horizon":       "loop.timing",
+	"profiles/loopload.go parsePlant a":                     "loop.plant",
+	"profiles/loopload.go parseController a":                "loop.controller",
+	"profiles/loopdecodeparse.go parseDecode format":        "loop.decode",
+	"profiles/loopdecodeparse.go parseCommandDecode format": "loop.command_decode",
+	"profiles/loopdecodeparse.go parseDecodeField field":    "loop.decode.text",
+	"profiles/loopdecodeparse.go parseDecodeField offset":   "loop.decode.binary",
+	"emulate/trip/rule.go Parse max_abs_error":              "loop.trip",
+	"profiles/scenario.go parseScenario name":               "scenario",
+	"profiles/scenario.go parsePhase name":                  "scenario.phase",
+	"profiles/scenario.go parseCheck tolerance":             "scenario.check",
+	"profiles/scenario.go parseRampEnds from":               "scenario.ramp",
+	"emulate/links/file.go Parse metrics":                   "links",
+	"emulate/links/file.go parseLink name":                  "links.link",
+	"deploy/lab/config.go Parse namespaces":                 "lab",
+	"deploy/lab/config.go Parse a":                          "lab.link",
 }
 
 // sectionOf is the heading of the reference's part where each table ID
@@ -86,7 +87,7 @@ type docTable struct {
 }
 
 var (
-	tableMarker = regexp.MustCompile(`^<!-- (keys|kinds): ([a-z.]+) -->$`)
+	tableMarker = regexp.MustCompile(`^<!-- (keys|kinds): ([a-z._]+) -->$`)
 	backticked  = regexp.MustCompile("`([^`]+)`")
 )
 

@@ -2,6 +2,7 @@ package main
 
 import (
 	"flag"
+	"fmt"
 	"io"
 	"time"
 
@@ -83,6 +84,7 @@ func cmdRun(args []string, stdout, stderr io.Writer) error {
 	onTrip := fs.String("on-trip", "clean", "what a trip does: clean (forward everything, no loss or delay) or stop_commands")
 	metricsAddr := fs.String("metrics", "127.0.0.1:9471", "serve Prometheus metrics on `HOST:PORT` (\"off\": none)")
 	recordPath := fs.String("record", "", "write one line per datagram to `FILE`")
+	loopPath := fs.String("loop", "", "the rig's loop `FILE`: pair each command with the sample it answers (its decode.sequence and command_decode) and measure the controller's turnaround")
 	seed := fs.Uint64("seed", 0, "seed of the decisions (default: the profile's, else random)")
 	maxDatagram := fs.Int("max-datagram", emulate.DefaultMaxDatagram, "longest datagram accepted, `bytes`")
 	maxInFlight := fs.Int("max-in-flight", emulate.DefaultMaxInFlight, "datagrams held at most per direction")
@@ -132,7 +134,7 @@ func cmdRun(args []string, stdout, stderr io.Writer) error {
 	var specs []links.Spec
 	if *linksPath != "" {
 		for _, name := range []string{"listen", "controller", "actuator", "sensor", "controller-bind", "tap",
-			"trip-listen", "trip-from", "on-trip", "record", "seed", "relock-after"} {
+			"trip-listen", "trip-from", "on-trip", "record", "seed", "relock-after", "loop"} {
 			if set[name] {
 				return fail("--%s: not with --links (give it per link in %s)", name, *linksPath)
 			}
@@ -160,6 +162,13 @@ func cmdRun(args []string, stdout, stderr io.Writer) error {
 		}
 		if err := links.CheckFamilies(s, func(key string) string { return "--" + key }); err != nil {
 			return fail("%v", err)
+		}
+		if *loopPath != "" {
+			p, err := links.PairingFromLoop(*loopPath)
+			if err != nil {
+				return cli.BadInput(fmt.Errorf("--loop: %w", err))
+			}
+			s.Pairing, s.LoopPath = p, *loopPath
 		}
 		if tripListen.Given {
 			s.TripListen = tripListen.Addr

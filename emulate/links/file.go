@@ -31,6 +31,12 @@ type Spec struct {
 
 	RecordPath string
 
+	// LoopPath, when set, is the rig's loop file; Pairing, read from its
+	// decode and command_decode sections, lets the relay pair each command
+	// with its sample and measure the controller's turnaround.
+	LoopPath string
+	Pairing  *emulate.Pairing
+
 	// RelockAfter lets a new source replace a sensor node silent this long
 	// (0: never; emulate.Config.RelockAfter), at most MaxRelockAfter.
 	RelockAfter time.Duration
@@ -148,7 +154,7 @@ func Parse(data []byte, file, dir string) (*File, error) {
 
 func parseLink(it yamlpos.Field, dir string) (Spec, error) {
 	keys, err := it.Mapping("name", "listen", "controller", "actuator", "sensor", "relock_after", "controller_bind", "tap",
-		"profile", "scenario", "seed", "record", "trip_listen", "trip_from", "on_trip")
+		"profile", "scenario", "seed", "record", "loop", "trip_listen", "trip_from", "on_trip")
 	if err != nil {
 		return Spec{}, err
 	}
@@ -247,6 +253,14 @@ func parseLink(it yamlpos.Field, dir string) (Spec, error) {
 	}
 	if l.RecordPath, err = path("record"); err != nil {
 		return l, err
+	}
+	if l.LoopPath, err = path("loop"); err != nil {
+		return l, err
+	}
+	if l.LoopPath != "" {
+		if l.Pairing, err = PairingFromLoop(l.LoopPath); err != nil {
+			return l, keys["loop"].Errorf("%v", err)
+		}
 	}
 	if f, ok := keys["seed"]; ok {
 		if l.Seed, err = f.Uint64(); err != nil {

@@ -135,7 +135,7 @@ func openLink(spec Spec, opts Options, reg prometheus.Registerer, log *slog.Logg
 		ControllerBind: spec.ControllerBind, Tap: spec.Tap,
 		Seed: spec.Seed, SeedSet: spec.SeedSet,
 		MaxDatagram: opts.MaxDatagram, MaxInFlight: opts.MaxInFlight, Spin: opts.Spin, SpinSet: true,
-		Metrics: l.metrics, Logger: log,
+		Metrics: l.metrics, Logger: log, Pairing: spec.Pairing,
 	}
 	if l.record != nil {
 		cfg.Record = l.record

@@ -91,17 +91,7 @@ func (d *Layout) Output(payload []byte, y []float64) (seq uint64, hasSeq bool, e
 			}
 			y[i] = v
 		}
-		if d.Sequence == nil {
-			return 0, false, nil
-		}
-		s, ok, neg := binaryCounter(payload, *d.Sequence)
-		switch {
-		case !ok:
-			return 0, false, ErrTooShort
-		case neg:
-			return 0, false, ErrBadSequence
-		}
-		return s, true, nil
+		return d.seq(payload, nil)
 	}
 	// The separator's bytes, read in place: a conversion would copy a
 	// separator longer than the compiler's stack buffer (32 bytes) to the
@@ -129,8 +119,33 @@ func (d *Layout) Output(payload []byte, y []float64) (seq uint64, hasSeq bool, e
 		}
 		y[i] = v
 	}
+	return d.seq(payload, sep)
+}
+
+// Seq decodes only the sequence counter of a datagram (a sample's, or the
+// one a command carries of the sample it answers): hasSeq is false when
+// the layout has none. Like Output it never allocates and never panics.
+func (d *Layout) Seq(payload []byte) (seq uint64, hasSeq bool, err error) {
+	sep := comma
+	if d.Separator != "" {
+		sep = unsafe.Slice(unsafe.StringData(d.Separator), len(d.Separator))
+	}
+	return d.seq(payload, sep)
+}
+
+func (d *Layout) seq(payload, sep []byte) (uint64, bool, error) {
 	if d.Sequence == nil {
 		return 0, false, nil
+	}
+	if d.Format == "binary" {
+		s, ok, neg := binaryCounter(payload, *d.Sequence)
+		switch {
+		case !ok:
+			return 0, false, ErrTooShort
+		case neg:
+			return 0, false, ErrBadSequence
+		}
+		return s, true, nil
 	}
 	b, ok := textField(payload, sep, d.Sequence.Field)
 	if !ok {

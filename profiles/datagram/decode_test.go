@@ -179,6 +179,8 @@ func TestDecodeDoesNotAllocate(t *testing.T) {
 		"long separator": func() { long.Output(longGood, y) },
 		"binary":         func() { bin.Output(b, y) },
 		"binary short":   func() { bin.Output(b[:5], y) },
+		"text seq":       func() { text.Seq(good) },
+		"binary seq":     func() { bin.Seq(b) },
 	} {
 		if n := testing.AllocsPerRun(100, f); n != 0 {
 			t.Errorf("%s: %v allocations per datagram, want 0", name, n)
@@ -207,7 +209,13 @@ func FuzzDecode(f *testing.F) {
 			Outputs: []Field{{Field: 1}, {Field: 2}}, Sequence: &Field{Field: 0}})
 		for _, d := range all {
 			y := make([]float64, len(d.Outputs))
-			_, _, err := d.Output(payload, y)
+			// The sequence alone agrees with the whole decode wherever
+			// that succeeds.
+			seqOnly, hasOnly, errOnly := d.Seq(payload)
+			seq, has, err := d.Output(payload, y)
+			if err == nil && (errOnly != nil || seqOnly != seq || hasOnly != has) {
+				t.Fatalf("Seq %d %v %v, Output %d %v on %q", seqOnly, hasOnly, errOnly, seq, has, payload)
+			}
 			if err == nil {
 				for _, v := range y {
 					if math.IsNaN(v) || math.IsInf(v, 0) {
