@@ -29,6 +29,12 @@ type Stats struct {
 	SensorSourceFirst, SensorSourceQuiet uint64
 	// Tripped: the safety trip has fired.
 	Tripped bool
+	// Turnaround: the controller's turnarounds measured by the pairing
+	// (rigwire_relay_controller_turnaround_seconds); PairingFailures the
+	// datagrams it could not pair, by reason
+	// (rigwire_relay_pairing_failures_total). Both empty without one.
+	Turnaround      Histogram
+	PairingFailures map[string]uint64
 }
 
 // DirectionStats is one direction's part of a Stats. Every datagram the
@@ -144,6 +150,13 @@ func (r *Relay) Stats() Stats {
 		SensorSourceFirst:    counterValue(r.m.SensorSourceChanges.WithLabelValues(lockFirst)),
 		SensorSourceQuiet:    counterValue(r.m.SensorSourceChanges.WithLabelValues(lockQuiet)),
 		Tripped:              metricValue(r.m.Tripped).GetGauge().GetValue() == 1,
+	}
+	if r.pair != nil {
+		s.Turnaround = histogramValue(r.m.Turnaround)
+		s.PairingFailures = map[string]uint64{}
+		for i, name := range pairFailures {
+			s.PairingFailures[name] = counterValue(r.pair.fail[i])
+		}
 	}
 	return s
 }

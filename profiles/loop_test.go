@@ -5,6 +5,7 @@ import (
 	"math"
 	"os"
 	"path/filepath"
+	"rigwire/profiles/laws"
 	"rigwire/profiles/yamlpos"
 	"strings"
 	"testing"
@@ -14,41 +15,43 @@ import (
 // Prometheus's config_test.go expectedErrors). The messages follow the
 // project's rule: file:line: key: what was expected, got what.
 var loopErrors = map[string]string{
-	"actuator-policy.bad.yaml":       `:4: actuator.on_loss: want hold or zero, got "brake"`,
-	"asymmetric-noise.bad.yaml":      `:6: plant.process_noise: want a symmetric matrix, got [0][1] = 0.5 but [1][0] = 0.2`,
-	"compute-delay.bad.yaml":         `:4: compute_delay: want a duration below the period (10ms), got "10ms"`,
-	"command-decode-no-seq.bad.yaml": `:4: command_decode.sequence: missing (required)`,
-	"compute-law-late.bad.yaml":      `:4: compute_delay: want a law whose lowest value is below the period (10ms), got uniform 12ms…14ms, lowest 12ms`,
-	"compute-law-shape.bad.yaml":     `:6: compute_delay.shape: want a number in [0.1, 10000], got "-2"`,
-	"controller-b.bad.yaml":          `:5: controller.b: want 2×1, got 1×1`,
-	"controller-partial.bad.yaml":    `:3: controller: want a, b and c together (a dynamic controller), got no b`,
-	"decode-format.bad.yaml":         `:5: decode.format: want text or binary, got "json"`,
-	"decode-outputs.bad.yaml":        `:7: decode.outputs: want 1 fields (one per output of plant.c), got 2`,
-	"decode-sequence-float.bad.yaml": `:8: decode.sequence.type: want an integer type for the sequence counter, got "float32"`,
-	"decode-type.bad.yaml":           `:7: decode.outputs[0].type: want one of float32, float64, int16, int32, int64, uint16, uint32, got "float16"`,
-	"indefinite-noise.bad.yaml":      `:6: plant.process_noise: want a covariance (positive semidefinite), got an eigenvalue -1`,
-	"missing-profile.bad.yaml":       `:1: profile: missing (required)`,
-	"negative-noise.bad.yaml":        `:6: plant.process_noise: want a covariance (positive semidefinite), got a negative variance [1][1] = -0.04`,
-	"non-numeric.bad.yaml":           `:3: plant.a[0][1]: want a number, got "one"`,
-	"period-negative.bad.yaml":       `:1: period: want a duration > 0, got "-0.01"`,
-	"period-zero.bad.yaml":           `:1: period: want a duration > 0, got "0ms"`,
-	"profile-file-missing.bad.yaml":  `:4: profile: reading profile: open testdata/loops/no-such-profile.yaml: no such file or directory`,
-	"profile-inline-bad.bad.yaml":    `:5: profile.sensor_to_controller.loss: want a number in [0, 1], got "2"`,
-	"setpoint-length.bad.yaml":       `:4: setpoint: want 1 numbers (one per output of plant.c), got 2`,
-	"shape-b.bad.yaml":               `:4: plant.b: want 2 rows (plant.a is 2×2), got 3×1`,
-	"shape-c.bad.yaml":               `:5: plant.c: want 2 columns (plant.a is 2×2), got 1×3`,
-	"shape-d.bad.yaml":               `:10: controller.d: want 1×1, got 1×2`,
-	"square-a.bad.yaml":              `:2: plant.a: want a square matrix, got 1×2`,
-	"unknown-key.bad.yaml":           `:3: unknown key "controler" (want one of: period, plant, controller, setpoint, compute_delay, profile, actuator, timing, decode, command_decode, trip)`,
-	"unknown-plant-key.bad.yaml":     `:6: plant: unknown key "noise" (want one of: a, b, c, process_noise, sensor_noise)`,
-	"timing-fraction.bad.yaml":       `:5: timing.command_horizon: want a whole number of periods from 1 to 16, got "2.5"`,
-	"timing-zero.bad.yaml":           `:5: timing.command_horizon: want a whole number of periods from 1 to 16, got "0"`,
-	"timing-too-long.bad.yaml":       `:5: timing.command_horizon: want a whole number of periods from 1 to 16, got "17"`,
-	"timing-order.bad.yaml":          `:7: timing.command_horizon: want a command horizon of at least the sample horizon (3 periods): a command is never younger than the sample it answers, got 2`,
-	"timing-text.bad.yaml":           `:5: timing.sample_horizon: want a whole number of periods from 1 to 16, got "two"`,
-	"timing-unknown.bad.yaml":        `:5: timing: unknown key "command_horizons" (want one of: sample_horizon, command_horizon)`,
-	"timing-zero-actuator.bad.yaml":  `:6: timing.command_horizon: want 1 with actuator.on_loss: zero (that actuator drops every command at the end of its own period), got 3`,
-	"timing-sample-only.bad.yaml":    `:5: timing: want a command horizon of at least the sample horizon (3 periods): a command is never younger than the sample it answers, got 1`,
+	"actuator-policy.bad.yaml":        `:4: actuator.on_loss: want hold or zero, got "brake"`,
+	"asymmetric-noise.bad.yaml":       `:6: plant.process_noise: want a symmetric matrix, got [0][1] = 0.5 but [1][0] = 0.2`,
+	"compute-delay.bad.yaml":          `:4: compute_delay: want a duration below the period (10ms), got "10ms"`,
+	"command-decode-no-seq.bad.yaml":  `:4: command_decode.sequence: missing (required)`,
+	"compute-timing-bad.bad.yaml":     `:4: compute_delay: testdata/loops/bad.timing.yaml:1: compute_delay: missing scale for kind gamma`,
+	"compute-timing-missing.bad.yaml": `:4: compute_delay: reading rig timing file: open testdata/loops/no-such.timing.yaml: no such file or directory`,
+	"compute-law-late.bad.yaml":       `:4: compute_delay: want a law whose lowest value is below the period (10ms), got uniform 12ms…14ms, lowest 12ms`,
+	"compute-law-shape.bad.yaml":      `:6: compute_delay.shape: want a number in [0.1, 10000], got "-2"`,
+	"controller-b.bad.yaml":           `:5: controller.b: want 2×1, got 1×1`,
+	"controller-partial.bad.yaml":     `:3: controller: want a, b and c together (a dynamic controller), got no b`,
+	"decode-format.bad.yaml":          `:5: decode.format: want text or binary, got "json"`,
+	"decode-outputs.bad.yaml":         `:7: decode.outputs: want 1 fields (one per output of plant.c), got 2`,
+	"decode-sequence-float.bad.yaml":  `:8: decode.sequence.type: want an integer type for the sequence counter, got "float32"`,
+	"decode-type.bad.yaml":            `:7: decode.outputs[0].type: want one of float32, float64, int16, int32, int64, uint16, uint32, got "float16"`,
+	"indefinite-noise.bad.yaml":       `:6: plant.process_noise: want a covariance (positive semidefinite), got an eigenvalue -1`,
+	"missing-profile.bad.yaml":        `:1: profile: missing (required)`,
+	"negative-noise.bad.yaml":         `:6: plant.process_noise: want a covariance (positive semidefinite), got a negative variance [1][1] = -0.04`,
+	"non-numeric.bad.yaml":            `:3: plant.a[0][1]: want a number, got "one"`,
+	"period-negative.bad.yaml":        `:1: period: want a duration > 0, got "-0.01"`,
+	"period-zero.bad.yaml":            `:1: period: want a duration > 0, got "0ms"`,
+	"profile-file-missing.bad.yaml":   `:4: profile: reading profile: open testdata/loops/no-such-profile.yaml: no such file or directory`,
+	"profile-inline-bad.bad.yaml":     `:5: profile.sensor_to_controller.loss: want a number in [0, 1], got "2"`,
+	"setpoint-length.bad.yaml":        `:4: setpoint: want 1 numbers (one per output of plant.c), got 2`,
+	"shape-b.bad.yaml":                `:4: plant.b: want 2 rows (plant.a is 2×2), got 3×1`,
+	"shape-c.bad.yaml":                `:5: plant.c: want 2 columns (plant.a is 2×2), got 1×3`,
+	"shape-d.bad.yaml":                `:10: controller.d: want 1×1, got 1×2`,
+	"square-a.bad.yaml":               `:2: plant.a: want a square matrix, got 1×2`,
+	"unknown-key.bad.yaml":            `:3: unknown key "controler" (want one of: period, plant, controller, setpoint, compute_delay, profile, actuator, timing, decode, command_decode, trip)`,
+	"unknown-plant-key.bad.yaml":      `:6: plant: unknown key "noise" (want one of: a, b, c, process_noise, sensor_noise)`,
+	"timing-fraction.bad.yaml":        `:5: timing.command_horizon: want a whole number of periods from 1 to 16, got "2.5"`,
+	"timing-zero.bad.yaml":            `:5: timing.command_horizon: want a whole number of periods from 1 to 16, got "0"`,
+	"timing-too-long.bad.yaml":        `:5: timing.command_horizon: want a whole number of periods from 1 to 16, got "17"`,
+	"timing-order.bad.yaml":           `:7: timing.command_horizon: want a command horizon of at least the sample horizon (3 periods): a command is never younger than the sample it answers, got 2`,
+	"timing-text.bad.yaml":            `:5: timing.sample_horizon: want a whole number of periods from 1 to 16, got "two"`,
+	"timing-unknown.bad.yaml":         `:5: timing: unknown key "command_horizons" (want one of: sample_horizon, command_horizon)`,
+	"timing-zero-actuator.bad.yaml":   `:6: timing.command_horizon: want 1 with actuator.on_loss: zero (that actuator drops every command at the end of its own period), got 3`,
+	"timing-sample-only.bad.yaml":     `:5: timing: want a command horizon of at least the sample horizon (3 periods): a command is never younger than the sample it answers, got 1`,
 }
 
 func TestLoadLoopBad(t *testing.T) {
@@ -213,6 +216,14 @@ func TestLoadLoopComputeLaw(t *testing.T) {
 	}
 	if got, want := l.ComputeMean(), 0.0003+4*0.0005; math.Abs(got-want) > 1e-15 {
 		t.Errorf("mean %g, want %g", got, want)
+	}
+	// The same law from a rig timing file the loop names.
+	f, err := LoadLoop("testdata/loops/compute-timing-file.yaml")
+	if err != nil {
+		t.Fatal(err)
+	}
+	if f.ComputeFloor() != l.ComputeFloor() || f.ComputeMean() != l.ComputeMean() || laws.Describe(f.Compute) != laws.Describe(l.Compute) {
+		t.Errorf("from the timing file: %s, want %s", laws.Describe(f.Compute), laws.Describe(l.Compute))
 	}
 	g, err := LoadLoop("testdata/loops/good.yaml")
 	if err != nil {

@@ -7,6 +7,7 @@ import (
 	"rigwire/emulate/trip"
 	"rigwire/profiles/laws"
 	"rigwire/profiles/yamlpos"
+	"strings"
 
 	"gonum.org/v1/gonum/mat"
 	"gopkg.in/yaml.v3"
@@ -328,9 +329,22 @@ func parseTiming(f yamlpos.Field, l *Loop) error {
 }
 
 // parseCompute reads compute_delay: a duration (a constant, as it always
-// was) or any delay law of the profile format. Its lowest value must be
-// below the period; a law that reaches beyond it makes those commands late.
+// was), any delay law of the profile format, or the path of a rig timing
+// file (a .yaml file holding compute_delay, as monitor calibrate writes
+// it). Its lowest value must be below the period; a law that reaches
+// beyond it makes those commands late.
 func parseCompute(f yamlpos.Field, dir string, period float64) (laws.Delay, error) {
+	if f.Node != nil && f.Node.Kind == yaml.ScalarNode && IsTimingPath(f.Node.Value) {
+		path := f.Node.Value
+		if !filepath.IsAbs(path) && dir != "" {
+			path = filepath.Join(dir, path)
+		}
+		d, err := LoadTiming(path, period)
+		if err != nil {
+			return nil, f.Errorf("%v", err)
+		}
+		return d, nil
+	}
 	if f.Node != nil && f.Node.Kind == yaml.ScalarNode {
 		c, err := f.DurationIn(0, math.Inf(1))
 		if err != nil {
@@ -349,4 +363,36 @@ func parseCompute(f yamlpos.Field, dir string, period float64) (laws.Delay, erro
 		return nil, f.Errorf("want a law whose lowest value is below the period (%s), got %s, lowest %s", laws.FormatSeconds(period), laws.Describe(d), laws.FormatSeconds(lo))
 	}
 	return d, nil
+}
+
+// IsTimingPath says whether a compute_delay value names a rig timing file
+// rather than a duration: it ends in .yaml or .yml.
+func IsTimingPath(s string) bool {
+	return strings.HasSuffix(s, ".yaml") || strings.HasSuffix(s, ".yml")
+}
+
+// LoadTiming reads a rig timing file: one key, compute_delay, a duration
+// or a delay law (profiles/formats.md, the rig timing file), as monitor
+// calibrate writes it. The law's lowest value must be below period.
+func LoadTiming(path string, period float64) (laws.Delay, error) {
+	data, err := yamlpos.ReadInputFile(path, "rig timing file", yamlpos.MaxYAMLBytes)
+	if err != nil {
+		return nil, err
+	}
+	root, err := yamlpos.Document(path, data)
+	if err != nil {
+		return nil, err
+	}
+	keys, err := root.Mapping("compute_delay")
+	if err != nil {
+		return nil, err
+	}
+	f, ok := keys["compute_delay"]
+	if !ok || f.IsNull() {
+		return nil, missing(root, "compute_delay")
+	}
+	if f.Node.Kind == yaml.ScalarNode && IsTimingPath(f.Node.Value) {
+		return nil, f.Errorf("want a duration or a delay law, got another file %s", f.Got())
+	}
+	return parseCompute(f, filepath.Dir(path), period)
 }

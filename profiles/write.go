@@ -164,3 +164,15 @@ var draftStateName = regexp.MustCompile(`^[A-Za-z][A-Za-z0-9_-]*$`)
 
 // draftNum writes a number with six significant digits.
 func draftNum(x float64) string { return strconv.FormatFloat(x, 'g', 6, 64) }
+
+// DelayFlowYAML spells a parametric delay law as a one-line mapping of the
+// profile format, {kind: gamma, shape: 3, scale: 0.002}, from its kind and
+// its keys' values (as estimate/fit names them), checked against the
+// format's table of kinds.
+func DelayFlowYAML(kind string, keys []string, values []float64) (string, error) {
+	dl := DraftDelay{Kind: kind, Keys: keys, Values: values}
+	if err := dl.check(); err != nil {
+		return "", err
+	}
+	return dl.yaml(), nil
+}

@@ -75,6 +75,22 @@ func openBench(cfg benchConfig) (*bench, error) {
 	return b, nil
 }
 
+// reportTurnaround logs the controller's turnaround the relay measured
+// beside the compute law the prediction assumes (ebench.TurnaroundReport),
+// as a warning when the two differ; nothing when the loop does not let the
+// relay pair commands with samples.
+func reportTurnaround(b *bench, log *slog.Logger) {
+	r := b.Turnaround()
+	if r == nil {
+		return
+	}
+	if r.Agree {
+		log.Info(r.String())
+		return
+	}
+	log.Warn(r.String() + ": the prediction assumes another timing than the rig has; measure it with monitor calibrate and point compute_delay at the file it writes")
+}
+
 // badInput makes the bench's input errors (the loop, the profile, the
 // trip rule) bad input; other errors stay failures of the run.
 func badInput(err error) error {

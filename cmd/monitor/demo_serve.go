@@ -75,6 +75,7 @@ func cmdServe(args []string, stdout, stderr io.Writer) error {
 	if err := b.run(ctx, stderr, *bf.every); err != nil {
 		return err
 	}
+	reportTurnaround(b, log)
 	s := b.Monitor.Summary()
 	if err := writeSummary(stdout, *bf.summary, s); err != nil {
 		return err

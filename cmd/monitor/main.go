@@ -44,6 +44,9 @@ commands:
   simulate LOOP.yaml   Monte-Carlo runs of the same loop model
   rig node|controller  the simulated rig's two ends, on real UDP sockets
   run --loop LOOP.yaml measure E[eᵀe] from the rig's sensor datagrams, beside the prediction
+  calibrate --loop LOOP --listen HOST:PORT --controller HOST:PORT
+                       measure the rig's own timing over a clean link and write it
+                       as a rig timing file for the loop's compute_delay
   demo                 rig, relay and monitor on loopback: predicted vs measured
   serve --loop LOOP    relay and monitor of one rig in one process
   soak --loop LOOP --scenario FILE
@@ -60,13 +63,14 @@ func main() {
 
 // commands are monitor's subcommands.
 var commands = map[string]cli.Command{
-	"predict":  cmdPredict,
-	"simulate": cmdSimulate,
-	"rig":      cmdRig,
-	"demo":     cmdDemo,
-	"serve":    cmdServe,
-	"soak":     cmdSoak,
-	"run":      cmdRun,
+	"predict":   cmdPredict,
+	"simulate":  cmdSimulate,
+	"rig":       cmdRig,
+	"demo":      cmdDemo,
+	"serve":     cmdServe,
+	"soak":      cmdSoak,
+	"run":       cmdRun,
+	"calibrate": cmdCalibrate,
 }
 
 // dispatch runs a subcommand and returns its exit status (cli.Dispatch).

@@ -209,6 +209,7 @@ wait:
 	}
 	rec.SampleTripWindow()
 	rec.Finish()
+	reportTurnaround(b, log)
 	b.Monitor.EndPhases(!finished)
 	s := b.Monitor.Summary()
 	code := exitcode.OfSoak(s)

@@ -50,6 +50,7 @@ type Bench struct {
 	Registry *prometheus.Registry
 	log      *slog.Logger
 	cfg      Config
+	turns    *turnarounds // nil: the loop does not let the relay pair commands with samples
 }
 
 // InputError is an error of the loop or the profile (the prediction or
@@ -81,6 +82,13 @@ func Open(cfg Config) (*Bench, error) {
 	rc := emulate.Config{Profile: cfg.Loop.Profile, TapFunc: b.Monitor.Feed, Metrics: emulate.NewMetrics(b.Registry),
 		Listen: cfg.Listen, Controller: cfg.Controller, Actuator: cfg.Actuator,
 		Seed: cfg.Seed, SeedSet: cfg.SeedSet, Logger: cfg.Logger}
+	if l := cfg.Loop; l.Decode.Sequence != nil && l.CommandDecode.Sequence != nil {
+		// The loop says where samples and commands carry their numbers:
+		// the relay measures the controller's turnaround, which the bench
+		// compares with the compute law the prediction assumes.
+		b.turns = &turnarounds{}
+		rc.Pairing = &emulate.Pairing{Sample: l.Decode, Command: l.CommandDecode, Observe: b.turns.observe}
+	}
 	if b.Relay, err = emulate.New(rc); err != nil {
 		return nil, fmt.Errorf("relay: %w", err)
 	}
