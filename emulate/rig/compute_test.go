@@ -85,3 +85,68 @@ func TestRigControllerJitteryCompute(t *testing.T) {
 		t.Errorf("drawn computing times against %s: KS D = %.4f, p = %.2g", laws.Describe(law), d, p)
 	}
 }
+
+// TestRigControllerPipelines: samples 1 ms apart with a computing time of
+// 5 ms each get their commands 5 ms after their own arrival, not queued
+// behind each other (ten in a row would take 50 ms on a controller that
+// computes one at a time): every command's computing time is its own, as
+// the prediction takes it (estimate/model.md §14).
+func TestRigControllerPipelines(t *testing.T) {
+	loop := parseLoop(t, rulesLoop)
+	ctl, err := rig.NewController(rig.ControllerConfig{Loop: loop, Compute: laws.Constant{Value: 0.005}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	ctx, cancel := context.WithCancel(context.Background())
+	done := make(chan error, 1)
+	go func() { done <- ctl.Run(ctx) }()
+	defer func() { cancel(); <-done }()
+	layout, _ := rig.NewLayout(loop)
+	sensor := udpLoopback(t)
+	const n = 10
+	sent := make([]int64, n)
+	type reply struct {
+		k   uint64
+		got int64
+	}
+	replies := make(chan reply, n)
+	go func() {
+		buf := make([]byte, 256)
+		u := make([]float64, 1)
+		for range n {
+			sensor.SetReadDeadline(time.Now().Add(time.Second))
+			m, _, err := sensor.ReadFromUDPAddrPort(buf)
+			if err != nil {
+				close(replies)
+				return
+			}
+			got := rig.Now()
+			if k, _, err := rig.ParseCommand(buf[:m], u); err == nil {
+				replies <- reply{k, got}
+			}
+		}
+		close(replies)
+	}()
+	for k := range n {
+		sent[k] = rig.Now()
+		sensor.WriteToUDPAddrPort(layout.AppendSample(nil, uint64(k+1), sent[k], []float64{0.1}), ctl.LocalAddr())
+		time.Sleep(time.Millisecond)
+	}
+	late, count := 0, 0
+	for r := range replies {
+		count++
+		d := r.got - sent[r.k-1]
+		if d < 5e6 {
+			t.Errorf("command %d after %dns, before its computing time", r.k, d)
+		}
+		if d > 8e6 {
+			late++
+		}
+	}
+	if count != n {
+		t.Fatalf("%d replies, want %d", count, n)
+	}
+	if late > 1 { // a loaded machine may stall one
+		t.Errorf("%d of %d commands more than 3 ms after their computing time: queued behind each other", late, n)
+	}
+}

@@ -2,11 +2,13 @@ package rig
 
 import (
 	"bufio"
+	"container/heap"
 	"context"
 	"errors"
 	"fmt"
 	"io"
 	"log/slog"
+	"math"
 	"math/rand/v2"
 	"net"
 	"net/netip"
@@ -66,9 +68,11 @@ type ControllerStats struct {
 //
 //	u_k = Cc xc + Dc e_k,   xc ← Ac xc + Bc e_k,
 //
-// waits until T + c (c drawn for this sample from the loop's compute_delay
-// or the configured Compute law, honoured on a timerfd and a short spin
-// rather than folded into the network delays) and sends
+// and sends at T + c (c drawn for this sample from the loop's compute_delay
+// or the configured Compute law; a sender of its own keeps the time, on a
+// timer and a short spin, so that a long computation does not hold up the
+// next sample: each sample's c is independent of the others', as
+// estimate/model.md §14 takes it)
 // "k,t_k,u_k" back to the sample's source. Its own stack and compute
 // latency, a few tens of microseconds, add to τ (estimate/model.md §10).
 type Controller struct {
@@ -141,14 +145,9 @@ func (c *Controller) Stats() ControllerStats {
 // Run serves samples until ctx ends, then closes the socket.
 //
 // Shutdown order: ctx ends, the receiver is halted, the serve loop ends
-// within pollEvery, the timer and the socket close.
+// within pollEvery, the sender sends what is pending at its time, the log
+// is flushed and the socket closes.
 func (c *Controller) Run(ctx context.Context) error {
-	w, err := timer.NewPrecise()
-	if err != nil {
-		c.rx.close()
-		c.conn.Close()
-		return fmt.Errorf("rig controller: %w", err)
-	}
 	done := make(chan struct{})
 	go func() {
 		select {
@@ -157,22 +156,34 @@ func (c *Controller) Run(ctx context.Context) error {
 		}
 		c.rx.halt()
 	}()
-	err = c.serveLoop(w)
+	w, err := timer.NewPrecise()
+	if err != nil {
+		close(done)
+		c.rx.close()
+		c.conn.Close()
+		return fmt.Errorf("rig controller: %w", err)
+	}
+	q := &sendQueue{w: w, armedFor: math.MaxInt64}
+	sent := make(chan struct{})
+	go func() { c.sendLoop(q); close(sent) }()
+	err = c.serveLoop(q)
+	q.close()
+	<-sent
+	w.Close()
 	if c.logw != nil {
 		if ferr := c.logw.Flush(); ferr != nil && err == nil {
 			err = fmt.Errorf("rig controller: log: %w", ferr)
 		}
 	}
 	close(done)
-	w.Close()
 	c.rx.close()
 	c.conn.Close()
 	return err
 }
 
-// serveLoop is the controller's one goroutine: read, decide, compute,
-// wait, reply; it ends when the receiver is halted.
-func (c *Controller) serveLoop(w timer.Waiter) error {
+// serveLoop reads, decides and computes, and hands each command to the
+// sender with its send time; it ends when the receiver is halted.
+func (c *Controller) serveLoop(q *sendQueue) error {
 	runtime.LockOSThread()
 	defer runtime.UnlockOSThread()
 	l := c.cfg.Loop
@@ -181,8 +192,6 @@ func (c *Controller) serveLoop(w timer.Waiter) error {
 	xcn := make([]float64, nc)
 	y, e, u := make([]float64, p), make([]float64, p), make([]float64, m)
 	buf := make([]byte, 4096)
-	out := make([]byte, 0, 256)
-	var logBuf []byte
 	last := int64(-1)
 	for {
 		n, src, err := c.rx.recv(buf)
@@ -227,21 +236,93 @@ func (c *Controller) serveLoop(w timer.Waiter) error {
 			e[i] = l.Setpoint[i] - y[i]
 		}
 		simstep.Controller(l.Controller, xc, xcn, e, u)
-		out = AppendCommand(out[:0], k, tk, u)
 		comp := c.comp.Sample(c.rng)
-		if cNs := int64(comp*1e9 + 0.5); cNs > 0 {
-			sleepUntil(w, arrival+cNs)
+		q.push(pendingCommand{due: arrival + int64(comp*1e9+0.5), arrival: arrival, k: k, comp: comp,
+			out: AppendCommand(nil, k, tk, u), dst: src})
+	}
+}
+
+// pendingCommand is a command computed and waiting for its send time.
+type pendingCommand struct {
+	due, arrival int64 // ns, rig clock
+	k            uint64
+	comp         float64 // the computing time drawn, seconds
+	out          []byte
+	dst          netip.AddrPort
+}
+
+// sendQueue holds the commands waiting for their send time. The serve
+// loop pushes and, when a command is due before the time the sender's
+// waiter is armed for, re-arms it (a timerfd may be re-armed from another
+// thread while one waits on it, as the relay's release does).
+type sendQueue struct {
+	mu       sync.Mutex
+	q        commandQueue
+	w        timer.Waiter
+	armedFor int64 // math.MaxInt64: disarmed
+	closed   bool
+}
+
+func (s *sendQueue) push(p pendingCommand) {
+	s.mu.Lock()
+	heap.Push(&s.q, p)
+	if p.due < s.armedFor {
+		s.armedFor = p.due
+		s.w.Arm(time.Duration(p.due - int64(timer.Slack) - Now()))
+	}
+	s.mu.Unlock()
+}
+
+func (s *sendQueue) close() {
+	s.mu.Lock()
+	s.closed = true
+	s.armedFor = 0
+	s.w.Arm(0)
+	s.mu.Unlock()
+}
+
+// sendLoop sends each command at its time, earliest first, logs it and
+// counts it: it sleeps on the waiter until timer.Slack before the earliest
+// send time, then spins. It ends, after sending what is pending, once the
+// queue is closed.
+func (c *Controller) sendLoop(s *sendQueue) {
+	runtime.LockOSThread()
+	defer runtime.UnlockOSThread()
+	var logBuf []byte
+	for {
+		s.mu.Lock()
+		if len(s.q) == 0 {
+			if s.closed {
+				s.mu.Unlock()
+				return
+			}
+			s.armedFor = math.MaxInt64
+			s.w.Disarm()
+			s.mu.Unlock()
+			s.w.Wait()
+			continue
 		}
-		_, err = c.conn.WriteToUDPAddrPort(out, src)
+		next := s.q[0]
+		if now := Now(); next.due-int64(timer.Slack) > now && !s.closed {
+			s.armedFor = next.due
+			s.w.Arm(time.Duration(next.due - int64(timer.Slack) - now))
+			s.mu.Unlock()
+			s.w.Wait()
+			continue
+		}
+		heap.Pop(&s.q)
+		s.mu.Unlock()
+		for Now() < next.due {
+		}
+		_, err := c.conn.WriteToUDPAddrPort(next.out, next.dst)
 		if c.logw != nil {
-			sent := Now()
-			lb := strconv.AppendUint(logBuf[:0], k, 10)
+			lb := strconv.AppendUint(logBuf[:0], next.k, 10)
 			lb = append(lb, ',')
-			lb = appendSeconds(lb, arrival)
+			lb = appendSeconds(lb, next.arrival)
 			lb = append(lb, ',')
-			lb = appendSeconds(lb, sent)
+			lb = appendSeconds(lb, Now())
 			lb = append(lb, ',')
-			lb = strconv.AppendFloat(lb, comp, 'g', 9, 64)
+			lb = strconv.AppendFloat(lb, next.comp, 'g', 9, 64)
 			lb = append(lb, '\n')
 			logBuf = lb
 			c.logw.Write(lb)
@@ -254,4 +335,21 @@ func (c *Controller) serveLoop(w timer.Waiter) error {
 		}
 		c.mu.Unlock()
 	}
+}
+
+// commandQueue is a min-heap of pending commands by send time, then by
+// sequence (container/heap).
+type commandQueue []pendingCommand
+
+func (q commandQueue) Len() int { return len(q) }
+func (q commandQueue) Less(i, j int) bool {
+	return q[i].due < q[j].due || (q[i].due == q[j].due && q[i].k < q[j].k)
+}
+func (q commandQueue) Swap(i, j int) { q[i], q[j] = q[j], q[i] }
+func (q *commandQueue) Push(x any)   { *q = append(*q, x.(pendingCommand)) }
+func (q *commandQueue) Pop() any {
+	old := *q
+	x := old[len(old)-1]
+	*q = old[:len(old)-1]
+	return x
 }

@@ -71,7 +71,19 @@ func NewLayout(loop *profiles.Loop) (Layout, error) {
 	} else {
 		l.seq = free()
 	}
-	l.t = free()
+	if st := d.SampleTime; st != nil {
+		// The rig writes t_k in seconds on CLOCK_MONOTONIC, nine decimals.
+		if d.TimeUnit != 1e9 {
+			return Layout{}, fmt.Errorf("decode.sample_time: the simulated rig writes its sample times in seconds (unit: s)")
+		}
+		if used[st.Field] {
+			return Layout{}, fmt.Errorf("decode.sample_time: field %d is also an output or the sequence", st.Field)
+		}
+		used[st.Field] = true
+		l.t = st.Field
+	} else {
+		l.t = free()
+	}
 	for i := range used {
 		l.nfields = max(l.nfields, i+1)
 	}
