@@ -72,6 +72,7 @@ type pairNote struct {
 	tag    uint64
 	turn   int64
 	paired bool
+	lat    int64 // a sample's sensor-side latency, ns; −1: not measured
 }
 
 // pairNote reads a datagram's sequence for the pairing, and for a command
@@ -79,12 +80,12 @@ type pairNote struct {
 func (d *direction) pairNote(payload []byte, now int64) pairNote {
 	switch d.pairSide {
 	case pairSamples:
-		return pairNote{tag: d.pair.sampleTag(payload)}
+		return pairNote{tag: d.pair.sampleTag(payload), lat: d.pair.latency(payload)}
 	case pairCommands:
 		tag, turn := d.pair.command(payload, now)
-		return pairNote{tag: tag, turn: turn, paired: turn >= 0}
+		return pairNote{tag: tag, turn: turn, paired: turn >= 0, lat: -1}
 	}
-	return pairNote{}
+	return pairNote{lat: -1}
 }
 
 type dirConfig struct {

@@ -60,6 +60,10 @@ type Metrics struct {
 	// time from the sample's release to the controller to the command's
 	// arrival at the relay.
 	Turnaround prometheus.Histogram
+	// SensorLatency: for each sensor datagram with a sample time on a
+	// clock the relay shares (Pairing.Clock), the time from its sample
+	// time to its arrival at the relay.
+	SensorLatency prometheus.Histogram
 	// PairingFailures: datagrams that could not be paired, by reason.
 	PairingFailures *prometheus.CounterVec // reason
 }
@@ -175,9 +179,14 @@ func NewMetrics(reg prometheus.Registerer) *Metrics {
 		Help:    "For each command paired with the sample it answers: from the relay's release of that sample to the controller to the command's arrival at the relay (the controller's computing time plus both hops to it). Only with a pairing (impair run --loop).",
 		Buckets: prometheus.ExponentialBucketsRange(10e-6, 1, 34),
 	})
+	m.SensorLatency = prometheus.NewHistogram(prometheus.HistogramOpts{
+		Name:    "rigwire_relay_sensor_latency_seconds",
+		Help:    "For each sensor datagram that carries its sample time on a clock the relay shares (impair run --loop with decode.sample_time and --sample-clock): from that time to the datagram's arrival at the relay (the node's stack and the hop to the relay).",
+		Buckets: prometheus.ExponentialBucketsRange(1e-6, 1, 31),
+	})
 	m.PairingFailures = prometheus.NewCounterVec(prometheus.CounterOpts{
 		Name: "rigwire_relay_pairing_failures_total",
-		Help: "Datagrams the relay could not pair, by reason: sample_without_sequence (a sensor datagram whose sequence does not decode), command_without_sequence (likewise a command), sample_not_released (a command for a sample the relay has not sent to the controller, or not recently).",
+		Help: "Datagrams the relay could not pair, by reason: sample_without_sequence (a sensor datagram whose sequence does not decode), command_without_sequence (likewise a command), sample_not_released (a command for a sample the relay has not sent to the controller, or not recently), sample_without_time (a sensor datagram whose sample time does not decode, with a sample clock), sample_time_ahead (a sample time ahead of the relay's clock: the clocks are not shared).",
 	}, []string{"reason"})
 	m.ScenarioElapsed = prometheus.NewGaugeFunc(prometheus.GaugeOpts{
 		Name: "rigwire_relay_scenario_elapsed_seconds",
@@ -186,7 +195,7 @@ func NewMetrics(reg prometheus.Registerer) *Metrics {
 	reg.MustRegister(m.Datagrams, m.Bytes, m.Delay, m.Lateness, m.InFlight,
 		m.ChannelState, m.Tap, m.RecordLost, m.Reloads, m.LossRuns, m.Tripped,
 		m.ScenarioPhase, m.ScenarioSteps, m.ScenarioElapsed, m.SensorSource, m.SensorSourceChanges, m.Reordered,
-		m.Turnaround, m.PairingFailures)
+		m.Turnaround, m.SensorLatency, m.PairingFailures)
 	m.SensorSourceChanges.WithLabelValues(lockFirst)
 	m.SensorSourceChanges.WithLabelValues(lockQuiet)
 	for _, o := range []string{"sent", OutcomeSendError} {

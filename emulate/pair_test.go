@@ -32,19 +32,19 @@ func TestPairerRules(t *testing.T) {
 	m := NewMetrics(prometheus.NewRegistry())
 	var seen []int64
 	p := riglike
-	p.Observe = func(seq uint64, turn int64) { seen = append(seen, turn) }
+	p.Observe = func(seq uint64, turn, _ int64) { seen = append(seen, turn) }
 	pr := newPairer(p, m)
 	if tag := pr.sampleTag([]byte("7,123,0.5")); tag != 8 {
 		t.Fatalf("sample tag %d, want 8", tag)
 	}
-	pr.released(8, 1000)
+	pr.released(8, 1000, -1)
 	if tag, turn := pr.command([]byte("7,123,0.25"), 3500); tag != 8 || turn != 2500 {
 		t.Errorf("command for 7: tag %d turn %d, want 8 and 2500", tag, turn)
 	}
 	if _, turn := pr.command([]byte("9,0,0"), 4000); turn != -1 {
 		t.Errorf("command for a sample never released: turn %d, want -1", turn)
 	}
-	pr.released(7+pairRing+1, 5000) // the same slot, a later sample
+	pr.released(7+pairRing+1, 5000, -1) // the same slot, a later sample
 	if _, turn := pr.command([]byte("7,0,0"), 6000); turn != -1 {
 		t.Errorf("command for a sample overwritten in the ring: turn %d, want -1", turn)
 	}
@@ -63,10 +63,10 @@ func TestPairerRules(t *testing.T) {
 	if len(seen) != 1 || seen[0] != 2500 {
 		t.Errorf("observed %v, want [2500]", seen)
 	}
-	if err := (&Pairing{Command: riglike.Command}).check(); err == nil || !strings.Contains(err.Error(), "decode.sequence") {
+	if err := (&Pairing{Command: riglike.Command}).Check(); err == nil || !strings.Contains(err.Error(), "decode.sequence") {
 		t.Errorf("no sample sequence: %v", err)
 	}
-	if err := (&Pairing{Sample: riglike.Sample}).check(); err == nil || !strings.Contains(err.Error(), "command_decode.sequence") {
+	if err := (&Pairing{Sample: riglike.Sample}).Check(); err == nil || !strings.Contains(err.Error(), "command_decode.sequence") {
 		t.Errorf("no command sequence: %v", err)
 	}
 }
@@ -80,7 +80,7 @@ func TestPairingDoesNotAllocate(t *testing.T) {
 	n := int64(0)
 	allocs := testing.AllocsPerRun(500, func() {
 		n++
-		pr.released(pr.sampleTag(sample), n)
+		pr.released(pr.sampleTag(sample), n, pr.latency(sample))
 		pr.command(command, n+10)
 	})
 	if allocs != 0 {
@@ -102,7 +102,7 @@ func TestRelayMeasuresTurnaround(t *testing.T) {
 	var mu sync.Mutex
 	turns := map[uint64]int64{}
 	pairing := riglike
-	pairing.Observe = func(seq uint64, turn int64) { mu.Lock(); turns[seq] = turn; mu.Unlock() }
+	pairing.Observe = func(seq uint64, turn, _ int64) { mu.Lock(); turns[seq] = turn; mu.Unlock() }
 	rig := startLoopback(t, p, func(c *Config) { c.Record = rec; c.Pairing = &pairing })
 	const n = 80
 	hold := func(k uint64) time.Duration { return 500*time.Microsecond + time.Duration(k%8)*200*time.Microsecond }
@@ -177,5 +177,50 @@ func TestRelayMeasuresTurnaround(t *testing.T) {
 	}
 	if recTurns != n {
 		t.Errorf("record: %d commands with a turnaround, want %d", recTurns, n)
+	}
+}
+
+// TestPairerSensorLatency: with a monotonic sample clock, a sample stamped
+// 1 ms ago has a latency of 1 ms and a little (the test's own time), which
+// a command answering it reports with its turnaround; a sample stamped in
+// the future or without a time is counted and not measured.
+func TestPairerSensorLatency(t *testing.T) {
+	m := NewMetrics(prometheus.NewRegistry())
+	var gotLat int64 = -2
+	p := riglike
+	p.Sample.SampleTime, p.Sample.TimeUnit = &datagram.Field{Field: 1}, 1
+	p.Clock = SampleClockMonotonic
+	p.Observe = func(_ uint64, _, lat int64) { gotLat = lat }
+	if err := p.Check(); err != nil {
+		t.Fatal(err)
+	}
+	pr := newPairer(p, m)
+	sample := []byte(fmt.Sprintf("3,%d,0.5", monotonicNow()-1_000_000))
+	lat := pr.latency(sample)
+	if lat < 1_000_000 || lat > 51_000_000 {
+		t.Fatalf("latency %dns of a sample stamped 1 ms ago", lat)
+	}
+	pr.released(pr.sampleTag(sample), 100, lat)
+	if _, turn := pr.command([]byte("3,0,0"), 300); turn != 200 || gotLat != lat {
+		t.Errorf("command: turnaround %d, latency %d; want 200 and %d", turn, gotLat, lat)
+	}
+	if l := pr.latency([]byte(fmt.Sprintf("4,%d,0.5", monotonicNow()+int64(time.Second)))); l != -1 {
+		t.Errorf("a sample stamped in the future: latency %d", l)
+	}
+	if l := pr.latency([]byte("5,,0.5")); l != -1 {
+		t.Errorf("a sample without a time: latency %d", l)
+	}
+	for r, w := range map[string]float64{"sample_time_ahead": 1, "sample_without_time": 1} {
+		if got := testutil.ToFloat64(m.PairingFailures.WithLabelValues(r)); got != w {
+			t.Errorf("%s: %g, want %g", r, got, w)
+		}
+	}
+	if got := testutil.CollectAndCount(m.SensorLatency); got != 1 {
+		t.Errorf("latency histogram: %d series", got)
+	}
+	noTime := riglike
+	noTime.Clock = SampleClockRealtime
+	if err := noTime.Check(); err == nil || !strings.Contains(err.Error(), "decode.sample_time") {
+		t.Errorf("a clock without a sample time: %v", err)
 	}
 }

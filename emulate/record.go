@@ -3,6 +3,7 @@ package emulate
 import (
 	"bufio"
 	"io"
+	"rigwire/profiles"
 	"strconv"
 	"sync"
 
@@ -13,7 +14,7 @@ import (
 //
 //	# rigwire relay record v3
 //	# times in seconds on the relay's monotonic clock since it started
-//	arrival_s,direction,state,decision,delay_s,due_s,release_s,arrival_seq,sample_seq,turnaround_s
+//	arrival_s,direction,state,decision,delay_s,due_s,release_s,arrival_seq,sample_seq,turnaround_s,sensor_latency_s
 //
 // then one line per datagram, written when its fate is settled (so lines
 // are in order of settlement, not of arrival: sorting a direction's lines
@@ -27,17 +28,19 @@ import (
 // number a sensor datagram carries, or the one of the sample a command
 // answers, and turnaround_s, on a command paired with its sample, the time
 // from that sample's release to the controller to the command's arrival;
-// both are empty otherwise. Times carry nine decimals (nanoseconds).
+// both are empty otherwise; sensor_latency_s, on a sensor datagram with a
+// sample time on a clock the relay shares (Pairing.Clock), the time from
+// that sample time to its arrival. Times carry nine decimals (nanoseconds).
 const RecordHeader = RecordMagic + "3\n" +
 	"# times in seconds on the relay's monotonic clock since it started\n" +
-	"arrival_s,direction,state,decision,delay_s,due_s,release_s,arrival_seq,sample_seq,turnaround_s\n"
+	"arrival_s,direction,state,decision,delay_s,due_s,release_s,arrival_seq,sample_seq,turnaround_s,sensor_latency_s\n"
 
 // RecordMagic begins the first line of every version of the record (its
 // version number follows): what tells a relay record from another file.
 const RecordMagic = "# rigwire relay record v"
 
 // RecordColumns are the record file's column names, in order.
-var RecordColumns = []string{"arrival_s", "direction", "state", "decision", "delay_s", "due_s", "release_s", "arrival_seq", "sample_seq", "turnaround_s"}
+var RecordColumns = []string{"arrival_s", "direction", "state", "decision", "delay_s", "due_s", "release_s", "arrival_seq", "sample_seq", "turnaround_s", "sensor_latency_s"}
 
 type rec struct {
 	arrival, due, release int64
@@ -164,6 +167,10 @@ func (r *recorder) write(x *rec) error {
 	b = append(b, ',')
 	if x.pair.paired {
 		b = appendSeconds(b, x.pair.turn)
+	}
+	b = append(b, ',')
+	if x.pair.lat > 0 || (x.pair.lat == 0 && x.pair.tag > 0 && x.dir == profiles.SensorToController) {
+		b = appendSeconds(b, x.pair.lat)
 	}
 	b = append(b, '\n')
 	r.line = b

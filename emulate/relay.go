@@ -79,7 +79,7 @@ func New(cfg Config) (*Relay, error) {
 		r.rec = rec
 	}
 	if cfg.Pairing != nil {
-		if err := cfg.Pairing.check(); err != nil {
+		if err := cfg.Pairing.Check(); err != nil {
 			r.closeSockets()
 			return nil, err
 		}

@@ -17,7 +17,7 @@ import (
 // defaults to little. The sequence of a binary format must be an integer
 // type.
 func parseDecode(f yamlpos.Field, d *datagram.Layout, p int) error {
-	keys, err := f.Mapping("format", "separator", "outputs", "sequence")
+	keys, err := f.Mapping("format", "separator", "outputs", "sequence", "sample_time")
 	if err != nil {
 		return err
 	}
@@ -48,6 +48,50 @@ func parseDecode(f yamlpos.Field, d *datagram.Layout, p int) error {
 		}
 		d.Sequence = &df
 	}
+	if s := keys["sample_time"]; !s.IsNull() {
+		return parseSampleTime(s, d)
+	}
+	return nil
+}
+
+// parseSampleTime reads decode.sample_time: where the sample time sits
+// (a field as the outputs', any type) and its unit.
+//
+//	sample_time: {field: 1, unit: ns}
+func parseSampleTime(f yamlpos.Field, d *datagram.Layout) error {
+	keys, err := f.Mapping("field", "offset", "type", "order", "unit")
+	if err != nil {
+		return err
+	}
+	u := keys["unit"]
+	if u.IsNull() {
+		return missing(f, "unit")
+	}
+	name, err := u.Text()
+	if err != nil {
+		return err
+	}
+	unit, ok := datagram.TimeUnits[name]
+	if !ok {
+		return u.Errorf("want ns, us, ms or s, got %s", u.Got())
+	}
+	// The position keys alone, through the fields' own parser.
+	pos := f
+	if n := f.Node; n != nil {
+		c := *n
+		c.Content = nil
+		for i := 0; i+1 < len(n.Content); i += 2 {
+			if n.Content[i].Value != "unit" {
+				c.Content = append(c.Content, n.Content[i], n.Content[i+1])
+			}
+		}
+		pos.Node = &c
+	}
+	df, err := parseDecodeField(pos, d.Format, false)
+	if err != nil {
+		return err
+	}
+	d.SampleTime, d.TimeUnit = &df, unit
 	return nil
 }
 

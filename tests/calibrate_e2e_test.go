@@ -28,7 +28,7 @@ const jitteryController = "{kind: gamma, shape: 2, scale: 2ms, shift: 1ms}"
 // a gamma of mean 4 ms for every sample), each part its own process on
 // loopback.
 //
-//  1. monitor calibrate relays the rig over a clean link for 30 s and
+//  1. monitor calibrate relays the rig over a clean link for 15 s and
 //     writes the rig timing file.
 //  2. The rig then runs for three minutes through impair run over the
 //     loop's profile, with the relay pairing commands and samples
@@ -56,8 +56,8 @@ func TestCalibrationEndToEnd(t *testing.T) {
 	t.Parallel()
 	const src = "../profiles/examples/checks/rig-jitter.yaml"
 	dir := t.TempDir()
-	loopPath, calPath, out := calibrateRig(t, src, dir, 30*time.Second, "--compute", jitteryController, "--seed", "3")
-	for _, want := range []string{"chosen (least AIC)", "prediction with the measured turnaround", "calibrating"} {
+	loopPath, calPath, out := calibrateRig(t, src, dir, 15*time.Second, "--compute", jitteryController, "--seed", "3")
+	for _, want := range []string{"chosen (least AIC)", "prediction with the measured turnaround", "calibrating", "sensor-side latency added"} {
 		if !strings.Contains(out, want) {
 			t.Errorf("monitor calibrate's output lacks %q:\n%s", want, out)
 		}
@@ -81,7 +81,7 @@ func TestCalibrationEndToEnd(t *testing.T) {
 	record, ctlLog := filepath.Join(dir, "record.csv"), filepath.Join(dir, "controller.csv")
 	r := startRigOpts(t, calPath, 3*time.Minute, "15", rigOpts{monitor: true,
 		ctlArgs:   []string{"--compute", jitteryController, "--seed", "5", "--log", ctlLog, "--cautions-read"},
-		relayArgs: []string{"--loop", calPath, "--record", record}})
+		relayArgs: []string{"--loop", calPath, "--record", record, "--sample-clock", "monotonic"}})
 	var s struct {
 		Samples   int      `json:"samples"`
 		Measured  *float64 `json:"error_second_moment"`
@@ -125,10 +125,17 @@ func TestCalibrationEndToEnd(t *testing.T) {
 		}
 		compute[k] = c
 	}
-	var turns, comps, hops []float64
+	var turns, comps, hops, lats []float64
 	for _, l := range readLines(t, record) {
 		f := strings.Split(l, ",")
-		if len(f) != 10 || f[1] != profiles.ControllerToActuator || f[9] == "" {
+		if len(f) == 11 && f[1] == profiles.SensorToController && f[10] != "" {
+			lat, err := strconv.ParseFloat(f[10], 64)
+			if err != nil || lat < 0 {
+				t.Fatalf("record line %q: sensor_latency_s", l)
+			}
+			lats = append(lats, lat)
+		}
+		if len(f) != 11 || f[1] != profiles.ControllerToActuator || f[9] == "" {
 			continue
 		}
 		k, err1 := strconv.ParseUint(f[8], 10, 64)
@@ -144,6 +151,15 @@ func TestCalibrationEndToEnd(t *testing.T) {
 	}
 	if want := int(0.9 * float64(len(compute))); len(turns) < want {
 		t.Fatalf("%d turnarounds in the record for %d commands logged", len(turns), len(compute))
+	}
+	// The sensor side: the node's stack and one loopback hop, well below a
+	// millisecond but for a few stalls of a loaded machine.
+	slices.Sort(lats)
+	switch {
+	case len(lats) < 17000:
+		t.Errorf("%d sensor-side latencies in the record, want one per sample", len(lats))
+	case lats[len(lats)/2] > 0.001:
+		t.Errorf("sensor-side latency: median %s, want a loopback hop", laws.FormatSeconds(lats[len(lats)/2]))
 	}
 	rng := rand.New(rand.NewPCG(1, 2))
 	rng.Shuffle(len(hops), func(i, j int) { hops[i], hops[j] = hops[j], hops[i] })
@@ -162,7 +178,8 @@ func TestCalibrationEndToEnd(t *testing.T) {
 
 // calibrateRig runs monitor calibrate for dur between the rig node and
 // the rig controller (with ctlArgs), each its own process, on a copy of
-// the loop file src in dir. It returns the copy, a copy calibrated with
+// the loop file src in dir, the sensor side measured too (the node's
+// sample times are on this host's CLOCK_MONOTONIC). It returns the copy, a copy calibrated with
 // the rig timing file written, and calibrate's output.
 func calibrateRig(t *testing.T, src, dir string, dur time.Duration, ctlArgs ...string) (loopPath, calPath, out string) {
 	t.Helper()
@@ -172,7 +189,7 @@ func calibrateRig(t *testing.T, src, dir string, dur time.Duration, ctlArgs ...s
 	ctlAddr, relayAddr := freePort(t, "udp"), freePort(t, "udp")
 	ctl := start(t, mon, append([]string{"rig", "controller", "--loop", loopPath, "--listen", ctlAddr, "--cautions-read"}, ctlArgs...)...)
 	cal := start(t, mon, "calibrate", "--loop", loopPath, "--listen", relayAddr, "--controller", ctlAddr,
-		"--duration", dur.String(), "--every", "10s", "--write", timing, "--cautions-read")
+		"--duration", dur.String(), "--every", "10s", "--write", timing, "--sample-clock", "monotonic", "--cautions-read")
 	time.Sleep(300 * time.Millisecond)
 	node := start(t, mon, "rig", "node", "--loop", loopPath, "--relay", relayAddr, "--duration", (dur - time.Second).String(), "--seed", "4", "--cautions-read")
 	if code := node.wait(t, dur+30*time.Second); code != 0 {

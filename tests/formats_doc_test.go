@@ -55,6 +55,7 @@ var mappingSections = map[string]string{
 	"profiles/loopload.go parsePlant a":                     "loop.plant",
 	"profiles/loopload.go parseController a":                "loop.controller",
 	"profiles/loopdecodeparse.go parseDecode format":        "loop.decode",
+	"profiles/loopdecodeparse.go parseSampleTime field":     "loop.decode.sample_time",
 	"profiles/loopdecodeparse.go parseCommandDecode format": "loop.command_decode",
 	"profiles/loopdecodeparse.go parseDecodeField field":    "loop.decode.text",
 	"profiles/loopdecodeparse.go parseDecodeField offset":   "loop.decode.binary",

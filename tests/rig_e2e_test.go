@@ -184,7 +184,7 @@ var (
 // ~0.2–0.4 ms to every τ and biases E[eᵀe] up by a few per cent (estimate
 // doc, "Conventions"), and the short runs' correlation (a few dozen independent stretches
 // per run). The "sometimes late" loop, whose late commands make it the most
-// sensitive to that latency, is first calibrated (monitor calibrate, 20 s
+// sensitive to that latency, is first calibrated (monitor calibrate, 10 s
 // over a clean link) and held to the usual tolerance, calTol. With a monitor (`monitor run` on the relay's tap), its
 // measured value must also equal the one computed from the log, to
 // monTol relative: both count the same samples.
@@ -212,7 +212,7 @@ func TestRigEndToEnd(t *testing.T) {
 		t.Run(tc.name, func(t *testing.T) {
 			loop, relTol := tc.loop, relTol
 			if tc.calibrate {
-				_, loop, _ = calibrateRig(t, tc.loop, t.TempDir(), 20*time.Second)
+				_, loop, _ = calibrateRig(t, tc.loop, t.TempDir(), 10*time.Second)
 				relTol = calTol
 			}
 			r := startRig(t, loop, tc.dur, strconv.Itoa(100+i), monitor)

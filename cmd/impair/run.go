@@ -84,6 +84,7 @@ func cmdRun(args []string, stdout, stderr io.Writer) error {
 	onTrip := fs.String("on-trip", "clean", "what a trip does: clean (forward everything, no loss or delay) or stop_commands")
 	metricsAddr := fs.String("metrics", "127.0.0.1:9471", "serve Prometheus metrics on `HOST:PORT` (\"off\": none)")
 	recordPath := fs.String("record", "", "write one line per datagram to `FILE`")
+	sampleClock := fs.String("sample-clock", "none", "with --loop and a decode.sample_time: the clock of the sample times, monotonic (the node on this host) or realtime (clocks synchronised), to measure the sensor side's latency; none: not measured")
 	loopPath := fs.String("loop", "", "the rig's loop `FILE`: pair each command with the sample it answers (its decode.sequence and command_decode) and measure the controller's turnaround")
 	seed := fs.Uint64("seed", 0, "seed of the decisions (default: the profile's, else random)")
 	maxDatagram := fs.Int("max-datagram", emulate.DefaultMaxDatagram, "longest datagram accepted, `bytes`")
@@ -134,7 +135,7 @@ func cmdRun(args []string, stdout, stderr io.Writer) error {
 	var specs []links.Spec
 	if *linksPath != "" {
 		for _, name := range []string{"listen", "controller", "actuator", "sensor", "controller-bind", "tap",
-			"trip-listen", "trip-from", "on-trip", "record", "seed", "relock-after", "loop"} {
+			"trip-listen", "trip-from", "on-trip", "record", "seed", "relock-after", "loop", "sample-clock"} {
 			if set[name] {
 				return fail("--%s: not with --links (give it per link in %s)", name, *linksPath)
 			}
@@ -163,10 +164,21 @@ func cmdRun(args []string, stdout, stderr io.Writer) error {
 		if err := links.CheckFamilies(s, func(key string) string { return "--" + key }); err != nil {
 			return fail("%v", err)
 		}
+		clock, ok := emulate.ParseSampleClock(*sampleClock)
+		switch {
+		case !ok:
+			return fail("--sample-clock: want none, monotonic or realtime, got %q", *sampleClock)
+		case clock != emulate.SampleClockNone && *loopPath == "":
+			return fail("--sample-clock: only with --loop")
+		}
 		if *loopPath != "" {
 			p, err := links.PairingFromLoop(*loopPath)
 			if err != nil {
 				return cli.BadInput(fmt.Errorf("--loop: %w", err))
+			}
+			p.Clock = clock
+			if err := p.Check(); err != nil {
+				return cli.BadInput(fmt.Errorf("--loop %s: %w", *loopPath, err))
 			}
 			s.Pairing, s.LoopPath = p, *loopPath
 		}

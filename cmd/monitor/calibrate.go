@@ -66,6 +66,7 @@ func cmdCalibrate(args []string, stdout, stderr io.Writer) error {
 	fs.Var(&dur, "duration", "measure for `D`")
 	write := fs.String("write", "", "write the rig timing file to `FILE` (default: the loop file's name with .timing.yaml)")
 	every := fs.Duration("every", 5*time.Second, "log progress every `D`")
+	clock := fs.String("sample-clock", "none", "the clock of the sample times the sensor datagrams carry (decode.sample_time): monotonic (the node on this host), realtime (clocks synchronised) or none; with one, the sensor side's latency is measured and added")
 	if err := fs.Parse(args); err != nil {
 		return err
 	}
@@ -103,9 +104,23 @@ func cmdCalibrate(args []string, stdout, stderr io.Writer) error {
 	var mu sync.Mutex
 	turns := make([]float64, 0, 4096)
 	dropped := 0
-	pairing.Observe = func(_ uint64, turn int64) {
+	var ok bool
+	if pairing.Clock, ok = emulate.ParseSampleClock(*clock); !ok {
+		return cli.Usagef("--sample-clock: want none, monotonic or realtime, got %q", *clock)
+	}
+	if pairing.Clock != emulate.SampleClockNone && loop.Decode.SampleTime == nil {
+		return cli.BadInput(fmt.Errorf("--sample-clock %s: loop %s has no decode.sample_time to read the sample times from", *clock, loop.File))
+	}
+	withLat := 0
+	pairing.Observe = func(_ uint64, turn, lat int64) {
 		mu.Lock()
 		if len(turns) < maxCalibration {
+			// With the sensor side measured, the rig's own time is that
+			// and the turnaround, command by command.
+			if lat >= 0 {
+				turn += lat
+				withLat++
+			}
 			turns = append(turns, float64(turn)/1e9)
 		} else {
 			dropped++
@@ -160,30 +175,13 @@ wait:
 	if dropped > 0 {
 		log.Warn("calibration: kept the first turnarounds only", "kept", len(xs), "not kept", dropped)
 	}
+	if pairing.Clock != emulate.SampleClockNone {
+		log.Info("calibration: sensor-side latency added to the turnaround", "commands", len(xs), "with a sample time", withLat)
+	}
 	if len(xs) < fit.MinFitSamples {
-		return cli.Exit{Code: exitcode.Failure, Msg: calibrationShortfall(s, len(xs))}
+		return cli.Exit{Code: exitcode.Failure, Msg: "calibration: " + links.PairingShortfall(s, len(xs), fit.MinFitSamples)}
 	}
 	return finishCalibration(stdout, loop, xs, out)
-}
-
-// calibrationShortfall says why too few commands were paired.
-func calibrationShortfall(s emulate.Stats, n int) string {
-	f := s.PairingFailures
-	var why string
-	switch {
-	case s.SensorToController.Forwarded == 0:
-		why = "no sensor datagram reached the relay: is the rig's node sending to --listen?"
-	case s.ControllerToActuator.Forwarded == 0:
-		why = "no command came back from the controller: is it listening at --controller and answering the relay?"
-	case f["sample_without_sequence"] > 0 && f["sample_without_sequence"] >= s.SensorToController.Forwarded/2:
-		why = "the sensor datagrams carry no sequence number where the loop's decode.sequence says: the relay cannot tell which sample a command answers"
-	case f["command_without_sequence"] > 0:
-		why = "the commands carry no sequence number where the loop's command_decode says: the relay cannot tell which sample they answer"
-	default:
-		why = "the commands name samples the relay did not send (check that command_decode points at the answered sample's number)"
-	}
-	return fmt.Sprintf("calibration: %d commands paired with their samples, want at least %d to fit a law: %s (samples %d, commands %d, unpaired %v)",
-		n, fit.MinFitSamples, why, s.SensorToController.Forwarded, s.ControllerToActuator.Forwarded, f)
 }
 
 // finishCalibration fits the turnarounds, prints the fits and the

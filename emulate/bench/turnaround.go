@@ -22,7 +22,7 @@ type turnarounds struct {
 	n    int // measured so far (the ring holds the last min(n, keep))
 }
 
-func (t *turnarounds) observe(_ uint64, turn int64) {
+func (t *turnarounds) observe(_ uint64, turn, _ int64) {
 	t.mu.Lock()
 	t.ring[t.n%turnaroundKeep] = float64(turn) / 1e9
 	t.n++

@@ -154,7 +154,7 @@ func Parse(data []byte, file, dir string) (*File, error) {
 
 func parseLink(it yamlpos.Field, dir string) (Spec, error) {
 	keys, err := it.Mapping("name", "listen", "controller", "actuator", "sensor", "relock_after", "controller_bind", "tap",
-		"profile", "scenario", "seed", "record", "loop", "trip_listen", "trip_from", "on_trip")
+		"profile", "scenario", "seed", "record", "loop", "sample_clock", "trip_listen", "trip_from", "on_trip")
 	if err != nil {
 		return Spec{}, err
 	}
@@ -260,6 +260,22 @@ func parseLink(it yamlpos.Field, dir string) (Spec, error) {
 	if l.LoopPath != "" {
 		if l.Pairing, err = PairingFromLoop(l.LoopPath); err != nil {
 			return l, keys["loop"].Errorf("%v", err)
+		}
+	}
+	if f, ok := keys["sample_clock"]; ok {
+		s, _ := f.Text()
+		c, ok := emulate.ParseSampleClock(s)
+		switch {
+		case !ok:
+			return l, f.Errorf("want none, monotonic or realtime, got %s", f.Got())
+		case l.Pairing == nil && c != emulate.SampleClockNone:
+			return l, f.Errorf("only with loop")
+		}
+		if l.Pairing != nil {
+			l.Pairing.Clock = c
+			if err := l.Pairing.Check(); err != nil {
+				return l, f.Errorf("%v", err)
+			}
 		}
 	}
 	if f, ok := keys["seed"]; ok {

@@ -42,6 +42,9 @@ var (
 // from the start.
 var Reasons = []*Error{ErrTooShort, ErrNotNumber, ErrNotFinite, ErrOutOfRange, ErrBadSequence, ErrOversized}
 
+// ErrBadTime is not among Reasons: the sample time is read only by the
+// relay's pairing, which counts its own failures.
+
 // MaxOutput bounds the magnitude of a decoded output (and of a setpoint:
 // the monitor refuses a loop whose setpoint lies beyond it). The monitor
 // squares twice: x = eᵀe for each sample, then x² for the spread of the
@@ -290,4 +293,52 @@ func binaryCounter(payload []byte, f Field) (v uint64, ok, neg bool) {
 		return uint64(s), true, s < 0
 	}
 	return 0, false, false // float types are refused by the loader
+}
+
+// ErrBadTime: the sample time field is not a number.
+var ErrBadTime = &Error{Reason: "bad_sample_time"}
+
+// Time decodes the sample time a datagram carries, in nanoseconds on the
+// sender's clock (hasTime false when the layout has none). A text field is
+// a decimal number; a binary one any of the binary types. Values beyond
+// 2⁵³ ns (Unix times in nanoseconds) keep float64's precision, a few
+// hundred nanoseconds. Like Output it never allocates and never panics.
+func (d *Layout) Time(payload []byte) (ns int64, hasTime bool, err error) {
+	if d.SampleTime == nil {
+		return 0, false, nil
+	}
+	var v float64
+	if d.Format == "binary" {
+		x, ok := binaryValue(payload, *d.SampleTime)
+		if !ok {
+			return 0, false, ErrTooShort
+		}
+		v = x
+	} else {
+		sep := comma
+		if d.Separator != "" {
+			sep = unsafe.Slice(unsafe.StringData(d.Separator), len(d.Separator))
+		}
+		b, ok := textField(payload, sep, d.SampleTime.Field)
+		if !ok {
+			return 0, false, ErrTooShort
+		}
+		if !isDecimal(b) {
+			return 0, false, ErrBadTime
+		}
+		x, perr := strconv.ParseFloat(unsafe.String(unsafe.SliceData(b), len(b)), 64)
+		if perr != nil {
+			return 0, false, ErrBadTime
+		}
+		v = x
+	}
+	unit := d.TimeUnit
+	if unit == 0 {
+		unit = 1
+	}
+	v *= unit
+	if !(v >= -9.2e18 && v <= 9.2e18) {
+		return 0, false, ErrBadTime
+	}
+	return int64(v), true, nil
 }

@@ -206,12 +206,13 @@ func FuzzDecode(f *testing.F) {
 			sep = ","
 		}
 		all := append(decoders, &Layout{Format: "text", Separator: sep,
-			Outputs: []Field{{Field: 1}, {Field: 2}}, Sequence: &Field{Field: 0}})
+			Outputs: []Field{{Field: 1}, {Field: 2}}, Sequence: &Field{Field: 0}, SampleTime: &Field{Field: 3}, TimeUnit: 1e9})
 		for _, d := range all {
 			y := make([]float64, len(d.Outputs))
 			// The sequence alone agrees with the whole decode wherever
 			// that succeeds.
 			seqOnly, hasOnly, errOnly := d.Seq(payload)
+			d.Time(payload) // never panics
 			seq, has, err := d.Output(payload, y)
 			if err == nil && (errOnly != nil || seqOnly != seq || hasOnly != has) {
 				t.Fatalf("Seq %d %v %v, Output %d %v on %q", seqOnly, hasOnly, errOnly, seq, has, payload)
@@ -230,4 +231,44 @@ func FuzzDecode(f *testing.F) {
 			}
 		}
 	})
+}
+
+// TestDecodeSampleTime: the sample time in every unit and form, text and
+// binary, converted to nanoseconds; a field that is not a number, or
+// missing, is an error; no allocation.
+func TestDecodeSampleTime(t *testing.T) {
+	text := func(unit float64) *Layout {
+		return &Layout{Format: "text", Separator: ",", Sequence: &Field{Field: 0}, SampleTime: &Field{Field: 1}, TimeUnit: unit}
+	}
+	cases := []struct {
+		name    string
+		d       *Layout
+		payload []byte
+		want    int64
+		err     error
+	}{
+		{"ns integer", text(1), []byte("7,123456789012,0.5"), 123456789012, nil},
+		{"seconds, nine decimals", text(1e9), []byte("7,12345.678901234,0.5"), 12345678901234, nil},
+		{"milliseconds", text(1e6), []byte("7,1.5,0.5"), 1500000, nil},
+		{"not a number", text(1), []byte("7,noon,0.5"), 0, ErrBadTime},
+		{"missing", text(1), []byte("7"), 0, ErrTooShort},
+		{"binary int64 µs", &Layout{Format: "binary", SampleTime: &Field{Offset: 2, Type: "int64", Order: "big"}, TimeUnit: 1e3},
+			[]byte{0, 0, 0, 0, 0, 0, 0, 0, 0x30, 0x39}, 12345000, nil},
+		{"binary short", &Layout{Format: "binary", SampleTime: &Field{Offset: 2, Type: "int64"}, TimeUnit: 1}, []byte{1, 2, 3}, 0, ErrTooShort},
+	}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			got, has, err := c.d.Time(c.payload)
+			if err != c.err || (err == nil && (!has || math.Abs(float64(got-c.want)) > 1)) {
+				t.Errorf("Time(%q) = %d, %v, %v; want %d, %v", c.payload, got, has, err, c.want, c.err)
+			}
+		})
+	}
+	if _, has, err := (&Layout{Format: "text"}).Time([]byte("1,2")); has || err != nil {
+		t.Errorf("no sample time in the layout: has %v, err %v", has, err)
+	}
+	d, p := text(1e9), []byte("7,12345.678901234,0.5")
+	if a := testing.AllocsPerRun(100, func() { d.Time(p) }); a != 0 {
+		t.Errorf("%v allocations, want 0", a)
+	}
 }

@@ -17,7 +17,15 @@ type Layout struct {
 	// Sequence locates the sample counter; nil when the datagrams carry
 	// none.
 	Sequence *Field
+	// SampleTime locates the sample time t_k a sensor datagram carries;
+	// nil when it carries none. TimeUnit is its unit in nanoseconds (1 for
+	// ns, 1e9 for s).
+	SampleTime *Field
+	TimeUnit   float64
 }
+
+// TimeUnits are the units a sample time may be given in, in nanoseconds.
+var TimeUnits = map[string]float64{"ns": 1, "us": 1e3, "ms": 1e6, "s": 1e9}
 
 // Field is one value in a datagram: a text field by index, or a
 // binary value by offset, type and byte order.
