@@ -76,32 +76,45 @@ func newTotalLaw(sc, ca lawParts, h, c, top, onTime float64) (*totalLaw, error) 
 		tl.feat = append(tl.feat, x)
 	}
 	sort.Float64s(tl.feat)
-	var work []chebPiece
-	for i := 0; i+1 < len(tl.feat); i++ {
-		if tl.feat[i+1] > tl.feat[i] {
-			work = append(work, chebPiece{lo: tl.feat[i], hi: tl.feat[i+1]})
+	var ok bool
+	if tl.pieces, ok = interpolateCDF(func(x float64) float64 { return tl.cdf(x, false) }, tl.feat, h); !ok {
+		return nil, fmt.Errorf("the law of the total delay τsc + c + τca cannot be resolved to %.0e in %d pieces on [0, %s]", cdfTol, maxCDFPieces, laws.FormatSeconds(top))
+	}
+	return tl, nil
+}
+
+// interpolateCDF interpolates a CDF between consecutive features (where
+// it may jump or kink): Chebyshev pieces of chebPoints points, bisected
+// until their last chebTail coefficients sum below cdfTol or they are
+// narrower than minPieceRel·scale; false when that takes more than
+// maxCDFPieces pieces. The pieces come back in increasing order.
+func interpolateCDF(f func(float64) float64, feat []float64, scale float64) ([]chebPiece, bool) {
+	var work, done []chebPiece
+	for i := 0; i+1 < len(feat); i++ {
+		if feat[i+1] > feat[i] {
+			work = append(work, chebPiece{lo: feat[i], hi: feat[i+1]})
 		}
 	}
 	for len(work) > 0 {
 		p := work[len(work)-1]
 		work = work[:len(work)-1]
-		p.coef = chebFit(func(x float64) float64 { return tl.cdf(x, false) }, p.lo, p.hi, chebPoints)
+		p.coef = chebFit(f, p.lo, p.hi, chebPoints)
 		tail := 0.0
 		for _, v := range p.coef[chebPoints-chebTail:] {
 			tail += math.Abs(v)
 		}
-		if tail > cdfTol && p.hi-p.lo > minPieceRel*h {
+		if tail > cdfTol && p.hi-p.lo > minPieceRel*scale {
 			mid := (p.lo + p.hi) / 2
 			work = append(work, chebPiece{lo: p.lo, hi: mid}, chebPiece{lo: mid, hi: p.hi})
-			if len(tl.pieces)+len(work) > maxCDFPieces {
-				return nil, fmt.Errorf("the law of the total delay τsc + c + τca cannot be resolved to %.0e in %d pieces on [0, %s]", cdfTol, maxCDFPieces, laws.FormatSeconds(top))
+			if len(done)+len(work) > maxCDFPieces {
+				return nil, false
 			}
 			continue
 		}
-		tl.pieces = append(tl.pieces, p)
+		done = append(done, p)
 	}
-	sort.Slice(tl.pieces, func(i, j int) bool { return tl.pieces[i].lo < tl.pieces[j].lo })
-	return tl, nil
+	sort.Slice(done, func(i, j int) bool { return done[i].lo < done[j].lo })
+	return done, true
 }
 
 // cdf is P(τ ≤ x | τsc < h), or P(τ < x | τsc < h) when strict, computed

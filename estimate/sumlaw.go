@@ -127,7 +127,7 @@ func (s *sumLaw) Support() (lo, hi float64) {
 // (lawparts.go) and split where x − P(u) meets an end of Q's support, so
 // the integrand is bounded and smooth whatever the densities' shapes. It
 // is interpolated by Chebyshev pieces on [lo, limit] to cdfTol (the
-// method and resolution of the total-delay law, longlaw.go) and computed
+// method and resolution of the total-delay law, interpolateCDF) and computed
 // directly beyond; its quantile inverts that CDF.
 type convPiece struct {
 	p, q     piece // P's quantile is evaluated, Q's CDF
@@ -167,33 +167,11 @@ func newConvPiece(p, q piece, limit float64) (*convPiece, error) {
 		}
 	}
 	sort.Float64s(feat)
-	var work []chebPiece
-	for i := 0; i+1 < len(feat); i++ {
-		if feat[i+1] > feat[i] {
-			work = append(work, chebPiece{lo: feat[i], hi: feat[i+1]})
-		}
+	var ok bool
+	if c.pieces, ok = interpolateCDF(c.direct, feat, math.Max(c.limit-c.lo, 1e-300)); !ok {
+		return nil, fmt.Errorf("the law of their sum cannot be resolved to %.0e in %d pieces on [%s, %s]",
+			cdfTol, maxCDFPieces, laws.FormatSeconds(c.lo), laws.FormatSeconds(c.limit))
 	}
-	width := math.Max(c.limit-c.lo, 1e-300)
-	for len(work) > 0 {
-		w := work[len(work)-1]
-		work = work[:len(work)-1]
-		w.coef = chebFit(c.direct, w.lo, w.hi, chebPoints)
-		tail := 0.0
-		for _, v := range w.coef[chebPoints-chebTail:] {
-			tail += math.Abs(v)
-		}
-		if tail > cdfTol && w.hi-w.lo > minPieceRel*width {
-			mid := (w.lo + w.hi) / 2
-			work = append(work, chebPiece{lo: w.lo, hi: mid}, chebPiece{lo: mid, hi: w.hi})
-			if len(c.pieces)+len(work) > maxCDFPieces {
-				return nil, fmt.Errorf("the law of their sum cannot be resolved to %.0e in %d pieces on [%s, %s]",
-					cdfTol, maxCDFPieces, laws.FormatSeconds(c.lo), laws.FormatSeconds(c.limit))
-			}
-			continue
-		}
-		c.pieces = append(c.pieces, w)
-	}
-	sort.Slice(c.pieces, func(i, j int) bool { return c.pieces[i].lo < c.pieces[j].lo })
 	c.cdfLimit = c.direct(c.limit)
 	if math.IsNaN(c.cdfLimit) {
 		return nil, fmt.Errorf("the CDF of their sum is not a number at %s", laws.FormatSeconds(c.limit))

@@ -87,12 +87,12 @@ func cmdRigNode(args []string, stderr io.Writer) error {
 	if dur.s > 0 {
 		cfg.Periods = max(1, int(dur.s/loop.Period+0.5))
 	}
-	var logFile *os.File
-	if *logPath != "" {
-		if logFile, err = os.Create(*logPath); err != nil {
-			return fmt.Errorf("--log: %w", err)
-		}
-		defer logFile.Close()
+	logFile, err := createLog(*logPath)
+	if err != nil {
+		return err
+	}
+	defer logFile.Close()
+	if logFile != nil {
 		cfg.Log = logFile
 	}
 	node, err := rig.NewNode(cfg)
@@ -107,10 +107,8 @@ func cmdRigNode(args []string, stderr io.Writer) error {
 	if err := node.Run(ctx); err != nil {
 		return err
 	}
-	if logFile != nil {
-		if err := logFile.Close(); err != nil {
-			return fmt.Errorf("--log: %w", err)
-		}
+	if err := closeLog(logFile); err != nil {
+		return err
 	}
 	s := node.Stats()
 	log.Info("rig node stopped", "samples", s.Samples, "applied", s.Applied, "late", s.Late,
@@ -138,12 +136,12 @@ func cmdRigController(args []string, stderr io.Writer) error {
 			return err
 		}
 	}
-	var logFile *os.File
-	if *logPath != "" {
-		if logFile, err = os.Create(*logPath); err != nil {
-			return fmt.Errorf("--log: %w", err)
-		}
-		defer logFile.Close()
+	logFile, err := createLog(*logPath)
+	if err != nil {
+		return err
+	}
+	defer logFile.Close()
+	if logFile != nil {
 		cfg.Log = logFile
 	}
 	ctl, err := rig.NewController(cfg)
@@ -162,10 +160,8 @@ func cmdRigController(args []string, stderr io.Writer) error {
 	if err := ctl.Run(ctx); err != nil {
 		return err
 	}
-	if logFile != nil {
-		if err := logFile.Close(); err != nil {
-			return fmt.Errorf("--log: %w", err)
-		}
+	if err := closeLog(logFile); err != nil {
+		return err
 	}
 	s := ctl.Stats()
 	log.Info("rig controller stopped", "used", s.Used, "stale", s.Stale, "duplicate", s.Duplicate, "older", s.Older,
@@ -201,4 +197,28 @@ func rigSetup(fs *cli.Flags, args []string, loopPath, start *string, addrName st
 	}
 	st, err = rigStart(loop, *start, log)
 	return loop, st, log, err
+}
+
+// createLog creates a rig end's --log file; nil when path is "".
+func createLog(path string) (*os.File, error) {
+	if path == "" {
+		return nil, nil
+	}
+	f, err := os.Create(path)
+	if err != nil {
+		return nil, fmt.Errorf("--log: %w", err)
+	}
+	return f, nil
+}
+
+// closeLog closes a --log file once the run has written it, with the
+// error that the deferred Close would lose.
+func closeLog(f *os.File) error {
+	if f == nil {
+		return nil
+	}
+	if err := f.Close(); err != nil {
+		return fmt.Errorf("--log: %w", err)
+	}
+	return nil
 }

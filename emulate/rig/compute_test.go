@@ -28,13 +28,7 @@ func TestRigControllerJitteryCompute(t *testing.T) {
 		t.Fatal(err)
 	}
 	var logBuf bytes.Buffer
-	ctl, err := rig.NewController(rig.ControllerConfig{Loop: loop, Compute: law, Seed: 9, Log: &logBuf})
-	if err != nil {
-		t.Fatal(err)
-	}
-	ctx, cancel := context.WithCancel(context.Background())
-	done := make(chan error, 1)
-	go func() { done <- ctl.Run(ctx) }()
+	ctl, stop := startController(t, rig.ControllerConfig{Loop: loop, Compute: law, Seed: 9, Log: &logBuf})
 	layout, _ := rig.NewLayout(loop)
 	sensor := udpLoopback(t)
 	const n = 300
@@ -46,8 +40,7 @@ func TestRigControllerJitteryCompute(t *testing.T) {
 			t.Fatalf("sample %d: %v", k, err)
 		}
 	}
-	cancel()
-	if err := <-done; err != nil {
+	if err := stop(); err != nil {
 		t.Fatal(err)
 	}
 	lines := strings.Split(strings.TrimSpace(logBuf.String()), "\n")
@@ -93,14 +86,8 @@ func TestRigControllerJitteryCompute(t *testing.T) {
 // the prediction takes it (estimate/model.md §14).
 func TestRigControllerPipelines(t *testing.T) {
 	loop := parseLoop(t, rulesLoop)
-	ctl, err := rig.NewController(rig.ControllerConfig{Loop: loop, Compute: laws.Constant{Value: 0.005}})
-	if err != nil {
-		t.Fatal(err)
-	}
-	ctx, cancel := context.WithCancel(context.Background())
-	done := make(chan error, 1)
-	go func() { done <- ctl.Run(ctx) }()
-	defer func() { cancel(); <-done }()
+	ctl, stop := startController(t, rig.ControllerConfig{Loop: loop, Compute: laws.Constant{Value: 0.005}})
+	defer stop()
 	layout, _ := rig.NewLayout(loop)
 	sensor := udpLoopback(t)
 	const n = 10
@@ -149,4 +136,18 @@ func TestRigControllerPipelines(t *testing.T) {
 	if late > 1 { // a loaded machine may stall one
 		t.Errorf("%d of %d commands more than 3 ms after their computing time: queued behind each other", late, n)
 	}
+}
+
+// startController runs a rig controller until stop, which returns Run's
+// error.
+func startController(t *testing.T, cfg rig.ControllerConfig) (*rig.Controller, func() error) {
+	t.Helper()
+	ctl, err := rig.NewController(cfg)
+	if err != nil {
+		t.Fatal(err)
+	}
+	ctx, cancel := context.WithCancel(context.Background())
+	done := make(chan error, 1)
+	go func() { done <- ctl.Run(ctx) }()
+	return ctl, func() error { cancel(); return <-done }
 }

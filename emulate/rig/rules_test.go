@@ -79,14 +79,8 @@ func TestRigActuatorRules(t *testing.T) {
 // was sent.
 func TestRigControllerRules(t *testing.T) {
 	loop := parseLoop(t, rulesLoop)
-	ctl, err := rig.NewController(rig.ControllerConfig{Loop: loop})
-	if err != nil {
-		t.Fatal(err)
-	}
-	ctx, cancel := context.WithCancel(context.Background())
-	done := make(chan error, 1)
-	go func() { done <- ctl.Run(ctx) }()
-	defer func() { cancel(); <-done }()
+	ctl, stop := startController(t, rig.ControllerConfig{Loop: loop})
+	defer stop()
 	layout, _ := rig.NewLayout(loop)
 	sensor := udpLoopback(t)
 	hNs := int64(loop.Period * 1e9)
@@ -413,14 +407,8 @@ func replayLog(t *testing.T, loop *profiles.Loop, log string, uOf func(k int) fl
 // used, and drops an overtaken one (estimate/model.md §13).
 func TestRigControllerSampleHorizon(t *testing.T) {
 	loop := parseLoop(t, rulesLoop+"timing: {sample_horizon: 2, command_horizon: 2}\n")
-	ctl, err := rig.NewController(rig.ControllerConfig{Loop: loop})
-	if err != nil {
-		t.Fatal(err)
-	}
-	ctx, cancel := context.WithCancel(context.Background())
-	done := make(chan error, 1)
-	go func() { done <- ctl.Run(ctx) }()
-	defer func() { cancel(); <-done }()
+	ctl, stop := startController(t, rig.ControllerConfig{Loop: loop})
+	defer stop()
 	layout, _ := rig.NewLayout(loop)
 	node := udpLoopback(t)
 	hNs := int64(loop.Period * 1e9)
