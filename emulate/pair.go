@@ -7,6 +7,7 @@ import (
 
 	"github.com/prometheus/client_golang/prometheus"
 
+	"rigwire/emulate/internal/timer"
 	"rigwire/profiles"
 	"rigwire/profiles/datagram"
 )
@@ -153,7 +154,7 @@ func (pr *pairer) latency(payload []byte) int64 {
 	}
 	var now int64
 	if pr.p.Clock == SampleClockMonotonic {
-		now = monotonicNow()
+		now = timer.Now()
 	} else {
 		now = time.Now().UnixNano()
 	}

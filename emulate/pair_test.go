@@ -12,6 +12,7 @@ import (
 	"github.com/prometheus/client_golang/prometheus"
 	"github.com/prometheus/client_golang/prometheus/testutil"
 
+	"rigwire/emulate/internal/timer"
 	"rigwire/profiles"
 	"rigwire/profiles/datagram"
 	"rigwire/profiles/laws"
@@ -195,7 +196,7 @@ func TestPairerSensorLatency(t *testing.T) {
 		t.Fatal(err)
 	}
 	pr := newPairer(p, m)
-	sample := []byte(fmt.Sprintf("3,%d,0.5", monotonicNow()-1_000_000))
+	sample := []byte(fmt.Sprintf("3,%d,0.5", timer.Now()-1_000_000))
 	lat := pr.latency(sample)
 	if lat < 1_000_000 || lat > 51_000_000 {
 		t.Fatalf("latency %dns of a sample stamped 1 ms ago", lat)
@@ -204,7 +205,7 @@ func TestPairerSensorLatency(t *testing.T) {
 	if _, turn := pr.command([]byte("3,0,0"), 300); turn != 200 || gotLat != lat {
 		t.Errorf("command: turnaround %d, latency %d; want 200 and %d", turn, gotLat, lat)
 	}
-	if l := pr.latency([]byte(fmt.Sprintf("4,%d,0.5", monotonicNow()+int64(time.Second)))); l != -1 {
+	if l := pr.latency([]byte(fmt.Sprintf("4,%d,0.5", timer.Now()+int64(time.Second)))); l != -1 {
 		t.Errorf("a sample stamped in the future: latency %d", l)
 	}
 	if l := pr.latency([]byte("5,,0.5")); l != -1 {

@@ -59,3 +59,12 @@ func (w *timerfd) Wait() {
 }
 
 func (w *timerfd) Close() { unix.Close(w.fd) }
+
+// Now is CLOCK_MONOTONIC in nanoseconds: the same clock in every process
+// of one host, so the simulated rig's sample times cross process
+// boundaries and the relay can compare them with its own.
+func Now() int64 {
+	var ts unix.Timespec
+	_ = unix.ClockGettime(unix.CLOCK_MONOTONIC, &ts)
+	return ts.Nano()
+}
