@@ -22,6 +22,13 @@ type immediate struct {
 // acc's buffers, to be sent by the caller before it reads again), with
 // their meta in meta; the others are copied into the pool and scheduled.
 func (d *direction) admit(acc []message, dst netip.AddrPort, now int64, imm []message, meta []immediate) ([]message, []immediate) {
+	// The pairing decodes and observes before the lock, which the release
+	// goroutine waits on; notes is owned by the one receive goroutine.
+	if d.pairSide != pairNone {
+		for i := range acc {
+			d.notes[i] = d.pairNote(acc[i].buf[:acc[i].n], now)
+		}
+	}
 	d.mu.Lock()
 	cur := d.chain.at(now)
 	if cur != d.shown {
@@ -35,7 +42,10 @@ func (d *direction) admit(acc []message, dst netip.AddrPort, now int64, imm []me
 		m := &acc[i]
 		d.arrivals++
 		seq := d.arrivals
-		pn := d.pairNote(m.buf[:m.n], now)
+		var pn pairNote
+		if d.pairSide != pairNone {
+			pn = d.notes[i]
+		}
 		if d.stopNew {
 			d.m.outcome[oTripped].Inc()
 			d.record(rec{arrival: now, outcome: oTripped, state: stateName, seq: seq, pair: pn})

@@ -56,6 +56,7 @@ type direction struct {
 	// which this direction carries.
 	pair     *pairer
 	pairSide int8
+	notes    [batchSize]pairNote // admit's per-batch pairing notes (receive goroutine only)
 }
 
 // The sides of a pairing.
@@ -66,13 +67,24 @@ const (
 )
 
 // pairNote is what the pairing learnt of one datagram, for the record:
-// the tag of the sample it is or answers (sequence + 1; 0: none) and, for
-// a command paired with its sample, its turnaround in ns.
+// the tag of the sample it is or answers (sequence + 1; 0: none), for a
+// command paired with its sample its turnaround in ns (paired), for a
+// sample its sensor-side latency in ns (hasLat). Its zero value, which
+// the records of unpaired datagrams carry, says nothing.
 type pairNote struct {
-	tag    uint64
-	turn   int64
-	paired bool
-	lat    int64 // a sample's sensor-side latency, ns; −1: not measured
+	tag       uint64
+	turn, lat int64
+	paired    bool
+	hasLat    bool
+}
+
+// latency is the sample's sensor-side latency for the pairer: −1 when
+// not measured.
+func (n pairNote) latency() int64 {
+	if !n.hasLat {
+		return -1
+	}
+	return n.lat
 }
 
 // pairNote reads a datagram's sequence for the pairing, and for a command
@@ -80,12 +92,13 @@ type pairNote struct {
 func (d *direction) pairNote(payload []byte, now int64) pairNote {
 	switch d.pairSide {
 	case pairSamples:
-		return pairNote{tag: d.pair.sampleTag(payload), lat: d.pair.latency(payload)}
+		lat := d.pair.latency(payload)
+		return pairNote{tag: d.pair.sampleTag(payload), lat: lat, hasLat: lat >= 0}
 	case pairCommands:
 		tag, turn := d.pair.command(payload, now)
-		return pairNote{tag: tag, turn: turn, paired: turn >= 0, lat: -1}
+		return pairNote{tag: tag, turn: turn, paired: turn >= 0}
 	}
-	return pairNote{lat: -1}
+	return pairNote{}
 }
 
 type dirConfig struct {

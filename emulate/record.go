@@ -3,7 +3,6 @@ package emulate
 import (
 	"bufio"
 	"io"
-	"rigwire/profiles"
 	"strconv"
 	"sync"
 
@@ -169,7 +168,7 @@ func (r *recorder) write(x *rec) error {
 		b = appendSeconds(b, x.pair.turn)
 	}
 	b = append(b, ',')
-	if x.pair.lat > 0 || (x.pair.lat == 0 && x.pair.tag > 0 && x.dir == profiles.SensorToController) {
+	if x.pair.hasLat {
 		b = appendSeconds(b, x.pair.lat)
 	}
 	b = append(b, '\n')

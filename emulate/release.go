@@ -20,7 +20,7 @@ func (d *direction) sendImmediate(imm []message, meta []immediate, arrival int64
 	t := d.now()
 	if d.pairSide == pairSamples {
 		for i := range meta {
-			d.pair.released(meta[i].pair.tag, t, meta[i].pair.lat)
+			d.pair.released(meta[i].pair.tag, t, meta[i].pair.latency())
 		}
 	}
 	d.sendAll(imm, func(i int, ok bool) {
@@ -150,7 +150,7 @@ func (d *direction) sendPopped(batch []*packet, out []message) {
 	t := d.now()
 	if d.pairSide == pairSamples {
 		for _, p := range batch {
-			d.pair.released(p.pair.tag, t, p.pair.lat)
+			d.pair.released(p.pair.tag, t, p.pair.latency())
 		}
 	}
 	d.sendAll(out, func(i int, ok bool) {
