@@ -180,3 +180,12 @@ func (l *Loop) ComputeMean() float64 {
 	}
 	return l.Compute.Mean()
 }
+
+// ComputeText describes the compute delay for people: a duration when it
+// is a constant ("1ms"), else its law and mean.
+func (l *Loop) ComputeText() string {
+	if l.ComputeConstant() {
+		return laws.Terse.Format(l.ComputeFloor())
+	}
+	return laws.Describe(l.Compute) + " (mean " + laws.Terse.Format(l.ComputeMean()) + ")"
+}

@@ -20,7 +20,6 @@ import (
 	"rigwire/emulate/trip"
 	"rigwire/estimate"
 	"rigwire/estimate/fit"
-	"rigwire/estimate/report"
 	"rigwire/profiles"
 	"rigwire/profiles/laws"
 )
@@ -206,11 +205,11 @@ func finishCalibration(w io.Writer, loop *profiles.Loop, xs []float64, out strin
 	}
 	after := *loop
 	after.Compute = law
-	fmt.Fprintf(w, "\nprediction with the loop's compute_delay (%s):\n  ", report.ComputeText(loop))
+	fmt.Fprintf(w, "\nprediction with the loop's compute_delay (%s):\n  ", loop.ComputeText())
 	if err := predictLine(w, loop); err != nil {
 		return err
 	}
-	fmt.Fprintf(w, "prediction with the measured turnaround (%s):\n  ", report.ComputeText(&after))
+	fmt.Fprintf(w, "prediction with the measured turnaround (%s):\n  ", after.ComputeText())
 	if err := predictLine(w, &after); err != nil {
 		return err
 	}

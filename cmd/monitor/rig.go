@@ -10,7 +10,6 @@ import (
 	"rigwire/cmd/internal/exitcode"
 	"rigwire/emulate/rig"
 	"rigwire/emulate/trip"
-	"rigwire/estimate/report"
 	"rigwire/profiles"
 	"rigwire/profiles/laws"
 )
@@ -148,7 +147,7 @@ func cmdRigController(args []string, stderr io.Writer) error {
 	if err != nil {
 		return err
 	}
-	comp := report.ComputeText(loop)
+	comp := loop.ComputeText()
 	if cfg.Compute != nil {
 		comp = laws.Describe(cfg.Compute) + " (--compute; the loop file says " + comp + ")"
 	}

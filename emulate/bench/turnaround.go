@@ -39,6 +39,7 @@ type TurnaroundReport struct {
 	// the loop's compute law and Law its description.
 	Mean, P99, Assumed float64
 	Law                string
+	Constant           bool // the law is a constant
 	// KS is the Kolmogorov–Smirnov statistic of the turnarounds against
 	// the compute law, P its p-value (laws.KSPValue); Agree is P ≥ Alpha.
 	KS, P float64
@@ -69,7 +70,7 @@ func (b *Bench) Turnaround() *TurnaroundReport {
 
 func compareTurnaround(loop *profiles.Loop, n int, xs []float64) *TurnaroundReport {
 	slices.Sort(xs)
-	r := &TurnaroundReport{N: n, Used: len(xs), Assumed: loop.ComputeMean(), Law: lawText(loop)}
+	r := &TurnaroundReport{N: n, Used: len(xs), Assumed: loop.ComputeMean(), Law: loop.ComputeText(), Constant: loop.ComputeConstant()}
 	for _, x := range xs {
 		r.Mean += x
 	}
@@ -85,21 +86,18 @@ func compareTurnaround(loop *profiles.Loop, n int, xs []float64) *TurnaroundRepo
 	return r
 }
 
-func lawText(loop *profiles.Loop) string {
-	if loop.Compute == nil || loop.ComputeConstant() {
-		return "a constant " + laws.FormatSeconds(loop.ComputeFloor())
-	}
-	return laws.Describe(loop.Compute)
-}
-
 // String is the report in one line.
 func (r *TurnaroundReport) String() string {
+	law := r.Law
+	if r.Constant {
+		law = "a constant " + law
+	}
 	verdict := "agrees with"
 	if !r.Agree {
 		verdict = "differs from"
 	}
 	return fmt.Sprintf("controller turnaround (relay → controller → relay): mean %s, p99 %s over the last %d of %d commands; %s the loop's compute_delay, %s (mean %s): Kolmogorov–Smirnov D = %.4f, p = %s",
-		laws.FormatSeconds(r.Mean), laws.FormatSeconds(r.P99), r.Used, r.N, verdict, r.Law, laws.FormatSeconds(r.Assumed), r.KS, pText(r.P))
+		laws.FormatSeconds(r.Mean), laws.FormatSeconds(r.P99), r.Used, r.N, verdict, law, laws.FormatSeconds(r.Assumed), r.KS, pText(r.P))
 }
 
 func pText(p float64) string {

@@ -107,15 +107,6 @@ func WritePredictionJSON(w io.Writer, loop *profiles.Loop, pr *estimate.Predicti
 // for a mean delay that does not exist.
 var fmtDuration = laws.Terse.Format
 
-// ComputeText describes the loop's compute delay: a duration when it is a
-// constant, else its law and mean.
-func ComputeText(loop *profiles.Loop) string {
-	if loop.ComputeConstant() {
-		return fmtDuration(loop.ComputeFloor())
-	}
-	return laws.Describe(loop.Compute) + " (mean " + fmtDuration(loop.ComputeMean()) + ")"
-}
-
 // WritePrediction writes the prediction as monitor predict prints it: the
 // loop, the network, the verdict, the loss margin and the error moments,
 // then a table of the joint network states.
@@ -123,7 +114,7 @@ func WritePrediction(w io.Writer, path string, loop *profiles.Loop, pr *estimate
 	n, m, p, nc := loop.Dims()
 	fmt.Fprintf(w, "loop      %s\n", path)
 	fmt.Fprintf(w, "          period %s, compute delay %s, %d plant states, %d inputs, %d outputs, %d controller states\n",
-		fmtDuration(loop.Period), ComputeText(loop), n, m, p, nc)
+		fmtDuration(loop.Period), loop.ComputeText(), n, m, p, nc)
 	name := loop.Profile.Name
 	if name == "" {
 		name = "(unnamed)"
