@@ -47,36 +47,55 @@ func TestLongChainAgainstMonteCarlo(t *testing.T) {
 	}
 	for _, tc := range cases {
 		t.Run(tc.name, func(t *testing.T) {
-			pr, err := Predict(tc.loop, PredictOptions{SkipMargin: true})
-			if err != nil {
-				t.Fatal(err)
-			}
-			if !pr.MeanSquareStable {
-				t.Fatalf("not stable: ρ %g", pr.SpectralRadius)
-			}
-			sim, err := Simulate(tc.loop, SimOptions{Periods: 60000, Warmup: 2000, Runs: 10, Seed: 7})
-			if err != nil {
-				t.Fatal(err)
-			}
-			want, got := pr.Error.SecondMoment, sim.SecondMoment
-			tol := 4 * sim.StdErr
-			if tc.markov {
-				tol += 0.02 * want
-			}
-			t.Logf("exact %.6g, Monte Carlo %.6g ± %.2g; ages %.4f / %.4f, stale %.4f / %.4f",
-				want, got, sim.StdErr, pr.Timing.CommandAge, sim.CommandAge, pr.Timing.Stale, sim.Stale)
-			if math.Abs(want-got) > tol {
-				t.Errorf("E[eᵀe]: exact %.6g, Monte Carlo %.6g ± %.2g (tolerance %.2g)", want, got, sim.StdErr, tol)
-			}
-			ageTol := 0.005
-			if tc.markov {
-				ageTol = 0.01
-			}
-			for d := range sim.CommandAge {
-				if math.Abs(sim.CommandAge[d]-pr.Timing.CommandAge[d]) > ageTol {
-					t.Errorf("age %d: exact %.4f, Monte Carlo %.4f", d, pr.Timing.CommandAge[d], sim.CommandAge[d])
-				}
-			}
+			agreeWithMonteCarlo(t, tc.loop, tc.markov, 7)
 		})
 	}
+}
+
+// mcCheck is what agreeWithMonteCarlo compared: the prediction, the
+// Monte Carlo and the tolerances it held them to.
+type mcCheck struct {
+	pr          *Prediction
+	sim         *SimResult
+	tol, ageTol float64
+}
+
+// agreeWithMonteCarlo predicts the loop and runs the seeded Monte Carlo of
+// the same rules (60 000 periods × 10 runs): E[eᵀe] must agree within 4
+// standard errors (plus, for the long chain over a Markov channel, the
+// 2 % its "state constant over the horizon" may cost with dwells of
+// 50–200 periods), and the share of periods ending on each command age
+// within 0.005 (0.01 for a Markov channel).
+func agreeWithMonteCarlo(t *testing.T, loop *profiles.Loop, markov bool, seed uint64) mcCheck {
+	t.Helper()
+	pr, err := Predict(loop, PredictOptions{SkipMargin: true})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !pr.MeanSquareStable {
+		t.Fatalf("not stable: ρ %g", pr.SpectralRadius)
+	}
+	sim, err := Simulate(loop, SimOptions{Periods: 60000, Warmup: 2000, Runs: 10, Seed: seed})
+	if err != nil {
+		t.Fatal(err)
+	}
+	c := mcCheck{pr: pr, sim: sim, tol: 4 * sim.StdErr, ageTol: 0.005}
+	want, got := pr.Error.SecondMoment, sim.SecondMoment
+	if _, na := loop.Horizons(); markov && na > 1 {
+		c.tol += 0.02 * want
+	}
+	if markov {
+		c.ageTol = 0.01
+	}
+	t.Logf("exact %.6g, Monte Carlo %.6g ± %.2g; ages %.4f / %.4f, stale %.4f / %.4f",
+		want, got, sim.StdErr, pr.Timing.CommandAge, sim.CommandAge, pr.Timing.Stale, sim.Stale)
+	if math.Abs(want-got) > c.tol {
+		t.Errorf("E[eᵀe]: exact %.6g, Monte Carlo %.6g ± %.2g (tolerance %.2g)", want, got, sim.StdErr, c.tol)
+	}
+	for d := range sim.CommandAge {
+		if d < len(pr.Timing.CommandAge) && math.Abs(sim.CommandAge[d]-pr.Timing.CommandAge[d]) > c.ageTol {
+			t.Errorf("age %d: exact %.4f, Monte Carlo %.4f", d, pr.Timing.CommandAge[d], sim.CommandAge[d])
+		}
+	}
+	return c
 }
