@@ -36,3 +36,14 @@ func TestCalibrateRefusals(t *testing.T) {
 		})
 	}
 }
+
+// TestRigComputeFlagRefusesABadLaw: --compute is read with the profile
+// format's parser and a bad law is bad input (status 2) naming the flag
+// and the key.
+func TestRigComputeFlagRefusesABadLaw(t *testing.T) {
+	code, _, errOut := runMonitor("rig", "controller", "--loop", "../../profiles/examples/checks/rig-late.yaml",
+		"--listen", "127.0.0.1:0", "--compute", "{kind: gamma, shape: 2}")
+	if code != 2 || !strings.Contains(errOut, "--compute:1: missing scale for kind gamma") {
+		t.Errorf("exit %d, want 2 naming --compute and the missing key:\n%s", code, errOut)
+	}
+}

@@ -132,7 +132,7 @@ func cmdRigController(args []string, stderr io.Writer) error {
 	cfg := rig.ControllerConfig{Loop: loop, Listen: listen.Addr, Start: st, Logger: log, Seed: *seed}
 	if *computeText != "" {
 		if cfg.Compute, err = profiles.ParseDelayText(*computeText, "--compute", "."); err != nil {
-			return err
+			return cli.BadInput(err)
 		}
 	}
 	logFile, err := createLog(*logPath)
