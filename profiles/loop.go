@@ -26,8 +26,13 @@ type Loop struct {
 	Period     float64
 	Plant      Plant
 	Controller Controller
-	// Setpoint is the constant reference r (p entries; zeros by default).
+	// Setpoint is the constant reference r (p entries; zeros by default),
+	// the offset of a sinusoidal Reference.
 	Setpoint []float64
+	// Reference is how r moves about Setpoint (key reference): constant
+	// (the zero value), a sine or a sweep of sines. ReferenceAt gives
+	// r(t_k) for sample k.
+	Reference Reference
 	// Compute is the law of c, the controller's computing time and any
 	// stack latency the rig adds, drawn afresh for every command and added
 	// to its delay (key compute_delay: a duration for a constant, or any

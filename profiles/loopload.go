@@ -49,7 +49,7 @@ const psdTolerance = 1e-12
 
 func parseLoop(root yamlpos.Field, dir string) (*Loop, error) {
 	keys, err := root.Mapping("period", "plant", "controller", "setpoint", "compute_delay",
-		"profile", "actuator", "timing", "decode", "command_decode", "trip")
+		"profile", "actuator", "timing", "decode", "command_decode", "trip", "reference")
 	if err != nil {
 		return nil, err
 	}
@@ -80,6 +80,11 @@ func parseLoop(root yamlpos.Field, dir string) (*Loop, error) {
 			return nil, f.Errorf("want %d numbers (one per output of plant.c), got %d", p, len(v))
 		}
 		l.Setpoint = v
+	}
+	if f := keys["reference"]; !f.IsNull() {
+		if err := parseReference(f, l, p); err != nil {
+			return nil, err
+		}
 	}
 	l.Compute = laws.Constant{Value: 0}
 	if f := keys["compute_delay"]; !f.IsNull() {
@@ -143,6 +148,9 @@ func parseLoop(root yamlpos.Field, dir string) (*Loop, error) {
 		if err := parseDecode(f, &l.Decode, p); err != nil {
 			return nil, err
 		}
+	}
+	if l.Reference.Sinusoidal() && l.Decode.Format != "" && l.Decode.Sequence == nil {
+		return nil, keys["decode"].Errorf("want a sequence field with a sinusoidal reference: the reference's time is the sample's sequence number times the period (key reference)")
 	}
 	if f := keys["command_decode"]; !f.IsZero() {
 		if err := parseCommandDecode(f, &l.CommandDecode); err != nil {

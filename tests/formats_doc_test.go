@@ -50,6 +50,7 @@ var mappingSections = map[string]string{
 	"profiles/delayparse.go parseDelayExtra ...":            "", // the delay kinds' table
 	"profiles/loopload.go parseLoop period":                 "loop",
 	"profiles/loopload.go parseLoop on_loss":                "loop.actuator",
+	"profiles/reference.go parseReference kind":             "loop.reference",
 	"profiles/loopload.go parseTiming sample_horizon":       "loop.timing",
 	"profiles/loopload.go LoadTiming compute_delay":         "timing",
 	"profiles/loopload.go parsePlant a":                     "loop.plant",
