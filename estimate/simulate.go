@@ -25,6 +25,10 @@ type SimOptions struct {
 	Paths int
 	// Progress, if set, is called after each run.
 	Progress func(done, total int)
+	// OnSample, if set, is called with every counted sample (after the
+	// warm-up) of every run: its period k, the reference r_k and the
+	// outputs y_k = r_k − e_k. The slices are reused.
+	OnSample func(run, k int, r, y []float64)
 }
 
 // PathPoint is one period of a recorded sample path.
@@ -86,6 +90,7 @@ func Simulate(loop *profiles.Loop, opts SimOptions) (*SimResult, error) {
 		return nil, err
 	}
 	sim := newSimulator(md)
+	sim.onSample = opts.OnSample
 	ns, na := loop.Horizons()
 	_, _, p, _ := loop.Dims()
 	res := &SimResult{}
@@ -93,6 +98,7 @@ func Simulate(loop *profiles.Loop, opts SimOptions) (*SimResult, error) {
 	ages := make([]int, na+1)
 	for r := 0; r < opts.Runs; r++ {
 		rng := rand.New(rand.NewPCG(opts.Seed, uint64(r)))
+		sim.runIndex = r
 		var path *[]PathPoint
 		if r < opts.Paths {
 			res.Paths = append(res.Paths, nil)
@@ -146,6 +152,10 @@ func Simulate(loop *profiles.Loop, opts SimOptions) (*SimResult, error) {
 
 type simulator struct {
 	md             *Model
+	moving         bool      // the reference is sinusoidal: r is set per sample
+	r, y           []float64 // r_k, and y_k for onSample
+	onSample       func(run, k int, r, y []float64)
+	runIndex       int
 	n, m, p, nc    int
 	h              float64
 	comp           laws.Delay // the compute delay c, drawn for every command
@@ -153,7 +163,6 @@ type simulator struct {
 	phi, gam       *mat.Dense
 	cp             *mat.Dense
 	ctl            profiles.Controller
-	r              []float64
 	wFac, vFac     *mat.Dense // noise factors: L Lᵀ = covariance
 	psc, pca       *mat.Dense
 	pisc, pica     []float64
@@ -172,7 +181,8 @@ func newSimulator(md *Model) *simulator {
 		zero: l.Actuator.OnLoss == profiles.ZeroUnlessFresh,
 		phi:  md.lm.samp.Phi, gam: md.lm.samp.Gamma, cp: l.Plant.C,
 		ctl: l.Controller,
-		r:   l.Setpoint, split: map[float64][2]*mat.Dense{},
+		r:   append([]float64(nil), l.Setpoint...), split: map[float64][2]*mat.Dense{},
+		moving: l.Reference.Sinusoidal(), y: make([]float64, p),
 	}
 	if s.comp == nil {
 		s.comp = laws.Constant{Value: 0}
@@ -222,14 +232,23 @@ func (s *simulator) gammas(tau float64) (g0, g1 *mat.Dense) {
 // sample takes the period's sample, y = C x + v, into e = r − y (v is
 // scratch for the sensor noise, std for the normal draws) and, when
 // counted, adds eᵀe to sum and e and its squares to acc (p entries each).
-func (s *simulator) sample(rng *rand.Rand, x, e, v, std []float64, counted bool, sum *float64, acc []float64) {
+func (s *simulator) sample(rng *rand.Rand, k int, x, e, v, std []float64, counted bool, sum *float64, acc []float64) {
 	p := len(e)
+	if s.moving {
+		s.md.Loop.ReferenceAt(uint64(k), s.r)
+	}
 	simstep.Noise(v, s.vFac, rng, std)
 	simstep.MulVec(e, s.cp, x, false)
 	ee := 0.0
 	for i := 0; i < p; i++ {
 		e[i] = s.r[i] - e[i] - v[i]
 		ee += e[i] * e[i]
+	}
+	if counted && s.onSample != nil {
+		for i := 0; i < p; i++ {
+			s.y[i] = s.r[i] - e[i]
+		}
+		s.onSample(s.runIndex, k, s.r, s.y)
 	}
 	if counted {
 		*sum += ee
@@ -257,7 +276,7 @@ func (s *simulator) run(rng *rand.Rand, periods, warmup int, path *[]PathPoint, 
 	ica := draw(rng, s.pica)
 	sum := 0.0
 	for k := 0; k < periods; k++ {
-		s.sample(rng, x, e, v, std, k >= warmup, &sum, errSum)
+		s.sample(rng, k, x, e, v, std, k >= warmup, &sum, errSum)
 		// Network and controller.
 		mode, tau := 0, math.NaN()
 		if rng.Float64() >= s.lossSC[isc] {

@@ -74,7 +74,7 @@ func (s *simulator) runLong(rng *rand.Rand, periods, warmup, ns, na int, errSum 
 	ica := draw(rng, s.pica)
 	sum := 0.0
 	for k := 0; k < periods; k++ {
-		s.sample(rng, x, e, v, std, k >= warmup, &sum, errSum)
+		s.sample(rng, k, x, e, v, std, k >= warmup, &sum, errSum)
 		if rng.Float64() >= s.lossSC[isc] {
 			if tau := s.delaySC[isc].Sample(rng); tau < float64(ns)*h {
 				lr.samples = addFlight(lr.samples, k, tau, e, h)
