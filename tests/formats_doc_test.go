@@ -31,6 +31,7 @@ import (
 	"rigwire/deploy/lab"
 	"rigwire/emulate"
 	"rigwire/estimate"
+	"rigwire/estimate/report"
 	"rigwire/profiles"
 	"rigwire/profiles/trace"
 )
@@ -74,14 +75,15 @@ var mappingSections = map[string]string{
 // sectionOf is the heading of the reference's part where each table ID
 // must sit (its "## " heading).
 var sectionOf = map[string]string{
-	"profile":  "## The network profile",
-	"loop":     "## The loop file",
-	"scenario": "## The scenario file",
-	"timing":   "## The rig timing file",
-	"links":    "## The links file",
-	"lab":      "## The lab topology file",
-	"trace":    "## The probe trace (CSV)",
-	"record":   "## The relay's record (CSV)",
+	"profile":   "## The network profile",
+	"loop":      "## The loop file",
+	"scenario":  "## The scenario file",
+	"timing":    "## The rig timing file",
+	"links":     "## The links file",
+	"lab":       "## The lab topology file",
+	"trace":     "## The probe trace (CSV)",
+	"record":    "## The relay's record (CSV)",
+	"frequency": "## The frequency response (CSV, JSON)",
 }
 
 // docTable is one marked table of the reference.
@@ -459,6 +461,7 @@ func TestFormatsDocCoversLoaderKeys(t *testing.T) {
 	accepted["trace"] = trace.TraceColumns
 	accepted["trace.meta"] = traceMetaKeys(t)
 	accepted["record"] = emulate.RecordColumns
+	accepted["frequency"] = report.FrequencyColumns(1)
 
 	for _, id := range sortedKeys(keys) {
 		if _, ok := accepted[id]; !ok {

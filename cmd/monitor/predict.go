@@ -4,8 +4,6 @@ import (
 	"fmt"
 	"io"
 	"math"
-	"strconv"
-	"strings"
 	"time"
 
 	"rigwire/cmd/internal/cli"
@@ -18,6 +16,7 @@ import (
 const predictHead = `usage: monitor predict LOOP.yaml [--json] [--strict] [--no-margin]
        monitor predict LOOP.yaml --vary loss=START:STOP:STEP | delay_scale=START:STOP:STEP [--plot FILE]
        monitor predict LOOP.yaml --step N [--step-to R1,R2,…] [--plot FILE]
+       monitor predict LOOP.yaml --frequency F1,F2,… | FROM:TO:N | reference [--amplitude A1,…] [--json] [--plot FILE]
 
 Predicts what theory says of the loop over its network profile: whether it
 is mean-square stable (the spectral radius of the second-moment operator,
@@ -29,7 +28,11 @@ computation is reported as marginal and treated as not stable.
 
 --vary prints a CSV of the prediction over a grid of one parameter;
 --step the expected error and its std for N periods after a setpoint step
-from rest. Without --strict the command exits 0 whatever the verdict.
+from rest; --frequency, for a sinusoidal reference at each frequency, the
+mean response's gain and phase (setpoint to output and to error) and the
+error's variance averaged over the phase and at its peak, beside the
+loss-free, delay-free loop's (estimate/model.md §15). Without --strict
+the command exits 0 whatever the verdict.
 
 The model is estimate/model.md: the rig's timing and the three modes §1, the
 network §2, the jump system §3, moments and stability §4 and §6, what is
@@ -56,21 +59,26 @@ func cmdPredict(args []string, stdout, stderr io.Writer) error {
 	stepTo := fs.String("step-to", "", "setpoint of the step, comma-separated (default: the loop's setpoint)")
 	plotFile := fs.String("plot", "", "with --vary or --step: also write a plot to `FILE` (.svg, .png or .pdf)")
 	noMargin := fs.Bool("no-margin", false, "skip the loss margin (up to ~100 stability tests)")
+	freq := fs.String("frequency", "", "print the response to a sinusoidal reference (CSV, or JSON with --json) at `F1,F2,…` Hz, at N log-spaced frequencies FROM:TO:N, or at the loop's own reference frequencies (reference)")
+	amp := fs.String("amplitude", "", "with --frequency: the sine's amplitude per output, comma-separated (default: the loop's reference, else 1 on every output)")
 	path, err := parseArgs(fs, args)
 	if err != nil {
 		return err
 	}
-	if *vary != "" && *step != 0 {
-		return cli.Usagef("--vary and --step: want one of them, got both")
+	if modes := btoi(*vary != "") + btoi(*step != 0) + btoi(*freq != ""); modes > 1 {
+		return cli.Usagef("--vary, --step and --frequency: want one of them, got %d", modes)
 	}
-	if *strict && (*vary != "" || *step != 0) {
-		return cli.Usagef("--strict: only with the single prediction, not with --vary or --step")
+	if *strict && (*vary != "" || *step != 0 || *freq != "") {
+		return cli.Usagef("--strict: only with the single prediction, not with --vary, --step or --frequency")
+	}
+	if *amp != "" && *freq == "" {
+		return cli.Usagef("--amplitude: want --frequency with it")
 	}
 	if *step < 0 || *step > 1_000_000 {
 		return cli.Usagef("--step: want a number of periods in [1, 1000000], got %d", *step)
 	}
-	if *plotFile != "" && *vary == "" && *step == 0 {
-		return cli.Usagef("--plot: want --vary or --step with it")
+	if *plotFile != "" && *vary == "" && *step == 0 && *freq == "" {
+		return cli.Usagef("--plot: want --vary, --step or --frequency with it")
 	}
 	if *plotFile != "" {
 		if err := report.CheckPlotName(*plotFile); err != nil {
@@ -89,6 +97,8 @@ func cmdPredict(args []string, stdout, stderr io.Writer) error {
 		return cli.BadInput(err)
 	}
 	switch {
+	case *freq != "":
+		return predictFrequency(loop, *freq, *amp, *asJSON, *plotFile, stdout)
 	case *vary != "":
 		return predictSweep(loop, param, values, *plotFile, stdout, stderr)
 	case *step != 0:
@@ -151,66 +161,6 @@ func strictStatus(pr *estimate.Prediction) error {
 		return cli.Exit{Code: exitcode.Inconclusive, Msg: "--strict: " + estimate.DescribeStability(pr)}
 	}
 	return cli.Exit{Code: exitcode.NotStable, Msg: "--strict: " + estimate.DescribeStability(pr)}
-}
-
-func parseFloats(s string) ([]float64, error) {
-	var out []float64
-	for _, f := range strings.Split(s, ",") {
-		v, err := strconv.ParseFloat(strings.TrimSpace(f), 64)
-		if err != nil || math.IsNaN(v) || math.IsInf(v, 0) {
-			return nil, fmt.Errorf("want a number, got %q", f)
-		}
-		out = append(out, v)
-	}
-	return out, nil
-}
-
-// maxSweepPoints bounds a --vary grid.
-const maxSweepPoints = 10000
-
-// parseVary reads NAME=START:STOP:STEP.
-func parseVary(s string) (string, []float64, error) {
-	bad := func(why string) error {
-		return cli.Usagef("--vary: want loss=START:STOP:STEP or delay_scale=START:STOP:STEP, got %q (%s)", s, why)
-	}
-	name, spec, ok := strings.Cut(s, "=")
-	if !ok {
-		return "", nil, bad("no =")
-	}
-	if name != estimate.SweepLoss && name != estimate.SweepDelayScale {
-		return "", nil, bad("unknown parameter " + strconv.Quote(name))
-	}
-	parts := strings.Split(spec, ":")
-	if len(parts) != 3 {
-		return "", nil, bad("want three numbers")
-	}
-	v, err := parseFloats(strings.Join(parts, ","))
-	if err != nil {
-		return "", nil, bad(err.Error())
-	}
-	start, stop, step := v[0], v[1], v[2]
-	switch {
-	case !(step > 0):
-		return "", nil, bad("step must be > 0")
-	case stop < start:
-		return "", nil, bad("stop below start")
-	case name == estimate.SweepLoss && (start < 0 || stop > 1):
-		return "", nil, bad("loss must lie in [0, 1]")
-	case name == estimate.SweepDelayScale && !(start > 0):
-		return "", nil, bad("delay_scale must be > 0")
-	case stop > start && step > stop-start:
-		// 0:0.01:0.3 read as START:STEP:STOP would give one point.
-		return "", nil, bad(fmt.Sprintf("step %g is larger than the range %g to %g; the order is START:STOP:STEP", step, start, stop))
-	}
-	n := int(math.Floor((stop-start)/step+1e-9)) + 1
-	if n > maxSweepPoints {
-		return "", nil, bad(fmt.Sprintf("%d points, at most %d", n, maxSweepPoints))
-	}
-	values := make([]float64, n)
-	for i := range values {
-		values[i] = start + float64(i)*step
-	}
-	return name, values, nil
 }
 
 func predictSweep(loop *profiles.Loop, param string, values []float64, plotFile string, stdout, stderr io.Writer) error {

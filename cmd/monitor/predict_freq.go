@@ -1,0 +1,59 @@
+package main
+
+import (
+	"fmt"
+	"io"
+
+	"rigwire/cmd/internal/cli"
+	"rigwire/estimate"
+	"rigwire/estimate/report"
+	"rigwire/profiles"
+)
+
+// predictFrequency prints the loop's periodic steady state under a
+// sinusoidal reference at each frequency (estimate/model.md §15).
+func predictFrequency(loop *profiles.Loop, spec, amp string, asJSON bool, plotFile string, stdout io.Writer) error {
+	freqs, err := parseFrequencies(spec, loop)
+	if err != nil {
+		return err
+	}
+	_, _, p, _ := loop.Dims()
+	ref := loop.Reference
+	if !ref.Sinusoidal() {
+		ref = profiles.Reference{Kind: profiles.ReferenceSine, Amplitude: make([]float64, p), Phase: make([]float64, p)}
+		for i := range ref.Amplitude {
+			ref.Amplitude[i] = 1
+		}
+	}
+	if amp != "" {
+		a, err := parseFloats(amp)
+		if err != nil || len(a) != p {
+			return cli.Usagef("--amplitude: want %d comma-separated numbers ≥ 0 (one per output), got %q", p, amp)
+		}
+		for _, v := range a {
+			if !(v >= 0 && v <= 1e50) {
+				return cli.Usagef("--amplitude: want amplitudes in [0, 1e50], got %g", v)
+			}
+		}
+		ref.Amplitude = a
+	}
+	md, err := estimate.Build(loop, estimate.Options{})
+	if err != nil {
+		return cli.BadInput(fmt.Errorf("%s: %w", loop.File, err))
+	}
+	hs, err := md.FrequencyResponse(ref, freqs)
+	if err != nil {
+		return cli.BadInput(fmt.Errorf("%s: %w", loop.File, err))
+	}
+	if asJSON {
+		if err := report.WriteFrequencyJSON(stdout, loop.Period, hs); err != nil {
+			return err
+		}
+	} else {
+		report.WriteFrequencyCSV(stdout, hs)
+	}
+	if plotFile != "" {
+		return report.WriteFrequencyPlot(hs, nil, plotFile)
+	}
+	return nil
+}

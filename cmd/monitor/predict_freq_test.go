@@ -1,0 +1,84 @@
+package main
+
+import (
+	"encoding/json"
+	"os"
+	"path/filepath"
+	"strconv"
+	"strings"
+	"testing"
+
+	"rigwire/estimate/report"
+)
+
+// TestPredictFrequency: --frequency prints one CSV row per frequency with
+// the documented columns, --json the same as an object, --plot writes
+// the plot; bad frequencies and combinations are usage errors (status 2).
+func TestPredictFrequency(t *testing.T) {
+	loop := "../../profiles/examples/loops/conveyor.yaml"
+	code, out, errOut := runMonitor("predict", loop, "--frequency", "0.1:10:5")
+	if code != 0 {
+		t.Fatalf("exit %d: %s", code, errOut)
+	}
+	lines := strings.Split(strings.TrimSpace(out), "\n")
+	if len(lines) != 6 || lines[0] != strings.Join(report.FrequencyColumns(1), ",") {
+		t.Fatalf("CSV: %d lines, header %q", len(lines), lines[0])
+	}
+	for _, l := range lines[1:] {
+		f := strings.Split(l, ",")
+		if len(f) != len(report.FrequencyColumns(1)) {
+			t.Fatalf("row %q: %d fields", l, len(f))
+		}
+		for i, v := range f {
+			if _, err := strconv.ParseFloat(v, 64); err != nil {
+				t.Errorf("row %q: column %s: %q is not a number", l, report.FrequencyColumns(1)[i], v)
+			}
+		}
+	}
+	code, out, errOut = runMonitor("predict", loop, "--frequency", "0.5,2", "--amplitude", "0.2", "--json")
+	if code != 0 {
+		t.Fatalf("exit %d: %s", code, errOut)
+	}
+	var js struct {
+		Points []struct {
+			FrequencyHz float64 `json:"frequency_hz"`
+			Outputs     []struct {
+				ReferenceAmplitude float64 `json:"reference_amplitude"`
+				Gain               float64 `json:"gain"`
+			} `json:"outputs"`
+			Spread float64 `json:"spread"`
+		} `json:"points"`
+	}
+	if err := json.Unmarshal([]byte(out), &js); err != nil {
+		t.Fatal(err)
+	}
+	if len(js.Points) != 2 || js.Points[1].FrequencyHz != 2 || js.Points[0].Outputs[0].ReferenceAmplitude != 0.2 || !(js.Points[0].Spread > 0) {
+		t.Errorf("JSON: %+v", js)
+	}
+	plot := filepath.Join(t.TempDir(), "f.svg")
+	if code, _, errOut := runMonitor("predict", loop, "--frequency", "0.1:10:20", "--plot", plot); code != 0 {
+		t.Fatalf("plot: exit %d: %s", code, errOut)
+	}
+	if b, err := os.ReadFile(plot); err != nil || !strings.Contains(string(b), "<svg") {
+		t.Errorf("plot not written: %v", err)
+	}
+	for _, c := range []struct {
+		args []string
+		want string
+	}{
+		{[]string{"--frequency", "25"}, "25 Hz is outside (0, 25)"},
+		{[]string{"--frequency", "0"}, "0 Hz is outside"},
+		{[]string{"--frequency", "1:0.5:4"}, "TO must be above FROM"},
+		{[]string{"--frequency", "0.1:1:1"}, "N must be a whole number in [2, 1000]"},
+		{[]string{"--frequency", "x"}, `want a number, got "x"`},
+		{[]string{"--frequency", "reference"}, "has no sinusoidal reference"},
+		{[]string{"--frequency", "1", "--amplitude", "1,2"}, "--amplitude: want 1 comma-separated numbers"},
+		{[]string{"--amplitude", "1"}, "--amplitude: want --frequency with it"},
+		{[]string{"--frequency", "1", "--step", "5"}, "want one of them, got 2"},
+	} {
+		code, _, errOut := runMonitor(append([]string{"predict", loop}, c.args...)...)
+		if code != 2 || !strings.Contains(errOut, c.want) {
+			t.Errorf("%v: exit %d, %q; want 2 and %q", c.args, code, errOut, c.want)
+		}
+	}
+}
