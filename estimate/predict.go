@@ -2,6 +2,7 @@ package estimate
 
 import (
 	"errors"
+	"fmt"
 	"math"
 
 	"rigwire/profiles"
@@ -33,6 +34,14 @@ type Prediction struct {
 	States []StateReport
 	// Moments are the steady state moments; nil when not stable.
 	Moments *Moments
+	// Harmonics are the periodic steady states at each frequency of a
+	// sinusoidal reference (estimate/model.md §15), in the order of the
+	// reference's frequencies; nil with a constant reference, when not
+	// stable, or with a Monte Carlo prediction. With them, Error is the
+	// average over the phase and over the frequencies (each dwell of a
+	// sweep lasts as long): what a run that leaves out each dwell's
+	// settling measures.
+	Harmonics []Harmonic
 	// Timing is what the loop's timing policy does (estimate/model.md
 	// §13): the horizons, how the prediction was computed and how old the
 	// command the actuator runs on is. Never nil.
@@ -152,6 +161,15 @@ func (md *Model) Predict(margin bool) (*Prediction, error) {
 		default:
 			st := md.Error(mo)
 			pr.Error, pr.Moments = &st, mo
+			if ref := md.Loop.Reference; ref.Sinusoidal() {
+				hs, err := md.FrequencyResponse(ref, ref.Frequencies)
+				if err != nil {
+					return nil, fmt.Errorf("sinusoidal reference: %w", err)
+				}
+				pr.Harmonics = hs
+				avg := averageHarmonics(hs)
+				pr.Error = &avg
+			}
 		}
 	}
 	if margin {
@@ -245,4 +263,27 @@ func (md *Model) baseStates() []StateReport {
 		}
 	}
 	return out
+}
+
+// averageHarmonics is the error's moments averaged over the phase and
+// over the frequencies: E[e] the constant part, E[eᵀe] and the per-output
+// variances their means.
+func averageHarmonics(hs []Harmonic) ErrorStats {
+	p := len(hs[0].ErrorOffset)
+	st := ErrorStats{Mean: make([]float64, p), OutputStd: make([]float64, p)}
+	n := float64(len(hs))
+	sq := 0.0
+	for _, h := range hs {
+		st.SecondMoment += h.SecondMoment / n
+		for i := 0; i < p; i++ {
+			st.Mean[i] += h.ErrorOffset[i] / n
+			st.OutputStd[i] += h.Variance[i] / n
+		}
+	}
+	for i := 0; i < p; i++ {
+		st.OutputStd[i] = math.Sqrt(st.OutputStd[i])
+		sq += st.Mean[i] * st.Mean[i]
+	}
+	st.Std = math.Sqrt(math.Max(0, st.SecondMoment-sq))
+	return st
 }

@@ -73,21 +73,22 @@ func cycles(f float64, j uint64, h float64) float64 {
 	return 2 * math.Pi * t
 }
 
-// ReferenceAt writes r(t_k) for sample k into dst (len p) and returns the
-// segment (the frequency's index) and whether the sample is settling.
-func (l *Loop) ReferenceAt(k uint64, dst []float64) (seg int, settling bool) {
+// ReferenceAt writes r(t_k) for sample k into dst (len p) and returns
+// where the sample falls, as Segment: the frequency's index, the phase θ_k
+// and whether the sample is settling.
+func (l *Loop) ReferenceAt(k uint64, dst []float64) (seg int, theta float64, settling bool) {
 	copy(dst, l.Setpoint)
 	r := &l.Reference
 	if !r.Sinusoidal() {
-		return 0, false
+		return 0, 0, false
 	}
-	seg, theta, settling := r.Segment(k, l.Period)
+	seg, theta, settling = r.Segment(k, l.Period)
 	for i := range dst {
 		if a := r.Amplitude[i]; a != 0 {
 			dst[i] += a * math.Sin(theta+r.Phase[i])
 		}
 	}
-	return seg, settling
+	return seg, theta, settling
 }
 
 // Phasor returns the complex amplitude R of output i's sinusoid in the

@@ -77,10 +77,10 @@ func TestReferenceAt(t *testing.T) {
 			t.Errorf("k=%d: phasor gives %.12g, want %.12g", k, got, want)
 		}
 	}
-	if _, settling := l.ReferenceAt(l.Reference.SettleSamples-1, r); !settling {
+	if _, _, settling := l.ReferenceAt(l.Reference.SettleSamples-1, r); !settling {
 		t.Error("the last settling sample is not settling")
 	}
-	if _, settling := l.ReferenceAt(l.Reference.SettleSamples, r); settling {
+	if _, _, settling := l.ReferenceAt(l.Reference.SettleSamples, r); settling {
 		t.Error("the first settled sample is settling")
 	}
 
@@ -99,7 +99,7 @@ func TestReferenceAt(t *testing.T) {
 		seg  int
 		sett bool
 	}{{0, 0, true}, {99, 0, true}, {100, 0, false}, {300, 1, true}, {450, 1, false}, {899, 2, false}, {900, 0, true}} {
-		seg, sett := s.ReferenceAt(c.k, r)
+		seg, _, sett := s.ReferenceAt(c.k, r)
 		local := float64(c.k%300) * 0.01
 		want := 1 + 2*math.Sin(2*math.Pi*s.Reference.Frequencies[c.seg]*local)
 		if seg != c.seg || sett != c.sett || math.Abs(r[0]-want) > 1e-9 {

@@ -285,7 +285,7 @@ func pairs(f yamlpos.Field) ([]pair, error) {
 func parsePhase(f yamlpos.Field, i int, s *Scenario, base profileSource, dir string) (Phase, phaseSource, error) {
 	ph := Phase{Index: i, Line: f.Line(), Settle: s.Settle, Check: Check{MinSamples: DefaultMinSamples}}
 	src := phaseSource{prof: base}
-	keys, err := f.Mapping("name", "duration", "settle", "profile", "set", "ramp", "predict_with", "check")
+	keys, err := f.Mapping("name", "duration", "settle", "profile", "set", "ramp", "predict_with", "check", "frequency")
 	if err != nil {
 		return ph, src, err
 	}
@@ -347,6 +347,13 @@ func parsePhase(f yamlpos.Field, i int, s *Scenario, base profileSource, dir str
 		if ph.Check, err = parseCheck(g); err != nil {
 			return ph, src, err
 		}
+	}
+	if g := keys["frequency"]; !g.IsNull() {
+		v, err := g.Positive()
+		if err != nil {
+			return ph, src, g.Errorf("want a frequency in Hz > 0 (one of the loop's sweep reference), got %s", g.Got())
+		}
+		ph.Check.Frequency, ph.FrequencyLine = v, g.Line()
 	}
 	return ph, src, nil
 }

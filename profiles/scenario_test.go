@@ -288,7 +288,7 @@ var scenarioErrors = map[string]string{
 	"phase-duration.bad.yaml":        `:4: phases[0].duration: want a duration > 0 and ≤ 168h0m0s, got "0s"`,
 	"phase-no-duration.bad.yaml":     `:3: phases[0].duration: missing (required)`,
 	"unknown-key.bad.yaml":           `:3: unknown key "phase" (want one of: name, profile, settle, ramp_step, phases)`,
-	"unknown-phase-key.bad.yaml":     `:5: phases[0]: unknown key "sett" (want one of: name, duration, settle, profile, set, ramp, predict_with, check)`,
+	"unknown-phase-key.bad.yaml":     `:5: phases[0]: unknown key "sett" (want one of: name, duration, settle, profile, set, ramp, predict_with, check, frequency)`,
 	"unknown-check-key.bad.yaml":     `:5: phases[0].check: unknown key "tol" (want one of: tolerance, max_second_moment, min_samples)`,
 	"check-min-samples.bad.yaml":     `:5: phases[0].check.min_samples: want a whole number ≥ 2, got "1"`,
 	"check-tolerance.bad.yaml":       `:5: phases[0].check.tolerance: want a number ≥ 0, got "-0.1"`,

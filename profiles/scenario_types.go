@@ -1,6 +1,9 @@
 package profiles
 
-import "time"
+import (
+	"fmt"
+	"time"
+)
 
 // Scenario is a validated scenario file: a base profile and a sequence of
 // phases the relay applies one after the other (LoadScenario builds it).
@@ -36,6 +39,41 @@ type Phase struct {
 	// HasPredictWith is true when the phase predicts with a profile other
 	// than the one the relay applies (key predict_with).
 	HasPredictWith bool
+	// FrequencyLine is the line of the phase's key frequency
+	// (Check.Frequency).
+	FrequencyLine int
+}
+
+// ReferenceSegment returns the index of f among the loop's reference
+// frequencies (to 1e-9 relative), or −1.
+func (l *Loop) ReferenceSegment(f float64) int {
+	if !l.Reference.Sinusoidal() {
+		return -1
+	}
+	for i, g := range l.Reference.Frequencies {
+		if d := f - g; d <= 1e-9*g && d >= -1e-9*g {
+			return i
+		}
+	}
+	return -1
+}
+
+// CheckFrequencies checks that every phase's frequency is one of the
+// loop's reference frequencies; the error names the scenario file, the
+// line and the key.
+func (s *Scenario) CheckFrequencies(l *Loop) error {
+	for _, ph := range s.Phases {
+		if ph.Check.Frequency == 0 || l.ReferenceSegment(ph.Check.Frequency) >= 0 {
+			continue
+		}
+		if !l.Reference.Sinusoidal() {
+			return fmt.Errorf("%s:%d: phases[%d].frequency: the loop %s has no sinusoidal reference (key reference) to judge a frequency of, got %g Hz",
+				s.File, ph.FrequencyLine, ph.Index, l.File, ph.Check.Frequency)
+		}
+		return fmt.Errorf("%s:%d: phases[%d].frequency: want one of the loop's reference frequencies %v Hz, got %g Hz",
+			s.File, ph.FrequencyLine, ph.Index, l.Reference.Frequencies, ph.Check.Frequency)
+	}
+	return nil
 }
 
 // Ramp is one linearly ramped parameter: Key is its dotted path in the
@@ -65,6 +103,13 @@ type Check struct {
 	Tolerance       *float64
 	MaxSecondMoment *float64
 	MinSamples      int
+	// Frequency (Hz; the phase's key frequency, 0: none) makes the phase
+	// judge only the samples taken while the loop's sinusoidal reference
+	// is at that frequency, against the prediction at it
+	// (estimate/model.md §15), and adds the gain, phase and spread at it
+	// to the tolerance's rule; it must be one of the reference's
+	// frequencies (Scenario.CheckFrequencies).
+	Frequency float64
 }
 
 // ScenarioStep is one change the relay makes while playing a scenario:

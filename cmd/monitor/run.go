@@ -219,6 +219,9 @@ func cmdRun(args []string, stdout, stderr io.Writer) error {
 		return fmt.Errorf("receiving: %w", serveErr)
 	}
 	fmt.Fprintln(stderr, sum.VerdictLine())
+	for _, l := range sum.FrequencyLines() {
+		fmt.Fprintln(stderr, l)
+	}
 	if code := exitcode.OfTrip(sum); code != 0 {
 		return cli.Exit{Code: code}
 	}

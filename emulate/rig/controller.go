@@ -190,7 +190,7 @@ func (c *Controller) serveLoop(q *sendQueue) error {
 	_, m, p, nc := l.Dims()
 	xc := append([]float64(nil), c.cfg.Start.XC...)
 	xcn := make([]float64, nc)
-	y, e, u := make([]float64, p), make([]float64, p), make([]float64, m)
+	y, e, u, r := make([]float64, p), make([]float64, p), make([]float64, m), make([]float64, p)
 	buf := make([]byte, 4096)
 	last := int64(-1)
 	for {
@@ -232,8 +232,11 @@ func (c *Controller) serveLoop(q *sendQueue) error {
 		}
 		c.mu.Unlock()
 		last = int64(k)
+		// r(t_k) from the sample's number, as the monitor computes it
+		// (profiles.Loop.ReferenceAt): the setpoint, or a sine about it.
+		l.ReferenceAt(k, r)
 		for i := range e {
-			e[i] = l.Setpoint[i] - y[i]
+			e[i] = r[i] - y[i]
 		}
 		simstep.Controller(l.Controller, xc, xcn, e, u)
 		comp := c.comp.Sample(c.rng)

@@ -76,7 +76,11 @@ type Monitor struct {
 	first     time.Time // arrival of the first estimated sample
 	last      time.Time // arrival of the latest datagram
 	meanBuf   []float64
-	e         []float64 // e = setpoint − y of the latest sample
+	e         []float64 // e = r − y of the latest sample
+	r         []float64 // r(t_k) of the latest sample: the setpoint, or the sinusoid about it
+	// fits are the run's fits per frequency of a sinusoidal reference
+	// (nil with a constant one).
+	fits []*online.HarmonicFit
 
 	// cur is the prediction in force (UpdatePrediction); curPr its
 	// E[eᵀe], NaN when not certified mean-square stable, and curStab
@@ -174,7 +178,15 @@ func New(loop *profiles.Loop, pred *estimate.Prediction, opts Options) (*Monitor
 		loop: loop, pred: pred, opts: opts, now: opts.Now, windows: opts.Windows,
 		warmupN: int64(math.Floor(opts.Warmup.Seconds()/loop.Period + 1e-9)), // 1e-9: 0.2 s / 20 ms is 10, not 9.999…
 		on:      on, failures: make([]int64, len(datagram.Reasons)), y: make([]float64, len(loop.Setpoint)), meanBuf: make([]float64, len(loop.Setpoint)),
-		e: make([]float64, len(loop.Setpoint)),
+		e: make([]float64, len(loop.Setpoint)), r: append([]float64(nil), loop.Setpoint...),
+	}
+	if loop.Reference.Sinusoidal() {
+		if loop.Decode.Sequence == nil {
+			return nil, fmt.Errorf("%s: decode.sequence: missing; a sinusoidal reference needs it (the reference's time is the sample's sequence number times the period)", loop.File)
+		}
+		for seg := range loop.Reference.Frequencies {
+			m.fits = append(m.fits, newFit(loop, seg, opts.Level))
+		}
 	}
 	m.cur, m.curPr, m.curStab = pred, predictedOf(pred), stabilityOf(pred)
 	m.hist.init(int64(math.Ceil(opts.HistoryEvery.Seconds()/loop.Period - 1e-9)))
@@ -239,8 +251,12 @@ func (m *Monitor) feed(src netip.AddrPort, payload []byte, at time.Time) (*trip.
 		}
 	}
 	m.decoded++
+	seg, theta, settling := 0, 0.0, false
+	if m.fits != nil {
+		seg, theta, settling = m.loop.ReferenceAt(seq, m.r)
+	}
 	x := 0.0
-	for i, r := range m.loop.Setpoint {
+	for i, r := range m.r {
 		m.e[i] = r - m.y[i]
 		x += m.e[i] * m.e[i]
 	}
@@ -250,7 +266,9 @@ func (m *Monitor) feed(src netip.AddrPort, payload []byte, at time.Time) (*trip.
 	if m.trip.det.Armed() && !tripped {
 		ev = m.checkTrip(x, seq, hasSeq, at)
 	}
-	if m.decoded <= m.warmupN {
+	if m.decoded <= m.warmupN || settling {
+		// With a moving reference, a dwell's settling is left out as
+		// the warm-up is: the prediction is the periodic steady state.
 		m.skipped++
 		return ev, m.trip.fire
 	}
@@ -267,8 +285,21 @@ func (m *Monitor) feed(src netip.AddrPort, payload []byte, at time.Time) (*trip.
 		m.first = at
 	}
 	m.on.AddError(m.e)
+	if m.fits != nil {
+		m.fits[seg].Add(m.y, theta)
+	}
 	if p := m.phase; p != nil {
-		p.add(m.e, at, m.curPr, m.curStab)
+		switch {
+		case p.seg < 0:
+			p.add(m.e, at, m.curPr, m.curStab)
+		case p.seg == seg:
+			p.add(m.e, at, secondMomentAt(m.cur, seg), m.curStab)
+			if !at.Before(p.judgeFrom) {
+				p.fit.Add(m.y, theta)
+			}
+		default:
+			p.otherN++
+		}
 	}
 	m.hist.tick(m, at)
 	return ev, m.trip.fire

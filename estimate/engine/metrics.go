@@ -35,15 +35,18 @@ func (m *Monitor) RegisterMetrics(reg prometheus.Registerer) error {
 }
 
 type descs struct {
-	second, ciLow, ciHigh, mean, std, effective, windowSamples, ratio  *prometheus.Desc
-	predicted, stable, radius, margin, tolerance                       *prometheus.Desc
-	samples, datagrams, gaps, late, duplicates, stale, restarts        *prometheus.Desc
-	missing, strangers                                                 *prometheus.Desc
-	failures, skipped                                                  *prometheus.Desc
-	phase, phaseSecond, phasePredicted, phasePassed, tripActive, trips *prometheus.Desc
-	phaseInconclusive, afterTrip                                       *prometheus.Desc
-	commandAge, method                                                 *prometheus.Desc
-	batches, predictedInForce, phaseCILow, phaseCIHigh, phaseTolerance *prometheus.Desc
+	second, ciLow, ciHigh, mean, std, effective, windowSamples, ratio     *prometheus.Desc
+	predicted, stable, radius, margin, tolerance                          *prometheus.Desc
+	samples, datagrams, gaps, late, duplicates, stale, restarts           *prometheus.Desc
+	missing, strangers                                                    *prometheus.Desc
+	failures, skipped                                                     *prometheus.Desc
+	phase, phaseSecond, phasePredicted, phasePassed, tripActive, trips    *prometheus.Desc
+	phaseInconclusive, afterTrip                                          *prometheus.Desc
+	commandAge, method                                                    *prometheus.Desc
+	refGain, refGainLow, refGainHigh, refPhase, refPhaseLow, refPhaseHigh *prometheus.Desc
+	refVar, refVarLow, refVarHigh, refSamples, refAgrees                  *prometheus.Desc
+	predRefGain, predRefPhase, predRefVar, predRefVarPeak                 *prometheus.Desc
+	batches, predictedInForce, phaseCILow, phaseCIHigh, phaseTolerance    *prometheus.Desc
 	// all are the descriptors above, for Describe.
 	all []*prometheus.Desc
 }
@@ -95,6 +98,21 @@ func newDescs() *descs {
 		afterTrip:         d("after_trip_samples_total", "Samples decoded after the safety trip fired: counted, estimated nowhere."),
 		tripActive:        d("trip_active", "1 once the safety trip has fired (latched), else 0."),
 		trips:             d("trips_total", "Safety trips fired, by reason (0 or 1: the trip is latched).", "reason"),
+		refGain:           d("reference_gain", "Measured gain |Y/R| of the mean response from setpoint to output at each frequency of a sinusoidal reference (least squares at the frequency over the settled samples), by frequency and output; absent before a fit.", "frequency_hz", "output"),
+		refGainLow:        d("reference_gain_ci_low", "Lower bound of the gain's confidence interval (batch means of the batch fits); absent with fewer than 10 batches of a cycle each.", "frequency_hz", "output"),
+		refGainHigh:       d("reference_gain_ci_high", "Upper bound of the gain's confidence interval; absent with fewer than 10 batches.", "frequency_hz", "output"),
+		refPhase:          d("reference_phase_radians", "Measured phase arg(Y/R) of the mean response from setpoint to output, by frequency and output.", "frequency_hz", "output"),
+		refPhaseLow:       d("reference_phase_ci_low_radians", "Lower bound of the phase's confidence interval; absent with fewer than 10 batches or wider than ±π/2.", "frequency_hz", "output"),
+		refPhaseHigh:      d("reference_phase_ci_high_radians", "Upper bound of the phase's confidence interval; absent as the lower.", "frequency_hz", "output"),
+		refVar:            d("reference_error_variance", "Measured variance of the tracking error about its mean response (the residual of the fit, summed over outputs: the spread averaged over the phase), by frequency.", "frequency_hz"),
+		refVarLow:         d("reference_error_variance_ci_low", "Lower bound of the spread's confidence interval; absent with fewer than 10 batches.", "frequency_hz"),
+		refVarHigh:        d("reference_error_variance_ci_high", "Upper bound of the spread's confidence interval; absent with fewer than 10 batches.", "frequency_hz"),
+		refSamples:        d("reference_samples_total", "Samples fitted at each frequency of a sinusoidal reference (settled, after the warm-up).", "frequency_hz"),
+		refAgrees:         d("reference_agrees", "1 when gain, phase and spread at the frequency agree with the prediction within their intervals widened by the tolerance, 0 when one differs; absent while inconclusive.", "frequency_hz"),
+		predRefGain:       d("predicted_reference_gain", "Predicted gain |Y/R| of the mean response from setpoint to output, by frequency and output (NaN when not predicted: not stable, or a Monte Carlo prediction).", "frequency_hz", "output"),
+		predRefPhase:      d("predicted_reference_phase_radians", "Predicted phase arg(Y/R), by frequency and output (NaN when not predicted).", "frequency_hz", "output"),
+		predRefVar:        d("predicted_reference_error_variance", "Predicted error variance about the mean response, averaged over the reference's phase and summed over outputs, by frequency (NaN when not predicted).", "frequency_hz"),
+		predRefVarPeak:    d("predicted_reference_error_variance_peak", "Predicted error variance at its worst phase of the reference, by frequency (NaN when not predicted).", "frequency_hz"),
 	}
 	ds.all = all
 	return ds
@@ -241,6 +259,7 @@ func (c *collector) Collect(ch chan<- prometheus.Metric) {
 			shown[name] = true
 		}
 	}
+	m.collectFrequencies(d, gauge, measured, counter)
 	active := 0.0
 	if m.trip.event != nil {
 		active = 1
@@ -274,4 +293,46 @@ func value(v *float64) float64 {
 		return math.NaN()
 	}
 	return *v
+}
+
+// collectFrequencies exports the run's fits per frequency of a sinusoidal
+// reference beside the prediction. Under the monitor's lock.
+func (m *Monitor) collectFrequencies(d *descs, gauge, measured func(*prometheus.Desc, float64, ...string), counter func(*prometheus.Desc, int64, ...string)) {
+	deg := math.Pi / 180
+	for seg, fit := range m.fits {
+		f := frequencyLabel(m.loop.Reference.Frequencies[seg])
+		est := fit.Result()
+		h := harmonicAt(m.pred, seg)
+		fr := frequencyResult(m.loop, seg, est, h, m.opts.Tolerance)
+		for i, o := range fr.Outputs {
+			out := strconv.Itoa(i)
+			if m.loop.Reference.Amplitude[i] == 0 {
+				continue
+			}
+			measured(d.refGain, value(o.Gain), f, out)
+			measured(d.refGainLow, value(o.GainCILow), f, out)
+			measured(d.refGainHigh, value(o.GainCIHigh), f, out)
+			measured(d.refPhase, value(o.PhaseDeg)*deg, f, out)
+			measured(d.refPhaseLow, value(o.PhaseCILow)*deg, f, out)
+			measured(d.refPhaseHigh, value(o.PhaseCIHigh)*deg, f, out)
+			gauge(d.predRefGain, value(o.PredictedGain), f, out)
+			gauge(d.predRefPhase, value(o.PredictedPhaseDeg)*deg, f, out)
+		}
+		measured(d.refVar, value(fr.Spread), f)
+		measured(d.refVarLow, value(fr.SpreadCILow), f)
+		measured(d.refVarHigh, value(fr.SpreadCIHigh), f)
+		counter(d.refSamples, fr.Samples, f)
+		pv, pk := math.NaN(), math.NaN()
+		if h != nil {
+			pv, pk = h.Spread, h.SpreadPeak
+		}
+		gauge(d.predRefVar, pv, f)
+		gauge(d.predRefVarPeak, pk, f)
+		switch fr.Verdict {
+		case FrequencyAgree:
+			gauge(d.refAgrees, 1, f)
+		case FrequencyDiffer:
+			gauge(d.refAgrees, 0, f)
+		}
+	}
 }

@@ -76,6 +76,25 @@ type PhaseResult struct {
 	Tolerance         *float64 `json:"tolerance"`
 	MaxSecondMoment   *float64 `json:"max_second_moment"`
 	MinSamples        int      `json:"min_samples"`
+	// Frequency is the measured response at the phase's frequency (key
+	// frequency) beside the prediction, judged with the phase's
+	// tolerance; OtherFrequencySamples arrived while the reference was
+	// at another frequency and were not judged.
+	Frequency             *FrequencyResult `json:"frequency_response,omitempty"`
+	OtherFrequencySamples int64            `json:"other_frequency_samples,omitempty"`
+}
+
+// combineFrequency joins a phase's E[eᵀe] verdict with its frequency's:
+// fail when either fails, else inconclusive when either is.
+func combineFrequency(verdict, reason string, fr FrequencyResult) (string, string) {
+	reason += "; at " + frequencyLabel(fr.FrequencyHz) + " Hz: " + fr.Verdict + ": " + fr.Reason
+	switch {
+	case verdict == PhaseFail || fr.Verdict == FrequencyDiffer:
+		return PhaseFail, reason
+	case verdict == PhaseInconclusive || fr.Verdict == FrequencyInconclusive:
+		return PhaseInconclusive, reason
+	}
+	return verdict, reason
 }
 
 // phase is one phase's state.
@@ -102,6 +121,15 @@ type phase struct {
 	predSum   float64
 	predN     int64
 	notStable string
+	// seg is the reference frequency the phase judges (check.Frequency),
+	// −1 for every sample; fit its fit, otherN the samples at other
+	// frequencies (not judged).
+	seg          int
+	fit          *online.HarmonicFit
+	otherN       int64
+	badFrequency bool
+	// harm is the prediction at seg when the phase started.
+	harm *estimate.Harmonic
 }
 
 // add takes one estimated sample e that arrived at at, with pr the
@@ -152,15 +180,27 @@ func (m *Monitor) StartPhase(index int, name string, pred *estimate.Prediction, 
 	if pred == nil {
 		pred = m.pred
 	}
+	seg := -1
+	var fit *online.HarmonicFit
+	if check.Frequency != 0 {
+		if seg = m.loop.ReferenceSegment(check.Frequency); seg >= 0 {
+			fit = newFit(m.loop, seg, m.opts.Level)
+		}
+	}
 	m.mu.Lock()
 	defer m.mu.Unlock()
 	now := m.now()
 	m.closePhase(now)
 	p := &phase{index: index, name: name, start: now, judgeFrom: now.Add(settle), check: check, on: on,
-		startedAfterTrip: m.trip.event != nil}
+		startedAfterTrip: m.trip.event != nil, seg: seg, fit: fit}
+	if check.Frequency != 0 && seg < 0 {
+		// Scenario.CheckFrequencies refuses this before a soak starts.
+		p.badFrequency = true
+	}
 	m.phases = append(m.phases, p)
 	m.phase = p
 	m.cur, m.curPr, m.curStab = pred, predictedOf(pred), stabilityOf(pred)
+	p.harm = harmonicAt(pred, seg)
 }
 
 // UpdatePrediction replaces the prediction in force (a ramp's step):
@@ -272,6 +312,20 @@ func (m *Monitor) result(p *phase) PhaseResult {
 	}
 	r.Verdict, r.Reason, r.Warning = judgePhase(st, pr, p.notStable, r.MinSamples, p.check)
 	r.PredictionOutside = r.Warning != ""
+	if p.seg >= 0 {
+		tol := 0.0
+		if p.check.Tolerance != nil {
+			tol = *p.check.Tolerance
+		}
+		fr := frequencyResult(m.loop, p.seg, p.fit.Result(), p.harm, tol)
+		r.Frequency, r.OtherFrequencySamples = &fr, p.otherN
+		if p.check.Tolerance != nil {
+			r.Verdict, r.Reason = combineFrequency(r.Verdict, r.Reason, fr)
+		}
+	}
+	if p.badFrequency {
+		r.Verdict, r.Reason = PhaseInconclusive, fmt.Sprintf("frequency %g Hz is not one of the loop's reference frequencies", p.check.Frequency)
+	}
 	switch {
 	case p.startedAfterTrip:
 		r.Verdict = PhaseNotRun

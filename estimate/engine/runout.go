@@ -8,6 +8,7 @@ import (
 	"net"
 	"os"
 	"path/filepath"
+	"strings"
 	"time"
 )
 
@@ -67,6 +68,39 @@ func (s *Summary) VerdictLine() string {
 	return fmt.Sprintf("verdict %s: measured E[eᵀe] %s, %g %% CI [%s, %s] from %d samples; predicted %s; tolerance %g — %s",
 		s.Verdict, f(s.ErrorSecondMoment), 100*s.Level, f(s.CILow), f(s.CIHigh), s.Samples, f(s.PredictedSecondMoment), s.Tolerance,
 		s.VerdictReason)
+}
+
+// FrequencyLines says, one line per frequency of a sinusoidal
+// reference, the measured gain, phase and spread beside the prediction
+// and the verdict (none with a constant reference).
+func (s *Summary) FrequencyLines() []string {
+	f := func(p *float64, format string) string {
+		if p == nil {
+			return "-"
+		}
+		return fmt.Sprintf(format, *p)
+	}
+	var out []string
+	for _, fr := range s.FrequencyResponse {
+		var parts []string
+		for i, o := range fr.Outputs {
+			if o.Gain == nil && o.PredictedGain == nil {
+				continue
+			}
+			out := ""
+			if len(fr.Outputs) > 1 {
+				out = fmt.Sprintf(" y%d", i)
+			}
+			parts = append(parts, fmt.Sprintf("gain%s %s [%s, %s] (predicted %s), phase %s° [%s, %s] (predicted %s°)", out,
+				f(o.Gain, "%.4g"), f(o.GainCILow, "%.4g"), f(o.GainCIHigh, "%.4g"), f(o.PredictedGain, "%.4g"),
+				f(o.PhaseDeg, "%.1f"), f(o.PhaseCILow, "%.1f"), f(o.PhaseCIHigh, "%.1f"), f(o.PredictedPhaseDeg, "%.1f")))
+		}
+		parts = append(parts, fmt.Sprintf("spread %s [%s, %s] (predicted %s)", f(fr.Spread, "%.4g"), f(fr.SpreadCILow, "%.4g"),
+			f(fr.SpreadCIHigh, "%.4g"), f(fr.PredictedSpread, "%.4g")))
+		out = append(out, fmt.Sprintf("at %s Hz (%d samples): %s — %s: %s", frequencyLabel(fr.FrequencyHz), fr.Samples,
+			strings.Join(parts, ", "), fr.Verdict, fr.Reason))
+	}
+	return out
 }
 
 // WriteSummary writes v (a Summary, or one with more beside it) as

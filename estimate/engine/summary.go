@@ -71,6 +71,10 @@ type Summary struct {
 	Phases []PhaseResult `json:"phases,omitempty"`
 	// Trip is the safety trip's event when it fired.
 	Trip *trip.Event `json:"trip,omitempty"`
+	// FrequencyResponse is, with a sinusoidal reference, the measured
+	// response per frequency beside the prediction (judged with the
+	// run's tolerance).
+	FrequencyResponse []FrequencyResult `json:"frequency_response,omitempty"`
 }
 
 // Predicted is the prediction in the summary.
@@ -171,6 +175,7 @@ func (m *Monitor) Summary() *Summary {
 			Effective: finite(ws.EffectiveSamples)})
 	}
 	s.Phases = m.phaseResults()
+	s.FrequencyResponse = m.frequencyResults()
 	if ev := m.trip.event; ev != nil {
 		c := *ev
 		s.Trip = &c
