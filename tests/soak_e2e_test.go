@@ -23,6 +23,13 @@ type soakResult struct {
 		Measured         *float64 `json:"error_second_moment"`
 		Predicted        *float64 `json:"predicted_second_moment"`
 		StartSeconds     *float64 `json:"start_seconds"`
+		Frequency        *struct {
+			FrequencyHz float64 `json:"frequency_hz"`
+			Samples     int64   `json:"samples"`
+			Verdict     string  `json:"verdict"`
+			Reason      string  `json:"reason"`
+		} `json:"frequency_response"`
+		OtherFrequencySamples int64 `json:"other_frequency_samples"`
 	} `json:"phases"`
 	AfterTripSamples int64 `json:"after_trip_samples"`
 	Trip             *struct {
@@ -37,8 +44,13 @@ type soakResult struct {
 // given time scale and returns the exit status, the output and the summary.
 func runSoak(t *testing.T, scenario string, scale string, wall time.Duration, reportDir string) (int, string, *soakResult) {
 	t.Helper()
+	return runSoakLoop(t, filepath.Join("..", "profiles", "examples", "checks", "soak-diverter.loop.yaml"), scenario, scale, wall, reportDir)
+}
+
+// runSoakLoop is runSoak of another loop.
+func runSoakLoop(t *testing.T, loop, scenario string, scale string, wall time.Duration, reportDir string) (int, string, *soakResult) {
+	t.Helper()
 	mon := buildCmd(t, "monitor")
-	loop := filepath.Join("..", "profiles", "examples", "checks", "soak-diverter.loop.yaml")
 	dir := t.TempDir()
 	ctlAddr, relayAddr := freePort(t, "udp"), freePort(t, "udp")
 	summary := filepath.Join(dir, "summary.json")
@@ -158,6 +170,44 @@ func TestSoakWrongPredictionFails(t *testing.T) {
 		}
 		if p.Name == "recovery" && !strings.Contains(p.Reason, "measured below") {
 			t.Errorf("recovery: %s, want the measured value below the prediction", p.Reason)
+		}
+	}
+}
+
+// TestSoakSweep plays a sweep soak (profiles/examples/checks/
+// soak-sweep.scenario.yaml): two phases, each one 15 s dwell of the loop's
+// sweep (1 Hz, 3 Hz), each judging the samples taken at its frequency
+// against the prediction at it (estimate/model.md §15): gain, phase,
+// spread and E[eᵀe] within their intervals widened by 15 %. Both phases
+// must pass on their own frequency's samples, and the report must draw
+// the frequency response.
+func TestSoakSweep(t *testing.T) {
+	if testing.Short() {
+		t.Skip("a 30-second soak")
+	}
+	t.Parallel()
+	rep := t.TempDir()
+	dir := filepath.Join("..", "profiles", "examples", "checks")
+	code, out, s := runSoakLoop(t, filepath.Join(dir, "soak-sweep.loop.yaml"), filepath.Join(dir, "soak-sweep.scenario.yaml"), "1", 30*time.Second, rep)
+	if code != 0 {
+		t.Fatalf("monitor soak exited %d, want 0:\n%s", code, out)
+	}
+	want := []float64{1, 3}
+	if len(s.Phases) != 2 {
+		t.Fatalf("phases %+v", s.Phases)
+	}
+	for i, p := range s.Phases {
+		fr := p.Frequency
+		if fr == nil || fr.FrequencyHz != want[i] || p.Verdict != "pass" || fr.Verdict != "agree" || fr.Samples < 400 {
+			t.Errorf("phase %s: %s (%s); frequency %+v; want passed at %g Hz with ≥ 400 samples", p.Name, p.Verdict, p.Reason, fr, want[i])
+		}
+		t.Logf("phase %s: %s; %d samples at other frequencies", p.Name, p.Reason, p.OtherFrequencySamples)
+	}
+	for _, f := range []string{"frequency-gain.png", "frequency-phase.png", "frequency-spread.png"} {
+		if b, err := os.ReadFile(filepath.Join(rep, f)); err != nil {
+			t.Errorf("report: %v", err)
+		} else if _, err := png.Decode(strings.NewReader(string(b))); err != nil {
+			t.Errorf("%s: %v", f, err)
 		}
 	}
 }

@@ -98,6 +98,9 @@ func cmdSoak(args []string, stdout, stderr io.Writer) error {
 	if err != nil {
 		return cli.BadInput(err)
 	}
+	if err := sc.CheckFrequencies(loop); err != nil {
+		return cli.BadInput(err)
+	}
 	written := sc // as the file says, for the report's scenario times
 	if *timeScale != 1 {
 		sc = sc.Scale(*timeScale)

@@ -2,11 +2,13 @@ package report
 
 import (
 	"encoding/json"
+	"errors"
 	"fmt"
 	"image/color"
 	"io"
 	"math"
 	"math/cmplx"
+	"slices"
 	"strconv"
 	"strings"
 
@@ -16,6 +18,8 @@ import (
 	"gonum.org/v1/plot/vg/draw"
 
 	"rigwire/estimate"
+	"rigwire/estimate/engine"
+	"rigwire/profiles"
 )
 
 // FrequencyColumns are the columns of `monitor predict --frequency`'s CSV
@@ -341,4 +345,91 @@ func WriteFrequencyPlot(hs []estimate.Harmonic, meas []FrequencyMeasure, file st
 		return fmt.Errorf("writing plot: %w", err)
 	}
 	return writeStack(file, pls, freqPanelHeight)
+}
+
+// frequencyFigures are the soak report's three frequency panels (gain,
+// phase, spread), each its own figure.
+func frequencyFigures(d *Data) []*figure {
+	figs := []*figure{
+		{File: FreqGainName, Title: "Frequency response: gain",
+			Caption: "Gain |Y/R| of the mean response from setpoint to output against the reference's frequency: predicted over the loop file's network (solid), the loss-free, delay-free loop (dashed), and measured (dots, whiskers: the confidence interval; a red cross: the phase or frequency failed its check)."},
+		{File: FreqPhaseName, Title: "Frequency response: phase",
+			Caption: "Phase arg(Y/R) in degrees, as the gain."},
+		{File: FreqSpreadName, Title: "Frequency response: spread",
+			Caption: "The error's variance about its mean response, averaged over the reference's phase and summed over the outputs, as the gain; the loss-free loop's is the noise alone."},
+	}
+	pls, err := frequencyPlots(d.Frequency, d.FrequencyMeasured)
+	if err != nil {
+		for _, f := range figs {
+			f.failed(err)
+		}
+		return figs
+	}
+	for i, f := range figs {
+		pls[i].X.Label.Text = "frequency (Hz)"
+		finish(f, pls[i])
+	}
+	return figs
+}
+
+// SoakFrequency is the soak report's frequency data for loop: the
+// predicted response on 40 log-spaced frequencies around the reference's
+// (from half the lowest to twice the highest, below the Nyquist
+// frequency), and the measured points: the frequency phases' when the
+// scenario has any, else the run's per frequency. nil, nil for a loop
+// without a sinusoidal reference or not mean-square stable.
+func SoakFrequency(loop *profiles.Loop, s *engine.Summary) ([]estimate.Harmonic, []FrequencyMeasure, error) {
+	ref := loop.Reference
+	if !ref.Sinusoidal() {
+		return nil, nil, nil
+	}
+	lo, hi := slices.Min(ref.Frequencies)/2, math.Min(2*slices.Max(ref.Frequencies), 0.95/(2*loop.Period))
+	freqs := append(profiles.LogSpaced(lo, hi, 40), ref.Frequencies...)
+	slices.Sort(freqs)
+	md, err := estimate.Build(loop, estimate.Options{})
+	if err != nil {
+		return nil, nil, err
+	}
+	hs, err := md.FrequencyResponse(ref, freqs)
+	if errors.Is(err, estimate.ErrNotStable) {
+		return nil, nil, nil
+	}
+	if err != nil {
+		return nil, nil, err
+	}
+	var meas []FrequencyMeasure
+	add := func(fr *engine.FrequencyResult, verdict string) {
+		for i, o := range fr.Outputs {
+			if o.Gain == nil {
+				continue
+			}
+			meas = append(meas, FrequencyMeasure{Frequency: fr.FrequencyHz, Output: i,
+				Gain: value(o.Gain), GainLow: value(o.GainCILow), GainHigh: value(o.GainCIHigh),
+				Phase: value(o.PhaseDeg), PhaseLow: value(o.PhaseCILow), PhaseHigh: value(o.PhaseCIHigh),
+				Spread: value(fr.Spread), SpreadLow: value(fr.SpreadCILow), SpreadHigh: value(fr.SpreadCIHigh), Verdict: verdict})
+		}
+	}
+	for _, ph := range s.Phases {
+		if ph.Frequency != nil {
+			add(ph.Frequency, ph.Verdict)
+		}
+	}
+	if len(meas) == 0 {
+		for i := range s.FrequencyResponse {
+			v := ""
+			if s.FrequencyResponse[i].Verdict == engine.FrequencyDiffer {
+				v = "fail"
+			}
+			add(&s.FrequencyResponse[i], v)
+		}
+	}
+	return hs, meas, nil
+}
+
+// value is *p, NaN for nil.
+func value(p *float64) float64 {
+	if p == nil {
+		return math.NaN()
+	}
+	return *p
 }

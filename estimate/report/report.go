@@ -13,6 +13,7 @@ import (
 
 	"gonum.org/v1/plot"
 
+	"rigwire/estimate"
 	"rigwire/profiles/laws"
 )
 
@@ -45,6 +46,12 @@ type Data struct {
 	// (clean sends at once), so they are kept out of Delays and counted
 	// apart.
 	DelaysAfterTrip map[string]Histogram
+	// Frequency is, for a loop with a sinusoidal reference, the predicted
+	// response over the reference's frequency range (the loop file's own
+	// network) and FrequencyMeasured the measured points drawn over it;
+	// both nil otherwise.
+	Frequency         []estimate.Harmonic
+	FrequencyMeasured []FrequencyMeasure
 	// TripWindow is the quantity the trip compared with its bound, over
 	// the trip's own window, sampled over the run; nil when the trip
 	// judges no windowed bound.
@@ -171,6 +178,9 @@ const (
 	RatioName        = "ratio.png"
 	PhasesName       = "phases.png"
 	LossRunsName     = "loss-runs.png"
+	FreqGainName     = "frequency-gain.png"
+	FreqPhaseName    = "frequency-phase.png"
+	FreqSpreadName   = "frequency-spread.png"
 )
 
 // DelayName is the PNG file name of a direction's delay histogram; characters
@@ -283,7 +293,11 @@ func buildFigures(d *Data) []*figure {
 	if len(d.Delays) == 0 {
 		figs = append(figs, &figure{Title: "Drawn delays", NoData: "no delay histogram was recorded"})
 	}
-	return append(figs, lossRunsFigure(d))
+	figs = append(figs, lossRunsFigure(d))
+	if len(d.Frequency) > 0 {
+		figs = append(figs, frequencyFigures(d)...)
+	}
+	return figs
 }
 
 func sortedKeys(m map[string]Histogram) []string {

@@ -73,6 +73,11 @@ func (run *Soak) Data(s *engine.Summary, prov *Provenance, verdict string, code 
 	}
 	d.Delays, d.DelaysAfterTrip = run.Recorder.delays()
 	d.TripWindow = run.Recorder.tripWindow(run.Loop.Trip, s.Trip)
+	hs, meas, err := SoakFrequency(run.Loop, s)
+	if err != nil {
+		d.Notes = append(d.Notes, "frequency response: "+err.Error())
+	}
+	d.Frequency, d.FrequencyMeasured = hs, meas
 	return d
 }
 
