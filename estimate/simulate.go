@@ -26,7 +26,8 @@ type SimOptions struct {
 	// Progress, if set, is called after each run.
 	Progress func(done, total int)
 	// OnSample, if set, is called with every counted sample (after the
-	// warm-up) of every run: its period k, the reference r_k and the
+	// warm-up and, with a sinusoidal reference, outside each dwell's
+	// settling, which the averages leave out too) of every run: its period k, the reference r_k and the
 	// outputs y_k = r_k − e_k. The slices are reused.
 	OnSample func(run, k int, r, y []float64)
 }
@@ -98,7 +99,7 @@ func Simulate(loop *profiles.Loop, opts SimOptions) (*SimResult, error) {
 	ages := make([]int, na+1)
 	for r := 0; r < opts.Runs; r++ {
 		rng := rand.New(rand.NewPCG(opts.Seed, uint64(r)))
-		sim.runIndex = r
+		sim.runIndex, sim.nCounted = r, 0
 		var path *[]PathPoint
 		if r < opts.Paths {
 			res.Paths = append(res.Paths, nil)
@@ -110,7 +111,11 @@ func Simulate(loop *profiles.Loop, opts SimOptions) (*SimResult, error) {
 		} else {
 			m = sim.runLong(rng, opts.Periods, opts.Warmup, ns, na, errAcc, ages, path)
 		}
+		if sim.nCounted == 0 {
+			return nil, fmt.Errorf("run %d: no sample counted: the %d periods after the warm-up all fall in the reference's settling (key reference.settle); simulate more periods", r, opts.Periods-opts.Warmup)
+		}
 		res.RunMeans = append(res.RunMeans, m)
+		sim.totalCounted += sim.nCounted
 		if opts.Progress != nil {
 			opts.Progress(r+1, opts.Runs)
 		}
@@ -120,7 +125,7 @@ func Simulate(loop *profiles.Loop, opts SimOptions) (*SimResult, error) {
 		sum += m
 	}
 	res.SecondMoment = sum / float64(len(res.RunMeans))
-	counted := float64(opts.Runs * (opts.Periods - opts.Warmup))
+	counted := float64(sim.totalCounted)
 	res.ErrorMean, res.ErrorSquare = make([]float64, p), make([]float64, p)
 	for i := 0; i < p; i++ {
 		res.ErrorMean[i] = errAcc[i] / counted
@@ -133,6 +138,8 @@ func Simulate(loop *profiles.Loop, opts SimOptions) (*SimResult, error) {
 		ages[0] = res.ModeCounts[2]
 		ages[1] = res.ModeCounts[0] + res.ModeCounts[1]
 		counted = float64(ages[0] + ages[1])
+	} else {
+		counted = float64(opts.Runs * (opts.Periods - opts.Warmup)) // every period after the warm-up ends on some command
 	}
 	for d := 0; d < na; d++ {
 		res.CommandAge[d] = float64(ages[d]) / counted
@@ -156,6 +163,8 @@ type simulator struct {
 	r, y           []float64 // r_k, and y_k for onSample
 	onSample       func(run, k int, r, y []float64)
 	runIndex       int
+	nCounted       int // samples counted in the current run
+	totalCounted   int // and in all runs so far
 	n, m, p, nc    int
 	h              float64
 	comp           laws.Delay // the compute delay c, drawn for every command
@@ -235,7 +244,14 @@ func (s *simulator) gammas(tau float64) (g0, g1 *mat.Dense) {
 func (s *simulator) sample(rng *rand.Rand, k int, x, e, v, std []float64, counted bool, sum *float64, acc []float64) {
 	p := len(e)
 	if s.moving {
-		s.md.Loop.ReferenceAt(uint64(k), s.r)
+		// Each dwell's settling is left out, as the monitor leaves it out:
+		// the prediction is the periodic steady state.
+		if _, _, settling := s.md.Loop.ReferenceAt(uint64(k), s.r); settling {
+			counted = false
+		}
+	}
+	if counted {
+		s.nCounted++
 	}
 	simstep.Noise(v, s.vFac, rng, std)
 	simstep.MulVec(e, s.cp, x, false)
@@ -315,5 +331,5 @@ func (s *simulator) run(rng *rand.Rand, periods, warmup int, path *[]PathPoint, 
 		isc = draw(rng, s.rowsSC[isc])
 		ica = draw(rng, s.rowsCA[ica])
 	}
-	return sum / float64(periods-warmup)
+	return sum / float64(s.nCounted)
 }

@@ -134,7 +134,7 @@ func (s *simulator) runLong(rng *rand.Rand, periods, warmup, ns, na int, errSum 
 		isc = draw(rng, s.rowsSC[isc])
 		ica = draw(rng, s.rowsCA[ica])
 	}
-	return sum / float64(periods-warmup)
+	return sum / float64(s.nCounted)
 }
 
 func addFlight(list []flight, k int, tau float64, val []float64, h float64) []flight {

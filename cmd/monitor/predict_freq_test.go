@@ -82,3 +82,32 @@ func TestPredictFrequency(t *testing.T) {
 		}
 	}
 }
+
+// TestSimulateFrequency: monitor simulate of a loop with a sweep fits
+// each frequency's simulated samples as the monitor fits a rig's and
+// prints them beside the prediction; the JSON carries them too.
+func TestSimulateFrequency(t *testing.T) {
+	loop := "../../profiles/examples/checks/rig-sweep.yaml"
+	code, out, errOut := runMonitor("simulate", loop, "--periods", "12000", "--runs", "2")
+	if code != 0 {
+		t.Fatalf("exit %d: %s", code, errOut)
+	}
+	for _, f := range []string{"at 0.5 Hz", "at 1.5 Hz", "at 4 Hz"} {
+		if !strings.Contains(out, f) {
+			t.Errorf("no line %q:\n%s", f, out)
+		}
+	}
+	code, out, errOut = runMonitor("simulate", loop, "--periods", "12000", "--runs", "2", "--json")
+	if code != 0 {
+		t.Fatalf("exit %d: %s", code, errOut)
+	}
+	var js struct {
+		Frequencies []struct {
+			FrequencyHz float64 `json:"frequency_hz"`
+			Samples     int64   `json:"samples"`
+		} `json:"frequency_response"`
+	}
+	if err := json.Unmarshal([]byte(out), &js); err != nil || len(js.Frequencies) != 3 || js.Frequencies[2].Samples == 0 {
+		t.Errorf("JSON: %v %+v", err, js)
+	}
+}

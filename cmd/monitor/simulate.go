@@ -9,6 +9,8 @@ import (
 	"rigwire/cmd/internal/cli"
 	"rigwire/cmd/internal/exitcode"
 	"rigwire/estimate"
+	"rigwire/estimate/engine"
+	"rigwire/estimate/online"
 	"rigwire/estimate/report"
 	"rigwire/profiles"
 )
@@ -63,8 +65,21 @@ func cmdSimulate(args []string, stdout, stderr io.Writer) error {
 	}
 	start := time.Now()
 	last := start
+	// With a sinusoidal reference, each frequency's samples are fitted as
+	// the monitor fits a rig's.
+	var fits []*online.HarmonicFit
+	var onSample func(run, k int, r, y []float64)
+	if loop.Reference.Sinusoidal() {
+		for seg := range loop.Reference.Frequencies {
+			fits = append(fits, engine.NewFrequencyFit(loop, seg))
+		}
+		onSample = func(_, k int, _, y []float64) {
+			seg, theta, _ := loop.Reference.Segment(uint64(k), loop.Period)
+			fits[seg].Add(y, theta)
+		}
+	}
 	res, err := estimate.Simulate(loop, estimate.SimOptions{
-		Periods: *periods, Runs: *runs, Warmup: *warmup, Seed: *seed, Paths: keep,
+		Periods: *periods, Runs: *runs, Warmup: *warmup, Seed: *seed, Paths: keep, OnSample: onSample,
 		Progress: func(done, total int) {
 			// Long runs show progress on stderr, at most once a second.
 			if now := time.Now(); now.Sub(last) >= time.Second && done < total {
@@ -86,6 +101,22 @@ func cmdSimulate(args []string, stdout, stderr io.Writer) error {
 		}
 	}
 	sim := report.Simulation{Result: res, Prediction: pr, Runs: *runs, Periods: *periods, Warmup: *warmup, Seed: *seed}
+	var sum, n float64
+	for seg, fit := range fits {
+		fr := engine.FrequencyResultOf(loop, seg, fit.Result(), pr, engine.DefaultTolerance)
+		sim.Frequencies = append(sim.Frequencies, fr)
+		if seg < len(pr.Harmonics) {
+			sum += float64(fr.Samples) * pr.Harmonics[seg].SecondMoment
+			n += float64(fr.Samples)
+		}
+	}
+	if n > 0 && pr.Error != nil {
+		// Runs that do not play every frequency equally long are compared
+		// with the frequencies they played, as the monitor does.
+		e := *pr.Error
+		e.SecondMoment = sum / n
+		pr.Error = &e
+	}
 	if *asJSON {
 		return sim.WriteJSON(stdout)
 	}

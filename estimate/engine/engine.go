@@ -81,6 +81,7 @@ type Monitor struct {
 	// fits are the run's fits per frequency of a sinusoidal reference
 	// (nil with a constant one).
 	fits []*online.HarmonicFit
+	segN []int64 // samples estimated at each frequency
 
 	// cur is the prediction in force (UpdatePrediction); curPr its
 	// E[eᵀe], NaN when not certified mean-square stable, and curStab
@@ -187,6 +188,7 @@ func New(loop *profiles.Loop, pred *estimate.Prediction, opts Options) (*Monitor
 		for seg := range loop.Reference.Frequencies {
 			m.fits = append(m.fits, newFit(loop, seg, opts.Level))
 		}
+		m.segN = make([]int64, len(m.fits))
 	}
 	m.cur, m.curPr, m.curStab = pred, predictedOf(pred), stabilityOf(pred)
 	m.hist.init(int64(math.Ceil(opts.HistoryEvery.Seconds()/loop.Period - 1e-9)))
@@ -287,9 +289,13 @@ func (m *Monitor) feed(src netip.AddrPort, payload []byte, at time.Time) (*trip.
 	m.on.AddError(m.e)
 	if m.fits != nil {
 		m.fits[seg].Add(m.y, theta)
+		m.segN[seg]++
 	}
 	if p := m.phase; p != nil {
 		switch {
+		case p.seg < 0 && harmonicAt(m.cur, seg) != nil:
+			// Each sample against the prediction at its own frequency.
+			p.add(m.e, at, secondMomentAt(m.cur, seg), m.curStab)
 		case p.seg < 0:
 			p.add(m.e, at, m.curPr, m.curStab)
 		case p.seg == seg:

@@ -186,6 +186,18 @@ func judgeHarmonic(loop *profiles.Loop, est online.HarmonicEstimate, h *estimate
 // frequencyLabel spells a frequency for a metric label.
 func frequencyLabel(f float64) string { return strconv.FormatFloat(f, 'g', 6, 64) }
 
+// FrequencyResultOf describes the fit of frequency segment seg of the
+// loop's reference against the prediction pred (its Harmonics) and judges
+// it with tolerance tol, as the monitor does (judgeHarmonic): for a
+// Monte Carlo of the loop fitted as a rig's samples.
+func FrequencyResultOf(loop *profiles.Loop, seg int, est online.HarmonicEstimate, pred *estimate.Prediction, tol float64) FrequencyResult {
+	return frequencyResult(loop, seg, est, harmonicAt(pred, seg), tol)
+}
+
+// NewFrequencyFit returns the fit the monitor uses for frequency segment
+// seg of the loop's reference (confidence level 0.95).
+func NewFrequencyFit(loop *profiles.Loop, seg int) *online.HarmonicFit { return newFit(loop, seg, 0.95) }
+
 // FrequencyResults returns the run's measured response per frequency of
 // the loop's reference (nil with a constant reference).
 func (m *Monitor) FrequencyResults() []FrequencyResult {

@@ -147,9 +147,9 @@ func (c *collector) Collect(ch chan<- prometheus.Metric) {
 			gauge(desc, v, labels...)
 		}
 	}
-	pr := m.predicted()
 	m.mu.Lock()
 	defer m.mu.Unlock()
+	pr := m.predicted()
 	emit := func(label string, st online.Stats) {
 		measured(d.second, st.SecondMoment, label)
 		measured(d.ciLow, st.CILow, label)

@@ -73,7 +73,11 @@ func (s *Summary) VerdictLine() string {
 // FrequencyLines says, one line per frequency of a sinusoidal
 // reference, the measured gain, phase and spread beside the prediction
 // and the verdict (none with a constant reference).
-func (s *Summary) FrequencyLines() []string {
+func (s *Summary) FrequencyLines() []string { return FrequencyLines(s.FrequencyResponse) }
+
+// FrequencyLines says each frequency's result in one line (see
+// Summary.FrequencyLines).
+func FrequencyLines(frs []FrequencyResult) []string {
 	f := func(p *float64, format string) string {
 		if p == nil {
 			return "-"
@@ -81,7 +85,7 @@ func (s *Summary) FrequencyLines() []string {
 		return fmt.Sprintf(format, *p)
 	}
 	var out []string
-	for _, fr := range s.FrequencyResponse {
+	for _, fr := range frs {
 		var parts []string
 		for i, o := range fr.Outputs {
 			if o.Gain == nil && o.PredictedGain == nil {

@@ -118,7 +118,26 @@ func finites(vs []float64) []*float64 {
 }
 
 // predicted is the predicted E[eᵀe], NaN when not stable.
-func (m *Monitor) predicted() float64 { return predictedOf(m.pred) }
+// Under the monitor's lock. With a sinusoidal reference it is the mean of
+// the prediction's E[eᵀe] at each frequency weighted by the samples
+// measured at it, so that a run that has not played every frequency
+// equally long is compared with what it played (the prediction's own
+// Error weighs the frequencies equally, as whole sweeps do).
+func (m *Monitor) predicted() float64 {
+	if m.fits != nil && harmonicAt(m.pred, 0) != nil {
+		var sum, n float64
+		for seg, c := range m.segN {
+			if c > 0 {
+				sum += float64(c) * secondMomentAt(m.pred, seg)
+				n += float64(c)
+			}
+		}
+		if n > 0 {
+			return sum / n
+		}
+	}
+	return predictedOf(m.pred)
+}
 
 // predictedOf is pred's E[eᵀe], NaN when not mean-square stable.
 func predictedOf(pred *estimate.Prediction) float64 {

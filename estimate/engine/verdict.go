@@ -56,6 +56,9 @@ const (
 	// an interval that cannot rule it out cannot confirm a prediction. A
 	// tolerance of 0.5 or more can therefore never confirm agreement.
 	DiscriminationFactor = 2.0
+	// DefaultTolerance is the relative widening of a measured interval
+	// the commands use unless told otherwise (--tolerance).
+	DefaultTolerance = 0.1
 )
 
 // VerdictRule states the rule in the summary.

@@ -10,6 +10,7 @@ import (
 	"text/tabwriter"
 
 	"rigwire/estimate"
+	"rigwire/estimate/engine"
 	"rigwire/profiles"
 	"rigwire/profiles/laws"
 )
@@ -239,6 +240,10 @@ type Simulation struct {
 	Prediction            *estimate.Prediction
 	Runs, Periods, Warmup int
 	Seed                  uint64
+	// Frequencies are, with a sinusoidal reference, the simulated samples
+	// fitted per frequency as the monitor fits a rig's, beside the
+	// prediction.
+	Frequencies []engine.FrequencyResult
 }
 
 // WriteJSON writes the simulation as one indented JSON object.
@@ -260,6 +265,9 @@ func (s Simulation) WriteJSON(w io.Writer) error {
 			}
 			return &s.Prediction.Error.SecondMoment
 		}(),
+	}
+	if s.Frequencies != nil {
+		out["frequency_response"] = s.Frequencies
 	}
 	enc := json.NewEncoder(w)
 	enc.SetIndent("", "  ")
@@ -296,6 +304,9 @@ func (s Simulation) WriteText(w io.Writer) {
 			line += fmt.Sprintf(" (predicted %s, stale %.4f)", strings.Join(pp, ", "), tr.Stale)
 		}
 		fmt.Fprintln(w, line)
+	}
+	for _, l := range engine.FrequencyLines(s.Frequencies) {
+		fmt.Fprintln(w, l)
 	}
 }
 
