@@ -196,7 +196,9 @@ func FrequencyResultOf(loop *profiles.Loop, seg int, est online.HarmonicEstimate
 
 // NewFrequencyFit returns the fit the monitor uses for frequency segment
 // seg of the loop's reference (confidence level 0.95).
-func NewFrequencyFit(loop *profiles.Loop, seg int) *online.HarmonicFit { return newFit(loop, seg, 0.95) }
+func NewFrequencyFit(loop *profiles.Loop, seg int) *online.HarmonicFit {
+	return newFit(loop, seg, 0.95)
+}
 
 // FrequencyResults returns the run's measured response per frequency of
 // the loop's reference (nil with a constant reference).
