@@ -81,6 +81,9 @@ func cmdServe(args []string, stdout, stderr io.Writer) error {
 		return err
 	}
 	fmt.Fprintln(stderr, s.VerdictLine())
+	for _, l := range s.FrequencyLines() {
+		fmt.Fprintln(stderr, l)
+	}
 	if s.Trip != nil {
 		return cli.Exit{Code: exitcode.OfTrip(s), Msg: fmt.Sprintf("safety trip: %s %.5g above the bound %.5g; relay action %s",
 			s.Trip.Reason, s.Trip.Value, s.Trip.Bound, s.Trip.Action)}

@@ -27,6 +27,9 @@ func finishSoak(run *report.Soak, s *engine.Summary, code int, playErr error, su
 		return err
 	}
 	report.PhaseTable(stderr, s)
+	for _, l := range s.FrequencyLines() {
+		fmt.Fprintln(stderr, "run "+l)
+	}
 	if reportDir != "" {
 		files, err := report.Write(reportDir, run.Data(s, prov, soakVerdict(s, code), code))
 		if err != nil {

@@ -145,6 +145,29 @@ func WritePrediction(w io.Writer, path string, loop *profiles.Loop, pr *estimate
 		if tr := pr.Timing; tr != nil && tr.Method == estimate.MethodMonteCarlo {
 			fmt.Fprintf(w, "          a Monte Carlo estimate: E[eᵀe] ± %.2g (standard error), not the exact moments\n", tr.SecondMomentStdErr)
 		}
+		if ref := loop.Reference; ref.Sinusoidal() {
+			fmt.Fprintf(w, "          %s: E[eᵀe] is averaged over its phase and frequencies (estimate/model.md §15), the settling left out\n", referenceKind(ref))
+		}
+	}
+	for _, h := range pr.Harmonics {
+		var parts []string
+		for i := range h.Reference {
+			if h.Reference[i] == 0 {
+				continue
+			}
+			g, ph := estimate.Gain(h.Output[i], h.Reference[i])
+			out := ""
+			if len(h.Reference) > 1 {
+				out = fmt.Sprintf(" y%d", i)
+			}
+			parts = append(parts, fmt.Sprintf("gain%s %.4g phase %.1f°", out, g, ph))
+			if h.Nominal.Stable {
+				ng, nph := estimate.Gain(h.Nominal.Output[i], h.Reference[i])
+				parts[len(parts)-1] += fmt.Sprintf(" (loss-free %.4g, %.1f°)", ng, nph)
+			}
+		}
+		fmt.Fprintf(w, "at %-6s %s; spread %.4g (peak %.4g), E[eᵀe] %.4g\n", strconv.FormatFloat(h.Frequency, 'g', 4, 64)+" Hz",
+			strings.Join(parts, ", "), h.Spread, h.SpreadPeak, h.SecondMoment)
 	}
 	if tr := pr.Timing; tr != nil && len(tr.CommandAge) > 0 {
 		parts := make([]string, 0, len(tr.CommandAge)+1)
@@ -349,4 +372,12 @@ func writeTiming(w io.Writer, tr *estimate.TimingReport) {
 	if tr.Method == estimate.MethodMonteCarlo {
 		fmt.Fprintf(w, "method    MONTE CARLO from the same rules, not the exact jump linear system: %s\n", tr.Reason)
 	}
+}
+
+// referenceKind names a moving reference.
+func referenceKind(r profiles.Reference) string {
+	if r.Kind == profiles.ReferenceSweep {
+		return fmt.Sprintf("the reference sweeps %d frequencies, each as long", len(r.Frequencies))
+	}
+	return "the reference is a sine"
 }
