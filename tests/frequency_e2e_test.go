@@ -1,13 +1,20 @@
 package tests
 
 import (
+	"bytes"
 	"encoding/json"
+	"fmt"
+	"io"
+	"net/http"
 	"os"
+	"os/exec"
+	"strings"
 	"testing"
 	"time"
 
 	"rigwire/estimate"
 	"rigwire/estimate/engine"
+	"rigwire/profiles"
 )
 
 // TestFrequencyResponseEndToEnd runs the simulated rig through the relay
@@ -59,5 +66,48 @@ func TestFrequencyResponseEndToEnd(t *testing.T) {
 	o := s.FrequencyResponse[2].Outputs[0]
 	if o.PhaseCILow == nil || (nominal >= *o.PhaseCILow && nominal <= *o.PhaseCIHigh) {
 		t.Errorf("the loss-free loop's phase %.1f° at 4 Hz is not outside the measured interval: %+v", nominal, o)
+	}
+}
+
+// TestMonitorFrequencyMetricsPromtool: `monitor run` of a loop with a
+// sweep reference, fed a sampled sinusoid of its own (10 000 samples
+// through all three frequencies), serves the per-frequency series, and
+// its endpoint passes promtool check metrics (Debian's prometheus
+// package).
+func TestMonitorFrequencyMetricsPromtool(t *testing.T) {
+	promtool := needTool(t, "promtool", "prometheus")
+	m := startMonitorRun(t, "--loop", "../profiles/examples/checks/rig-sweep.yaml", "--warmup", "0s")
+	loop, err := profiles.LoadLoop("../profiles/examples/checks/rig-sweep.yaml")
+	if err != nil {
+		t.Fatal(err)
+	}
+	r := make([]float64, 1)
+	var dgs [][]byte
+	for k := range 10000 {
+		loop.ReferenceAt(uint64(k), r)
+		dgs = append(dgs, []byte(fmt.Sprintf("%d,0,%g", k, 0.9*r[0]+0.12)))
+	}
+	m.send(t, dgs)
+	m.waitCounter(t, "rigwire_monitor_datagrams_total", 10000)
+	resp, err := http.Get(m.metrics)
+	if err != nil {
+		t.Fatal(err)
+	}
+	body, _ := io.ReadAll(resp.Body)
+	resp.Body.Close()
+	cmd := exec.Command(promtool, "check", "metrics")
+	cmd.Stdin = bytes.NewReader(body)
+	if out, err := cmd.CombinedOutput(); err != nil {
+		t.Errorf("promtool check metrics: %v\n%s", err, out)
+	}
+	for _, want := range []string{
+		`rigwire_monitor_reference_gain{frequency_hz="0.5",output="0"} 0.9`,
+		`rigwire_monitor_reference_gain{frequency_hz="4",output="0"} 0.9`,
+		`rigwire_monitor_predicted_reference_gain{frequency_hz="1.5",output="0"}`,
+		`rigwire_monitor_reference_samples_total{frequency_hz="1.5"}`,
+	} {
+		if !strings.Contains(string(body), want) {
+			t.Errorf("the scrape lacks %s", want)
+		}
 	}
 }
