@@ -50,10 +50,20 @@
 //     command direction's delay (sumlaw.go) and both models run on it
 //     unchanged; the convolution of independent laws as in W. Feller,
 //     An Introduction to Probability Theory and Its Applications, vol. II
-//     (1971), §V.4.
+//     (1971), §V.4;
+//   - §15 a sinusoidal reference: the first moments of a jump linear
+//     system are an LTI recursion driven by the reference, so their
+//     periodic steady state is one shifted linear solve per frequency,
+//     (e^{jν} I − 𝒜) Q = b(R); the second moments are driven at 0, ν and
+//     2ν and solved likewise (harmonic.go, [Model.FrequencyResponse]):
+//     the mean response's gain and phase, the error's variance averaged
+//     over the phase and at its peak, beside the loss-free loop's
+//     classical response; the recursions are those of Costa, Fragoso
+//     and Marques (2005), driven by a periodic input.
 //
 // Entry points: [Predict] for the prediction, [Build] for the model itself
-// ([Model.Transient] for a step response, [Model.Radius]), [Sweep] for a
+// ([Model.Transient] for a step response, [Model.FrequencyResponse] for a
+// sinusoidal reference, [Model.Radius]), [Sweep] for a
 // curve against extra loss or a delay scale, [Simulate] for a seeded
 // Monte Carlo run of the same jump system.
 //

@@ -47,7 +47,7 @@ var predictExits = exitcode.Help(
 		exitcode.Failure:      "error while running (a plot that could not be written)",
 		exitcode.BadInput:     "bad usage, a loop or profile file that does not load or validate (the message names file, line and key), or a loop the prediction cannot use",
 		exitcode.Inconclusive: "with --strict: marginal, the spectral radius cannot be told apart from 1",
-		exitcode.NotStable:    "with --strict: the loop is not mean-square stable",
+		exitcode.NotStable:    "with --strict, or --frequency: the loop is not mean-square stable (--frequency: it has no periodic steady state to give)",
 	})
 
 func cmdPredict(args []string, stdout, stderr io.Writer) error {

@@ -1,10 +1,12 @@
 package main
 
 import (
+	"errors"
 	"fmt"
 	"io"
 
 	"rigwire/cmd/internal/cli"
+	"rigwire/cmd/internal/exitcode"
 	"rigwire/estimate"
 	"rigwire/estimate/report"
 	"rigwire/profiles"
@@ -42,6 +44,11 @@ func predictFrequency(loop *profiles.Loop, spec, amp string, asJSON bool, plotFi
 		return cli.BadInput(fmt.Errorf("%s: %w", loop.File, err))
 	}
 	hs, err := md.FrequencyResponse(ref, freqs)
+	if errors.Is(err, estimate.ErrNotStable) {
+		rad := md.Radius()
+		return cli.Exit{Code: exitcode.NotStable, Msg: fmt.Sprintf("%s: %s (spectral radius %.6g ± %.2g): the error's second moment has no periodic steady state under any reference, so there is no response to give",
+			loop.File, rad.Stability, rad.Value, rad.Error)}
+	}
 	if err != nil {
 		return cli.BadInput(fmt.Errorf("%s: %w", loop.File, err))
 	}

@@ -62,6 +62,9 @@ func TestPredictFrequency(t *testing.T) {
 	if b, err := os.ReadFile(plot); err != nil || !strings.Contains(string(b), "<svg") {
 		t.Errorf("plot not written: %v", err)
 	}
+	if code, _, errOut := runMonitor("predict", "testdata/unstable.yaml", "--frequency", "1"); code != 6 || !strings.Contains(errOut, "no periodic steady state") {
+		t.Errorf("unstable loop: exit %d, %q; want 6 and why", code, errOut)
+	}
 	for _, c := range []struct {
 		args []string
 		want string

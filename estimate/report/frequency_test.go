@@ -9,6 +9,7 @@ import (
 	"strings"
 	"testing"
 
+	"rigwire/estimate"
 	"rigwire/estimate/engine"
 	"rigwire/profiles"
 )
@@ -59,5 +60,36 @@ func TestSoakFrequencyFigures(t *testing.T) {
 	}
 	if !strings.HasSuffix(FreqGainName, ".png") {
 		t.Error(FreqGainName)
+	}
+}
+
+// TestFrequencyCSVEmptyWhereNone: an output whose reference does not move
+// has empty gain and phase fields (null in the JSON), never NaN; an
+// unstable loss-free loop leaves its columns empty too.
+func TestFrequencyCSVEmptyWhereNone(t *testing.T) {
+	h := estimate.Harmonic{Frequency: 2, Reference: []complex128{complex(0, -1), 0},
+		Output: []complex128{complex(0.1, -0.5), complex(0.01, 0)}, Error: []complex128{complex(-0.1, -0.5), complex(-0.01, 0)},
+		OutputOffset: []float64{1, 0}, ErrorOffset: []float64{0, 0}, Variance: []float64{0.01, 0.02},
+		VarianceFirst: make([]complex128, 2), VarianceSecond: make([]complex128, 2), Spread: 0.03, SpreadPeak: 0.03, SecondMoment: 0.16}
+	var b strings.Builder
+	WriteFrequencyCSV(&b, []estimate.Harmonic{h})
+	lines := strings.Split(strings.TrimSpace(b.String()), "\n")
+	if len(lines) != 2 || strings.Contains(lines[1], "NaN") {
+		t.Fatalf("CSV:\n%s", b.String())
+	}
+	cols, row := strings.Split(lines[0], ","), strings.Split(lines[1], ",")
+	for i, c := range cols {
+		empty := row[i] == ""
+		wantEmpty := strings.HasPrefix(c, "nominal") || (strings.HasSuffix(c, "_1") && c != "variance_1")
+		if empty != wantEmpty {
+			t.Errorf("column %s = %q", c, row[i])
+		}
+	}
+	b.Reset()
+	if err := WriteFrequencyJSON(&b, 0.01, []estimate.Harmonic{h}); err != nil {
+		t.Fatal(err)
+	}
+	if strings.Contains(b.String(), "NaN") || !strings.Contains(b.String(), `"gain": null`) {
+		t.Errorf("JSON:\n%s", b.String())
 	}
 }
