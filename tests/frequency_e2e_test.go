@@ -1,13 +1,9 @@
 package tests
 
 import (
-	"bytes"
 	"encoding/json"
 	"fmt"
-	"io"
-	"net/http"
 	"os"
-	"os/exec"
 	"strings"
 	"testing"
 	"time"
@@ -89,17 +85,7 @@ func TestMonitorFrequencyMetricsPromtool(t *testing.T) {
 	}
 	m.send(t, dgs)
 	m.waitCounter(t, "rigwire_monitor_datagrams_total", 10000)
-	resp, err := http.Get(m.metrics)
-	if err != nil {
-		t.Fatal(err)
-	}
-	body, _ := io.ReadAll(resp.Body)
-	resp.Body.Close()
-	cmd := exec.Command(promtool, "check", "metrics")
-	cmd.Stdin = bytes.NewReader(body)
-	if out, err := cmd.CombinedOutput(); err != nil {
-		t.Errorf("promtool check metrics: %v\n%s", err, out)
-	}
+	body := promtoolCheck(t, promtool, m.metrics)
 	for _, want := range []string{
 		`rigwire_monitor_reference_gain{frequency_hz="0.5",output="0"} 0.9`,
 		`rigwire_monitor_reference_gain{frequency_hz="4",output="0"} 0.9`,

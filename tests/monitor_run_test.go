@@ -4,13 +4,10 @@ import (
 	"bytes"
 	"encoding/json"
 	"fmt"
-	"io"
 	"math"
 	"math/rand/v2"
 	"net"
-	"net/http"
 	"os"
-	"os/exec"
 	"path/filepath"
 	"strconv"
 	"strings"
@@ -354,17 +351,7 @@ func TestMonitorRunFloodAndPromtool(t *testing.T) {
 	}
 
 	promtool := needTool(t, "promtool", "prometheus")
-	resp, err := http.Get(m.metrics)
-	if err != nil {
-		t.Fatal(err)
-	}
-	body, _ := io.ReadAll(resp.Body)
-	resp.Body.Close()
-	cmd := exec.Command(promtool, "check", "metrics")
-	cmd.Stdin = bytes.NewReader(body)
-	if out, err := cmd.CombinedOutput(); err != nil {
-		t.Errorf("promtool check metrics: %v\n%s", err, out)
-	}
+	body := promtoolCheck(t, promtool, m.metrics)
 	for _, want := range []string{
 		`rigwire_monitor_error_second_moment{window="run"}`,
 		`rigwire_monitor_error_second_moment{window="1m"}`,

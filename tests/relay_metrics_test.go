@@ -1,10 +1,6 @@
 package tests
 
 import (
-	"bytes"
-	"io"
-	"net/http"
-	"os/exec"
 	"strings"
 	"testing"
 	"time"
@@ -20,17 +16,7 @@ func TestRelayMetricsPassPromtool(t *testing.T) {
 		rig.sensor.WriteToUDPAddrPort([]byte("x"), rig.listen)
 	}
 	time.Sleep(100 * time.Millisecond)
-	resp, err := http.Get(rig.metrics)
-	if err != nil {
-		t.Fatal(err)
-	}
-	body, _ := io.ReadAll(resp.Body)
-	resp.Body.Close()
-	cmd := exec.Command(promtool, "check", "metrics")
-	cmd.Stdin = bytes.NewReader(body)
-	if out, err := cmd.CombinedOutput(); err != nil {
-		t.Errorf("promtool check metrics: %v\n%s", err, out)
-	}
+	body := promtoolCheck(t, promtool, rig.metrics)
 	for _, want := range []string{
 		`rigwire_relay_datagrams_total{direction="sensor_to_controller",outcome="dropped"}`,
 		`rigwire_relay_datagrams_total{direction="sensor_to_controller",outcome="forwarded"}`,

@@ -1,6 +1,9 @@
 package tests
 
 import (
+	"bytes"
+	"io"
+	"net/http"
 	"os"
 	"os/exec"
 	"testing"
@@ -21,4 +24,22 @@ func needTool(t testing.TB, name, debianPackage string) string {
 	}
 	t.Skip(msg)
 	return ""
+}
+
+// promtoolCheck fetches the metrics page at url and runs promtool check
+// metrics (the binary at promtool) on it; it returns the page.
+func promtoolCheck(t *testing.T, promtool, url string) []byte {
+	t.Helper()
+	resp, err := http.Get(url)
+	if err != nil {
+		t.Fatal(err)
+	}
+	body, _ := io.ReadAll(resp.Body)
+	resp.Body.Close()
+	cmd := exec.Command(promtool, "check", "metrics")
+	cmd.Stdin = bytes.NewReader(body)
+	if out, err := cmd.CombinedOutput(); err != nil {
+		t.Errorf("promtool check metrics: %v\n%s", err, out)
+	}
+	return body
 }
