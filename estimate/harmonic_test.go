@@ -22,8 +22,9 @@ func sineRef(p int, a, phaseDeg float64) profiles.Reference {
 }
 
 // harmonicLoops are the loops of the frequency-response checks: the servo
-// over an i.i.d. lossy, delaying channel; the servo over burst channels;
-// the scalar integrator with a four-period command horizon (the long
+// over an i.i.d. lossy, delaying channel, also with an actuator that
+// zeroes its input unless a fresh command is in force; the servo over
+// burst channels; the scalar integrator with a four-period command horizon (the long
 // chain) over a burst channel.
 func harmonicLoops() map[string]*profiles.Loop {
 	ms := 1e-3
@@ -31,7 +32,10 @@ func harmonicLoops() map[string]*profiles.Loop {
 	burst := profile(twoState(0.5, 0.02, must(laws.NewConstant(1*ms)), 0.1, 0.6, must(laws.NewUniform(2*ms, 8*ms))),
 		twoState(0.8, 0.01, must(laws.NewLognormal(2*ms, 0.4, 0)), 0.2, 0.4, must(laws.NewConstant(7*ms))))
 	long := profile(nil, twoState(0.5, 0.02, must(laws.NewLognormal(8*ms, 0.5, 0)), 0.2, 0.3, must(laws.NewGamma(2, 6*ms, 12*ms))))
+	zero := servo(iid, 0)
+	zero.Actuator.OnLoss = profiles.ZeroUnlessFresh
 	return map[string]*profiles.Loop{
+		"servo, zero unless fresh":    zero,
 		"servo, i.i.d.":               servo(iid, 0.5*ms),
 		"servo, burst":                servo(burst, 0),
 		"integrator, 4-period, burst": scalarIntegrator(0.3, 0.2, 1e-4, 1e-6, 4, long),
