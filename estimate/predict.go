@@ -42,6 +42,10 @@ type Prediction struct {
 	// sweep lasts as long): what a run that leaves out each dwell's
 	// settling measures.
 	Harmonics []Harmonic
+	// AlmostSure is the almost-sure stability (estimate/model.md §16);
+	// nil unless PredictOptions.AlmostSure asked for it, and for a Monte
+	// Carlo prediction.
+	AlmostSure *AlmostSure
 	// Timing is what the loop's timing policy does (estimate/model.md
 	// §13): the horizons, how the prediction was computed and how old the
 	// command the actuator runs on is. Never nil.
@@ -114,8 +118,12 @@ const (
 type PredictOptions struct {
 	Options
 	// SkipMargin leaves LossMargin NaN (the margin costs up to about a
-	// hundred stability tests).
+	// hundred stability tests), and AlmostSure's too.
 	SkipMargin bool
+	// AlmostSure also estimates the top Lyapunov exponent
+	// (estimate/model.md §16): a product of 200 000 periods, and a
+	// hundred shorter ones for its margin.
+	AlmostSure bool
 	// MarginProgress, when set, is called as the loss margin's scan
 	// advances (see Model.LossMarginProgress).
 	MarginProgress func(q float64)
@@ -134,7 +142,16 @@ func Predict(loop *profiles.Loop, opts PredictOptions) (*Prediction, error) {
 		return nil, err
 	}
 	md.marginProgress = opts.MarginProgress
-	return md.Predict(!opts.SkipMargin)
+	pr, err := md.Predict(!opts.SkipMargin)
+	if err != nil || !opts.AlmostSure {
+		return pr, err
+	}
+	as, err := md.AlmostSure(!opts.SkipMargin)
+	if err != nil {
+		return nil, fmt.Errorf("almost-sure stability: %w", err)
+	}
+	pr.AlmostSure = &as
+	return pr, nil
 }
 
 // Predict is Predict for a model already built.

@@ -111,7 +111,7 @@ func cmdPredict(args []string, stdout, stderr io.Writer) error {
 		}
 		return predictStep(loop, *step, *plotFile, stdout)
 	}
-	pr, err := estimate.Predict(loop, estimate.PredictOptions{SkipMargin: *noMargin,
+	pr, err := estimate.Predict(loop, estimate.PredictOptions{SkipMargin: *noMargin, AlmostSure: true,
 		MarginProgress: marginProgress(stderr, time.Now())})
 	if err != nil {
 		return cli.BadInput(fmt.Errorf("%s: %w", path, err))

@@ -114,3 +114,35 @@ func TestSimulateFrequency(t *testing.T) {
 		t.Errorf("JSON: %v %+v", err, js)
 	}
 }
+
+// TestPredictAlmostSure: a loop that is almost surely but not mean-square
+// stable is said to be so, with what it means for a measurement; its JSON
+// has the exponent, its interval and the margin.
+func TestPredictAlmostSure(t *testing.T) {
+	code, out, errOut := runMonitor("predict", "testdata/almost-sure.yaml")
+	if code != 0 {
+		t.Fatalf("exit %d: %s", code, errOut)
+	}
+	for _, w := range []string{"NOT mean-square stable", "almost surely stable: top Lyapunov exponent", "does not converge"} {
+		if !strings.Contains(out, w) {
+			t.Errorf("no %q in:\n%s", w, out)
+		}
+	}
+	_, out, _ = runMonitor("predict", "testdata/almost-sure.yaml", "--json")
+	var js struct {
+		MeanSquareStable bool `json:"mean_square_stable"`
+		AlmostSure       struct {
+			Stability  string   `json:"stability"`
+			Exponent   *float64 `json:"lyapunov_exponent"`
+			High       *float64 `json:"lyapunov_ci_high"`
+			LossMargin *float64 `json:"loss_margin"`
+		} `json:"almost_sure"`
+	}
+	if err := json.Unmarshal([]byte(out), &js); err != nil {
+		t.Fatal(err)
+	}
+	a := js.AlmostSure
+	if js.MeanSquareStable || a.Stability != "stable" || a.Exponent == nil || !(*a.High < 0) || a.LossMargin == nil {
+		t.Errorf("JSON: %+v", js)
+	}
+}

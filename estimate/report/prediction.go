@@ -34,6 +34,21 @@ type jsonPrediction struct {
 	Actuator          string      `json:"actuator_on_loss"`
 	Timing            *jsonTiming `json:"timing"`
 	States            []jsonState `json:"states"`
+	// The almost-sure stability (estimate/model.md §16), when computed.
+	AlmostSure *jsonAlmostSure `json:"almost_sure,omitempty"`
+}
+
+// jsonAlmostSure is the top Lyapunov exponent per period with its
+// interval (null: −∞, the product reaches zero), the verdict and the
+// loss margin.
+type jsonAlmostSure struct {
+	Stability  string   `json:"stability"`
+	Exponent   *float64 `json:"lyapunov_exponent"`
+	Low        *float64 `json:"lyapunov_ci_low"`
+	High       *float64 `json:"lyapunov_ci_high"`
+	Settles    bool     `json:"settles_exactly"`
+	LossMargin *float64 `json:"loss_margin"`
+	Steps      int      `json:"periods_simulated"`
 }
 
 // jsonTiming is the timing policy's part of the prediction
@@ -93,6 +108,10 @@ func WritePredictionJSON(w io.Writer, loop *profiles.Loop, pr *estimate.Predicti
 		out.ErrorSecondMoment = finite(pr.Error.SecondMoment)
 		out.ErrorStd = finite(pr.Error.Std)
 	}
+	if a := pr.AlmostSure; a != nil {
+		out.AlmostSure = &jsonAlmostSure{Stability: a.Stability, Exponent: finite(a.Exponent), Low: finite(a.Low), High: finite(a.High),
+			Settles: math.IsInf(a.Exponent, -1), LossMargin: finite(a.LossMargin), Steps: a.Steps}
+	}
 	for _, s := range pr.States {
 		out.States = append(out.States, jsonState{
 			Name: s.Name, Probability: s.Probability, LossSC: s.LossSC, LossCA: s.LossCA,
@@ -127,6 +146,7 @@ func WritePrediction(w io.Writer, path string, loop *profiles.Loop, pr *estimate
 		verdict += ": the error's second moment grows without bound"
 	}
 	fmt.Fprintf(w, "verdict   %s\n", verdict)
+	writeAlmostSure(w, pr)
 	switch {
 	case math.IsNaN(pr.LossMargin):
 	case pr.LossMargin >= 1:
@@ -380,4 +400,35 @@ func referenceKind(r profiles.Reference) string {
 		return fmt.Sprintf("the reference sweeps %d frequencies, each as long", len(r.Frequencies))
 	}
 	return "the reference is a sine"
+}
+
+// writeAlmostSure says the almost-sure stability, and what it means for a
+// measurement when the loop is almost surely but not mean-square stable.
+func writeAlmostSure(w io.Writer, pr *estimate.Prediction) {
+	a := pr.AlmostSure
+	if a == nil {
+		return
+	}
+	margin := ""
+	switch {
+	case math.IsNaN(a.LossMargin):
+	case a.LossMargin >= 1:
+		margin = "; stays so for any extra loss below 1"
+	case a.LossMargin > 0:
+		margin = fmt.Sprintf("; lost at an extra loss of about %.2f", a.LossMargin)
+	}
+	switch {
+	case math.IsInf(a.Exponent, -1):
+		fmt.Fprintf(w, "          almost surely stable: the product of the loop's matrices reaches zero (every run settles exactly)%s\n", margin)
+	default:
+		what := map[string]string{estimate.StabilityStable: "almost surely stable", estimate.StabilityUnstable: "almost surely unstable",
+			estimate.StabilityMarginal: "almost-sure stability cannot be told"}[a.Stability]
+		fmt.Fprintf(w, "          %s: top Lyapunov exponent %.4g per period [%.4g, %.4g] (%d periods simulated)%s\n",
+			what, a.Exponent, a.Low, a.High, a.Steps, margin)
+	}
+	if a.Stability == estimate.StabilityStable && !pr.MeanSquareStable {
+		fmt.Fprintf(w, "          almost every run settles, but rare long outages make E[eᵀe] infinite: a measured second moment\n")
+		fmt.Fprintf(w, "          does not converge (its running estimate jumps at each outage and its interval never closes);\n")
+		fmt.Fprintf(w, "          judge such a loop on what a run shows (the error's quantiles, the time to settle), not on E[eᵀe]\n")
+	}
 }
