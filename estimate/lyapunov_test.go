@@ -5,6 +5,7 @@ import (
 	"path/filepath"
 	"testing"
 
+	"rigwire/estimate/online"
 	"rigwire/profiles"
 )
 
@@ -163,5 +164,41 @@ func TestLyapunovLossMargin(t *testing.T) {
 	}
 	if md.opts.ExtraLoss != 0 {
 		t.Errorf("the scan left extra loss %g behind", md.opts.ExtraLoss)
+	}
+}
+
+// TestSecondMomentNotConverging: samples of the loop that is almost
+// surely but not mean-square stable (the scalar loop above, with process
+// and sensor noise), fitted by the monitor's estimator, show a second
+// moment that does not converge (one sample holds more than
+// online.MaxSampleShare of the sum: x has a tail of index about
+// ln(1/0.36)/ln(4.84) ≈ 0.65, no mean); the servo's samples, mean-square
+// stable, converge.
+func TestSecondMomentNotConverging(t *testing.T) {
+	heavy := scalarLoop(2.2, 0.2, 0.01, profile(iidChannel(0.2, nil), iidChannel(0.2, nil)))
+	heavy.Plant.W, heavy.Plant.V = dense([]float64{1e-4}), dense([]float64{1e-6})
+	light := servo(profile(iidChannel(0.1, nil), iidChannel(0.1, nil)), 0)
+	for _, c := range []struct {
+		name       string
+		loop       *profiles.Loop
+		converging bool
+	}{{"almost surely, not in mean square", heavy, false}, {"mean-square stable servo", light, true}} {
+		on, err := online.New(online.Options{Setpoint: c.loop.Setpoint})
+		if err != nil {
+			t.Fatal(err)
+		}
+		e := make([]float64, 1)
+		if _, err := Simulate(c.loop, SimOptions{Periods: 50000, Warmup: 100, Runs: 1, Seed: 5,
+			OnSample: func(_, _ int, r, y []float64) {
+				e[0] = r[0] - y[0]
+				on.AddError(e)
+			}}); err != nil {
+			t.Fatal(err)
+		}
+		st := on.Run(nil)
+		t.Logf("%s: largest sample %.3g of the sum; E[eᵀe] estimate %.3g", c.name, st.MaxShare, st.SecondMoment)
+		if st.Converging() != c.converging {
+			t.Errorf("%s: converging %v (max share %.3g), want %v", c.name, st.Converging(), st.MaxShare, c.converging)
+		}
 	}
 }

@@ -410,6 +410,9 @@ func judgeBound(st online.Stats, bound float64, minSamples int) (string, string)
 	if ok, why := enough(st, minSamples); !ok {
 		return PhaseInconclusive, why
 	}
+	if !st.Converging() {
+		return PhaseInconclusive, notConverging(st)
+	}
 	lo, hi, short := interval(st)
 	note := ""
 	if short {

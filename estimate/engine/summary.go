@@ -43,17 +43,23 @@ type Summary struct {
 	// BatchCorrelation is von Neumann's lag-1 correlation of the batch
 	// means, BatchCorrelationZ its z-score (null with fewer than three
 	// batches).
-	BatchCorrelation  *float64  `json:"batch_correlation"`
-	BatchCorrelationZ *float64  `json:"batch_correlation_z"`
-	CIMethod          string    `json:"ci_method"`
-	Predicted         Predicted `json:"predicted"`
-	Datagrams         int64     `json:"datagrams"`
-	Strangers         int64     `json:"stranger_datagrams"`
-	Gaps              int64     `json:"gaps"`
-	Late              int64     `json:"late_samples"`
-	Duplicates        int64     `json:"duplicate_samples"`
-	Stale             int64     `json:"stale_samples"`
-	Restarts          int64     `json:"sequence_restarts"`
+	BatchCorrelation  *float64 `json:"batch_correlation"`
+	BatchCorrelationZ *float64 `json:"batch_correlation_z"`
+	CIMethod          string   `json:"ci_method"`
+	// SecondMomentConverging is false when one sample holds too large a
+	// share of the run's sum of eᵀe (online.Stats.Converging): the
+	// interval is then null and the verdict inconclusive. MaxSampleShare
+	// is that share.
+	SecondMomentConverging bool      `json:"second_moment_converging"`
+	MaxSampleShare         *float64  `json:"max_sample_share"`
+	Predicted              Predicted `json:"predicted"`
+	Datagrams              int64     `json:"datagrams"`
+	Strangers              int64     `json:"stranger_datagrams"`
+	Gaps                   int64     `json:"gaps"`
+	Late                   int64     `json:"late_samples"`
+	Duplicates             int64     `json:"duplicate_samples"`
+	Stale                  int64     `json:"stale_samples"`
+	Restarts               int64     `json:"sequence_restarts"`
 	// DecodeFailures counts the datagrams that did not decode, by reason.
 	DecodeFailures map[string]int64 `json:"decode_failures"`
 	SkippedWarmup  int64            `json:"skipped_warmup_samples"`
@@ -176,6 +182,10 @@ func (m *Monitor) Summary() *Summary {
 	}
 	if st.Samples > 0 {
 		s.SampledSeconds = m.last.Sub(m.first).Seconds()
+	}
+	s.SecondMomentConverging, s.MaxSampleShare = st.Converging(), finite(st.MaxShare)
+	if !s.SecondMomentConverging {
+		s.CILow, s.CIHigh = nil, nil
 	}
 	if p := m.pred; p != nil {
 		s.Predicted = Predicted{MeanSquareStable: p.MeanSquareStable, Stability: estimate.VerdictOf(p), SpectralRadius: p.SpectralRadius,

@@ -129,7 +129,14 @@ func enough(st online.Stats, minSamples int) (bool, string) {
 //  6. otherwise agree.
 func judgeInterval(st online.Stats, pr, tol float64, notStable string, minSamples int) (verdict, reason string) {
 	if notStable != "" {
-		return VerdictUnstable, fmt.Sprintf("prediction %s: no E[eᵀe] to compare with", notStable)
+		why := fmt.Sprintf("prediction %s: no E[eᵀe] to compare with", notStable)
+		if !st.Converging() {
+			why += "; " + notConverging(st)
+		}
+		return VerdictUnstable, why
+	}
+	if !st.Converging() {
+		return VerdictInconclusive, notConverging(st)
 	}
 	if ok, why := enough(st, minSamples); !ok {
 		return VerdictInconclusive, why
@@ -153,6 +160,13 @@ func judgeInterval(st online.Stats, pr, tol float64, notStable string, minSample
 			pr, lo, hi, tol, DiscriminationFactor, x)
 	}
 	return VerdictAgree, fmt.Sprintf("prediction %.4g inside the measured interval [%.4g, %.4g] widened by %g", pr, lo, hi, tol)
+}
+
+// notConverging says why st's second moment is not trusted
+// (online.Stats.Converging).
+func notConverging(st online.Stats) string {
+	return fmt.Sprintf("the measured second moment does not converge: one sample holds %.0f %% of the sum of %d (a tail too heavy for a finite E[eᵀe], as rare long outages give a loop almost surely but not mean-square stable, estimate/model.md §16): no interval is trusted",
+		100*st.MaxShare, st.Samples)
 }
 
 // shortWhy says why st's batches are short.

@@ -136,6 +136,7 @@ type Estimator struct {
 	sumX  float64
 	wMean float64 // Welford running mean and sum of squares of x
 	wM2   float64
+	maxX  float64 // the largest x so far
 	// Whole-run batches.
 	minBatches int
 	batchSize  int64
@@ -199,6 +200,9 @@ type Stats struct {
 	// complete batches or when the batch means are equal to within
 	// rounding.
 	BatchCorrelation, BatchCorrelationZ float64
+	// MaxShare is the largest single x_k over Σ x_k (the whole run only;
+	// NaN for a window or before a positive x): see Converging.
+	MaxShare float64
 	// Merged is set when the whole-run batches were short
 	// (ShortBatches) and at least 2·MinMergedBatches of them were merged
 	// in pairs: Batches, BatchSize, the interval, n_eff and the
@@ -215,6 +219,27 @@ type Stats struct {
 func (st Stats) ShortBatches() bool {
 	return st.BatchCorrelationZ > BatchCorrelationZMax || st.EffectiveSamples < MinEffectivePerBatch*float64(st.Batches)
 }
+
+// Converging reports whether the run's mean of eᵀe behaves as the mean of
+// a variable with a finite mean: with at least MinShareSamples samples,
+// no single sample may hold more than MaxSampleShare of the sum. For x
+// with a finite mean the largest of n samples is a vanishing share of
+// their sum as n grows (the strong law of large numbers; for light tails
+// the largest grows as log n, common practice); for a heavy tail without
+// a mean — a loop almost surely but not mean-square stable
+// (estimate/model.md §16) — the largest term keeps a share of order one
+// however long the run, and each new outage makes the estimate jump. A
+// Gaussian error exceeds the bound at 2000 samples only beyond 10σ.
+// Windows and short runs always converge.
+func (st Stats) Converging() bool {
+	return st.Samples < MinShareSamples || !(st.MaxShare > MaxSampleShare)
+}
+
+// The non-convergence rule (Converging).
+const (
+	MaxSampleShare  = 0.05
+	MinShareSamples = 2000
+)
 
 // MinEffectivePerBatch is the least number of correlation times a batch
 // must span: n_eff/k ≥ 3 (see Estimator).
@@ -337,6 +362,7 @@ func (o *Estimator) AddErrorRef(e []float64, ref float64) {
 	}
 	o.n++
 	o.sumX += x
+	o.maxX = math.Max(o.maxX, x)
 	d := x - o.wMean
 	o.wMean += d / float64(o.n)
 	o.wM2 += d * (x - o.wMean)
@@ -448,7 +474,7 @@ func serialCorrelation(d []float64, scale float64) (c, z float64) {
 // Run returns the estimates over the whole run. The mean is written into
 // mean when it has p entries (no allocation), else into a new slice.
 func (o *Estimator) Run(mean []float64) Stats {
-	st := Stats{Samples: o.n, Mean: o.meanSlice(mean), BatchSize: o.batchSize, Batches: len(o.batches)}
+	st := Stats{Samples: o.n, Mean: o.meanSlice(mean), BatchSize: o.batchSize, Batches: len(o.batches), MaxShare: math.NaN()}
 	nan := math.NaN()
 	st.CILow, st.CIHigh, st.EffectiveSamples, st.XStd, st.T = nan, nan, nan, nan, nan
 	st.BatchCorrelation, st.BatchCorrelationZ = nan, nan
@@ -467,6 +493,9 @@ func (o *Estimator) Run(mean []float64) Stats {
 	}
 	st.SecondMoment = o.sumX / n
 	st.Std = math.Sqrt(math.Max(0, st.SecondMoment-ee))
+	if o.sumX > 0 {
+		st.MaxShare = o.maxX / o.sumX
+	}
 	varX := o.wM2 / (n - 1)
 	if o.n > 1 {
 		st.XStd = math.Sqrt(varX)
@@ -547,7 +576,7 @@ func (o *Estimator) meanSlice(mean []float64) []float64 {
 func (o *Estimator) Window(i int, mean []float64) Stats {
 	w := &o.windows[i]
 	p := len(o.r)
-	st := Stats{Mean: o.meanSlice(mean), BatchSize: w.b, Batches: w.filled}
+	st := Stats{Mean: o.meanSlice(mean), BatchSize: w.b, Batches: w.filled, MaxShare: math.NaN()}
 	nan := math.NaN()
 	st.CILow, st.CIHigh, st.EffectiveSamples, st.XStd, st.T = nan, nan, nan, nan, nan
 	st.BatchCorrelation, st.BatchCorrelationZ = nan, nan
