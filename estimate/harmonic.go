@@ -486,34 +486,11 @@ func peakOverPhase(h Harmonic) (float64, float64) {
 // Q = blkdiag(W_d, 0) + [Γ Dc; Bc] V [Γ Dc; Bc]ᵀ by Smith's doubling.
 func (md *Model) nominal(nu float64, R []complex128) NominalResponse {
 	lm := &md.lm
-	n, m, p, nc := lm.n, lm.m, lm.p, lm.nc
-	k := n + nc
-	A := mat.NewDense(k, k, nil)
-	B := mat.NewDense(k, p, nil)
-	var gdc, gdcC mat.Dense
-	gdc.Mul(lm.samp.Gamma, lm.dc)
-	gdcC.Mul(&gdc, lm.c)
-	setBlock(A, 0, 0, lm.samp.Phi, 1)
-	setBlock(A, 0, 0, &gdcC, -1)
-	setBlock(B, 0, 0, &gdc, 1)
-	if nc > 0 {
-		var gcc, bcC mat.Dense
-		gcc.Mul(lm.samp.Gamma, lm.cc)
-		bcC.Mul(lm.bc, lm.c)
-		setBlock(A, 0, n, &gcc, 1)
-		setBlock(A, n, 0, &bcC, -1)
-		setBlock(A, n, n, lm.ac, 1)
-		setBlock(B, n, 0, lm.bc, 1)
-	}
-	_ = m
-	var eig mat.Eigen
-	if !eig.Factorize(A, mat.EigenNone) {
+	n, p := lm.n, lm.p
+	A, B := lm.nominalLoop()
+	k, _ := A.Dims()
+	if !md.nominalStable() {
 		return NominalResponse{}
-	}
-	for _, v := range eig.Values(nil) {
-		if cmplx.Abs(v) >= 1 {
-			return NominalResponse{}
-		}
 	}
 	out := NominalResponse{Stable: true, Output: make([]complex128, p), Error: make([]complex128, p), Variance: make([]float64, p)}
 	br, bi := make([]float64, k), make([]float64, k)

@@ -84,6 +84,7 @@ var sectionOf = map[string]string{
 	"trace":     "## The probe trace (CSV)",
 	"record":    "## The relay's record (CSV)",
 	"frequency": "## The frequency response (CSV, JSON)",
+	"gainmap":   "## The gain map (CSV)",
 }
 
 // docTable is one marked table of the reference.
@@ -462,6 +463,7 @@ func TestFormatsDocCoversLoaderKeys(t *testing.T) {
 	accepted["trace.meta"] = traceMetaKeys(t)
 	accepted["record"] = emulate.RecordColumns
 	accepted["frequency"] = report.FrequencyColumns(1)
+	accepted["gainmap"] = report.GainMapColumns(&estimate.GainMap{})
 
 	for _, id := range sortedKeys(keys) {
 		if _, ok := accepted[id]; !ok {

@@ -82,7 +82,7 @@ func TestPredictBadInput(t *testing.T) {
 		{"vary loss range", []string{"predict", "../../profiles/examples/loops/conveyor.yaml", "--vary", "loss=0:1.5:0.1"}, 2, "loss must lie in [0, 1]"},
 		{"vary misread as start:step:stop", []string{"predict", "../../profiles/examples/loops/conveyor.yaml", "--vary", "loss=0:0.01:0.3"}, 2, "step 0.3 is larger than the range 0 to 0.01; the order is START:STOP:STEP"},
 		{"plot ext", []string{"predict", "../../profiles/examples/loops/conveyor.yaml", "--vary", "loss=0:0.1:0.1", "--plot", "x.gif"}, 2, "want a file ending in .svg, .png or .pdf"},
-		{"plot alone", []string{"predict", "../../profiles/examples/loops/conveyor.yaml", "--plot", "x.svg"}, 2, "--plot: want --vary, --step or --frequency"},
+		{"plot alone", []string{"predict", "../../profiles/examples/loops/conveyor.yaml", "--plot", "x.svg"}, 2, "--plot: want --vary, --step, --frequency or --gain"},
 		{"step-to", []string{"predict", "../../profiles/examples/loops/conveyor.yaml", "--step", "3", "--step-to", "1,2"}, 2, "--step-to: want 1 comma-separated numbers"},
 		{"unknown flag", []string{"predict", "../../profiles/examples/loops/conveyor.yaml", "--jsn"}, 2, "flag provided but not defined: -jsn"},
 		{"simulate warmup", []string{"simulate", "../../profiles/examples/loops/conveyor.yaml", "--periods", "10", "--warmup", "10"}, 2, "--warmup: want fewer than --periods"},

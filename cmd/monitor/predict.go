@@ -17,6 +17,7 @@ const predictHead = `usage: monitor predict LOOP.yaml [--json] [--strict] [--no-
        monitor predict LOOP.yaml --vary loss=START:STOP:STEP | delay_scale=START:STOP:STEP [--plot FILE]
        monitor predict LOOP.yaml --step N [--step-to R1,R2,…] [--plot FILE]
        monitor predict LOOP.yaml --frequency F1,F2,… | FROM:TO:N | reference [--amplitude A1,…] [--json] [--plot FILE]
+       monitor predict LOOP.yaml --gain NAME=START:STOP:N [--gain NAME=START:STOP:N] [--plot FILE]
 
 Predicts what theory says of the loop over its network profile: whether it
 is mean-square stable (the spectral radius of the second-moment operator,
@@ -31,7 +32,12 @@ computation is reported as marginal and treated as not stable.
 from rest; --frequency, for a sinusoidal reference at each frequency, the
 mean response's gain and phase (setpoint to output and to error) and the
 error's variance averaged over the phase and at its peak, beside the
-loss-free, delay-free loop's (estimate/model.md §15). Without --strict
+loss-free, delay-free loop's (estimate/model.md §15); --gain the
+spectral radius and E[eᵀe] over a grid of one or two controller gains
+(scale, a factor on the controller's output, or an entry such as d[0][0]),
+with the mean-square stable interval of one gain beside the loss-free
+one and the best point (§17). Also printed: the top Lyapunov exponent,
+almost-sure stability and its loss margin (§16). Without --strict
 the command exits 0 whatever the verdict.
 
 The model is estimate/model.md: the rig's timing and the three modes §1, the
@@ -57,19 +63,24 @@ func cmdPredict(args []string, stdout, stderr io.Writer) error {
 	vary := fs.String("vary", "", "sweep a parameter and print CSV: loss=START:STOP:STEP or delay_scale=START:STOP:STEP")
 	step := fs.Int("step", 0, "print the expected error and its std for the first `N` periods after a setpoint step from rest (CSV)")
 	stepTo := fs.String("step-to", "", "setpoint of the step, comma-separated (default: the loop's setpoint)")
-	plotFile := fs.String("plot", "", "with --vary or --step: also write a plot to `FILE` (.svg, .png or .pdf)")
+	plotFile := fs.String("plot", "", "with --vary, --step, --frequency or --gain: also write a plot to `FILE` (.svg, .png or .pdf)")
 	noMargin := fs.Bool("no-margin", false, "skip the loss margin (up to ~100 stability tests)")
 	freq := fs.String("frequency", "", "print the response to a sinusoidal reference (CSV, or JSON with --json) at `F1,F2,…` Hz, at N log-spaced frequencies FROM:TO:N, or at the loop's own reference frequencies (reference)")
+	var gains gainFlags
+	fs.Var(&gains, "gain", "print CSV of the prediction over a grid of a controller gain `NAME=START:STOP:N` (scale, or an entry a[i][j], b[i][j], c[i][j], d[i][j] of the controller); give it twice for a 2-D map")
 	amp := fs.String("amplitude", "", "with --frequency: the sine's amplitude per output, comma-separated (default: the loop's reference, else 1 on every output)")
 	path, err := parseArgs(fs, args)
 	if err != nil {
 		return err
 	}
-	if modes := btoi(*vary != "") + btoi(*step != 0) + btoi(*freq != ""); modes > 1 {
-		return cli.Usagef("--vary, --step and --frequency: want one of them, got %d", modes)
+	if modes := btoi(*vary != "") + btoi(*step != 0) + btoi(*freq != "") + btoi(len(gains) > 0); modes > 1 {
+		return cli.Usagef("--vary, --step, --frequency and --gain: want one of them, got %d", modes)
 	}
-	if *strict && (*vary != "" || *step != 0 || *freq != "") {
-		return cli.Usagef("--strict: only with the single prediction, not with --vary, --step or --frequency")
+	if *strict && (*vary != "" || *step != 0 || *freq != "" || len(gains) > 0) {
+		return cli.Usagef("--strict: only with the single prediction, not with --vary, --step, --frequency or --gain")
+	}
+	if len(gains) > 2 {
+		return cli.Usagef("--gain: want one or two, got %d", len(gains))
 	}
 	if *amp != "" && *freq == "" {
 		return cli.Usagef("--amplitude: want --frequency with it")
@@ -77,8 +88,8 @@ func cmdPredict(args []string, stdout, stderr io.Writer) error {
 	if *step < 0 || *step > 1_000_000 {
 		return cli.Usagef("--step: want a number of periods in [1, 1000000], got %d", *step)
 	}
-	if *plotFile != "" && *vary == "" && *step == 0 && *freq == "" {
-		return cli.Usagef("--plot: want --vary, --step or --frequency with it")
+	if *plotFile != "" && *vary == "" && *step == 0 && *freq == "" && len(gains) == 0 {
+		return cli.Usagef("--plot: want --vary, --step, --frequency or --gain with it")
 	}
 	if *plotFile != "" {
 		if err := report.CheckPlotName(*plotFile); err != nil {
@@ -97,6 +108,8 @@ func cmdPredict(args []string, stdout, stderr io.Writer) error {
 		return cli.BadInput(err)
 	}
 	switch {
+	case len(gains) > 0:
+		return predictGains(loop, gains, *plotFile, stdout, stderr)
 	case *freq != "":
 		return predictFrequency(loop, *freq, *amp, *asJSON, *plotFile, stdout)
 	case *vary != "":

@@ -146,3 +146,50 @@ func TestPredictAlmostSure(t *testing.T) {
 		t.Errorf("JSON: %+v", js)
 	}
 }
+
+// TestPredictGain: --gain prints one CSV row per grid point with the
+// documented columns, the best point and the stable intervals on stderr,
+// and a plot; two --gain give a 2-D map; bad specs are usage errors.
+func TestPredictGain(t *testing.T) {
+	loop := "../../profiles/examples/loops/conveyor.yaml"
+	code, out, errOut := runMonitor("predict", loop, "--gain", "scale=0.5:30:12")
+	if code != 0 {
+		t.Fatalf("exit %d: %s", code, errOut)
+	}
+	lines := strings.Split(strings.TrimSpace(out), "\n")
+	if len(lines) != 13 || lines[0] != "scale,mean_square_stable,stability,spectral_radius,spectral_radius_error,second_moment,loss_free_stable" {
+		t.Fatalf("CSV: %d lines, header %q", len(lines), lines[0])
+	}
+	for _, w := range []string{"best point on the grid: scale = ", "mean-square stable for scale from", "loss-free, delay-free loop is stable for scale"} {
+		if !strings.Contains(errOut, w) {
+			t.Errorf("no %q in:\n%s", w, errOut)
+		}
+	}
+	plot := filepath.Join(t.TempDir(), "g.png")
+	code, out, errOut = runMonitor("predict", loop, "--gain", "d[0][0]=0.2:2:4", "--gain", "c[0][0]=1:5:3", "--plot", plot)
+	if code != 0 {
+		t.Fatalf("2-D: exit %d: %s", code, errOut)
+	}
+	if n := len(strings.Split(strings.TrimSpace(out), "\n")); n != 13 {
+		t.Errorf("2-D: %d lines, want 12 points and a header", n)
+	}
+	if _, err := os.Stat(plot); err != nil {
+		t.Errorf("plot: %v", err)
+	}
+	for _, c := range []struct {
+		args []string
+		want string
+	}{
+		{[]string{"--gain", "x=0:1:3"}, `want scale or a controller entry`},
+		{[]string{"--gain", "a[1][0]=0:1:3"}, "the controller's a is 1×1"},
+		{[]string{"--gain", "scale=1:0:3"}, "want STOP above START"},
+		{[]string{"--gain", "scale=0:1:3", "--gain", "scale=0:2:3"}, "scale given twice"},
+		{[]string{"--gain", "scale=0:1:3", "--gain", "d[0][0]=0:1:3", "--gain", "c[0][0]=0:1:3"}, "want one or two, got 3"},
+		{[]string{"--gain", "scale=0:1:3", "--step", "4"}, "want one of them, got 2"},
+	} {
+		code, _, errOut := runMonitor(append([]string{"predict", loop}, c.args...)...)
+		if code != 2 || !strings.Contains(errOut, c.want) {
+			t.Errorf("%v: exit %d, %q; want 2 and %q", c.args, code, errOut, c.want)
+		}
+	}
+}
