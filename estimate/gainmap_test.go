@@ -21,8 +21,8 @@ func scalarGainLoop(a, loss float64, policy profiles.ActuatorPolicy) (*profiles.
 			W: dense([]float64{1e-4}), V: dense([]float64{0})},
 		Controller: profiles.Controller{D: dense([]float64{0.5 * a / gamma})},
 		Setpoint:   []float64{0}, Compute: laws.Constant{},
-		Profile:    profile(iidChannel(loss, nil), nil),
-		Actuator:   profiles.Actuator{OnLoss: policy},
+		Profile:  profile(iidChannel(loss, nil), nil),
+		Actuator: profiles.Actuator{OnLoss: policy},
 	}, gamma
 }
 
