@@ -59,7 +59,7 @@ func parseDecode(f yamlpos.Field, d *datagram.Layout, p int) error {
 //
 //	sample_time: {field: 1, unit: ns}
 func parseSampleTime(f yamlpos.Field, d *datagram.Layout) error {
-	keys, err := f.Mapping("field", "offset", "type", "order", "unit")
+	keys, err := f.Mapping("field", "offset", "type", "order", "pointer", "unit")
 	if err != nil {
 		return err
 	}
@@ -131,8 +131,8 @@ func parseFormat(f yamlpos.Field, keys map[string]yamlpos.Field, d *datagram.Lay
 	if d.Format, err = keys["format"].Text(); err != nil {
 		return err
 	}
-	if d.Format != "text" && d.Format != "binary" {
-		return keys["format"].Errorf("want text or binary, got %s", keys["format"].Got())
+	if d.Format != "text" && d.Format != "binary" && d.Format != "json" {
+		return keys["format"].Errorf("want text, binary or json, got %s", keys["format"].Got())
 	}
 	if sep := keys["separator"]; !sep.IsNull() {
 		if d.Format != "text" {
@@ -152,6 +152,23 @@ func parseFormat(f yamlpos.Field, keys map[string]yamlpos.Field, d *datagram.Lay
 
 func parseDecodeField(f yamlpos.Field, format string, counter bool) (datagram.Field, error) {
 	var df datagram.Field
+	if format == "json" {
+		keys, err := f.Mapping("pointer")
+		if err != nil {
+			return df, err
+		}
+		if keys["pointer"].IsZero() {
+			return df, missing(f, "pointer")
+		}
+		p, err := keys["pointer"].Text()
+		if err != nil {
+			return df, err
+		}
+		if err := df.SetPointer(p); err != nil {
+			return df, keys["pointer"].Errorf("%v", err)
+		}
+		return df, nil
+	}
 	if format == "text" {
 		keys, err := f.Mapping("field")
 		if err != nil {

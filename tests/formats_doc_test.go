@@ -60,6 +60,7 @@ var mappingSections = map[string]string{
 	"profiles/loopdecodeparse.go parseSampleTime field":     "loop.decode.sample_time",
 	"profiles/loopdecodeparse.go parseCommandDecode format": "loop.command_decode",
 	"profiles/loopdecodeparse.go parseDecodeField field":    "loop.decode.text",
+	"profiles/loopdecodeparse.go parseDecodeField pointer":  "loop.decode.json",
 	"profiles/loopdecodeparse.go parseDecodeField offset":   "loop.decode.binary",
 	"emulate/trip/rule.go Parse max_abs_error":              "loop.trip",
 	"profiles/scenario.go parseScenario name":               "scenario",

@@ -40,7 +40,7 @@ var (
 
 // Reasons lists every Error, for counters that must exist
 // from the start.
-var Reasons = []*Error{ErrTooShort, ErrNotNumber, ErrNotFinite, ErrOutOfRange, ErrBadSequence, ErrOversized}
+var Reasons = []*Error{ErrTooShort, ErrNotNumber, ErrNotFinite, ErrOutOfRange, ErrBadSequence, ErrOversized, ErrBadJSON}
 
 // ErrBadTime is not among Reasons: the sample time is read only by the
 // relay's pairing, which counts its own failures.
@@ -78,10 +78,25 @@ func checkOutput(v float64) error {
 // be a decimal number, [+-]digits[.digits][(e|E)[+-]digits] (at least one
 // digit before the exponent), or, for the sequence, decimal digits only.
 // Binary: each value is read at its offset with its type and byte order;
-// signed sequence values below zero are ErrBadSequence.
+// signed sequence values below zero are ErrBadSequence. JSON: each value
+// is found by its pointer (json.go) and must be a JSON number, the
+// sequence a non-negative integer.
 func (d *Layout) Output(payload []byte, y []float64) (seq uint64, hasSeq bool, err error) {
 	if len(y) != len(d.Outputs) {
 		return 0, false, ErrTooShort // a caller error; never a panic
+	}
+	if d.Format == "json" {
+		for i, f := range d.Outputs {
+			v, err := jsonFloat(payload, f)
+			if err == nil {
+				err = checkOutput(v)
+			}
+			if err != nil {
+				return 0, false, err
+			}
+			y[i] = v
+		}
+		return d.seq(payload, nil)
 	}
 	if d.Format == "binary" {
 		for i, f := range d.Outputs {
@@ -139,6 +154,13 @@ func (d *Layout) Seq(payload []byte) (seq uint64, hasSeq bool, err error) {
 func (d *Layout) seq(payload, sep []byte) (uint64, bool, error) {
 	if d.Sequence == nil {
 		return 0, false, nil
+	}
+	if d.Format == "json" {
+		s, err := jsonCounter(payload, *d.Sequence)
+		if err != nil {
+			return 0, false, err
+		}
+		return s, true, nil
 	}
 	if d.Format == "binary" {
 		s, ok, neg := binaryCounter(payload, *d.Sequence)
@@ -308,13 +330,20 @@ func (d *Layout) Time(payload []byte) (ns int64, hasTime bool, err error) {
 		return 0, false, nil
 	}
 	var v float64
-	if d.Format == "binary" {
+	switch d.Format {
+	case "json":
+		x, err := jsonFloat(payload, *d.SampleTime)
+		if err != nil {
+			return 0, false, ErrBadTime
+		}
+		v = x
+	case "binary":
 		x, ok := binaryValue(payload, *d.SampleTime)
 		if !ok {
 			return 0, false, ErrTooShort
 		}
 		v = x
-	} else {
+	default:
 		sep := comma
 		if d.Separator != "" {
 			sep = unsafe.Slice(unsafe.StringData(d.Separator), len(d.Separator))

@@ -7,8 +7,9 @@ import "encoding/binary"
 // the tapped datagrams in monitor run and on the in-process bench (serve,
 // soak, demo).
 type Layout struct {
-	// Format is "text" (fields split by Separator) or "binary" (fixed
-	// offsets); "" when the loop file has no decode section.
+	// Format is "text" (fields split by Separator), "binary" (fixed
+	// offsets) or "json" (values by JSON pointer); "" when the loop file
+	// has no decode section.
 	Format string
 	// Separator splits a text datagram into fields (default ",").
 	Separator string
@@ -39,6 +40,10 @@ type Field struct {
 	Type string
 	// Order is the binary value's byte order ("little" or "big").
 	Order string
+	// Pointer is a JSON value's pointer (RFC 6901); tokens its reference
+	// tokens, set with it by SetPointer.
+	Pointer string
+	tokens  []string
 }
 
 // Size is the width in bytes of a binary field's type (0 for a text
