@@ -44,7 +44,7 @@ var loopErrors = map[string]string{
 	"shape-d.bad.yaml":                `:10: controller.d: want 1×1, got 1×2`,
 	"square-a.bad.yaml":               `:2: plant.a: want a square matrix, got 1×2`,
 	"unknown-key.bad.yaml":            `:3: unknown key "controler" (want one of: period, plant, controller, setpoint, compute_delay, profile, actuator, timing, decode, command_decode, trip, reference)`,
-	"unknown-plant-key.bad.yaml":      `:6: plant: unknown key "noise" (want one of: a, b, c, process_noise, sensor_noise)`,
+	"unknown-plant-key.bad.yaml":      `:6: plant: unknown key "noise" (want one of: a, b, c, process_noise, sensor_noise, transfer_function, input_noise, discrete)`,
 	"timing-fraction.bad.yaml":        `:5: timing.command_horizon: want a whole number of periods from 1 to 16, got "2.5"`,
 	"timing-zero.bad.yaml":            `:5: timing.command_horizon: want a whole number of periods from 1 to 16, got "0"`,
 	"timing-too-long.bad.yaml":        `:5: timing.command_horizon: want a whole number of periods from 1 to 16, got "17"`,

@@ -7,6 +7,7 @@ import (
 	"rigwire/emulate/trip"
 	"rigwire/profiles/laws"
 	"rigwire/profiles/yamlpos"
+	"slices"
 	"strings"
 
 	"gonum.org/v1/gonum/mat"
@@ -62,12 +63,12 @@ func parseLoop(root yamlpos.Field, dir string) (*Loop, error) {
 	if l.Period, err = keys["period"].PositiveDuration(); err != nil {
 		return nil, err
 	}
-	if err := parsePlant(keys["plant"], &l.Plant); err != nil {
+	if err := parsePlant(keys["plant"], &l.Plant, l.Period); err != nil {
 		return nil, err
 	}
 	n, m := l.Plant.B.Dims()
 	p, _ := l.Plant.C.Dims()
-	if err := parseController(keys["controller"], &l.Controller, n, m, p); err != nil {
+	if err := parseController(keys["controller"], &l.Controller, n, m, p, l.Period); err != nil {
 		return nil, err
 	}
 	l.Setpoint = make([]float64, p)
@@ -179,41 +180,202 @@ func shape(m *mat.Dense) string {
 	return fmt.Sprintf("%d×%d", r, c)
 }
 
-func parsePlant(f yamlpos.Field, pl *Plant) error {
-	keys, err := f.Mapping("a", "b", "c", "process_noise", "sensor_noise")
+func parsePlant(f yamlpos.Field, pl *Plant, h float64) error {
+	keys, err := f.Mapping("a", "b", "c", "process_noise", "sensor_noise", "transfer_function", "input_noise", "discrete")
+	if err != nil {
+		return err
+	}
+	forms := 0
+	for _, k := range []string{"a", "transfer_function", "discrete"} {
+		if !keys[k].IsZero() {
+			forms++
+		}
+	}
+	if forms > 1 {
+		return f.Errorf("want one form of the plant: a, b, c (continuous state space), transfer_function or discrete, got %d of them", forms)
+	}
+	switch {
+	case !keys["transfer_function"].IsZero():
+		if err := parsePlantTF(keys, pl); err != nil {
+			return err
+		}
+	case !keys["discrete"].IsZero():
+		if err := parsePlantDiscrete(keys, pl, h); err != nil {
+			return err
+		}
+	default:
+		if !keys["input_noise"].IsZero() {
+			return keys["input_noise"].Errorf("only with transfer_function (a state-space plant gives process_noise)")
+		}
+		for _, k := range []string{"a", "b", "c"} {
+			if keys[k].IsZero() {
+				return missing(f, k)
+			}
+		}
+		if pl.A, err = keys["a"].Dense(-1, -1); err != nil {
+			return err
+		}
+		n, nn := pl.A.Dims()
+		if n != nn {
+			return keys["a"].Errorf("want a square matrix, got %s", shape(pl.A))
+		}
+		if pl.B, err = keys["b"].Dense(-1, -1); err != nil {
+			return err
+		}
+		if r, _ := pl.B.Dims(); r != n {
+			return keys["b"].Errorf("want %d rows (plant.a is %d×%d), got %s", n, n, n, shape(pl.B))
+		}
+		if pl.C, err = keys["c"].Dense(-1, -1); err != nil {
+			return err
+		}
+		if _, c := pl.C.Dims(); c != n {
+			return keys["c"].Errorf("want %d columns (plant.a is %d×%d), got %s", n, n, n, shape(pl.C))
+		}
+		if pl.W, err = covariance(keys["process_noise"], n); err != nil {
+			return err
+		}
+	}
+	p, _ := pl.C.Dims()
+	if pl.V, err = covariance(keys["sensor_noise"], p); err != nil {
+		return err
+	}
+	return nil
+}
+
+// parsePlantTF reads a plant given as one continuous transfer function
+// per output from its single input: each is realised in controllable
+// canonical form (tfToSS) and the realisations are stacked, sharing the
+// input. A strictly proper function is required (the sensor samples
+// y = C x, with no direct path from u). The noise is input_noise, an
+// intensity at the input: W = B q Bᵀ.
+func parsePlantTF(keys map[string]yamlpos.Field, pl *Plant) error {
+	f := keys["transfer_function"]
+	if !keys["process_noise"].IsZero() {
+		return keys["process_noise"].Errorf("not with transfer_function (its states are a realisation of ours): give input_noise, an intensity at the plant's input")
+	}
+	items, err := f.Seq()
+	if err != nil || len(items) == 0 {
+		return f.Errorf("want a list of {num, den}, one per output, got %s", f.Got())
+	}
+	var as, bs, cs []*mat.Dense
+	n := 0
+	for _, it := range items {
+		num, den, err := parseTF(it)
+		if err != nil {
+			return err
+		}
+		a, b, c, d, err := tfToSS(num, den)
+		if err != nil {
+			return it.Errorf("%v", err)
+		}
+		if a == nil || d != 0 {
+			return it.Errorf("want a strictly proper transfer function (numerator's degree below the denominator's): the sensor samples y = C x, with no direct path from the input")
+		}
+		as, bs, cs = append(as, a), append(bs, b), append(cs, c)
+		r, _ := a.Dims()
+		n += r
+	}
+	pl.A, pl.B, pl.C = mat.NewDense(n, n, nil), mat.NewDense(n, 1, nil), mat.NewDense(len(items), n, nil)
+	off := 0
+	for i := range as {
+		r, _ := as[i].Dims()
+		pl.A.Slice(off, off+r, off, off+r).(*mat.Dense).Copy(as[i])
+		pl.B.Slice(off, off+r, 0, 1).(*mat.Dense).Copy(bs[i])
+		pl.C.Slice(i, i+1, off, off+r).(*mat.Dense).Copy(cs[i])
+		off += r
+	}
+	q := 0.0
+	if g := keys["input_noise"]; !g.IsNull() {
+		if q, err = g.FloatIn(0, math.Inf(1)); err != nil {
+			return err
+		}
+	}
+	pl.W = mat.NewDense(n, n, nil)
+	pl.W.Mul(pl.B, pl.B.T())
+	pl.W.Scale(q, pl.W)
+	return nil
+}
+
+// parseTF reads {num, den}: polynomial coefficients, highest power first.
+func parseTF(f yamlpos.Field) (num, den []float64, err error) {
+	keys, err := f.Mapping("num", "den")
+	if err != nil {
+		return nil, nil, err
+	}
+	for _, k := range []string{"num", "den"} {
+		if keys[k].IsZero() {
+			return nil, nil, missing(f, k)
+		}
+	}
+	if num, err = keys["num"].Vector(); err != nil {
+		return nil, nil, err
+	}
+	if den, err = keys["den"].Vector(); err != nil {
+		return nil, nil, err
+	}
+	if len(num) == 0 || len(den) == 0 || len(num) > 21 || len(den) > 21 {
+		return nil, nil, f.Errorf("want 1 to 21 coefficients in num and den (degree at most 20), got %d and %d", len(num), len(den))
+	}
+	if d := trimPoly(den); d[0] == 0 {
+		return nil, nil, keys["den"].Errorf("want a denominator that is not zero")
+	}
+	return num, den, nil
+}
+
+// parsePlantDiscrete reads a plant given at the loop's period, x' = Φ x +
+// Γ u (+ w, E[w wᵀ] = process_noise per period), y = C x + v. The
+// prediction needs the plant between samples (a command lands mid-period),
+// so it is turned into the continuous plant that samples to it: the
+// principal logarithm of [[Φ, Γ], [0, I]] (continuousFromDiscrete), and
+// the noise intensity whose sampling is the given covariance.
+func parsePlantDiscrete(keys map[string]yamlpos.Field, pl *Plant, h float64) error {
+	f := keys["discrete"]
+	if !keys["input_noise"].IsZero() {
+		return keys["input_noise"].Errorf("only with transfer_function (a discrete plant gives process_noise, per period)")
+	}
+	dk, err := f.Mapping("a", "b", "c")
 	if err != nil {
 		return err
 	}
 	for _, k := range []string{"a", "b", "c"} {
-		if keys[k].IsZero() {
+		if dk[k].IsZero() {
 			return missing(f, k)
 		}
 	}
-	if pl.A, err = keys["a"].Dense(-1, -1); err != nil {
+	phi, err := dk["a"].Dense(-1, -1)
+	if err != nil {
 		return err
 	}
-	n, nn := pl.A.Dims()
+	n, nn := phi.Dims()
 	if n != nn {
-		return keys["a"].Errorf("want a square matrix, got %s", shape(pl.A))
+		return dk["a"].Errorf("want a square matrix, got %s", shape(phi))
 	}
-	if pl.B, err = keys["b"].Dense(-1, -1); err != nil {
+	gam, err := dk["b"].Dense(n, -1)
+	if err != nil {
 		return err
 	}
-	if r, _ := pl.B.Dims(); r != n {
-		return keys["b"].Errorf("want %d rows (plant.a is %d×%d), got %s", n, n, n, shape(pl.B))
-	}
-	if pl.C, err = keys["c"].Dense(-1, -1); err != nil {
+	if pl.C, err = dk["c"].Dense(-1, n); err != nil {
 		return err
 	}
-	if _, c := pl.C.Dims(); c != n {
-		return keys["c"].Errorf("want %d columns (plant.a is %d×%d), got %s", n, n, n, shape(pl.C))
+	if pl.A, pl.B, err = continuousFromDiscrete(phi, gam, h); err != nil {
+		return f.Errorf("%v", err)
 	}
-	p, _ := pl.C.Dims()
-	if pl.W, err = covariance(keys["process_noise"], n); err != nil {
+	wd, err := covariance(keys["process_noise"], n)
+	if err != nil {
 		return err
 	}
-	if pl.V, err = covariance(keys["sensor_noise"], p); err != nil {
-		return err
+	pl.W = mat.NewDense(n, n, nil)
+	if !mat.Equal(wd, pl.W) {
+		if pl.W, err = noiseFromDiscrete(pl.A, wd, h); err != nil {
+			return keys["process_noise"].Errorf("%v", err)
+		}
+		var eig mat.EigenSym
+		scale := mat.Norm(pl.W, math.Inf(1))
+		if eig.Factorize(mat.NewSymDense(n, pl.W.RawMatrix().Data), false) {
+			if v := eig.Values(nil); v[0] < -1e-9*scale {
+				return keys["process_noise"].Errorf("this covariance per period is not the sampling of a white noise through the plant (the continuous intensity would have the eigenvalue %g < 0): give a covariance the plant's own dynamics can produce", v[0])
+			}
+		}
 	}
 	return nil
 }
@@ -253,12 +415,15 @@ func covariance(f yamlpos.Field, n int) (*mat.Dense, error) {
 	return m, nil
 }
 
-func parseController(f yamlpos.Field, c *Controller, n, m, p int) error {
-	keys, err := f.Mapping("a", "b", "c", "d")
+func parseController(f yamlpos.Field, c *Controller, n, m, p int, h float64) error {
+	keys, err := f.Mapping("a", "b", "c", "d", "pid", "transfer_function")
 	if err != nil {
 		return err
 	}
 	has := func(k string) bool { return !keys[k].IsNull() }
+	if has("pid") || has("transfer_function") {
+		return parseControllerForm(f, keys, c, m, p, h)
+	}
 	dynamic := has("a") || has("b") || has("c")
 	if dynamic {
 		for _, k := range []string{"a", "b", "c"} {
@@ -403,4 +568,78 @@ func LoadTiming(path string, period float64) (laws.Delay, error) {
 		return nil, f.Errorf("want a duration or a delay law, got another file %s", f.Got())
 	}
 	return parseCompute(f, filepath.Dir(path), period)
+}
+
+// parseControllerForm reads a controller given as PID gains or as a
+// discrete transfer function (single input, single output), realised as
+// the state space the prediction uses.
+func parseControllerForm(f yamlpos.Field, keys map[string]yamlpos.Field, c *Controller, m, p int, h float64) error {
+	for _, k := range []string{"a", "b", "c", "d"} {
+		if !keys[k].IsNull() {
+			return keys[k].Errorf("not with pid or transfer_function: give one form of the controller")
+		}
+	}
+	if !keys["pid"].IsNull() && !keys["transfer_function"].IsNull() {
+		return f.Errorf("want pid or transfer_function, got both")
+	}
+	if m != 1 || p != 1 {
+		return f.Errorf("want a plant with one input and one output for pid or transfer_function, got %d inputs and %d outputs (give a, b, c, d)", m, p)
+	}
+	var a, b, cc, d *mat.Dense
+	if g := keys["pid"]; !g.IsNull() {
+		pid, err := parsePID(g)
+		if err != nil {
+			return err
+		}
+		if a, b, cc, d, err = pid.Discrete(h); err != nil {
+			return g.Errorf("%v", err)
+		}
+	} else {
+		g := keys["transfer_function"]
+		num, den, err := parseTF(g)
+		if err != nil {
+			return err
+		}
+		var dv float64
+		if a, b, cc, dv, err = tfToSS(num, den); err != nil {
+			return g.Errorf("%v (a controller computes its command from the samples so far)", err)
+		}
+		d = mat.NewDense(1, 1, []float64{dv})
+	}
+	c.A, c.B, c.C, c.D = a, b, cc, d
+	return nil
+}
+
+// parsePID reads controller.pid.
+func parsePID(f yamlpos.Field) (PID, error) {
+	keys, err := f.Mapping("kp", "ki", "kd", "filter", "method")
+	if err != nil {
+		return PID{}, err
+	}
+	var p PID
+	for k, dst := range map[string]*float64{"kp": &p.Kp, "ki": &p.Ki, "kd": &p.Kd} {
+		if g := keys[k]; !g.IsNull() {
+			if *dst, err = g.Float(); err != nil {
+				return p, err
+			}
+		}
+	}
+	if g := keys["filter"]; !g.IsNull() {
+		if p.Filter, err = g.DurationIn(0, math.Inf(1)); err != nil {
+			return p, err
+		}
+	}
+	if keys["method"].IsZero() {
+		return p, missing(f, "method")
+	}
+	if p.Method, err = keys["method"].Text(); err != nil {
+		return p, err
+	}
+	if !slices.Contains(PIDMethods, p.Method) {
+		return p, keys["method"].Errorf("want one of %s, got %s", strings.Join(PIDMethods, ", "), keys["method"].Got())
+	}
+	if p.Kp == 0 && p.Ki == 0 && p.Kd == 0 {
+		return p, f.Errorf("want at least one of kp, ki, kd not zero")
+	}
+	return p, nil
 }
