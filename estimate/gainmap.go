@@ -25,8 +25,9 @@ import (
 // "d[i][j]", 0-based), over Values.
 type GainParam struct {
 	Name   string
-	matrix byte // 's', 'a', 'b', 'c', 'd'
+	matrix byte // 's', 'a', 'b', 'c', 'd'; 'p' for a PID gain
 	i, j   int
+	pid    string // kp, ki, kd, filter
 	Values []float64
 }
 
@@ -47,6 +48,11 @@ func ParseGainParam(spec string, loop *profiles.Loop) (GainParam, error) {
 	switch m := gainEntry.FindStringSubmatch(name); {
 	case name == "scale":
 		p.matrix = 's'
+	case name == "kp" || name == "ki" || name == "kd" || name == "filter":
+		if loop.Controller.PID == nil {
+			return p, fmt.Errorf("%s: the loop's controller is not given as PID gains (controller.pid)", name)
+		}
+		p.matrix, p.pid = 'p', name
 	case m != nil:
 		p.matrix = m[1][0]
 		p.i, _ = strconv.Atoi(m[2])
@@ -59,7 +65,7 @@ func ParseGainParam(spec string, loop *profiles.Loop) (GainParam, error) {
 			return p, fmt.Errorf("%s: the controller's %s is %d×%d", name, m[1], r, c)
 		}
 	default:
-		return p, fmt.Errorf("%q: want scale or a controller entry a[i][j], b[i][j], c[i][j], d[i][j]", name)
+		return p, fmt.Errorf("%q: want scale, a controller entry a[i][j], b[i][j], c[i][j], d[i][j], or a PID gain kp, ki, kd, filter", name)
 	}
 	parts := strings.Split(rng, ":")
 	if len(parts) != 3 {
@@ -99,15 +105,41 @@ func controllerMatrix(c *profiles.Controller, m byte) *mat.Dense {
 // Nominal is the parameter's value in the loop as written: 1 for scale,
 // the entry's own value else.
 func (p GainParam) Nominal(loop *profiles.Loop) float64 {
-	if p.matrix == 's' {
+	switch p.matrix {
+	case 's':
 		return 1
+	case 'p':
+		return *pidGain(loop.Controller.PID, p.pid)
 	}
 	return controllerMatrix(&loop.Controller, p.matrix).At(p.i, p.j)
 }
 
-// apply sets the parameter to v in a copy of the loop's controller.
-func (p GainParam) apply(loop *profiles.Loop, v float64) {
+func pidGain(pid *profiles.PID, name string) *float64 {
+	switch name {
+	case "kp":
+		return &pid.Kp
+	case "ki":
+		return &pid.Ki
+	case "kd":
+		return &pid.Kd
+	}
+	return &pid.Filter
+}
+
+// apply sets the parameter to v in a copy of the loop's controller (a
+// PID gain is set in a copy of the gains, discretised again).
+func (p GainParam) apply(loop *profiles.Loop, v float64) error {
 	c := &loop.Controller
+	if p.matrix == 'p' {
+		pid := *c.PID
+		*pidGain(&pid, p.pid) = v
+		a, b, cc, d, err := pid.Discrete(loop.Period)
+		if err != nil {
+			return fmt.Errorf("%s = %g: %w", p.Name, v, err)
+		}
+		c.A, c.B, c.C, c.D, c.PID = a, b, cc, d, &pid
+		return nil
+	}
 	cp := func(m *mat.Dense) *mat.Dense {
 		if m == nil {
 			return nil
@@ -120,9 +152,10 @@ func (p GainParam) apply(loop *profiles.Loop, v float64) {
 			c.C.Scale(v, c.C)
 		}
 		c.D.Scale(v, c.D)
-		return
+		return nil
 	}
 	controllerMatrix(c, p.matrix).Set(p.i, p.j, v)
+	return nil
 }
 
 // GainPoint is the prediction at one grid point.
@@ -250,17 +283,22 @@ func describeValues(params []GainParam, vals []float64) string {
 }
 
 // withGains is a copy of loop with the parameters set.
-func withGains(loop *profiles.Loop, params []GainParam, vals []float64) *profiles.Loop {
+func withGains(loop *profiles.Loop, params []GainParam, vals []float64) (*profiles.Loop, error) {
 	l := *loop
 	for i, p := range params {
-		p.apply(&l, vals[i])
+		if err := p.apply(&l, vals[i]); err != nil {
+			return nil, err
+		}
 	}
-	return &l
+	return &l, nil
 }
 
 func gainPoint(loop *profiles.Loop, params []GainParam, vals []float64) (GainPoint, error) {
-	l := withGains(loop, params, vals)
 	pt := GainPoint{Values: vals, SecondMoment: math.NaN()}
+	l, err := withGains(loop, params, vals)
+	if err != nil {
+		return pt, err
+	}
 	md, err := Build(l, Options{})
 	if err != nil {
 		return pt, err
@@ -306,7 +344,12 @@ func gainMargin(loop *profiles.Loop, p GainParam) (*GainMargin, error) {
 	m := &GainMargin{Nominal: x0, Low: math.NaN(), High: math.NaN(), NominalLow: math.NaN(), NominalHigh: math.NaN()}
 	var berr error
 	test := func(v float64, nominal bool) bool {
-		md, err := Build(withGains(loop, []GainParam{p}, []float64{v}), Options{})
+		l, err := withGains(loop, []GainParam{p}, []float64{v})
+		if err != nil {
+			berr = err
+			return false
+		}
+		md, err := Build(l, Options{})
 		if err != nil {
 			berr = err
 			return false

@@ -1,6 +1,7 @@
 package estimate
 
 import (
+	"fmt"
 	"math"
 	"testing"
 
@@ -185,5 +186,45 @@ func TestGainMapTwoParameters(t *testing.T) {
 	static := scalarIntegrator(0.2, 0, 0, 0, 1, profile(nil, nil))
 	if _, err := ParseGainParam("a[0][0]=0:1:3", static); err == nil {
 		t.Error("a controller entry of a static controller: accepted")
+	}
+}
+
+// TestGainMapPIDGains: a controller given as PID gains is swept by its
+// gains (discretised again at each point): the map's point at kp = 8
+// predicts what the loop written with kp: 8 predicts; a PID gain of a
+// controller given otherwise is refused.
+func TestGainMapPIDGains(t *testing.T) {
+	yaml := func(kp string) string {
+		return fmt.Sprintf(formsYAML, "  a: [[0, 1], [0, -2]]\n  b: [[0], [3]]\n  c: [[1, 0]]\n  process_noise: [[0, 0], [0, 0.04]]",
+			"  pid: {kp: "+kp+", ki: 5, kd: 0.2, filter: 20ms, method: tustin}")
+	}
+	loop, err := profiles.ParseLoop([]byte(yaml("12")), "pid.yaml", "")
+	if err != nil {
+		t.Fatal(err)
+	}
+	p, err := ParseGainParam("kp=4:16:4", loop)
+	if err != nil {
+		t.Fatal(err)
+	}
+	gm, err := GainMapOf(loop, []GainParam{p}, 0, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	at8, err := profiles.ParseLoop([]byte(yaml("8")), "pid8.yaml", "")
+	if err != nil {
+		t.Fatal(err)
+	}
+	pr, err := Predict(at8, PredictOptions{SkipMargin: true})
+	if err != nil || pr.Error == nil {
+		t.Fatal(err)
+	}
+	if pt := gm.Points[1]; pt.Values[0] != 8 || math.Abs(pt.SecondMoment-pr.Error.SecondMoment) > 1e-12*pr.Error.SecondMoment {
+		t.Errorf("kp = %g in the map: E[eᵀe] %.12g; written kp: 8: %.12g", pt.Values[0], pt.SecondMoment, pr.Error.SecondMoment)
+	}
+	if gm.Margin == nil || !(gm.Margin.Low < 12 && gm.Margin.High > 12) {
+		t.Errorf("margin %+v", gm.Margin)
+	}
+	if _, err := ParseGainParam("kp=1:2:3", servo(profile(nil, nil), 0)); err == nil {
+		t.Error("kp of a state-space controller accepted")
 	}
 }

@@ -78,6 +78,10 @@ type Plant struct {
 type Controller struct {
 	A, B, C *mat.Dense // nil for a static controller
 	D       *mat.Dense
+	// PID is the controller's gains when the loop file gave it as PID
+	// gains (key controller.pid), nil otherwise; A, B, C, D are then its
+	// discretisation (PID.Discrete at the loop's period).
+	PID *PID
 }
 
 // ActuatorPolicy is what the actuator applies when no fresh command is in

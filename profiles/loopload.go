@@ -594,6 +594,7 @@ func parseControllerForm(f yamlpos.Field, keys map[string]yamlpos.Field, c *Cont
 		if a, b, cc, d, err = pid.Discrete(h); err != nil {
 			return g.Errorf("%v", err)
 		}
+		c.PID = &pid
 	} else {
 		g := keys["transfer_function"]
 		num, den, err := parseTF(g)

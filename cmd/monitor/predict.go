@@ -34,7 +34,8 @@ mean response's gain and phase (setpoint to output and to error) and the
 error's variance averaged over the phase and at its peak, beside the
 loss-free, delay-free loop's (estimate/model.md §15); --gain the
 spectral radius and E[eᵀe] over a grid of one or two controller gains
-(scale, a factor on the controller's output, or an entry such as d[0][0]),
+(scale, a factor on the controller's output, an entry such as d[0][0], or
+a PID gain kp, ki, kd, filter),
 with the mean-square stable interval of one gain beside the loss-free
 one and the best point (§17). Also printed: the top Lyapunov exponent,
 almost-sure stability and its loss margin (§16). Without --strict
@@ -67,7 +68,7 @@ func cmdPredict(args []string, stdout, stderr io.Writer) error {
 	noMargin := fs.Bool("no-margin", false, "skip the loss margin (up to ~100 stability tests)")
 	freq := fs.String("frequency", "", "print the response to a sinusoidal reference (CSV, or JSON with --json) at `F1,F2,…` Hz, at N log-spaced frequencies FROM:TO:N, or at the loop's own reference frequencies (reference)")
 	var gains gainFlags
-	fs.Var(&gains, "gain", "print CSV of the prediction over a grid of a controller gain `NAME=START:STOP:N` (scale, or an entry a[i][j], b[i][j], c[i][j], d[i][j] of the controller); give it twice for a 2-D map")
+	fs.Var(&gains, "gain", "print CSV of the prediction over a grid of a controller gain `NAME=START:STOP:N` (scale, an entry a[i][j], b[i][j], c[i][j], d[i][j] of the controller, or a PID gain kp, ki, kd, filter); give it twice for a 2-D map")
 	amp := fs.String("amplitude", "", "with --frequency: the sine's amplitude per output, comma-separated (default: the loop's reference, else 1 on every output)")
 	path, err := parseArgs(fs, args)
 	if err != nil {
