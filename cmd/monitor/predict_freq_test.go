@@ -180,7 +180,7 @@ func TestPredictGain(t *testing.T) {
 		args []string
 		want string
 	}{
-		{[]string{"--gain", "x=0:1:3"}, `want scale or a controller entry`},
+		{[]string{"--gain", "x=0:1:3"}, `want scale, a controller entry`},
 		{[]string{"--gain", "a[1][0]=0:1:3"}, "the controller's a is 1×1"},
 		{[]string{"--gain", "scale=1:0:3"}, "want STOP above START"},
 		{[]string{"--gain", "scale=0:1:3", "--gain", "scale=0:2:3"}, "scale given twice"},
