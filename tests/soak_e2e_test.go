@@ -175,20 +175,21 @@ func TestSoakWrongPredictionFails(t *testing.T) {
 }
 
 // TestSoakSweep plays a sweep soak (profiles/examples/checks/
-// soak-sweep.scenario.yaml): two phases, each one 15 s dwell of the loop's
-// sweep (1 Hz, 3 Hz), each judging the samples taken at its frequency
+// soak-sweep.scenario.yaml): two phases, each one 40 s dwell of the loop's
+// sweep (1 Hz, 3 Hz; 40 s so that the intervals' batches, each at least
+// the network's 3 s quiet dwell, number ten or more), each judging the samples taken at its frequency
 // against the prediction at it (estimate/model.md §15): gain, phase,
 // spread and E[eᵀe] within their intervals widened by 15 %. Both phases
 // must pass on their own frequency's samples, and the report must draw
 // the frequency response.
 func TestSoakSweep(t *testing.T) {
 	if testing.Short() {
-		t.Skip("a 30-second soak")
+		t.Skip("an 80-second soak")
 	}
 	t.Parallel()
 	rep := t.TempDir()
 	dir := filepath.Join("..", "profiles", "examples", "checks")
-	code, out, s := runSoakLoop(t, filepath.Join(dir, "soak-sweep.loop.yaml"), filepath.Join(dir, "soak-sweep.scenario.yaml"), "1", 30*time.Second, rep)
+	code, out, s := runSoakLoop(t, filepath.Join(dir, "soak-sweep.loop.yaml"), filepath.Join(dir, "soak-sweep.scenario.yaml"), "1", 80*time.Second, rep)
 	if code != 0 {
 		t.Fatalf("monitor soak exited %d, want 0:\n%s", code, out)
 	}
@@ -198,8 +199,8 @@ func TestSoakSweep(t *testing.T) {
 	}
 	for i, p := range s.Phases {
 		fr := p.Frequency
-		if fr == nil || fr.FrequencyHz != want[i] || p.Verdict != "pass" || fr.Verdict != "agree" || fr.Samples < 400 {
-			t.Errorf("phase %s: %s (%s); frequency %+v; want passed at %g Hz with ≥ 400 samples", p.Name, p.Verdict, p.Reason, fr, want[i])
+		if fr == nil || fr.FrequencyHz != want[i] || p.Verdict != "pass" || fr.Verdict != "agree" || fr.Samples < 1500 {
+			t.Errorf("phase %s: %s (%s); frequency %+v; want passed at %g Hz with ≥ 1500 samples", p.Name, p.Verdict, p.Reason, fr, want[i])
 		}
 		t.Logf("phase %s: %s; %d samples at other frequencies", p.Name, p.Reason, p.OtherFrequencySamples)
 	}

@@ -37,7 +37,10 @@ import (
 // analysis). The interval is Student's t on k − 1 degrees of freedom:
 // for the gain along Y's direction, for the phase across it (the delta
 // method, |Y| ≫ its standard error), for the variance on the batches'
-// residual mean squares. With fewer than MinFitBatches complete batches
+// mean squared residuals about the whole run's fit (not each batch's own:
+// see batchIntervals). When the batch spreads are serially correlated
+// (von Neumann's test, as the Estimator's) and enough batches remain,
+// pairs are merged once. With fewer than MinFitBatches complete batches
 // the bounds are NaN: the run is too short to tell.
 type HarmonicFit struct {
 	p      int
@@ -95,6 +98,11 @@ type HarmonicOptions struct {
 	// CycleSamples is the number of samples in one cycle of the
 	// frequency, f·h's inverse: the least batch size.
 	CycleSamples float64
+	// MinBatchSamples, when larger, is the least batch size instead: a
+	// time over which the noise's variance itself wanders (a network
+	// state's dwell), which batches must span for their means to be
+	// nearly independent.
+	MinBatchSamples int64
 	// MinBatches (default 20) and Level (default 0.95) as the
 	// Estimator's.
 	MinBatches int
@@ -125,7 +133,7 @@ func NewHarmonicFit(opts HarmonicOptions) (*HarmonicFit, error) {
 		return nil, fmt.Errorf("level: want a probability in (0, 1), got %g", opts.Level)
 	}
 	f := &HarmonicFit{p: opts.Outputs, center: make([]float64, opts.Outputs), minB: opts.MinBatches, level: opts.Level,
-		batch: int64(math.Ceil(opts.CycleSamples - 1e-9)), cur: newHarmSums(opts.Outputs), total: newHarmSums(opts.Outputs)}
+		batch: max(int64(math.Ceil(opts.CycleSamples-1e-9)), opts.MinBatchSamples), cur: newHarmSums(opts.Outputs), total: newHarmSums(opts.Outputs)}
 	copy(f.center, opts.Center)
 	f.done = make([]harmSums, 0, 2*opts.MinBatches)
 	return f, nil
@@ -253,25 +261,64 @@ func (f *HarmonicFit) Result() HarmonicEstimate {
 	for i := range e.PhasorCov {
 		e.PhasorCov[i] = [3]float64{nan, nan, nan}
 	}
-	k := len(f.done)
-	if k < MinFitBatches {
+	if len(f.done) < MinFitBatches {
 		return e
 	}
+	// The pooled coefficients, centred as the sums are.
+	coef := make([][3]float64, p)
+	for i := 0; i < p; i++ {
+		coef[i] = [3]float64{e.Offset[i] - f.center[i], real(e.Phasor[i]), -imag(e.Phasor[i])}
+	}
+	batches := f.done
+	f.batchIntervals(&e, batches, coef)
+	if e.BatchCorrelationZ > BatchCorrelationZMax && len(batches)/2 >= MinFitBatches {
+		// Batches short against the loop's correlation time: pairs of
+		// them, once, as the Estimator does.
+		merged := make([]harmSums, 0, len(batches)/2)
+		for j := 0; j+1 < len(batches); j += 2 {
+			m := newHarmSums(p)
+			m.add(&batches[j])
+			m.add(&batches[j+1])
+			merged = append(merged, m)
+		}
+		e.Batches, e.BatchSize = len(merged), 2*f.batch
+		f.batchIntervals(&e, merged, coef)
+	}
+	return e
+}
+
+// batchIntervals sets e's intervals from complete batches: the phasor's
+// covariance from the batches' own fits (their spread over √k), the
+// spread's from the batches' mean squared residuals about the pooled fit
+// coef (per output: centred offset, cos and sin coefficients). Those
+// residuals keep the slow part of the noise, which a batch's own offset
+// would absorb: judged about its own fit, a batch shorter than the
+// noise's correlation time looks quieter than the run, and the interval
+// would be too narrow.
+func (f *HarmonicFit) batchIntervals(e *HarmonicEstimate, batches []harmSums, coef [][3]float64) {
+	p := f.p
+	k := len(batches)
+	fk := float64(k)
 	off, ph, rms := make([]float64, p), make([]complex128, p), make([]float64, p)
 	phs := make([][]complex128, k)
-	spreads := make([]float64, 0, k)
-	for j := range f.done {
-		if !f.fit(&f.done[j], off, ph, rms) {
-			return e
+	spreads := make([]float64, k)
+	for j := range batches {
+		b := &batches[j]
+		if !f.fit(b, off, ph, rms) {
+			for i := range e.PhasorCov {
+				e.PhasorCov[i] = [3]float64{math.NaN(), math.NaN(), math.NaN()}
+			}
+			e.T, e.SpreadLow, e.SpreadHigh = math.NaN(), math.NaN(), math.NaN()
+			return
 		}
 		phs[j] = append([]complex128(nil), ph...)
-		s := 0.0
-		for _, v := range rms {
-			s += v
+		for i := 0; i < p; i++ {
+			c, a, s := coef[i][0], coef[i][1], coef[i][2]
+			rss := b.yy[i] - 2*(c*b.y[i]+a*b.yc[i]+s*b.ys[i]) +
+				c*c*b.n + a*a*b.cc + s*s*b.ss + 2*(c*a*b.c+c*s*b.s+a*s*b.cs)
+			spreads[j] += math.Max(0, rss) / b.n
 		}
-		spreads = append(spreads, s)
 	}
-	fk := float64(k)
 	e.T = distuv.StudentsT{Mu: 0, Sigma: 1, Nu: fk - 1}.Quantile(1 - (1-f.level)/2)
 	for i := 0; i < p; i++ {
 		var mr, mi float64
@@ -290,12 +337,10 @@ func (f *HarmonicFit) Result() HarmonicEstimate {
 		d := (fk - 1) * fk // sample covariance / k
 		e.PhasorCov[i] = [3]float64{vr / d, vi / d, cv / d}
 	}
-	ms, vs := meanVar(spreads)
+	_, vs := meanVar(spreads)
 	se := math.Sqrt(vs / fk)
-	_ = ms
 	e.SpreadLow, e.SpreadHigh = math.Max(0, e.Spread-e.T*se), e.Spread+e.T*se
 	_, e.BatchCorrelationZ = serialCorrelation(spreads, e.Spread)
-	return e
 }
 
 func meanVar(x []float64) (m, v float64) {
