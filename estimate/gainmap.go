@@ -214,6 +214,7 @@ func GainMapOf(loop *profiles.Loop, params []GainParam, workers int, progress fu
 		workers = runtime.NumCPU()
 	}
 	gm := &GainMap{Params: params, Points: make([]GainPoint, total), Best: -1}
+	rules := newRuleCache() // the network's τ rules, the same at every point
 	var next, done atomic.Int64
 	var wg sync.WaitGroup
 	var mu, pmu sync.Mutex
@@ -228,7 +229,7 @@ func GainMapOf(loop *profiles.Loop, params []GainParam, workers int, progress fu
 					return
 				}
 				vals := gm.valuesAt(k)
-				pt, err := gainPoint(loop, params, vals)
+				pt, err := gainPointWith(loop, params, vals, rules)
 				if err != nil {
 					mu.Lock()
 					if firstErr == nil {
@@ -294,12 +295,17 @@ func withGains(loop *profiles.Loop, params []GainParam, vals []float64) (*profil
 }
 
 func gainPoint(loop *profiles.Loop, params []GainParam, vals []float64) (GainPoint, error) {
+	return gainPointWith(loop, params, vals, nil)
+}
+
+// gainPointWith is gainPoint sharing τ rules through rules (nil: none).
+func gainPointWith(loop *profiles.Loop, params []GainParam, vals []float64, rules *ruleCache) (GainPoint, error) {
 	pt := GainPoint{Values: vals, SecondMoment: math.NaN()}
 	l, err := withGains(loop, params, vals)
 	if err != nil {
 		return pt, err
 	}
-	md, err := Build(l, Options{})
+	md, err := Build(l, Options{rules: rules})
 	if err != nil {
 		return pt, err
 	}

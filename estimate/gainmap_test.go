@@ -228,3 +228,24 @@ func TestGainMapPIDGains(t *testing.T) {
 		t.Error("kp of a state-space controller accepted")
 	}
 }
+
+// BenchmarkGainMap100 is the 100 × 100 gain map of a 4-state loop (the
+// servo: two plant states, the held input, one controller state) over
+// burst channels in both directions: issue 18's aim is under 30 s on 2
+// cores (it reports; it does not time).
+func BenchmarkGainMap100(b *testing.B) {
+	loop := harmonicLoops()["servo, burst"]
+	p1, err := ParseGainParam("d[0][0]=2:30:100", loop)
+	if err != nil {
+		b.Fatal(err)
+	}
+	p2, err := ParseGainParam("c[0][0]=0.5:10:100", loop)
+	if err != nil {
+		b.Fatal(err)
+	}
+	for b.Loop() {
+		if _, err := GainMapOf(loop, []GainParam{p1, p2}, 0, nil); err != nil {
+			b.Fatal(err)
+		}
+	}
+}

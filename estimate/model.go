@@ -3,6 +3,7 @@ package estimate
 import (
 	"fmt"
 	"math"
+	"sync"
 
 	"gonum.org/v1/gonum/mat"
 
@@ -20,6 +21,43 @@ type Options struct {
 	// DelayScale multiplies every network delay (not the compute delay);
 	// 0 means 1.
 	DelayScale float64
+	// rules, when set, shares the quadrature rules over τ between models
+	// of the same loop and network that differ in the controller only
+	// (a gain map): the rule of a joint state depends on the delay laws,
+	// the period, the compute delay's floor and the plant's sampling
+	// (its degree), never on the controller.
+	rules *ruleCache
+}
+
+// ruleCache holds τ rules by joint state and degree.
+type ruleCache struct {
+	mu sync.Mutex
+	m  map[[3]int][]tauNode
+}
+
+func newRuleCache() *ruleCache { return &ruleCache{m: map[[3]int][]tauNode{}} }
+
+// rule returns the cached rule of state (i, j) at degree deg, or
+// computes and keeps it.
+func (c *ruleCache) rule(i, j, deg int, compute func() ([]tauNode, error)) ([]tauNode, error) {
+	if c == nil {
+		return compute()
+	}
+	key := [3]int{i, j, deg}
+	c.mu.Lock()
+	nodes, ok := c.m[key]
+	c.mu.Unlock()
+	if ok {
+		return nodes, nil
+	}
+	nodes, err := compute()
+	if err != nil {
+		return nil, err
+	}
+	c.mu.Lock()
+	c.m[key] = nodes
+	c.mu.Unlock()
+	return nodes, nil
 }
 
 // Model is a loop as a Markov jump linear system (estimate/model.md §3–§4): the
@@ -174,7 +212,7 @@ func (md *Model) buildModes() (*Model, error) {
 			}
 			js.baseSC, js.baseCA = s.Loss, a.Loss
 			js.OnTimeSC = laws.ProbBelow(dsc, h)
-			if js.nodes, err = tauRule(dsc, dca, h, c0, deg); err != nil {
+			if js.nodes, err = opts.rules.rule(i, j, deg, func() ([]tauNode, error) { return tauRule(dsc, dca, h, c0, deg) }); err != nil {
 				return nil, fmt.Errorf("network state %s: %w", js.Name, err)
 			}
 			for _, nd := range js.nodes {
