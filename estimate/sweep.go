@@ -3,6 +3,9 @@ package estimate
 import (
 	"fmt"
 	"math"
+	"runtime"
+	"sync"
+	"sync/atomic"
 
 	"rigwire/profiles"
 )
@@ -41,52 +44,82 @@ type SweepResult struct {
 }
 
 // Sweep predicts the loop at each value of the parameter (SweepLoss or
-// SweepDelayScale). For loss one model is built and only its mode
-// probabilities change (they are all the extra loss touches); a delay
-// scale changes the delay laws, so each value is a new model.
+// SweepDelayScale), the values spread over every core. For loss each
+// worker builds one model and only its mode probabilities change (they
+// are all the extra loss touches); a delay scale changes the delay laws,
+// so each value is a new model.
 func Sweep(loop *profiles.Loop, param string, values []float64) (*SweepResult, error) {
-	res := &SweepResult{Param: param, Boundary: math.NaN()}
-	var base *Model
-	at := func(v float64) (*Model, error) {
-		switch param {
-		case SweepLoss:
-			if !(v >= 0 && v <= 1) {
-				return nil, fmt.Errorf("loss: want values in [0, 1], got %g", v)
-			}
-			if base == nil {
-				var err error
-				if base, err = Build(loop, Options{}); err != nil {
-					return nil, err
+	res := &SweepResult{Param: param, Boundary: math.NaN(), Points: make([]SweepPoint, len(values))}
+	// at returns the model at v: for loss one model per worker, whose
+	// mode probabilities change (all the extra loss touches); a delay
+	// scale changes the delay laws, so each value is a new model.
+	newAt := func() func(float64) (*Model, error) {
+		var base *Model
+		return func(v float64) (*Model, error) {
+			switch param {
+			case SweepLoss:
+				if !(v >= 0 && v <= 1) {
+					return nil, fmt.Errorf("loss: want values in [0, 1], got %g", v)
 				}
+				if base == nil {
+					var err error
+					if base, err = Build(loop, Options{}); err != nil {
+						return nil, err
+					}
+				}
+				base.setLoss(v)
+				return base, nil
+			case SweepDelayScale:
+				if !(v > 0) {
+					return nil, fmt.Errorf("delay_scale: want values > 0, got %g", v)
+				}
+				return Build(loop, Options{DelayScale: v})
 			}
-			base.setLoss(v)
-			return base, nil
-		case SweepDelayScale:
-			if !(v > 0) {
-				return nil, fmt.Errorf("delay_scale: want values > 0, got %g", v)
-			}
-			return Build(loop, Options{DelayScale: v})
+			return nil, fmt.Errorf("unknown parameter %q: want %s or %s", param, SweepLoss, SweepDelayScale)
 		}
-		return nil, fmt.Errorf("unknown parameter %q: want %s or %s", param, SweepLoss, SweepDelayScale)
 	}
-	for _, v := range values {
-		md, err := at(v)
+	// The values on every core, each worker with its own model.
+	var next atomic.Int64
+	var wg sync.WaitGroup
+	errs := make([]error, len(values))
+	for range min(runtime.NumCPU(), len(values)) {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			at := newAt()
+			for {
+				k := int(next.Add(1) - 1)
+				if k >= len(values) {
+					return
+				}
+				v := values[k]
+				md, err := at(v)
+				if err != nil {
+					errs[k] = err
+					continue
+				}
+				rad := md.Radius()
+				pt := SweepPoint{Value: v, SecondMoment: math.NaN(), SpectralRadius: rad.Value,
+					RadiusError: rad.Error, Stability: rad.Stability}
+				if rad.Stability == StabilityStable {
+					if mo, err := md.Steady(); err == nil {
+						pt.MeanSquareStable = true
+						pt.SecondMoment = md.Error(mo).SecondMoment
+					} else {
+						pt.Stability = StabilityMarginal
+					}
+				}
+				res.Points[k] = pt
+			}
+		}()
+	}
+	wg.Wait()
+	for _, err := range errs {
 		if err != nil {
 			return nil, err
 		}
-		rad := md.Radius()
-		pt := SweepPoint{Value: v, SecondMoment: math.NaN(), SpectralRadius: rad.Value,
-			RadiusError: rad.Error, Stability: rad.Stability}
-		if rad.Stability == StabilityStable {
-			if mo, err := md.Steady(); err == nil {
-				pt.MeanSquareStable = true
-				pt.SecondMoment = md.Error(mo).SecondMoment
-			} else {
-				pt.Stability = StabilityMarginal
-			}
-		}
-		res.Points = append(res.Points, pt)
 	}
+	at := newAt()
 	for i, pt := range res.Points {
 		if pt.MeanSquareStable {
 			continue
