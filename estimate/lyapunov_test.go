@@ -202,3 +202,42 @@ func TestSecondMomentNotConverging(t *testing.T) {
 		}
 	}
 }
+
+// TestCertificateReuse: the certificate the stability test solves for at
+// one extra loss proves stability at a nearby stable loss, and never at
+// an unstable one (the scalar deadbeat loop with the holding actuator,
+// whose threshold 1/(a(2a+1)) is closedform_test.go's); the loss margin
+// that reuses certificates is that threshold's margin to 1e-4.
+func TestCertificateReuse(t *testing.T) {
+	const a = 1.5
+	loop := scalarDeadbeat(a, 0.01, profile(iidChannel(0, nil), nil), profiles.HoldLast)
+	md, err := Build(loop, Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	// The extra loss q falls on samples and commands alike: with a static
+	// controller the delivery probability is (1 − q)², so the critical
+	// sample loss ℓ* = 1/(a(2a+1)) is reached at q* = 1 − √(1 − ℓ*).
+	thr := 1 - math.Sqrt(1-1/(a*(2*a+1)))
+	md.setLoss(0.5 * thr)
+	ok, cert := md.meanSquareStableFrom(nil)
+	if !ok || cert == nil {
+		t.Fatalf("stable at half the threshold: %v, certificate %v", ok, cert != nil)
+	}
+	md.setLoss(0.505 * thr)
+	ly := newLyapunov(md.SecondMomentOperator(), md.lm.nz, md.nStates())
+	if !ly.certifies(cert) {
+		t.Error("the certificate of 0.5× the threshold does not hold at 0.505×")
+	}
+	for _, f := range []float64{1.001, 1.1, 2} {
+		md.setLoss(f * thr)
+		ly := newLyapunov(md.SecondMomentOperator(), md.lm.nz, md.nStates())
+		if ly.certifies(cert) {
+			t.Errorf("a certificate proved stability at %g× the threshold", f)
+		}
+	}
+	md.setLoss(0)
+	if m := md.LossMargin(); math.Abs(m-thr) > 1e-4 {
+		t.Errorf("loss margin %.6f, threshold %.6f", m, thr)
+	}
+}

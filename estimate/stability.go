@@ -388,6 +388,83 @@ func (md *Model) Radius() Radius {
 // SpectralRadius is Radius().Value.
 func (md *Model) SpectralRadius() float64 { return md.Radius().Value }
 
+// certifies reports whether x (the stacked svec(X_j) of a solution at
+// another operating point) is a Lyapunov certificate for this operator:
+// every block X_j and every block of X − ℒ(X) positive definite beyond
+// the rounding of computing them. For a positive operator such an X
+// proves ρ(ℒ) < 1 (Costa, Fragoso and Marques 2005, Theorem 3.9, from
+// memory), the same certificate the test at s = 1 finds (X − ℒ(X) = I,
+// X ≽ I), only not solved for. ℒ(X) is summed in double-double, as the
+// residual is (Ogita, Rump and Oishi's Dot2): entry i of X − ℒ(X) is off
+// by at most 4ε(|x_i| + |ℒ(X)_i|) + nε²Σ_k|ℒ_ik x_k|, and a block's
+// smallest eigenvalue by at most the Frobenius norm of its entries'
+// errors (Weyl) plus the eigensolver's own nz·ε·‖block‖; the test asks
+// for twice that.
+func (ly *lyapunov) certifies(x []float64) bool {
+	if len(x) != ly.n {
+		return false
+	}
+	raw := ly.op.RawMatrix()
+	r := make([]float64, ly.n)
+	bound := make([]float64, ly.n)
+	for i := 0; i < ly.n; i++ {
+		row := raw.Data[i*raw.Stride : i*raw.Stride+ly.n]
+		hi, lo := dot2(row, x)
+		r[i] = (x[i] - hi) - lo
+		abs := 0.0
+		for k, v := range row {
+			abs += math.Abs(v * x[k])
+		}
+		bound[i] = 4*epsilon*(math.Abs(x[i])+math.Abs(hi)) + float64(ly.n)*epsilon*epsilon*abs
+		if math.IsNaN(r[i]) || math.IsInf(r[i], 0) {
+			return false
+		}
+	}
+	d := ly.nz * (ly.nz + 1) / 2
+	var es mat.EigenSym
+	for j := 0; j < ly.states; j++ {
+		errF := 0.0
+		for _, b := range bound[j*d : (j+1)*d] {
+			errF += 2 * b * b // an off-diagonal entry appears twice
+		}
+		for k, blk := range [][]float64{x[j*d : (j+1)*d], r[j*d : (j+1)*d]} {
+			m := unsvec(blk, ly.nz)
+			if !es.Factorize(m, false) {
+				return false
+			}
+			v := es.Values(nil)
+			tol := float64(ly.nz) * epsilon * math.Max(math.Abs(v[0]), math.Abs(v[len(v)-1]))
+			if k == 1 {
+				tol += math.Sqrt(errF)
+			}
+			if !(v[0] > 2*tol) {
+				return false
+			}
+		}
+	}
+	return true
+}
+
+// meanSquareStableFrom is MeanSquareStable trying prev, a certificate
+// found at a nearby operating point, before solving for one; it returns
+// the certificate that decided (nil when none: not stable, or ‖ℒ‖∞ < 1).
+func (md *Model) meanSquareStableFrom(prev []float64) (bool, []float64) {
+	if md.buildErr != nil {
+		return false, nil
+	}
+	ly := newLyapunov(md.SecondMomentOperator(), md.lm.nz, md.nStates())
+	if ly.norm < 1 {
+		return true, nil
+	}
+	if prev != nil && ly.certifies(prev) {
+		return true, prev
+	}
+	if ly.test(1) == aboveRho {
+		return true, append([]float64(nil), ly.x.RawVector().Data...)
+	}
+	return false, nil
+}
+
 // MeanSquareStable reports whether the loop is certified mean-square
 // stable: ‖L‖∞ < 1, or the test at s = 1 finds a positive definite
 // solution of X − ℒ(X) = I within its error bound (a Lyapunov
