@@ -2,6 +2,8 @@ package estimate
 
 import (
 	"gonum.org/v1/gonum/mat"
+
+	"rigwire/profiles"
 )
 
 // Sampled is the zero-order-hold sampling of dx = (A x + B u) dt + dw,
@@ -31,18 +33,7 @@ func Discretize(a, b, w *mat.Dense, h float64) *Sampled {
 	phi, gamma := zohPair(a, b, h)
 	wd := mat.NewDense(n, n, nil)
 	if w != nil && !isZero(w) {
-		big := mat.NewDense(2*n, 2*n, nil)
-		for i := 0; i < n; i++ {
-			for j := 0; j < n; j++ {
-				big.Set(i, j, -a.At(i, j)*h)
-				big.Set(i, n+j, w.At(i, j)*h)
-				big.Set(n+i, n+j, a.At(j, i)*h)
-			}
-		}
-		var e mat.Dense
-		e.Exp(big)
-		g := e.Slice(0, n, n, 2*n)
-		wd.Mul(phi, g)
+		wd = profiles.SampledNoise(a, w, h)
 		symmetrize(wd)
 	}
 	return &Sampled{H: h, A: a, B: b, Phi: phi, Gamma: gamma, Wd: wd}

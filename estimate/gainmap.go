@@ -310,16 +310,9 @@ func gainPointWith(loop *profiles.Loop, params []GainParam, vals []float64, rule
 		return pt, err
 	}
 	pt.NominalStable = md.nominalStable()
-	rad := md.Radius()
-	pt.SpectralRadius, pt.RadiusError, pt.Stability = rad.Value, rad.Error, rad.Stability
-	if rad.Stability == StabilityStable {
-		if mo, err := md.Steady(); err == nil {
-			pt.MeanSquareStable = true
-			pt.SecondMoment = md.Error(mo).SecondMoment
-		} else {
-			pt.Stability = StabilityMarginal
-		}
-	}
+	var rad Radius
+	rad, pt.Stability, pt.MeanSquareStable, pt.SecondMoment = md.radiusAndMoment()
+	pt.SpectralRadius, pt.RadiusError = rad.Value, rad.Error
 	return pt, nil
 }
 
@@ -415,4 +408,20 @@ func (lm *loopMatrices) nominalLoop() (A, B *mat.Dense) {
 		setBlock(B, n, 0, lm.bc, 1)
 	}
 	return A, B
+}
+
+// radiusAndMoment is what a sweep or a map reports at one point: the
+// radius, the stability (marginal when the radius said stable but the
+// steady moments cannot be had), and the steady E[eᵀe] (NaN when not
+// mean-square stable).
+func (md *Model) radiusAndMoment() (rad Radius, stability string, stable bool, second float64) {
+	rad = md.Radius()
+	stability, second = rad.Stability, math.NaN()
+	if rad.Stability == StabilityStable {
+		if mo, err := md.Steady(); err == nil {
+			return rad, stability, true, md.Error(mo).SecondMoment
+		}
+		stability = StabilityMarginal
+	}
+	return rad, stability, false, second
 }

@@ -98,17 +98,10 @@ func Sweep(loop *profiles.Loop, param string, values []float64) (*SweepResult, e
 					errs[k] = err
 					continue
 				}
-				rad := md.Radius()
-				pt := SweepPoint{Value: v, SecondMoment: math.NaN(), SpectralRadius: rad.Value,
-					RadiusError: rad.Error, Stability: rad.Stability}
-				if rad.Stability == StabilityStable {
-					if mo, err := md.Steady(); err == nil {
-						pt.MeanSquareStable = true
-						pt.SecondMoment = md.Error(mo).SecondMoment
-					} else {
-						pt.Stability = StabilityMarginal
-					}
-				}
+				pt := SweepPoint{Value: v}
+				var rad Radius
+				rad, pt.Stability, pt.MeanSquareStable, pt.SecondMoment = md.radiusAndMoment()
+				pt.SpectralRadius, pt.RadiusError = rad.Value, rad.Error
 				res.Points[k] = pt
 			}
 		}()

@@ -342,7 +342,7 @@ func noiseFromDiscrete(a, wd *mat.Dense, h float64) (*mat.Dense, error) {
 		e := mat.NewDense(n, n, nil)
 		e.Set(ij[0], ij[1], 1)
 		e.Set(ij[1], ij[0], 1)
-		col := vanLoan(a, e, h)
+		col := SampledNoise(a, e, h)
 		for r, rs := range idx {
 			M.Set(r, c, col.At(rs[0], rs[1]))
 		}
@@ -363,9 +363,13 @@ func noiseFromDiscrete(a, wd *mat.Dense, h float64) (*mat.Dense, error) {
 	return w, nil
 }
 
-// vanLoan is ∫₀ʰ e^{As} W e^{Aᵀs} ds (C. F. Van Loan, IEEE TAC 23(3),
-// 1978): exp([[−A, W], [0, Aᵀ]] h) = [[·, G], [0, Φᵀ]], the integral Φ G.
-func vanLoan(a, w *mat.Dense, h float64) *mat.Dense {
+// SampledNoise is ∫₀ʰ e^{As} W e^{Aᵀs} ds, the covariance a period adds
+// to the state of dx = A x dt + dw with E[dw dwᵀ] = W dt (C. F. Van Loan,
+// "Computing integrals involving the matrix exponential", IEEE TAC
+// 23(3), 1978, Theorem 1): exp([[−A, W], [0, Aᵀ]] h) = [[·, G], [0, Φᵀ]],
+// the integral Φ G. The loader needs it for a plant given at the period;
+// the prediction's sampling (estimate.Discretize) uses it too.
+func SampledNoise(a, w *mat.Dense, h float64) *mat.Dense {
 	n, _ := a.Dims()
 	big := mat.NewDense(2*n, 2*n, nil)
 	for i := 0; i < n; i++ {

@@ -318,19 +318,14 @@ func isJSONNumber(b []byte) bool {
 	case i < len(b) && b[i] == '0':
 		i++
 	case i < len(b) && b[i] >= '1' && b[i] <= '9':
-		for i < len(b) && b[i] >= '0' && b[i] <= '9' {
-			i++
-		}
+		i = digitsFrom(b, i)
 	default:
 		return false
 	}
 	if i < len(b) && b[i] == '.' {
-		i++
-		d := i
-		for i < len(b) && b[i] >= '0' && b[i] <= '9' {
-			i++
-		}
-		if i == d {
+		if j := digitsFrom(b, i+1); j > i+1 {
+			i = j
+		} else {
 			return false
 		}
 	}
@@ -339,15 +334,21 @@ func isJSONNumber(b []byte) bool {
 		if i < len(b) && (b[i] == '+' || b[i] == '-') {
 			i++
 		}
-		d := i
-		for i < len(b) && b[i] >= '0' && b[i] <= '9' {
-			i++
-		}
-		if i == d {
+		if j := digitsFrom(b, i); j > i {
+			i = j
+		} else {
 			return false
 		}
 	}
 	return i == len(b)
+}
+
+// digitsFrom returns the index after the decimal digits from b[i].
+func digitsFrom(b []byte, i int) int {
+	for i < len(b) && b[i] >= '0' && b[i] <= '9' {
+		i++
+	}
+	return i
 }
 
 // jsonFloat reads the number at the field's pointer: ErrBadJSON when it
