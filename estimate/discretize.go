@@ -42,31 +42,7 @@ func Discretize(a, b, w *mat.Dense, h float64) *Sampled {
 // zohPair returns e^{At} and ∫₀ᵗ e^{As} ds B from one exponential of the
 // block matrix [[A, B], [0, 0]] t (Van Loan 1978, §2; Åström–Wittenmark,
 // Computer-Controlled Systems, 3rd ed., §2.3). t = 0 gives (I, 0).
-func zohPair(a, b *mat.Dense, t float64) (phi, gamma *mat.Dense) {
-	n, m := b.Dims()
-	phi = mat.NewDense(n, n, nil)
-	gamma = mat.NewDense(n, m, nil)
-	if t == 0 {
-		for i := 0; i < n; i++ {
-			phi.Set(i, i, 1)
-		}
-		return phi, gamma
-	}
-	big := mat.NewDense(n+m, n+m, nil)
-	for i := 0; i < n; i++ {
-		for j := 0; j < n; j++ {
-			big.Set(i, j, a.At(i, j)*t)
-		}
-		for j := 0; j < m; j++ {
-			big.Set(i, n+j, b.At(i, j)*t)
-		}
-	}
-	var e mat.Dense
-	e.Exp(big)
-	phi.Copy(e.Slice(0, n, 0, n))
-	gamma.Copy(e.Slice(0, n, n, n+m))
-	return phi, gamma
-}
+func zohPair(a, b *mat.Dense, t float64) (phi, gamma *mat.Dense) { return profiles.SampleHeld(a, b, t) }
 
 // Split returns the two parts of Γ for an input that changes at τ into the
 // period (0 ≤ τ ≤ h): the new input acts over the last h − τ, the old one

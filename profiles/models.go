@@ -131,7 +131,7 @@ func (p PID) Discrete(h float64) (A, B, C, D *mat.Dense, err error) {
 		if ac == nil {
 			return nil, nil, nil, mat.NewDense(1, 1, []float64{dc}), nil
 		}
-		phi, gam := zoh(ac, bc, h)
+		phi, gam := SampleHeld(ac, bc, h)
 		return phi, gam, cc, mat.NewDense(1, 1, []float64{dc}), nil
 	}
 	var N, Dz []float64 // s = N(z)/Dz(z)
@@ -189,10 +189,20 @@ func trimSmall(p []float64) []float64 {
 	return p
 }
 
-// zoh samples dx = (A x + B u) dt with u held over h: (e^{Ah},
-// ∫₀ʰ e^{As} ds B), one exponential of [[A, B], [0, 0]] h.
-func zoh(a, b *mat.Dense, h float64) (phi, gam *mat.Dense) {
+// SampleHeld samples dx = (A x + B u) dt with u held over t: (e^{At},
+// ∫₀ᵗ e^{As} ds B), one exponential of the block matrix [[A, B], [0, 0]] t
+// (Van Loan 1978, §2; t = 0 gives (I, 0)). The prediction samples the
+// plant with it (estimate.Discretize); the loader, a PID by zoh.
+func SampleHeld(a, b *mat.Dense, t float64) (phi, gam *mat.Dense) {
 	n, m := b.Dims()
+	if t == 0 {
+		phi = mat.NewDense(n, n, nil)
+		for i := 0; i < n; i++ {
+			phi.Set(i, i, 1)
+		}
+		return phi, mat.NewDense(n, m, nil)
+	}
+	h := t
 	big := mat.NewDense(n+m, n+m, nil)
 	for i := 0; i < n; i++ {
 		for j := 0; j < n; j++ {
