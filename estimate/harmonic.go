@@ -127,6 +127,13 @@ var ErrNoReferenceAmplitude = errors.New("reference: want at least one amplitude
 // stable. At frequency 0 the reference is the constant setpoint +
 // Re(R): the moments are Steady's for that setpoint.
 func (md *Model) FrequencyResponse(ref profiles.Reference, freqs []float64) ([]Harmonic, error) {
+	return md.FrequencyResponseProgress(ref, freqs, nil)
+}
+
+// FrequencyResponseProgress is FrequencyResponse calling progress (when
+// set) after each frequency: a large loop's second-moment systems are
+// solved twice per frequency, seconds each.
+func (md *Model) FrequencyResponseProgress(ref profiles.Reference, freqs []float64, progress func(done, total int)) ([]Harmonic, error) {
 	_, _, p, _ := md.Loop.Dims()
 	if len(ref.Amplitude) != p || len(ref.Phase) != p {
 		return nil, fmt.Errorf("reference: want %d amplitudes and phases, got %d and %d", p, len(ref.Amplitude), len(ref.Phase))
@@ -162,6 +169,9 @@ func (md *Model) FrequencyResponse(ref profiles.Reference, freqs []float64) ([]H
 			return nil, fmt.Errorf("frequency %g Hz: %w", f, err)
 		}
 		out = append(out, h)
+		if progress != nil {
+			progress(len(out), len(freqs))
+		}
 	}
 	return out, nil
 }

@@ -112,7 +112,7 @@ func cmdPredict(args []string, stdout, stderr io.Writer) error {
 	case len(gains) > 0:
 		return predictGains(loop, gains, *plotFile, stdout, stderr)
 	case *freq != "":
-		return predictFrequency(loop, *freq, *amp, *asJSON, *plotFile, stdout)
+		return predictFrequency(loop, *freq, *amp, *asJSON, *plotFile, stdout, stderr)
 	case *vary != "":
 		return predictSweep(loop, param, values, *plotFile, stdout, stderr)
 	case *step != 0:

@@ -4,6 +4,7 @@ import (
 	"errors"
 	"fmt"
 	"io"
+	"time"
 
 	"rigwire/cmd/internal/cli"
 	"rigwire/cmd/internal/exitcode"
@@ -14,7 +15,7 @@ import (
 
 // predictFrequency prints the loop's periodic steady state under a
 // sinusoidal reference at each frequency (estimate/model.md §15).
-func predictFrequency(loop *profiles.Loop, spec, amp string, asJSON bool, plotFile string, stdout io.Writer) error {
+func predictFrequency(loop *profiles.Loop, spec, amp string, asJSON bool, plotFile string, stdout, stderr io.Writer) error {
 	freqs, err := parseFrequencies(spec, loop)
 	if err != nil {
 		return err
@@ -43,7 +44,16 @@ func predictFrequency(loop *profiles.Loop, spec, amp string, asJSON bool, plotFi
 	if err != nil {
 		return cli.BadInput(fmt.Errorf("%s: %w", loop.File, err))
 	}
-	hs, err := md.FrequencyResponse(ref, freqs)
+	start := time.Now()
+	last := start
+	hs, err := md.FrequencyResponseProgress(ref, freqs, func(done, total int) {
+		now := time.Now()
+		if now.Sub(start) < progressAfter || now.Sub(last) < progressEvery || done == total {
+			return
+		}
+		last = now
+		fmt.Fprintf(stderr, "monitor predict: frequency response: %d of %d frequencies, %s so far\n", done, total, now.Sub(start).Round(time.Second))
+	})
 	if errors.Is(err, estimate.ErrNotStable) {
 		rad := md.Radius()
 		return cli.Exit{Code: exitcode.NotStable, Msg: fmt.Sprintf("%s: %s (spectral radius %.6g ± %.2g): the error's second moment has no periodic steady state under any reference, so there is no response to give",
