@@ -255,6 +255,7 @@ func (ly *lyapunov) inverseIterate() float64 {
 	s := ly.luAt
 	ly.y.CopyVec(ly.x)
 	est := math.NaN()
+	var d1, d2 float64 // the last two changes of the estimate
 	for k := 0; k < inverseSteps; k++ {
 		ny := mat.Norm(ly.y, math.Inf(1))
 		if !(ny > 0) || math.IsInf(ny, 0) {
@@ -275,6 +276,16 @@ func (ly *lyapunov) inverseIterate() float64 {
 		ly.y.CopyVec(ly.r)
 		if math.Abs(next-est) <= 4*epsilon*s {
 			return next
+		}
+		d2, d1 = d1, next-est
+		// Slow geometric convergence (the shift far from ρ, or a second
+		// eigenvalue close to it): after a dozen steps return Aitken's
+		// extrapolation of the sequence. The estimate only places the
+		// next test point, whose side of ρ that test certifies.
+		if k >= 12 && d2 != 0 && !math.IsNaN(d1) {
+			if r := d1 / d2; r > 0.5 && r < 1 {
+				return next + d1*r/(1-r)
+			}
 		}
 		est = next
 	}
