@@ -1,9 +1,9 @@
 package profiles
 
 import (
-	"fmt"
 	"math"
 
+	"rigwire/profiles/laws"
 	"rigwire/profiles/yamlpos"
 )
 
@@ -216,7 +216,7 @@ func parseReference(f yamlpos.Field, l *Loop, p int) error {
 		for i, fr := range r.Frequencies {
 			if fr*fit < 2 {
 				return f.Errorf("frequency %g Hz (%d of the sweep): want at least two cycles in the %s of each dwell after settling, got %.3g; lengthen dwell",
-					fr, i+1, fmtSeconds(fit), fr*fit)
+					fr, i+1, laws.FormatSeconds(fit), fr*fit)
 			}
 		}
 	}
@@ -292,5 +292,3 @@ func LogSpaced(lo, hi float64, n int) []float64 {
 	out[0], out[n-1] = lo, hi
 	return out
 }
-
-func fmtSeconds(s float64) string { return fmt.Sprintf("%gs", math.Round(s*1e6)/1e6) }
