@@ -79,9 +79,11 @@ func TestCalibrationEndToEnd(t *testing.T) {
 
 	// 2. Three minutes through the impaired link.
 	record, ctlLog := filepath.Join(dir, "record.csv"), filepath.Join(dir, "controller.csv")
+	relayMetrics := freePort(t, "tcp")
 	r := startRigOpts(t, calPath, 3*time.Minute, "15", rigOpts{monitor: true,
-		ctlArgs:   []string{"--compute", jitteryController, "--seed", "5", "--log", ctlLog, "--cautions-read"},
-		relayArgs: []string{"--loop", calPath, "--record", record, "--sample-clock", "monotonic"}})
+		ctlArgs:     []string{"--compute", jitteryController, "--seed", "5", "--log", ctlLog, "--cautions-read"},
+		relayArgs:   []string{"--loop", calPath, "--record", record, "--sample-clock", "monotonic", "--metrics", relayMetrics},
+		monitorArgs: []string{"--relay-metrics", relayMetrics}})
 	var s struct {
 		Samples   int      `json:"samples"`
 		Measured  *float64 `json:"error_second_moment"`
@@ -91,6 +93,14 @@ func TestCalibrationEndToEnd(t *testing.T) {
 		Verdict   string   `json:"verdict"`
 		Reason    string   `json:"verdict_reason"`
 		Tolerance float64  `json:"tolerance"`
+		// monitor run's reading of the relay's turnaround histogram.
+		Turnaround *struct {
+			Commands int     `json:"commands"`
+			Mean     float64 `json:"mean_seconds"`
+			Binned   bool    `json:"binned"`
+			Agrees   bool    `json:"agrees"`
+			KS       float64 `json:"ks_statistic"`
+		} `json:"controller_turnaround"`
 	}
 	b, err := os.ReadFile(r.summary)
 	if err != nil {
@@ -173,6 +183,25 @@ func TestCalibrationEndToEnd(t *testing.T) {
 		laws.FormatSeconds(hops[len(hops)/2]), laws.FormatSeconds(hops[len(hops)*99/100]), d, p)
 	if p < 0.001 {
 		t.Errorf("the relay's turnarounds against the controller's computing times plus independent hops: KS D = %.4f, p = %.3g", d, p)
+	}
+
+	// monitor run --relay-metrics read the relay's histogram of the same
+	// turnarounds (every 10 s: its last reading may miss the run's last
+	// seconds) and compared it with the calibrated law; the verdict is
+	// logged, not judged (the law was fitted on another run of the rig).
+	tr := s.Turnaround
+	if tr == nil {
+		t.Fatalf("summary: no controller_turnaround from --relay-metrics\n%s", b)
+	}
+	mean := 0.0
+	for _, x := range turns {
+		mean += x / float64(len(turns))
+	}
+	t.Logf("monitor run's reading of the relay's histogram: %d commands, mean %s (record: %d, %s), agrees %v (D = %.4f at the buckets' bounds)",
+		tr.Commands, laws.FormatSeconds(tr.Mean), len(turns), laws.FormatSeconds(mean), tr.Agrees, tr.KS)
+	if !tr.Binned || tr.Commands < len(turns)*9/10 || tr.Commands > len(turns)*11/10 || math.Abs(tr.Mean/mean-1) > 0.05 {
+		t.Errorf("controller_turnaround: %d commands of mean %s, want the record's %d of mean %s (within the last 10 s and 5 %%)",
+			tr.Commands, laws.FormatSeconds(tr.Mean), len(turns), laws.FormatSeconds(mean))
 	}
 }
 

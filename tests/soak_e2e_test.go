@@ -32,6 +32,12 @@ type soakResult struct {
 		OtherFrequencySamples int64 `json:"other_frequency_samples"`
 	} `json:"phases"`
 	AfterTripSamples int64 `json:"after_trip_samples"`
+	// Turnaround is the controller's turnaround the soak's relay paired
+	// and compared with the loop's compute law.
+	Turnaround *struct {
+		Commands int  `json:"commands"`
+		Binned   bool `json:"binned"`
+	} `json:"controller_turnaround"`
 	Trip             *struct {
 		Reason   string  `json:"reason"`
 		Sequence *uint64 `json:"sequence"`
@@ -115,10 +121,15 @@ func TestSoakPasses(t *testing.T) {
 	if a, b := s.Phases[0].Predicted, s.Phases[1].Predicted; a == nil || b == nil || !(*b > *a*1.05) {
 		t.Errorf("degrading predicted %v, nominal %v: want the ramp to raise it", b, a)
 	}
-	for _, w := range []string{"phase 2/3 degrading", "report:"} {
+	for _, w := range []string{"phase 2/3 degrading", "report:", "controller turnaround (relay → controller → relay)"} {
 		if !strings.Contains(out, w) {
 			t.Errorf("soak output lacks %q:\n%s", w, out)
 		}
+	}
+	// The loop says where commands carry their sample's number: the summary
+	// has the turnarounds of (nearly) every command, measured one by one.
+	if tr := s.Turnaround; tr == nil || tr.Binned || tr.Commands < 5000 {
+		t.Errorf("controller_turnaround %+v: want every command's turnaround (over 5000), not binned", tr)
 	}
 	for _, f := range []string{"report.html", "second-moment.png", "phases.png", "ratio.png"} {
 		path := filepath.Join(rep, f)

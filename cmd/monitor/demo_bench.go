@@ -13,6 +13,7 @@ import (
 	ebench "rigwire/emulate/bench"
 	"rigwire/emulate/endpoint"
 	"rigwire/emulate/trip"
+	"rigwire/estimate/engine"
 	"rigwire/profiles"
 )
 
@@ -76,19 +77,18 @@ func openBench(cfg benchConfig) (*bench, error) {
 }
 
 // reportTurnaround logs the controller's turnaround the relay measured
-// beside the compute law the prediction assumes (ebench.TurnaroundReport),
-// as a warning when the two differ; nothing when the loop does not let the
-// relay pair commands with samples.
-func reportTurnaround(b *bench, log *slog.Logger) {
-	r := b.Turnaround()
-	if r == nil {
-		return
-	}
-	if r.Agree {
+// beside the compute law the prediction assumes (engine.Turnaround), as a
+// warning when the two differ, and returns it for the summary; nothing
+// when the relay did not pair commands with samples.
+func reportTurnaround(r *engine.Turnaround, log *slog.Logger) *engine.Turnaround {
+	switch {
+	case r == nil:
+	case r.Agree:
 		log.Info(r.String())
-		return
+	default:
+		log.Warn(r.String() + ": the prediction assumes another timing than the rig has; measure it with monitor calibrate and point compute_delay at the file it writes")
 	}
-	log.Warn(r.String() + ": the prediction assumes another timing than the rig has; measure it with monitor calibrate and point compute_delay at the file it writes")
+	return r
 }
 
 // badInput makes the bench's input errors (the loop, the profile, the

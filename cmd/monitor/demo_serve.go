@@ -75,8 +75,8 @@ func cmdServe(args []string, stdout, stderr io.Writer) error {
 	if err := b.run(ctx, stderr, *bf.every); err != nil {
 		return err
 	}
-	reportTurnaround(b, log)
 	s := b.Monitor.Summary()
+	s.Turnaround = reportTurnaround(b.Turnaround(), log)
 	if err := writeSummary(stdout, *bf.summary, s); err != nil {
 		return err
 	}

@@ -28,6 +28,7 @@ const runCaution = "SAFETY: the monitor only watches; it does not stop the rig.\
 const runUsage = `usage: monitor run --loop LOOP.yaml --listen HOST:PORT [--metrics HOST:PORT] [--duration D]
                    [--summary FILE] [--tolerance X] [--min-samples N] [--warmup D]
                    [--strict] [--trip-to HOST:PORT] [--from HOST[:PORT]]
+                   [--relay-metrics URL [--relay-link NAME]]
 
 Receives the rig's sensor datagrams, decodes them with the loop's decode
 section, estimates E[eᵀe] of e = setpoint − y online with a 95 % batch-means
@@ -66,6 +67,12 @@ against its bounds; when one is crossed it logs a warning and, with
 --trip-to, sends the trip request "rigwire-trip 1 <reason>" (three copies,
 UDP) to the relay's trip socket (impair run --trip-listen). The trip is no
 emergency stop: keep one that does not depend on the link or on rigwire.
+
+With --relay-metrics the monitor reads the relay's turnaround histogram
+(impair run --loop: ` + turnaroundMetric + `)
+every 10 s and at the end compares it with the loop's compute_delay
+(Kolmogorov–Smirnov at the buckets' bounds), logs a warning when they
+differ and adds controller_turnaround to the summary.
 `
 
 // runExits are the statuses of monitor run, in their order of precedence
@@ -107,6 +114,8 @@ func cmdRun(args []string, stdout, stderr io.Writer) error {
 	from := cli.SenderFlag{Who: "the relay's tap"}
 	fs.Var(&from, "from", "decode only datagrams from `HOST` (any port) or HOST:PORT, the relay's tap socket; others are counted as strangers, never decoded (default: any source)")
 	var tripTo cli.AddrFlag
+	var relay relayMetricsFlag
+	relay.register(fs)
 	fs.Var(&tripTo, "trip-to", "send the safety trip request to the relay's trip socket at `HOST:PORT` (needs a trip section in the loop)")
 	logger := fs.LogLevel()
 	if err := fs.Parse(args); err != nil {
@@ -115,6 +124,8 @@ func cmdRun(args []string, stdout, stderr io.Writer) error {
 	switch {
 	case fs.NArg() > 0:
 		return cli.Usagef("unexpected argument %q", fs.Arg(0))
+	case relay.link != "" && relay.url == "":
+		return cli.Usagef("--relay-link: needs --relay-metrics")
 	case *loopPath == "":
 		return cli.Usagef("--loop: required")
 	case !listen.Given:
@@ -208,10 +219,12 @@ func cmdRun(args []string, stdout, stderr io.Writer) error {
 	// state.
 	ctx, cancel := cli.SignalContext()
 	defer cancel()
+	turnaround := relay.watch(ctx, loop, log)
 	serveErr := mon.ServeFor(ctx, conn, time.Duration(duration.s*1e9), time.Duration(progress.s*1e9), stderr)
 	cancel()
 	srv.Close()
 	sum := mon.Summary()
+	sum.Turnaround = reportTurnaround(turnaround(), log)
 	if err := writeSummary(stdout, *summaryPath, sum); err != nil {
 		return err
 	}

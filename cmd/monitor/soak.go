@@ -212,9 +212,9 @@ wait:
 	}
 	rec.SampleTripWindow()
 	rec.Finish()
-	reportTurnaround(b, log)
 	b.Monitor.EndPhases(!finished)
 	s := b.Monitor.Summary()
+	s.Turnaround = reportTurnaround(b.Turnaround(), log)
 	code := exitcode.OfSoak(s)
 	if !finished && s.Trip == nil {
 		// Interrupted before the end: the phases not played are not run.

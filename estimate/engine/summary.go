@@ -81,6 +81,11 @@ type Summary struct {
 	// response per frequency beside the prediction (judged with the
 	// run's tolerance).
 	FrequencyResponse []FrequencyResult `json:"frequency_response,omitempty"`
+	// Turnaround is the controller's turnaround the relay measured beside
+	// the compute law the prediction assumes, when the command made the
+	// comparison (the bench's relay paired commands with samples, or
+	// monitor run read the relay's histogram).
+	Turnaround *Turnaround `json:"controller_turnaround,omitempty"`
 }
 
 // Predicted is the prediction in the summary.
