@@ -38,7 +38,7 @@ type soakResult struct {
 		Commands int  `json:"commands"`
 		Binned   bool `json:"binned"`
 	} `json:"controller_turnaround"`
-	Trip             *struct {
+	Trip *struct {
 		Reason   string  `json:"reason"`
 		Sequence *uint64 `json:"sequence"`
 		Action   string  `json:"action"`
