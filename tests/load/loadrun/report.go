@@ -112,10 +112,16 @@ func bars(cfg config, res *results) []bar {
 			continue
 		}
 		r := pick(loadkit.Median(ratios(m[tRelay], m[tBatch])))
+		measured := fmt.Sprintf("%s (%s vs %s /s)", times(r), kRate(pick(loadkit.Median(m[tRelay]))), kRate(loadkit.Median(m[tBatch])))
+		if d := loadkit.Median(m[tDirect]); d > 0 && pick(loadkit.Median(m[tRelay])) >= 0.97*d {
+			// No forwarder can be measured above what the generator and
+			// the sink reach alone: the ratio is a lower bound.
+			measured += ", at direct's ceiling"
+		}
 		out = append(out, bar{
 			Figure: fmt.Sprintf("max rate %d B, relay ÷ batched forwarder", size), Value: num(r),
-			Measured: fmt.Sprintf("%s (%s vs %s /s)", times(r), kRate(pick(loadkit.Median(m[tRelay]))), kRate(loadkit.Median(m[tBatch]))),
-			Aim:      "≥ 0.80×", Met: verdict(r, func(v float64) bool { return v >= 0.8 }),
+			Measured: measured,
+			Aim:      "≥ 0.90×", Met: verdict(r, func(v float64) bool { return v >= 0.9 }),
 		})
 		if size == 64 {
 			v := pick(loadkit.Median(m[tRelay]))
@@ -132,7 +138,7 @@ func bars(cfg config, res *results) []bar {
 		out = append(out, bar{
 			Figure: fmt.Sprintf("added latency p50 at %.0fk/s, relay ÷ batched", cfg.latRate/1000), Value: num(r),
 			Measured: fmt.Sprintf("%s (%s vs %s)", times(r), us(pick(loadkit.Median(addR))), us(loadkit.Median(addB))),
-			Aim:      "≤ 1.50×", Met: verdict(r, func(v float64) bool { return v <= 1.5 }),
+			Aim:      "≤ 1.10×", Met: verdict(r, func(v float64) bool { return v <= 1.1 }),
 		})
 	}
 	for _, rate := range cfg.lateRates {
@@ -145,8 +151,8 @@ func bars(cfg config, res *results) []bar {
 			out = append(out,
 				bar{Figure: "release lateness p50 at 1k/s", Value: num(p50), Measured: us(p50), Aim: "≤ 50 µs",
 					Met: verdict(p50, func(v float64) bool { return v <= 50e-6 })},
-				bar{Figure: "release lateness p99 at 1k/s", Value: num(p99), Measured: us(p99), Aim: "≤ 500 µs",
-					Met: verdict(p99, func(v float64) bool { return v <= 500e-6 })},
+				bar{Figure: "release lateness p99 at 1k/s", Value: num(p99), Measured: us(p99), Aim: "≤ 100 µs",
+					Met: verdict(p99, func(v float64) bool { return v <= 100e-6 })},
 				bar{Figure: "relay CPU at 1k/s (1–5 ms delays)", Value: num(cpu), Measured: pct(cpu) + " of a core", Aim: "< 20 %",
 					Met: verdict(cpu, func(v float64) bool { return v < 0.2 })},
 			)
@@ -274,7 +280,7 @@ func writeReport(w io.Writer, cfg config, res *results) {
 
 	bs := bars(cfg, res)
 	if len(bs) > 0 {
-		fmt.Fprintf(w, "\nBars (issue 2)\n")
+		fmt.Fprintf(w, "\nBars\n")
 		tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', 0)
 		fmt.Fprintf(tw, "figure\tmeasured\taim\tmet\n")
 		for _, b := range bs {
