@@ -1,7 +1,6 @@
 package estimate
 
 import (
-	"errors"
 	"math"
 
 	"gonum.org/v1/gonum/mat"
@@ -94,9 +93,9 @@ type lyapunov struct {
 	op         *mat.Dense // ℒ on stacked svec coordinates
 	n          int        // its side
 	nz, states int
-	norm       float64 // ‖L‖∞
-	a          *mat.Dense
-	lu         mat.LU
+	norm       float64    // ‖L‖∞
+	a          *mat.Dense // I − L/s, then its LU factors in place
+	lu         denseLU
 	b, x, r, y *mat.VecDense
 	luAt       float64 // the s of the factorisation held, 0 if none
 }
@@ -125,17 +124,10 @@ func (ly *lyapunov) test(s float64) side {
 	for i := 0; i < ly.n; i++ {
 		ly.a.Set(i, i, ly.a.At(i, i)+1)
 	}
-	ly.lu.Factorize(ly.a)
-	cond := ly.lu.Cond()
-	if math.IsNaN(cond) || math.IsInf(cond, 0) {
+	if !ly.lu.factorize(ly.a.RawMatrix()) {
 		return undecided
 	}
-	if err := ly.lu.SolveVecTo(ly.x, false, ly.b); err != nil {
-		var c mat.Condition
-		if !errors.As(err, &c) {
-			return undecided
-		}
-	}
+	ly.lu.solve(ly.x.RawVector().Data, ly.b.RawVector().Data)
 	ly.luAt = s
 	errX, ok := ly.refine(s)
 	if !ok || !(float64(ly.nz)*errX < 0.5) {
@@ -182,12 +174,7 @@ func (ly *lyapunov) refine(s float64) (errX float64, ok bool) {
 	prev := math.Inf(1)
 	for step := 0; step < maxRefineSteps; step++ {
 		ly.residual(s)
-		if err := ly.lu.SolveVecTo(ly.y, false, ly.r); err != nil {
-			var c mat.Condition
-			if !errors.As(err, &c) {
-				return math.Inf(1), false
-			}
-		}
+		ly.lu.solve(ly.y.RawVector().Data, ly.r.RawVector().Data)
 		ly.x.AddVec(ly.x, ly.y)
 		nd := mat.Norm(ly.y, math.Inf(1))
 		nx := mat.Norm(ly.x, math.Inf(1))
@@ -251,10 +238,10 @@ func dot2(a, b []float64) (hi, lo float64) {
 // inverseIterate estimates ρ with the factorisation of the last test,
 // which must have found its s above ρ: power iteration on (I − L/s)⁻¹
 // from its solution X_s, whose dominant eigenvalue is μ = s/(s − ρ).
-func (ly *lyapunov) inverseIterate() float64 {
+func (ly *lyapunov) inverseIterate() (est float64, converged bool) {
 	s := ly.luAt
 	ly.y.CopyVec(ly.x)
-	est := math.NaN()
+	est = math.NaN()
 	var d1, d2 float64 // the last two changes of the estimate
 	for k := 0; k < inverseSteps; k++ {
 		ny := mat.Norm(ly.y, math.Inf(1))
@@ -262,12 +249,7 @@ func (ly *lyapunov) inverseIterate() float64 {
 			break
 		}
 		ly.y.ScaleVec(1/ny, ly.y)
-		if err := ly.lu.SolveVecTo(ly.r, false, ly.y); err != nil {
-			var c mat.Condition
-			if !errors.As(err, &c) {
-				break
-			}
-		}
+		ly.lu.solve(ly.r.RawVector().Data, ly.y.RawVector().Data)
 		mu := mat.Norm(ly.r, math.Inf(1))
 		if !(mu > 0) || math.IsInf(mu, 0) {
 			break
@@ -275,7 +257,7 @@ func (ly *lyapunov) inverseIterate() float64 {
 		next := s - s/mu
 		ly.y.CopyVec(ly.r)
 		if math.Abs(next-est) <= 4*epsilon*s {
-			return next
+			return next, true
 		}
 		d2, d1 = d1, next-est
 		// Slow geometric convergence (the shift far from ρ, or a second
@@ -284,12 +266,39 @@ func (ly *lyapunov) inverseIterate() float64 {
 		// next test point, whose side of ρ that test certifies.
 		if k >= 12 && d2 != 0 && !math.IsNaN(d1) {
 			if r := d1 / d2; r > 0.5 && r < 1 {
-				return next + d1*r/(1-r)
+				return next + d1*r/(1-r), false
 			}
 		}
 		est = next
 	}
-	return est
+	return est, false
+}
+
+// arnoldiFirst is the operator size from which the search estimates ρ by
+// Arnoldi's process on the inverse first: there a solve costs far more
+// than the small eigenproblems the process adds, which dominate below it.
+const arnoldiFirst = 200
+
+// estimate estimates ρ after a test above it and returns a scale of the
+// estimate's error (+Inf when unknown): by inverse iteration on a small
+// operator, by Arnoldi's process on the inverse (shiftInvertEstimate) on a
+// large one or when inverse iteration does not converge.
+func (ly *lyapunov) estimate() (est, errEst float64) {
+	if ly.n < arnoldiFirst {
+		e, conv := ly.inverseIterate()
+		if conv {
+			return e, math.Inf(1)
+		}
+		if a, ae, ok := ly.shiftInvertEstimate(); ok {
+			return a, ae
+		}
+		return e, math.Inf(1)
+	}
+	if a, ae, ok := ly.shiftInvertEstimate(); ok {
+		return a, ae
+	}
+	e, _ := ly.inverseIterate()
+	return e, math.Inf(1)
 }
 
 // Radius is ρ with its certified bracket.
@@ -308,9 +317,10 @@ func (ly *lyapunov) radius() Radius {
 	lo, hi := 0.0, ly.norm
 	est := math.NaN()
 	dUp, dDown := radiusDelta, radiusDelta
-	keep := func(v float64) {
+	estErr := math.Inf(1) // a scale of est's error, +Inf when unknown
+	keep := func(v, e float64) {
 		if v >= lo && v <= hi {
-			est = v
+			est, estErr = v, e
 		}
 	}
 	s := ly.norm * (1 + 1e-6)
@@ -318,7 +328,7 @@ func (ly *lyapunov) radius() Radius {
 		switch ly.test(s) {
 		case aboveRho:
 			hi = math.Min(hi, s)
-			keep(ly.inverseIterate())
+			keep(ly.estimate())
 		case belowRho:
 			lo = math.Max(lo, s)
 		case undecided:
@@ -342,6 +352,10 @@ func (ly *lyapunov) radius() Radius {
 			s = hi / 1e3
 		case !math.IsNaN(est) && hi-est > 1.5*dUp*est && dUp < 0.5:
 			s = est + math.Max((hi-est)*1e-3, dUp*est)
+			if 10*estErr <= dUp*est {
+				// ρ̂ is good to well within the step: test just above it.
+				s = est + dUp*est
+			}
 		case !math.IsNaN(est) && est-lo > 1.5*dDown*est && dDown < 0.5:
 			s = est * (1 - dDown)
 		case !math.IsNaN(est):
