@@ -48,7 +48,12 @@ import (
 // eigenvalue ρ is strictly the nearest to s (G. H. Golub, C. F. Van Loan,
 // Matrix Computations, 4th ed., 2013, §7.6.1 — from memory); its estimate
 // ρ̂ = s(1 − 1/μ) guides the next test just above it, then one just below
-// it. The reported SpectralRadius is ρ̂ (accurate to rounding for a simple
+// it. When a second eigenvalue λ₂ lies close to ρ, inverse iteration
+// converges only at the ratio (s − ρ)/(s − λ₂); Arnoldi's process on the
+// same inverse (arnoldi.go) separates the two and gives ρ̂ to rounding from
+// one factorisation, so the search then tests at ρ̂(1 ± 1e-12) at once.
+// It runs first on operators of arnoldiFirst coordinates or more, and on
+// smaller ones when inverse iteration does not converge (estimate). The reported SpectralRadius is ρ̂ (accurate to rounding for a simple
 // dominant eigenvalue) and RadiusError = max(hi − ρ̂, ρ̂ − lo, 1e-10·ρ̂):
 // the bracket, as good as the tests' error estimates (about 1e-12
 // relative for a well separated ρ, more when ρ is a multiple or
