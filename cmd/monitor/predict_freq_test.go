@@ -20,11 +20,7 @@ func TestPredictFrequency(t *testing.T) {
 	if code != 0 {
 		t.Fatalf("exit %d: %s", code, errOut)
 	}
-	lines := strings.Split(strings.TrimSpace(out), "\n")
-	if len(lines) != 6 || lines[0] != strings.Join(report.FrequencyColumns(1), ",") {
-		t.Fatalf("CSV: %d lines, header %q", len(lines), lines[0])
-	}
-	for _, l := range lines[1:] {
+	for _, l := range csvRows(t, out, strings.Join(report.FrequencyColumns(1), ","), 5) {
 		f := strings.Split(l, ",")
 		if len(f) != len(report.FrequencyColumns(1)) {
 			t.Fatalf("row %q: %d fields", l, len(f))
@@ -156,10 +152,7 @@ func TestPredictGain(t *testing.T) {
 	if code != 0 {
 		t.Fatalf("exit %d: %s", code, errOut)
 	}
-	lines := strings.Split(strings.TrimSpace(out), "\n")
-	if len(lines) != 13 || lines[0] != "scale,mean_square_stable,stability,spectral_radius,spectral_radius_error,second_moment,loss_free_stable" {
-		t.Fatalf("CSV: %d lines, header %q", len(lines), lines[0])
-	}
+	csvRows(t, out, "scale,mean_square_stable,stability,spectral_radius,spectral_radius_error,second_moment,loss_free_stable", 12)
 	for _, w := range []string{"best point on the grid: scale = ", "mean-square stable for scale from", "loss-free, delay-free loop is stable for scale"} {
 		if !strings.Contains(errOut, w) {
 			t.Errorf("no %q in:\n%s", w, errOut)
@@ -170,9 +163,7 @@ func TestPredictGain(t *testing.T) {
 	if code != 0 {
 		t.Fatalf("2-D: exit %d: %s", code, errOut)
 	}
-	if n := len(strings.Split(strings.TrimSpace(out), "\n")); n != 13 {
-		t.Errorf("2-D: %d lines, want 12 points and a header", n)
-	}
+	csvRows(t, out, "d[0][0],c[0][0],mean_square_stable,stability,spectral_radius,spectral_radius_error,second_moment,loss_free_stable", 12)
 	if _, err := os.Stat(plot); err != nil {
 		t.Errorf("plot: %v", err)
 	}
@@ -192,4 +183,15 @@ func TestPredictGain(t *testing.T) {
 			t.Errorf("%v: exit %d, %q; want 2 and %q", c.args, code, errOut, c.want)
 		}
 	}
+}
+
+// csvRows checks a command's CSV output for the header and n rows, and
+// returns the rows.
+func csvRows(t *testing.T, out, header string, n int) []string {
+	t.Helper()
+	lines := strings.Split(strings.TrimSpace(out), "\n")
+	if len(lines) != n+1 || lines[0] != header {
+		t.Fatalf("CSV: %d lines, header %q; want %d rows under %q", len(lines), lines[0], n, header)
+	}
+	return lines[1:]
 }
