@@ -355,7 +355,11 @@ func (ly *lyapunov) radius() Radius {
 				return ly.verdict(0, lo, hi)
 			}
 			s = hi / 1e3
-		case !math.IsNaN(est) && hi-est > 1.5*dUp*est && dUp < 0.5:
+		case !math.IsNaN(est) && hi-est > 1.5*dUp*est:
+			// Above ρ̂, by steps that grow tenfold while the tests stay
+			// undecided, up to hi: a defective ρ (ill-conditioned
+			// tests near it, and a ρ̂ with a small residual far from it)
+			// is then still bracketed from above well below ‖L‖∞.
 			s = est + math.Max((hi-est)*1e-3, dUp*est)
 			if 10*estErr <= dUp*est {
 				// ρ̂ is good to well within the step: test just above it.
