@@ -213,6 +213,9 @@ func TestRotateAndRatios(t *testing.T) {
 	if len(r) != 2 || r[0] != 2 || r[1] != 2 {
 		t.Fatalf("ratios: got %v, want [2 2]", r)
 	}
+	if r := addedRatios([]float64{-0.5e-6, 3e-6, 2e-6, nan}, []float64{10e-6, 2e-6, 0, 1e-6}); len(r) != 2 || r[0] != 0 || r[1] != 1.5 {
+		t.Fatalf("addedRatios: got %v, want [0 1.5] (none added counts as 0×; no baseline, no ratio)", r)
+	}
 	b, err := json.Marshal(figures{1.5, nan, 2})
 	if err != nil || string(b) != "[1.5,null,2]" {
 		t.Fatalf("figures JSON: got %s, %v", b, err)

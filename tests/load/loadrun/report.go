@@ -42,6 +42,19 @@ func ratios(a, b []float64) []float64 {
 	return out
 }
 
+// addedRatios is ratios of added latencies, where a forwarder that added
+// none measurable (a[i] ≤ 0: within the noise of direct's p50) counts as
+// 0× rather than being left out; b[i] ≤ 0 still leaves the repetition out.
+func addedRatios(a, b []float64) []float64 {
+	var out []float64
+	for i := range min(len(a), len(b)) {
+		if !math.IsNaN(a[i]) && !math.IsNaN(b[i]) && b[i] > 0 {
+			out = append(out, max(a[i], 0)/b[i])
+		}
+	}
+	return out
+}
+
 // diffs is a[i]−b[i] for each repetition where both are numbers.
 func diffs(a, b []float64) []float64 {
 	out := make([]float64, 0, len(a))
@@ -134,7 +147,7 @@ func bars(cfg config, res *results) []bar {
 	if len(res.LatP50) > 0 {
 		addR := diffs(res.LatP50[tRelay], res.LatP50[tDirect])
 		addB := diffs(res.LatP50[tBatch], res.LatP50[tDirect])
-		r := pick(loadkit.Median(ratios(addR, addB)))
+		r := pick(loadkit.Median(addedRatios(addR, addB)))
 		out = append(out, bar{
 			Figure: fmt.Sprintf("added latency p50 at %.0fk/s, relay ÷ batched", cfg.latRate/1000), Value: num(r),
 			Measured: fmt.Sprintf("%s (%s vs %s)", times(r), us(pick(loadkit.Median(addR))), us(loadkit.Median(addB))),
