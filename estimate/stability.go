@@ -53,7 +53,9 @@ import (
 // same inverse (arnoldi.go) separates the two and gives ρ̂ to rounding from
 // one factorisation, so the search then tests at ρ̂(1 ± 1e-12) at once.
 // It runs first on operators of arnoldiFirst coordinates or more, and on
-// smaller ones when inverse iteration does not converge (estimate). The reported SpectralRadius is ρ̂ (accurate to rounding for a simple
+// smaller ones when inverse iteration does not converge (estimate).
+//
+// The reported SpectralRadius is ρ̂ (accurate to rounding for a simple
 // dominant eigenvalue) and RadiusError = max(hi − ρ̂, ρ̂ − lo, 1e-10·ρ̂):
 // the bracket, as good as the tests' error estimates (about 1e-12
 // relative for a well separated ρ, more when ρ is a multiple or
@@ -290,14 +292,9 @@ const arnoldiFirst = 200
 // large one or when inverse iteration does not converge.
 func (ly *lyapunov) estimate() (est, errEst float64) {
 	if ly.n < arnoldiFirst {
-		e, conv := ly.inverseIterate()
-		if conv {
+		if e, conv := ly.inverseIterate(); conv {
 			return e, math.Inf(1)
 		}
-		if a, ae, ok := ly.shiftInvertEstimate(); ok {
-			return a, ae
-		}
-		return e, math.Inf(1)
 	}
 	if a, ae, ok := ly.shiftInvertEstimate(); ok {
 		return a, ae
