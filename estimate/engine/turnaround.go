@@ -47,11 +47,11 @@ type Turnaround struct {
 // assumed compute law are called different.
 const TurnaroundAlpha = 0.001
 
-// computeCDF is the loop's compute law's CDF (a constant when it has
-// none but its Delay).
+// computeCDF is the loop's compute law's CDF (zero when the loop has
+// none, as Loop.ComputeMean takes it).
 func computeCDF(loop *profiles.Loop) func(float64) float64 {
 	if loop.Compute == nil {
-		return laws.Constant{Value: loop.ComputeMean()}.CDF
+		return laws.Constant{}.CDF
 	}
 	return loop.Compute.CDF
 }
@@ -97,9 +97,6 @@ type Bucket struct {
 func CompareTurnaroundHistogram(loop *profiles.Loop, buckets []Bucket, count uint64, sum float64) (*Turnaround, error) {
 	if count == 0 {
 		return nil, nil
-	}
-	if count > math.MaxInt32 {
-		return nil, fmt.Errorf("histogram: %d observations, more than this comparison takes", count)
 	}
 	r := newTurnaround(loop, int(count), int(count))
 	r.Binned = true
