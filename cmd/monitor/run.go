@@ -114,9 +114,9 @@ func cmdRun(args []string, stdout, stderr io.Writer) error {
 	from := cli.SenderFlag{Who: "the relay's tap"}
 	fs.Var(&from, "from", "decode only datagrams from `HOST` (any port) or HOST:PORT, the relay's tap socket; others are counted as strangers, never decoded (default: any source)")
 	var tripTo cli.AddrFlag
+	fs.Var(&tripTo, "trip-to", "send the safety trip request to the relay's trip socket at `HOST:PORT` (needs a trip section in the loop)")
 	var relay relayMetricsFlag
 	relay.register(fs)
-	fs.Var(&tripTo, "trip-to", "send the safety trip request to the relay's trip socket at `HOST:PORT` (needs a trip section in the loop)")
 	logger := fs.LogLevel()
 	if err := fs.Parse(args); err != nil {
 		return err
