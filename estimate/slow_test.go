@@ -2,7 +2,6 @@ package estimate
 
 import (
 	"math"
-	"math/cmplx"
 	"testing"
 
 	"gonum.org/v1/gonum/mat"
@@ -84,15 +83,7 @@ func kroneckerRadius(md *Model) float64 {
 			blk.Scale(md.P.At(i, j), ki)
 		}
 	}
-	var eig mat.Eigen
-	if !eig.Factorize(big, mat.EigenNone) {
-		panic("eigen")
-	}
-	rho := 0.0
-	for _, v := range eig.Values(nil) {
-		rho = math.Max(rho, cmplx.Abs(v))
-	}
-	return rho
+	return eigenModuli(big)[0]
 }
 
 func TestSpectralRadiusAgainstKronecker(t *testing.T) {
