@@ -76,6 +76,13 @@ func runSoakLoop(t *testing.T, loop, scenario string, scale string, wall time.Du
 	node.wait(t, 10*time.Second)
 	ctl.wait(t, 10*time.Second)
 	out := soak.out.String()
+	// The node's closing line counts its overruns: samples the loaded
+	// host sent a quarter period late or more.
+	for _, l := range strings.Split(node.out.String(), "\n") {
+		if strings.Contains(l, "rig node stopped") {
+			out += "node: " + l + "\n"
+		}
+	}
 	b, err := os.ReadFile(summary)
 	if err != nil {
 		t.Fatalf("no summary (exit %d): %v\n%s", code, err, out)
@@ -93,18 +100,33 @@ func runSoakLoop(t *testing.T, loop, scenario string, scale string, wall time.Du
 // its own prediction (the steady moments of the jump system; quasi-static
 // mean over the ramp) within the scenario's tolerance, with an interval
 // narrow enough to confirm it, the soak exits 0, and the report is
-// written. The loop forgets its past within a few periods, so a 32 s
-// judged phase (about 3200 samples) is plenty: over 60 simulated runs of
-// that length (estimate.Simulate, the verdict rule of the monitor
-// engine) the verdict was agree in all 60, and a prediction 7.4 times too
-// high was below in all 60.
+// written.
+//
+// Whether three phases of 32–44 s all confirm agreement is itself
+// statistics: simulated with the engine's rule (estimate/engine,
+// TestSoakScenarioRates), a run ends inconclusive with nothing wrong
+// about 3 % of the time, mostly in the ramp, where late commands and the
+// sensor's bursts give the error a heavy tail; a loaded host that stalls
+// the rig's node adds to that. So the test is sequential: when the first
+// soak ends inconclusive (exit 5) with no phase failed, it plays the
+// scenario once more, and that one must pass. A failed phase (exit 7)
+// fails at once: only "the data cannot tell" earns more data.
 func TestSoakPasses(t *testing.T) {
 	if testing.Short() {
 		t.Skip("a two-minute soak")
 	}
 	t.Parallel()
 	rep := t.TempDir()
-	code, out, s := runSoak(t, filepath.Join("..", "profiles", "examples", "checks", "soak-diverter.scenario.yaml"), "0.2", 2*time.Minute, rep)
+	scenario := filepath.Join("..", "profiles", "examples", "checks", "soak-diverter.scenario.yaml")
+	code, out, s := runSoak(t, scenario, "0.2", 2*time.Minute, rep)
+	if code == 5 {
+		t.Logf("first soak inconclusive (exit 5) with no phase failed; playing it once more:")
+		for _, p := range s.Phases {
+			t.Logf("  phase %s: %s (%s)", p.Name, p.Verdict, p.Reason)
+		}
+		rep = t.TempDir()
+		code, out, s = runSoak(t, scenario, "0.2", 2*time.Minute, rep)
+	}
 	if code != 0 {
 		t.Fatalf("monitor soak exited %d, want 0:\n%s", code, out)
 	}
