@@ -47,7 +47,7 @@ func soakRates(t *testing.T, loop *profiles.Loop, sc *profiles.Scenario, runs in
 			if err != nil {
 				t.Fatal(err)
 			}
-			n, predSum, predN := 0, 0.0, 0
+			n, predSum := 0, 0.0
 			for si, st := range steps {
 				if st.Phase != i {
 					continue
@@ -71,14 +71,13 @@ func soakRates(t *testing.T, loop *profiles.Loop, sc *profiles.Scenario, runs in
 						}
 						on.AddErrorRef(e, pr)
 						predSum += pr
-						predN++
 					}})
 				if err != nil {
 					t.Fatal(err)
 				}
 			}
 			stats := on.Run(nil)
-			pr := predSum / float64(predN)
+			pr := predSum / float64(stats.Samples)
 			v, _ := judgeInterval(stats, pr, *ph.Check.Tolerance, "", ph.Check.MinSamples)
 			counts[i][v]++
 			ratios[i] = append(ratios[i], stats.SecondMoment/pr)
