@@ -4,6 +4,7 @@ import (
 	"encoding/json"
 	"fmt"
 	"os"
+	"strconv"
 	"strings"
 	"testing"
 	"time"
@@ -23,22 +24,28 @@ import (
 // default tolerance (verdict agree, not inconclusive), and the loss-free
 // loop's phase at 4 Hz must lie outside the measured interval — the
 // measurement sees the network.
+//
+// Three frequencies all confirming agreement is itself statistics:
+// simulated with the engine's rule (estimate/engine,
+// TestSweepScenarioRates), a pass through the sweep shows a verdict
+// other than agree at one of them about 3 % of the time with nothing
+// wrong (an interval of 12 batches now and then misses, or its batches
+// look correlated). So the test is sequential: when the first run's
+// verdicts are not all agree, it logs them and runs the sweep once more
+// with the relay's decisions and the rig's noise seeded afresh, and that
+// run must pass. A wrong prediction differs in both.
 func TestFrequencyResponseEndToEnd(t *testing.T) {
 	if testing.Short() {
 		t.Skip("end to end: a 2-minute rig run")
 	}
 	t.Parallel()
-	r := startRig(t, "../profiles/examples/checks/rig-sweep.yaml", 122*time.Second, "7", true)
-	b, err := os.ReadFile(r.summary)
-	if err != nil {
-		t.Fatal(err)
-	}
-	var s engine.Summary
-	if err := json.Unmarshal(b, &s); err != nil {
-		t.Fatalf("summary: %v\n%s", err, b)
-	}
-	if len(s.FrequencyResponse) != 3 {
-		t.Fatalf("%d frequencies in the summary, want 3:\n%s", len(s.FrequencyResponse), b)
+	r, s := runSweep(t, 0)
+	if !allAgree(s) {
+		t.Logf("first sweep not all agree; running it once more:")
+		for _, l := range s.FrequencyLines() {
+			t.Log("  " + l)
+		}
+		r, s = runSweep(t, 1)
 	}
 	for _, l := range s.FrequencyLines() {
 		t.Log(l)
@@ -63,6 +70,41 @@ func TestFrequencyResponseEndToEnd(t *testing.T) {
 	if o.PhaseCILow == nil || (nominal >= *o.PhaseCILow && nominal <= *o.PhaseCIHigh) {
 		t.Errorf("the loss-free loop's phase %.1f° at 4 Hz is not outside the measured interval: %+v", nominal, o)
 	}
+}
+
+// runSweep runs the simulated rig over rig-sweep.yaml and returns the run
+// and the monitor's summary of its three frequencies. Replay 0 is the
+// first run; a replay n > 0 seeds the relay's decisions and the rig's
+// noise afresh.
+func runSweep(t *testing.T, replay int) (*rigRun, engine.Summary) {
+	t.Helper()
+	o := rigOpts{monitor: true}
+	if replay > 0 {
+		o.relayArgs = []string{"--seed", strconv.Itoa(1000 + replay)}
+	}
+	r := startRigOpts(t, "../profiles/examples/checks/rig-sweep.yaml", 122*time.Second, strconv.Itoa(7+replay), o)
+	b, err := os.ReadFile(r.summary)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var s engine.Summary
+	if err := json.Unmarshal(b, &s); err != nil {
+		t.Fatalf("summary: %v\n%s", err, b)
+	}
+	if len(s.FrequencyResponse) != 3 {
+		t.Fatalf("%d frequencies in the summary, want 3:\n%s", len(s.FrequencyResponse), b)
+	}
+	return r, s
+}
+
+// allAgree says whether every frequency of s agrees with its prediction.
+func allAgree(s engine.Summary) bool {
+	for _, fr := range s.FrequencyResponse {
+		if fr.Verdict != engine.FrequencyAgree {
+			return false
+		}
+	}
+	return true
 }
 
 // TestMonitorFrequencyMetricsPromtool: `monitor run` of a loop with a
