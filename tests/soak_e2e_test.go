@@ -5,6 +5,7 @@ import (
 	"image/png"
 	"os"
 	"path/filepath"
+	"strconv"
 	"strings"
 	"testing"
 	"time"
@@ -48,13 +49,15 @@ type soakResult struct {
 // runSoak plays scenario on the simulated rig (rig controller and rig node
 // as their own processes, `monitor soak` relaying between them) at the
 // given time scale and returns the exit status, the output and the summary.
-func runSoak(t *testing.T, scenario string, scale string, wall time.Duration, reportDir string) (int, string, *soakResult) {
+// Replay 0 is the first play; a replay n > 0 seeds the relay's decisions
+// and the rig's noise afresh, so that it is independent of the first.
+func runSoak(t *testing.T, scenario string, scale string, wall time.Duration, reportDir string, replay int) (int, string, *soakResult) {
 	t.Helper()
-	return runSoakLoop(t, filepath.Join("..", "profiles", "examples", "checks", "soak-diverter.loop.yaml"), scenario, scale, wall, reportDir)
+	return runSoakLoop(t, filepath.Join("..", "profiles", "examples", "checks", "soak-diverter.loop.yaml"), scenario, scale, wall, reportDir, replay)
 }
 
 // runSoakLoop is runSoak of another loop.
-func runSoakLoop(t *testing.T, loop, scenario string, scale string, wall time.Duration, reportDir string) (int, string, *soakResult) {
+func runSoakLoop(t *testing.T, loop, scenario string, scale string, wall time.Duration, reportDir string, replay int) (int, string, *soakResult) {
 	t.Helper()
 	mon := buildCmd(t, "monitor")
 	dir := t.TempDir()
@@ -67,9 +70,12 @@ func runSoakLoop(t *testing.T, loop, scenario string, scale string, wall time.Du
 	if reportDir != "" {
 		args = append(args, "--report", reportDir)
 	}
+	if replay > 0 {
+		args = append(args, "--seed", strconv.Itoa(1000+replay))
+	}
 	soak := start(t, mon, args...)
 	time.Sleep(300 * time.Millisecond)
-	node := start(t, mon, "rig", "node", "--loop", loop, "--relay", relayAddr, "--seed", "11")
+	node := start(t, mon, "rig", "node", "--loop", loop, "--relay", relayAddr, "--seed", strconv.Itoa(11+replay))
 	code := soak.wait(t, wall+90*time.Second) // predicting the ramp's steps comes first
 	node.signal(t, 15)
 	ctl.signal(t, 15)
@@ -109,7 +115,8 @@ func runSoakLoop(t *testing.T, loop, scenario string, scale string, wall time.Du
 // sensor's bursts give the error a heavy tail; a loaded host that stalls
 // the rig's node adds to that. So the test is sequential: when the first
 // soak ends inconclusive (exit 5) with no phase failed, it plays the
-// scenario once more, and that one must pass. A failed phase (exit 7)
+// scenario once more with the relay and the rig seeded afresh, and that
+// one must pass. A failed phase (exit 7)
 // fails at once: only "the data cannot tell" earns more data.
 func TestSoakPasses(t *testing.T) {
 	if testing.Short() {
@@ -118,14 +125,14 @@ func TestSoakPasses(t *testing.T) {
 	t.Parallel()
 	rep := t.TempDir()
 	scenario := filepath.Join("..", "profiles", "examples", "checks", "soak-diverter.scenario.yaml")
-	code, out, s := runSoak(t, scenario, "0.2", 2*time.Minute, rep)
+	code, out, s := runSoak(t, scenario, "0.2", 2*time.Minute, rep, 0)
 	if code == 5 {
 		t.Logf("first soak inconclusive (exit 5) with no phase failed; playing it once more:")
 		for _, p := range s.Phases {
 			t.Logf("  phase %s: %s (%s)", p.Name, p.Verdict, p.Reason)
 		}
 		rep = t.TempDir()
-		code, out, s = runSoak(t, scenario, "0.2", 2*time.Minute, rep)
+		code, out, s = runSoak(t, scenario, "0.2", 2*time.Minute, rep, 1)
 	}
 	if code != 0 {
 		t.Fatalf("monitor soak exited %d, want 0:\n%s", code, out)
@@ -180,7 +187,7 @@ func TestSoakWrongPredictionFails(t *testing.T) {
 		t.Skip("a two-minute soak")
 	}
 	t.Parallel()
-	code, out, s := runSoak(t, filepath.Join("..", "profiles", "examples", "checks", "soak-diverter-wrong.scenario.yaml"), "0.2", 2*time.Minute, "")
+	code, out, s := runSoak(t, filepath.Join("..", "profiles", "examples", "checks", "soak-diverter-wrong.scenario.yaml"), "0.2", 2*time.Minute, "", 0)
 	if code != 7 {
 		t.Fatalf("monitor soak exited %d, want 7 (a phase failed):\n%s", code, out)
 	}
@@ -214,7 +221,12 @@ func TestSoakWrongPredictionFails(t *testing.T) {
 // against the prediction at it (estimate/model.md §15): gain, phase,
 // spread and E[eᵀe] within their intervals widened by 15 %. Both phases
 // must pass on their own frequency's samples, and the report must draw
-// the frequency response.
+// the frequency response. As TestSoakPasses, the test is sequential: a
+// frequency's intervals of ten-odd batches end inconclusive now and then
+// with nothing wrong (about 0.8 % of the runs per phase, simulated with
+// the engine's rule in estimate/engine, see TestSweepScenarioRates), so
+// a first soak that exits 5 with no phase failed is played once more,
+// and that one must pass.
 func TestSoakSweep(t *testing.T) {
 	if testing.Short() {
 		t.Skip("an 80-second soak")
@@ -222,7 +234,16 @@ func TestSoakSweep(t *testing.T) {
 	t.Parallel()
 	rep := t.TempDir()
 	dir := filepath.Join("..", "profiles", "examples", "checks")
-	code, out, s := runSoakLoop(t, filepath.Join(dir, "soak-sweep.loop.yaml"), filepath.Join(dir, "soak-sweep.scenario.yaml"), "1", 80*time.Second, rep)
+	loop, scenario := filepath.Join(dir, "soak-sweep.loop.yaml"), filepath.Join(dir, "soak-sweep.scenario.yaml")
+	code, out, s := runSoakLoop(t, loop, scenario, "1", 80*time.Second, rep, 0)
+	if code == 5 {
+		t.Logf("first soak inconclusive (exit 5) with no phase failed; playing it once more:")
+		for _, p := range s.Phases {
+			t.Logf("  phase %s: %s (%s)", p.Name, p.Verdict, p.Reason)
+		}
+		rep = t.TempDir()
+		code, out, s = runSoakLoop(t, loop, scenario, "1", 80*time.Second, rep, 1)
+	}
 	if code != 0 {
 		t.Fatalf("monitor soak exited %d, want 0:\n%s", code, out)
 	}
