@@ -2,6 +2,7 @@ package tests
 
 import (
 	"encoding/json"
+	"fmt"
 	"math"
 	"os"
 	"os/exec"
@@ -188,6 +189,13 @@ var (
 // over a clean link) and held to the usual tolerance, calTol. With a monitor (`monitor run` on the relay's tap), its
 // measured value must also equal the one computed from the log, to
 // monTol relative: both count the same samples.
+//
+// Simulated with the same rule (TestRigEndToEndRates), the ideal rig
+// misses now and then with nothing wrong: the burst channel's error has
+// a heavy tail, and 20 batches of 2 s under-cover it. So each case is
+// sequential: when its first run misses, it runs once more with the
+// relay and the rig seeded afresh, and that run must cover the
+// prediction.
 func TestRigEndToEnd(t *testing.T) {
 	const (
 		relTol = 0.15
@@ -215,18 +223,36 @@ func TestRigEndToEnd(t *testing.T) {
 				_, loop, _ = calibrateRig(t, tc.loop, t.TempDir(), 10*time.Second)
 				relTol = calTol
 			}
-			r := startRig(t, loop, tc.dur, strconv.Itoa(100+i), monitor)
-			ee, applied := sampleLog(t, r.logPath, r.loop)
+			var (
+				r      *rigRun
+				ee     []float64
+				inside bool
+			)
+			for replay := range 2 {
+				o := rigOpts{monitor: monitor}
+				if replay > 0 {
+					o.relayArgs = []string{"--seed", strconv.Itoa(1000 + replay)}
+				}
+				r = startRigOpts(t, loop, tc.dur, strconv.Itoa(100+i+10*replay), o)
+				var applied int
+				ee, applied = sampleLog(t, r.logPath, r.loop)
+				mean, half := batchMeans(ee, 20)
+				lo, hi := mean-half-relTol*r.predicted, mean+half+relTol*r.predicted
+				t.Logf("measured %.5g ± %.2g (95 %%), predicted %.5g; applied %d of %d", mean, half, r.predicted, applied, len(ee))
+				if inside = r.predicted >= lo && r.predicted <= hi; inside {
+					break
+				}
+				msg := fmt.Sprintf("predicted E[eᵀe] = %.5g outside the measured [%.5g, %.5g] widened by %g: [%.5g, %.5g]",
+					r.predicted, mean-half, mean+half, relTol, lo, hi)
+				if replay > 0 {
+					t.Error(msg)
+				} else {
+					t.Logf("%s; running it once more with the relay and the rig seeded afresh (TestRigEndToEndRates)", msg)
+				}
+			}
 			want := int(tc.dur.Seconds()/r.loop.Period + 0.5)
 			if len(ee) != want {
 				t.Errorf("sample log has %d samples, want %d", len(ee), want)
-			}
-			mean, half := batchMeans(ee, 20)
-			lo, hi := mean-half-relTol*r.predicted, mean+half+relTol*r.predicted
-			t.Logf("measured %.5g ± %.2g (95 %%), predicted %.5g; applied %d of %d", mean, half, r.predicted, applied, len(ee))
-			if r.predicted < lo || r.predicted > hi {
-				t.Errorf("predicted E[eᵀe] = %.5g outside the measured [%.5g, %.5g] widened by %g: [%.5g, %.5g]",
-					r.predicted, mean-half, mean+half, relTol, lo, hi)
 			}
 			if o := nodeOverruns.FindStringSubmatch(r.nodeOut); o != nil && o[1] != "0" {
 				t.Logf("the host stalled the node %s times (samples sent h/4 or more late): a loaded machine", o[1])
@@ -275,7 +301,11 @@ func hasMonitorRun(t *testing.T) bool {
 // every sample and that its measured E[eᵀe] equals the mean of eᵀe over
 // the node's own sample log (the same numbers summed in another order:
 // sumTol relative), and that its verdict is agree (the prediction inside
-// the monitor's 95 % interval widened by its default 0.1).
+// the monitor's 95 % interval widened by its default 0.1). A 15-second
+// run of the ideal rig ends other than agree about 1.5 % of the time
+// (estimate/engine, TestRunScenarioRates), so a first run that does is
+// played once more with the relay and the rig seeded afresh, and that
+// one must agree.
 func TestRigServe(t *testing.T) {
 	const sumTol = 1e-9
 	loopPath := "../profiles/examples/checks/rig-pi.yaml"
@@ -283,16 +313,63 @@ func TestRigServe(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
+	var (
+		s struct {
+			Samples  int     `json:"samples"`
+			Measured float64 `json:"error_second_moment"`
+			Verdict  string  `json:"verdict"`
+		}
+		b  []byte
+		ee []float64
+	)
+	for replay := range 2 {
+		var logPath string
+		b, logPath = serveRig(t, loopPath, replay)
+		if err := json.Unmarshal(b, &s); err != nil {
+			t.Fatalf("summary: %v\n%s", err, b)
+		}
+		ee, _ = sampleLog(t, logPath, loop)
+		if s.Verdict == "agree" {
+			break
+		}
+		t.Logf("run %d: verdict %q:\n%s", replay+1, s.Verdict, b)
+	}
+	direct := 0.0
+	for _, v := range ee {
+		direct += v
+	}
+	direct /= float64(len(ee))
+	if s.Samples != len(ee) {
+		t.Errorf("monitor counted %d samples, the node's log has %d", s.Samples, len(ee))
+	}
+	if math.Abs(s.Measured-direct) > sumTol*direct {
+		t.Errorf("monitor measured %.12g, the sample log gives %.12g", s.Measured, direct)
+	}
+	if s.Verdict != "agree" {
+		t.Errorf("verdict %q, want agree:\n%s", s.Verdict, b)
+	}
+}
+
+// serveRig runs the rig node for 15 s through `monitor serve` to the rig
+// controller and returns serve's JSON summary and the node's sample log.
+// Replay 0 is the first run; a replay n > 0 seeds the relay's decisions
+// and the rig's noise afresh.
+func serveRig(t *testing.T, loopPath string, replay int) ([]byte, string) {
+	t.Helper()
 	mon := buildCmd(t, "monitor")
 	dir := t.TempDir()
 	ctlAddr, relayAddr := freePort(t, "udp"), freePort(t, "udp")
 	summary, logPath := filepath.Join(dir, "summary.json"), filepath.Join(dir, "samples.csv")
 	ctl := start(t, mon, "rig", "controller", "--loop", loopPath, "--listen", ctlAddr)
-	srv := start(t, mon, "serve", "--loop", loopPath, "--listen", relayAddr, "--controller", ctlAddr,
-		"--metrics", "off", "--summary", summary, "--progress", "0")
+	args := []string{"serve", "--loop", loopPath, "--listen", relayAddr, "--controller", ctlAddr,
+		"--metrics", "off", "--summary", summary, "--progress", "0"}
+	if replay > 0 {
+		args = append(args, "--seed", strconv.Itoa(1000+replay))
+	}
+	srv := start(t, mon, args...)
 	time.Sleep(300 * time.Millisecond)
 	node := start(t, mon, "rig", "node", "--loop", loopPath, "--relay", relayAddr,
-		"--log", logPath, "--duration", "15s", "--seed", "5")
+		"--log", logPath, "--duration", "15s", "--seed", strconv.Itoa(5+replay))
 	if code := node.wait(t, 60*time.Second); code != 0 {
 		t.Fatalf("rig node exited %d", code)
 	}
@@ -304,31 +381,9 @@ func TestRigServe(t *testing.T) {
 			t.Fatalf("exit %d:\n%s", code, p.out.String())
 		}
 	}
-	ee, _ := sampleLog(t, logPath, loop)
-	direct := 0.0
-	for _, v := range ee {
-		direct += v
-	}
-	direct /= float64(len(ee))
-	var s struct {
-		Samples  int     `json:"samples"`
-		Measured float64 `json:"error_second_moment"`
-		Verdict  string  `json:"verdict"`
-	}
 	b, err := os.ReadFile(summary)
 	if err != nil {
 		t.Fatal(err)
 	}
-	if err := json.Unmarshal(b, &s); err != nil {
-		t.Fatalf("summary: %v\n%s", err, b)
-	}
-	if s.Samples != len(ee) {
-		t.Errorf("monitor counted %d samples, the node's log has %d", s.Samples, len(ee))
-	}
-	if math.Abs(s.Measured-direct) > sumTol*direct {
-		t.Errorf("monitor measured %.12g, the sample log gives %.12g", s.Measured, direct)
-	}
-	if s.Verdict != "agree" {
-		t.Errorf("verdict %q, want agree:\n%s", s.Verdict, b)
-	}
+	return b, logPath
 }
