@@ -224,9 +224,8 @@ func TestRigEndToEnd(t *testing.T) {
 				relTol = calTol
 			}
 			var (
-				r      *rigRun
-				ee     []float64
-				inside bool
+				r  *rigRun
+				ee []float64
 			)
 			for replay := range 2 {
 				o := rigOpts{monitor: monitor}
@@ -239,7 +238,7 @@ func TestRigEndToEnd(t *testing.T) {
 				mean, half := batchMeans(ee, 20)
 				lo, hi := mean-half-relTol*r.predicted, mean+half+relTol*r.predicted
 				t.Logf("measured %.5g ± %.2g (95 %%), predicted %.5g; applied %d of %d", mean, half, r.predicted, applied, len(ee))
-				if inside = r.predicted >= lo && r.predicted <= hi; inside {
+				if r.predicted >= lo && r.predicted <= hi {
 					break
 				}
 				msg := fmt.Sprintf("predicted E[eᵀe] = %.5g outside the measured [%.5g, %.5g] widened by %g: [%.5g, %.5g]",
