@@ -9,6 +9,7 @@ import (
 	"rigwire/estimate"
 	"rigwire/estimate/online"
 	"rigwire/profiles"
+	"rigwire/profiles/laws"
 	"rigwire/profiles/markov"
 )
 
@@ -19,10 +20,12 @@ import (
 type FrequencyResult struct {
 	FrequencyHz float64 `json:"frequency_hz"`
 	// Samples were fitted (settled, after the warm-up); Batches and
-	// BatchSize are those of the intervals.
-	Samples   int64 `json:"samples"`
-	Batches   int   `json:"batches"`
-	BatchSize int64 `json:"batch_size"`
+	// BatchSize are those of the intervals, BatchesMerged set when the
+	// complete batches were correlated and merged in pairs for them.
+	Samples       int64 `json:"samples"`
+	Batches       int   `json:"batches"`
+	BatchSize     int64 `json:"batch_size"`
+	BatchesMerged bool  `json:"batches_merged"`
 	// Outputs are per output (in the order of C's rows); an output whose
 	// reference does not move has only its variance.
 	Outputs []FrequencyOutput `json:"outputs"`
@@ -111,7 +114,7 @@ func secondMomentAt(pred *estimate.Prediction, seg int) float64 {
 // frequencyResult describes a fit's estimate against the prediction h
 // (nil: none) and judges it with tolerance tol.
 func frequencyResult(loop *profiles.Loop, seg int, est online.HarmonicEstimate, h *estimate.Harmonic, tol float64) FrequencyResult {
-	r := FrequencyResult{FrequencyHz: loop.Reference.Frequencies[seg], Samples: est.Samples, Batches: est.Batches, BatchSize: est.BatchSize,
+	r := FrequencyResult{FrequencyHz: loop.Reference.Frequencies[seg], Samples: est.Samples, Batches: est.Batches, BatchSize: est.BatchSize, BatchesMerged: est.Merged,
 		Spread: finite(est.Spread), SpreadCILow: finite(est.SpreadLow), SpreadCIHigh: finite(est.SpreadHigh)}
 	if h != nil {
 		r.PredictedSpread = finite(h.Spread)
@@ -138,6 +141,20 @@ func frequencyResult(loop *profiles.Loop, seg int, est online.HarmonicEstimate, 
 	return r
 }
 
+// correlatedBatches says why batches whose spreads are serially
+// correlated leave the verdict open, and what would close it: merged in
+// pairs and still correlated, a longer dwell doubles them again; too few
+// to merge, a dwell judged over 2·MinFitBatches batches of this size
+// would let them merge.
+func correlatedBatches(loop *profiles.Loop, est online.HarmonicEstimate) string {
+	why := fmt.Sprintf("batches short against the loop's correlation time (batch correlation z = %.2f over %d batches of %d samples", est.BatchCorrelationZ, est.Batches, est.BatchSize)
+	if est.Merged {
+		return why + ", already merged in pairs): a longer dwell has longer batches"
+	}
+	need := float64(2*online.MinFitBatches*est.BatchSize) * loop.Period
+	return why + fmt.Sprintf(", too few to merge in pairs): a dwell with %s of settled samples or more would merge them", laws.FormatSeconds(need))
+}
+
 // judgeHarmonic is the verdict at one frequency: with every interval
 // there and narrow enough to tell, agree when the predicted gain of every
 // moving output lies in its measured interval widened by tol (relative),
@@ -156,7 +173,7 @@ func judgeHarmonic(loop *profiles.Loop, est online.HarmonicEstimate, h *estimate
 	case est.Batches < online.MinFitBatches || math.IsNaN(est.SpreadLow):
 		return FrequencyInconclusive, fmt.Sprintf("only %d complete batches (each at least a cycle and the network's longest mean dwell), want ≥ %d", est.Batches, online.MinFitBatches)
 	case est.BatchCorrelationZ > online.BatchCorrelationZMax:
-		return FrequencyInconclusive, fmt.Sprintf("batches short against the loop's correlation time (batch correlation z = %.2f)", est.BatchCorrelationZ)
+		return FrequencyInconclusive, correlatedBatches(loop, est)
 	}
 	var differ, vague []string
 	for i := range loop.Setpoint {

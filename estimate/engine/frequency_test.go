@@ -5,11 +5,14 @@ import (
 	"math/cmplx"
 	"math/rand/v2"
 	"strconv"
+	"strings"
 	"testing"
 	"time"
 
 	"github.com/prometheus/client_golang/prometheus/testutil/promlint"
 
+	"rigwire/estimate"
+	"rigwire/estimate/online"
 	"rigwire/profiles"
 )
 
@@ -90,5 +93,54 @@ func TestMonitorFrequencyNeedsSequence(t *testing.T) {
 	_, err := profiles.ParseLoop([]byte(loopYAML+sweepYAML+"decode: {format: text, outputs: [{field: 1}]}\n"), "loop.yaml", ".")
 	if err == nil {
 		t.Fatal("accepted")
+	}
+}
+
+// TestJudgeHarmonic walks judgeHarmonic's rule branch by branch on
+// estimates made up around a prediction of gain 0.5, phase −60° and
+// spread 0.001 (the rule is the project's own, estimate/model.md §15;
+// the cases are constructed so that each branch alone decides).
+func TestJudgeHarmonic(t *testing.T) {
+	loop := testLoop(t, sweepYAML+textDecode) // a 10 ms period, amplitude 0.5
+	R := loop.Reference.Phasor(0)
+	h := &estimate.Harmonic{Reference: []complex128{R}, Output: []complex128{R * cmplx.Rect(0.5, -math.Pi/3)}, Spread: 0.001}
+	// est returns an estimate of gain g, phase ph (degrees), standard
+	// error sg of Y in every direction (over |R|) and spread interval
+	// [slo, shi] about 0.001, from 12 batches of 150 samples.
+	est := func(g, ph, sg, slo, shi float64) online.HarmonicEstimate {
+		v := sg * sg * cmplx.Abs(R) * cmplx.Abs(R)
+		return online.HarmonicEstimate{Samples: 1800, Batches: 12, BatchSize: 150, T: 2.2,
+			Phasor: []complex128{R * cmplx.Rect(g, ph*math.Pi/180)}, PhasorCov: [][3]float64{{v, v, 0}},
+			Spread: 0.001, SpreadLow: slo, SpreadHigh: shi, BatchCorrelationZ: 0.3}
+	}
+	good := est(0.5, -60, 0.005, 0.0008, 0.0012)
+	merged := good
+	merged.BatchCorrelationZ, merged.Merged, merged.Batches, merged.BatchSize = 2.6, true, 11, 300
+	for _, c := range []struct {
+		name    string
+		e       online.HarmonicEstimate
+		h       *estimate.Harmonic
+		verdict string
+		reason  string
+	}{
+		{"agree", good, h, FrequencyAgree, "within their intervals widened by 0.1"},
+		{"no prediction", good, nil, FrequencyInconclusive, "no prediction at this frequency"},
+		{"too few batches", func() online.HarmonicEstimate { e := good; e.Batches = 9; return e }(), h, FrequencyInconclusive, "only 9 complete batches"},
+		{"correlated, too few to merge", func() online.HarmonicEstimate { e := good; e.BatchCorrelationZ = 2.5; return e }(), h, FrequencyInconclusive,
+			"z = 2.50 over 12 batches of 150 samples, too few to merge in pairs): a dwell with 30s of settled samples"},
+		{"correlated after merging", merged, h, FrequencyInconclusive, "already merged in pairs): a longer dwell"},
+		// Gain 0.6 ± 2.2·0.005: [0.589, 0.611]·(1 ∓ 0.1) misses 0.5.
+		{"gain differs", est(0.6, -60, 0.005, 0.0008, 0.0012), h, FrequencyDiffer, "gain measured 0.6"},
+		// Gain ± 2.2·0.3 reaches 0.
+		{"gain vague", est(0.5, -60, 0.3, 0.0008, 0.0012), h, FrequencyInconclusive, "cannot be told from 0"},
+		// Phase −70° ± 2.2·0.005/0.5 rad (1.3°), widened by 0.1 rad (5.7°): misses −60°.
+		{"phase differs", est(0.5, -70, 0.005, 0.0008, 0.0012), h, FrequencyDiffer, "phase measured -70.0°"},
+		{"spread differs", est(0.5, -60, 0.005, 0.0005, 0.0008), h, FrequencyDiffer, "spread measured 0.001 [0.0005, 0.0008], predicted 0.001"},
+		{"spread vague", est(0.5, -60, 0.005, 0.0004, 0.0019), h, FrequencyInconclusive, "too wide to tell a factor of 2"},
+	} {
+		v, why := judgeHarmonic(loop, c.e, c.h, 0.1)
+		if v != c.verdict || !strings.Contains(why, c.reason) {
+			t.Errorf("%s: %s (%s), want %s with %q", c.name, v, why, c.verdict, c.reason)
+		}
 	}
 }

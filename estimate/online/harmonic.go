@@ -230,8 +230,12 @@ type HarmonicEstimate struct {
 	Variance                      []float64
 	Spread, SpreadLow, SpreadHigh float64
 	// BatchCorrelationZ is von Neumann's test on the batches' spreads, as
-	// the Estimator's (NaN with fewer than three batches).
+	// the Estimator's (NaN with fewer than three batches); Merged is set
+	// when that test rejected the complete batches and they were merged
+	// in pairs for the intervals (Batches, BatchSize and
+	// BatchCorrelationZ are then the merged batches').
 	BatchCorrelationZ float64
+	Merged            bool
 }
 
 // Result returns the estimate over everything added so far (the batch
@@ -281,7 +285,7 @@ func (f *HarmonicFit) Result() HarmonicEstimate {
 			m.add(&batches[j+1])
 			merged = append(merged, m)
 		}
-		e.Batches, e.BatchSize = len(merged), 2*f.batch
+		e.Batches, e.BatchSize, e.Merged = len(merged), 2*f.batch, true
 		f.batchIntervals(&e, merged, coef)
 	}
 	return e

@@ -134,3 +134,39 @@ func TestHarmonicFitShortAndBad(t *testing.T) {
 		t.Errorf("Add allocates %.0f times", got)
 	}
 }
+
+// TestHarmonicFitMergesCorrelatedBatches: batches whose spreads follow a
+// noise level that wanders slower than a batch (four batches loud, four
+// quiet) fail von Neumann's test and are merged in pairs (Merged, half
+// as many batches, twice as long); batches of white noise are not.
+// Seeded: the white-noise case's z is one draw of a statistic that
+// exceeds the limit 1 % of the time.
+func TestHarmonicFitMergesCorrelatedBatches(t *testing.T) {
+	rng := rand.New(rand.NewPCG(5, 6))
+	for _, c := range []struct {
+		name   string
+		level  func(k int) float64
+		merged bool
+	}{
+		{"wandering level", func(k int) float64 { return 0.2 + 0.8*float64((k/160)%2) }, true},
+		{"white noise", func(int) float64 { return 0.5 }, false},
+	} {
+		f, err := NewHarmonicFit(HarmonicOptions{Outputs: 1, CycleSamples: 40})
+		if err != nil {
+			t.Fatal(err)
+		}
+		for k := range 1200 { // 30 batches of 40
+			th := 2 * math.Pi * float64(k) / 40
+			f.Add([]float64{math.Sin(th) + c.level(k)*rng.NormFloat64()}, th)
+		}
+		e := f.Result()
+		t.Logf("%s: merged %v, %d batches of %d, z %.2f", c.name, e.Merged, e.Batches, e.BatchSize, e.BatchCorrelationZ)
+		wantB, wantS := 30, int64(40)
+		if c.merged {
+			wantB, wantS = 15, 80
+		}
+		if e.Merged != c.merged || e.Batches != wantB || e.BatchSize != wantS {
+			t.Errorf("%s: merged %v, %d batches of %d (z %.2f); want merged %v, %d of %d", c.name, e.Merged, e.Batches, e.BatchSize, e.BatchCorrelationZ, c.merged, wantB, wantS)
+		}
+	}
+}
