@@ -10,10 +10,39 @@ import (
 	"rigwire/profiles/laws"
 )
 
-// runRates simulates runs of loop for dur (estimate.Simulate, after a
-// 100-period warm-up of its own) and judges each as monitor run does with
-// tolerance tol and the default min_samples (judgeInterval against the
-// steady prediction), returning the verdict counts.
+// exampleLoop loads profiles/examples/<path> (a loop file the rates
+// tests simulate).
+func exampleLoop(t *testing.T, path string) *profiles.Loop {
+	t.Helper()
+	l, err := profiles.LoadLoop("../../profiles/examples/" + path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return l
+}
+
+// simulateErrors simulates one run of loop, periods long after a
+// 100-period warm-up of its own (estimate.Simulate with seed), and hands
+// fn each counted sample's error e = r − y (the slice is reused).
+func simulateErrors(t *testing.T, loop *profiles.Loop, periods int, seed uint64, fn func(e []float64)) {
+	t.Helper()
+	e := make([]float64, len(loop.Setpoint))
+	_, err := estimate.Simulate(loop, estimate.SimOptions{Periods: periods + 100, Warmup: 100, Runs: 1, Seed: seed,
+		OnSample: func(_, _ int, r, y []float64) {
+			for j := range e {
+				e[j] = r[j] - y[j]
+			}
+			fn(e)
+		}})
+	if err != nil {
+		t.Fatal(err)
+	}
+}
+
+// runRates simulates runs of loop for dur (simulateErrors) and judges
+// each as monitor run does with tolerance tol and the default
+// min_samples (judgeInterval against the steady prediction), returning
+// the verdict counts.
 func runRates(t *testing.T, loop *profiles.Loop, dur time.Duration, tol float64, runs int, seed uint64) map[string]int {
 	t.Helper()
 	pr, err := estimate.Predict(loop, estimate.PredictOptions{SkipMargin: true})
@@ -21,23 +50,12 @@ func runRates(t *testing.T, loop *profiles.Loop, dur time.Duration, tol float64,
 		t.Fatalf("prediction: %v", err)
 	}
 	counts := map[string]int{}
-	e := make([]float64, len(loop.Setpoint))
 	for run := range runs {
 		on, err := online.New(online.Options{Setpoint: loop.Setpoint})
 		if err != nil {
 			t.Fatal(err)
 		}
-		_, err = estimate.Simulate(loop, estimate.SimOptions{Periods: int(dur.Seconds()/loop.Period+0.5) + 100, Warmup: 100, Runs: 1,
-			Seed: seed + uint64(run),
-			OnSample: func(_, _ int, r, y []float64) {
-				for j := range e {
-					e[j] = r[j] - y[j]
-				}
-				on.AddError(e)
-			}})
-		if err != nil {
-			t.Fatal(err)
-		}
+		simulateErrors(t, loop, int(dur.Seconds()/loop.Period+0.5), seed+uint64(run), on.AddError)
 		v, _ := judgeInterval(on.Run(nil), pr.Error.SecondMoment, tol, "", DefaultMinSamples)
 		counts[v]++
 	}
@@ -70,20 +88,10 @@ func TestRunScenarioRates(t *testing.T) {
 	if testing.Short() {
 		t.Skip("simulates 400 three-minute runs and 600 short ones")
 	}
-	shuttle, err := profiles.LoadLoop("../../profiles/examples/loops/shuttle-remote.yaml")
-	if err != nil {
-		t.Fatal(err)
-	}
-	jitter, err := profiles.LoadLoop("../../profiles/examples/checks/rig-jitter.yaml")
-	if err != nil {
-		t.Fatal(err)
-	}
+	shuttle, jitter, pi := exampleLoop(t, "loops/shuttle-remote.yaml"), exampleLoop(t, "checks/rig-jitter.yaml"), exampleLoop(t, "checks/rig-pi.yaml")
 	// tests/calibrate_e2e_test.go's jitteryController.
+	var err error
 	if jitter.Compute, err = laws.NewGamma(2, 0.002, 0.001); err != nil {
-		t.Fatal(err)
-	}
-	pi, err := profiles.LoadLoop("../../profiles/examples/checks/rig-pi.yaml")
-	if err != nil {
 		t.Fatal(err)
 	}
 	for _, c := range []struct {

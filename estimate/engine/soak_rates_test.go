@@ -8,7 +8,6 @@ import (
 
 	"gonum.org/v1/gonum/stat"
 
-	"rigwire/estimate"
 	"rigwire/estimate/online"
 	"rigwire/profiles"
 )
@@ -38,7 +37,6 @@ func soakRates(t *testing.T, loop *profiles.Loop, sc *profiles.Scenario, runs in
 	h := loop.Period
 	counts := make([]map[string]int, len(sc.Phases))
 	ratios := make([][]float64, len(sc.Phases))
-	e := make([]float64, len(loop.Setpoint))
 	for i, ph := range sc.Phases {
 		counts[i] = map[string]int{}
 		settle := int(math.Round(ph.Settle.Seconds() / h))
@@ -59,22 +57,13 @@ func soakRates(t *testing.T, loop *profiles.Loop, sc *profiles.Scenario, runs in
 				l := *loop
 				l.Profile, l.ProfileFile = st.Profile, ""
 				pr := preds[st.Predict].Error.SecondMoment
-				_, err := estimate.Simulate(&l, estimate.SimOptions{
-					Periods: int(math.Round((end-st.At).Seconds()/h)) + 100, Warmup: 100, Runs: 1,
-					Seed: uint64(run)<<16 | uint64(si),
-					OnSample: func(_, _ int, r, y []float64) {
-						if n++; n <= settle {
-							return
-						}
-						for j := range e {
-							e[j] = r[j] - y[j]
-						}
-						on.AddErrorRef(e, pr)
-						predSum += pr
-					}})
-				if err != nil {
-					t.Fatal(err)
-				}
+				simulateErrors(t, &l, int(math.Round((end-st.At).Seconds()/h)), uint64(run)<<16|uint64(si), func(e []float64) {
+					if n++; n <= settle {
+						return
+					}
+					on.AddErrorRef(e, pr)
+					predSum += pr
+				})
 			}
 			stats := on.Run(nil)
 			pr := predSum / float64(stats.Samples)
@@ -114,10 +103,7 @@ func TestSoakScenarioRates(t *testing.T) {
 	if testing.Short() {
 		t.Skip("simulates 300 soaks")
 	}
-	loop, err := profiles.LoadLoop("../../profiles/examples/checks/soak-diverter.loop.yaml")
-	if err != nil {
-		t.Fatal(err)
-	}
+	loop := exampleLoop(t, "checks/soak-diverter.loop.yaml")
 	sc, err := profiles.LoadScenario("../../profiles/examples/checks/soak-diverter.scenario.yaml")
 	if err != nil {
 		t.Fatal(err)

@@ -114,10 +114,7 @@ func TestSweepScenarioRates(t *testing.T) {
 	if testing.Short() {
 		t.Skip("simulates 300 sweeps")
 	}
-	loop, err := profiles.LoadLoop("../../profiles/examples/checks/rig-sweep.yaml")
-	if err != nil {
-		t.Fatal(err)
-	}
+	loop := exampleLoop(t, "checks/rig-sweep.yaml")
 	const runs = 300
 	counts, res := sweepRates(t, loop, runs, 0.1, 1)
 	for seg, f := range loop.Reference.Frequencies {
@@ -159,10 +156,7 @@ func TestSweepScenarioRates(t *testing.T) {
 			t.Errorf("4 Hz: the loss-free loop's phase is outside the measured interval in %d of %d runs, want ≥ 99 %%", apart, runs)
 		}
 	}
-	soak, err := profiles.LoadLoop("../../profiles/examples/checks/soak-sweep.loop.yaml")
-	if err != nil {
-		t.Fatal(err)
-	}
+	soak := exampleLoop(t, "checks/soak-sweep.loop.yaml")
 	counts, _ = sweepRates(t, soak, runs, 0.15, 9000)
 	for seg, f := range soak.Reference.Frequencies {
 		t.Logf("sweep soak, %g Hz: %v", f, counts[seg])
