@@ -39,14 +39,14 @@ func TestFrequencyResponseEndToEnd(t *testing.T) {
 		t.Skip("end to end: a 2-minute rig run")
 	}
 	t.Parallel()
-	r, s := runSweep(t, 0)
-	if !allAgree(s) {
-		t.Logf("first sweep not all agree; running it once more:")
-		for _, l := range s.FrequencyLines() {
-			t.Log("  " + l)
-		}
-		r, s = runSweep(t, 1)
-	}
+	var (
+		r *rigRun
+		s engine.Summary
+	)
+	playTwice(t, func(replay int) (bool, string) {
+		r, s = runSweep(t, replay)
+		return allAgree(s), "\n  " + strings.Join(s.FrequencyLines(), "\n  ")
+	})
 	for _, l := range s.FrequencyLines() {
 		t.Log(l)
 	}
@@ -78,10 +78,7 @@ func TestFrequencyResponseEndToEnd(t *testing.T) {
 // noise afresh.
 func runSweep(t *testing.T, replay int) (*rigRun, engine.Summary) {
 	t.Helper()
-	o := rigOpts{monitor: true}
-	if replay > 0 {
-		o.relayArgs = []string{"--seed", strconv.Itoa(1000 + replay)}
-	}
+	o := rigOpts{monitor: true, relayArgs: relaySeed(replay)}
 	r := startRigOpts(t, "../profiles/examples/checks/rig-sweep.yaml", 122*time.Second, strconv.Itoa(7+replay), o)
 	b, err := os.ReadFile(r.summary)
 	if err != nil {

@@ -3,6 +3,7 @@ package tests
 import (
 	"bytes"
 	"encoding/json"
+	"fmt"
 	"math"
 	"os"
 	"os/exec"
@@ -65,16 +66,12 @@ func TestLabDemoAcrossNamespaces(t *testing.T) {
 	// Played once more, seeded afresh, when the first run ends other than
 	// agree: a 20-second run of the ideal rig does about 0.8 % of the
 	// time (estimate/engine, TestRunScenarioRates).
-	for replay := range 2 {
+	playTwice(t, func(replay int) (bool, string) {
 		summary := filepath.Join(t.TempDir(), "summary.json")
 		ctlP := start(t, ip, "netns", "exec", ctl, mon, "rig", "controller", "--loop", loopPath, "--listen", ctlAddr)
-		args := []string{"netns", "exec", relay, mon, "serve", "--loop", loopPath, "--listen", listen,
+		srv := start(t, ip, append([]string{"netns", "exec", relay, mon, "serve", "--loop", loopPath, "--listen", listen,
 			"--controller", ctlAddr, "--duration", dur.String(), "--summary", summary,
-			"--tolerance", "0.15", "--metrics", "off", "--progress", "0"}
-		if replay > 0 {
-			args = append(args, "--seed", strconv.Itoa(1000+replay))
-		}
-		srv := start(t, ip, args...)
+			"--tolerance", "0.15", "--metrics", "off", "--progress", "0"}, relaySeed(replay)...)...)
 		time.Sleep(300 * time.Millisecond) // the controller and the relay open their sockets
 		// The node runs until it is stopped, so that it outlasts serve's run.
 		node := start(t, ip, "netns", "exec", rig, mon, "rig", "node", "--loop", loopPath, "--relay", listen, "--seed", strconv.Itoa(11+replay))
@@ -105,11 +102,8 @@ func TestLabDemoAcrossNamespaces(t *testing.T) {
 		if err := json.Unmarshal(b, &s); err != nil {
 			t.Fatalf("summary: %v\n%s", err, b)
 		}
-		if s.Verdict == "agree" {
-			break
-		}
-		t.Logf("run %d: verdict %q:\n%s", replay+1, s.Verdict, b)
-	}
+		return s.Verdict == "agree", fmt.Sprintf("verdict %q:\n%s", s.Verdict, b)
+	})
 	periods := dur.Seconds() / loop.Period
 	t.Logf("samples %d of %.0f periods; measured %v in [%v, %v], predicted %v; verdict %s",
 		s.Samples, periods, deref(s.Measured), deref(s.Low), deref(s.High), deref(s.Predicted), s.Verdict)

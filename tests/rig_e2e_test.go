@@ -224,30 +224,23 @@ func TestRigEndToEnd(t *testing.T) {
 				relTol = calTol
 			}
 			var (
-				r  *rigRun
-				ee []float64
+				r                  *rigRun
+				ee                 []float64
+				mean, half, lo, hi float64
 			)
-			for replay := range 2 {
-				o := rigOpts{monitor: monitor}
-				if replay > 0 {
-					o.relayArgs = []string{"--seed", strconv.Itoa(1000 + replay)}
-				}
-				r = startRigOpts(t, loop, tc.dur, strconv.Itoa(100+i+10*replay), o)
+			covers := func() bool { return r.predicted >= lo && r.predicted <= hi }
+			playTwice(t, func(replay int) (bool, string) {
+				r = startRigOpts(t, loop, tc.dur, strconv.Itoa(100+i+10*replay), rigOpts{monitor: monitor, relayArgs: relaySeed(replay)})
 				var applied int
 				ee, applied = sampleLog(t, r.logPath, r.loop)
-				mean, half := batchMeans(ee, 20)
-				lo, hi := mean-half-relTol*r.predicted, mean+half+relTol*r.predicted
+				mean, half = batchMeans(ee, 20)
+				lo, hi = mean-half-relTol*r.predicted, mean+half+relTol*r.predicted
 				t.Logf("measured %.5g ± %.2g (95 %%), predicted %.5g; applied %d of %d", mean, half, r.predicted, applied, len(ee))
-				if r.predicted >= lo && r.predicted <= hi {
-					break
-				}
-				msg := fmt.Sprintf("predicted E[eᵀe] = %.5g outside the measured [%.5g, %.5g] widened by %g: [%.5g, %.5g]",
+				return covers(), "the prediction is outside the widened interval (TestRigEndToEndRates)"
+			})
+			if !covers() {
+				t.Errorf("predicted E[eᵀe] = %.5g outside the measured [%.5g, %.5g] widened by %g: [%.5g, %.5g]",
 					r.predicted, mean-half, mean+half, relTol, lo, hi)
-				if replay > 0 {
-					t.Error(msg)
-				} else {
-					t.Logf("%s; running it once more with the relay and the rig seeded afresh (TestRigEndToEndRates)", msg)
-				}
 			}
 			want := int(tc.dur.Seconds()/r.loop.Period + 0.5)
 			if len(ee) != want {
@@ -321,18 +314,15 @@ func TestRigServe(t *testing.T) {
 		b  []byte
 		ee []float64
 	)
-	for replay := range 2 {
+	playTwice(t, func(replay int) (bool, string) {
 		var logPath string
 		b, logPath = serveRig(t, loopPath, replay)
 		if err := json.Unmarshal(b, &s); err != nil {
 			t.Fatalf("summary: %v\n%s", err, b)
 		}
 		ee, _ = sampleLog(t, logPath, loop)
-		if s.Verdict == "agree" {
-			break
-		}
-		t.Logf("run %d: verdict %q:\n%s", replay+1, s.Verdict, b)
-	}
+		return s.Verdict == "agree", fmt.Sprintf("verdict %q:\n%s", s.Verdict, b)
+	})
 	direct := 0.0
 	for _, v := range ee {
 		direct += v
@@ -360,12 +350,8 @@ func serveRig(t *testing.T, loopPath string, replay int) ([]byte, string) {
 	ctlAddr, relayAddr := freePort(t, "udp"), freePort(t, "udp")
 	summary, logPath := filepath.Join(dir, "summary.json"), filepath.Join(dir, "samples.csv")
 	ctl := start(t, mon, "rig", "controller", "--loop", loopPath, "--listen", ctlAddr)
-	args := []string{"serve", "--loop", loopPath, "--listen", relayAddr, "--controller", ctlAddr,
-		"--metrics", "off", "--summary", summary, "--progress", "0"}
-	if replay > 0 {
-		args = append(args, "--seed", strconv.Itoa(1000+replay))
-	}
-	srv := start(t, mon, args...)
+	srv := start(t, mon, append([]string{"serve", "--loop", loopPath, "--listen", relayAddr, "--controller", ctlAddr,
+		"--metrics", "off", "--summary", summary, "--progress", "0"}, relaySeed(replay)...)...)
 	time.Sleep(300 * time.Millisecond)
 	node := start(t, mon, "rig", "node", "--loop", loopPath, "--relay", relayAddr,
 		"--log", logPath, "--duration", "15s", "--seed", strconv.Itoa(5+replay))

@@ -2,6 +2,7 @@ package tests
 
 import (
 	"encoding/json"
+	"fmt"
 	"image/png"
 	"os"
 	"path/filepath"
@@ -46,6 +47,15 @@ type soakResult struct {
 	} `json:"trip"`
 }
 
+// verdicts lists the phases' verdicts and reasons, for a log line.
+func (s *soakResult) verdicts() string {
+	var b strings.Builder
+	for _, p := range s.Phases {
+		fmt.Fprintf(&b, "\n  phase %s: %s (%s)", p.Name, p.Verdict, p.Reason)
+	}
+	return b.String()
+}
+
 // runSoak plays scenario on the simulated rig (rig controller and rig node
 // as their own processes, `monitor soak` relaying between them) at the
 // given time scale and returns the exit status, the output and the summary.
@@ -70,10 +80,7 @@ func runSoakLoop(t *testing.T, loop, scenario string, scale string, wall time.Du
 	if reportDir != "" {
 		args = append(args, "--report", reportDir)
 	}
-	if replay > 0 {
-		args = append(args, "--seed", strconv.Itoa(1000+replay))
-	}
-	soak := start(t, mon, args...)
+	soak := start(t, mon, append(args, relaySeed(replay)...)...)
 	time.Sleep(300 * time.Millisecond)
 	node := start(t, mon, "rig", "node", "--loop", loop, "--relay", relayAddr, "--seed", strconv.Itoa(11+replay))
 	code := soak.wait(t, wall+90*time.Second) // predicting the ramp's steps comes first
@@ -125,15 +132,16 @@ func TestSoakPasses(t *testing.T) {
 	t.Parallel()
 	rep := t.TempDir()
 	scenario := filepath.Join("..", "profiles", "examples", "checks", "soak-diverter.scenario.yaml")
-	code, out, s := runSoak(t, scenario, "0.2", 2*time.Minute, rep, 0)
-	if code == 5 {
-		t.Logf("first soak inconclusive (exit 5) with no phase failed; playing it once more:")
-		for _, p := range s.Phases {
-			t.Logf("  phase %s: %s (%s)", p.Name, p.Verdict, p.Reason)
-		}
+	var (
+		code int
+		out  string
+		s    *soakResult
+	)
+	playTwice(t, func(replay int) (bool, string) {
 		rep = t.TempDir()
-		code, out, s = runSoak(t, scenario, "0.2", 2*time.Minute, rep, 1)
-	}
+		code, out, s = runSoak(t, scenario, "0.2", 2*time.Minute, rep, replay)
+		return code != 5, s.verdicts()
+	})
 	if code != 0 {
 		t.Fatalf("monitor soak exited %d, want 0:\n%s", code, out)
 	}
@@ -235,15 +243,16 @@ func TestSoakSweep(t *testing.T) {
 	rep := t.TempDir()
 	dir := filepath.Join("..", "profiles", "examples", "checks")
 	loop, scenario := filepath.Join(dir, "soak-sweep.loop.yaml"), filepath.Join(dir, "soak-sweep.scenario.yaml")
-	code, out, s := runSoakLoop(t, loop, scenario, "1", 80*time.Second, rep, 0)
-	if code == 5 {
-		t.Logf("first soak inconclusive (exit 5) with no phase failed; playing it once more:")
-		for _, p := range s.Phases {
-			t.Logf("  phase %s: %s (%s)", p.Name, p.Verdict, p.Reason)
-		}
+	var (
+		code int
+		out  string
+		s    *soakResult
+	)
+	playTwice(t, func(replay int) (bool, string) {
 		rep = t.TempDir()
-		code, out, s = runSoakLoop(t, loop, scenario, "1", 80*time.Second, rep, 1)
-	}
+		code, out, s = runSoakLoop(t, loop, scenario, "1", 80*time.Second, rep, replay)
+		return code != 5, s.verdicts()
+	})
 	if code != 0 {
 		t.Fatalf("monitor soak exited %d, want 0:\n%s", code, out)
 	}
