@@ -47,6 +47,20 @@ type soakResult struct {
 	} `json:"trip"`
 }
 
+// soakTwice plays a soak that must pass through playTwice: a first play
+// that ends inconclusive (exit 5) with no phase failed is played once
+// more, seeded afresh; a failed phase (exit 7) is not. It returns the
+// kept play's exit status, output, summary and report directory.
+func soakTwice(t *testing.T, loop, scenario, scale string, wall time.Duration) (code int, out string, s *soakResult, rep string) {
+	t.Helper()
+	playTwice(t, func(replay int) (bool, string) {
+		rep = t.TempDir()
+		code, out, s = runSoakLoop(t, loop, scenario, scale, wall, rep, replay)
+		return code != 5, s.verdicts()
+	})
+	return code, out, s, rep
+}
+
 // verdicts lists the phases' verdicts and reasons, for a log line.
 func (s *soakResult) verdicts() string {
 	var b strings.Builder
@@ -59,14 +73,14 @@ func (s *soakResult) verdicts() string {
 // runSoak plays scenario on the simulated rig (rig controller and rig node
 // as their own processes, `monitor soak` relaying between them) at the
 // given time scale and returns the exit status, the output and the summary.
-// Replay 0 is the first play; a replay n > 0 seeds the relay's decisions
-// and the rig's noise afresh, so that it is independent of the first.
-func runSoak(t *testing.T, scenario string, scale string, wall time.Duration, reportDir string, replay int) (int, string, *soakResult) {
+func runSoak(t *testing.T, scenario string, scale string, wall time.Duration, reportDir string) (int, string, *soakResult) {
 	t.Helper()
-	return runSoakLoop(t, filepath.Join("..", "profiles", "examples", "checks", "soak-diverter.loop.yaml"), scenario, scale, wall, reportDir, replay)
+	return runSoakLoop(t, filepath.Join("..", "profiles", "examples", "checks", "soak-diverter.loop.yaml"), scenario, scale, wall, reportDir, 0)
 }
 
-// runSoakLoop is runSoak of another loop.
+// runSoakLoop is runSoak of another loop. Replay 0 is the first play; a
+// replay n > 0 seeds the relay's decisions and the rig's noise afresh, so
+// that it is independent of the first.
 func runSoakLoop(t *testing.T, loop, scenario string, scale string, wall time.Duration, reportDir string, replay int) (int, string, *soakResult) {
 	t.Helper()
 	mon := buildCmd(t, "monitor")
@@ -130,18 +144,8 @@ func TestSoakPasses(t *testing.T) {
 		t.Skip("a two-minute soak")
 	}
 	t.Parallel()
-	rep := t.TempDir()
-	scenario := filepath.Join("..", "profiles", "examples", "checks", "soak-diverter.scenario.yaml")
-	var (
-		code int
-		out  string
-		s    *soakResult
-	)
-	playTwice(t, func(replay int) (bool, string) {
-		rep = t.TempDir()
-		code, out, s = runSoak(t, scenario, "0.2", 2*time.Minute, rep, replay)
-		return code != 5, s.verdicts()
-	})
+	dir := filepath.Join("..", "profiles", "examples", "checks")
+	code, out, s, rep := soakTwice(t, filepath.Join(dir, "soak-diverter.loop.yaml"), filepath.Join(dir, "soak-diverter.scenario.yaml"), "0.2", 2*time.Minute)
 	if code != 0 {
 		t.Fatalf("monitor soak exited %d, want 0:\n%s", code, out)
 	}
@@ -195,7 +199,7 @@ func TestSoakWrongPredictionFails(t *testing.T) {
 		t.Skip("a two-minute soak")
 	}
 	t.Parallel()
-	code, out, s := runSoak(t, filepath.Join("..", "profiles", "examples", "checks", "soak-diverter-wrong.scenario.yaml"), "0.2", 2*time.Minute, "", 0)
+	code, out, s := runSoak(t, filepath.Join("..", "profiles", "examples", "checks", "soak-diverter-wrong.scenario.yaml"), "0.2", 2*time.Minute, "")
 	if code != 7 {
 		t.Fatalf("monitor soak exited %d, want 7 (a phase failed):\n%s", code, out)
 	}
@@ -240,19 +244,8 @@ func TestSoakSweep(t *testing.T) {
 		t.Skip("an 80-second soak")
 	}
 	t.Parallel()
-	rep := t.TempDir()
 	dir := filepath.Join("..", "profiles", "examples", "checks")
-	loop, scenario := filepath.Join(dir, "soak-sweep.loop.yaml"), filepath.Join(dir, "soak-sweep.scenario.yaml")
-	var (
-		code int
-		out  string
-		s    *soakResult
-	)
-	playTwice(t, func(replay int) (bool, string) {
-		rep = t.TempDir()
-		code, out, s = runSoakLoop(t, loop, scenario, "1", 80*time.Second, rep, replay)
-		return code != 5, s.verdicts()
-	})
+	code, out, s, rep := soakTwice(t, filepath.Join(dir, "soak-sweep.loop.yaml"), filepath.Join(dir, "soak-sweep.scenario.yaml"), "1", 80*time.Second)
 	if code != 0 {
 		t.Fatalf("monitor soak exited %d, want 0:\n%s", code, out)
 	}
